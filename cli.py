@@ -1,0 +1,164 @@
+"""The `sensitivity` command line: parsing and printing only; the package computes.
+
+Every subcommand prints a result in `--format text|json|csv|markdown|latex`. Bad input exits 2
+with one line `Error: ...` on stderr; an internal fault exits 1 (with a traceback only under
+`--debug`).
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+
+import click
+
+FORMATS = ("text", "json", "csv", "markdown", "latex")
+
+
+# --------------------------------------------------------------------------- plumbing
+class _Cli(click.Group):
+    """A group whose errors are one line on stderr: 2 for the user's input, 1 for ours."""
+
+    def main(self, args=None, prog_name=None, **extra):
+        args = list(sys.argv[1:] if args is None else args)
+        debug = "--debug" in args
+        extra.pop("standalone_mode", None)
+        try:
+            super().main(args=args, prog_name=prog_name or "sensitivity", standalone_mode=False, **extra)
+        except click.exceptions.Exit as stop:
+            sys.exit(stop.exit_code)
+        except click.Abort:
+            click.echo("Error: aborted", err=True)
+            sys.exit(1)
+        except click.ClickException as err:
+            click.echo(f"Error: {' '.join(err.format_message().split())}", err=True)
+            sys.exit(2)
+        except (ValueError, TypeError) as err:
+            if debug:
+                raise
+            click.echo(f"Error: {' '.join(str(err).split())}", err=True)
+            sys.exit(2)
+        except OSError as err:
+            if debug:
+                raise
+            click.echo(f"Error: {err.strerror or err}: {err.filename or ''}".rstrip(": "), err=True)
+            sys.exit(1)
+        except Exception as err:  # noqa: BLE001 - the contract: no traceback without --debug
+            if debug:
+                raise
+            click.echo(f"Error: internal error ({type(err).__name__}: {err}); rerun with --debug", err=True)
+            sys.exit(1)
+        sys.exit(0)
+
+
+def _format_option(func):
+    func = click.option(
+        "--output", "-o", type=click.Path(dir_okay=False, writable=True), default=None,
+        help="Write the result to FILE instead of stdout.",
+    )(func)
+    return click.option(
+        "--format", "fmt", type=click.Choice(FORMATS), default="text", show_default=True,
+        help="text for reading; json/csv for scripts; markdown/latex to paste into a manuscript.",
+    )(func)
+
+
+def emit(result, fmt: str, output: str | None) -> None:
+    """Print `result` in `fmt`; in machine formats the sentence and cautions go to stderr."""
+    if fmt == "text":
+        body = result.summary()
+    elif fmt == "json":
+        body = json.dumps(result.to_dict(), indent=2, allow_nan=False, ensure_ascii=False)
+    elif fmt == "csv":
+        from sensitivity.tables import records_to_csv
+
+        body = records_to_csv(result.records()).rstrip("\n")
+    else:
+        from sensitivity.tables import render
+
+        body = "\n\n".join(render(t, fmt) for t in result.tables())
+    if output:
+        with open(output, "w", encoding="utf-8") as fh:
+            fh.write(body + "\n")
+        click.echo(f"Wrote {output}", err=True)
+    else:
+        click.echo(body)
+    if fmt in ("csv", "markdown", "latex"):
+        sentence = getattr(result, "sentence", None)
+        extra = [sentence()] if callable(sentence) and getattr(result, "is_scalar", True) else []
+        for line in extra + [f"Note: {n}" for n in result.all_notes()]:
+            click.echo(line, err=True)
+
+
+@click.group(cls=_Cli, context_settings={"help_option_names": ["-h", "--help"]})
+@click.option("--debug", is_flag=True, help="Show tracebacks for internal errors.")
+@click.version_option(package_name="sensitivity", prog_name="sensitivity")
+def cli(debug):
+    """How strong would an unmeasured confounder have to be to explain an estimate away?
+
+    \b
+    evalue      E-value of an estimate and its CI (rr, or, hr, smd, md)
+    partial-r2  partial-R² bounds for a linear-regression coefficient
+    tipping     tipping-point grids for a hidden confounder of chosen strength
+
+    Run `sensitivity COMMAND --help` for each command's options.
+    """
+
+
+# --------------------------------------------------------------------------- evalue
+@cli.command(
+    "evalue",
+    context_settings={"ignore_unknown_options": True},  # lets ESTIMATE be negative (smd/md)
+)
+@click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]))
+@click.argument("estimate", type=float)
+@click.option("--ci", nargs=2, type=float, default=None, metavar="LOWER UPPER",
+              help="Confidence limits on the same scale as ESTIMATE.")
+@click.option("--se", type=float, default=None, help="Standard error (smd and md).")
+@click.option("--sd", type=float, default=None,
+              help="Outcome's standard deviation (md: needed to standardise).")
+@click.option("--contrast", type=float, default=1.0, show_default=True,
+              help="md with a continuous treatment: the coefficient is per unit; report per "
+                   "this many units (e.g. 10).")
+@click.option("--rare", "outcome", flag_value="rare", default=None,
+              help="Outcome under about 15% at the end of follow-up (or, hr).")
+@click.option("--common", "outcome", flag_value="common",
+              help="Outcome 15% or more at the end of follow-up (or, hr).")
+@click.option("--prevalence", type=float, default=None,
+              help="Outcome prevalence; decides rare/common by the 15% rule.")
+@click.option("--target", type=float, default=None,
+              help="True value to test against, on the SCALE's scale (default: the null).")
+@click.option("--confounder", "confounders", nargs=2, type=float, multiple=True,
+              metavar="RR_TREATMENT RR_OUTCOME",
+              help="A hypothetical confounder's risk ratios with the treatment and with the "
+                   "outcome: prints its bounding factor and how far it could move the result. "
+                   "Repeatable.")
+@_format_option
+def evalue_cmd(scale, estimate, ci, se, sd, contrast, outcome, prevalence, target, confounders,
+               fmt, output):
+    """E-value of ESTIMATE on SCALE: rr, or, hr, smd or md.
+
+    \b
+    Examples:
+      sensitivity evalue rr 3.9 --ci 1.8 8.7
+      sensitivity evalue or 2.1 --ci 1.4 3.15 --common
+      sensitivity evalue hr 0.72 --ci 0.6 0.86 --prevalence 0.3
+      sensitivity evalue md 4.2 --se 1.1 --sd 12 --contrast 10
+      sensitivity evalue rr 3.9 --ci 1.8 8.7 --confounder 2 3 --confounder 4 4
+    """
+    from sensitivity.evalues import evalue
+
+    result = evalue(scale, estimate, ci=ci or None, se=se, sd=sd, contrast=contrast,
+                    outcome=outcome, prevalence=prevalence, target=target)
+    if confounders:
+        rr_t, rr_y = zip(*confounders, strict=True)
+        result = result.with_confounders(rr_t, rr_y)
+    emit(result, fmt, output)
+
+
+def main():
+    """Console entry point."""
+    cli.main(prog_name="sensitivity")
+
+
+if __name__ == "__main__":
+    main()
