@@ -24,7 +24,9 @@ class _Cli(click.Group):
         debug = "--debug" in args
         extra.pop("standalone_mode", None)
         try:
-            super().main(args=args, prog_name=prog_name or "sensitivity", standalone_mode=False, **extra)
+            super().main(
+                args=args, prog_name=prog_name or "sensitivity", standalone_mode=False, **extra
+            )
         except click.exceptions.Exit as stop:
             sys.exit(stop.exit_code)
         except click.Abort:
@@ -46,18 +48,27 @@ class _Cli(click.Group):
         except Exception as err:  # noqa: BLE001 - the contract: no traceback without --debug
             if debug:
                 raise
-            click.echo(f"Error: internal error ({type(err).__name__}: {err}); rerun with --debug", err=True)
+            click.echo(
+                f"Error: internal error ({type(err).__name__}: {err}); rerun with --debug", err=True
+            )
             sys.exit(1)
         sys.exit(0)
 
 
 def _format_option(func):
     func = click.option(
-        "--output", "-o", type=click.Path(dir_okay=False, writable=True), default=None,
+        "--output",
+        "-o",
+        type=click.Path(dir_okay=False, writable=True),
+        default=None,
         help="Write the result to FILE instead of stdout.",
     )(func)
     return click.option(
-        "--format", "fmt", type=click.Choice(FORMATS), default="text", show_default=True,
+        "--format",
+        "fmt",
+        type=click.Choice(FORMATS),
+        default="text",
+        show_default=True,
         help="text for reading; json/csv for scripts; markdown/latex to paste into a manuscript.",
     )(func)
 
@@ -109,32 +120,71 @@ def cli(debug):
     "evalue",
     context_settings={"ignore_unknown_options": True},  # lets ESTIMATE be negative (smd/md)
 )
-@click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]))
+@click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), metavar="SCALE")
 @click.argument("estimate", type=float)
-@click.option("--ci", nargs=2, type=float, default=None, metavar="LOWER UPPER",
-              help="Confidence limits on the same scale as ESTIMATE.")
+@click.option(
+    "--ci",
+    nargs=2,
+    type=float,
+    default=None,
+    metavar="LOWER UPPER",
+    help="Confidence limits on the same scale as ESTIMATE.",
+)
 @click.option("--se", type=float, default=None, help="Standard error (smd and md).")
-@click.option("--sd", type=float, default=None,
-              help="Outcome's standard deviation (md: needed to standardise).")
-@click.option("--contrast", type=float, default=1.0, show_default=True,
-              help="md with a continuous treatment: the coefficient is per unit; report per "
-                   "this many units (e.g. 10).")
-@click.option("--rare", "outcome", flag_value="rare", default=None,
-              help="Outcome under about 15% at the end of follow-up (or, hr).")
-@click.option("--common", "outcome", flag_value="common",
-              help="Outcome 15% or more at the end of follow-up (or, hr).")
-@click.option("--prevalence", type=float, default=None,
-              help="Outcome prevalence; decides rare/common by the 15% rule.")
-@click.option("--target", type=float, default=None,
-              help="True value to test against, on the SCALE's scale (default: the null).")
-@click.option("--confounder", "confounders", nargs=2, type=float, multiple=True,
-              metavar="RR_TREATMENT RR_OUTCOME",
-              help="A hypothetical confounder's risk ratios with the treatment and with the "
-                   "outcome: prints its bounding factor and how far it could move the result. "
-                   "Repeatable.")
+@click.option(
+    "--sd",
+    type=float,
+    default=None,
+    help="Outcome's standard deviation (md: needed to standardise).",
+)
+@click.option(
+    "--contrast",
+    type=float,
+    default=1.0,
+    show_default=True,
+    help="md with a continuous treatment: the coefficient is per unit; report per "
+    "this many units (e.g. 10).",
+)
+@click.option(
+    "--rare",
+    "outcome",
+    flag_value="rare",
+    default=None,
+    help="Outcome under about 15% at the end of follow-up (or, hr).",
+)
+@click.option(
+    "--common",
+    "outcome",
+    flag_value="common",
+    help="Outcome 15% or more at the end of follow-up (or, hr).",
+)
+@click.option(
+    "--prevalence",
+    type=float,
+    default=None,
+    help="Outcome prevalence; decides rare/common by the 15% rule.",
+)
+@click.option(
+    "--target",
+    type=float,
+    default=None,
+    help="True value to test against, on the SCALE's scale (default: the null).",
+)
+@click.option(
+    "--confounder",
+    "confounders",
+    nargs=2,
+    type=float,
+    multiple=True,
+    metavar="RR_TREATMENT RR_OUTCOME",
+    help="A hypothetical confounder's risk ratios with the treatment and with the "
+    "outcome: prints its bounding factor and how far it could move the result. "
+    "Repeatable.",
+)
 @_format_option
-def evalue_cmd(scale, estimate, ci, se, sd, contrast, outcome, prevalence, target, confounders,
-               fmt, output):
+def evalue_cmd(
+    scale, estimate, ci, se, sd, contrast, outcome, prevalence, target, confounders, fmt, output
+):
     """E-value of ESTIMATE on SCALE: rr, or, hr, smd or md.
 
     \b
@@ -142,13 +192,22 @@ def evalue_cmd(scale, estimate, ci, se, sd, contrast, outcome, prevalence, targe
       sensitivity evalue rr 3.9 --ci 1.8 8.7
       sensitivity evalue or 2.1 --ci 1.4 3.15 --common
       sensitivity evalue hr 0.72 --ci 0.6 0.86 --prevalence 0.3
-      sensitivity evalue md 4.2 --se 1.1 --sd 12 --contrast 10
+      sensitivity evalue md 0.42 --se 0.11 --sd 12 --contrast 10
       sensitivity evalue rr 3.9 --ci 1.8 8.7 --confounder 2 3 --confounder 4 4
     """
     from sensitivity.evalues import evalue
 
-    result = evalue(scale, estimate, ci=ci or None, se=se, sd=sd, contrast=contrast,
-                    outcome=outcome, prevalence=prevalence, target=target)
+    result = evalue(
+        scale,
+        estimate,
+        ci=ci or None,
+        se=se,
+        sd=sd,
+        contrast=contrast,
+        outcome=outcome,
+        prevalence=prevalence,
+        target=target,
+    )
     if confounders:
         rr_t, rr_y = zip(*confounders, strict=True)
         result = result.with_confounders(rr_t, rr_y)

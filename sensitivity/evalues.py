@@ -90,7 +90,9 @@ def evalue_of_interval(lower, upper, target=1.0):
     >>> float(evalue_of_interval(0.8, 1.3))
     1.0
     """
-    lower, upper, target = np.broadcast_arrays(*(np.asarray(a, float) for a in (lower, upper, target)))
+    lower, upper, target = np.broadcast_arrays(
+        *(np.asarray(a, float) for a in (lower, upper, target))
+    )
     nearest = np.where(lower > target, lower, np.where(upper < target, upper, target))
     return evalue_of_rr(nearest / target)
 
@@ -179,9 +181,7 @@ def conversion_text(scale, outcome=None, contrast=1.0) -> str:
     if scale == "or":
         return "RR ≈ √OR for a common outcome (VanderWeele 2017)"
     if scale == "hr":
-        return (
-            "RR ≈ (1 − 0.5^√HR) / (1 − 0.5^√(1/HR)) for a common outcome (VanderWeele 2020)"
-        )
+        return "RR ≈ (1 − 0.5^√HR) / (1 − 0.5^√(1/HR)) for a common outcome (VanderWeele 2020)"
     per = f" per {contrast:g} units of treatment" if contrast != 1 else ""
     lead = "d = estimate × contrast / SD, " if scale == "md" else ""
     return f"{lead}RR ≈ exp(0.91 d){per} (VanderWeele & Ding 2017)"
@@ -270,10 +270,24 @@ class ConfounderBound(Displayable):
         )
 
     def records(self) -> list[dict]:
+        """Flat rows, one a confounder (`bias_adjusted_*` columns), for CSV."""
         d = self.to_dict()
         flat = {k: v for k, v in d.items() if k != "bias_adjusted"}
         flat.update({f"bias_adjusted_{k}": v for k, v in d["bias_adjusted"].items()})
         return _rows_of(flat)
+
+    def rows(self) -> list[dict]:
+        """One nested dict a confounder, shaped like the JSON of other results."""
+        out = []
+        for rec in self.records():
+            row = {k: v for k, v in rec.items() if not k.startswith("bias_adjusted_")}
+            row["bias_adjusted"] = {
+                k.removeprefix("bias_adjusted_"): v
+                for k, v in rec.items()
+                if k.startswith("bias_adjusted_")
+            }
+            out.append(row)
+        return out
 
     def table(self) -> Table:
         src = self.source
@@ -328,7 +342,9 @@ class ConfounderBound(Displayable):
             if r["explains_estimate"]:
                 text += f"; it could explain the estimate away (reach {goal})."
             elif r["explains_ci"]:
-                text += f"; it could not explain the estimate away, but the CI could include {goal}."
+                text += (
+                    f"; it could not explain the estimate away, but the CI could include {goal}."
+                )
             else:
                 text += f"; it could not move the estimate or its CI to {goal}."
             out.append(text)
@@ -338,9 +354,7 @@ class ConfounderBound(Displayable):
 def _rows_of(flat: dict) -> list[dict]:
     """Split a dict of equal-length lists (or scalars) into one dict a row."""
     n = max((len(v) for v in flat.values() if isinstance(v, list)), default=1)
-    return [
-        {k: (v[i] if isinstance(v, list) else v) for k, v in flat.items()} for i in range(n)
-    ]
+    return [{k: (v[i] if isinstance(v, list) else v) for k, v in flat.items()} for i in range(n)]
 
 
 @dataclass(frozen=True, repr=False)
@@ -433,11 +447,12 @@ class EValueResult(Displayable):
         if self.is_scalar:
             out["sentence"] = self.sentence()
         if self.confounders is not None:
-            out["confounders"] = self.confounders.records()
+            out["confounders"] = self.confounders.rows()
         return out
 
     def _core_dict(self) -> dict:
-        pair = (lambda p: None if p is None else [p[0], p[1]])
+        def pair(p):
+            return None if p is None else [p[0], p[1]]
         return plain(
             {
                 "scale": self.scale,
@@ -478,7 +493,10 @@ class EValueResult(Displayable):
         rows = self._own_records()
         if self.confounders is None:
             return rows
-        return [rows[0] | {f"confounder_{k}": v for k, v in c.items()} for c in self.confounders.records()]
+        return [
+            rows[0] | {f"confounder_{k}": v for k, v in c.items()}
+            for c in self.confounders.records()
+        ]
 
     def to_frame(self):
         """The records as a pandas DataFrame (imports pandas)."""
@@ -661,9 +679,12 @@ def evalue(
     elif se_arr is not None:
         se_d = se_arr if scale == "smd" else se_arr * contrast / sd_arr
         d = np.log(rr) / SMD_SLOPE
-        rr_ci = (np.exp(SMD_SLOPE * d - SMD_INTERVAL * se_d), np.exp(SMD_SLOPE * d + SMD_INTERVAL * se_d))
+        rr_ci = (
+            np.exp(SMD_SLOPE * d - SMD_INTERVAL * se_d),
+            np.exp(SMD_SLOPE * d + SMD_INTERVAL * se_d),
+        )
     elif not ratio:
-        notes.append(f"No `se` or `ci` given: only the estimate's E-value is computed.")
+        notes.append("No `se` or `ci` given: only the estimate's E-value is computed.")
 
     e_ci = None
     if rr_ci is not None:
@@ -671,9 +692,10 @@ def evalue(
         covers = (rr_ci[0] <= rr_target) & (rr_ci[1] >= rr_target)
         if np.any(covers):
             where = "The" if est.ndim == 0 else "For some rows the"
+            goal = "null" if target is None else "target"
             notes.append(
-                f"{where} confidence interval includes the {'null' if target is None else 'target'}: "
-                "its E-value is 1 (no confounding is needed to reach it)."
+                f"{where} confidence interval includes the {goal}: its E-value is 1 "
+                "(no confounding is needed to reach it)."
             )
     if np.any(rr == rr_target):
         notes.append("The estimate equals the target: its E-value is 1.")

@@ -88,10 +88,22 @@ def _markdown(table: Table) -> str:
 
 
 _LATEX_ESCAPES = {
-    "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_",
-    "{": r"\{", "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}",
-    "\\": r"\textbackslash{}", "²": r"\textsuperscript{2}", "√": r"$\surd$",
-    "≥": r"$\geq$", "≤": r"$\leq$", "×": r"$\times$", "−": "-",
+    "&": r"\&",
+    "%": r"\%",
+    "$": r"\$",
+    "#": r"\#",
+    "_": r"\_",
+    "{": r"\{",
+    "}": r"\}",
+    "~": r"\textasciitilde{}",
+    "^": r"\textasciicircum{}",
+    "\\": r"\textbackslash{}",
+    "²": r"\textsuperscript{2}",
+    "√": r"$\surd$",
+    "≥": r"$\geq$",
+    "≤": r"$\leq$",
+    "×": r"$\times$",
+    "−": "-",
 }
 
 
