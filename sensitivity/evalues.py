@@ -291,7 +291,6 @@ class ConfounderBound(Displayable):
 
     def table(self) -> Table:
         src = self.source
-        unit = SCALE_NAMES[src.scale]
         rows = []
         for rec in self.records():
             moved_ci = rec["bias_adjusted_ci_limit"]
@@ -311,11 +310,11 @@ class ConfounderBound(Displayable):
         target = "the null" if src.target_is_null else f"{src.target_value:g}"
         return Table(
             columns=(
-                "RR treatment-confounder",
-                "RR confounder-outcome",
+                "RR with treatment",
+                "RR with outcome",
                 "Bounding factor",
-                f"Estimate could move to ({unit})",
-                "CI limit could move to",
+                f"Estimate moved to ({src.scale.upper()})",
+                "CI limit moved to",
                 f"Reaches {target}",
             ),
             rows=tuple(rows),
