@@ -1,0 +1,598 @@
+"""Omitted-variable bias of an OLS coefficient in the partial R² parameterisation.
+
+Pure, vectorised numpy (and `scipy.special` for t quantiles). The adapters in
+`sensitivity.regression` turn fitted models and data into the numbers these functions take.
+
+Notation: a hidden confounder U with partial R² `r2_treatment` with the treatment given the
+observed covariates, and `r2_outcome` with the outcome given treatment and covariates.
+
+References
+----------
+Cinelli C, Hazlett C (2020). Making sense of sensitivity: extending omitted variable bias.
+Journal of the Royal Statistical Society, Series B 82:39-67.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import cautions
+from ._checks import OPEN_UNIT, POSITIVE, R2_STRENGTH, Rule, require
+from ._results import Displayable, plain
+from ._warnings import SensitivityWarning
+from .tables import Table, bullets, number, percent, render, wrap
+
+DOF_RULE = Rule("must be at least 2", lambda x: ~(x >= 2))
+
+
+def t_critical(alpha, dof):
+    """Two-sided Student-t critical value at level `alpha` on `dof` degrees of freedom."""
+    from scipy.special import stdtrit
+
+    return stdtrit(np.asarray(dof, float), 1 - np.asarray(alpha, float) / 2)
+
+
+# --------------------------------------------------------------------------- formulas
+def partial_r2_of_t(t, dof):
+    """Partial R² of a regressor with the outcome from its t statistic: t² / (t² + dof).
+
+    Examples
+    --------
+    Cinelli & Hazlett (2020): t = 4.18 on 783 dof gives 2.2%.
+
+    >>> round(float(partial_r2_of_t(4.18, 783)), 3)
+    0.022
+    """
+    t2 = np.square(np.asarray(t, float))
+    return t2 / (t2 + np.asarray(dof, float))
+
+
+def partial_r2_of_f(f_stat, df_num, dof):
+    """Partial R² of a group of `df_num` regressors from their joint Wald F statistic.
+
+    ``F q / (F q + dof)``; with one regressor (F = t²) this is `partial_r2_of_t`.
+    """
+    fq = np.asarray(f_stat, float) * np.asarray(df_num, float)
+    return fq / (fq + np.asarray(dof, float))
+
+
+def robustness_value(t, dof, fraction=1.0, alpha=None):
+    """Robustness value: the equal partial R² (with treatment and outcome) that suffices.
+
+    Parameters
+    ----------
+    t : array_like
+        t statistic of the treatment coefficient.
+    dof : array_like
+        Residual degrees of freedom of the OLS fit.
+    fraction : array_like, default 1
+        Share q of the estimate to explain away (1: bring it to zero).
+    alpha : float, optional
+        With `alpha`, the value at which the bias-adjusted interval first reaches
+        ``(1 - q)`` times the estimate (loses significance, for q = 1).
+
+    Returns
+    -------
+    ndarray
+        A value in [0, 1).
+
+    Notes
+    -----
+    With ``f_q = q |t| / sqrt(dof)``: ``RV_q = (sqrt(f_q^4 + 4 f_q^2) - f_q^2) / 2``.
+    With alpha, ``f* = t_crit(1 - alpha/2, dof - 1) / sqrt(dof - 1)`` and ``f = f_q - f*``:
+    0 when ``f_q <= f*``; ``(sqrt(f^4 + 4 f^2) - f^2) / 2`` when ``f* < f_q < 1/f*``;
+    else ``(f_q^2 - f*^2) / (1 + f_q^2)``, where the least strong confounder lies off the
+    diagonal.
+
+    References
+    ----------
+    Cinelli & Hazlett (2020), JRSS-B 82:39, the robustness value (their section 4.2) and its
+    significance version (with the extreme case).
+
+    Examples
+    --------
+    The published summary example (t = 4.18, dof = 783): 13.9% and, at alpha 0.05, 7.6%.
+
+    >>> round(float(robustness_value(4.18, 783)), 3)
+    0.139
+    >>> round(float(robustness_value(4.18, 783, alpha=0.05)), 3)
+    0.076
+    """
+    t = np.asarray(t, float)
+    dof = np.asarray(dof, float)
+    fq = np.asarray(fraction, float) * np.abs(t) / np.sqrt(dof)
+    if alpha is None:
+        return _rv_curve(fq)
+    fstar = t_critical(alpha, dof - 1) / np.sqrt(dof - 1)
+    fa = fq - fstar
+    with np.errstate(divide="ignore", invalid="ignore"):
+        extreme = (fq**2 - fstar**2) / (1 + fq**2)
+    return np.where(fq <= fstar, 0.0, np.where(fq < 1 / fstar, _rv_curve(fa), extreme))
+
+
+def _rv_curve(f):
+    f2 = np.square(f)
+    return (np.sqrt(f2**2 + 4 * f2) - f2) / 2
+
+
+def bias(se, dof, r2_treatment, r2_outcome):
+    """|Bias| of the coefficient from a confounder of the given strengths.
+
+    ``se sqrt(dof) sqrt(r2_outcome r2_treatment / (1 - r2_treatment))`` (Cinelli & Hazlett
+    2020, eq. for the bias in terms of partial R²); exact in-sample for OLS.
+    """
+    r2t = np.asarray(r2_treatment, float)
+    r2y = np.asarray(r2_outcome, float)
+    return np.asarray(se, float) * np.sqrt(dof) * np.sqrt(r2y * r2t / (1 - r2t))
+
+
+def se_with_confounder(se, dof, r2_treatment, r2_outcome):
+    """Standard error the coefficient would have with the confounder in the model.
+
+    ``se sqrt((1 - r2_outcome) / (1 - r2_treatment)) sqrt(dof / (dof - 1))``.
+    """
+    r2t = np.asarray(r2_treatment, float)
+    r2y = np.asarray(r2_outcome, float)
+    return np.asarray(se, float) * np.sqrt((1 - r2y) / (1 - r2t)) * np.sqrt(dof / (dof - 1))
+
+
+def bias_adjusted(estimate, se, dof, r2_treatment, r2_outcome, alpha=0.05):
+    """Estimate, se, t and CI with a confounder of the given strengths (broadcasting).
+
+    The bias is taken in the direction that shrinks |estimate| toward zero (the adverse
+    direction for the conclusion). The adjusted t and interval use ``dof - 1`` degrees of
+    freedom (one more regressor).
+
+    Returns
+    -------
+    dict of ndarray
+        ``bias``, ``estimate``, ``se``, ``t``, ``lower``, ``upper``.
+    """
+    est = np.asarray(estimate, float)
+    b = bias(se, dof, r2_treatment, r2_outcome)
+    adj = est - np.sign(est) * b
+    s = se_with_confounder(se, dof, r2_treatment, r2_outcome)
+    crit = t_critical(alpha, np.asarray(dof, float) - 1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = adj / s
+    return {"bias": b, "estimate": adj, "se": s, "t": t,
+            "lower": adj - crit * s, "upper": adj + crit * s}
+
+
+def benchmark_strengths(r2_treatment_cov, r2_outcome_cov, k_treatment=1.0, k_outcome=None):
+    """Strengths of a confounder k times as strong as an observed covariate (or group).
+
+    Parameters
+    ----------
+    r2_treatment_cov : array_like
+        Partial R² of the covariate with the treatment, given the other covariates.
+    r2_outcome_cov : array_like
+        Partial R² of the covariate with the outcome, given treatment and other covariates.
+    k_treatment, k_outcome : array_like
+        Multipliers on the treatment and outcome sides (`k_outcome` defaults to
+        `k_treatment`).
+
+    Returns
+    -------
+    (r2_treatment, r2_outcome, capped) : tuple of ndarray
+        `capped` flags an outcome-side bound that reached 1 and was capped there.
+
+    Notes
+    -----
+    ``R2_t = k_t r_t / (1 - r_t)``; ``rho² = k_t r_t² / ((1 - k_t r_t)(1 - r_t))``;
+    ``R2_y = ((sqrt(k_y) + sqrt(rho²)) / sqrt(1 - rho²))² r_y / (1 - r_y)``, capped at 1.
+    Assumes the confounder is orthogonal to the covariate given the other covariates.
+
+    References
+    ----------
+    Cinelli & Hazlett (2020), JRSS-B 82:39, section 6 (bounds from observed covariates).
+    """
+    rt = require(r2_treatment_cov, "r2_treatment_cov", R2_STRENGTH)
+    ry = require(r2_outcome_cov, "r2_outcome_cov", R2_STRENGTH)
+    kt = require(k_treatment, "k_treatment", POSITIVE)
+    ky = kt if k_outcome is None else require(k_outcome, "k_outcome", POSITIVE)
+    r2t = kt * rt / (1 - rt)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        rho2 = kt * rt**2 / ((1 - kt * rt) * (1 - rt))
+    bad = (r2t >= 1) | (rho2 >= 1) | (rho2 < 0)
+    if np.any(bad):
+        kk, rr = np.broadcast_arrays(kt, rt)
+        i = np.flatnonzero(np.broadcast_to(bad, kk.shape))[0]
+        raise ValueError(
+            f"`k_treatment` {kk.flat[i]:g} is impossible for a covariate with partial R² "
+            f"{rr.flat[i]:.4g} with the treatment: the confounder would explain all of the "
+            f"treatment's residual variance (largest possible k: {_k_max(rr.flat[i]):.4g})"
+        )
+    r2y = (np.sqrt(ky) + np.sqrt(rho2)) ** 2 / (1 - rho2) * ry / (1 - ry)
+    capped = r2y > 1
+    return r2t, np.minimum(r2y, 1.0), capped
+
+
+def _k_max(r):
+    """Largest k_t for which both R2_t < 1 and rho² < 1 (Cinelli & Hazlett 2020)."""
+    if r <= 0:
+        return float("inf")
+    # R2_t < 1 needs k < (1 - r) / r; rho² < 1 needs k r² < (1 - k r)(1 - r),
+    # i.e. k < (1 - r) / (r² + r (1 - r)) = (1 - r) / r as well: one bound.
+    return (1 - r) / r
+
+
+# --------------------------------------------------------------------------- results
+@dataclass(frozen=True)
+class Scenario:
+    """One confounder strength and the bias-adjusted result under it."""
+
+    label: str
+    r2_treatment: float
+    r2_outcome: float
+    bias: float
+    estimate: float
+    se: float
+    t: float
+    ci: tuple[float, float]
+    kind: str = "hypothetical"  # or "benchmark"
+    benchmark: str | None = None
+    k_treatment: float | None = None
+    k_outcome: float | None = None
+    capped: bool = False
+
+    def to_dict(self) -> dict:
+        out = {
+            "label": self.label,
+            "kind": self.kind,
+            "r2_treatment": self.r2_treatment,
+            "r2_outcome": self.r2_outcome,
+            "bias": self.bias,
+            "bias_adjusted": {"estimate": self.estimate, "se": self.se, "t": self.t,
+                              "ci": list(self.ci)},
+        }
+        if self.kind == "benchmark":
+            out |= {"benchmark": self.benchmark, "k_treatment": self.k_treatment,
+                    "k_outcome": self.k_outcome, "capped": self.capped}
+        return plain(out)
+
+
+@dataclass(frozen=True)
+class CovariateStrength:
+    """An observed covariate (or categorical group): its own partial R² on each side."""
+
+    name: str
+    columns: tuple[str, ...]
+    r2_treatment: float
+    r2_outcome: float
+
+    def to_dict(self) -> dict:
+        return plain({"name": self.name, "columns": list(self.columns),
+                      "r2_treatment": self.r2_treatment, "r2_outcome": self.r2_outcome})
+
+
+@dataclass(frozen=True, repr=False)
+class PartialR2Result(Displayable):
+    """Partial-R² sensitivity of one OLS coefficient, with its inputs and scenarios."""
+
+    estimate: float
+    se: float
+    dof: float
+    t: float
+    partial_r2: float
+    fraction: float
+    alpha: float
+    robustness_value: float
+    robustness_value_alpha: float
+    treatment: str | None = None
+    outcome: str | None = None
+    n: int | None = None
+    scenarios: tuple[Scenario, ...] = ()
+    covariates: tuple[CovariateStrength, ...] | None = None
+    evalue: object | None = None  # an EValueResult through the SMD conversion, if available
+    notes: tuple[str, ...] = ()
+    cautions: tuple[str, ...] = cautions.PARTIAL_R2
+    assumptions: tuple[str, ...] = field(default=(
+        "OLS with classical (homoskedastic) standard errors.",
+        "A single hidden confounder (or a linear combination of several), entering the "
+        "outcome model linearly.",
+        "Benchmarks: the confounder is orthogonal to the benchmark covariate given the others.",
+    ))
+    is_scalar = True
+
+    # ----------------------------------------------------------------- derived views
+    def with_scenarios(self, extra) -> PartialR2Result:
+        from dataclasses import replace
+
+        return replace(self, scenarios=self.scenarios + tuple(extra))
+
+    # ----------------------------------------------------------------- export
+    def to_dict(self) -> dict:
+        out = {
+            "treatment": self.treatment,
+            "outcome": self.outcome,
+            "n": self.n,
+            "estimate": self.estimate,
+            "se": self.se,
+            "dof": self.dof,
+            "t": self.t,
+            "partial_r2": self.partial_r2,
+            "fraction": self.fraction,
+            "alpha": self.alpha,
+            "robustness_value": self.robustness_value,
+            "robustness_value_alpha": self.robustness_value_alpha,
+            "scenarios": [s.to_dict() for s in self.scenarios],
+        }
+        if self.covariates is not None:
+            out["covariates"] = [c.to_dict() for c in self.covariates]
+        if self.evalue is not None:
+            e = self.evalue
+            out["evalue"] = {"evalue": e.evalue, "evalue_ci": e.evalue_ci, "rr": e.rr,
+                             "rr_ci": None if e.rr_ci is None else list(e.rr_ci),
+                             "sd_outcome": e.sd, "conversion": e.conversion}
+        out["assumptions"] = list(self.assumptions)
+        out["sentence"] = self.sentence()
+        out["notes"] = list(self.all_notes())
+        return plain(out)
+
+    def records(self) -> list[dict]:
+        """One flat row a scenario (or one row with no scenarios), for CSV."""
+        base = {k: v for k, v in self.to_dict().items()
+                if k not in ("scenarios", "covariates", "evalue", "notes", "assumptions",
+                             "sentence")}
+        rows = []
+        for s in self.scenarios or [None]:
+            row = dict(base)
+            if s is not None:
+                d = s.to_dict()
+                adj = d.pop("bias_adjusted")
+                row |= {f"scenario_{k}": v for k, v in d.items()}
+                row |= {"bias_adjusted_estimate": adj["estimate"], "bias_adjusted_se": adj["se"],
+                        "bias_adjusted_t": adj["t"], "bias_adjusted_ci_lower": adj["ci"][0],
+                        "bias_adjusted_ci_upper": adj["ci"][1]}
+            rows.append(row)
+        return rows
+
+    def to_frame(self):
+        import pandas as pd
+
+        return pd.DataFrame(self.records())
+
+    # ----------------------------------------------------------------- presentation
+    def _level(self) -> str:
+        return f"{1 - self.alpha:.0%}"
+
+    def _num(self, x) -> str:
+        """Estimate-scale numbers with decimals set by the se (two significant digits of it)."""
+        digits = int(min(8, max(2, 1 - np.floor(np.log10(self.se)))))
+        return number(x, digits)
+
+    def table(self) -> Table:
+        q = self.fraction
+        goal = "zero" if q == 1 else f"{1 - q:g} × its value"
+        rows = [
+            ("Estimate (se)", f"{self._num(self.estimate)} ({self._num(self.se)})"),
+            ("t on dof", f"{self.t:.3f} on {self.dof:g}"),
+            ("Partial R² of treatment with outcome", percent(self.partial_r2)),
+            (f"Robustness value: bring the estimate to {goal}", percent(self.robustness_value)),
+            (f"Robustness value: lose significance (alpha {self.alpha:g})",
+             percent(self.robustness_value_alpha)),
+        ]
+        if self.evalue is not None:
+            e = self.evalue
+            rows.append(("E-value via standardized difference (estimate, CI)",
+                         f"{number(e.evalue)}, {number(e.evalue_ci)}"))
+        who = f" of `{self.treatment}`" if self.treatment else ""
+        return Table(("Quantity", "Value"), tuple(rows),
+                     title=f"Partial-R² sensitivity of the coefficient{who}")
+
+    def scenario_table(self) -> Table | None:
+        if not self.scenarios:
+            return None
+        rows = []
+        for s in self.scenarios:
+            cap = " (capped)" if s.capped else ""
+            rows.append((s.label, percent(s.r2_treatment, 2), percent(s.r2_outcome, 2) + cap,
+                         self._num(s.bias), self._num(s.estimate), self._num(s.se), number(s.t),
+                         f"{self._num(s.ci[0])} to {self._num(s.ci[1])}"))
+        return Table(("Confounder", "R² treatment", "R² outcome", "Bias", "Estimate", "SE", "t",
+                      f"{self._level()} CI"), tuple(rows),
+                     title="Bias-adjusted results under each confounder")
+
+    def covariate_table(self) -> Table | None:
+        if not self.covariates:
+            return None
+        ranked = sorted(self.covariates, key=lambda c: -c.r2_outcome)
+        rows = tuple((c.name, percent(c.r2_treatment, 2), percent(c.r2_outcome, 2))
+                     for c in ranked)
+        return Table(("Observed covariate", "Partial R² with treatment", "Partial R² with outcome"),
+                     rows, title="Strength of each observed covariate (ranked by outcome side)")
+
+    def tables(self) -> list[Table]:
+        return [t for t in (self.table(), self.scenario_table(), self.covariate_table()) if t]
+
+    def sentence(self) -> str:
+        q = self.fraction
+        goal = "to zero" if q == 1 else f"by {q:.0%} (to {1 - q:g} times its value)"
+        text = (
+            f"An unmeasured confounder would have to explain {percent(self.robustness_value)} "
+            f"of the residual variance of both the treatment and the outcome to move the "
+            f"estimate {goal}"
+        )
+        if self.robustness_value_alpha == 0:
+            text += (f"; the estimate is already not significant at alpha {self.alpha:g}, so "
+                     "no confounding is needed to make its interval include that value")
+        else:
+            text += (f", and {percent(self.robustness_value_alpha)} of each to make the "
+                     f"{self._level()} confidence interval include that value")
+        bench = [s for s in self.scenarios if s.kind == "benchmark"]
+        if bench:
+            k_min = min(max(s.k_treatment, s.k_outcome) for s in bench)
+            s = max((s for s in bench if max(s.k_treatment, s.k_outcome) == k_min),
+                    key=lambda s: s.bias)
+            target = (1 - q) * self.estimate
+            flips = s.estimate == 0 or (s.estimate - target) * (self.estimate - target) < 0
+            covers = s.ci[0] <= target <= s.ci[1]
+            k = s.label.split(" as strong as ")[0]
+            text += (f". A confounder {k} as strong as `{s.benchmark}` (the strongest "
+                     f"benchmark at that multiple) would move it to {self._num(s.estimate)} "
+                     f"({self._level()} CI {self._num(s.ci[0])} to {self._num(s.ci[1])})")
+            if flips:
+                text += ", past that value"
+            elif covers:
+                text += ", with an interval that includes that value"
+            else:
+                text += ", not far enough to change the conclusion"
+        return text + "."
+
+    def summary(self) -> str:
+        parts = [render(t, "text") for t in self.tables()]
+        parts.append(wrap(self.sentence()))
+        parts.append(bullets("Assumptions", self.assumptions))
+        parts.append(bullets("Notes", self.notes))
+        parts.append(bullets("Cautions", self.cautions))
+        return "\n\n".join(p for p in parts if p)
+
+
+# --------------------------------------------------------------------------- entry point
+def _check_summary(estimate, se, dof, t, fraction, alpha):
+    est = float(require(estimate, "estimate"))
+    if se is not None and t is not None:
+        raise ValueError("give `se` or `t`, not both")
+    if se is None and t is None:
+        raise ValueError("`se` (or the t statistic `t`) is required")
+    dof = float(require(dof, "dof", DOF_RULE))
+    if t is not None:
+        t = float(require(t, "t"))
+        if t == 0 or est == 0:
+            raise ValueError(f"`t` must be non-zero with a non-zero estimate; got t = {t:g}")
+        if np.sign(t) != np.sign(est):
+            raise ValueError(f"`t` must have the sign of `estimate`; got {t:g} for {est:g}")
+        se = est / t
+    se = float(require(se, "se", POSITIVE))
+    fraction = float(require(fraction, "fraction", POSITIVE))
+    alpha = float(require(alpha, "alpha", OPEN_UNIT))
+    return est, se, dof, fraction, alpha
+
+
+def hypothetical_scenarios(estimate, se, dof, r2_treatment, r2_outcome, alpha, labels=None):
+    """Scenarios for confounders of chosen strengths (`r2_*` are equal-length sequences)."""
+    r2t = np.atleast_1d(require(r2_treatment, "r2_treatment", R2_STRENGTH))
+    r2y = np.atleast_1d(require(r2_outcome, "r2_outcome", R2_STRENGTH))
+    if r2t.shape != r2y.shape:
+        raise ValueError(
+            f"`r2_treatment` and `r2_outcome` must come in pairs; got {r2t.size} and {r2y.size}"
+        )
+    adj = bias_adjusted(estimate, se, dof, r2t, r2y, alpha)
+    out = []
+    for i in range(r2t.size):
+        label = labels[i] if labels else f"R² {r2t[i]:.3g} / {r2y[i]:.3g}"
+        out.append(Scenario(label, float(r2t[i]), float(r2y[i]), float(adj["bias"][i]),
+                            float(adj["estimate"][i]), float(adj["se"][i]), float(adj["t"][i]),
+                            (float(adj["lower"][i]), float(adj["upper"][i]))))
+    return out
+
+
+def benchmark_scenarios(estimate, se, dof, covariate, k_pairs, alpha):
+    """Scenarios for confounders k times as strong as `covariate` (a CovariateStrength)."""
+    out = []
+    for kt, ky in k_pairs:
+        r2t, r2y, capped = benchmark_strengths(covariate.r2_treatment, covariate.r2_outcome,
+                                               kt, ky)
+        adj = bias_adjusted(estimate, se, dof, r2t, r2y, alpha)
+        k = f"{kt:g}x" if kt == ky else f"{kt:g}x/{ky:g}x"
+        if bool(capped):
+            warnings.warn(
+                f"the {k} `{covariate.name}` bound on the outcome side exceeds 1 and was capped "
+                "at 1 (the confounder would explain all residual outcome variance)",
+                SensitivityWarning, stacklevel=3,
+            )
+        out.append(Scenario(
+            f"{k} as strong as {covariate.name}", float(r2t), float(r2y), float(adj["bias"]),
+            float(adj["estimate"]), float(adj["se"]), float(adj["t"]),
+            (float(adj["lower"]), float(adj["upper"])), kind="benchmark",
+            benchmark=covariate.name, k_treatment=float(kt), k_outcome=float(ky),
+            capped=bool(capped),
+        ))
+    return out
+
+
+def partial_r2_summary(estimate, se=None, dof=None, *, t=None, fraction=1.0, alpha=0.05,
+                       r2_treatment=None, r2_outcome=None, sd_outcome=None) -> PartialR2Result:
+    """Partial-R² sensitivity of an OLS coefficient from its summary numbers.
+
+    Parameters
+    ----------
+    estimate : float
+        The coefficient of the treatment.
+    se : float
+        Its (classical) standard error; or give `t` instead.
+    dof : float
+        Residual degrees of freedom of the fit (n minus the number of coefficients).
+    t : float, optional
+        The t statistic, instead of `se`.
+    fraction : float, default 1
+        Share of the estimate a confounder must explain away (1: all of it).
+    alpha : float, default 0.05
+        Significance level for the significance robustness value and adjusted intervals.
+    r2_treatment, r2_outcome : float or sequence, optional
+        Hypothetical confounder strengths, in pairs; each pair adds a scenario.
+    sd_outcome : float, optional
+        The outcome's standard deviation: adds the E-value through the SMD conversion.
+
+    Returns
+    -------
+    PartialR2Result
+
+    Examples
+    --------
+    Cinelli & Hazlett (2020): t = 4.18 on 783 dof.
+
+    >>> res = partial_r2_summary(4.18, se=1.0, dof=783)
+    >>> round(res.partial_r2, 3), round(res.robustness_value, 3), round(res.robustness_value_alpha, 3)
+    (0.022, 0.139, 0.076)
+    """
+    est, se, dof, fraction, alpha = _check_summary(estimate, se, dof, t, fraction, alpha)
+    return assemble(est, se, dof, fraction=fraction, alpha=alpha, r2_treatment=r2_treatment,
+                    r2_outcome=r2_outcome, sd_outcome=sd_outcome)
+
+
+def assemble(est, se, dof, *, fraction, alpha, r2_treatment=None, r2_outcome=None,
+             sd_outcome=None, scenarios=(), **context) -> PartialR2Result:
+    """Build the result from checked numbers; adapters add covariates and benchmarks."""
+    if (r2_treatment is None) != (r2_outcome is None):
+        given, missing = (("r2_treatment", "r2_outcome") if r2_outcome is None
+                          else ("r2_outcome", "r2_treatment"))
+        raise ValueError(f"`{given}` needs `{missing}`: a hypothetical confounder has both")
+    t = est / se
+    hyp = []
+    if r2_treatment is not None:
+        hyp = hypothetical_scenarios(est, se, dof, r2_treatment, r2_outcome, alpha)
+    ev = None
+    if sd_outcome is not None:
+        from .evalues import evalue
+
+        ev = evalue("md", est, se=se, sd=float(require(sd_outcome, "sd_outcome", POSITIVE)))
+    notes = list(context.pop("notes", ()))
+    if ev is not None:
+        notes.append(
+            f"E-value: the coefficient standardised by the outcome's SD ({float(ev.sd):.4g}) "
+            "and mapped to a risk ratio with exp(0.91 d) (VanderWeele & Ding 2017); it answers "
+            "the same question on the risk-ratio scale."
+        )
+    return PartialR2Result(
+        estimate=est, se=se, dof=dof, t=t,
+        partial_r2=float(partial_r2_of_t(t, dof)),
+        fraction=fraction, alpha=alpha,
+        robustness_value=float(robustness_value(t, dof, fraction)),
+        robustness_value_alpha=float(robustness_value(t, dof, fraction, alpha)),
+        scenarios=tuple(hyp) + tuple(scenarios), evalue=ev, notes=tuple(notes), **context,
+    )
+
+
+def surface(estimate, se, dof, r2_treatment, r2_outcome, alpha=0.05):
+    """`bias_adjusted` over the grid of two 1-d strength vectors (rows: r2_treatment).
+
+    The shared computation behind the contour figure and the partial-R² tipping grid.
+    """
+    r2t = np.atleast_1d(require(r2_treatment, "r2_treatment", R2_STRENGTH))
+    r2y = np.atleast_1d(require(r2_outcome, "r2_outcome", R2_STRENGTH))
+    return bias_adjusted(estimate, se, dof, r2t[:, None], r2y[None, :], alpha)

@@ -1,0 +1,258 @@
+"""Adapters: fitted statsmodels OLS models and data-plus-formula into partial-R² results.
+
+The covariate strength table costs two fits in all, whatever the number of covariates: the
+outcome model's own t (or group F) statistics give every covariate's partial R² with the
+outcome, and one regression of the treatment on the covariates gives them with the treatment.
+"""
+
+from __future__ import annotations
+
+import re
+import warnings
+
+import numpy as np
+
+from ._checks import POSITIVE, require
+from ._warnings import SensitivityWarning
+from .partial_r2 import (
+    CovariateStrength,
+    PartialR2Result,
+    _check_summary,
+    assemble,
+    benchmark_scenarios,
+    partial_r2_of_f,
+)
+
+NOT_OLS = (
+    "partial-R² bounds need an ordinary least squares fit; got {kind}. For logistic, Poisson, "
+    "Cox, weighted, IV and other fits use the E-value route (`sensitivity evalue`) on the "
+    "effect's own scale"
+)
+
+
+# --------------------------------------------------------------------------- model parts
+def _check_ols(results):
+    try:
+        from statsmodels.regression.linear_model import OLS
+    except ImportError:  # pragma: no cover - statsmodels is a dependency
+        raise
+    model = getattr(results, "model", None)
+    if model is None or not hasattr(results, "params"):
+        raise TypeError(f"`results` must be a fitted statsmodels model; got {type(results).__name__}")
+    if not isinstance(model, OLS) or not hasattr(results, "normalized_cov_params"):
+        raise ValueError(NOT_OLS.format(kind=type(model).__name__))
+    if getattr(results, "normalized_cov_params", None) is None:
+        raise ValueError(NOT_OLS.format(kind="a regularized OLS fit"))
+    notes = []
+    cov_type = getattr(results, "cov_type", "nonrobust")
+    if cov_type != "nonrobust":
+        message = (
+            f"the model's standard errors are {cov_type}; the partial-R² identities assume "
+            "classical standard errors, so the classical ones of the same fit are used here"
+        )
+        warnings.warn(message, SensitivityWarning, stacklevel=3)
+        notes.append(message[0].upper() + message[1:] + ".")
+    return model, notes
+
+
+def _term_groups(model, names):
+    """Covariate name -> column indices: patsy terms when known, else a name rule."""
+    spec = getattr(getattr(model, "data", None), "model_spec", None)
+    slices = getattr(spec, "term_name_slices", None)
+    if slices:
+        return {term: list(range(len(names)))[sl] for term, sl in slices.items()}
+    groups: dict[str, list[int]] = {}
+    for i, name in enumerate(names):
+        groups.setdefault(re.sub(r"\[[^\]]*\]", "", name), []).append(i)  # x[T.b] -> x
+    return groups
+
+
+def _intercepts(model, names):
+    idx = getattr(getattr(model, "data", None), "const_idx", None)
+    found = {idx} if idx is not None else set()
+    return found | {i for i, n in enumerate(names) if n in ("Intercept", "const")}
+
+
+def _find_treatment(treatment, names, groups):
+    if treatment in names:
+        return names.index(treatment)
+    cols = groups.get(treatment)
+    if cols is not None and len(cols) == 1:
+        return cols[0]
+    if cols is not None:
+        raise ValueError(
+            f"`treatment` {treatment!r} spans {len(cols)} columns ({', '.join(names[i] for i in cols)}); "
+            "name one of them, or code the treatment as a single 0/1 or numeric column"
+        )
+    raise ValueError(
+        f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
+        + ", ".join(names)
+    )
+
+
+def _group_r2(params, cov, dof, cols):
+    """Partial R² of a group of columns from their joint Wald F (t² for one column)."""
+    b = params[cols]
+    v = cov[np.ix_(cols, cols)]
+    f_stat = float(b @ np.linalg.solve(v, b)) / len(cols)
+    return float(partial_r2_of_f(f_stat, len(cols), dof))
+
+
+def covariate_strengths(results, treatment_index, groups, intercepts):
+    """Every observed covariate's (or group's) partial R² with the treatment and the outcome.
+
+    Two fits: the outcome model given, and one OLS of the treatment on the other columns.
+    """
+    import statsmodels.api as sm
+
+    model = results.model
+    X = np.asarray(model.exog, float)
+    params = np.asarray(results.params, float)
+    cov = np.asarray(results.normalized_cov_params, float) * float(results.scale)
+    dof = float(results.df_resid)
+    keep = [i for i in range(X.shape[1]) if i != treatment_index]
+    treat_fit = sm.OLS(X[:, treatment_index], X[:, keep]).fit()
+    t_params = np.asarray(treat_fit.params, float)
+    t_cov = np.asarray(treat_fit.normalized_cov_params, float) * float(treat_fit.scale)
+    position = {col: pos for pos, col in enumerate(keep)}
+    names = list(model.exog_names)
+    out = []
+    for name, cols in groups.items():
+        cols = [c for c in cols if c not in intercepts and c != treatment_index]
+        if not cols:
+            continue
+        r2y = _group_r2(params, cov, dof, cols)
+        r2t = _group_r2(t_params, t_cov, float(treat_fit.df_resid), [position[c] for c in cols])
+        out.append(CovariateStrength(name, tuple(names[c] for c in cols), r2t, r2y))
+    return tuple(out)
+
+
+def _resolve_benchmark(name, covariates):
+    by_name = {c.name: c for c in covariates}
+    if name in by_name:
+        return by_name[name]
+    # A data column used inside a term: `region` for C(region), or a single dummy column.
+    hits = [c for c in covariates
+            if re.match(rf"C\(\s*{re.escape(name)}\s*[,)]", c.name) or name in c.columns]
+    if len(hits) == 1:
+        return hits[0]
+    raise ValueError(
+        f"`benchmark` {name!r} is not an observed covariate of the model; covariates: "
+        + ", ".join(by_name)
+    )
+
+
+def _k_pairs(times, times_pairs):
+    if times is None:
+        times = () if times_pairs else (1.0,)
+    pairs = [(float(require(k, "times", POSITIVE)),) * 2 for k in times]
+    for kt, ky in times_pairs:
+        pairs.append((float(require(kt, "times_pair", POSITIVE)),
+                      float(require(ky, "times_pair", POSITIVE))))
+    return pairs
+
+
+# --------------------------------------------------------------------------- entry points
+def partial_r2_from_model(results, treatment, *, fraction=1.0, alpha=0.05, benchmarks=(),
+                          times=None, times_pairs=(), r2_treatment=None, r2_outcome=None,
+                          notes=()) -> PartialR2Result:
+    """Partial-R² sensitivity of the `treatment` coefficient of a fitted statsmodels OLS model.
+
+    Parameters
+    ----------
+    results : statsmodels RegressionResults
+        A fitted OLS model (formula or arrays). Robust, clustered or HAC covariance gives a
+        `SensitivityWarning` and the classical standard errors of the same fit are used;
+        WLS, GLS, GLM, IV and other fits are refused (use `evalue` on their scale).
+    treatment : str
+        The treatment's coefficient name (or a formula term with one column).
+    fraction, alpha, r2_treatment, r2_outcome
+        As in `partial_r2_summary`.
+    benchmarks : sequence of str
+        Observed covariates (or categorical terms, taken as one group) to benchmark against.
+    times : sequence of float, optional
+        Multiples k: a confounder k times as strong as the benchmark on both sides (default
+        1, unless `times_pairs` is given).
+    times_pairs : sequence of (k_treatment, k_outcome)
+        Separate multiples for the treatment and the outcome sides.
+
+    Returns
+    -------
+    PartialR2Result
+        With `covariates` (every covariate's partial R² on both sides), benchmark scenarios,
+        and the E-value through the standardized-difference conversion (outcome SD from the
+        fit's data).
+    """
+    model, fit_notes = _check_ols(results)
+    names = list(model.exog_names)
+    groups = _term_groups(model, names)
+    j = _find_treatment(treatment, names, groups)
+    treat_name = names[j]
+    for name in names:
+        parts = name.split(":")
+        if len(parts) > 1 and treat_name in parts:
+            raise ValueError(
+                f"`treatment` {treat_name!r} also enters the interaction {name!r}; partial-R² "
+                "bounds need a single treatment coefficient (fit the model without the "
+                "interaction, or analyse an effect at a fixed covariate value)"
+            )
+    dof = float(results.df_resid)
+    cov = np.asarray(results.normalized_cov_params, float) * float(results.scale)
+    est, se, dof, fraction, alpha = _check_summary(
+        float(np.asarray(results.params)[j]), float(np.sqrt(cov[j, j])), dof, None, fraction,
+        alpha,
+    )
+    covariates = covariate_strengths(results, j, groups, _intercepts(model, names))
+    scenarios = []
+    k_pairs = _k_pairs(times, times_pairs)
+    for name in benchmarks:
+        cov_strength = _resolve_benchmark(name, covariates)
+        scenarios += benchmark_scenarios(est, se, dof, cov_strength, k_pairs, alpha)
+    y = np.asarray(model.endog, float)
+    return assemble(
+        est, se, dof, fraction=fraction, alpha=alpha, r2_treatment=r2_treatment,
+        r2_outcome=r2_outcome, sd_outcome=float(np.std(y, ddof=1)), scenarios=scenarios,
+        treatment=treat_name, outcome=str(model.endog_names), n=int(results.nobs),
+        covariates=covariates, notes=tuple(notes) + tuple(fit_notes),
+    )
+
+
+def fit_formula(data, formula):
+    """Fit OLS of `formula` on a DataFrame; ValueError names `formula` for any problem."""
+    import statsmodels.formula.api as smf
+
+    if not isinstance(formula, str) or "~" not in formula:
+        raise ValueError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
+    outcome = formula.split("~", 1)[0].strip()
+    if outcome in data.columns and not np.issubdtype(data[outcome].dtype, np.number):
+        raise ValueError(f"`formula`: the outcome column {outcome!r} must be numeric")
+    try:
+        results = smf.ols(formula, data=data).fit()
+    except Exception as err:  # noqa: BLE001 - patsy/formulaic errors are the user's formula
+        text = " ".join(str(err).split()) or type(err).__name__
+        raise ValueError(f"`formula` {formula!r} could not be fitted: {text[:300]}") from None
+    if results.model.endog.ndim > 1 and results.model.endog.shape[1] > 1:
+        raise ValueError(f"`formula`: the outcome {outcome!r} must be a single numeric column")
+    dropped = len(data) - int(results.nobs)
+    notes = []
+    if dropped:
+        notes.append(f"{dropped} of {len(data)} rows had missing values in the model's "
+                     "columns and were left out of the fit.")
+    if results.df_resid < 2:
+        raise ValueError(f"`data`: the fit has {results.df_resid:g} residual degrees of "
+                         "freedom; need at least 2")
+    return results, notes
+
+
+def partial_r2_from_data(data, formula, treatment, **options) -> PartialR2Result:
+    """Fit `formula` by OLS on `data` (a DataFrame or a file path) and analyse `treatment`.
+
+    Categorical covariates (strings or ``C(x)``) work and benchmark as one group. Options are
+    those of `partial_r2_from_model`.
+    """
+    if not hasattr(data, "columns"):
+        from .io import read_table
+
+        data = read_table(data, "data")
+    results, notes = fit_formula(data, formula)
+    return partial_r2_from_model(results, treatment, notes=notes, **options)
