@@ -223,6 +223,9 @@ def _show_warnings():
         click.echo(f"Warning: {message}", err=True)
 
     warnings.showwarning = show
+    from sensitivity._warnings import SensitivityWarning
+
+    warnings.simplefilter("always", SensitivityWarning)
 
 
 @cli.command("partial-r2")

@@ -220,11 +220,12 @@ def partial_r2_from_model(results, treatment, *, fraction=1.0, alpha=0.05, bench
 def fit_formula(data, formula):
     """Fit OLS of `formula` on a DataFrame; ValueError names `formula` for any problem."""
     import statsmodels.formula.api as smf
+    from pandas.api.types import is_numeric_dtype
 
     if not isinstance(formula, str) or "~" not in formula:
         raise ValueError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
     outcome = formula.split("~", 1)[0].strip()
-    if outcome in data.columns and not np.issubdtype(data[outcome].dtype, np.number):
+    if outcome in data.columns and not is_numeric_dtype(data[outcome]):
         raise ValueError(f"`formula`: the outcome column {outcome!r} must be numeric")
     try:
         results = smf.ols(formula, data=data).fit()

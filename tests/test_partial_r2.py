@@ -1,0 +1,139 @@
+"""Partial-R² formulas: the published summary example, brute force, and properties."""
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from conftest import load_cases
+from sensitivity.partial_r2 import (
+    benchmark_strengths,
+    bias,
+    bias_adjusted,
+    partial_r2_of_t,
+    partial_r2_summary,
+    robustness_value,
+    t_critical,
+)
+
+PUBLISHED = load_cases("partial_r2_published.csv")
+
+
+@pytest.mark.parametrize("case", PUBLISHED, ids=[c["id"] for c in PUBLISHED])
+@pytest.mark.parametrize("stat", ["partial_r2", "robustness_value", "robustness_value_alpha"])
+def test_published_summary(case, stat):
+    # Cinelli & Hazlett (2020), JRSS-B: t = 4.18, dof = 783 -> 2.2%, 13.9%, 7.6%.
+    res = partial_r2_summary(case["t"], se=1.0, dof=case["dof"], alpha=case["alpha"])
+    assert getattr(res, stat) == pytest.approx(case[stat], abs=case["tolerance"])
+
+
+def _brute_rv(t, dof, alpha=None, fraction=1.0, n=2001):
+    """Least max(R2_t, R2_y) over a fine grid at which the conclusion tips."""
+    g = np.linspace(0, 1, n)[:-1]
+    adj = bias_adjusted(t, 1.0, dof, g[:, None], g[None, :], alpha or 0.05)
+    target = (1 - fraction) * t
+    if alpha is None:
+        hit = adj["estimate"] <= target
+    else:
+        hit = adj["lower"] <= target
+    m = np.maximum(g[:, None], g[None, :])
+    return float(np.where(hit, m, np.inf).min())
+
+
+@pytest.mark.parametrize(
+    "t, dof, alpha, fraction",
+    [
+        (4.18, 783, None, 1.0),
+        (4.18, 783, 0.05, 1.0),
+        (2.5, 50, 0.05, 1.0),
+        (6.0, 200, 0.10, 0.5),
+        (30.0, 40, 0.05, 1.0),  # extreme branch: f_q >= 1/f*
+        (60.0, 20, 0.05, 1.0),  # extreme branch, deep
+    ],
+)
+def test_robustness_values_match_brute_force(t, dof, alpha, fraction):
+    rv = float(robustness_value(t, dof, fraction, alpha))
+    assert rv == pytest.approx(_brute_rv(t, dof, alpha, fraction), abs=1.5e-3)
+
+
+def test_extreme_branch_is_taken():
+    fq = 30 / np.sqrt(40)
+    fstar = float(t_critical(0.05, 39)) / np.sqrt(39)
+    assert fq >= 1 / fstar
+    expected = (fq**2 - fstar**2) / (1 + fq**2)
+    assert float(robustness_value(30, 40, alpha=0.05)) == pytest.approx(expected, rel=1e-12)
+
+
+def test_not_significant_gives_zero():
+    assert float(robustness_value(1.5, 100, alpha=0.05)) == 0.0
+    res = partial_r2_summary(1.5, se=1.0, dof=100)
+    assert "already not significant" in res.sentence()
+
+
+def test_benchmark_at_k1_on_the_treatment_side():
+    # METHODS.md section 2: R2_t = k r_t / (1 - r_t).
+    r2t, _, _ = benchmark_strengths(0.1, 0.2, 1.0)
+    assert float(r2t) == pytest.approx(0.1 / 0.9)
+
+
+def test_impossible_multiplier_is_an_error():
+    with pytest.raises(ValueError, match=r"`k_treatment` 10 is impossible .*\(k must be below 9\)"):
+        benchmark_strengths(0.1, 0.2, 10.0)
+
+
+def test_capped_outcome_side_warns():
+    from sensitivity._warnings import SensitivityWarning
+    from sensitivity.partial_r2 import CovariateStrength, benchmark_scenarios
+
+    strong = CovariateStrength("x", ("x",), 0.3, 0.6)
+    with pytest.warns(SensitivityWarning, match="capped at 1"):
+        (sc,) = benchmark_scenarios(1.0, 0.1, 100, strong, [(2.0, 2.0)], 0.05)
+    assert sc.capped and sc.r2_outcome == 1.0
+
+
+# ----------------------------------------------------------------------- properties
+@given(st.floats(0.1, 50), st.floats(0.1, 50), st.integers(3, 10_000))
+def test_robustness_values_rise_with_abs_t(t1, t2, dof):
+    lo, hi = sorted((t1, t2))
+    assert robustness_value(hi, dof) >= robustness_value(lo, dof) - 1e-15
+    assert robustness_value(hi, dof, alpha=0.05) >= robustness_value(lo, dof, alpha=0.05) - 1e-15
+    assert robustness_value(-hi, dof) == robustness_value(hi, dof)
+
+
+@given(st.floats(0, 0.98), st.floats(0, 0.98), st.floats(0, 0.98), st.floats(0, 0.98))
+def test_bias_grows_with_both_strengths(a, b, c, d):
+    t_lo, t_hi = sorted((a, b))
+    y_lo, y_hi = sorted((c, d))
+    assert bias(1.0, 100, t_hi, y_hi) >= bias(1.0, 100, t_lo, y_lo)
+    assert bias(1.0, 100, t_hi, y_lo) >= bias(1.0, 100, t_lo, y_lo)
+
+
+@given(st.floats(-20, 20).filter(lambda t: abs(t) > 1e-3), st.integers(3, 5000))
+def test_partial_r2_in_unit_interval_and_rv_below_one(t, dof):
+    assert 0 < partial_r2_of_t(t, dof) < 1
+    assert 0 <= robustness_value(t, dof) < 1
+
+
+# ----------------------------------------------------------------------- bad input
+@pytest.mark.parametrize(
+    "kwargs, message",
+    [
+        ({"estimate": 1.0, "se": 0.0, "dof": 10}, r"`se` must be positive; got 0"),
+        ({"estimate": 1.0, "se": -0.2, "dof": 10}, r"`se` must be positive; got -0.2"),
+        ({"estimate": 1.0, "se": 0.2, "dof": 1}, r"`dof` must be at least 2; got 1"),
+        ({"estimate": 1.0, "se": 0.2, "dof": 10, "alpha": 1.0}, r"`alpha` must lie strictly between 0 and 1; got 1"),
+        ({"estimate": 1.0, "se": 0.2, "dof": 10, "alpha": 0.0}, r"`alpha` must lie strictly between 0 and 1; got 0"),
+        ({"estimate": 1.0, "se": 0.2, "dof": 10, "fraction": 0.0}, r"`fraction` must be positive; got 0"),
+        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 1.0, "r2_outcome": 0.1}, r"`r2_treatment` must lie in \[0, 1\); got 1"),
+        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 0.1, "r2_outcome": -0.1}, r"`r2_outcome` must lie in \[0, 1\); got -0.1"),
+        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 0.1}, r"`r2_treatment` needs `r2_outcome`"),
+        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_outcome": 0.1}, r"`r2_outcome` needs `r2_treatment`"),
+        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": [0.1, 0.2], "r2_outcome": [0.1]}, r"must come in pairs; got 2 and 1"),
+        ({"estimate": 1.0, "dof": 10}, r"`se` \(or the t statistic `t`\) is required"),
+        ({"estimate": 1.0, "se": 0.2, "t": 5.0, "dof": 10}, r"give `se` or `t`, not both"),
+        ({"estimate": 1.0, "t": -5.0, "dof": 10}, r"`t` must have the sign of `estimate`"),
+    ],
+)
+def test_bad_summary_input(kwargs, message):
+    with pytest.raises(ValueError, match=message):
+        partial_r2_summary(**kwargs)
