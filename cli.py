@@ -232,33 +232,88 @@ def _show_warnings():
 @click.option("--estimate", type=float, help="Summary input: the treatment's OLS coefficient.")
 @click.option("--se", type=float, help="Summary input: its classical standard error.")
 @click.option("--t", "t_stat", type=float, help="Summary input: its t statistic (instead of --se).")
-@click.option("--dof", type=float, help="Summary input: residual degrees of freedom (n - coefficients).")
-@click.option("--data", type=click.Path(dir_okay=False), help="Data input: CSV, TSV, Excel or Parquet file.")
+@click.option(
+    "--dof", type=float, help="Summary input: residual degrees of freedom (n - coefficients)."
+)
+@click.option(
+    "--data", type=click.Path(dir_okay=False), help="Data input: CSV, TSV, Excel or Parquet file."
+)
 @click.option("--formula", help='Data input: OLS formula, e.g. "y ~ t + x1 + C(region)".')
 @click.option("--treatment", help="Data input: the treatment's name in the formula.")
-@click.option("--fraction", type=float, default=1.0, show_default=True,
-              help="Share of the estimate the confounder must explain away.")
+@click.option(
+    "--fraction",
+    type=float,
+    default=1.0,
+    show_default=True,
+    help="Share of the estimate the confounder must explain away.",
+)
 @click.option("--alpha", type=float, default=0.05, show_default=True, help="Significance level.")
-@click.option("--benchmark", "benchmarks", multiple=True,
-              help="Observed covariate to compare with (repeatable; data input).")
-@click.option("--times", multiple=True, type=float,
-              help="Benchmark multiple k, both sides (repeatable; default 1).")
-@click.option("--times-pair", "times_pairs", nargs=2, type=float, multiple=True,
-              metavar="K_TREATMENT K_OUTCOME",
-              help="Separate benchmark multiples for the treatment and outcome sides (repeatable).")
-@click.option("--r2-treatment", multiple=True, type=float,
-              help="Hypothetical confounder: partial R² with the treatment (pairs with --r2-outcome).")
-@click.option("--r2-outcome", multiple=True, type=float,
-              help="Hypothetical confounder: partial R² with the outcome.")
+@click.option(
+    "--benchmark",
+    "benchmarks",
+    multiple=True,
+    help="Observed covariate to compare with (repeatable; data input).",
+)
+@click.option(
+    "--times",
+    multiple=True,
+    type=float,
+    help="Benchmark multiple k, both sides (repeatable; default 1).",
+)
+@click.option(
+    "--times-pair",
+    "times_pairs",
+    nargs=2,
+    type=float,
+    multiple=True,
+    metavar="K_TREATMENT K_OUTCOME",
+    help="Separate benchmark multiples for the treatment and outcome sides (repeatable).",
+)
+@click.option(
+    "--r2-treatment",
+    multiple=True,
+    type=float,
+    help="Hypothetical confounder: partial R² with the treatment (pairs with --r2-outcome).",
+)
+@click.option(
+    "--r2-outcome",
+    multiple=True,
+    type=float,
+    help="Hypothetical confounder: partial R² with the outcome.",
+)
 @click.option("--sd", type=float, help="Summary input: outcome SD, to add the E-value alongside.")
-@click.option("--plot", type=click.Path(dir_okay=False),
-              help="Write a contour figure (.png, .svg or .pdf).")
-@click.option("--plot-statistic", type=click.Choice(["estimate", "t"]), default="estimate",
-              show_default=True, help="What the figure's contours show.")
+@click.option(
+    "--plot", type=click.Path(dir_okay=False), help="Write a contour figure (.png, .svg or .pdf)."
+)
+@click.option(
+    "--plot-statistic",
+    type=click.Choice(["estimate", "t"]),
+    default="estimate",
+    show_default=True,
+    help="What the figure's contours show.",
+)
 @_format_option
-def partial_r2_cmd(estimate, se, t_stat, dof, data, formula, treatment, fraction, alpha,
-                   benchmarks, times, times_pairs, r2_treatment, r2_outcome, sd, plot,
-                   plot_statistic, fmt, output):
+def partial_r2_cmd(
+    estimate,
+    se,
+    t_stat,
+    dof,
+    data,
+    formula,
+    treatment,
+    fraction,
+    alpha,
+    benchmarks,
+    times,
+    times_pairs,
+    r2_treatment,
+    r2_outcome,
+    sd,
+    plot,
+    plot_statistic,
+    fmt,
+    output,
+):
     """Partial-R² sensitivity of a linear-regression (OLS) coefficient.
 
     Give summary numbers (--estimate with --se or --t, and --dof), or data (--data, --formula,
@@ -272,14 +327,30 @@ def partial_r2_cmd(estimate, se, t_stat, dof, data, formula, treatment, fraction
           --treatment t --benchmark age --times 1 --times 2 --plot contours.png
     """
     _show_warnings()
-    summary_given = [n for n, v in (("--estimate", estimate), ("--se", se), ("--t", t_stat),
-                                    ("--dof", dof), ("--sd", sd)) if v is not None]
-    data_given = [n for n, v in (("--data", data), ("--formula", formula),
-                                 ("--treatment", treatment)) if v is not None]
+    summary_given = [
+        n
+        for n, v in (
+            ("--estimate", estimate),
+            ("--se", se),
+            ("--t", t_stat),
+            ("--dof", dof),
+            ("--sd", sd),
+        )
+        if v is not None
+    ]
+    data_given = [
+        n
+        for n, v in (("--data", data), ("--formula", formula), ("--treatment", treatment))
+        if v is not None
+    ]
     if summary_given and data_given:
-        raise click.UsageError(f"give summary numbers or data, not both: got {', '.join(summary_given + data_given)}")
+        raise click.UsageError(
+            f"give summary numbers or data, not both: got {', '.join(summary_given + data_given)}"
+        )
     if not summary_given and not data_given:
-        raise click.UsageError("give --estimate, --se (or --t) and --dof, or --data, --formula and --treatment")
+        raise click.UsageError(
+            "give --estimate, --se (or --t) and --dof, or --data, --formula and --treatment"
+        )
     r2t = list(r2_treatment) or None
     r2y = list(r2_outcome) or None
     if plot:
@@ -293,8 +364,16 @@ def partial_r2_cmd(estimate, se, t_stat, dof, data, formula, treatment, fraction
         from sensitivity.regression import partial_r2_from_data
 
         result = partial_r2_from_data(
-            data, formula, treatment, fraction=fraction, alpha=alpha, benchmarks=benchmarks,
-            times=list(times) or None, times_pairs=times_pairs, r2_treatment=r2t, r2_outcome=r2y,
+            data,
+            formula,
+            treatment,
+            fraction=fraction,
+            alpha=alpha,
+            benchmarks=benchmarks,
+            times=list(times) or None,
+            times_pairs=times_pairs,
+            r2_treatment=r2t,
+            r2_outcome=r2y,
         )
     else:
         if benchmarks or times or times_pairs:
@@ -305,8 +384,17 @@ def partial_r2_cmd(estimate, se, t_stat, dof, data, formula, treatment, fraction
             raise click.UsageError("summary input needs --dof")
         from sensitivity.partial_r2 import partial_r2_summary
 
-        result = partial_r2_summary(estimate, se, dof, t=t_stat, fraction=fraction, alpha=alpha,
-                                    r2_treatment=r2t, r2_outcome=r2y, sd_outcome=sd)
+        result = partial_r2_summary(
+            estimate,
+            se,
+            dof,
+            t=t_stat,
+            fraction=fraction,
+            alpha=alpha,
+            r2_treatment=r2t,
+            r2_outcome=r2y,
+            sd_outcome=sd,
+        )
     emit(result, fmt, output)
     if plot:
         from sensitivity.plots import partial_r2_contours

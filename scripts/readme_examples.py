@@ -28,8 +28,13 @@ def blocks(text: str):
 def run(cmd: str, cwd: Path = ROOT) -> subprocess.CompletedProcess:
     args = shlex.split(cmd)
     assert args[0] == "sensitivity", f"README example must start with 'sensitivity': {cmd}"
-    return subprocess.run([sys.executable, "-m", "sensitivity", *args[1:]], cwd=cwd,
-                          capture_output=True, text=True, timeout=120)
+    return subprocess.run(
+        [sys.executable, "-m", "sensitivity", *args[1:]],
+        cwd=cwd,
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
 
 
 def refresh() -> None:
@@ -39,7 +44,7 @@ def refresh() -> None:
         out = run(cmd)
         if out.returncode:
             sys.exit(f"{cmd!r} failed: {out.stderr}")
-        pieces += [text[last:m.start()], f"```console\n$ {cmd}\n{out.stdout}```"]
+        pieces += [text[last : m.start()], f"```console\n$ {cmd}\n{out.stdout}```"]
         last = m.end()
     README.write_text("".join(pieces) + text[last:], encoding="utf-8")
 

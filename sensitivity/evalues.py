@@ -452,6 +452,7 @@ class EValueResult(Displayable):
     def _core_dict(self) -> dict:
         def pair(p):
             return None if p is None else [p[0], p[1]]
+
         return plain(
             {
                 "scale": self.scale,

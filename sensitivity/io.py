@@ -5,8 +5,14 @@ from __future__ import annotations
 from pathlib import Path
 
 READERS = {
-    ".csv": "csv", ".txt": "csv", ".tsv": "tsv", ".tab": "tsv",
-    ".xlsx": "excel", ".xls": "excel", ".parquet": "parquet", ".pq": "parquet",
+    ".csv": "csv",
+    ".txt": "csv",
+    ".tsv": "tsv",
+    ".tab": "tsv",
+    ".xlsx": "excel",
+    ".xls": "excel",
+    ".parquet": "parquet",
+    ".pq": "parquet",
 }
 
 

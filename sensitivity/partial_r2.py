@@ -158,8 +158,14 @@ def bias_adjusted(estimate, se, dof, r2_treatment, r2_outcome, alpha=0.05):
     crit = t_critical(alpha, np.asarray(dof, float) - 1)
     with np.errstate(divide="ignore", invalid="ignore"):
         t = adj / s
-    return {"bias": b, "estimate": adj, "se": s, "t": t,
-            "lower": adj - crit * s, "upper": adj + crit * s}
+    return {
+        "bias": b,
+        "estimate": adj,
+        "se": s,
+        "t": t,
+        "lower": adj - crit * s,
+        "upper": adj + crit * s,
+    }
 
 
 def benchmark_strengths(r2_treatment_cov, r2_outcome_cov, k_treatment=1.0, k_outcome=None):
@@ -246,12 +252,20 @@ class Scenario:
             "r2_treatment": self.r2_treatment,
             "r2_outcome": self.r2_outcome,
             "bias": self.bias,
-            "bias_adjusted": {"estimate": self.estimate, "se": self.se, "t": self.t,
-                              "ci": list(self.ci)},
+            "bias_adjusted": {
+                "estimate": self.estimate,
+                "se": self.se,
+                "t": self.t,
+                "ci": list(self.ci),
+            },
         }
         if self.kind == "benchmark":
-            out |= {"benchmark": self.benchmark, "k_treatment": self.k_treatment,
-                    "k_outcome": self.k_outcome, "capped": self.capped}
+            out |= {
+                "benchmark": self.benchmark,
+                "k_treatment": self.k_treatment,
+                "k_outcome": self.k_outcome,
+                "capped": self.capped,
+            }
         return plain(out)
 
 
@@ -265,8 +279,14 @@ class CovariateStrength:
     r2_outcome: float
 
     def to_dict(self) -> dict:
-        return plain({"name": self.name, "columns": list(self.columns),
-                      "r2_treatment": self.r2_treatment, "r2_outcome": self.r2_outcome})
+        return plain(
+            {
+                "name": self.name,
+                "columns": list(self.columns),
+                "r2_treatment": self.r2_treatment,
+                "r2_outcome": self.r2_outcome,
+            }
+        )
 
 
 @dataclass(frozen=True, repr=False)
@@ -290,12 +310,14 @@ class PartialR2Result(Displayable):
     evalue: object | None = None  # an EValueResult through the SMD conversion, if available
     notes: tuple[str, ...] = ()
     cautions: tuple[str, ...] = cautions.PARTIAL_R2
-    assumptions: tuple[str, ...] = field(default=(
-        "OLS with classical (homoskedastic) standard errors.",
-        "A single hidden confounder (or a linear combination of several), entering the "
-        "outcome model linearly.",
-        "Benchmarks: the confounder is orthogonal to the benchmark covariate given the others.",
-    ))
+    assumptions: tuple[str, ...] = field(
+        default=(
+            "OLS with classical (homoskedastic) standard errors.",
+            "A single hidden confounder (or a linear combination of several), entering the "
+            "outcome model linearly.",
+            "Benchmarks: the confounder is orthogonal to the benchmark covariate given the others.",
+        )
+    )
     is_scalar = True
 
     # ----------------------------------------------------------------- derived views
@@ -325,9 +347,14 @@ class PartialR2Result(Displayable):
             out["covariates"] = [c.to_dict() for c in self.covariates]
         if self.evalue is not None:
             e = self.evalue
-            out["evalue"] = {"evalue": e.evalue, "evalue_ci": e.evalue_ci, "rr": e.rr,
-                             "rr_ci": None if e.rr_ci is None else list(e.rr_ci),
-                             "sd_outcome": e.sd, "conversion": e.conversion}
+            out["evalue"] = {
+                "evalue": e.evalue,
+                "evalue_ci": e.evalue_ci,
+                "rr": e.rr,
+                "rr_ci": None if e.rr_ci is None else list(e.rr_ci),
+                "sd_outcome": e.sd,
+                "conversion": e.conversion,
+            }
         out["assumptions"] = list(self.assumptions)
         out["sentence"] = self.sentence()
         out["notes"] = list(self.all_notes())
@@ -335,9 +362,11 @@ class PartialR2Result(Displayable):
 
     def records(self) -> list[dict]:
         """One flat row a scenario (or one row with no scenarios), for CSV."""
-        base = {k: v for k, v in self.to_dict().items()
-                if k not in ("scenarios", "covariates", "evalue", "notes", "assumptions",
-                             "sentence")}
+        base = {
+            k: v
+            for k, v in self.to_dict().items()
+            if k not in ("scenarios", "covariates", "evalue", "notes", "assumptions", "sentence")
+        }
         rows = []
         for s in self.scenarios or [None]:
             row = dict(base)
@@ -345,9 +374,13 @@ class PartialR2Result(Displayable):
                 d = s.to_dict()
                 adj = d.pop("bias_adjusted")
                 row |= {f"scenario_{k}": v for k, v in d.items()}
-                row |= {"bias_adjusted_estimate": adj["estimate"], "bias_adjusted_se": adj["se"],
-                        "bias_adjusted_t": adj["t"], "bias_adjusted_ci_lower": adj["ci"][0],
-                        "bias_adjusted_ci_upper": adj["ci"][1]}
+                row |= {
+                    "bias_adjusted_estimate": adj["estimate"],
+                    "bias_adjusted_se": adj["se"],
+                    "bias_adjusted_t": adj["t"],
+                    "bias_adjusted_ci_lower": adj["ci"][0],
+                    "bias_adjusted_ci_upper": adj["ci"][1],
+                }
             rows.append(row)
         return rows
 
@@ -373,16 +406,25 @@ class PartialR2Result(Displayable):
             ("t on dof", f"{self.t:.3f} on {self.dof:g}"),
             ("Partial R² of treatment with outcome", percent(self.partial_r2)),
             (f"Robustness value: bring the estimate to {goal}", percent(self.robustness_value)),
-            (f"Robustness value: lose significance (alpha {self.alpha:g})",
-             percent(self.robustness_value_alpha)),
+            (
+                f"Robustness value: lose significance (alpha {self.alpha:g})",
+                percent(self.robustness_value_alpha),
+            ),
         ]
         if self.evalue is not None:
             e = self.evalue
-            rows.append(("E-value via standardized difference (estimate, CI)",
-                         f"{number(e.evalue)}, {number(e.evalue_ci)}"))
+            rows.append(
+                (
+                    "E-value via standardized difference (estimate, CI)",
+                    f"{number(e.evalue)}, {number(e.evalue_ci)}",
+                )
+            )
         who = f" of `{self.treatment}`" if self.treatment else ""
-        return Table(("Quantity", "Value"), tuple(rows),
-                     title=f"Partial-R² sensitivity of the coefficient{who}")
+        return Table(
+            ("Quantity", "Value"),
+            tuple(rows),
+            title=f"Partial-R² sensitivity of the coefficient{who}",
+        )
 
     def scenario_table(self) -> Table | None:
         if not self.scenarios:
@@ -390,21 +432,43 @@ class PartialR2Result(Displayable):
         rows = []
         for s in self.scenarios:
             cap = " (capped)" if s.capped else ""
-            rows.append((s.label, percent(s.r2_treatment, 2), percent(s.r2_outcome, 2) + cap,
-                         self._num(s.bias), self._num(s.estimate), self._num(s.se), number(s.t),
-                         f"{self._num(s.ci[0])} to {self._num(s.ci[1])}"))
-        return Table(("Confounder", "R² treatment", "R² outcome", "Bias", "Estimate", "SE", "t",
-                      f"{self._level()} CI"), tuple(rows),
-                     title="Bias-adjusted results under each confounder")
+            rows.append(
+                (
+                    s.label,
+                    percent(s.r2_treatment, 2),
+                    percent(s.r2_outcome, 2) + cap,
+                    self._num(s.bias),
+                    self._num(s.estimate),
+                    self._num(s.se),
+                    number(s.t),
+                    f"{self._num(s.ci[0])} to {self._num(s.ci[1])}",
+                )
+            )
+        return Table(
+            (
+                "Confounder",
+                "R² treatment",
+                "R² outcome",
+                "Bias",
+                "Estimate",
+                "SE",
+                "t",
+                f"{self._level()} CI",
+            ),
+            tuple(rows),
+            title="Bias-adjusted results under each confounder",
+        )
 
     def covariate_table(self) -> Table | None:
         if not self.covariates:
             return None
         ranked = sorted(self.covariates, key=lambda c: -c.r2_outcome)
-        rows = tuple((c.name, percent(c.r2_treatment, 2), percent(c.r2_outcome, 2))
-                     for c in ranked)
-        return Table(("Observed covariate", "Partial R² with treatment", "Partial R² with outcome"),
-                     rows, title="Strength of each observed covariate (ranked by outcome side)")
+        rows = tuple((c.name, percent(c.r2_treatment, 2), percent(c.r2_outcome, 2)) for c in ranked)
+        return Table(
+            ("Observed covariate", "Partial R² with treatment", "Partial R² with outcome"),
+            rows,
+            title="Strength of each observed covariate (ranked by outcome side)",
+        )
 
     def tables(self) -> list[Table]:
         return [t for t in (self.table(), self.scenario_table(), self.covariate_table()) if t]
@@ -418,23 +482,30 @@ class PartialR2Result(Displayable):
             f"estimate {goal}"
         )
         if self.robustness_value_alpha == 0:
-            text += (f"; the estimate is already not significant at alpha {self.alpha:g}, so "
-                     "no confounding is needed to make its interval include that value")
+            text += (
+                f"; the estimate is already not significant at alpha {self.alpha:g}, so "
+                "no confounding is needed to make its interval include that value"
+            )
         else:
-            text += (f", and {percent(self.robustness_value_alpha)} of each to make the "
-                     f"{self._level()} confidence interval include that value")
+            text += (
+                f", and {percent(self.robustness_value_alpha)} of each to make the "
+                f"{self._level()} confidence interval include that value"
+            )
         bench = [s for s in self.scenarios if s.kind == "benchmark"]
         if bench:
             k_min = min(max(s.k_treatment, s.k_outcome) for s in bench)
-            s = max((s for s in bench if max(s.k_treatment, s.k_outcome) == k_min),
-                    key=lambda s: s.bias)
+            s = max(
+                (s for s in bench if max(s.k_treatment, s.k_outcome) == k_min), key=lambda s: s.bias
+            )
             target = (1 - q) * self.estimate
             flips = s.estimate == 0 or (s.estimate - target) * (self.estimate - target) < 0
             covers = s.ci[0] <= target <= s.ci[1]
             k = s.label.split(" as strong as ")[0]
-            text += (f". A confounder {k} as strong as `{s.benchmark}` (the strongest "
-                     f"benchmark at that multiple) would move it to {self._num(s.estimate)} "
-                     f"({self._level()} CI {self._num(s.ci[0])} to {self._num(s.ci[1])})")
+            text += (
+                f". A confounder {k} as strong as `{s.benchmark}` (the strongest "
+                f"benchmark at that multiple) would move it to {self._num(s.estimate)} "
+                f"({self._level()} CI {self._num(s.ci[0])} to {self._num(s.ci[1])})"
+            )
             if flips:
                 text += ", past that value"
             elif covers:
@@ -485,9 +556,18 @@ def hypothetical_scenarios(estimate, se, dof, r2_treatment, r2_outcome, alpha, l
     out = []
     for i in range(r2t.size):
         label = labels[i] if labels else f"R² {r2t[i]:.3g} / {r2y[i]:.3g}"
-        out.append(Scenario(label, float(r2t[i]), float(r2y[i]), float(adj["bias"][i]),
-                            float(adj["estimate"][i]), float(adj["se"][i]), float(adj["t"][i]),
-                            (float(adj["lower"][i]), float(adj["upper"][i]))))
+        out.append(
+            Scenario(
+                label,
+                float(r2t[i]),
+                float(r2y[i]),
+                float(adj["bias"][i]),
+                float(adj["estimate"][i]),
+                float(adj["se"][i]),
+                float(adj["t"][i]),
+                (float(adj["lower"][i]), float(adj["upper"][i])),
+            )
+        )
     return out
 
 
@@ -495,28 +575,48 @@ def benchmark_scenarios(estimate, se, dof, covariate, k_pairs, alpha):
     """Scenarios for confounders k times as strong as `covariate` (a CovariateStrength)."""
     out = []
     for kt, ky in k_pairs:
-        r2t, r2y, capped = benchmark_strengths(covariate.r2_treatment, covariate.r2_outcome,
-                                               kt, ky)
+        r2t, r2y, capped = benchmark_strengths(covariate.r2_treatment, covariate.r2_outcome, kt, ky)
         adj = bias_adjusted(estimate, se, dof, r2t, r2y, alpha)
         k = f"{kt:g}x" if kt == ky else f"{kt:g}x/{ky:g}x"
         if bool(capped):
             warnings.warn(
                 f"the {k} `{covariate.name}` bound on the outcome side exceeds 1 and was capped "
                 "at 1 (the confounder would explain all residual outcome variance)",
-                SensitivityWarning, stacklevel=3,
+                SensitivityWarning,
+                stacklevel=3,
             )
-        out.append(Scenario(
-            f"{k} as strong as {covariate.name}", float(r2t), float(r2y), float(adj["bias"]),
-            float(adj["estimate"]), float(adj["se"]), float(adj["t"]),
-            (float(adj["lower"]), float(adj["upper"])), kind="benchmark",
-            benchmark=covariate.name, k_treatment=float(kt), k_outcome=float(ky),
-            capped=bool(capped),
-        ))
+        out.append(
+            Scenario(
+                f"{k} as strong as {covariate.name}",
+                float(r2t),
+                float(r2y),
+                float(adj["bias"]),
+                float(adj["estimate"]),
+                float(adj["se"]),
+                float(adj["t"]),
+                (float(adj["lower"]), float(adj["upper"])),
+                kind="benchmark",
+                benchmark=covariate.name,
+                k_treatment=float(kt),
+                k_outcome=float(ky),
+                capped=bool(capped),
+            )
+        )
     return out
 
 
-def partial_r2_summary(estimate, se=None, dof=None, *, t=None, fraction=1.0, alpha=0.05,
-                       r2_treatment=None, r2_outcome=None, sd_outcome=None) -> PartialR2Result:
+def partial_r2_summary(
+    estimate,
+    se=None,
+    dof=None,
+    *,
+    t=None,
+    fraction=1.0,
+    alpha=0.05,
+    r2_treatment=None,
+    r2_outcome=None,
+    sd_outcome=None,
+) -> PartialR2Result:
     """Partial-R² sensitivity of an OLS coefficient from its summary numbers.
 
     Parameters
@@ -547,20 +647,41 @@ def partial_r2_summary(estimate, se=None, dof=None, *, t=None, fraction=1.0, alp
     Cinelli & Hazlett (2020): t = 4.18 on 783 dof.
 
     >>> res = partial_r2_summary(4.18, se=1.0, dof=783)
-    >>> round(res.partial_r2, 3), round(res.robustness_value, 3), round(res.robustness_value_alpha, 3)
+    >>> rv, rv_alpha = res.robustness_value, res.robustness_value_alpha
+    >>> round(res.partial_r2, 3), round(rv, 3), round(rv_alpha, 3)
     (0.022, 0.139, 0.076)
     """
     est, se, dof, fraction, alpha = _check_summary(estimate, se, dof, t, fraction, alpha)
-    return assemble(est, se, dof, fraction=fraction, alpha=alpha, r2_treatment=r2_treatment,
-                    r2_outcome=r2_outcome, sd_outcome=sd_outcome)
+    return assemble(
+        est,
+        se,
+        dof,
+        fraction=fraction,
+        alpha=alpha,
+        r2_treatment=r2_treatment,
+        r2_outcome=r2_outcome,
+        sd_outcome=sd_outcome,
+    )
 
 
-def assemble(est, se, dof, *, fraction, alpha, r2_treatment=None, r2_outcome=None,
-             sd_outcome=None, scenarios=(), **context) -> PartialR2Result:
+def assemble(
+    est,
+    se,
+    dof,
+    *,
+    fraction,
+    alpha,
+    r2_treatment=None,
+    r2_outcome=None,
+    sd_outcome=None,
+    scenarios=(),
+    **context,
+) -> PartialR2Result:
     """Build the result from checked numbers; adapters add covariates and benchmarks."""
     if (r2_treatment is None) != (r2_outcome is None):
-        given, missing = (("r2_treatment", "r2_outcome") if r2_outcome is None
-                          else ("r2_outcome", "r2_treatment"))
+        given, missing = (
+            ("r2_treatment", "r2_outcome") if r2_outcome is None else ("r2_outcome", "r2_treatment")
+        )
         raise ValueError(f"`{given}` needs `{missing}`: a hypothetical confounder has both")
     t = est / se
     hyp = []
@@ -579,12 +700,19 @@ def assemble(est, se, dof, *, fraction, alpha, r2_treatment=None, r2_outcome=Non
             "the same question on the risk-ratio scale."
         )
     return PartialR2Result(
-        estimate=est, se=se, dof=dof, t=t,
+        estimate=est,
+        se=se,
+        dof=dof,
+        t=t,
         partial_r2=float(partial_r2_of_t(t, dof)),
-        fraction=fraction, alpha=alpha,
+        fraction=fraction,
+        alpha=alpha,
         robustness_value=float(robustness_value(t, dof, fraction)),
         robustness_value_alpha=float(robustness_value(t, dof, fraction, alpha)),
-        scenarios=tuple(hyp) + tuple(scenarios), evalue=ev, notes=tuple(notes), **context,
+        scenarios=tuple(hyp) + tuple(scenarios),
+        evalue=ev,
+        notes=tuple(notes),
+        **context,
     )
 
 

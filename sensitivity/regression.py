@@ -38,7 +38,9 @@ def _check_ols(results):
         raise
     model = getattr(results, "model", None)
     if model is None or not hasattr(results, "params"):
-        raise TypeError(f"`results` must be a fitted statsmodels model; got {type(results).__name__}")
+        raise TypeError(
+            f"`results` must be a fitted statsmodels model; got {type(results).__name__}"
+        )
     if not isinstance(model, OLS) or not hasattr(results, "normalized_cov_params"):
         raise ValueError(NOT_OLS.format(kind=type(model).__name__))
     if getattr(results, "normalized_cov_params", None) is None:
@@ -81,8 +83,9 @@ def _find_treatment(treatment, names, groups):
         return cols[0]
     if cols is not None:
         raise ValueError(
-            f"`treatment` {treatment!r} spans {len(cols)} columns ({', '.join(names[i] for i in cols)}); "
-            "name one of them, or code the treatment as a single 0/1 or numeric column"
+            f"`treatment` {treatment!r} spans {len(cols)} columns "
+            f"({', '.join(names[i] for i in cols)}); name one of them, or code the "
+            "treatment as a single 0/1 or numeric column"
         )
     raise ValueError(
         f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
@@ -132,8 +135,11 @@ def _resolve_benchmark(name, covariates):
     if name in by_name:
         return by_name[name]
     # A data column used inside a term: `region` for C(region), or a single dummy column.
-    hits = [c for c in covariates
-            if re.match(rf"C\(\s*{re.escape(name)}\s*[,)]", c.name) or name in c.columns]
+    hits = [
+        c
+        for c in covariates
+        if re.match(rf"C\(\s*{re.escape(name)}\s*[,)]", c.name) or name in c.columns
+    ]
     if len(hits) == 1:
         return hits[0]
     raise ValueError(
@@ -147,15 +153,26 @@ def _k_pairs(times, times_pairs):
         times = () if times_pairs else (1.0,)
     pairs = [(float(require(k, "times", POSITIVE)),) * 2 for k in times]
     for kt, ky in times_pairs:
-        pairs.append((float(require(kt, "times_pair", POSITIVE)),
-                      float(require(ky, "times_pair", POSITIVE))))
+        pairs.append(
+            (float(require(kt, "times_pair", POSITIVE)), float(require(ky, "times_pair", POSITIVE)))
+        )
     return pairs
 
 
 # --------------------------------------------------------------------------- entry points
-def partial_r2_from_model(results, treatment, *, fraction=1.0, alpha=0.05, benchmarks=(),
-                          times=None, times_pairs=(), r2_treatment=None, r2_outcome=None,
-                          notes=()) -> PartialR2Result:
+def partial_r2_from_model(
+    results,
+    treatment,
+    *,
+    fraction=1.0,
+    alpha=0.05,
+    benchmarks=(),
+    times=None,
+    times_pairs=(),
+    r2_treatment=None,
+    r2_outcome=None,
+    notes=(),
+) -> PartialR2Result:
     """Partial-R² sensitivity of the `treatment` coefficient of a fitted statsmodels OLS model.
 
     Parameters
@@ -199,7 +216,11 @@ def partial_r2_from_model(results, treatment, *, fraction=1.0, alpha=0.05, bench
     dof = float(results.df_resid)
     cov = np.asarray(results.normalized_cov_params, float) * float(results.scale)
     est, se, dof, fraction, alpha = _check_summary(
-        float(np.asarray(results.params)[j]), float(np.sqrt(cov[j, j])), dof, None, fraction,
+        float(np.asarray(results.params)[j]),
+        float(np.sqrt(cov[j, j])),
+        dof,
+        None,
+        fraction,
         alpha,
     )
     covariates = covariate_strengths(results, j, groups, _intercepts(model, names))
@@ -210,10 +231,20 @@ def partial_r2_from_model(results, treatment, *, fraction=1.0, alpha=0.05, bench
         scenarios += benchmark_scenarios(est, se, dof, cov_strength, k_pairs, alpha)
     y = np.asarray(model.endog, float)
     return assemble(
-        est, se, dof, fraction=fraction, alpha=alpha, r2_treatment=r2_treatment,
-        r2_outcome=r2_outcome, sd_outcome=float(np.std(y, ddof=1)), scenarios=scenarios,
-        treatment=treat_name, outcome=str(model.endog_names), n=int(results.nobs),
-        covariates=covariates, notes=tuple(notes) + tuple(fit_notes),
+        est,
+        se,
+        dof,
+        fraction=fraction,
+        alpha=alpha,
+        r2_treatment=r2_treatment,
+        r2_outcome=r2_outcome,
+        sd_outcome=float(np.std(y, ddof=1)),
+        scenarios=scenarios,
+        treatment=treat_name,
+        outcome=str(model.endog_names),
+        n=int(results.nobs),
+        covariates=covariates,
+        notes=tuple(notes) + tuple(fit_notes),
     )
 
 
@@ -237,11 +268,14 @@ def fit_formula(data, formula):
     dropped = len(data) - int(results.nobs)
     notes = []
     if dropped:
-        notes.append(f"{dropped} of {len(data)} rows had missing values in the model's "
-                     "columns and were left out of the fit.")
+        notes.append(
+            f"{dropped} of {len(data)} rows had missing values in the model's "
+            "columns and were left out of the fit."
+        )
     if results.df_resid < 2:
-        raise ValueError(f"`data`: the fit has {results.df_resid:g} residual degrees of "
-                         "freedom; need at least 2")
+        raise ValueError(
+            f"`data`: the fit has {results.df_resid:g} residual degrees of freedom; need at least 2"
+        )
     return results, notes
 
 

@@ -20,8 +20,16 @@ def fair_csv(tmp_path_factory):
 
 
 def data_args(path, *extra):
-    return ("partial-r2", "--data", path, "--formula", FORMULA, "--treatment", "rate_marriage",
-            *extra)
+    return (
+        "partial-r2",
+        "--data",
+        path,
+        "--formula",
+        FORMULA,
+        "--treatment",
+        "rate_marriage",
+        *extra,
+    )
 
 
 def test_summary_text(run):
@@ -37,12 +45,38 @@ def test_summary_with_t_instead_of_se(run):
 
 
 def test_json_keys_follow_the_contract(run, fair_csv):
-    res = run(*data_args(fair_csv, "--benchmark", "religious", "--times", 1, "--times", 2,
-                         "--r2-treatment", 0.05, "--r2-outcome", 0.05, "--format", "json"))
+    res = run(
+        *data_args(
+            fair_csv,
+            "--benchmark",
+            "religious",
+            "--times",
+            1,
+            "--times",
+            2,
+            "--r2-treatment",
+            0.05,
+            "--r2-outcome",
+            0.05,
+            "--format",
+            "json",
+        )
+    )
     assert res.exit_code == 0, res.stderr
     d = json.loads(res.stdout)
-    for key in ("estimate", "se", "dof", "t", "partial_r2", "fraction", "alpha",
-                "robustness_value", "robustness_value_alpha", "scenarios", "covariates"):
+    for key in (
+        "estimate",
+        "se",
+        "dof",
+        "t",
+        "partial_r2",
+        "fraction",
+        "alpha",
+        "robustness_value",
+        "robustness_value_alpha",
+        "scenarios",
+        "covariates",
+    ):
         assert key in d
     assert len(d["scenarios"]) == 3
     for sc in d["scenarios"]:
@@ -72,7 +106,9 @@ def test_paste_and_table_formats(run, fair_csv, fmt):
         assert rows[0]["scenario_benchmark"] == "age"
 
 
-@pytest.mark.parametrize("suffix, magic", [(".png", b"\x89PNG"), (".svg", b"<?xml"), (".pdf", b"%PDF")])
+@pytest.mark.parametrize(
+    "suffix, magic", [(".png", b"\x89PNG"), (".svg", b"<?xml"), (".pdf", b"%PDF")]
+)
 def test_plot_formats(run, fair_csv, tmp_path, suffix, magic):
     out = tmp_path / f"c{suffix}"
     res = run(*data_args(fair_csv, "--benchmark", "religious", "--plot", out, "--format", "json"))
@@ -97,8 +133,19 @@ def test_capped_benchmark_warns_on_one_line(run, tmp_path):
     y = 0.2 * t + 3 * x + rng.normal(size=300) * 0.3
     path = tmp_path / "strong.csv"
     pd.DataFrame({"y": y, "t": t, "x": x}).to_csv(path, index=False)
-    res = run("partial-r2", "--data", path, "--formula", "y ~ t + x", "--treatment", "t",
-              "--benchmark", "x", "--times", 2)
+    res = run(
+        "partial-r2",
+        "--data",
+        path,
+        "--formula",
+        "y ~ t + x",
+        "--treatment",
+        "t",
+        "--benchmark",
+        "x",
+        "--times",
+        2,
+    )
     assert res.exit_code == 0
     assert res.stderr.startswith("Warning: the 2x `x` bound on the outcome side exceeds 1")
 
@@ -106,19 +153,61 @@ def test_capped_benchmark_warns_on_one_line(run, tmp_path):
 @pytest.mark.parametrize(
     "args, message",
     [
-        (("partial-r2", "--estimate", 1, "--se", 0, "--dof", 10), "Error: `se` must be positive; got 0"),
-        (("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 1), "Error: `dof` must be at least 2; got 1"),
-        (("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--alpha", 1.5), "Error: `alpha` must lie strictly between 0 and 1; got 1.5"),
-        (("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--fraction", -1), "Error: `fraction` must be positive; got -1"),
-        (("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--r2-treatment", 1.2, "--r2-outcome", 0.1), "Error: `r2_treatment` must lie in [0, 1); got 1.2"),
-        (("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--r2-treatment", 0.1), "Error: `r2_treatment` needs `r2_outcome`"),
+        (
+            ("partial-r2", "--estimate", 1, "--se", 0, "--dof", 10),
+            "Error: `se` must be positive; got 0",
+        ),
+        (
+            ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 1),
+            "Error: `dof` must be at least 2; got 1",
+        ),
+        (
+            ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--alpha", 1.5),
+            "Error: `alpha` must lie strictly between 0 and 1; got 1.5",
+        ),
+        (
+            ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--fraction", -1),
+            "Error: `fraction` must be positive; got -1",
+        ),
+        (
+            (
+                "partial-r2",
+                "--estimate",
+                1,
+                "--se",
+                0.1,
+                "--dof",
+                50,
+                "--r2-treatment",
+                1.2,
+                "--r2-outcome",
+                0.1,
+            ),
+            "Error: `r2_treatment` must lie in [0, 1); got 1.2",
+        ),
+        (
+            ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--r2-treatment", 0.1),
+            "Error: `r2_treatment` needs `r2_outcome`",
+        ),
         (("partial-r2", "--estimate", 1, "--se", 0.1), "Error: summary input needs --dof"),
         (("partial-r2", "--se", 0.1, "--dof", 10), "Error: summary input needs --estimate"),
         (("partial-r2",), "Error: give --estimate, --se (or --t) and --dof, or --data"),
-        (("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--benchmark", "age"), "Error: --benchmark, --times and --times-pair need data input"),
-        (("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--plot", "x.jpg"), "Error: `plot` must end in .png, .svg or .pdf; got 'x.jpg'"),
-        (("partial-r2", "--data", "missing.csv", "--formula", "y ~ t", "--treatment", "t"), "Error: `data`: file not found: missing.csv"),
-        (("partial-r2", "--data", "x.csv", "--formula", "y ~ t"), "Error: data input needs --treatment as well"),
+        (
+            ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--benchmark", "age"),
+            "Error: --benchmark, --times and --times-pair need data input",
+        ),
+        (
+            ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--plot", "x.jpg"),
+            "Error: `plot` must end in .png, .svg or .pdf; got 'x.jpg'",
+        ),
+        (
+            ("partial-r2", "--data", "missing.csv", "--formula", "y ~ t", "--treatment", "t"),
+            "Error: `data`: file not found: missing.csv",
+        ),
+        (
+            ("partial-r2", "--data", "x.csv", "--formula", "y ~ t"),
+            "Error: data input needs --treatment as well",
+        ),
     ],
 )
 def test_bad_input_exits_2(run, args, message):
@@ -131,10 +220,26 @@ def test_bad_input_exits_2(run, args, message):
 @pytest.mark.parametrize(
     "extra, formula, message",
     [
-        (("--treatment", "nope"), FORMULA, "Error: `treatment` 'nope' is not a coefficient of the model"),
-        (("--treatment", "rate_marriage", "--benchmark", "height"), FORMULA, "Error: `benchmark` 'height' is not an observed covariate"),
-        (("--treatment", "rate_marriage"), "affairs ~ rate_marriage + (", "Error: `formula` 'affairs ~ rate_marriage + (' could not be fitted"),
-        (("--treatment", "rate_marriage", "--benchmark", "religious", "--times", 500), FORMULA, "Error: `k_treatment` 500 is impossible"),
+        (
+            ("--treatment", "nope"),
+            FORMULA,
+            "Error: `treatment` 'nope' is not a coefficient of the model",
+        ),
+        (
+            ("--treatment", "rate_marriage", "--benchmark", "height"),
+            FORMULA,
+            "Error: `benchmark` 'height' is not an observed covariate",
+        ),
+        (
+            ("--treatment", "rate_marriage"),
+            "affairs ~ rate_marriage + (",
+            "Error: `formula` 'affairs ~ rate_marriage + (' could not be fitted",
+        ),
+        (
+            ("--treatment", "rate_marriage", "--benchmark", "religious", "--times", 500),
+            FORMULA,
+            "Error: `k_treatment` 500 is impossible",
+        ),
     ],
 )
 def test_bad_data_input_exits_2(run, fair_csv, extra, formula, message):

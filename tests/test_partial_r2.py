@@ -2,10 +2,10 @@
 
 import numpy as np
 import pytest
+from conftest import load_cases
 from hypothesis import given
 from hypothesis import strategies as st
 
-from conftest import load_cases
 from sensitivity.partial_r2 import (
     benchmark_strengths,
     bias,
@@ -121,14 +121,44 @@ def test_partial_r2_in_unit_interval_and_rv_below_one(t, dof):
         ({"estimate": 1.0, "se": 0.0, "dof": 10}, r"`se` must be positive; got 0"),
         ({"estimate": 1.0, "se": -0.2, "dof": 10}, r"`se` must be positive; got -0.2"),
         ({"estimate": 1.0, "se": 0.2, "dof": 1}, r"`dof` must be at least 2; got 1"),
-        ({"estimate": 1.0, "se": 0.2, "dof": 10, "alpha": 1.0}, r"`alpha` must lie strictly between 0 and 1; got 1"),
-        ({"estimate": 1.0, "se": 0.2, "dof": 10, "alpha": 0.0}, r"`alpha` must lie strictly between 0 and 1; got 0"),
-        ({"estimate": 1.0, "se": 0.2, "dof": 10, "fraction": 0.0}, r"`fraction` must be positive; got 0"),
-        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 1.0, "r2_outcome": 0.1}, r"`r2_treatment` must lie in \[0, 1\); got 1"),
-        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 0.1, "r2_outcome": -0.1}, r"`r2_outcome` must lie in \[0, 1\); got -0.1"),
-        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 0.1}, r"`r2_treatment` needs `r2_outcome`"),
-        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_outcome": 0.1}, r"`r2_outcome` needs `r2_treatment`"),
-        ({"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": [0.1, 0.2], "r2_outcome": [0.1]}, r"must come in pairs; got 2 and 1"),
+        (
+            {"estimate": 1.0, "se": 0.2, "dof": 10, "alpha": 1.0},
+            r"`alpha` must lie strictly between 0 and 1; got 1",
+        ),
+        (
+            {"estimate": 1.0, "se": 0.2, "dof": 10, "alpha": 0.0},
+            r"`alpha` must lie strictly between 0 and 1; got 0",
+        ),
+        (
+            {"estimate": 1.0, "se": 0.2, "dof": 10, "fraction": 0.0},
+            r"`fraction` must be positive; got 0",
+        ),
+        (
+            {"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 1.0, "r2_outcome": 0.1},
+            r"`r2_treatment` must lie in \[0, 1\); got 1",
+        ),
+        (
+            {"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 0.1, "r2_outcome": -0.1},
+            r"`r2_outcome` must lie in \[0, 1\); got -0.1",
+        ),
+        (
+            {"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 0.1},
+            r"`r2_treatment` needs `r2_outcome`",
+        ),
+        (
+            {"estimate": 1.0, "se": 0.2, "dof": 10, "r2_outcome": 0.1},
+            r"`r2_outcome` needs `r2_treatment`",
+        ),
+        (
+            {
+                "estimate": 1.0,
+                "se": 0.2,
+                "dof": 10,
+                "r2_treatment": [0.1, 0.2],
+                "r2_outcome": [0.1],
+            },
+            r"must come in pairs; got 2 and 1",
+        ),
         ({"estimate": 1.0, "dof": 10}, r"`se` \(or the t statistic `t`\) is required"),
         ({"estimate": 1.0, "se": 0.2, "t": 5.0, "dof": 10}, r"give `se` or `t`, not both"),
         ({"estimate": 1.0, "t": -5.0, "dof": 10}, r"`t` must have the sign of `estimate`"),

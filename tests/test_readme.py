@@ -15,7 +15,9 @@ def test_readme_has_examples():
     assert len(EXAMPLES) >= 3
 
 
-@pytest.mark.parametrize("cmd, expected", [(c, o) for c, o, _ in EXAMPLES], ids=[c for c, _, _ in EXAMPLES])
+@pytest.mark.parametrize(
+    "cmd, expected", [(c, o) for c, o, _ in EXAMPLES], ids=[c for c, _, _ in EXAMPLES]
+)
 def test_readme_example_output_is_current(cmd, expected):
     out = run(cmd)
     assert out.returncode == 0, out.stderr

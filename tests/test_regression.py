@@ -43,7 +43,11 @@ def test_bias_and_se_equal_the_refit(fair, omitted):
     r2_outcome = t_u**2 / (t_u**2 + full.df_resid)
     treat = smf.ols(f"rate_marriage ~ {COVARIATES} + {omitted}", data=fair).fit()
     r2_treatment = treat.tvalues[omitted] ** 2 / (treat.tvalues[omitted] ** 2 + treat.df_resid)
-    b, se, dof = restricted.params["rate_marriage"], restricted.bse["rate_marriage"], restricted.df_resid
+    b, se, dof = (
+        restricted.params["rate_marriage"],
+        restricted.bse["rate_marriage"],
+        restricted.df_resid,
+    )
     got_bias = float(bias(se, dof, r2_treatment, r2_outcome))
     assert got_bias == pytest.approx(abs(b - full.params["rate_marriage"]), rel=1e-8)
     got_se = float(se_with_confounder(se, dof, r2_treatment, r2_outcome))
@@ -58,7 +62,9 @@ def test_covariate_table_equals_refits(fair, fit):
     for term in terms:
         others = " + ".join(t for t in terms if t != term)
         r2y = _partial_r2_by_refit(fair, FORMULA, f"affairs ~ rate_marriage + {others}")
-        r2t = _partial_r2_by_refit(fair, f"rate_marriage ~ {COVARIATES}", f"rate_marriage ~ {others}")
+        r2t = _partial_r2_by_refit(
+            fair, f"rate_marriage ~ {COVARIATES}", f"rate_marriage ~ {others}"
+        )
         assert by_name[term].r2_outcome == pytest.approx(r2y, rel=1e-8), term
         assert by_name[term].r2_treatment == pytest.approx(r2t, rel=1e-8), term
 
@@ -76,8 +82,12 @@ def test_evalue_alongside_uses_outcome_sd(fair, fit):
     from sensitivity.evalues import evalue
 
     res = partial_r2_from_model(fit, "rate_marriage")
-    ref = evalue("md", fit.params["rate_marriage"], se=fit.bse["rate_marriage"],
-                 sd=fair["affairs"].std(ddof=1))
+    ref = evalue(
+        "md",
+        fit.params["rate_marriage"],
+        se=fit.bse["rate_marriage"],
+        sd=fair["affairs"].std(ddof=1),
+    )
     assert float(res.evalue.evalue) == pytest.approx(float(ref.evalue), rel=1e-12)
 
 
@@ -107,11 +117,14 @@ def test_robust_covariance_warns_and_uses_classical(fair, fit):
     assert res.se == pytest.approx(fit.bse["rate_marriage"], rel=1e-12)
 
 
-@pytest.mark.parametrize("maker", [
-    lambda d: smf.wls("affairs ~ rate_marriage + age", d, weights=d["age"]).fit(),
-    lambda d: smf.glm("affairs ~ rate_marriage + age", d).fit(),
-    lambda d: smf.poisson("children ~ rate_marriage + age", d).fit(disp=0),
-])
+@pytest.mark.parametrize(
+    "maker",
+    [
+        lambda d: smf.wls("affairs ~ rate_marriage + age", d, weights=d["age"]).fit(),
+        lambda d: smf.glm("affairs ~ rate_marriage + age", d).fit(),
+        lambda d: smf.poisson("children ~ rate_marriage + age", d).fit(disp=0),
+    ],
+)
 def test_non_ols_fits_are_refused(fair, maker):
     with pytest.raises(ValueError, match=r"need an ordinary least squares fit; got \w+\. .*evalue"):
         partial_r2_from_model(maker(fair), "rate_marriage")
@@ -128,11 +141,27 @@ def test_array_fit_uses_name_rule():
 @pytest.mark.parametrize(
     "treatment, kwargs, message",
     [
-        ("nope", {}, r"`treatment` 'nope' is not a coefficient of the model; coefficients: Intercept"),
+        (
+            "nope",
+            {},
+            r"`treatment` 'nope' is not a coefficient of the model; coefficients: Intercept",
+        ),
         ("C(religious)", {}, r"`treatment` 'C\(religious\)' spans 3 columns"),
-        ("rate_marriage", {"benchmarks": ["height"]}, r"`benchmark` 'height' is not an observed covariate"),
-        ("rate_marriage", {"benchmarks": ["age"], "times": [0]}, r"`times` must be positive; got 0"),
-        ("rate_marriage", {"benchmarks": ["C(religious)"], "times": [200]}, r"`k_treatment` 200 is impossible"),
+        (
+            "rate_marriage",
+            {"benchmarks": ["height"]},
+            r"`benchmark` 'height' is not an observed covariate",
+        ),
+        (
+            "rate_marriage",
+            {"benchmarks": ["age"], "times": [0]},
+            r"`times` must be positive; got 0",
+        ),
+        (
+            "rate_marriage",
+            {"benchmarks": ["C(religious)"], "times": [200]},
+            r"`k_treatment` 200 is impossible",
+        ),
     ],
 )
 def test_model_input_errors(fit, treatment, kwargs, message):
@@ -151,10 +180,12 @@ def test_treatment_in_interaction_is_refused(fair):
 def test_every_file_format_gives_the_same_fit(fair, fit, tmp_path, suffix):
     small = fair.head(400)
     path = tmp_path / f"fair{suffix}"
-    {".csv": lambda: small.to_csv(path, index=False),
-     ".tsv": lambda: small.to_csv(path, sep="\t", index=False),
-     ".xlsx": lambda: small.to_excel(path, index=False),
-     ".parquet": lambda: small.to_parquet(path)}[suffix]()
+    {
+        ".csv": lambda: small.to_csv(path, index=False),
+        ".tsv": lambda: small.to_csv(path, sep="\t", index=False),
+        ".xlsx": lambda: small.to_excel(path, index=False),
+        ".parquet": lambda: small.to_parquet(path),
+    }[suffix]()
     ref = smf.ols(FORMULA, data=small).fit()
     res = partial_r2_from_data(path, FORMULA, "rate_marriage")
     assert res.estimate == pytest.approx(ref.params["rate_marriage"], rel=1e-10)
@@ -162,8 +193,9 @@ def test_every_file_format_gives_the_same_fit(fair, fit, tmp_path, suffix):
 
 def test_string_categorical_benchmarks_as_group(fair):
     d = fair.assign(faith=fair["religious"].map({1: "none", 2: "some", 3: "fair", 4: "strong"}))
-    res = partial_r2_from_data(d, "affairs ~ rate_marriage + age + faith", "rate_marriage",
-                               benchmarks=["faith"])
+    res = partial_r2_from_data(
+        d, "affairs ~ rate_marriage + age + faith", "rate_marriage", benchmarks=["faith"]
+    )
     cov = next(c for c in res.covariates if c.name == "faith")
     assert len(cov.columns) == 3
     assert res.scenarios[0].benchmark == "faith"
@@ -183,10 +215,26 @@ def test_missing_rows_are_noted(fair):
         (lambda p: None, FORMULA, r"`data`: file not found"),
         (lambda p: p.write_text(""), FORMULA, r"`data`: .* is empty"),
         (lambda p: p.write_text("a,b\n"), FORMULA, r"`data`: .* has no data rows"),
-        (lambda p: p.write_text("affairs,rate_marriage\n1,2\n3,4\n5,7\n"), "affairs ~ rate_marriage +", r"`formula` .* could not be fitted"),
-        (lambda p: p.write_text("affairs,rate_marriage\n1,2\n3,4\n5,7\n"), "affairs rate_marriage", r"`formula` must look like 'y ~ t \+ x1 \+ x2'"),
-        (lambda p: p.write_text("affairs,rate_marriage\n1,2\n3,4\n5,7\n"), "affairs ~ rate_marriage + height", r"`formula` .* could not be fitted"),
-        (lambda p: p.write_text("affairs,rate_marriage\na,2\nb,4\nc,7\n"), "affairs ~ rate_marriage", r"the outcome column 'affairs' must be numeric"),
+        (
+            lambda p: p.write_text("affairs,rate_marriage\n1,2\n3,4\n5,7\n"),
+            "affairs ~ rate_marriage +",
+            r"`formula` .* could not be fitted",
+        ),
+        (
+            lambda p: p.write_text("affairs,rate_marriage\n1,2\n3,4\n5,7\n"),
+            "affairs rate_marriage",
+            r"`formula` must look like 'y ~ t \+ x1 \+ x2'",
+        ),
+        (
+            lambda p: p.write_text("affairs,rate_marriage\n1,2\n3,4\n5,7\n"),
+            "affairs ~ rate_marriage + height",
+            r"`formula` .* could not be fitted",
+        ),
+        (
+            lambda p: p.write_text("affairs,rate_marriage\na,2\nb,4\nc,7\n"),
+            "affairs ~ rate_marriage",
+            r"the outcome column 'affairs' must be numeric",
+        ),
     ],
 )
 def test_data_input_errors(tmp_path, setup, formula, message):
