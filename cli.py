@@ -79,6 +79,10 @@ def emit(result, fmt: str, output: str | None) -> None:
         body = result.summary()
     elif fmt == "json":
         body = json.dumps(result.to_dict(), indent=2, allow_nan=False, ensure_ascii=False)
+    elif fmt == "csv" and hasattr(result, "columns"):
+        from sensitivity.tables import columns_to_csv
+
+        body = columns_to_csv(result.columns()).rstrip("\n")
     elif fmt == "csv":
         from sensitivity.tables import records_to_csv
 
@@ -401,6 +405,213 @@ def partial_r2_cmd(
 
         partial_r2_contours(result, plot, statistic=plot_statistic)
         click.echo(f"Wrote {plot}", err=True)
+
+
+# --------------------------------------------------------------------------- tipping
+RANGE_HELP = "a value or START:STOP:STEP (STOP included when the steps reach it)"
+
+
+@cli.command("tipping")
+@click.option(
+    "--kind",
+    type=click.Choice(["binary", "bounding", "partial-r2"]),
+    default="binary",
+    show_default=True,
+    help="binary: a binary confounder's prevalences and effect; bounding: its two risk "
+    "ratios (bounding factor); partial-r2: its two partial R² (OLS coefficient).",
+)
+@click.option(
+    "--scale",
+    type=click.Choice(["md", "rd", "rr", "or", "hr"]),
+    help="Effect scale (binary and bounding views).",
+)
+@click.option("--estimate", type=float, help="The observed adjusted estimate.")
+@click.option(
+    "--ci", nargs=2, type=float, default=None, metavar="LOWER UPPER", help="Its confidence limits."
+)
+@click.option(
+    "--target", type=float, default=None, help="Value to test against (default: the null)."
+)
+@click.option("--prevalence-treated", help=f"P(U=1) among the treated: {RANGE_HELP}.")
+@click.option("--prevalence-control", help=f"P(U=1) among the controls: {RANGE_HELP}.")
+@click.option(
+    "--outcome-effect",
+    help=f"Effect of U on the outcome (difference for md/rd, ratio for rr/or/hr): {RANGE_HELP}.",
+)
+@click.option("--rr-treatment", help=f"bounding: risk ratio of U with the treatment: {RANGE_HELP}.")
+@click.option("--rr-outcome", help=f"bounding: risk ratio of U with the outcome: {RANGE_HELP}.")
+@click.option(
+    "--rare",
+    "outcome",
+    flag_value="rare",
+    default=None,
+    help="bounding with or/hr: the outcome is rare (under about 15%).",
+)
+@click.option(
+    "--common", "outcome", flag_value="common", help="bounding with or/hr: the outcome is common."
+)
+@click.option("--se", type=float, help="partial-r2: the coefficient's standard error.")
+@click.option("--dof", type=float, help="partial-r2: residual degrees of freedom.")
+@click.option(
+    "--alpha", type=float, default=0.05, show_default=True, help="partial-r2: significance level."
+)
+@click.option(
+    "--r2-treatment", help=f"partial-r2: partial R² of U with the treatment: {RANGE_HELP}."
+)
+@click.option("--r2-outcome", help=f"partial-r2: partial R² of U with the outcome: {RANGE_HELP}.")
+@click.option(
+    "--plot",
+    type=click.Path(dir_okay=False),
+    help="Write a figure (.png, .svg or .pdf) with the tipping line drawn.",
+)
+@_format_option
+def tipping_cmd(
+    kind,
+    scale,
+    estimate,
+    ci,
+    target,
+    prevalence_treated,
+    prevalence_control,
+    outcome_effect,
+    rr_treatment,
+    rr_outcome,
+    outcome,
+    se,
+    dof,
+    alpha,
+    r2_treatment,
+    r2_outcome,
+    plot,
+    fmt,
+    output,
+):
+    """Tipping-point grid: where does the conclusion tip under a hidden confounder?
+
+    Each strength is a single value or a range START:STOP:STEP; the grid is every
+    combination. Unset strengths get a range scaled to the estimate. The tipping points are,
+    for each value of the other varying parameters, the least value of the last varying one
+    at which the estimate (and separately its CI limit nearest the target) reaches the target.
+
+    \b
+    Examples:
+      sensitivity tipping --scale rr --estimate 1.8 --ci 1.2 2.7 --prevalence-control 0.2
+      sensitivity tipping --scale md --estimate 2.4 --ci 0.8 4.0 \\
+          --prevalence-treated 0.5 --prevalence-control 0:0.5:0.05 --outcome-effect 0:10:0.5
+      sensitivity tipping --kind bounding --scale rr --estimate 3.9 --ci 1.8 8.7 --plot b.png
+      sensitivity tipping --kind partial-r2 --estimate 0.097 --se 0.0232 --dof 783
+    """
+    from sensitivity import tipping as tp
+
+    if plot:
+        from sensitivity.plots import check_plot_path
+
+        check_plot_path(plot)
+    if estimate is None:
+        raise click.UsageError("--estimate is required")
+
+    def grid(text, name, default):
+        return default if text is None else tp.parse_range(text, name)
+
+    if kind == "binary":
+        if scale is None:
+            raise click.UsageError("--scale is required for the binary view (md, rd, rr, or, hr)")
+        _refuse(
+            kind,
+            rr_treatment=rr_treatment,
+            rr_outcome=rr_outcome,
+            se=se,
+            dof=dof,
+            r2_treatment=r2_treatment,
+            r2_outcome=r2_outcome,
+            outcome=outcome,
+        )
+        null = 1.0 if scale in ("rr", "or", "hr") else 0.0
+        defaults = tp.default_ranges(
+            "binary", estimate=estimate, scale=scale, target=null if target is None else target
+        )
+        result = tp.binary_confounder_grid(
+            scale,
+            estimate,
+            ci or None,
+            target=target,
+            prevalence_treated=grid(
+                prevalence_treated, "prevalence_treated", defaults["prevalence_treated"]
+            ),
+            prevalence_control=grid(
+                prevalence_control, "prevalence_control", defaults["prevalence_control"]
+            ),
+            outcome_effect=grid(outcome_effect, "outcome_effect", defaults["outcome_effect"]),
+        )
+    elif kind == "bounding":
+        if scale is None:
+            raise click.UsageError("--scale is required for the bounding view (rr, or, hr)")
+        _refuse(
+            kind,
+            prevalence_treated=prevalence_treated,
+            prevalence_control=prevalence_control,
+            outcome_effect=outcome_effect,
+            se=se,
+            dof=dof,
+            r2_treatment=r2_treatment,
+            r2_outcome=r2_outcome,
+        )
+        from sensitivity.evalues import evalue
+
+        ev = evalue(scale, estimate, ci or None, outcome=outcome, target=target)
+        defaults = tp.default_ranges("bounding", evalue=float(ev.evalue))
+        result = tp.bounding_grid(
+            scale,
+            estimate,
+            ci or None,
+            outcome=outcome,
+            target=target,
+            rr_treatment=grid(rr_treatment, "rr_treatment", defaults["rr_treatment"]),
+            rr_outcome=grid(rr_outcome, "rr_outcome", defaults["rr_outcome"]),
+        )
+    else:
+        _refuse(
+            kind,
+            scale=scale,
+            ci=ci or None,
+            prevalence_treated=prevalence_treated,
+            prevalence_control=prevalence_control,
+            outcome_effect=outcome_effect,
+            rr_treatment=rr_treatment,
+            rr_outcome=rr_outcome,
+            outcome=outcome,
+        )
+        if se is None or dof is None:
+            raise click.UsageError("the partial-r2 view needs --se and --dof")
+        from sensitivity.partial_r2 import partial_r2_summary
+
+        base = partial_r2_summary(estimate, se, dof, alpha=alpha)
+        defaults = tp.default_ranges("partial-r2", robustness_value=base.robustness_value)
+        result = tp.partial_r2_grid(
+            estimate,
+            se,
+            dof,
+            alpha=alpha,
+            target=0.0 if target is None else target,
+            r2_treatment=grid(r2_treatment, "r2_treatment", defaults["r2_treatment"]),
+            r2_outcome=grid(r2_outcome, "r2_outcome", defaults["r2_outcome"]),
+        )
+    cells = int(result.reach_estimate.size)
+    if fmt in ("json", "csv") and cells > 200_000:
+        click.echo(f"Writing {cells:,} rows as {fmt}...", err=True)
+    emit(result, fmt, output)
+    if plot:
+        from sensitivity.plots import tipping_figure
+
+        tipping_figure(result, plot)
+        click.echo(f"Wrote {plot}", err=True)
+
+
+def _refuse(kind, **given):
+    """Options that belong to another view are an error, not silently ignored."""
+    used = [f"--{k.replace('_', '-')}" for k, v in given.items() if v is not None]
+    if used:
+        raise click.UsageError(f"{', '.join(used)} do not apply to the {kind} view")
 
 
 def main():

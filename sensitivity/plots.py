@@ -133,3 +133,100 @@ def partial_r2_contours(result, path, statistic: str = "estimate", limit=None, s
     ax.legend(handles=handles, loc="upper right", fontsize=8, framealpha=0.9)
     _save(fig, path)
     return path
+
+
+AXIS_LABELS = {
+    "prevalence_treated": "Prevalence of the confounder among the treated",
+    "prevalence_control": "Prevalence of the confounder among the controls",
+    "outcome_effect": "Effect of the confounder on the outcome",
+    "rr_treatment": "Risk ratio relating the confounder to the treatment",
+    "rr_outcome": "Risk ratio relating the confounder to the outcome",
+    "r2_treatment": "Confounder's share of the treatment's residual variance (partial R²)",
+    "r2_outcome": "Confounder's share of the outcome's residual variance (partial R²)",
+}
+
+
+def tipping_figure(result, path):
+    """Heat map of the bias-adjusted estimate over the two varying strengths, with the
+    tipping lines (estimate and interval reach the target) drawn and labelled; a line chart
+    when only one strength varies."""
+    path = check_plot_path(path)
+    varying = result.varying
+    if len(varying) not in (1, 2):
+        raise ValueError(
+            f"`plot` needs one or two varying parameters; got {len(varying)} (give one of "
+            "them a single value)"
+        )
+    plt = _pyplot()
+    goal = "the null" if result.target_is_null else f"{result.target:g}"
+    est = np.squeeze(result.cells["bias_adjusted_estimate"])
+    near_key = (
+        "bias_adjusted_ci_lower" if result.estimate >= result.target else "bias_adjusted_ci_upper"
+    )
+    near = np.squeeze(result.cells[near_key]) if near_key in result.cells else None
+    fig, ax = plt.subplots(figsize=(6.8, 5.4))
+    if len(varying) == 1:
+        name, x = result.axes[varying[0]]
+        ax.plot(x, est, color="black", lw=2, label="Bias-adjusted estimate")
+        if near is not None:
+            lo = np.squeeze(result.cells["bias_adjusted_ci_lower"])
+            up = np.squeeze(result.cells["bias_adjusted_ci_upper"])
+            ax.fill_between(x, lo, up, color="0.8", label="Bias-adjusted interval")
+        ax.axhline(result.target, color="crimson", lw=1.5, label=f"Target ({goal})")
+        ax.set_xlabel(AXIS_LABELS[name])
+        ax.set_ylabel("Bias-adjusted estimate")
+        ax.legend(fontsize=8)
+    else:
+        (xn, x), (yn, y) = (result.axes[i] for i in varying)
+        from matplotlib.colors import TwoSlopeNorm
+
+        vmin, vmax = float(np.nanmin(est)), float(np.nanmax(est))
+        center = min(
+            max(result.target, vmin + 1e-12 * abs(vmin) + 1e-300), vmax - 1e-12 * abs(vmax) - 1e-300
+        )
+        norm = TwoSlopeNorm(
+            vcenter=center, vmin=min(vmin, center - 1e-9), vmax=max(vmax, center + 1e-9)
+        )
+        mesh = ax.pcolormesh(x, y, est.T, cmap="RdBu_r", norm=norm, shading="nearest")
+        fig.colorbar(mesh, ax=ax, label="Bias-adjusted estimate")
+        handles = []
+        if np.nanmin(est) <= result.target <= np.nanmax(est):
+            ax.contour(x, y, est.T, levels=[result.target], colors="black", linewidths=2.2)
+            handles.append(
+                plt.Line2D([], [], color="black", lw=2.2, label=f"Estimate reaches {goal}")
+            )
+        if near is not None and np.nanmin(near) <= result.target <= np.nanmax(near):
+            ax.contour(
+                x,
+                y,
+                near.T,
+                levels=[result.target],
+                colors="black",
+                linewidths=1.5,
+                linestyles="dashed",
+            )
+            handles.append(
+                plt.Line2D([], [], color="black", lw=1.5, ls="--", label=f"Interval reaches {goal}")
+            )
+        e = result.extra.get("evalue")
+        if result.kind == "bounding" and e is not None and e <= min(x.max(), y.max()):
+            ax.plot([e], [e], marker="o", color="black", ms=7)
+            ax.annotate(
+                f"E-value ({e:.2f}, {e:.2f})",
+                (e, e),
+                xytext=(8, -14),
+                textcoords="offset points",
+                fontsize=8,
+                bbox={"boxstyle": "round", "fc": "white", "alpha": 0.85, "lw": 0},
+            )
+        ax.set_xlabel(AXIS_LABELS[xn], fontsize=9)
+        ax.set_ylabel(AXIS_LABELS[yn], fontsize=9)
+        if handles:
+            ax.legend(handles=handles, loc="upper right", fontsize=8, framealpha=0.9)
+    fixed = [f"{n.replace('_', ' ')} = {v[0]:g}" for n, v in result.axes if len(v) == 1]
+    title = f"Where the conclusion tips ({result.kind} view)"
+    if fixed:
+        title += "\n" + ", ".join(fixed)
+    ax.set_title(title, fontsize=10)
+    _save(fig, path)
+    return path

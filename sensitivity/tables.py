@@ -153,3 +153,10 @@ def records_to_csv(records: list[dict]) -> str:
     for rec in records:
         writer.writerow({k: ("" if v is None else v) for k, v in rec.items()})
     return buf.getvalue()
+
+
+def columns_to_csv(columns: dict) -> str:
+    """Columnar data (name -> 1-d array) as CSV, through pandas' C writer (large grids)."""
+    import pandas as pd
+
+    return pd.DataFrame(columns).to_csv(index=False, lineterminator="\n")

@@ -1,0 +1,781 @@
+"""Tipping-point grids: where does the conclusion tip under a hidden confounder?
+
+Three views of one question, all vectorised over the whole grid (no loop per cell):
+
+- `binary_confounder_grid`: a binary U with prevalence `prevalence_treated` among the treated,
+  `prevalence_control` among the controls, and effect `outcome_effect` on the outcome (a
+  difference for md/rd, a ratio for rr/or/hr) (Lin, Psaty & Kronmal 1998; VanderWeele &
+  Arah 2011).
+- `bounding_grid`: the confounder's two risk ratios, through the bounding factor (Ding &
+  VanderWeele 2016), with the E-value curve.
+- `partial_r2_grid`: the two partial R² for an OLS coefficient (Cinelli & Hazlett 2020),
+  computed by `partial_r2.surface`.
+
+Each returns a `TippingGrid`: the long-format rows, and the tipping points: for each value of
+the other varying parameters, the least grid value of the last varying one at which the
+estimate (and, separately, the interval limit nearest the target) reaches the target, with
+the exact crossing from the closed form beside it.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import cautions
+from ._checks import POSITIVE, PROBABILITY, R2_STRENGTH, Rule, require, require_choice
+from ._results import Displayable, plain
+from .evalues import AT_LEAST_ONE, RATIO_SCALES, SCALE_NAMES
+from .tables import Table, bullets, number, render, wrap
+
+#: The largest grid computed (cells = product of the axis lengths): about 40 MB per column.
+MAX_CELLS = 5_000_000
+SCALES = ("md", "rd", "rr", "or", "hr")
+NAMES = {
+    "prevalence_treated": "Prevalence of U among the treated",
+    "prevalence_control": "Prevalence of U among the controls",
+    "outcome_effect": "Effect of U on the outcome",
+    "rr_treatment": "Risk ratio of U with the treatment",
+    "rr_outcome": "Risk ratio of U with the outcome",
+    "r2_treatment": "Partial R² of U with the treatment",
+    "r2_outcome": "Partial R² of U with the outcome",
+}
+
+
+def _plain_list(values: np.ndarray) -> list:
+    """Plain Python values; NaN and infinities become None (JSON null)."""
+    if values.dtype.kind == "f" and not np.isfinite(values).all():
+        out = values.astype(object)
+        out[~np.isfinite(values)] = None
+        return out.tolist()
+    return values.tolist()
+
+
+def _lower_first(text: str) -> str:
+    return text[:1].lower() + text[1:]
+
+
+# --------------------------------------------------------------------------- ranges
+def value_range(start, stop=None, step=None, name="range"):
+    """Grid values START, START+STEP, ... up to STOP (included when the steps reach it).
+
+    A single value when only `start` is given. Refuses an empty or backwards range and a
+    step that is not positive.
+
+    Examples
+    --------
+    >>> value_range(0, 1, 0.25).tolist()
+    [0.0, 0.25, 0.5, 0.75, 1.0]
+    >>> value_range(1, 2, 0.3).tolist()
+    [1.0, 1.3, 1.6, 1.9]
+    """
+    start = float(require(start, name))
+    if stop is None and step is None:
+        return np.array([start])
+    stop = float(require(stop, name))
+    step = float(require(step, name))
+    if step <= 0:
+        raise ValueError(f"`{name}` step must be positive; got {step:g}")
+    if stop < start:
+        raise ValueError(f"`{name}` is backwards or empty: stop {stop:g} is below start {start:g}")
+    count = int(np.floor((stop - start) / step * (1 + 1e-12) + 1e-9)) + 1
+    if count > MAX_CELLS:
+        raise ValueError(f"`{name}` has {count:,} values; the grid limit is {MAX_CELLS:,} cells")
+    # round away binary fuzz (0.1 + 0.2) so printed and exported values are the ones typed
+    return np.round(start + step * np.arange(count), 12)
+
+
+def parse_range(text: str, name: str):
+    """'START:STOP:STEP' or a single number, as grid values (used by the CLI)."""
+    parts = str(text).split(":")
+    if len(parts) not in (1, 3):
+        raise ValueError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}")
+    try:
+        numbers = [float(p) for p in parts]
+    except ValueError:
+        raise ValueError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}") from None
+    return value_range(*numbers, name=name)
+
+
+def _axis(values, name, *rules):
+    return np.atleast_1d(require(values, name, *rules)).astype(float).ravel()
+
+
+def _check_size(axes):
+    cells = int(np.prod([len(v) for _, v in axes]))
+    if cells > MAX_CELLS:
+        sizes = " x ".join(str(len(v)) for _, v in axes)
+        raise ValueError(f"the grid has {cells:,} cells ({sizes}); the limit is {MAX_CELLS:,}")
+
+
+# --------------------------------------------------------------------------- result
+@dataclass(frozen=True, repr=False)
+class TippingGrid(Displayable):
+    """A grid of bias-adjusted results and where they tip, with the inputs behind them."""
+
+    kind: str  # "binary", "bounding" or "partial-r2"
+    scale: str
+    estimate: float
+    ci: tuple[float, float] | None
+    target: float
+    axes: tuple[tuple[str, np.ndarray], ...]
+    cells: dict  # name -> array of the grid's shape (bias_adjusted_* and extras)
+    reach_estimate: np.ndarray
+    reach_ci: np.ndarray | None
+    exact: dict  # "estimate"/"ci" -> exact crossing of the solved parameter (grid shape less it)
+    notes: tuple[str, ...] = ()
+    cautions: tuple[str, ...] = cautions.TIPPING
+    extra: dict = field(default_factory=dict)  # e.g. the E-values of the bounding view
+    is_scalar = False
+
+    # ----------------------------------------------------------------- structure
+    @property
+    def shape(self):
+        return tuple(len(v) for _, v in self.axes)
+
+    @property
+    def varying(self) -> list[int]:
+        return [i for i, (_, v) in enumerate(self.axes) if len(v) > 1]
+
+    @property
+    def solved(self) -> int | None:
+        """Axis solved for in the tipping points: the last varying one."""
+        return self.varying[-1] if self.varying else None
+
+    def reduced_shape(self, j):
+        return tuple(n for i, n in enumerate(self.shape) if i != j)
+
+    @property
+    def target_is_null(self) -> bool:
+        return self.target == (1.0 if self.scale in RATIO_SCALES else 0.0)
+
+    def _goal(self) -> str:
+        return "the null" if self.target_is_null else f"{self.target:g}"
+
+    # ----------------------------------------------------------------- export
+    def columns(self) -> dict:
+        """Long format as columns (one entry a cell, first axis slowest)."""
+        mesh = np.meshgrid(*[v for _, v in self.axes], indexing="ij")
+        out = {name: m.ravel() for (name, _), m in zip(self.axes, mesh, strict=True)}
+        out |= {k: np.broadcast_to(v, self.shape).ravel() for k, v in self.cells.items()}
+        out["reaches_target"] = self.reach_estimate.ravel()
+        if self.reach_ci is not None:
+            out["ci_reaches_target"] = self.reach_ci.ravel()
+        return out
+
+    def tipping_points(self) -> list[dict]:
+        """For each value of the other varying axes, the least value of the solved axis."""
+        j = self.solved
+        if j is None:
+            return []
+        name, values = self.axes[j]
+        others = [i for i in self.varying if i != j]
+        out = []
+        reach = {"estimate": self.reach_estimate, "ci": self.reach_ci}
+        least = {}
+        for key, r in reach.items():
+            if r is None:
+                continue
+            any_hit = r.any(axis=j)
+            first = np.take(values, np.argmax(r, axis=j))
+            least[key] = np.where(any_hit, first, np.nan)
+        # fixed axes have length 1: index 0 there; iterate over the other varying axes
+        grid_shape = [len(self.axes[i][1]) for i in others]
+        for idx in np.ndindex(*grid_shape) if others else [()]:
+            pos = [0] * len(self.axes)
+            for i, k in zip(others, idx, strict=True):
+                pos[i] = k
+            del pos[j]
+            row = {self.axes[i][0]: float(self.axes[i][1][pos[i - (i > j)]]) for i in others}
+            row["parameter"] = name
+            for key in ("estimate", "ci"):
+                if key in least:
+                    row[key] = least[key][tuple(pos)]
+                    row[f"{key}_exact"] = self.exact[key][tuple(pos)]
+            out.append(plain(row))
+        return out
+
+    def _row_dicts(self, cols) -> list[dict]:
+        """The contract's nested rows, built from plain lists (fast for a million cells)."""
+        names = [n for n, _ in self.axes]
+        lists = {k: _plain_list(v) for k, v in cols.items()}
+        extras = [
+            k
+            for k in cols
+            if k not in names
+            and not k.startswith("bias_adjusted_")
+            and not k.endswith("reaches_target")
+        ]
+        adj_keys = [k for k in ("se", "t") if f"bias_adjusted_{k}" in lists]
+        lower = lists.get("bias_adjusted_ci_lower")
+        upper = lists.get("bias_adjusted_ci_upper")
+        flags = ["reaches_target"] + (["ci_reaches_target"] if "ci_reaches_target" in lists else [])
+        plain_keys = names + extras
+        rows = []
+        for i in range(len(lists[names[0]])):
+            row = {k: lists[k][i] for k in plain_keys}
+            adj = {"estimate": lists["bias_adjusted_estimate"][i]}
+            for k in adj_keys:
+                adj[k] = lists[f"bias_adjusted_{k}"][i]
+            adj["ci"] = None if lower is None else [lower[i], upper[i]]
+            row["bias_adjusted"] = adj
+            for k in flags:
+                row[k] = lists[k][i]
+            rows.append(row)
+        return rows
+
+    def to_dict(self) -> dict:
+        head = plain(
+            {
+                "kind": self.kind,
+                "scale": self.scale,
+                "estimate": self.estimate,
+                "ci": None if self.ci is None else list(self.ci),
+                "target": self.target,
+                "parameters": {n: v for n, v in self.axes},
+                **self.extra,
+            }
+        )
+        return head | {
+            "rows": self._row_dicts(self.columns()),
+            "tipping_points": self.tipping_points(),
+            "sentence": self.sentence(),
+            "notes": list(self.all_notes()),
+        }
+
+    def records(self) -> list[dict]:
+        lists = {k: _plain_list(v) for k, v in self.columns().items()}
+        return [dict(zip(lists, vals, strict=True)) for vals in zip(*lists.values(), strict=True)]
+
+    def to_frame(self):
+        import pandas as pd
+
+        return pd.DataFrame(self.columns())
+
+    # ----------------------------------------------------------------- presentation
+    def _fmt(self, name, value) -> str:
+        if value is None or (isinstance(value, float) and np.isnan(value)):
+            return "not reached"
+        if name.startswith(("prevalence", "r2_")):
+            return f"{value:.3g}" if value >= 0.001 or value == 0 else f"{value:.2e}"
+        return f"{value:.4g}"
+
+    def table(self) -> Table:
+        j = self.solved
+        if j is None:
+            r = self._row_dicts(self.columns())[0]
+            adj = r["bias_adjusted"]
+            ci = "" if adj["ci"] is None else f"{adj['ci'][0]:.4g} to {adj['ci'][1]:.4g}"
+            rows = tuple((NAMES[n], self._fmt(n, v)) for n, v in self.axes)
+            rows += (("Bias-adjusted estimate", f"{adj['estimate']:.4g}"),)
+            rows += (("Bias-adjusted CI", ci),) if ci else ()
+            rows += ((f"Reaches {self._goal()}", "yes" if r["reaches_target"] else "no"),)
+            return Table(("Quantity", "Value"), rows, title="Bias-adjusted result")
+        solved = self.axes[j][0]
+        others = [self.axes[i][0] for i in self.varying if i != j]
+        head = tuple(NAMES[o] for o in others)
+        cols = head + (f"Estimate reaches {self._goal()} at", "(exact)")
+        if self.reach_ci is not None:
+            cols += ("CI reaches it at", "(exact)")
+        exact_note = (
+            "'(exact)': the crossing from the closed-form formula, at any value "
+            "(it may lie outside the grid)."
+        )
+        rows = []
+        for tp in self.tipping_points():
+            row = tuple(self._fmt(o, tp[o]) for o in others)
+            row += (self._fmt(solved, tp["estimate"]), self._fmt(solved, tp["estimate_exact"]))
+            if self.reach_ci is not None:
+                row += (self._fmt(solved, tp["ci"]), self._fmt(solved, tp["ci_exact"]))
+            rows.append(row)
+        if not others:
+            cols = ("",) + cols
+            rows = [("Least value",) + r for r in rows]
+        fixed = [f"{n} = {self._fmt(n, v[0])}" for n, v in self.axes if len(v) == 1]
+        title = f"Tipping points: least {_lower_first(NAMES[solved])}"
+        if fixed:
+            title += f" (with {', '.join(fixed)})"
+        return Table(
+            cols,
+            tuple(rows),
+            title=title,
+            footnotes=("'not reached': the conclusion does not tip within the grid.", exact_note),
+        )
+
+    def tables(self) -> list[Table]:
+        return [self.table()]
+
+    def sentence(self) -> str:
+        j = self.solved
+        what = {
+            "binary": "a hidden binary confounder",
+            "bounding": "a hidden confounder",
+            "partial-r2": "a hidden confounder",
+        }[self.kind]
+        if j is None:
+            r = self._row_dicts(self.columns())[0]
+            verdict = "would" if r["reaches_target"] else "would not"
+            return (
+                f"Under {what} with the stated strengths the estimate {verdict} reach "
+                f"{self._goal()} (bias-adjusted estimate "
+                f"{r['bias_adjusted']['estimate']:.4g})."
+            )
+        tps = self.tipping_points()
+        hit = [t for t in tps if t["estimate"] is not None]
+        name = _lower_first(NAMES[self.axes[j][0]])
+        if not hit:
+            return (
+                f"Within this grid, no {what} moves the estimate to {self._goal()}; the "
+                "conclusion does not tip over the strengths considered."
+            )
+        lo = min(t["estimate"] for t in hit)
+        text = (
+            f"The estimate reaches {self._goal()} in {len(hit)} of {len(tps)} settings of "
+            f"the other parameters; the smallest {name} that does so anywhere in the grid "
+            f"is {self._fmt(self.axes[j][0], lo)}"
+        )
+        if self.reach_ci is not None:
+            ci_hit = [t["ci"] for t in tps if t["ci"] is not None]
+            if ci_hit:
+                text += (
+                    f", and the interval reaches it from {self._fmt(self.axes[j][0], min(ci_hit))}"
+                )
+        return text + "."
+
+    def summary(self) -> str:
+        ci = "" if self.ci is None else f" (CI {self.ci[0]:g} to {self.ci[1]:g})"
+        label = "OLS coefficient" if self.kind == "partial-r2" else SCALE_NAMES[self.scale]
+        head = (
+            f"Tipping-point analysis ({self.kind} view): {label} "
+            f"{self.estimate:g}{ci}, target {self.target:g}; grid "
+            + " x ".join(str(n) for n in self.shape)
+            + f" = {int(np.prod(self.shape)):,} cells"
+        )
+        parts = [wrap(head), render(self.table(), "text"), wrap(self.sentence())]
+        if self.extra.get("evalue") is not None:
+            parts.append(
+                wrap(
+                    f"E-value (both risk ratios equal): {number(self.extra['evalue'])}"
+                    + (
+                        f"; for the CI: {number(self.extra['evalue_ci'])}"
+                        if self.extra.get("evalue_ci") is not None
+                        else ""
+                    )
+                )
+            )
+        parts.append(bullets("Notes", self.notes))
+        parts.append(bullets("Cautions", self.cautions))
+        return "\n\n".join(p for p in parts if p)
+
+
+# --------------------------------------------------------------------------- shared checks
+def _check_effect(scale, estimate, ci, target):
+    scale = require_choice(scale, "scale", SCALES)
+    ratio = scale in RATIO_SCALES
+    rules = (POSITIVE,) if ratio else ()
+    est = float(require(estimate, "estimate", *rules))
+    null = 1.0 if ratio else 0.0
+    tgt = float(require(null if target is None else target, "target", *rules))
+    pair = None
+    if ci is not None:
+        lo, up = (float(require(v, "ci", *rules)) for v in ci)
+        if lo > up:
+            raise ValueError(f"`ci` lower limit must not exceed the upper; got {lo:g} > {up:g}")
+        if not lo <= est <= up:
+            raise ValueError(
+                f"`estimate` must lie within `ci`; got {est:g} outside [{lo:g}, {up:g}]"
+            )
+        pair = (lo, up)
+    return scale, est, pair, tgt
+
+
+def _reaches(value, target, side):
+    """Whether `value` has reached the target coming from `side` (+1 above, -1 below)."""
+    return value <= target if side > 0 else value >= target
+
+
+def _near_limit(est, ci, target):
+    if ci is None:
+        return None
+    return ci[0] if est >= target else ci[1]
+
+
+def _within(x, lo, hi):
+    x = np.asarray(x, float)
+    ok = np.isfinite(x) & (x >= lo - 1e-12) & (x <= hi + 1e-12)
+    return np.where(ok, x, np.nan)
+
+
+# --------------------------------------------------------------------------- binary U
+def binary_confounder_grid(
+    scale, estimate, ci=None, *, prevalence_treated, prevalence_control, outcome_effect, target=None
+) -> TippingGrid:
+    """Bias-adjusted estimates under a hidden binary confounder, over a grid of its strengths.
+
+    Parameters
+    ----------
+    scale : {'md', 'rd', 'rr', 'or', 'hr'}
+        Effect scale. md/rd use the difference formula, rr/or/hr the ratio formula (for or
+        and hr this presumes a rare outcome).
+    estimate : float
+        The observed (covariate-adjusted) estimate.
+    ci : (lower, upper), optional
+        Its confidence limits; each is shifted by the same bias.
+    prevalence_treated, prevalence_control : float or 1-d array
+        P(U = 1) among the treated and among the controls.
+    outcome_effect : float or 1-d array
+        Effect of U on the outcome: a difference (md, rd) or a ratio (rr, or, hr).
+    target : float, optional
+        The value the estimate is tested against (default: the null).
+
+    Notes
+    -----
+    Difference scale: ``adjusted = observed - gamma (p1 - p0)``; ratio scale:
+    ``adjusted = observed (1 + (G - 1) p0) / (1 + (G - 1) p1)``, with no U-by-treatment
+    interaction.
+
+    References
+    ----------
+    Lin DY, Psaty BM, Kronmal RA (1998). Assessing the sensitivity of regression results to
+    unmeasured confounders in observational studies. Biometrics 54:948-963.
+    VanderWeele TJ, Arah OA (2011). Bias formulas for sensitivity analysis of unmeasured
+    confounding for general outcomes, treatments, and confounders. Epidemiology 22:42-52.
+
+    Examples
+    --------
+    >>> g = binary_confounder_grid("rr", 1.8, prevalence_treated=0.5, prevalence_control=0.2,
+    ...                            outcome_effect=3.0)
+    >>> round(float(g.cells["bias_adjusted_estimate"].item()), 4)  # 1.8 * 1.4 / 2
+    1.26
+    """
+    scale, est, ci, tgt = _check_effect(scale, estimate, ci, target)
+    ratio = scale in RATIO_SCALES
+    p1 = _axis(prevalence_treated, "prevalence_treated", PROBABILITY)
+    p0 = _axis(prevalence_control, "prevalence_control", PROBABILITY)
+    g = _axis(outcome_effect, "outcome_effect", *((POSITIVE,) if ratio else ()))
+    axes = (("prevalence_treated", p1), ("prevalence_control", p0), ("outcome_effect", g))
+    _check_size(axes)
+    P1, P0, G = p1[:, None, None], p0[None, :, None], g[None, None, :]
+    if ratio:
+        factor = (1 + (G - 1) * P0) / (1 + (G - 1) * P1)
+
+        def shift(v):
+            return v * factor
+    else:
+        delta = G * (P1 - P0)
+
+        def shift(v):
+            return v - delta
+
+    side = 1 if est >= tgt else -1
+    cells = {"bias_adjusted_estimate": shift(est)}
+    reach_ci = None
+    if ci is not None:
+        cells["bias_adjusted_ci_lower"] = shift(ci[0])
+        cells["bias_adjusted_ci_upper"] = shift(ci[1])
+        near = "bias_adjusted_ci_lower" if side > 0 else "bias_adjusted_ci_upper"
+        reach_ci = _reaches(cells[near], tgt, side)
+    reach = _reaches(cells["bias_adjusted_estimate"], tgt, side)
+    result = TippingGrid(
+        kind="binary",
+        scale=scale,
+        estimate=est,
+        ci=ci,
+        target=tgt,
+        axes=axes,
+        cells=cells,
+        reach_estimate=reach,
+        reach_ci=reach_ci,
+        exact={},
+        notes=_binary_notes(scale),
+    )
+    return _with_exact(result, lambda obs: _binary_exact(result, obs))
+
+
+def _binary_notes(scale):
+    notes = []
+    if scale in ("or", "hr"):
+        notes.append(
+            f"The ratio formula is applied to the {scale.upper()} as to a risk ratio: "
+            "it presumes a rare outcome (VanderWeele & Arah 2011)."
+        )
+    notes.append(
+        "U is binary and does not modify the treatment effect (no U-by-treatment "
+        "interaction); its prevalences are conditional on the measured covariates."
+    )
+    return tuple(notes)
+
+
+def _with_exact(result, solver):
+    """Attach the exact crossings of the solved axis for the estimate and the near CI limit."""
+    if result.solved is None:
+        return result
+    exact = {"estimate": solver(result.estimate)}
+    if result.ci is not None:
+        exact["ci"] = solver(_near_limit(result.estimate, result.ci, result.target))
+    object.__setattr__(result, "exact", exact)
+    return result
+
+
+def _reduced(axes, j):
+    """Each axis as an array broadcasting over the grid with axis j removed (None for j)."""
+    sizes = [len(v) for i, (_, v) in enumerate(axes) if i != j]
+    out, k = [], 0
+    for i, (_, v) in enumerate(axes):
+        if i == j:
+            out.append(None)
+            continue
+        shape = [1] * len(sizes)
+        shape[k] = len(v)
+        out.append(v.reshape(shape))
+        k += 1
+    return out
+
+
+def _shift_binary(scale, obs, p1, p0, g):
+    if scale in RATIO_SCALES:
+        return obs * (1 + (g - 1) * p0) / (1 + (g - 1) * p1)
+    return obs - g * (p1 - p0)
+
+
+def _binary_exact(result, obs):
+    """Closed-form value of the solved parameter at which `obs` shifts onto the target.
+
+    Kept only where slightly larger values reach the target, so that it is the least value
+    that does (elsewhere NaN: the conclusion tips, if at all, from the grid's start).
+    """
+    j = result.solved
+    p1, p0, g = _reduced(result.axes, j)
+    t = result.target
+    ratio = result.scale in RATIO_SCALES
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if ratio:
+            r = obs / t
+            root = [
+                lambda: (r * (1 + (g - 1) * p0) - 1) / (g - 1),
+                lambda: ((1 + (g - 1) * p1) / r - 1) / (g - 1),
+                lambda: 1 + (1 - r) / (r * p0 - p1),
+            ][j]()
+        else:
+            d = obs - t
+            root = [lambda: p0 + d / g, lambda: p1 - d / g, lambda: d / (p1 - p0)][j]()
+        lo, hi = (0.0, 1.0) if j < 2 else (0.0 if ratio else -np.inf, np.inf)
+        root = _within(np.broadcast_to(root, result.reduced_shape(j)), lo, hi)
+        args = [p1, p0, g]
+        args[j] = root + 1e-9 * np.maximum(1.0, np.abs(np.nan_to_num(root)))
+        probe = _shift_binary(result.scale, obs, *args)
+    side = 1 if result.estimate >= t else -1
+    return np.where(_reaches(probe, t, side), root, np.nan)
+
+
+# --------------------------------------------------------------------------- bounding factor
+def bounding_grid(
+    scale, estimate, ci=None, *, rr_treatment, rr_outcome, outcome=None, target=None
+) -> TippingGrid:
+    """The most a confounder could move the estimate, over a grid of its two risk ratios.
+
+    The estimate (on the risk-ratio scale; OR and HR need `outcome` 'rare' or 'common' for the
+    conversion of `sensitivity.evalues`) is divided by the bounding factor
+    ``B = a b / (a + b - 1)`` when above the target, multiplied when below. The exact
+    tipping curve is ``b = R (a - 1) / (a - R)`` for ``a > R``, with ``R`` the ratio of the
+    estimate (or CI limit) to the target on the risk-ratio scale (inverted below 1); it passes
+    through the E-value point (E, E).
+
+    References
+    ----------
+    Ding & VanderWeele (2016), Epidemiology 27:368; VanderWeele & Ding (2017), Ann Intern Med.
+    """
+    from .evalues import evalue, to_risk_ratio
+
+    if scale not in RATIO_SCALES:
+        raise ValueError(f"`scale` must be one of rr, or, hr for the bounding view; got {scale!r}")
+    ev = evalue(scale, estimate, ci, outcome=outcome, target=target)
+    a = _axis(rr_treatment, "rr_treatment", AT_LEAST_ONE)
+    b = _axis(rr_outcome, "rr_outcome", AT_LEAST_ONE)
+    axes = (("rr_treatment", a), ("rr_outcome", b))
+    _check_size(axes)
+    bound = ev.confounder(a[:, None], b[None, :])
+    cells = {
+        "bounding_factor": bound.bounding_factor,
+        "bias_adjusted_estimate": np.broadcast_to(bound.estimate, (len(a), len(b))),
+    }
+    reach_ci = None
+    if bound.ci_limit is not None:
+        # only the limit nearest the target moves toward it; report the interval with it moved
+        lower_near = float(ev.rr) >= float(ev.rr_target)
+        far = float(ev.ci[1] if lower_near else ev.ci[0])
+        lim = np.broadcast_to(bound.ci_limit, (len(a), len(b)))
+        far_arr = np.full(lim.shape, far)
+        cells["bias_adjusted_ci_lower"] = lim if lower_near else far_arr
+        cells["bias_adjusted_ci_upper"] = far_arr if lower_near else lim
+        reach_ci = np.broadcast_to(bound.explains_ci, lim.shape)
+    reach = np.broadcast_to(bound.explains_estimate, (len(a), len(b)))
+    notes = list(ev.notes) + [
+        f"Conversion to the risk-ratio scale: {ev.conversion}.",
+        "The bound is the most bias a confounder of these strengths could produce (Ding & "
+        "VanderWeele 2016); a real confounder of the same strengths may produce less. The "
+        "interval's far limit is left where it is.",
+    ]
+    result = TippingGrid(
+        kind="bounding",
+        scale=scale,
+        estimate=float(ev.estimate),
+        ci=None if ev.ci is None else (float(ev.ci[0]), float(ev.ci[1])),
+        target=float(ev.target_value),
+        axes=axes,
+        cells=cells,
+        reach_estimate=reach,
+        reach_ci=reach_ci,
+        exact={},
+        notes=tuple(notes),
+        extra={
+            "evalue": float(ev.evalue),
+            "evalue_ci": None if ev.evalue_ci is None else float(ev.evalue_ci),
+            "outcome": ev.outcome,
+        },
+    )
+
+    def solver(value):
+        # B grows in both strengths, so the crossing is always the least value reaching it.
+        r = float(to_risk_ratio(ev.scale, value, outcome=ev.outcome)) / float(ev.rr_target)
+        r = max(r, 1 / r)
+        other = a if result.solved == 1 else b
+        with np.errstate(divide="ignore", invalid="ignore"):
+            root = np.where(other > r, r * (other - 1) / (other - r), np.nan)
+        return root if r > 1 else np.ones_like(other)
+
+    return _with_exact(result, solver)
+
+
+# --------------------------------------------------------------------------- partial R²
+def partial_r2_grid(
+    estimate, se, dof, *, r2_treatment, r2_outcome, alpha=0.05, target=0.0
+) -> TippingGrid:
+    """Bias-adjusted OLS estimates over a grid of the confounder's two partial R².
+
+    The computation is `sensitivity.partial_r2.surface` (Cinelli & Hazlett 2020); the
+    interval reaches the target when its limit nearest the target does. Exact crossings:
+    for the estimate ``r2_outcome = d² (1 - r2_t) / (se² dof r2_t)`` with ``d = |est - target|``;
+    for the interval the solution of ``A sin θ + C cos θ = d`` with ``r2_outcome = sin² θ``,
+    ``A = se sqrt(dof r2_t / (1 - r2_t))`` and ``C = t_crit se sqrt(dof / ((dof - 1)(1 - r2_t)))``.
+    """
+    from .partial_r2 import DOF_RULE, surface, t_critical
+
+    est = float(require(estimate, "estimate"))
+    se = float(require(se, "se", POSITIVE))
+    dof = float(require(dof, "dof", DOF_RULE))
+    alpha = float(
+        require(
+            alpha,
+            "alpha",
+            Rule("must lie strictly between 0 and 1", lambda x: ~((x > 0) & (x < 1))),
+        )
+    )
+    tgt = float(require(target, "target"))
+    r2t = _axis(r2_treatment, "r2_treatment", R2_STRENGTH)
+    r2y = _axis(r2_outcome, "r2_outcome", R2_STRENGTH)
+    axes = (("r2_treatment", r2t), ("r2_outcome", r2y))
+    _check_size(axes)
+    s = surface(est, se, dof, r2t, r2y, alpha)
+    side = 1 if est >= tgt else -1
+    # the bias shrinks |estimate| toward zero; with a non-zero target it is tested as given
+    cells = {
+        "bias": s["bias"],
+        "bias_adjusted_estimate": s["estimate"],
+        "bias_adjusted_se": s["se"],
+        "bias_adjusted_t": s["t"],
+        "bias_adjusted_ci_lower": s["lower"],
+        "bias_adjusted_ci_upper": s["upper"],
+    }
+    reach = _reaches(s["estimate"], tgt, side)
+    near = s["lower"] if side > 0 else s["upper"]
+    reach_ci = _reaches(near, tgt, side)
+    crit = float(t_critical(alpha, dof - 1))
+    result = TippingGrid(
+        kind="partial-r2",
+        scale="md",
+        estimate=est,
+        ci=None,
+        target=tgt,
+        axes=axes,
+        cells=cells,
+        reach_estimate=reach,
+        reach_ci=reach_ci,
+        exact={},
+        notes=(
+            "OLS with classical standard errors; the bias is taken in the direction that "
+            "shrinks the estimate toward zero (Cinelli & Hazlett 2020).",
+        ),
+        extra={"se": se, "dof": dof, "alpha": alpha},
+    )
+    if result.solved is None:
+        return result
+    d = abs(est - tgt) if np.sign(est - tgt) == np.sign(est) or est == tgt else np.nan
+    other = r2t if result.solved == 1 else r2y
+
+    def exact_estimate():
+        with np.errstate(divide="ignore", invalid="ignore"):
+            if result.solved == 1:
+                root = d**2 * (1 - other) / (se**2 * dof * other)
+            else:  # r2_treatment for each r2_outcome: k r/(1-r) = d²/(se² dof r2y)
+                k = d**2 / (se**2 * dof * other)
+                root = k / (1 + k)
+        return _within(root, 0, 1 - 1e-15)
+
+    def exact_ci():
+        if result.solved != 1:
+            return np.full(len(other), np.nan)  # closed form given for r2_outcome only
+        with np.errstate(divide="ignore", invalid="ignore"):
+            A = se * np.sqrt(dof * other / (1 - other))
+            C = crit * se * np.sqrt(dof / ((dof - 1) * (1 - other)))
+            R = np.hypot(A, C)
+            phi = np.arctan2(C, A)
+            theta = np.arcsin(np.clip(d / R, -1, 1)) - phi
+        root = np.where(
+            C >= d, 0.0, np.where(R >= d, np.sin(np.clip(theta, 0, np.pi / 2)) ** 2, np.nan)
+        )
+        return _within(root, 0, 1 - 1e-15)
+
+    object.__setattr__(result, "exact", {"estimate": exact_estimate(), "ci": exact_ci()})
+    return result
+
+
+# --------------------------------------------------------------------------- default grids
+def _nice(x: float) -> float:
+    """The smallest of 1, 2, 2.5, 5 times a power of ten that is at least `x`."""
+    if x <= 0 or not np.isfinite(x):
+        return 1.0
+    power = 10.0 ** np.floor(np.log10(x))
+    for m in (1, 2, 2.5, 5, 10):
+        if m * power >= x * (1 - 1e-12):
+            return float(m * power)
+    return float(10 * power)  # pragma: no cover
+
+
+def default_ranges(
+    kind, *, estimate=None, target=None, scale=None, evalue=None, robustness_value=None
+) -> dict:
+    """Grids used when a parameter is not given, scaled to the estimate at hand.
+
+    binary: prevalences 0 to 1 by 0.05; a ratio effect 1 to 6 by 0.25; a difference effect
+    0 to about twice the distance of the estimate from the target, in 20 steps.
+    bounding: both risk ratios from 1 to about 1.5 times the E-value (at least 3).
+    partial-r2: both partial R² from 0 to about twice the robustness value (0.1 to 0.95).
+    """
+    if kind == "binary":
+        if scale in RATIO_SCALES:
+            effect = value_range(1, 6, 0.25)
+        else:
+            top = _nice(2 * abs(estimate - target)) if estimate != target else 1.0
+            effect = value_range(0, top, top / 20)
+        prev = value_range(0, 1, 0.05)
+        return {"prevalence_treated": prev, "prevalence_control": prev, "outcome_effect": effect}
+    if kind == "bounding":
+        top = max(3.0, float(np.ceil(1.5 * evalue)))
+        step = _nice((top - 1) / 40)
+        rr = value_range(1, top, step)
+        return {"rr_treatment": rr, "rr_outcome": rr}
+    top = min(0.95, max(0.1, _nice(2 * robustness_value)))
+    r2 = value_range(0, top, _nice(top / 50))
+    return {"r2_treatment": r2[r2 < 1], "r2_outcome": r2[r2 < 1]}
