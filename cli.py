@@ -510,8 +510,8 @@ def tipping_cmd(
     if estimate is None:
         raise click.UsageError("--estimate is required")
 
-    def grid(text, name, default):
-        return default if text is None else tp.parse_range(text, name)
+    def grid(text, name):
+        return None if text is None else tp.parse_range(text, name)
 
     if kind == "binary":
         if scale is None:
@@ -526,22 +526,14 @@ def tipping_cmd(
             r2_outcome=r2_outcome,
             outcome=outcome,
         )
-        null = 1.0 if scale in ("rr", "or", "hr") else 0.0
-        defaults = tp.default_ranges(
-            "binary", estimate=estimate, scale=scale, target=null if target is None else target
-        )
         result = tp.binary_confounder_grid(
             scale,
             estimate,
             ci or None,
             target=target,
-            prevalence_treated=grid(
-                prevalence_treated, "prevalence_treated", defaults["prevalence_treated"]
-            ),
-            prevalence_control=grid(
-                prevalence_control, "prevalence_control", defaults["prevalence_control"]
-            ),
-            outcome_effect=grid(outcome_effect, "outcome_effect", defaults["outcome_effect"]),
+            prevalence_treated=grid(prevalence_treated, "prevalence_treated"),
+            prevalence_control=grid(prevalence_control, "prevalence_control"),
+            outcome_effect=grid(outcome_effect, "outcome_effect"),
         )
     elif kind == "bounding":
         if scale is None:
@@ -556,18 +548,14 @@ def tipping_cmd(
             r2_treatment=r2_treatment,
             r2_outcome=r2_outcome,
         )
-        from sensitivity.evalues import evalue
-
-        ev = evalue(scale, estimate, ci or None, outcome=outcome, target=target)
-        defaults = tp.default_ranges("bounding", evalue=float(ev.evalue))
         result = tp.bounding_grid(
             scale,
             estimate,
             ci or None,
             outcome=outcome,
             target=target,
-            rr_treatment=grid(rr_treatment, "rr_treatment", defaults["rr_treatment"]),
-            rr_outcome=grid(rr_outcome, "rr_outcome", defaults["rr_outcome"]),
+            rr_treatment=grid(rr_treatment, "rr_treatment"),
+            rr_outcome=grid(rr_outcome, "rr_outcome"),
         )
     else:
         _refuse(
@@ -583,18 +571,14 @@ def tipping_cmd(
         )
         if se is None or dof is None:
             raise click.UsageError("the partial-r2 view needs --se and --dof")
-        from sensitivity.partial_r2 import partial_r2_summary
-
-        base = partial_r2_summary(estimate, se, dof, alpha=alpha)
-        defaults = tp.default_ranges("partial-r2", robustness_value=base.robustness_value)
         result = tp.partial_r2_grid(
             estimate,
             se,
             dof,
             alpha=alpha,
-            target=0.0 if target is None else target,
-            r2_treatment=grid(r2_treatment, "r2_treatment", defaults["r2_treatment"]),
-            r2_outcome=grid(r2_outcome, "r2_outcome", defaults["r2_outcome"]),
+            target=target,
+            r2_treatment=grid(r2_treatment, "r2_treatment"),
+            r2_outcome=grid(r2_outcome, "r2_outcome"),
         )
     cells = int(result.reach_estimate.size)
     if fmt in ("json", "csv") and cells > 200_000:

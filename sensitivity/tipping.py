@@ -24,7 +24,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import cautions
-from ._checks import POSITIVE, PROBABILITY, R2_STRENGTH, Rule, require, require_choice
+from ._checks import POSITIVE, PROBABILITY, R2_STRENGTH, require, require_choice
 from ._results import Displayable, plain
 from .evalues import AT_LEAST_ONE, RATIO_SCALES, SCALE_NAMES
 from .tables import Table, bullets, number, render, wrap
@@ -96,6 +96,10 @@ def parse_range(text: str, name: str):
     except ValueError:
         raise ValueError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}") from None
     return value_range(*numbers, name=name)
+
+
+def _or(value, default):
+    return default if value is None else value
 
 
 def _axis(values, name, *rules):
@@ -267,7 +271,7 @@ class TippingGrid(Displayable):
             r = self._row_dicts(self.columns())[0]
             adj = r["bias_adjusted"]
             ci = "" if adj["ci"] is None else f"{adj['ci'][0]:.4g} to {adj['ci'][1]:.4g}"
-            rows = tuple((NAMES[n], self._fmt(n, v)) for n, v in self.axes)
+            rows = tuple((NAMES[n], self._fmt(n, float(v[0]))) for n, v in self.axes)
             rows += (("Bias-adjusted estimate", f"{adj['estimate']:.4g}"),)
             rows += (("Bias-adjusted CI", ci),) if ci else ()
             rows += ((f"Reaches {self._goal()}", "yes" if r["reaches_target"] else "no"),)
@@ -292,7 +296,7 @@ class TippingGrid(Displayable):
         if not others:
             cols = ("",) + cols
             rows = [("Least value",) + r for r in rows]
-        fixed = [f"{n} = {self._fmt(n, v[0])}" for n, v in self.axes if len(v) == 1]
+        fixed = [f"{n} = {self._fmt(n, float(v[0]))}" for n, v in self.axes if len(v) == 1]
         title = f"Tipping points: least {_lower_first(NAMES[solved])}"
         if fixed:
             title += f" (with {', '.join(fixed)})"
@@ -422,10 +426,11 @@ def binary_confounder_grid(
         The observed (covariate-adjusted) estimate.
     ci : (lower, upper), optional
         Its confidence limits; each is shifted by the same bias.
-    prevalence_treated, prevalence_control : float or 1-d array
-        P(U = 1) among the treated and among the controls.
-    outcome_effect : float or 1-d array
-        Effect of U on the outcome: a difference (md, rd) or a ratio (rr, or, hr).
+    prevalence_treated, prevalence_control : float or 1-d array, optional
+        P(U = 1) among the treated and among the controls (default: 0 to 1 by 0.05).
+    outcome_effect : float or 1-d array, optional
+        Effect of U on the outcome: a difference (md, rd) or a ratio (rr, or, hr); default
+        from `default_ranges`.
     target : float, optional
         The value the estimate is tested against (default: the null).
 
@@ -451,6 +456,10 @@ def binary_confounder_grid(
     """
     scale, est, ci, tgt = _check_effect(scale, estimate, ci, target)
     ratio = scale in RATIO_SCALES
+    default = default_ranges("binary", estimate=est, target=tgt, scale=scale)
+    prevalence_treated = _or(prevalence_treated, default["prevalence_treated"])
+    prevalence_control = _or(prevalence_control, default["prevalence_control"])
+    outcome_effect = _or(outcome_effect, default["outcome_effect"])
     p1 = _axis(prevalence_treated, "prevalence_treated", PROBABILITY)
     p0 = _axis(prevalence_control, "prevalence_control", PROBABILITY)
     g = _axis(outcome_effect, "outcome_effect", *((POSITIVE,) if ratio else ()))
@@ -549,7 +558,7 @@ def _binary_exact(result, obs):
     p1, p0, g = _reduced(result.axes, j)
     t = result.target
     ratio = result.scale in RATIO_SCALES
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if ratio:
             r = obs / t
             root = [
@@ -591,8 +600,9 @@ def bounding_grid(
     if scale not in RATIO_SCALES:
         raise ValueError(f"`scale` must be one of rr, or, hr for the bounding view; got {scale!r}")
     ev = evalue(scale, estimate, ci, outcome=outcome, target=target)
-    a = _axis(rr_treatment, "rr_treatment", AT_LEAST_ONE)
-    b = _axis(rr_outcome, "rr_outcome", AT_LEAST_ONE)
+    default = default_ranges("bounding", evalue=float(ev.evalue))
+    a = _axis(_or(rr_treatment, default["rr_treatment"]), "rr_treatment", AT_LEAST_ONE)
+    b = _axis(_or(rr_outcome, default["rr_outcome"]), "rr_outcome", AT_LEAST_ONE)
     axes = (("rr_treatment", a), ("rr_outcome", b))
     _check_size(axes)
     bound = ev.confounder(a[:, None], b[None, :])
@@ -641,7 +651,7 @@ def bounding_grid(
         r = float(to_risk_ratio(ev.scale, value, outcome=ev.outcome)) / float(ev.rr_target)
         r = max(r, 1 / r)
         other = a if result.solved == 1 else b
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             root = np.where(other > r, r * (other - 1) / (other - r), np.nan)
         return root if r > 1 else np.ones_like(other)
 
@@ -660,21 +670,13 @@ def partial_r2_grid(
     for the interval the solution of ``A sin θ + C cos θ = d`` with ``r2_outcome = sin² θ``,
     ``A = se sqrt(dof r2_t / (1 - r2_t))`` and ``C = t_crit se sqrt(dof / ((dof - 1)(1 - r2_t)))``.
     """
-    from .partial_r2 import DOF_RULE, surface, t_critical
+    from .partial_r2 import _check_summary, robustness_value, surface, t_critical
 
-    est = float(require(estimate, "estimate"))
-    se = float(require(se, "se", POSITIVE))
-    dof = float(require(dof, "dof", DOF_RULE))
-    alpha = float(
-        require(
-            alpha,
-            "alpha",
-            Rule("must lie strictly between 0 and 1", lambda x: ~((x > 0) & (x < 1))),
-        )
-    )
-    tgt = float(require(target, "target"))
-    r2t = _axis(r2_treatment, "r2_treatment", R2_STRENGTH)
-    r2y = _axis(r2_outcome, "r2_outcome", R2_STRENGTH)
+    est, se, dof, _, alpha = _check_summary(estimate, se, dof, None, 1.0, alpha)
+    tgt = float(require(0.0 if target is None else target, "target"))
+    default = default_ranges("partial-r2", robustness_value=float(robustness_value(est / se, dof)))
+    r2t = _axis(_or(r2_treatment, default["r2_treatment"]), "r2_treatment", R2_STRENGTH)
+    r2y = _axis(_or(r2_outcome, default["r2_outcome"]), "r2_outcome", R2_STRENGTH)
     axes = (("r2_treatment", r2t), ("r2_outcome", r2y))
     _check_size(axes)
     s = surface(est, se, dof, r2t, r2y, alpha)
@@ -715,7 +717,7 @@ def partial_r2_grid(
     other = r2t if result.solved == 1 else r2y
 
     def exact_estimate():
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             if result.solved == 1:
                 root = d**2 * (1 - other) / (se**2 * dof * other)
             else:  # r2_treatment for each r2_outcome: k r/(1-r) = d²/(se² dof r2y)
@@ -726,7 +728,7 @@ def partial_r2_grid(
     def exact_ci():
         if result.solved != 1:
             return np.full(len(other), np.nan)  # closed form given for r2_outcome only
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             A = se * np.sqrt(dof * other / (1 - other))
             C = crit * se * np.sqrt(dof / ((dof - 1) * (1 - other)))
             R = np.hypot(A, C)
