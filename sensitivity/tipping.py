@@ -413,7 +413,14 @@ def _within(x, lo, hi):
 
 # --------------------------------------------------------------------------- binary U
 def binary_confounder_grid(
-    scale, estimate, ci=None, *, prevalence_treated, prevalence_control, outcome_effect, target=None
+    scale,
+    estimate,
+    ci=None,
+    *,
+    prevalence_treated=None,
+    prevalence_control=None,
+    outcome_effect=None,
+    target=None,
 ) -> TippingGrid:
     """Bias-adjusted estimates under a hidden binary confounder, over a grid of its strengths.
 
@@ -580,7 +587,7 @@ def _binary_exact(result, obs):
 
 # --------------------------------------------------------------------------- bounding factor
 def bounding_grid(
-    scale, estimate, ci=None, *, rr_treatment, rr_outcome, outcome=None, target=None
+    scale, estimate, ci=None, *, rr_treatment=None, rr_outcome=None, outcome=None, target=None
 ) -> TippingGrid:
     """The most a confounder could move the estimate, over a grid of its two risk ratios.
 
@@ -660,7 +667,7 @@ def bounding_grid(
 
 # --------------------------------------------------------------------------- partial R²
 def partial_r2_grid(
-    estimate, se, dof, *, r2_treatment, r2_outcome, alpha=0.05, target=0.0
+    estimate, se, dof, *, r2_treatment=None, r2_outcome=None, alpha=0.05, target=0.0
 ) -> TippingGrid:
     """Bias-adjusted OLS estimates over a grid of the confounder's two partial R².
 

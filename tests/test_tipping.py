@@ -289,3 +289,12 @@ def test_range_includes_stop_when_reached():
 def test_bad_input(call, message):
     with pytest.raises(ValueError, match=message):
         call()
+
+
+def test_default_grids_from_the_api():
+    # The defaults documented in `default_ranges`; no value here comes from a source.
+    g = binary_confounder_grid("rr", 1.8, (1.2, 2.7), prevalence_control=0.2)
+    assert g.shape == (21, 1, 21)
+    assert bounding_grid("rr", 3.9).axes[0][1][-1] == 11.0  # ceil(1.5 * E), E = 7.26
+    p = partial_r2_grid(0.097, 0.0232, 783)
+    assert p.axes[0][1][0] == 0.0 and p.axes[0][1][-1] < 1
