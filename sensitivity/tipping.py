@@ -147,6 +147,10 @@ class TippingGrid(Displayable):
         """Axis solved for in the tipping points: the last varying one."""
         return self.varying[-1] if self.varying else None
 
+    @property
+    def n_rows(self) -> int:
+        return int(np.prod(self.shape))
+
     def reduced_shape(self, j):
         return tuple(n for i, n in enumerate(self.shape) if i != j)
 
