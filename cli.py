@@ -512,65 +512,51 @@ def tipping_cmd(
     if estimate is None:
         raise click.UsageError("--estimate is required")
 
-    def grid(text, name):
-        return None if text is None else tp.parse_range(text, name)
-
-    if kind == "binary":
-        if scale is None:
-            raise click.UsageError("--scale is required for the binary view (md, rd, rr, or, hr)")
-        _refuse(
-            kind,
-            rr_treatment=rr_treatment,
-            rr_outcome=rr_outcome,
-            se=se,
-            dof=dof,
-            r2_treatment=r2_treatment,
-            r2_outcome=r2_outcome,
-            outcome=outcome,
+    given = {
+        "scale": scale,
+        "ci": ci or None,
+        "prevalence_treated": prevalence_treated,
+        "prevalence_control": prevalence_control,
+        "outcome_effect": outcome_effect,
+        "rr_treatment": rr_treatment,
+        "rr_outcome": rr_outcome,
+        "outcome": outcome,
+        "se": se,
+        "dof": dof,
+        "r2_treatment": r2_treatment,
+        "r2_outcome": r2_outcome,
+    }
+    foreign = [k for k, v in given.items() if v is not None and k not in VIEW_OPTIONS[kind]]
+    if foreign:
+        flags = ", ".join(
+            "--" + ("rare/--common" if k == "outcome" else k.replace("_", "-")) for k in foreign
         )
+        raise click.UsageError(f"{flags} do not apply to the {kind} view")
+
+    def grid(name):
+        return None if given[name] is None else tp.parse_range(given[name], name)
+
+    if kind in ("binary", "bounding") and scale is None:
+        scales = "md, rd, rr, or, hr" if kind == "binary" else "rr, or, hr"
+        raise click.UsageError(f"--scale is required for the {kind} view ({scales})")
+    if kind == "binary":
         result = tp.binary_confounder_grid(
             scale,
             estimate,
             ci or None,
             target=target,
-            prevalence_treated=grid(prevalence_treated, "prevalence_treated"),
-            prevalence_control=grid(prevalence_control, "prevalence_control"),
-            outcome_effect=grid(outcome_effect, "outcome_effect"),
+            **{k: grid(k) for k in ("prevalence_treated", "prevalence_control", "outcome_effect")},
         )
     elif kind == "bounding":
-        if scale is None:
-            raise click.UsageError("--scale is required for the bounding view (rr, or, hr)")
-        _refuse(
-            kind,
-            prevalence_treated=prevalence_treated,
-            prevalence_control=prevalence_control,
-            outcome_effect=outcome_effect,
-            se=se,
-            dof=dof,
-            r2_treatment=r2_treatment,
-            r2_outcome=r2_outcome,
-        )
         result = tp.bounding_grid(
             scale,
             estimate,
             ci or None,
             outcome=outcome,
             target=target,
-            rr_treatment=grid(rr_treatment, "rr_treatment"),
-            rr_outcome=grid(rr_outcome, "rr_outcome"),
+            **{k: grid(k) for k in ("rr_treatment", "rr_outcome")},
         )
     else:
-        _refuse(
-            kind,
-            scale=scale,
-            ci=ci or None,
-            prevalence_treated=prevalence_treated,
-            prevalence_control=prevalence_control,
-            outcome_effect=outcome_effect,
-            rr_treatment=rr_treatment,
-            rr_outcome=rr_outcome,
-            outcome=outcome,
-        )
         if se is None or dof is None:
             raise click.UsageError("the partial-r2 view needs --se and --dof")
         result = tp.partial_r2_grid(
@@ -579,8 +565,7 @@ def tipping_cmd(
             dof,
             alpha=alpha,
             target=target,
-            r2_treatment=grid(r2_treatment, "r2_treatment"),
-            r2_outcome=grid(r2_outcome, "r2_outcome"),
+            **{k: grid(k) for k in ("r2_treatment", "r2_outcome")},
         )
     if fmt in ("json", "csv") and result.n_rows > 200_000:
         click.echo(f"Writing {result.n_rows:,} rows as {fmt}...", err=True)
@@ -592,11 +577,12 @@ def tipping_cmd(
         click.echo(f"Wrote {plot}", err=True)
 
 
-def _refuse(kind, **given):
-    """Options that belong to another view are an error, not silently ignored."""
-    used = [f"--{k.replace('_', '-')}" for k, v in given.items() if v is not None]
-    if used:
-        raise click.UsageError(f"{', '.join(used)} do not apply to the {kind} view")
+#: The options each tipping view takes (the rest are refused, not silently ignored).
+VIEW_OPTIONS = {
+    "binary": {"scale", "ci", "prevalence_treated", "prevalence_control", "outcome_effect"},
+    "bounding": {"scale", "ci", "rr_treatment", "rr_outcome", "outcome"},
+    "partial-r2": {"se", "dof", "r2_treatment", "r2_outcome"},
+}
 
 
 def main():

@@ -19,7 +19,7 @@ the exact crossing from the closed form beside it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -534,8 +534,7 @@ def _with_exact(result, solver):
     exact = {"estimate": solver(result.estimate)}
     if result.ci is not None:
         exact["ci"] = solver(_near_limit(result.estimate, result.ci, result.target))
-    object.__setattr__(result, "exact", exact)
-    return result
+    return replace(result, exact=exact)
 
 
 def _reduced(axes, j):
@@ -750,8 +749,7 @@ def partial_r2_grid(
         )
         return _within(root, 0, 1 - 1e-15)
 
-    object.__setattr__(result, "exact", {"estimate": exact_estimate(), "ci": exact_ci()})
-    return result
+    return replace(result, exact={"estimate": exact_estimate(), "ci": exact_ci()})
 
 
 # --------------------------------------------------------------------------- default grids
