@@ -81,14 +81,12 @@ def partial_r2_contours(result, path, statistic: str = "estimate", limit=None, s
     )
     ax.clabel(cs, fontsize=7, fmt="%.3g")
     if statistic == "estimate":
-        tipping = ax.contour(
+        ax.contour(
             X, Y, (sign * (s["estimate"] - target)).T, levels=[0], colors="crimson", linewidths=2.2
         )
     else:
-        tipping = ax.contour(X, Y, (sign * s["t"]).T, levels=[0], colors="crimson", linewidths=2.2)
-    sig = ax.contour(
-        X, Y, dist_t.T, levels=[crit], colors="crimson", linewidths=1.6, linestyles="dashed"
-    )
+        ax.contour(X, Y, (sign * s["t"]).T, levels=[0], colors="crimson", linewidths=2.2)
+    ax.contour(X, Y, dist_t.T, levels=[crit], colors="crimson", linewidths=1.6, linestyles="dashed")
     goal = "zero" if result.fraction == 1 else f"{target:.3g}"
     handles = [
         plt.Line2D([], [], color="crimson", lw=2.2, label=f"Estimate reaches {goal}"),
@@ -101,7 +99,6 @@ def partial_r2_contours(result, path, statistic: str = "estimate", limit=None, s
             label=f"{1 - result.alpha:.0%} interval reaches {goal}",
         ),
     ]
-    del tipping, sig
     ax.plot([0], [0], marker="^", color="black", ms=8, clip_on=False)
     ax.annotate(
         f"observed ({result.estimate:.3g})",

@@ -32,10 +32,8 @@ NOT_OLS = (
 
 # --------------------------------------------------------------------------- model parts
 def _check_ols(results):
-    try:
-        from statsmodels.regression.linear_model import OLS
-    except ImportError:  # pragma: no cover - statsmodels is a dependency
-        raise
+    from statsmodels.regression.linear_model import OLS
+
     model = getattr(results, "model", None)
     if model is None or not hasattr(results, "params"):
         raise TypeError(

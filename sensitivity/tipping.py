@@ -201,6 +201,11 @@ class TippingGrid(Displayable):
                 if key in least:
                     row[key] = least[key][tuple(pos)]
                     row[f"{key}_exact"] = self.exact[key][tuple(pos)]
+                    side = self.exact[f"{key}_side"][tuple(pos)]
+                    exists = np.isfinite(row[f"{key}_exact"])
+                    row[f"{key}_exact_side"] = (
+                        ("above" if side > 0 else "below") if exists else None
+                    )
             out.append(plain(row))
         return out
 
@@ -269,6 +274,12 @@ class TippingGrid(Displayable):
             return f"{value:.3g}" if value >= 0.001 or value == 0 else f"{value:.2e}"
         return f"{value:.4g}"
 
+    def _exact(self, name, tp, key) -> str:
+        value = tp[f"{key}_exact"]
+        if value is None:
+            return "never"
+        return ("≥ " if tp[f"{key}_exact_side"] == "above" else "≤ ") + self._fmt(name, value)
+
     def table(self) -> Table:
         j = self.solved
         if j is None:
@@ -287,15 +298,15 @@ class TippingGrid(Displayable):
         if self.reach_ci is not None:
             cols += ("CI reaches it at", "(exact)")
         exact_note = (
-            "'(exact)': the crossing from the closed-form formula, at any value "
-            "(it may lie outside the grid)."
+            "'(exact)': from the closed-form formula, the values (≥ or ≤ the crossing, which "
+            "may lie outside the grid) at which it reaches the target; 'never': no value does."
         )
         rows = []
         for tp in self.tipping_points():
             row = tuple(self._fmt(o, tp[o]) for o in others)
-            row += (self._fmt(solved, tp["estimate"]), self._fmt(solved, tp["estimate_exact"]))
+            row += (self._fmt(solved, tp["estimate"]), self._exact(solved, tp, "estimate"))
             if self.reach_ci is not None:
-                row += (self._fmt(solved, tp["ci"]), self._fmt(solved, tp["ci_exact"]))
+                row += (self._fmt(solved, tp["ci"]), self._exact(solved, tp, "ci"))
             rows.append(row)
         if not others:
             cols = ("",) + cols
@@ -531,9 +542,13 @@ def _with_exact(result, solver):
     """Attach the exact crossings of the solved axis for the estimate and the near CI limit."""
     if result.solved is None:
         return result
-    exact = {"estimate": solver(result.estimate)}
+    exact = {}
+    keys = [("estimate", result.estimate)]
     if result.ci is not None:
-        exact["ci"] = solver(_near_limit(result.estimate, result.ci, result.target))
+        keys.append(("ci", _near_limit(result.estimate, result.ci, result.target)))
+    for key, obs in keys:
+        root, side = solver(obs)
+        exact[key], exact[f"{key}_side"] = root, np.broadcast_to(side, np.shape(root))
     return replace(result, exact=exact)
 
 
@@ -559,11 +574,8 @@ def _shift_binary(scale, obs, p1, p0, g):
 
 
 def _binary_exact(result, obs):
-    """Closed-form value of the solved parameter at which `obs` shifts onto the target.
-
-    Kept only where slightly larger values reach the target, so that it is the least value
-    that does (elsewhere NaN: the conclusion tips, if at all, from the grid's start).
-    """
+    """Closed-form value of the solved parameter at which `obs` shifts onto the target, and
+    the side (+1: values at or above it reach the target; -1: at or below)."""
     j = result.solved
     p1, p0, g = _reduced(result.axes, j)
     t = result.target
@@ -585,7 +597,7 @@ def _binary_exact(result, obs):
         args[j] = root + 1e-9 * np.maximum(1.0, np.abs(np.nan_to_num(root)))
         probe = _shift_binary(result.scale, obs, *args)
     side = 1 if result.estimate >= t else -1
-    return np.where(_reaches(probe, t, side), root, np.nan)
+    return root, np.where(_reaches(probe, t, side), 1, -1)
 
 
 # --------------------------------------------------------------------------- bounding factor
@@ -663,7 +675,7 @@ def bounding_grid(
         other = a if result.solved == 1 else b
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             root = np.where(other > r, r * (other - 1) / (other - r), np.nan)
-        return root if r > 1 else np.ones_like(other)
+        return (root if r > 1 else np.ones_like(other)), 1
 
     return _with_exact(result, solver)
 
@@ -749,7 +761,17 @@ def partial_r2_grid(
         )
         return _within(root, 0, 1 - 1e-15)
 
-    return replace(result, exact={"estimate": exact_estimate(), "ci": exact_ci()})
+    est_root, ci_root = exact_estimate(), exact_ci()
+    # bias (and the interval's reach) grow with both strengths: the crossing is a lower bound
+    return replace(
+        result,
+        exact={
+            "estimate": est_root,
+            "estimate_side": np.ones(est_root.shape),
+            "ci": ci_root,
+            "ci_side": np.ones(ci_root.shape),
+        },
+    )
 
 
 # --------------------------------------------------------------------------- default grids

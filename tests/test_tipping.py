@@ -122,7 +122,7 @@ def test_exact_crossing_of_each_parameter_on_the_difference_scale(axis):
     g = binary_confounder_grid("md", -0.4 if axis == "prevalence_control" else 0.4, **params)
     compared = 0
     for tp in g.tipping_points():
-        if tp["estimate"] is not None and tp["estimate_exact"] is not None:
+        if tp["estimate"] is not None and tp["estimate_exact_side"] == "above":
             assert tp["estimate_exact"] == pytest.approx(tp["estimate"], abs=0.0011)
             compared += 1
     assert compared > 0
@@ -298,3 +298,19 @@ def test_default_grids_from_the_api():
     assert bounding_grid("rr", 3.9).axes[0][1][-1] == 11.0  # ceil(1.5 * E), E = 7.26
     p = partial_r2_grid(0.097, 0.0232, 783)
     assert p.axes[0][1][0] == 0.0 and p.axes[0][1][-1] < 1
+
+
+def test_exact_crossing_below_for_a_negative_effect():
+    # -2 - gamma (0.5 - p0) reaches 0 for gamma <= -2 / (0.5 - p0): at p0 = 0, gamma <= -4.
+    g = binary_confounder_grid(
+        "md",
+        -2.0,
+        (-3.5, -0.5),
+        prevalence_treated=0.5,
+        prevalence_control=[0.0, 0.1],
+        outcome_effect=value_range(-6, -1, 1),
+    )
+    first = g.tipping_points()[0]
+    assert first["estimate_exact"] == pytest.approx(-4.0)
+    assert first["estimate_exact_side"] == "below"
+    assert first["estimate"] == -6.0  # the least grid value that reaches it
