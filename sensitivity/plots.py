@@ -189,9 +189,10 @@ def tipping_figure(result, path):
         handles = []
         if np.nanmin(est) <= result.target <= np.nanmax(est):
             ax.contour(x, y, est.T, levels=[result.target], colors="black", linewidths=2.2)
-            handles.append(
-                plt.Line2D([], [], color="black", lw=2.2, label=f"Estimate reaches {goal}")
-            )
+            label = f"Estimate reaches {goal}"
+            if result.kind == "bounding":
+                label = f"E-value curve: estimate reaches {goal}"
+            handles.append(plt.Line2D([], [], color="black", lw=2.2, label=label))
         if near is not None and np.nanmin(near) <= result.target <= np.nanmax(near):
             ax.contour(
                 x,
