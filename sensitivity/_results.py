@@ -8,7 +8,11 @@ import numpy as np
 
 
 def plain(value):
-    """JSON-ready plain Python: 0-d arrays to float, arrays to lists, NaN to None."""
+    """JSON-ready plain Python: 0-d arrays to float, arrays to lists, NaN and ±inf to None.
+
+    Infinities arise only where a quantity is undefined (a t value with a zero standard
+    error under a capped benchmark); the result's flags say why, and JSON has no infinity.
+    """
     if isinstance(value, dict):
         return {k: plain(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
@@ -21,7 +25,7 @@ def plain(value):
         return int(value)
     if isinstance(value, (float, np.floating)):
         value = float(value)
-        return None if math.isnan(value) else value
+        return value if math.isfinite(value) else None
     return value
 
 

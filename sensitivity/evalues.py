@@ -77,7 +77,7 @@ def evalue_of_rr(rr):
     """
     rr = np.asarray(rr, dtype=float)
     r = np.where(rr < 1, 1 / rr, rr)
-    return r + np.sqrt(r * (r - 1))
+    return r + np.sqrt(r) * np.sqrt(r - 1)  # not sqrt(r (r - 1)): no overflow below 1e308
 
 
 def evalue_of_interval(lower, upper, target=1.0):

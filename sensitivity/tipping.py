@@ -519,9 +519,22 @@ def binary_confounder_grid(
         reach_estimate=reach,
         reach_ci=reach_ci,
         exact={},
-        notes=_binary_notes(scale),
+        notes=tuple(_already(est, ci, tgt)) + _binary_notes(scale),
     )
     return _with_exact(result, lambda obs: _binary_exact(result, obs))
+
+
+def _already(est, ci, target):
+    """Notes for a grid whose estimate, or interval, already sits at the target."""
+    notes = []
+    if est == target:
+        notes.append("The estimate already equals the target: no confounding is needed.")
+    elif ci is not None and ci[0] <= target <= ci[1]:
+        notes.append(
+            "The interval already includes the target: the interval columns show "
+            "where a confounder would move it back out, not in."
+        )
+    return notes
 
 
 def _binary_notes(scale):

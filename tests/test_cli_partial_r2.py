@@ -148,6 +148,25 @@ def test_capped_benchmark_warns_on_one_line(run, tmp_path):
     )
     assert res.exit_code == 0
     assert res.stderr.startswith("Warning: the 2x `x` bound on the outcome side exceeds 1")
+    res = run(
+        "partial-r2",
+        "--data",
+        path,
+        "--formula",
+        "y ~ t + x",
+        "--treatment",
+        "t",
+        "--benchmark",
+        "x",
+        "--times",
+        2,
+        "--format",
+        "json",
+    )
+    assert res.exit_code == 0, res.stderr
+    (sc,) = json.loads(res.stdout)["scenarios"]
+    assert sc["capped"] is True and sc["r2_outcome"] == 1.0
+    assert sc["bias_adjusted"]["se"] == 0.0 and sc["bias_adjusted"]["t"] is None
 
 
 @pytest.mark.parametrize(

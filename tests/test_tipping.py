@@ -314,3 +314,46 @@ def test_exact_crossing_below_for_a_negative_effect():
     assert first["estimate_exact"] == pytest.approx(-4.0)
     assert first["estimate_exact_side"] == "below"
     assert first["estimate"] == -6.0  # the least grid value that reaches it
+
+
+@given(
+    st.sampled_from(["md", "rd", "rr", "or", "hr"]),
+    st.lists(probs, min_size=1, max_size=4),
+    st.lists(probs, min_size=1, max_size=4),
+    st.lists(st.floats(0.05, 8), min_size=1, max_size=4),
+)
+def test_vectorised_grid_equals_a_scalar_loop(scale, p1s, p0s, effects):
+    grid = binary_confounder_grid(
+        scale,
+        1.5,
+        (1.1, 2.0),
+        prevalence_treated=p1s,
+        prevalence_control=p0s,
+        outcome_effect=effects,
+    )
+    for i, a in enumerate(p1s):
+        for j, b in enumerate(p0s):
+            for k, g in enumerate(effects):
+                one = binary_confounder_grid(
+                    scale,
+                    1.5,
+                    (1.1, 2.0),
+                    prevalence_treated=a,
+                    prevalence_control=b,
+                    outcome_effect=g,
+                )
+                for key, cell in grid.cells.items():
+                    assert cell[i, j, k] == one.cells[key].item()
+
+
+@given(
+    st.lists(st.floats(0, 0.95), min_size=1, max_size=5),
+    st.lists(st.floats(0, 0.95), min_size=1, max_size=5),
+)
+def test_partial_r2_grid_equals_a_scalar_loop(r2ts, r2ys):
+    grid = partial_r2_grid(0.097, 0.0232, 783, r2_treatment=r2ts, r2_outcome=r2ys)
+    for i, a in enumerate(r2ts):
+        for j, b in enumerate(r2ys):
+            one = bias_adjusted(0.097, 0.0232, 783, a, b)
+            assert grid.cells["bias_adjusted_estimate"][i, j] == float(one["estimate"])
+            assert grid.cells["bias_adjusted_ci_upper"][i, j] == float(one["upper"])
