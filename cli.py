@@ -124,6 +124,7 @@ def cli(debug):
 # --------------------------------------------------------------------------- evalue
 @cli.command(
     "evalue",
+    short_help="E-value of an estimate and its CI (rr, or, hr, smd, md).",
     context_settings={"ignore_unknown_options": True},  # lets ESTIMATE be negative (smd/md)
 )
 @click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), metavar="SCALE")
@@ -234,7 +235,7 @@ def _show_warnings():
     warnings.simplefilter("always", SensitivityWarning)
 
 
-@cli.command("partial-r2")
+@cli.command("partial-r2", short_help="Partial-R² bounds for an OLS coefficient, with benchmarks.")
 @click.option("--estimate", type=float, help="Summary input: the treatment's OLS coefficient.")
 @click.option("--se", type=float, help="Summary input: its classical standard error.")
 @click.option("--t", "t_stat", type=float, help="Summary input: its t statistic (instead of --se).")
@@ -329,8 +330,9 @@ def partial_r2_cmd(
     \b
     Examples:
       sensitivity partial-r2 --estimate 0.097 --se 0.0232 --dof 783
-      sensitivity partial-r2 --data d.csv --formula "y ~ t + age + C(region)" \\
-          --treatment t --benchmark age --times 1 --times 2 --plot contours.png
+      sensitivity partial-r2 --data demo/harbourside_bp.csv \\
+          --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
+          --treatment commute_min --benchmark smoker --times 1 --times 2 --plot contours.png
     """
     _show_warnings()
     summary_given = [
@@ -413,7 +415,9 @@ def partial_r2_cmd(
 RANGE_HELP = "a value or START:STOP:STEP (STOP included when the steps reach it)"
 
 
-@cli.command("tipping")
+@cli.command(
+    "tipping", short_help="Tipping-point grids for a hidden confounder of chosen strength."
+)
 @click.option(
     "--kind",
     type=click.Choice(["binary", "bounding", "partial-r2"]),
