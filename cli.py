@@ -290,6 +290,13 @@ def _show_warnings():
 )
 @click.option("--sd", type=float, help="Summary input: outcome SD, to add the E-value alongside.")
 @click.option(
+    "--contrast",
+    type=float,
+    default=1.0,
+    show_default=True,
+    help="The E-value alongside is per this many units of treatment (e.g. 10).",
+)
+@click.option(
     "--plot", type=click.Path(dir_okay=False), help="Write a contour figure (.png, .svg or .pdf)."
 )
 @click.option(
@@ -316,6 +323,7 @@ def partial_r2_cmd(
     r2_treatment,
     r2_outcome,
     sd,
+    contrast,
     plot,
     plot_statistic,
     fmt,
@@ -382,6 +390,7 @@ def partial_r2_cmd(
             times_pairs=times_pairs,
             r2_treatment=r2t,
             r2_outcome=r2y,
+            contrast=contrast,
         )
     else:
         if benchmarks or times or times_pairs:
@@ -401,6 +410,7 @@ def partial_r2_cmd(
             alpha=alpha,
             r2_treatment=r2t,
             r2_outcome=r2y,
+            contrast=contrast,
             sd_outcome=sd,
         )
     emit(result, fmt, output)

@@ -1,4 +1,7 @@
-"""Run the main job on the bundled, invented cohort estimates, printing each command first."""
+"""`make demo`: the main job on bundled, invented data, printing each command before its output.
+
+The scenario is our own and the numbers are invented (see demo/README.md). Figures go to out/.
+"""
 
 import csv
 import shlex
@@ -7,9 +10,11 @@ import sys
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
+ROOT = HERE.parent
+RULE = "=" * 92
 
 
-def command_for(row: dict) -> list[str]:
+def evalue_command(row: dict) -> list[str]:
     args = ["sensitivity", "evalue", row["scale"], row["estimate"]]
     if row["lower"]:
         args += ["--ci", row["lower"], row["upper"]]
@@ -21,92 +26,87 @@ def command_for(row: dict) -> list[str]:
     return args
 
 
+def show(title: str, cmd: list[str]) -> int:
+    """Print the title and command, run it from the project root, pass its output through."""
+    print(RULE)
+    print(title)
+    print("$ " + shlex.join(cmd) + "\n")
+    out = subprocess.run(cmd, capture_output=True, text=True, cwd=ROOT)
+    sys.stdout.write(out.stdout)
+    sys.stderr.write(out.stderr)
+    print()
+    return out.returncode
+
+
 def main() -> int:
+    (ROOT / "out").mkdir(exist_ok=True)
     with open(HERE / "cohort_estimates.csv", newline="", encoding="utf-8") as fh:
         rows = list(csv.DictReader(fh))
     print("Harbourside Workers Cohort (invented data): how strong would a hidden confounder")
     print("have to be to explain each adjusted estimate away?\n")
+    steps = []
     for i, row in enumerate(rows, 1):
-        print("=" * 92)
-        print(f"[{i}/{len(rows)}] {row['exposure']} -> {row['outcome']}")
-        cmd = command_for(row)
-        if i == 1:  # the reviewer's question, once: a confounder as strong as a known one
+        cmd = evalue_command(row)
+        if i == 1:  # the reviewer's question, once: confounders as strong as known ones
             cmd += ["--confounder", "1.5", "2", "--confounder", "3", "4"]
-        print("$ " + shlex.join(cmd) + "\n")
-        out = subprocess.run(cmd, capture_output=True, text=True)
-        sys.stdout.write(out.stdout)
-        if out.returncode:
-            sys.stderr.write(out.stderr)
-            return out.returncode
-        print()
-    return regression_demo()
-
-
-def regression_demo() -> int:
-    """The data route: an OLS coefficient, benchmarked against measured covariates."""
-    out_dir = HERE.parent / "out"
-    out_dir.mkdir(exist_ok=True)
-    cmd = [
-        "sensitivity",
-        "partial-r2",
-        "--data",
-        "demo/harbourside_bp.csv",
-        "--formula",
-        "sbp ~ commute_min + age + female + smoker + C(shift) + bmi",
-        "--treatment",
-        "commute_min",
-        "--benchmark",
-        "smoker",
-        "--benchmark",
-        "shift",
-        "--times",
-        "1",
-        "--times",
-        "2",
-        "--plot",
-        "out/partial_r2_contours.png",
-    ]
-    print("=" * 92)
-    print("Systolic blood pressure per daily commute minute (OLS on invented individual data):")
-    print("$ " + shlex.join(cmd) + "\n")
-    out = subprocess.run(cmd, capture_output=True, text=True, cwd=HERE.parent)
-    sys.stdout.write(out.stdout)
-    sys.stderr.write(out.stderr)
-    if out.returncode:
-        return out.returncode
-    return tipping_demo()
-
-
-def tipping_demo() -> int:
-    """The reviewer's tipping-point question for the night-shift and diabetes estimate."""
-    cmd = [
-        "sensitivity",
-        "tipping",
-        "--scale",
-        "hr",
-        "--estimate",
-        "1.38",
-        "--ci",
-        "1.12",
-        "1.70",
-        "--prevalence-control",
-        "0.25",
-        "--prevalence-treated",
-        "0.25:0.75:0.05",
-        "--outcome-effect",
-        "1:4:0.1",
-        "--plot",
-        "out/tipping_night_shift.png",
-    ]
-    print("=" * 92)
-    print("Tipping points for night-shift work and type 2 diabetes (hazard ratio, rare outcome):")
-    print("$ " + shlex.join(cmd) + "\n")
-    out = subprocess.run(cmd, capture_output=True, text=True, cwd=HERE.parent)
-    sys.stdout.write(out.stdout)
-    sys.stderr.write(out.stderr)
-    if out.returncode == 0:
-        print("\nFigures written to out/: partial_r2_contours.png, tipping_night_shift.png")
-    return out.returncode
+        steps.append((f"[{i}/{len(rows)}] {row['exposure']} -> {row['outcome']}", cmd))
+    steps.append(
+        (
+            "Systolic blood pressure per daily commute minute (OLS on invented individual data):",
+            [
+                "sensitivity",
+                "partial-r2",
+                "--data",
+                "demo/harbourside_bp.csv",
+                "--formula",
+                "sbp ~ commute_min + age + female + smoker + C(shift) + bmi",
+                "--treatment",
+                "commute_min",
+                "--benchmark",
+                "smoker",
+                "--benchmark",
+                "shift",
+                "--times",
+                "1",
+                "--times",
+                "2",
+                "--contrast",
+                "10",
+                "--plot",
+                "out/partial_r2_contours.png",
+            ],
+        )
+    )
+    steps.append(
+        (
+            "Tipping points for night-shift work and type 2 diabetes (hazard ratio, rare outcome):",
+            [
+                "sensitivity",
+                "tipping",
+                "--scale",
+                "hr",
+                "--estimate",
+                "1.38",
+                "--ci",
+                "1.12",
+                "1.70",
+                "--prevalence-control",
+                "0.25",
+                "--prevalence-treated",
+                "0.25:0.75:0.05",
+                "--outcome-effect",
+                "1:4:0.1",
+                "--plot",
+                "out/tipping_night_shift.png",
+            ],
+        )
+    )
+    for title, cmd in steps:
+        code = show(title, cmd)
+        if code:
+            return code
+    print("Figures written to out/: partial_r2_contours.png, tipping_night_shift.png")
+    return 0
 
 
 if __name__ == "__main__":

@@ -415,7 +415,7 @@ class PartialR2Result(Displayable):
             e = self.evalue
             rows.append(
                 (
-                    "E-value via standardized difference (estimate, CI)",
+                    f"E-value via standardized difference{_per(e.contrast)} (estimate, CI)",
                     f"{number(e.evalue)}, {number(e.evalue_ci)}",
                 )
             )
@@ -616,6 +616,7 @@ def partial_r2_summary(
     r2_treatment=None,
     r2_outcome=None,
     sd_outcome=None,
+    contrast=1.0,
 ) -> PartialR2Result:
     """Partial-R² sensitivity of an OLS coefficient from its summary numbers.
 
@@ -637,6 +638,9 @@ def partial_r2_summary(
         Hypothetical confounder strengths, in pairs; each pair adds a scenario.
     sd_outcome : float, optional
         The outcome's standard deviation: adds the E-value through the SMD conversion.
+    contrast : float, default 1
+        Treatment difference the E-value alongside refers to (the coefficient is per unit;
+        e.g. 10 for "per 10 minutes"). The partial-R² numbers do not depend on it.
 
     Returns
     -------
@@ -661,7 +665,12 @@ def partial_r2_summary(
         r2_treatment=r2_treatment,
         r2_outcome=r2_outcome,
         sd_outcome=sd_outcome,
+        contrast=contrast,
     )
+
+
+def _per(contrast) -> str:
+    return "" if contrast == 1 else f" per {contrast:g} units of treatment"
 
 
 def assemble(
@@ -674,6 +683,7 @@ def assemble(
     r2_treatment=None,
     r2_outcome=None,
     sd_outcome=None,
+    contrast=1.0,
     scenarios=(),
     **context,
 ) -> PartialR2Result:
@@ -691,13 +701,14 @@ def assemble(
     if sd_outcome is not None:
         from .evalues import evalue
 
-        ev = evalue("md", est, se=se, sd=float(require(sd_outcome, "sd_outcome", POSITIVE)))
+        sd = float(require(sd_outcome, "sd_outcome", POSITIVE))
+        ev = evalue("md", est, se=se, sd=sd, contrast=contrast)
     notes = list(context.pop("notes", ()))
     if ev is not None:
         notes.append(
-            f"E-value: the coefficient standardised by the outcome's SD ({float(ev.sd):.4g}) "
-            "and mapped to a risk ratio with exp(0.91 d) (VanderWeele & Ding 2017); it answers "
-            "the same question on the risk-ratio scale."
+            f"E-value: the coefficient{_per(contrast)} standardised by the outcome's SD "
+            f"({float(ev.sd):.4g}) and mapped to a risk ratio with exp(0.91 d) (VanderWeele & "
+            "Ding 2017); it answers the same question on the risk-ratio scale."
         )
     return PartialR2Result(
         estimate=est,

@@ -169,6 +169,7 @@ def partial_r2_from_model(
     times_pairs=(),
     r2_treatment=None,
     r2_outcome=None,
+    contrast=1.0,
     notes=(),
 ) -> PartialR2Result:
     """Partial-R² sensitivity of the `treatment` coefficient of a fitted statsmodels OLS model.
@@ -190,6 +191,8 @@ def partial_r2_from_model(
         1, unless `times_pairs` is given).
     times_pairs : sequence of (k_treatment, k_outcome)
         Separate multiples for the treatment and the outcome sides.
+    contrast : float, default 1
+        Treatment difference the E-value alongside refers to (per `contrast` units).
 
     Returns
     -------
@@ -237,6 +240,7 @@ def partial_r2_from_model(
         r2_treatment=r2_treatment,
         r2_outcome=r2_outcome,
         sd_outcome=float(np.std(y, ddof=1)),
+        contrast=contrast,
         scenarios=scenarios,
         treatment=treat_name,
         outcome=str(model.endog_names),

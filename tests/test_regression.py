@@ -258,3 +258,18 @@ def test_dataframe_and_path_agree(fair, tmp_path):
     b = partial_r2_from_data(path, FORMULA, "rate_marriage")
     assert a.robustness_value == pytest.approx(b.robustness_value, rel=1e-10)
     assert isinstance(a.to_frame(), pd.DataFrame)
+
+
+def test_evalue_alongside_per_contrast(fair, fit):
+    from sensitivity.evalues import evalue
+
+    res = partial_r2_from_model(fit, "rate_marriage", contrast=2.0)
+    ref = evalue(
+        "md",
+        fit.params["rate_marriage"],
+        se=fit.bse["rate_marriage"],
+        sd=fair["affairs"].std(ddof=1),
+        contrast=2.0,
+    )
+    assert float(res.evalue.evalue) == pytest.approx(float(ref.evalue), rel=1e-12)
+    assert res.robustness_value == partial_r2_from_model(fit, "rate_marriage").robustness_value
