@@ -191,11 +191,13 @@ class TippingGrid(Displayable):
         # fixed axes have length 1: index 0 there; iterate over the other varying axes
         grid_shape = [len(self.axes[i][1]) for i in others]
         for idx in np.ndindex(*grid_shape) if others else [()]:
-            pos = [0] * len(self.axes)
+            full = [0] * len(self.axes)
             for i, k in zip(others, idx, strict=True):
-                pos[i] = k
-            del pos[j]
-            row = {self.axes[i][0]: float(self.axes[i][1][pos[i - (i > j)]]) for i in others}
+                full[i] = k
+            pos = full[:j] + full[j + 1 :]  # index into arrays that lack the solved axis
+            row = {
+                self.axes[i][0]: float(self.axes[i][1][k]) for i, k in zip(others, idx, strict=True)
+            }
             row["parameter"] = name
             for key in ("estimate", "ci"):
                 if key in least:
