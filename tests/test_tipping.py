@@ -357,3 +357,21 @@ def test_partial_r2_grid_equals_a_scalar_loop(r2ts, r2ys):
             one = bias_adjusted(0.097, 0.0232, 783, a, b)
             assert grid.cells["bias_adjusted_estimate"][i, j] == float(one["estimate"])
             assert grid.cells["bias_adjusted_ci_upper"][i, j] == float(one["upper"])
+
+
+def test_three_varying_parameters_key_tipping_points_by_the_first_two():
+    p1s, p0s = [0.4, 0.8], [0.0, 0.2, 0.3]
+    g = binary_confounder_grid("rr", 1.8, prevalence_treated=p1s, prevalence_control=p0s,
+                               outcome_effect=value_range(1, 20, 0.001))
+    tps = g.tipping_points()
+    assert [(t["prevalence_treated"], t["prevalence_control"]) for t in tps] == [
+        (a, b) for a in p1s for b in p0s
+    ]
+    for t in tps:
+        a, b = t["prevalence_treated"], t["prevalence_control"]
+        exact = 1 + (1 - 1.8) / (1.8 * b - a)  # G at which 1.8 (1 + (G-1) b) / (1 + (G-1) a) = 1
+        if 1 <= exact <= 20:
+            assert t["estimate_exact"] == pytest.approx(exact)
+            assert t["estimate"] == pytest.approx(exact, abs=0.0011)
+        else:
+            assert t["estimate"] is None
