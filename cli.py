@@ -94,6 +94,11 @@ def emit(result, fmt: str, output: str | None) -> None:
 
         body = "\n\n".join(render(t, fmt) for t in result.tables())
     if output:
+        from pathlib import Path
+
+        folder = Path(output).parent
+        if not folder.is_dir():
+            raise click.UsageError(f"--output: folder {str(folder)!r} does not exist")
         with open(output, "w", encoding="utf-8") as fh:
             fh.write(body + "\n")
         click.echo(f"Wrote {output}", err=True)

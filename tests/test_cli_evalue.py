@@ -111,6 +111,10 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         (("rr", 2, "--confounder", 0.5, 2), "Error: `rr_treatment` must be at least 1; got 0.5"),
         (("zz", 2), "Error: Invalid value for 'SCALE'"),
         (("rr",), "Error: Missing argument 'ESTIMATE'."),
+        (
+            ("rr", 2, "--output", "/no/such/folder/e.txt"),
+            "Error: --output: folder '/no/such/folder' does not exist",
+        ),
     ],
 )
 def test_bad_input_exits_2_with_one_line(run, args, message):

@@ -361,8 +361,13 @@ def test_partial_r2_grid_equals_a_scalar_loop(r2ts, r2ys):
 
 def test_three_varying_parameters_key_tipping_points_by_the_first_two():
     p1s, p0s = [0.4, 0.8], [0.0, 0.2, 0.3]
-    g = binary_confounder_grid("rr", 1.8, prevalence_treated=p1s, prevalence_control=p0s,
-                               outcome_effect=value_range(1, 20, 0.001))
+    g = binary_confounder_grid(
+        "rr",
+        1.8,
+        prevalence_treated=p1s,
+        prevalence_control=p0s,
+        outcome_effect=value_range(1, 20, 0.001),
+    )
     tps = g.tipping_points()
     assert [(t["prevalence_treated"], t["prevalence_control"]) for t in tps] == [
         (a, b) for a in p1s for b in p0s
