@@ -49,3 +49,52 @@ def test_instrumental_variable_fit_is_refused():
     fit = IV2SLS(y, x, np.column_stack([np.ones(200), z])).fit()
     with pytest.raises(ValueError, match=r"got IV2SLS\. .*use the E-value route"):
         partial_r2_from_model(fit, "x1")
+
+
+def test_internal_fault_exits_1_without_traceback(run, monkeypatch):
+    import sensitivity.evalues as ev
+
+    def broken(*args, **kwargs):
+        raise RuntimeError("simulated fault")
+
+    monkeypatch.setattr(ev, "evalue", broken)
+    res = run("evalue", "rr", 2)
+    assert res.exit_code == 1
+    assert (
+        res.stderr == "Error: internal error (RuntimeError: simulated fault); rerun with --debug\n"
+    )
+
+
+def test_debug_shows_the_traceback(monkeypatch):
+    from click.testing import CliRunner
+
+    import sensitivity.evalues as ev
+    from cli import cli
+
+    monkeypatch.setattr(ev, "evalue", lambda *a, **k: 1 / 0)
+    res = CliRunner().invoke(cli, ["--debug", "evalue", "rr", "2"])
+    assert isinstance(res.exception, ZeroDivisionError)
+
+
+@pytest.mark.parametrize(
+    "name, content",
+    [("bad.parquet", b"not parquet at all"), ("bad.xlsx", b"PK\x03\x04 broken zip")],
+)
+def test_malformed_files_exit_2(run, tmp_path, name, content):
+    path = tmp_path / name
+    path.write_bytes(content)
+    res = run("partial-r2", "--data", path, "--formula", "y ~ t", "--treatment", "t")
+    assert res.exit_code == 2
+    assert res.stderr.startswith(f"Error: `data`: could not read {path} as ")
+    assert res.stderr.count("\n") == 1
+
+
+def test_a_dataframe_is_not_a_fitted_model():
+    import pandas as pd
+
+    from sensitivity.regression import partial_r2_from_model
+
+    with pytest.raises(
+        TypeError, match=r"`results` must be a fitted statsmodels model; got DataFrame"
+    ):
+        partial_r2_from_model(pd.DataFrame({"a": [1]}), "a")
