@@ -704,7 +704,8 @@ def partial_r2_grid(
     The computation is `sensitivity.partial_r2.surface` (Cinelli & Hazlett 2020); the
     interval reaches the target when its limit nearest the target does. Exact crossings:
     for the estimate ``r2_outcome = d² (1 - r2_t) / (se² dof r2_t)`` with ``d = |est - target|``;
-    for the interval the solution of ``A sin θ + C cos θ = d`` with ``r2_outcome = sin² θ``,
+    for the interval the solution of ``A sin θ + C cos θ = d`` with ``r2_outcome = sin² θ``
+    (and likewise in the angle of ``sqrt(r2_treatment)`` when that is the solved axis),
     ``A = se sqrt(dof r2_t / (1 - r2_t))`` and ``C = t_crit se sqrt(dof / ((dof - 1)(1 - r2_t)))``.
     """
     from .partial_r2 import _check_summary, robustness_value, surface, t_critical
@@ -763,8 +764,15 @@ def partial_r2_grid(
         return _within(root, 0, 1 - 1e-15)
 
     def exact_ci():
-        if result.solved != 1:
-            return np.full(len(other), np.nan)  # closed form given for r2_outcome only
+        if result.solved == 0:
+            # r2_treatment for each r2_outcome: with x = sqrt(r2_t), w = sqrt(1 - r2_t) the
+            # limit reaches the target when P x + Q >= d w, increasing in the angle of (x, w).
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                P = se * np.sqrt(dof * other)
+                Q = crit * se * np.sqrt(dof / (dof - 1) * (1 - other))
+                angle = np.arctan2(d, P) - np.arcsin(np.clip(Q / np.hypot(P, d), -1, 1))
+            root = np.where(Q >= d, 0.0, np.sin(np.clip(angle, 0, np.pi / 2)) ** 2)
+            return _within(root, 0, 1 - 1e-15)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             A = se * np.sqrt(dof * other / (1 - other))
             C = crit * se * np.sqrt(dof / ((dof - 1) * (1 - other)))

@@ -380,3 +380,13 @@ def test_three_varying_parameters_key_tipping_points_by_the_first_two():
             assert t["estimate"] == pytest.approx(exact, abs=0.0011)
         else:
             assert t["estimate"] is None
+
+
+def test_partial_r2_exact_crossings_when_solving_the_treatment_side():
+    r2t = value_range(0, 0.95, 0.0005)
+    g = partial_r2_grid(0.097, 0.0232, 783, r2_treatment=r2t, r2_outcome=0.2)
+    (tp,) = g.tipping_points()
+    assert tp["parameter"] == "r2_treatment"
+    for key in ("estimate", "ci"):
+        assert tp[key] is not None
+        assert tp[f"{key}_exact"] == pytest.approx(tp[key], abs=0.00051)
