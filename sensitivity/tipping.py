@@ -26,7 +26,7 @@ import numpy as np
 from . import cautions
 from ._checks import POSITIVE, PROBABILITY, R2_STRENGTH, require, require_choice
 from ._results import Displayable, plain
-from .evalues import AT_LEAST_ONE, RATIO_SCALES, SCALE_NAMES
+from .evalues import AT_LEAST_ONE, RATIO_SCALES, SCALE_NAMES, _check_interval
 from .tables import Table, bullets, number, render, wrap
 
 #: The largest grid computed (cells = product of the axis lengths): about 40 MB per column.
@@ -400,14 +400,8 @@ def _check_effect(scale, estimate, ci, target):
     tgt = float(require(null if target is None else target, "target", *rules))
     pair = None
     if ci is not None:
-        lo, up = (float(require(v, "ci", *rules)) for v in ci)
-        if lo > up:
-            raise ValueError(f"`ci` lower limit must not exceed the upper; got {lo:g} > {up:g}")
-        if not lo <= est <= up:
-            raise ValueError(
-                f"`estimate` must lie within `ci`; got {est:g} outside [{lo:g}, {up:g}]"
-            )
-        pair = (lo, up)
+        lo, up = _check_interval(ci[0], ci[1], est, scale)
+        pair = (float(lo), float(up))
     return scale, est, pair, tgt
 
 
