@@ -73,7 +73,6 @@ def bench_benchmarks() -> None:
     print("== Benchmark table: 30 covariates, n = 200,000 (issue 3)")
     import numpy as np
     import statsmodels.api as sm
-
     from sensitivity.regression import partial_r2_from_model
 
     frame = _regression_data()
@@ -113,8 +112,8 @@ def bench_tipping() -> None:
     import json
 
     import numpy as np
-
     from sensitivity.tables import columns_to_csv
+
     from sensitivity.tipping import binary_confounder_grid
 
     p1 = np.linspace(0, 1, 1000)

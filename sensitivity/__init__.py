@@ -2,13 +2,16 @@
 
 Public API (imported lazily, so `import sensitivity` costs almost nothing):
 
-- `evalue`, `evalue_of_rr`, `evalue_of_interval`, `bounding_factor`: E-values (any scale).
+- `evalue`, `evalue_of_rr`, `evalue_of_interval`, `bounding_factor`, `to_risk_ratio`: E-values
+  on any scale, vectorised over rows (scales may differ per row).
 - `partial_r2_summary`, `partial_r2_from_model`, `partial_r2_from_data`: omitted-variable
   bias in the partial R² parameterisation for an OLS coefficient.
 - `binary_confounder_grid`, `bounding_grid`, `partial_r2_grid`: tipping-point grids.
+- `InputError` (bad input, a ValueError) and `SensitivityWarning`.
 """
 
 from importlib import import_module
+from typing import Any
 
 __version__ = "0.1.0"
 
@@ -16,28 +19,32 @@ _EXPORTS = {
     "evalue": "evalues",
     "evalue_of_rr": "evalues",
     "evalue_of_interval": "evalues",
+    "evalue_rows": "evalues",
     "bounding_factor": "evalues",
     "to_risk_ratio": "evalues",
+    "from_risk_ratio": "evalues",
     "EValueResult": "evalues",
     "partial_r2_summary": "partial_r2",
     "PartialR2Result": "partial_r2",
     "robustness_value": "partial_r2",
-    "partial_r2_from_model": "regression",
-    "partial_r2_from_data": "regression",
+    "partial_r2_from_model": "adapters.statsmodels",
+    "partial_r2_from_data": "adapters.statsmodels",
     "binary_confounder_grid": "tipping",
     "bounding_grid": "tipping",
     "partial_r2_grid": "tipping",
-    "SensitivityWarning": "_warnings",
+    "TippingGrid": "tipping",
+    "InputError": "common.errors",
+    "SensitivityWarning": "common.errors",
 }
 
 __all__ = sorted(_EXPORTS)
 
 
-def __getattr__(name):
+def __getattr__(name: str) -> Any:
     if name in _EXPORTS:
         return getattr(import_module(f".{_EXPORTS[name]}", __name__), name)
     raise AttributeError(f"module 'sensitivity' has no attribute {name!r}")
 
 
-def __dir__():
+def __dir__() -> list[str]:
     return __all__ + ["__version__"]

@@ -82,7 +82,7 @@ def test_impossible_multiplier_is_an_error():
 
 
 def test_capped_outcome_side_warns():
-    from sensitivity._warnings import SensitivityWarning
+    from sensitivity.common.errors import SensitivityWarning
     from sensitivity.partial_r2 import CovariateStrength, benchmark_scenarios
 
     strong = CovariateStrength("x", ("x",), 0.3, 0.6)

@@ -11,9 +11,9 @@ import pytest
 import statsmodels.api as sm
 import statsmodels.formula.api as smf
 
-from sensitivity._warnings import SensitivityWarning
+from sensitivity.adapters.statsmodels import partial_r2_from_data, partial_r2_from_model
+from sensitivity.common.errors import SensitivityWarning
 from sensitivity.partial_r2 import bias, se_with_confounder
-from sensitivity.regression import partial_r2_from_data, partial_r2_from_model
 
 COVARIATES = "age + yrs_married + educ + C(religious)"
 FORMULA = f"affairs ~ rate_marriage + {COVARIATES}"

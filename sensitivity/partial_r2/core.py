@@ -1,7 +1,8 @@
 """Omitted-variable bias of an OLS coefficient in the partial R² parameterisation.
 
 Pure, vectorised numpy (and `scipy.special` for t quantiles). The adapters in
-`sensitivity.regression` turn fitted models and data into the numbers these functions take.
+`sensitivity.adapters.statsmodels` turn fitted models and data into the numbers these
+functions take.
 
 Notation: a hidden confounder U with partial R² `r2_treatment` with the treatment given the
 observed covariates, and `r2_outcome` with the outcome given treatment and covariates.
@@ -15,17 +16,13 @@ Journal of the Royal Statistical Society, Series B 82:39-67.
 from __future__ import annotations
 
 import warnings
-from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import cautions
-from ._checks import OPEN_UNIT, POSITIVE, R2_STRENGTH, Rule, require
-from ._results import Displayable, plain
-from ._warnings import SensitivityWarning
-from .tables import Table, bullets, number, percent, render, wrap
-
-DOF_RULE = Rule("must be at least 2", lambda x: ~(x >= 2))
+from ..common.checks import DOF as DOF_RULE
+from ..common.checks import OPEN_UNIT, POSITIVE, R2_STRENGTH, require
+from ..common.errors import InputError, SensitivityWarning
+from .result import PartialR2Result, Scenario
 
 
 def t_critical(alpha, dof):
@@ -207,7 +204,7 @@ def benchmark_strengths(r2_treatment_cov, r2_outcome_cov, k_treatment=1.0, k_out
     if np.any(bad):
         kk, rr = np.broadcast_arrays(kt, rt)
         i = np.flatnonzero(np.broadcast_to(bad, kk.shape))[0]
-        raise ValueError(
+        raise InputError(
             f"`k_treatment` {kk.flat[i]:g} is impossible for a covariate with partial R² "
             f"{rr.flat[i]:.4g} with the treatment: the confounder would explain all of the "
             f"treatment's residual variance (k must be below {_k_max(rr.flat[i]):.4g})"
@@ -226,317 +223,20 @@ def _k_max(r):
     return (1 - r) / r
 
 
-# --------------------------------------------------------------------------- results
-@dataclass(frozen=True)
-class Scenario:
-    """One confounder strength and the bias-adjusted result under it."""
-
-    label: str
-    r2_treatment: float
-    r2_outcome: float
-    bias: float
-    estimate: float
-    se: float
-    t: float
-    ci: tuple[float, float]
-    kind: str = "hypothetical"  # or "benchmark"
-    benchmark: str | None = None
-    k_treatment: float | None = None
-    k_outcome: float | None = None
-    capped: bool = False
-
-    def to_dict(self) -> dict:
-        out = {
-            "label": self.label,
-            "kind": self.kind,
-            "r2_treatment": self.r2_treatment,
-            "r2_outcome": self.r2_outcome,
-            "bias": self.bias,
-            "bias_adjusted": {
-                "estimate": self.estimate,
-                "se": self.se,
-                "t": self.t,
-                "ci": list(self.ci),
-            },
-        }
-        if self.kind == "benchmark":
-            out |= {
-                "benchmark": self.benchmark,
-                "k_treatment": self.k_treatment,
-                "k_outcome": self.k_outcome,
-                "capped": self.capped,
-            }
-        return plain(out)
-
-
-@dataclass(frozen=True)
-class CovariateStrength:
-    """An observed covariate (or categorical group): its own partial R² on each side."""
-
-    name: str
-    columns: tuple[str, ...]
-    r2_treatment: float
-    r2_outcome: float
-
-    def to_dict(self) -> dict:
-        return plain(
-            {
-                "name": self.name,
-                "columns": list(self.columns),
-                "r2_treatment": self.r2_treatment,
-                "r2_outcome": self.r2_outcome,
-            }
-        )
-
-
-@dataclass(frozen=True, repr=False)
-class PartialR2Result(Displayable):
-    """Partial-R² sensitivity of one OLS coefficient, with its inputs and scenarios."""
-
-    estimate: float
-    se: float
-    dof: float
-    t: float
-    partial_r2: float
-    fraction: float
-    alpha: float
-    robustness_value: float
-    robustness_value_alpha: float
-    treatment: str | None = None
-    outcome: str | None = None
-    n: int | None = None
-    scenarios: tuple[Scenario, ...] = ()
-    covariates: tuple[CovariateStrength, ...] | None = None
-    evalue: object | None = None  # an EValueResult through the SMD conversion, if available
-    notes: tuple[str, ...] = ()
-    cautions: tuple[str, ...] = cautions.PARTIAL_R2
-    assumptions: tuple[str, ...] = field(
-        default=(
-            "OLS with classical (homoskedastic) standard errors.",
-            "A single hidden confounder (or a linear combination of several), entering the "
-            "outcome model linearly.",
-            "Benchmarks: the confounder is orthogonal to the benchmark covariate given the others.",
-        )
-    )
-    is_scalar = True
-
-    # ----------------------------------------------------------------- derived views
-    def with_scenarios(self, extra) -> PartialR2Result:
-        from dataclasses import replace
-
-        return replace(self, scenarios=self.scenarios + tuple(extra))
-
-    # ----------------------------------------------------------------- export
-    def to_dict(self) -> dict:
-        out = {
-            "treatment": self.treatment,
-            "outcome": self.outcome,
-            "n": self.n,
-            "estimate": self.estimate,
-            "se": self.se,
-            "dof": self.dof,
-            "t": self.t,
-            "partial_r2": self.partial_r2,
-            "fraction": self.fraction,
-            "alpha": self.alpha,
-            "robustness_value": self.robustness_value,
-            "robustness_value_alpha": self.robustness_value_alpha,
-            "scenarios": [s.to_dict() for s in self.scenarios],
-        }
-        if self.covariates is not None:
-            out["covariates"] = [c.to_dict() for c in self.covariates]
-        if self.evalue is not None:
-            e = self.evalue
-            out["evalue"] = {
-                "evalue": e.evalue,
-                "evalue_ci": e.evalue_ci,
-                "rr": e.rr,
-                "rr_ci": None if e.rr_ci is None else list(e.rr_ci),
-                "sd_outcome": e.sd,
-                "conversion": e.conversion,
-            }
-        out["assumptions"] = list(self.assumptions)
-        out["sentence"] = self.sentence()
-        out["notes"] = list(self.all_notes())
-        return plain(out)
-
-    def records(self) -> list[dict]:
-        """One flat row a scenario (or one row with no scenarios), for CSV."""
-        base = {
-            k: v
-            for k, v in self.to_dict().items()
-            if k not in ("scenarios", "covariates", "evalue", "notes", "assumptions", "sentence")
-        }
-        rows = []
-        for s in self.scenarios or [None]:
-            row = dict(base)
-            if s is not None:
-                d = s.to_dict()
-                adj = d.pop("bias_adjusted")
-                row |= {f"scenario_{k}": v for k, v in d.items()}
-                row |= {
-                    "bias_adjusted_estimate": adj["estimate"],
-                    "bias_adjusted_se": adj["se"],
-                    "bias_adjusted_t": adj["t"],
-                    "bias_adjusted_ci_lower": adj["ci"][0],
-                    "bias_adjusted_ci_upper": adj["ci"][1],
-                }
-            rows.append(row)
-        return rows
-
-    def to_frame(self):
-        import pandas as pd
-
-        return pd.DataFrame(self.records())
-
-    # ----------------------------------------------------------------- presentation
-    def _level(self) -> str:
-        return f"{1 - self.alpha:.0%}"
-
-    def _num(self, x) -> str:
-        """Estimate-scale numbers with decimals set by the se (two significant digits of it)."""
-        digits = int(min(8, max(2, 1 - np.floor(np.log10(self.se)))))
-        return number(x, digits)
-
-    def table(self) -> Table:
-        q = self.fraction
-        goal = "zero" if q == 1 else f"{1 - q:g} × its value"
-        rows = [
-            ("Estimate (se)", f"{self._num(self.estimate)} ({self._num(self.se)})"),
-            ("t on dof", f"{self.t:.3f} on {self.dof:g}"),
-            ("Partial R² of treatment with outcome", percent(self.partial_r2)),
-            (f"Robustness value: bring the estimate to {goal}", percent(self.robustness_value)),
-            (
-                f"Robustness value: lose significance (alpha {self.alpha:g})",
-                percent(self.robustness_value_alpha),
-            ),
-        ]
-        if self.evalue is not None:
-            e = self.evalue
-            rows.append(
-                (
-                    f"E-value via standardized difference{_per(e.contrast)} (estimate, CI)",
-                    f"{number(e.evalue)}, {number(e.evalue_ci)}",
-                )
-            )
-        who = f" of `{self.treatment}`" if self.treatment else ""
-        return Table(
-            ("Quantity", "Value"),
-            tuple(rows),
-            title=f"Partial-R² sensitivity of the coefficient{who}",
-        )
-
-    def scenario_table(self) -> Table | None:
-        if not self.scenarios:
-            return None
-        rows = []
-        for s in self.scenarios:
-            cap = " (capped)" if s.capped else ""
-            rows.append(
-                (
-                    s.label,
-                    percent(s.r2_treatment, 2),
-                    percent(s.r2_outcome, 2) + cap,
-                    self._num(s.bias),
-                    self._num(s.estimate),
-                    self._num(s.se),
-                    number(s.t),
-                    f"{self._num(s.ci[0])} to {self._num(s.ci[1])}",
-                )
-            )
-        return Table(
-            (
-                "Confounder",
-                "R² treatment",
-                "R² outcome",
-                "Bias",
-                "Estimate",
-                "SE",
-                "t",
-                f"{self._level()} CI",
-            ),
-            tuple(rows),
-            title="Bias-adjusted results under each confounder",
-        )
-
-    def covariate_table(self) -> Table | None:
-        if not self.covariates:
-            return None
-        ranked = sorted(self.covariates, key=lambda c: -c.r2_outcome)
-        rows = tuple((c.name, percent(c.r2_treatment, 2), percent(c.r2_outcome, 2)) for c in ranked)
-        return Table(
-            ("Observed covariate", "Partial R² with treatment", "Partial R² with outcome"),
-            rows,
-            title="Strength of each observed covariate (ranked by outcome side)",
-        )
-
-    def tables(self) -> list[Table]:
-        return [t for t in (self.table(), self.scenario_table(), self.covariate_table()) if t]
-
-    def sentence(self) -> str:
-        q = self.fraction
-        goal = "to zero" if q == 1 else f"by {q:.0%} (to {1 - q:g} times its value)"
-        text = (
-            f"An unmeasured confounder would have to explain {percent(self.robustness_value)} "
-            f"of the residual variance of both the treatment and the outcome to move the "
-            f"estimate {goal}"
-        )
-        if self.robustness_value_alpha == 0:
-            text += (
-                f"; the estimate is already not significant at alpha {self.alpha:g}, so "
-                "no confounding is needed to make its interval include that value"
-            )
-        else:
-            text += (
-                f", and {percent(self.robustness_value_alpha)} of each to make the "
-                f"{self._level()} confidence interval include that value"
-            )
-        bench = [s for s in self.scenarios if s.kind == "benchmark"]
-        if bench:
-            k_min = min(max(s.k_treatment, s.k_outcome) for s in bench)
-            s = max(
-                (s for s in bench if max(s.k_treatment, s.k_outcome) == k_min), key=lambda s: s.bias
-            )
-            target = (1 - q) * self.estimate
-            flips = s.estimate == 0 or (s.estimate - target) * (self.estimate - target) < 0
-            covers = s.ci[0] <= target <= s.ci[1]
-            k = s.label.split(" as strong as ")[0]
-            text += (
-                f". A confounder {k} as strong as `{s.benchmark}` (the strongest "
-                f"benchmark at that multiple) would move it to {self._num(s.estimate)} "
-                f"({self._level()} CI {self._num(s.ci[0])} to {self._num(s.ci[1])})"
-            )
-            if flips:
-                text += ", past that value"
-            elif covers:
-                text += ", with an interval that includes that value"
-            else:
-                text += ", not far enough to change the conclusion"
-        return text + "."
-
-    def summary(self) -> str:
-        parts = [render(t, "text") for t in self.tables()]
-        parts.append(wrap(self.sentence()))
-        parts.append(bullets("Assumptions", self.assumptions))
-        parts.append(bullets("Notes", self.notes))
-        parts.append(bullets("Cautions", self.cautions))
-        return "\n\n".join(p for p in parts if p)
-
-
 # --------------------------------------------------------------------------- entry point
 def _check_summary(estimate, se, dof, t, fraction, alpha):
     est = float(require(estimate, "estimate"))
     if se is not None and t is not None:
-        raise ValueError("give `se` or `t`, not both")
+        raise InputError("give `se` or `t`, not both")
     if se is None and t is None:
-        raise ValueError("`se` (or the t statistic `t`) is required")
+        raise InputError("`se` (or the t statistic `t`) is required")
     dof = float(require(dof, "dof", DOF_RULE))
     if t is not None:
         t = float(require(t, "t"))
         if t == 0 or est == 0:
-            raise ValueError(f"`t` must be non-zero with a non-zero estimate; got t = {t:g}")
+            raise InputError(f"`t` must be non-zero with a non-zero estimate; got t = {t:g}")
         if np.sign(t) != np.sign(est):
-            raise ValueError(f"`t` must have the sign of `estimate`; got {t:g} for {est:g}")
+            raise InputError(f"`t` must have the sign of `estimate`; got {t:g} for {est:g}")
         se = est / t
     se = float(require(se, "se", POSITIVE))
     fraction = float(require(fraction, "fraction", POSITIVE))
@@ -544,21 +244,19 @@ def _check_summary(estimate, se, dof, t, fraction, alpha):
     return est, se, dof, fraction, alpha
 
 
-def hypothetical_scenarios(estimate, se, dof, r2_treatment, r2_outcome, alpha, labels=None):
+def hypothetical_scenarios(estimate, se, dof, r2_treatment, r2_outcome, alpha):
     """Scenarios for confounders of chosen strengths (`r2_*` are equal-length sequences)."""
     r2t = np.atleast_1d(require(r2_treatment, "r2_treatment", R2_STRENGTH))
     r2y = np.atleast_1d(require(r2_outcome, "r2_outcome", R2_STRENGTH))
     if r2t.shape != r2y.shape:
-        raise ValueError(
+        raise InputError(
             f"`r2_treatment` and `r2_outcome` must come in pairs; got {r2t.size} and {r2y.size}"
         )
     adj = bias_adjusted(estimate, se, dof, r2t, r2y, alpha)
     out = []
     for i in range(r2t.size):
-        label = labels[i] if labels else f"R² {r2t[i]:.3g} / {r2y[i]:.3g}"
         out.append(
             Scenario(
-                label,
                 float(r2t[i]),
                 float(r2y[i]),
                 float(adj["bias"][i]),
@@ -587,7 +285,6 @@ def benchmark_scenarios(estimate, se, dof, covariate, k_pairs, alpha):
             )
         out.append(
             Scenario(
-                f"{k} as strong as {covariate.name}",
                 float(r2t),
                 float(r2y),
                 float(adj["bias"]),
@@ -692,14 +389,14 @@ def assemble(
         given, missing = (
             ("r2_treatment", "r2_outcome") if r2_outcome is None else ("r2_outcome", "r2_treatment")
         )
-        raise ValueError(f"`{given}` needs `{missing}`: a hypothetical confounder has both")
+        raise InputError(f"`{given}` needs `{missing}`: a hypothetical confounder has both")
     t = est / se
     hyp = []
     if r2_treatment is not None:
         hyp = hypothetical_scenarios(est, se, dof, r2_treatment, r2_outcome, alpha)
     ev = None
     if sd_outcome is not None:
-        from .evalues import evalue
+        from ..evalues.core import evalue
 
         sd = float(require(sd_outcome, "sd_outcome", POSITIVE))
         ev = evalue("md", est, se=se, sd=sd, contrast=contrast)

@@ -10,6 +10,8 @@ from pathlib import Path
 
 import numpy as np
 
+from ..common.errors import InputError
+
 PLOT_FORMATS = (".png", ".svg", ".pdf")
 
 
@@ -17,9 +19,9 @@ def check_plot_path(path, argument: str = "plot") -> Path:
     """Refuse an unsupported extension or a missing folder before any work is done."""
     p = Path(path)
     if p.suffix.lower() not in PLOT_FORMATS:
-        raise ValueError(f"`{argument}` must end in .png, .svg or .pdf; got {p.name!r}")
+        raise InputError(f"`{argument}` must end in .png, .svg or .pdf; got {p.name!r}")
     if not p.parent.exists():
-        raise ValueError(f"`{argument}`: folder {str(p.parent)!r} does not exist")
+        raise InputError(f"`{argument}`: folder {str(p.parent)!r} does not exist")
     return p
 
 
@@ -60,7 +62,7 @@ def partial_r2_contours(result, path, statistic: str = "estimate", limit=None, s
     significance contour (the adjusted interval reaches it), the observed point, and every
     scenario (benchmarks and hypothetical confounders) labelled.
     """
-    from .partial_r2 import surface, t_critical
+    from ..partial_r2.core import surface, t_critical
 
     path = check_plot_path(path)
     lim = float(limit) if limit is not None else _r2_limit(result)
@@ -150,7 +152,7 @@ def tipping_figure(result, path):
     path = check_plot_path(path)
     varying = result.varying
     if len(varying) not in (1, 2):
-        raise ValueError(
+        raise InputError(
             f"`plot` needs one or two varying parameters; got {len(varying)} (give one of "
             "them a single value)"
         )

@@ -1,4 +1,4 @@
-"""Adapters: fitted statsmodels OLS models and data-plus-formula into partial-R² results.
+"""statsmodels adapter: fitted OLS models and data-plus-formula into partial-R² results.
 
 The covariate strength table costs two fits in all, whatever the number of covariates: the
 outcome model's own t (or group F) statistics give every covariate's partial R² with the
@@ -12,16 +12,15 @@ import warnings
 
 import numpy as np
 
-from ._checks import POSITIVE, require
-from ._warnings import SensitivityWarning
-from .partial_r2 import (
-    CovariateStrength,
-    PartialR2Result,
+from ..common.checks import POSITIVE, require
+from ..common.errors import InputError, InputTypeError, SensitivityWarning
+from ..partial_r2.core import (
     _check_summary,
     assemble,
     benchmark_scenarios,
     partial_r2_of_f,
 )
+from ..partial_r2.result import CovariateStrength, PartialR2Result
 
 NOT_OLS = (
     "partial-R² bounds need an ordinary least squares fit; got {kind}. For logistic, Poisson, "
@@ -36,13 +35,13 @@ def _check_ols(results):
 
     model = getattr(results, "model", None)
     if model is None or not hasattr(results, "params"):
-        raise TypeError(
+        raise InputTypeError(
             f"`results` must be a fitted statsmodels model; got {type(results).__name__}"
         )
     if not isinstance(model, OLS) or not hasattr(results, "normalized_cov_params"):
-        raise ValueError(NOT_OLS.format(kind=type(model).__name__))
+        raise InputError(NOT_OLS.format(kind=type(model).__name__))
     if getattr(results, "normalized_cov_params", None) is None:
-        raise ValueError(NOT_OLS.format(kind="a regularized OLS fit"))
+        raise InputError(NOT_OLS.format(kind="a regularized OLS fit"))
     notes = []
     cov_type = getattr(results, "cov_type", "nonrobust")
     if cov_type != "nonrobust":
@@ -80,12 +79,12 @@ def _find_treatment(treatment, names, groups):
     if cols is not None and len(cols) == 1:
         return cols[0]
     if cols is not None:
-        raise ValueError(
+        raise InputError(
             f"`treatment` {treatment!r} spans {len(cols)} columns "
             f"({', '.join(names[i] for i in cols)}); name one of them, or code the "
             "treatment as a single 0/1 or numeric column"
         )
-    raise ValueError(
+    raise InputError(
         f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
         + ", ".join(names)
     )
@@ -140,7 +139,7 @@ def _resolve_benchmark(name, covariates):
     ]
     if len(hits) == 1:
         return hits[0]
-    raise ValueError(
+    raise InputError(
         f"`benchmark` {name!r} is not an observed covariate of the model; covariates: "
         + ", ".join(by_name)
     )
@@ -209,7 +208,7 @@ def partial_r2_from_model(
     for name in names:
         parts = name.split(":")
         if len(parts) > 1 and treat_name in parts:
-            raise ValueError(
+            raise InputError(
                 f"`treatment` {treat_name!r} also enters the interaction {name!r}; partial-R² "
                 "bounds need a single treatment coefficient (fit the model without the "
                 "interaction, or analyse an effect at a fixed covariate value)"
@@ -256,17 +255,17 @@ def fit_formula(data, formula):
     from pandas.api.types import is_numeric_dtype
 
     if not isinstance(formula, str) or "~" not in formula:
-        raise ValueError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
+        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
     outcome = formula.split("~", 1)[0].strip()
     if outcome in data.columns and not is_numeric_dtype(data[outcome]):
-        raise ValueError(f"`formula`: the outcome column {outcome!r} must be numeric")
+        raise InputError(f"`formula`: the outcome column {outcome!r} must be numeric")
     try:
         results = smf.ols(formula, data=data).fit()
     except Exception as err:  # noqa: BLE001 - patsy/formulaic errors are the user's formula
         text = " ".join(str(err).split()) or type(err).__name__
-        raise ValueError(f"`formula` {formula!r} could not be fitted: {text[:300]}") from None
+        raise InputError(f"`formula` {formula!r} could not be fitted: {text[:300]}") from None
     if results.model.endog.ndim > 1 and results.model.endog.shape[1] > 1:
-        raise ValueError(f"`formula`: the outcome {outcome!r} must be a single numeric column")
+        raise InputError(f"`formula`: the outcome {outcome!r} must be a single numeric column")
     dropped = len(data) - int(results.nobs)
     notes = []
     if dropped:
@@ -275,7 +274,7 @@ def fit_formula(data, formula):
             "columns and were left out of the fit."
         )
     if results.df_resid < 2:
-        raise ValueError(
+        raise InputError(
             f"`data`: the fit has {results.df_resid:g} residual degrees of freedom; need at least 2"
         )
     return results, notes
@@ -288,7 +287,7 @@ def partial_r2_from_data(data, formula, treatment, **options) -> PartialR2Result
     those of `partial_r2_from_model`.
     """
     if not hasattr(data, "columns"):
-        from .io import read_table
+        from .files import read_table
 
         data = read_table(data, "data")
     results, notes = fit_formula(data, formula)

@@ -19,41 +19,28 @@ the exact crossing from the closed form beside it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import replace
 
 import numpy as np
 
-from . import cautions
-from ._checks import POSITIVE, PROBABILITY, R2_STRENGTH, require, require_choice
-from ._results import Displayable, plain
-from .evalues import AT_LEAST_ONE, RATIO_SCALES, SCALE_NAMES, _check_interval
-from .tables import Table, bullets, number, render, wrap
+from ..common.checks import (
+    AT_LEAST_ONE,
+    POSITIVE,
+    PROBABILITY,
+    R2_STRENGTH,
+    inside_interval,
+    interval_order,
+    require,
+    require_all,
+    require_choice,
+)
+from ..common.errors import InputError
+from ..common.scales import RATIO_SCALES
+from .result import TippingGrid
 
 #: The largest grid computed (cells = product of the axis lengths): about 40 MB per column.
 MAX_CELLS = 5_000_000
 SCALES = ("md", "rd", "rr", "or", "hr")
-NAMES = {
-    "prevalence_treated": "Prevalence of U among the treated",
-    "prevalence_control": "Prevalence of U among the controls",
-    "outcome_effect": "Effect of U on the outcome",
-    "rr_treatment": "Risk ratio of U with the treatment",
-    "rr_outcome": "Risk ratio of U with the outcome",
-    "r2_treatment": "Partial R² of U with the treatment",
-    "r2_outcome": "Partial R² of U with the outcome",
-}
-
-
-def _plain_list(values: np.ndarray) -> list:
-    """Plain Python values; NaN and infinities become None (JSON null)."""
-    if values.dtype.kind == "f" and not np.isfinite(values).all():
-        out = values.astype(object)
-        out[~np.isfinite(values)] = None
-        return out.tolist()
-    return values.tolist()
-
-
-def _lower_first(text: str) -> str:
-    return text[:1].lower() + text[1:]
 
 
 # --------------------------------------------------------------------------- ranges
@@ -76,12 +63,12 @@ def value_range(start, stop=None, step=None, name="range"):
     stop = float(require(stop, name))
     step = float(require(step, name))
     if step <= 0:
-        raise ValueError(f"`{name}` step must be positive; got {step:g}")
+        raise InputError(f"`{name}` step must be positive; got {step:g}")
     if stop < start:
-        raise ValueError(f"`{name}` is backwards or empty: stop {stop:g} is below start {start:g}")
+        raise InputError(f"`{name}` is backwards or empty: stop {stop:g} is below start {start:g}")
     count = int(np.floor((stop - start) / step * (1 + 1e-12) + 1e-9)) + 1
     if count > MAX_CELLS:
-        raise ValueError(f"`{name}` has {count:,} values; the grid limit is {MAX_CELLS:,} cells")
+        raise InputError(f"`{name}` has {count:,} values; the grid limit is {MAX_CELLS:,} cells")
     # round away binary fuzz (0.1 + 0.2) so printed and exported values are the ones typed
     return np.round(start + step * np.arange(count), 12)
 
@@ -90,11 +77,11 @@ def parse_range(text: str, name: str):
     """'START:STOP:STEP' or a single number, as grid values (used by the CLI)."""
     parts = str(text).split(":")
     if len(parts) not in (1, 3):
-        raise ValueError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}")
+        raise InputError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}")
     try:
         numbers = [float(p) for p in parts]
     except ValueError:
-        raise ValueError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}") from None
+        raise InputError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}") from None
     return value_range(*numbers, name=name)
 
 
@@ -110,284 +97,7 @@ def _check_size(axes):
     cells = int(np.prod([len(v) for _, v in axes]))
     if cells > MAX_CELLS:
         sizes = " x ".join(str(len(v)) for _, v in axes)
-        raise ValueError(f"the grid has {cells:,} cells ({sizes}); the limit is {MAX_CELLS:,}")
-
-
-# --------------------------------------------------------------------------- result
-@dataclass(frozen=True, repr=False)
-class TippingGrid(Displayable):
-    """A grid of bias-adjusted results and where they tip, with the inputs behind them."""
-
-    kind: str  # "binary", "bounding" or "partial-r2"
-    scale: str
-    estimate: float
-    ci: tuple[float, float] | None
-    target: float
-    axes: tuple[tuple[str, np.ndarray], ...]
-    cells: dict  # name -> array of the grid's shape (bias_adjusted_* and extras)
-    reach_estimate: np.ndarray
-    reach_ci: np.ndarray | None
-    exact: dict  # "estimate"/"ci" -> exact crossing of the solved parameter (grid shape less it)
-    notes: tuple[str, ...] = ()
-    cautions: tuple[str, ...] = cautions.TIPPING
-    extra: dict = field(default_factory=dict)  # e.g. the E-values of the bounding view
-    is_scalar = False
-
-    # ----------------------------------------------------------------- structure
-    @property
-    def shape(self):
-        return tuple(len(v) for _, v in self.axes)
-
-    @property
-    def varying(self) -> list[int]:
-        return [i for i, (_, v) in enumerate(self.axes) if len(v) > 1]
-
-    @property
-    def solved(self) -> int | None:
-        """Axis solved for in the tipping points: the last varying one."""
-        return self.varying[-1] if self.varying else None
-
-    @property
-    def n_rows(self) -> int:
-        return int(np.prod(self.shape))
-
-    def reduced_shape(self, j):
-        return tuple(n for i, n in enumerate(self.shape) if i != j)
-
-    @property
-    def target_is_null(self) -> bool:
-        return self.target == (1.0 if self.scale in RATIO_SCALES else 0.0)
-
-    def _goal(self) -> str:
-        return "the null" if self.target_is_null else f"{self.target:g}"
-
-    # ----------------------------------------------------------------- export
-    def columns(self) -> dict:
-        """Long format as columns (one entry a cell, first axis slowest)."""
-        mesh = np.meshgrid(*[v for _, v in self.axes], indexing="ij")
-        out = {name: m.ravel() for (name, _), m in zip(self.axes, mesh, strict=True)}
-        out |= {k: np.broadcast_to(v, self.shape).ravel() for k, v in self.cells.items()}
-        out["reaches_target"] = self.reach_estimate.ravel()
-        if self.reach_ci is not None:
-            out["ci_reaches_target"] = self.reach_ci.ravel()
-        return out
-
-    def tipping_points(self) -> list[dict]:
-        """For each value of the other varying axes, the least value of the solved axis."""
-        j = self.solved
-        if j is None:
-            return []
-        name, values = self.axes[j]
-        others = [i for i in self.varying if i != j]
-        out = []
-        reach = {"estimate": self.reach_estimate, "ci": self.reach_ci}
-        least = {}
-        for key, r in reach.items():
-            if r is None:
-                continue
-            any_hit = r.any(axis=j)
-            first = np.take(values, np.argmax(r, axis=j))
-            least[key] = np.where(any_hit, first, np.nan)
-        # fixed axes have length 1: index 0 there; iterate over the other varying axes
-        grid_shape = [len(self.axes[i][1]) for i in others]
-        for idx in np.ndindex(*grid_shape) if others else [()]:
-            full = [0] * len(self.axes)
-            for i, k in zip(others, idx, strict=True):
-                full[i] = k
-            pos = full[:j] + full[j + 1 :]  # index into arrays that lack the solved axis
-            row = {
-                self.axes[i][0]: float(self.axes[i][1][k]) for i, k in zip(others, idx, strict=True)
-            }
-            row["parameter"] = name
-            for key in ("estimate", "ci"):
-                if key in least:
-                    row[key] = least[key][tuple(pos)]
-                    row[f"{key}_exact"] = self.exact[key][tuple(pos)]
-                    side = self.exact[f"{key}_side"][tuple(pos)]
-                    exists = np.isfinite(row[f"{key}_exact"])
-                    row[f"{key}_exact_side"] = (
-                        ("above" if side > 0 else "below") if exists else None
-                    )
-            out.append(plain(row))
-        return out
-
-    def _row_dicts(self, cols) -> list[dict]:
-        """The contract's nested rows, built from plain lists (fast for a million cells)."""
-        names = [n for n, _ in self.axes]
-        lists = {k: _plain_list(v) for k, v in cols.items()}
-        extras = [
-            k
-            for k in cols
-            if k not in names
-            and not k.startswith("bias_adjusted_")
-            and not k.endswith("reaches_target")
-        ]
-        adj_keys = [k for k in ("se", "t") if f"bias_adjusted_{k}" in lists]
-        lower = lists.get("bias_adjusted_ci_lower")
-        upper = lists.get("bias_adjusted_ci_upper")
-        flags = ["reaches_target"] + (["ci_reaches_target"] if "ci_reaches_target" in lists else [])
-        plain_keys = names + extras
-        rows = []
-        for i in range(len(lists[names[0]])):
-            row = {k: lists[k][i] for k in plain_keys}
-            adj = {"estimate": lists["bias_adjusted_estimate"][i]}
-            for k in adj_keys:
-                adj[k] = lists[f"bias_adjusted_{k}"][i]
-            adj["ci"] = None if lower is None else [lower[i], upper[i]]
-            row["bias_adjusted"] = adj
-            for k in flags:
-                row[k] = lists[k][i]
-            rows.append(row)
-        return rows
-
-    def to_dict(self) -> dict:
-        head = plain(
-            {
-                "kind": self.kind,
-                "scale": self.scale,
-                "estimate": self.estimate,
-                "ci": None if self.ci is None else list(self.ci),
-                "target": self.target,
-                "parameters": {n: v for n, v in self.axes},
-                **self.extra,
-            }
-        )
-        return head | {
-            "rows": self._row_dicts(self.columns()),
-            "tipping_points": self.tipping_points(),
-            "sentence": self.sentence(),
-            "notes": list(self.all_notes()),
-        }
-
-    def records(self) -> list[dict]:
-        lists = {k: _plain_list(v) for k, v in self.columns().items()}
-        return [dict(zip(lists, vals, strict=True)) for vals in zip(*lists.values(), strict=True)]
-
-    def to_frame(self):
-        import pandas as pd
-
-        return pd.DataFrame(self.columns())
-
-    # ----------------------------------------------------------------- presentation
-    def _fmt(self, name, value) -> str:
-        if value is None or (isinstance(value, float) and np.isnan(value)):
-            return "not reached"
-        if name.startswith(("prevalence", "r2_")):
-            return f"{value:.3g}" if value >= 0.001 or value == 0 else f"{value:.2e}"
-        return f"{value:.4g}"
-
-    def _exact(self, name, tp, key) -> str:
-        value = tp[f"{key}_exact"]
-        if value is None:
-            return "never"
-        return ("≥ " if tp[f"{key}_exact_side"] == "above" else "≤ ") + self._fmt(name, value)
-
-    def table(self) -> Table:
-        j = self.solved
-        if j is None:
-            r = self._row_dicts(self.columns())[0]
-            adj = r["bias_adjusted"]
-            ci = "" if adj["ci"] is None else f"{adj['ci'][0]:.4g} to {adj['ci'][1]:.4g}"
-            rows = tuple((NAMES[n], self._fmt(n, float(v[0]))) for n, v in self.axes)
-            rows += (("Bias-adjusted estimate", f"{adj['estimate']:.4g}"),)
-            rows += (("Bias-adjusted CI", ci),) if ci else ()
-            rows += ((f"Reaches {self._goal()}", "yes" if r["reaches_target"] else "no"),)
-            return Table(("Quantity", "Value"), rows, title="Bias-adjusted result")
-        solved = self.axes[j][0]
-        others = [self.axes[i][0] for i in self.varying if i != j]
-        head = tuple(NAMES[o] for o in others)
-        cols = head + (f"Estimate reaches {self._goal()} at", "(exact)")
-        if self.reach_ci is not None:
-            cols += ("CI reaches it at", "(exact)")
-        exact_note = (
-            "'(exact)': from the closed-form formula, the values (≥ or ≤ the crossing, which "
-            "may lie outside the grid) at which it reaches the target; 'never': no value does."
-        )
-        rows = []
-        for tp in self.tipping_points():
-            row = tuple(self._fmt(o, tp[o]) for o in others)
-            row += (self._fmt(solved, tp["estimate"]), self._exact(solved, tp, "estimate"))
-            if self.reach_ci is not None:
-                row += (self._fmt(solved, tp["ci"]), self._exact(solved, tp, "ci"))
-            rows.append(row)
-        if not others:
-            cols = ("",) + cols
-            rows = [("Least value",) + r for r in rows]
-        fixed = [f"{n} = {self._fmt(n, float(v[0]))}" for n, v in self.axes if len(v) == 1]
-        title = f"Tipping points: least {_lower_first(NAMES[solved])}"
-        if fixed:
-            title += f" (with {', '.join(fixed)})"
-        return Table(
-            cols,
-            tuple(rows),
-            title=title,
-            footnotes=("'not reached': the conclusion does not tip within the grid.", exact_note),
-        )
-
-    def tables(self) -> list[Table]:
-        return [self.table()]
-
-    def sentence(self) -> str:
-        j = self.solved
-        what = {
-            "binary": "a hidden binary confounder",
-            "bounding": "a hidden confounder",
-            "partial-r2": "a hidden confounder",
-        }[self.kind]
-        if j is None:
-            r = self._row_dicts(self.columns())[0]
-            verdict = "would" if r["reaches_target"] else "would not"
-            return (
-                f"Under {what} with the stated strengths the estimate {verdict} reach "
-                f"{self._goal()} (bias-adjusted estimate "
-                f"{r['bias_adjusted']['estimate']:.4g})."
-            )
-        tps = self.tipping_points()
-        hit = [t for t in tps if t["estimate"] is not None]
-        name = _lower_first(NAMES[self.axes[j][0]])
-        if not hit:
-            return (
-                f"Within this grid, no {what} moves the estimate to {self._goal()}; the "
-                "conclusion does not tip over the strengths considered."
-            )
-        lo = min(t["estimate"] for t in hit)
-        text = (
-            f"The estimate reaches {self._goal()} in {len(hit)} of {len(tps)} settings of "
-            f"the other parameters; the smallest {name} that does so anywhere in the grid "
-            f"is {self._fmt(self.axes[j][0], lo)}"
-        )
-        if self.reach_ci is not None:
-            ci_hit = [t["ci"] for t in tps if t["ci"] is not None]
-            if ci_hit:
-                text += (
-                    f", and the interval reaches it from {self._fmt(self.axes[j][0], min(ci_hit))}"
-                )
-        return text + "."
-
-    def summary(self) -> str:
-        ci = "" if self.ci is None else f" (CI {self.ci[0]:g} to {self.ci[1]:g})"
-        label = "OLS coefficient" if self.kind == "partial-r2" else SCALE_NAMES[self.scale]
-        head = (
-            f"Tipping-point analysis ({self.kind} view): {label} "
-            f"{self.estimate:g}{ci}, target {self.target:g}; grid "
-            + " x ".join(str(n) for n in self.shape)
-            + f" = {int(np.prod(self.shape)):,} cells"
-        )
-        parts = [wrap(head), render(self.table(), "text"), wrap(self.sentence())]
-        if self.extra.get("evalue") is not None:
-            parts.append(
-                wrap(
-                    f"E-value (both risk ratios equal): {number(self.extra['evalue'])}"
-                    + (
-                        f"; for the CI: {number(self.extra['evalue_ci'])}"
-                        if self.extra.get("evalue_ci") is not None
-                        else ""
-                    )
-                )
-            )
-        parts.append(bullets("Notes", self.notes))
-        parts.append(bullets("Cautions", self.cautions))
-        return "\n\n".join(p for p in parts if p)
+        raise InputError(f"the grid has {cells:,} cells ({sizes}); the limit is {MAX_CELLS:,}")
 
 
 # --------------------------------------------------------------------------- shared checks
@@ -400,8 +110,12 @@ def _check_effect(scale, estimate, ci, target):
     tgt = float(require(null if target is None else target, "target", *rules))
     pair = None
     if ci is not None:
-        lo, up = _check_interval(ci[0], ci[1], est, scale)
-        pair = (float(lo), float(up))
+        rules = (POSITIVE,) if ratio else ()
+        lo = float(require(ci[0], "ci", *rules))
+        up = float(require(ci[1], "ci", *rules))
+        values = {"estimate": np.asarray(est), "lower": np.asarray(lo), "upper": np.asarray(up)}
+        require_all(values, (interval_order(), inside_interval()))
+        pair = (lo, up)
     return scale, est, pair, tgt
 
 
@@ -626,10 +340,11 @@ def bounding_grid(
     ----------
     Ding & VanderWeele (2016), Epidemiology 27:368; VanderWeele & Ding (2017), Ann Intern Med.
     """
-    from .evalues import evalue, to_risk_ratio
+    from ..common.scales import to_risk_ratio
+    from ..evalues.core import evalue
 
     if scale not in RATIO_SCALES:
-        raise ValueError(f"`scale` must be one of rr, or, hr for the bounding view; got {scale!r}")
+        raise InputError(f"`scale` must be one of rr, or, hr for the bounding view; got {scale!r}")
     ev = evalue(scale, estimate, ci, outcome=outcome, target=target)
     default = default_ranges("bounding", evalue=float(ev.evalue))
     a = _axis(_or(rr_treatment, default["rr_treatment"]), "rr_treatment", AT_LEAST_ONE)
@@ -702,7 +417,7 @@ def partial_r2_grid(
     (and likewise in the angle of ``sqrt(r2_treatment)`` when that is the solved axis),
     ``A = se sqrt(dof r2_t / (1 - r2_t))`` and ``C = t_crit se sqrt(dof / ((dof - 1)(1 - r2_t)))``.
     """
-    from .partial_r2 import _check_summary, robustness_value, surface, t_critical
+    from ..partial_r2.core import _check_summary, robustness_value, surface, t_critical
 
     est, se, dof, _, alpha = _check_summary(estimate, se, dof, None, 1.0, alpha)
     tgt = float(require(0.0 if target is None else target, "target"))

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from ..common.errors import InputError
+
 READERS = {
     ".csv": "csv",
     ".txt": "csv",
@@ -23,14 +25,14 @@ def read_table(path, argument: str = "data"):
     p = Path(path)
     kind = READERS.get(p.suffix.lower())
     if kind is None:
-        raise ValueError(
+        raise InputError(
             f"`{argument}`: cannot tell the format of {p.name!r} from its extension; use one "
             f"of {', '.join(sorted(READERS))}"
         )
     if not p.is_file():
-        raise ValueError(f"`{argument}`: file not found: {path}")
+        raise InputError(f"`{argument}`: file not found: {path}")
     if p.stat().st_size == 0:
-        raise ValueError(f"`{argument}`: {path} is empty")
+        raise InputError(f"`{argument}`: {path} is empty")
     try:
         if kind == "csv":
             frame = pd.read_csv(p)
@@ -41,10 +43,10 @@ def read_table(path, argument: str = "data"):
         else:
             frame = pd.read_parquet(p)
     except ImportError as err:
-        raise ValueError(f"`{argument}`: reading {kind} needs an optional package: {err}") from None
+        raise InputError(f"`{argument}`: reading {kind} needs an optional package: {err}") from None
     except Exception as err:  # noqa: BLE001 - any parser failure is the file's, not ours
         first = str(err).strip().splitlines()[0] if str(err).strip() else type(err).__name__
-        raise ValueError(f"`{argument}`: could not read {path} as {kind}: {first}") from None
+        raise InputError(f"`{argument}`: could not read {path} as {kind}: {first}") from None
     if frame.shape[0] == 0 or frame.shape[1] == 0:
-        raise ValueError(f"`{argument}`: {path} has no data rows")
+        raise InputError(f"`{argument}`: {path} has no data rows")
     return frame

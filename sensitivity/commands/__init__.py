@@ -1,0 +1,8 @@
+"""One click command per file; `cli.py` registers them lazily by name."""
+
+#: command name -> module (in this package) whose `command` object it is, with its short help.
+COMMANDS = {
+    "evalue": ("evalue", "E-value of an estimate and its CI (rr, or, hr, smd, md)."),
+    "partial-r2": ("partial_r2", "Partial-R² bounds for an OLS coefficient, with benchmarks."),
+    "tipping": ("tipping", "Tipping-point grids for a hidden confounder of chosen strength."),
+}

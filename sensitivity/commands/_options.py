@@ -1,0 +1,131 @@
+"""Options every command shares, and `emit`, which prints a result in the chosen format."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import click
+
+FORMATS = ("text", "json", "csv", "markdown", "latex")
+#: Above this many rows JSON is written compact and streamed (people do not read it).
+COMPACT_ROWS = 10_000
+RANGE_HELP = "a value or START:STOP:STEP (STOP included when the steps reach it)"
+
+
+def format_options(func: Callable) -> Callable:
+    """--format and --output."""
+    func = click.option(
+        "--output",
+        "-o",
+        type=click.Path(dir_okay=False, writable=True),
+        default=None,
+        help="Write the result to FILE instead of stdout.",
+    )(func)
+    return click.option(
+        "--format",
+        "fmt",
+        type=click.Choice(FORMATS),
+        default="text",
+        show_default=True,
+        help="text for reading; json/csv for scripts; markdown/latex to paste into a manuscript.",
+    )(func)
+
+
+def ci_option(help_text: str = "Confidence limits on the same scale as the estimate.") -> Callable:
+    return click.option(
+        "--ci", nargs=2, type=float, default=None, metavar="LOWER UPPER", help=help_text
+    )
+
+
+def target_option(help_text: str) -> Callable:
+    return click.option("--target", type=float, default=None, help=help_text)
+
+
+def plot_option(help_text: str) -> Callable:
+    return click.option("--plot", type=click.Path(dir_okay=False), help=help_text)
+
+
+def outcome_options(rare_help: str, common_help: str) -> Callable:
+    """--rare / --common: the outcome's frequency (or, hr)."""
+
+    def decorate(func: Callable) -> Callable:
+        func = click.option("--common", "outcome", flag_value="common", help=common_help)(func)
+        return click.option("--rare", "outcome", flag_value="rare", default=None, help=rare_help)(
+            func
+        )
+
+    return decorate
+
+
+def check_plot(path: str | None) -> None:
+    """Refuse a bad --plot path before any work is done."""
+    if path:
+        from sensitivity.output.figures import check_plot_path
+
+        check_plot_path(path)
+
+
+def show_warnings() -> None:
+    """Package warnings as one `Warning:` line each on stderr (never a traceback)."""
+    import warnings
+
+    from sensitivity.common.errors import SensitivityWarning
+
+    def show(message, category, filename, lineno, file=None, line=None):
+        click.echo(f"Warning: {message}", err=True)
+
+    warnings.showwarning = show
+    warnings.simplefilter("always", SensitivityWarning)
+
+
+def _json(result: Any, sink: Any) -> None:
+    from sensitivity.output.tables import json_rows, write_json
+
+    document = result.document()
+    extra = [("sentence", document.sentence)] if document.sentence else []
+    rows = getattr(result, "n_rows", 1)
+    if hasattr(result, "row_layout") and rows > COMPACT_ROWS:
+        head = result.json_head()
+        stream = json_rows(result.columns(), result.row_layout())
+        items = [*head.items(), ("rows", stream), *extra]
+        write_json(items, sink, indent=False)
+    else:
+        write_json([*result.to_dict().items(), *extra], sink, indent=True)
+
+
+def _open_output(output: str | None) -> Any:
+    if output is None:
+        import sys
+
+        return sys.stdout.buffer
+    folder = Path(output).parent
+    if not folder.is_dir():
+        raise click.UsageError(f"--output: folder {str(folder)!r} does not exist")
+    return open(output, "wb")  # noqa: SIM115 - closed by emit
+
+
+def emit(result: Any, fmt: str, output: str | None) -> None:
+    """Print `result` in `fmt`; in machine formats the sentence and cautions go to stderr."""
+    sink = _open_output(output)
+    try:
+        if fmt == "json":
+            _json(result, sink)
+        elif fmt == "csv":
+            from sensitivity.output.tables import columns_to_csv
+
+            columns_to_csv(result.columns(), sink)
+        else:
+            body = result.document().render(fmt, tables_only=fmt in ("markdown", "latex"))
+            sink.write((body + "\n").encode("utf-8"))
+        sink.flush()
+    finally:
+        if output is not None:
+            sink.close()
+    if output:
+        click.echo(f"Wrote {output}", err=True)
+    if fmt in ("csv", "markdown", "latex"):
+        document = result.document()
+        for line in document.sentences + [f"Note: {n}" for n in result.all_notes()]:
+            click.echo(line, err=True)

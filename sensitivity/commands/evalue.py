@@ -1,0 +1,113 @@
+"""`sensitivity evalue`: E-values of an estimate and its interval, on any common scale."""
+
+from __future__ import annotations
+
+import click
+
+from sensitivity.commands import COMMANDS
+
+from ._options import emit, format_options
+
+SHORT_HELP = COMMANDS["evalue"][1]
+
+
+@click.command(
+    "evalue",
+    short_help=SHORT_HELP,
+    context_settings={"ignore_unknown_options": True},  # lets ESTIMATE be negative (smd/md)
+)
+@click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), metavar="SCALE")
+@click.argument("estimate", type=float)
+@click.option(
+    "--ci",
+    nargs=2,
+    type=float,
+    default=None,
+    metavar="LOWER UPPER",
+    help="Confidence limits on the same scale as ESTIMATE.",
+)
+@click.option("--se", type=float, default=None, help="Standard error (smd and md).")
+@click.option(
+    "--sd",
+    type=float,
+    default=None,
+    help="Outcome's standard deviation (md: needed to standardise).",
+)
+@click.option(
+    "--contrast",
+    type=float,
+    default=1.0,
+    show_default=True,
+    help="md with a continuous treatment: the coefficient is per unit; report per "
+    "this many units (e.g. 10).",
+)
+@click.option(
+    "--rare",
+    "outcome",
+    flag_value="rare",
+    default=None,
+    help="Outcome under about 15% at the end of follow-up (or, hr).",
+)
+@click.option(
+    "--common",
+    "outcome",
+    flag_value="common",
+    help="Outcome 15% or more at the end of follow-up (or, hr).",
+)
+@click.option(
+    "--prevalence",
+    type=float,
+    default=None,
+    help="Outcome prevalence; decides rare/common by the 15% rule.",
+)
+@click.option(
+    "--target",
+    type=float,
+    default=None,
+    help="True value to test against, on the SCALE's scale (default: the null).",
+)
+@click.option(
+    "--confounder",
+    "confounders",
+    nargs=2,
+    type=float,
+    multiple=True,
+    metavar="RR_TREATMENT RR_OUTCOME",
+    help="A hypothetical confounder's risk ratios with the treatment and with the "
+    "outcome: prints its bounding factor and how far it could move the result. "
+    "Repeatable.",
+)
+@format_options
+def evalue_cmd(
+    scale, estimate, ci, se, sd, contrast, outcome, prevalence, target, confounders, fmt, output
+):
+    """E-value of ESTIMATE on SCALE: rr, or, hr, smd or md.
+
+    \b
+    Examples:
+      sensitivity evalue rr 3.9 --ci 1.8 8.7
+      sensitivity evalue or 2.1 --ci 1.4 3.15 --common
+      sensitivity evalue hr 0.72 --ci 0.6 0.86 --prevalence 0.3
+      sensitivity evalue md 0.42 --se 0.11 --sd 12 --contrast 10
+      sensitivity evalue rr 3.9 --ci 1.8 8.7 --confounder 2 3 --confounder 4 4
+    """
+    from sensitivity.evalues.core import evalue
+
+    result = evalue(
+        scale,
+        estimate,
+        ci=ci or None,
+        se=se,
+        sd=sd,
+        contrast=contrast,
+        outcome=outcome,
+        prevalence=prevalence,
+        target=target,
+    )
+    if confounders:
+        rr_t, rr_y = zip(*confounders, strict=True)
+        result = result.with_confounders(rr_t, rr_y)
+    emit(result, fmt, output)
+
+
+command = evalue_cmd

@@ -1,0 +1,197 @@
+"""`sensitivity partial-r2`: partial-R² sensitivity of a linear-regression coefficient."""
+
+from __future__ import annotations
+
+import click
+
+from sensitivity.commands import COMMANDS
+
+from ._options import check_plot, emit, format_options, show_warnings
+
+SHORT_HELP = COMMANDS["partial-r2"][1]
+
+
+@click.command("partial-r2", short_help=SHORT_HELP)
+@click.option("--estimate", type=float, help="Summary input: the treatment's OLS coefficient.")
+@click.option("--se", type=float, help="Summary input: its classical standard error.")
+@click.option("--t", "t_stat", type=float, help="Summary input: its t statistic (instead of --se).")
+@click.option(
+    "--dof", type=float, help="Summary input: residual degrees of freedom (n - coefficients)."
+)
+@click.option(
+    "--data", type=click.Path(dir_okay=False), help="Data input: CSV, TSV, Excel or Parquet file."
+)
+@click.option("--formula", help='Data input: OLS formula, e.g. "y ~ t + x1 + C(region)".')
+@click.option("--treatment", help="Data input: the treatment's name in the formula.")
+@click.option(
+    "--fraction",
+    type=float,
+    default=1.0,
+    show_default=True,
+    help="Share of the estimate the confounder must explain away.",
+)
+@click.option("--alpha", type=float, default=0.05, show_default=True, help="Significance level.")
+@click.option(
+    "--benchmark",
+    "benchmarks",
+    multiple=True,
+    help="Observed covariate to compare with (repeatable; data input).",
+)
+@click.option(
+    "--times",
+    multiple=True,
+    type=float,
+    help="Benchmark multiple k, both sides (repeatable; default 1).",
+)
+@click.option(
+    "--times-pair",
+    "times_pairs",
+    nargs=2,
+    type=float,
+    multiple=True,
+    metavar="K_TREATMENT K_OUTCOME",
+    help="Separate benchmark multiples for the treatment and outcome sides (repeatable).",
+)
+@click.option(
+    "--r2-treatment",
+    multiple=True,
+    type=float,
+    help="Hypothetical confounder: partial R² with the treatment (pairs with --r2-outcome).",
+)
+@click.option(
+    "--r2-outcome",
+    multiple=True,
+    type=float,
+    help="Hypothetical confounder: partial R² with the outcome.",
+)
+@click.option("--sd", type=float, help="Summary input: outcome SD, to add the E-value alongside.")
+@click.option(
+    "--contrast",
+    type=float,
+    default=1.0,
+    show_default=True,
+    help="The E-value alongside is per this many units of treatment (e.g. 10).",
+)
+@click.option(
+    "--plot", type=click.Path(dir_okay=False), help="Write a contour figure (.png, .svg or .pdf)."
+)
+@click.option(
+    "--plot-statistic",
+    type=click.Choice(["estimate", "t"]),
+    default="estimate",
+    show_default=True,
+    help="What the figure's contours show.",
+)
+@format_options
+def partial_r2_cmd(
+    estimate,
+    se,
+    t_stat,
+    dof,
+    data,
+    formula,
+    treatment,
+    fraction,
+    alpha,
+    benchmarks,
+    times,
+    times_pairs,
+    r2_treatment,
+    r2_outcome,
+    sd,
+    contrast,
+    plot,
+    plot_statistic,
+    fmt,
+    output,
+):
+    """Partial-R² sensitivity of a linear-regression (OLS) coefficient.
+
+    Give summary numbers (--estimate with --se or --t, and --dof), or data (--data, --formula,
+    --treatment) to fit the OLS model here, which adds every covariate's strength and
+    benchmarks.
+
+    \b
+    Examples:
+      sensitivity partial-r2 --estimate 0.097 --se 0.0232 --dof 783
+      sensitivity partial-r2 --data demo/harbourside_bp.csv \\
+          --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
+          --treatment commute_min --benchmark smoker --times 1 --times 2 --plot contours.png
+    """
+    show_warnings()
+    summary_given = [
+        n
+        for n, v in (
+            ("--estimate", estimate),
+            ("--se", se),
+            ("--t", t_stat),
+            ("--dof", dof),
+            ("--sd", sd),
+        )
+        if v is not None
+    ]
+    data_given = [
+        n
+        for n, v in (("--data", data), ("--formula", formula), ("--treatment", treatment))
+        if v is not None
+    ]
+    if summary_given and data_given:
+        raise click.UsageError(
+            f"give summary numbers or data, not both: got {', '.join(summary_given + data_given)}"
+        )
+    if not summary_given and not data_given:
+        raise click.UsageError(
+            "give --estimate, --se (or --t) and --dof, or --data, --formula and --treatment"
+        )
+    r2t = list(r2_treatment) or None
+    r2y = list(r2_outcome) or None
+    check_plot(plot)
+    if data_given:
+        missing = [n for n in ("--data", "--formula", "--treatment") if n not in data_given]
+        if missing:
+            raise click.UsageError(f"data input needs {', '.join(missing)} as well")
+        from sensitivity.adapters.statsmodels import partial_r2_from_data
+
+        result = partial_r2_from_data(
+            data,
+            formula,
+            treatment,
+            fraction=fraction,
+            alpha=alpha,
+            benchmarks=benchmarks,
+            times=list(times) or None,
+            times_pairs=times_pairs,
+            r2_treatment=r2t,
+            r2_outcome=r2y,
+            contrast=contrast,
+        )
+    else:
+        if benchmarks or times or times_pairs:
+            raise click.UsageError("--benchmark, --times and --times-pair need data input (--data)")
+        if estimate is None:
+            raise click.UsageError("summary input needs --estimate")
+        if dof is None:
+            raise click.UsageError("summary input needs --dof")
+        from sensitivity.partial_r2.core import partial_r2_summary
+
+        result = partial_r2_summary(
+            estimate,
+            se,
+            dof,
+            t=t_stat,
+            fraction=fraction,
+            alpha=alpha,
+            r2_treatment=r2t,
+            r2_outcome=r2y,
+            contrast=contrast,
+            sd_outcome=sd,
+        )
+    emit(result, fmt, output)
+    if plot:
+        from sensitivity.output.figures import partial_r2_contours
+
+        partial_r2_contours(result, plot, statistic=plot_statistic)
+        click.echo(f"Wrote {plot}", err=True)
+
+
+command = partial_r2_cmd

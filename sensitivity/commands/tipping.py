@@ -1,0 +1,183 @@
+"""`sensitivity tipping`: tipping-point grids for a hidden confounder of chosen strength."""
+
+from __future__ import annotations
+
+import click
+
+from sensitivity.commands import COMMANDS
+
+from ._options import RANGE_HELP, check_plot, emit, format_options
+
+SHORT_HELP = COMMANDS["tipping"][1]
+
+
+@click.command("tipping", short_help=SHORT_HELP)
+@click.option(
+    "--kind",
+    type=click.Choice(["binary", "bounding", "partial-r2"]),
+    default="binary",
+    show_default=True,
+    help="binary: a binary confounder's prevalences and effect; bounding: its two risk "
+    "ratios (bounding factor); partial-r2: its two partial R² (OLS coefficient).",
+)
+@click.option(
+    "--scale",
+    type=click.Choice(["md", "rd", "rr", "or", "hr"]),
+    help="Effect scale (binary and bounding views).",
+)
+@click.option("--estimate", type=float, help="The observed adjusted estimate.")
+@click.option(
+    "--ci", nargs=2, type=float, default=None, metavar="LOWER UPPER", help="Its confidence limits."
+)
+@click.option(
+    "--target", type=float, default=None, help="Value to test against (default: the null)."
+)
+@click.option("--prevalence-treated", help=f"P(U=1) among the treated: {RANGE_HELP}.")
+@click.option("--prevalence-control", help=f"P(U=1) among the controls: {RANGE_HELP}.")
+@click.option(
+    "--outcome-effect",
+    help=f"Effect of U on the outcome (difference for md/rd, ratio for rr/or/hr): {RANGE_HELP}.",
+)
+@click.option("--rr-treatment", help=f"bounding: risk ratio of U with the treatment: {RANGE_HELP}.")
+@click.option("--rr-outcome", help=f"bounding: risk ratio of U with the outcome: {RANGE_HELP}.")
+@click.option(
+    "--rare",
+    "outcome",
+    flag_value="rare",
+    default=None,
+    help="bounding with or/hr: the outcome is rare (under about 15%).",
+)
+@click.option(
+    "--common", "outcome", flag_value="common", help="bounding with or/hr: the outcome is common."
+)
+@click.option("--se", type=float, help="partial-r2: the coefficient's standard error.")
+@click.option("--dof", type=float, help="partial-r2: residual degrees of freedom.")
+@click.option(
+    "--alpha", type=float, default=0.05, show_default=True, help="partial-r2: significance level."
+)
+@click.option(
+    "--r2-treatment", help=f"partial-r2: partial R² of U with the treatment: {RANGE_HELP}."
+)
+@click.option("--r2-outcome", help=f"partial-r2: partial R² of U with the outcome: {RANGE_HELP}.")
+@click.option(
+    "--plot",
+    type=click.Path(dir_okay=False),
+    help="Write a figure (.png, .svg or .pdf) with the tipping line drawn.",
+)
+@format_options
+def tipping_cmd(
+    kind,
+    scale,
+    estimate,
+    ci,
+    target,
+    prevalence_treated,
+    prevalence_control,
+    outcome_effect,
+    rr_treatment,
+    rr_outcome,
+    outcome,
+    se,
+    dof,
+    alpha,
+    r2_treatment,
+    r2_outcome,
+    plot,
+    fmt,
+    output,
+):
+    """Tipping-point grid: where does the conclusion tip under a hidden confounder?
+
+    Each strength is a single value or a range START:STOP:STEP; the grid is every
+    combination. Unset strengths get a range scaled to the estimate. The tipping points are,
+    for each value of the other varying parameters, the least value of the last varying one
+    at which the estimate (and separately its CI limit nearest the target) reaches the target.
+
+    \b
+    Examples:
+      sensitivity tipping --scale rr --estimate 1.8 --ci 1.2 2.7 --prevalence-control 0.2
+      sensitivity tipping --scale md --estimate 2.4 --ci 0.8 4.0 \\
+          --prevalence-treated 0.5 --prevalence-control 0:0.5:0.05 --outcome-effect 0:10:0.5
+      sensitivity tipping --kind bounding --scale rr --estimate 3.9 --ci 1.8 8.7 --plot b.png
+      sensitivity tipping --kind partial-r2 --estimate 0.097 --se 0.0232 --dof 783
+    """
+    from sensitivity.tipping import core as tp
+
+    check_plot(plot)
+    if estimate is None:
+        raise click.UsageError("--estimate is required")
+
+    given = {
+        "scale": scale,
+        "ci": ci or None,
+        "prevalence_treated": prevalence_treated,
+        "prevalence_control": prevalence_control,
+        "outcome_effect": outcome_effect,
+        "rr_treatment": rr_treatment,
+        "rr_outcome": rr_outcome,
+        "outcome": outcome,
+        "se": se,
+        "dof": dof,
+        "r2_treatment": r2_treatment,
+        "r2_outcome": r2_outcome,
+    }
+    foreign = [k for k, v in given.items() if v is not None and k not in VIEW_OPTIONS[kind]]
+    if foreign:
+        flags = ", ".join(
+            "--" + ("rare/--common" if k == "outcome" else k.replace("_", "-")) for k in foreign
+        )
+        raise click.UsageError(f"{flags} do not apply to the {kind} view")
+
+    def grid(name):
+        return None if given[name] is None else tp.parse_range(given[name], name)
+
+    if kind in ("binary", "bounding") and scale is None:
+        scales = "md, rd, rr, or, hr" if kind == "binary" else "rr, or, hr"
+        raise click.UsageError(f"--scale is required for the {kind} view ({scales})")
+    if kind == "binary":
+        result = tp.binary_confounder_grid(
+            scale,
+            estimate,
+            ci or None,
+            target=target,
+            **{k: grid(k) for k in ("prevalence_treated", "prevalence_control", "outcome_effect")},
+        )
+    elif kind == "bounding":
+        result = tp.bounding_grid(
+            scale,
+            estimate,
+            ci or None,
+            outcome=outcome,
+            target=target,
+            **{k: grid(k) for k in ("rr_treatment", "rr_outcome")},
+        )
+    else:
+        if se is None or dof is None:
+            raise click.UsageError("the partial-r2 view needs --se and --dof")
+        result = tp.partial_r2_grid(
+            estimate,
+            se,
+            dof,
+            alpha=alpha,
+            target=target,
+            **{k: grid(k) for k in ("r2_treatment", "r2_outcome")},
+        )
+    if fmt in ("json", "csv") and result.n_rows > 200_000:
+        click.echo(f"Writing {result.n_rows:,} rows as {fmt}...", err=True)
+    emit(result, fmt, output)
+    if plot:
+        from sensitivity.output.figures import tipping_figure
+
+        tipping_figure(result, plot)
+        click.echo(f"Wrote {plot}", err=True)
+
+
+#: The options each tipping view takes (the rest are refused, not silently ignored).
+VIEW_OPTIONS = {
+    "binary": {"scale", "ci", "prevalence_treated", "prevalence_control", "outcome_effect"},
+    "bounding": {"scale", "ci", "rr_treatment", "rr_outcome", "outcome"},
+    "partial-r2": {"se", "dof", "r2_treatment", "r2_outcome"},
+}
+
+
+command = tipping_cmd

@@ -1,0 +1,64 @@
+"""The standing cautions and the references, as data.
+
+Every result carries the cautions that apply to it; text output prints them and JSON lists
+them under `notes`, so a manuscript report can collect them without parsing prose.
+"""
+
+from __future__ import annotations
+
+ONE_BIAS = (
+    "A sensitivity analysis bounds one kind of bias (unmeasured confounding) under stated "
+    "assumptions; it does not show that the association is causal, and it says nothing about "
+    "selection bias, measurement error or model misspecification."
+)
+NOT_A_THRESHOLD = (
+    "An E-value is not a pass/fail threshold: no value is 'large enough' in general. Judge it "
+    "against the strength of known confounders of this treatment and outcome."
+)
+COMPARE_KNOWN = (
+    "Compare the required confounder strength with the strength of measured covariates and "
+    "of confounders known from the literature for this question."
+)
+BENCHMARKS_MEASURED = (
+    "Benchmarks compare a hidden confounder with covariates that were measured; they cannot "
+    "say how strong the confounders that were not measured actually are."
+)
+DEFER = (
+    "Report alongside the main analysis as your field's reporting guideline asks (e.g. "
+    "STROBE, RECORD), and have the analysis checked in statistical review."
+)
+EVALUE = (ONE_BIAS, NOT_A_THRESHOLD, DEFER)
+PARTIAL_R2 = (ONE_BIAS, COMPARE_KNOWN, BENCHMARKS_MEASURED, DEFER)
+TIPPING = (ONE_BIAS, COMPARE_KNOWN, DEFER)
+
+# References, keyed for results to cite (volume and pages from the project's methods notes).
+REFERENCES = {
+    "vanderweele-ding-2017": (
+        "VanderWeele TJ, Ding P (2017). Sensitivity analysis in observational research: "
+        "introducing the E-value. Annals of Internal Medicine 167:268-274."
+    ),
+    "ding-vanderweele-2016": (
+        "Ding P, VanderWeele TJ (2016). Sensitivity analysis without assumptions. "
+        "Epidemiology 27:368-377."
+    ),
+    "vanderweele-2017": (
+        "VanderWeele TJ (2017). On a square-root transformation of the odds ratio for a common "
+        "outcome. Epidemiology 28:e58-e60."
+    ),
+    "vanderweele-2020": (
+        "VanderWeele TJ (2020). Optimal approximate conversions of odds ratios and hazard "
+        "ratios to risk ratios. Biometrics 76:746-752."
+    ),
+    "cinelli-hazlett-2020": (
+        "Cinelli C, Hazlett C (2020). Making sense of sensitivity: extending omitted variable "
+        "bias. Journal of the Royal Statistical Society, Series B 82:39-67."
+    ),
+    "lin-psaty-kronmal-1998": (
+        "Lin DY, Psaty BM, Kronmal RA (1998). Assessing the sensitivity of regression results "
+        "to unmeasured confounders in observational studies. Biometrics 54:948-963."
+    ),
+    "vanderweele-arah-2011": (
+        "VanderWeele TJ, Arah OA (2011). Bias formulas for sensitivity analysis of unmeasured "
+        "confounding for general outcomes, treatments, and confounders. Epidemiology 22:42-52."
+    ),
+}

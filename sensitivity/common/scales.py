@@ -1,0 +1,204 @@
+"""Every effect scale's facts in one table, and the conversions to and from the risk ratio.
+
+The conversions are vectorised over rows: `scale`, `outcome`, `sd` and `contrast` may each be
+one value or an array with one entry per row, so a table of mixed scales is converted in one
+call with no grouping by hand.
+
+References
+----------
+VanderWeele TJ, Ding P (2017). Sensitivity analysis in observational research: introducing
+the E-value. Annals of Internal Medicine 167:268-274 (rare outcomes; exp(0.91 d)).
+VanderWeele TJ (2017). On a square-root transformation of the odds ratio for a common
+outcome. Epidemiology 28:e58-e60.
+VanderWeele TJ (2020). Optimal approximate conversions of odds ratios and hazard ratios to
+risk ratios. Biometrics 76:746-752.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+
+@dataclass(frozen=True)
+class Scale:
+    """What the code needs to know about one effect scale."""
+
+    code: str
+    name: str  # in prose: "risk ratio"
+    short: str  # in table headings: "RR"
+    ratio: bool  # a ratio (null 1, positive) or a difference (null 0)
+    needs_outcome: bool = False  # rare/common decides the conversion (or, hr)
+    needs_sd: bool = False  # the outcome's SD standardises it (md)
+
+    @property
+    def null(self) -> float:
+        return 1.0 if self.ratio else 0.0
+
+
+SCALES: dict[str, Scale] = {
+    s.code: s
+    for s in (
+        Scale("rr", "risk ratio", "RR", True),
+        Scale("or", "odds ratio", "OR", True, needs_outcome=True),
+        Scale("hr", "hazard ratio", "HR", True, needs_outcome=True),
+        Scale("smd", "standardized mean difference", "SMD", False),
+        Scale("md", "mean difference", "MD", False, needs_sd=True),
+        Scale("rd", "risk difference", "RD", False),
+    )
+}
+RATIO_SCALES = tuple(c for c, s in SCALES.items() if s.ratio)
+OUTCOME_FREQUENCIES = ("rare", "common")
+#: Below this outcome prevalence an OR or HR is taken as a risk ratio (common practice, no
+#: single published source; VanderWeele 2017 and 2020 use 15% as the working line).
+RARE_OUTCOME_CUTOFF = 0.15
+#: exp(0.91 d) maps a standardized mean difference to a risk ratio; 1.78 = 0.91 * 1.96
+#: (VanderWeele & Ding 2017, citing Chinn 2000).
+SMD_SLOPE = 0.91
+SMD_INTERVAL = 1.78
+_LN_HALF = float(np.log(0.5))
+
+
+def scale(code: str) -> Scale:
+    """The facts of scale `code` (KeyError for an unknown code: validate first)."""
+    return SCALES[code]
+
+
+def null_of(scale_codes: object) -> np.ndarray:
+    """The null value per row: 1 on ratio scales, 0 on difference scales."""
+    codes = np.asarray(scale_codes, dtype=object)
+    return np.where(np.isin(codes, RATIO_SCALES), 1.0, 0.0)
+
+
+def is_ratio(scale_codes: object) -> np.ndarray:
+    return np.isin(np.asarray(scale_codes, dtype=object), RATIO_SCALES)
+
+
+def frequency_of_prevalence(prevalence: object) -> np.ndarray:
+    """'rare' below 15% outcome prevalence, else 'common' (common practice)."""
+    p = np.asarray(prevalence, float)
+    return np.where(p < RARE_OUTCOME_CUTOFF, "rare", "common").astype(object)
+
+
+# --------------------------------------------------------------------------- hazard ratios
+def hr_common_of_log(log_hr: np.ndarray) -> np.ndarray:
+    """RR = (1 - 0.5^sqrt(HR)) / (1 - 0.5^sqrt(1/HR)), from log HR, without cancellation.
+
+    Both differences are written with expm1 so that the map keeps its digits from HR = 1e-300
+    to 1e300 (VanderWeele 2020).
+    """
+    half = np.asarray(log_hr, float) / 2
+    with np.errstate(over="ignore"):
+        root = np.exp(half)
+        inv_root = np.exp(-half)
+    return np.expm1(_LN_HALF * root) / np.expm1(_LN_HALF * inv_root)
+
+
+def _hr_common(hr: np.ndarray) -> np.ndarray:
+    with np.errstate(divide="ignore"):
+        return hr_common_of_log(np.log(hr))
+
+
+def _hr_common_inverse(rr: np.ndarray) -> np.ndarray:
+    # The map is increasing in log HR; bisect in log space (exact to ~1e-15 relative).
+    target = np.asarray(rr, float)
+    lo = np.full(target.shape, -1400.0)
+    hi = np.full(target.shape, 1400.0)
+    for _ in range(120):
+        mid = (lo + hi) / 2
+        above = hr_common_of_log(mid) > target
+        hi = np.where(above, mid, hi)
+        lo = np.where(above, lo, mid)
+    with np.errstate(over="ignore"):
+        return np.exp((lo + hi) / 2)
+
+
+# --------------------------------------------------------------------------- conversions
+def _route(scale_codes, outcome) -> dict[str, np.ndarray]:
+    """Masks, per row, of each conversion route."""
+    s = np.asarray(scale_codes, dtype=object)
+    o = np.asarray("" if outcome is None else outcome, dtype=object)
+    rare = o == "rare"
+    ratio_or_hr = (s == "or") | (s == "hr")
+    return {
+        "identity": (s == "rr") | (ratio_or_hr & rare),
+        "sqrt": (s == "or") & ~rare,
+        "hr": (s == "hr") & ~rare,
+        "smd": s == "smd",
+        "md": s == "md",
+    }
+
+
+def _apply(scale_codes, values, outcome, sd, contrast, forward: bool) -> np.ndarray:
+    x = np.asarray(values, float)
+    sd_arr = np.asarray(np.nan if sd is None else sd, float)
+    c_arr = np.asarray(contrast, float)
+    routes = _route(scale_codes, outcome)
+    shape = np.broadcast_shapes(
+        x.shape, sd_arr.shape, c_arr.shape, *(m.shape for m in routes.values())
+    )
+    x, sd_arr, c_arr = (np.broadcast_to(a, shape) for a in (x, sd_arr, c_arr))
+    out = np.full(shape, np.nan)
+    for route, mask in routes.items():
+        mask = np.broadcast_to(mask, shape)
+        if not mask.any():
+            continue
+        v = x[mask]
+        if route == "identity":
+            res = v
+        elif route == "sqrt":
+            res = np.sqrt(v) if forward else v**2
+        elif route == "hr":
+            res = _hr_common(v) if forward else _hr_common_inverse(v)
+        else:
+            per = 1.0 if route == "smd" else c_arr[mask] / sd_arr[mask]
+            with np.errstate(over="ignore"):
+                res = np.exp(SMD_SLOPE * v * per) if forward else np.log(v) / SMD_SLOPE / per
+        out[mask] = res
+    return out if shape else out[()]
+
+
+def to_risk_ratio(
+    scale: object,
+    values: object,
+    *,
+    outcome: object = None,
+    sd: object = None,
+    contrast: object = 1.0,
+) -> np.ndarray:
+    """Map values on `scale` to the approximate risk-ratio scale (the map the E-value uses).
+
+    ``or`` rare: RR = OR; common: RR = sqrt(OR) (VanderWeele 2017).
+    ``hr`` rare: RR = HR; common: RR = (1 - 0.5^sqrt(HR)) / (1 - 0.5^sqrt(1/HR))
+    (VanderWeele 2020). ``smd``: RR = exp(0.91 d). ``md``: d = value * contrast / sd, then as
+    ``smd`` (VanderWeele & Ding 2017). Every argument may be per row.
+
+    Examples
+    --------
+    >>> to_risk_ratio(["rr", "or", "smd"], [2.0, 4.0, 0.0], outcome=["", "common", ""]).tolist()
+    [2.0, 2.0, 1.0]
+    """
+    return _apply(scale, values, outcome, sd, contrast, forward=True)
+
+
+def from_risk_ratio(
+    scale: object, rr: object, *, outcome: object = None, sd: object = None, contrast: object = 1.0
+) -> np.ndarray:
+    """Inverse of `to_risk_ratio`: a risk-ratio-scale value back on `scale`."""
+    return _apply(scale, rr, outcome, sd, contrast, forward=False)
+
+
+def conversion_text(scale: str, outcome: str | None = None, contrast: float = 1.0) -> str:
+    """One phrase naming the map `to_risk_ratio` applies, with its source."""
+    if scale == "rr":
+        return "none (already a risk ratio)"
+    if scale in ("or", "hr") and outcome == "rare":
+        return f"RR ≈ {scale.upper()} for a rare outcome (VanderWeele & Ding 2017)"
+    if scale == "or":
+        return "RR ≈ √OR for a common outcome (VanderWeele 2017)"
+    if scale == "hr":
+        return "RR ≈ (1 − 0.5^√HR) / (1 − 0.5^√(1/HR)) for a common outcome (VanderWeele 2020)"
+    per = f" per {contrast:g} units of treatment" if contrast != 1 else ""
+    lead = "d = estimate × contrast / SD, " if scale == "md" else ""
+    return f"{lead}RR ≈ exp(0.91 d){per} (VanderWeele & Ding 2017)"

@@ -1,0 +1,597 @@
+"""E-values and the bounding factor, on the risk-ratio scale and on every common scale.
+
+Vectorised over rows: the estimate, its interval, the scale, the outcome's frequency (or
+prevalence), the SD, the contrast and the target may each be one value or one per row, so
+one call handles a mixed table. Only numpy is imported, so a one-number command starts fast.
+
+References
+----------
+Ding P, VanderWeele TJ (2016). Sensitivity analysis without assumptions. Epidemiology
+27:368-377 (erratum Epidemiology 29:e19, 2018).
+VanderWeele TJ, Ding P (2017). Sensitivity analysis in observational research: introducing
+the E-value. Annals of Internal Medicine 167:268-274.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import replace
+
+import numpy as np
+
+from ..common.checks import (
+    AT_LEAST_ONE,
+    FINITE,
+    POSITIVE,
+    PROBABILITY,
+    Check,
+    as_array,
+    field,
+    flags,
+    given,
+    inside_interval,
+    interval_order,
+    require,
+    require_all,
+)
+from ..common.errors import InputError
+from ..common.scales import (
+    OUTCOME_FREQUENCIES,
+    RARE_OUTCOME_CUTOFF,
+    RATIO_SCALES,
+    SCALES,
+    SMD_INTERVAL,
+    SMD_SLOPE,
+    frequency_of_prevalence,
+    from_risk_ratio,
+    is_ratio,
+    null_of,
+    to_risk_ratio,
+)
+from .result import ConfounderBound, EValueResult
+
+#: Scales `evalue` takes (rd needs the 2 x 2 counts and has its own route).
+EVALUE_SCALES = ("rr", "or", "hr", "smd", "md")
+
+
+# --------------------------------------------------------------------------- formulas
+def evalue_of_rr(rr: object) -> np.ndarray:
+    """E-value of a risk ratio: the strength both confounder associations need to explain it.
+
+    Parameters
+    ----------
+    rr : array_like
+        Risk ratio(s), positive. A ratio below 1 is inverted first.
+
+    Returns
+    -------
+    ndarray
+        ``E = RR + sqrt(RR (RR - 1))`` with ``RR = max(rr, 1/rr)``.
+
+    Notes
+    -----
+    E solves ``B(E, E) = RR`` for the bounding factor ``B`` (see `bounding_factor`).
+
+    References
+    ----------
+    VanderWeele & Ding (2017), Ann Intern Med 167:268, formula in the section "The E-value".
+
+    Examples
+    --------
+    The published worked example, RR 3.9 (VanderWeele & Ding 2017):
+
+    >>> round(float(evalue_of_rr(3.9)), 2)
+    7.26
+    """
+    rr = np.asarray(rr, dtype=float)
+    with np.errstate(divide="ignore", over="ignore"):
+        r = np.where(rr < 1, 1 / rr, rr)
+    return r + np.sqrt(r) * np.sqrt(r - 1)  # not sqrt(r (r - 1)): no overflow below 1e308
+
+
+def evalue_of_interval(lower: object, upper: object, target: object = 1.0) -> np.ndarray:
+    """E-value of a confidence interval: of the limit nearest `target`, 1 if it covers it.
+
+    Examples
+    --------
+    >>> float(evalue_of_interval(1.8, 8.7))  # VanderWeele & Ding (2017)
+    3.0
+    >>> float(evalue_of_interval(0.8, 1.3))
+    1.0
+    """
+    lower, upper, target = np.broadcast_arrays(
+        *(np.asarray(a, float) for a in (lower, upper, target))
+    )
+    nearest = np.where(lower > target, lower, np.where(upper < target, upper, target))
+    return evalue_of_rr(nearest / target)
+
+
+def bounding_factor(rr_treatment: object, rr_outcome: object) -> np.ndarray:
+    """Joint bounding factor of a confounder with the given two risk ratios.
+
+    Parameters
+    ----------
+    rr_treatment : array_like
+        Largest risk ratio relating the treatment to the confounder (>= 1).
+    rr_outcome : array_like
+        Largest risk ratio relating the confounder to the outcome, within treatment arms (>= 1).
+
+    Returns
+    -------
+    ndarray
+        ``B = RR_TU RR_UY / (RR_TU + RR_UY - 1)``; the true risk ratio is at least
+        ``RR_obs / B`` when ``RR_obs > 1``.
+
+    Notes
+    -----
+    Written as ``a / (1 + (a - 1) / b)`` so that very strong confounders (1e300) do not
+    overflow the product.
+
+    References
+    ----------
+    Ding & VanderWeele (2016), Epidemiology 27:368, the bounding factor (their BF_U).
+
+    Examples
+    --------
+    >>> round(float(bounding_factor(7.26, 7.26)), 2)  # B(E, E) = RR
+    3.9
+    """
+    a = np.asarray(rr_treatment, dtype=float)
+    b = np.asarray(rr_outcome, dtype=float)
+    return a / (1 + (a - 1) / b)
+
+
+# --------------------------------------------------------------------------- the rules
+def _ratio(scale: np.ndarray) -> np.ndarray:
+    return is_ratio(scale)
+
+
+def _scale_flags(scale: np.ndarray) -> Check:
+    return Check(
+        ("scale",),
+        lambda s: ~np.isin(s, np.asarray(EVALUE_SCALES, dtype=object)),
+        lambda s: f"`scale` must be one of {', '.join(EVALUE_SCALES)}; got {s!r}",
+    )
+
+
+def _needs(s: np.ndarray, *codes: str) -> np.ndarray:
+    return np.isin(s, np.asarray(codes, dtype=object))
+
+
+#: The rules of one E-value input, in the order a user meets them. Every row is checked
+#: against all of them (a batch flags the first one a row breaks; one result raises it).
+CHECKS: tuple[Check, ...] = (
+    _scale_flags(np.empty(0)),
+    field("estimate", FINITE),
+    field("estimate", POSITIVE, _ratio, ("scale",)),
+    Check(
+        ("prevalence", "outcome"),
+        lambda p, o: given(p) & given(o),
+        lambda p, o: "give `outcome` or `prevalence`, not both",
+    ),
+    field("prevalence", PROBABILITY, given, ("prevalence",)),
+    Check(
+        ("outcome",),
+        lambda o: given(o) & ~np.isin(o, np.asarray(OUTCOME_FREQUENCIES, dtype=object)),
+        lambda o: f"`outcome` must be one of {', '.join(OUTCOME_FREQUENCIES)}; got {o!r}",
+    ),
+    Check(
+        ("scale", "outcome", "prevalence"),
+        lambda s, o, p: _needs(s, "or", "hr") & ~given(o) & ~given(p),
+        lambda s, o, p: (
+            f"`outcome` frequency is needed on the {s} scale: say rare or common, or give "
+            "the outcome's `prevalence`"
+        ),
+    ),
+    Check(
+        ("scale", "se"),
+        lambda s, se: _ratio(s) & given(se),
+        lambda s, se: f"`se` applies to scales smd and md only; got {s}",
+    ),
+    Check(
+        ("scale", "sd"),
+        lambda s, sd: ~_needs(s, "md") & given(sd),
+        lambda s, sd: f"`sd` applies to scale md only; got {s}",
+    ),
+    Check(
+        ("scale", "contrast"),
+        lambda s, c: ~_needs(s, "md") & (c != 1),
+        lambda s, c: f"`contrast` applies to scale md only; got {s}",
+    ),
+    Check(
+        ("scale", "sd"),
+        lambda s, sd: _needs(s, "md") & ~given(sd),
+        lambda s, sd: "`sd` is required for scale md: the outcome's standard deviation",
+    ),
+    field("sd", POSITIVE, given, ("sd",)),
+    field("contrast", FINITE),
+    field("contrast", POSITIVE),
+    Check(
+        ("scale", "se", "lower"),
+        lambda s, se, lo: given(se) & given(lo),
+        lambda s, se, lo: f"give `se` or `ci` for scale {s}, not both",
+    ),
+    field("se", POSITIVE, given, ("se",)),
+    Check(
+        ("lower", "upper"),
+        lambda lo, up: given(lo) != given(up),
+        lambda lo, up: "`ci` needs both limits, lower and upper",
+    ),
+    field("lower", POSITIVE, lambda s, lo: _ratio(s) & given(lo), ("scale", "lower")),
+    field("upper", POSITIVE, lambda s, up: _ratio(s) & given(up), ("scale", "upper")),
+    interval_order(),
+    inside_interval(),
+    field("target", FINITE),
+    field("target", POSITIVE, _ratio, ("scale",)),
+)
+
+
+def _rename_ci(message: str) -> str:
+    """Single results speak of the interval as `ci`, whichever limit broke the rule."""
+    return message.replace("`lower`", "`ci`").replace("`upper`", "`ci`")
+
+
+# --------------------------------------------------------------------------- computation
+def compute(
+    scale: np.ndarray,
+    estimate: np.ndarray,
+    lower: np.ndarray,
+    upper: np.ndarray,
+    se: np.ndarray,
+    sd: np.ndarray,
+    contrast: np.ndarray,
+    outcome: np.ndarray,
+    target: np.ndarray,
+) -> dict[str, np.ndarray]:
+    """E-values from checked per-row arrays (NaN where a row has no interval or se).
+
+    Returns the risk-ratio-scale estimate, interval and target, and both E-values
+    (NaN for the interval when a row has neither `ci` nor `se`).
+    """
+    conv = {"outcome": outcome, "sd": sd, "contrast": contrast}
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        rr = to_risk_ratio(scale, estimate, **conv)
+        rr_target = to_risk_ratio(scale, target, **conv)
+        rr_lower = to_risk_ratio(scale, lower, **conv)
+        rr_upper = to_risk_ratio(scale, upper, **conv)
+        # An interval from `se` (smd, md): exp(0.91 d -/+ 1.78 se_d) (VanderWeele & Ding 2017).
+        per = np.where(_needs(scale, "md"), contrast / sd, 1.0)
+        se_d = se * per
+        from_se = given(se) & ~given(lower)
+        d = np.log(rr) / SMD_SLOPE
+        rr_lower = np.where(from_se, np.exp(SMD_SLOPE * d - SMD_INTERVAL * se_d), rr_lower)
+        rr_upper = np.where(from_se, np.exp(SMD_SLOPE * d + SMD_INTERVAL * se_d), rr_upper)
+        e = evalue_of_rr(rr / rr_target)
+        e_ci = np.where(given(rr_lower), evalue_of_interval(rr_lower, rr_upper, rr_target), np.nan)
+    return {
+        "rr": rr,
+        "rr_lower": rr_lower,
+        "rr_upper": rr_upper,
+        "rr_target": rr_target,
+        "evalue": e,
+        "evalue_ci": e_ci,
+    }
+
+
+def _numeric(value: object, name: str, shape: tuple[int, ...] | None = None) -> np.ndarray:
+    """A float array for an optional numeric input (NaN where not given)."""
+    if value is None:
+        return np.asarray(np.nan)
+    return as_array(value, name)
+
+
+def _text(value: object) -> np.ndarray:
+    return np.asarray("" if value is None else value, dtype=object)
+
+
+def _inputs(
+    scale, estimate, ci, se, sd, contrast, outcome, prevalence, target
+) -> dict[str, np.ndarray]:
+    if ci is not None:
+        if len(ci) != 2:
+            raise InputError(f"`ci` must be a pair (lower, upper); got {len(ci)} values")
+        lower, upper = as_array(ci[0], "ci"), as_array(ci[1], "ci")
+    else:
+        lower = upper = np.asarray(np.nan)
+    scale_arr = _text(scale)
+    values = {
+        "scale": scale_arr,
+        "estimate": as_array(estimate, "estimate"),
+        "lower": lower,
+        "upper": upper,
+        "se": _numeric(se, "se"),
+        "sd": _numeric(sd, "sd"),
+        "contrast": as_array(1.0 if contrast is None else contrast, "contrast"),
+        "outcome": _text(outcome),
+        "prevalence": _numeric(prevalence, "prevalence"),
+    }
+    values["target"] = (
+        null_of(scale_arr) * np.ones(np.shape(values["estimate"]))
+        if target is None
+        else as_array(target, "target")
+    )
+    return values
+
+
+def _frequency(values: dict[str, np.ndarray]) -> np.ndarray:
+    """Per row: the outcome frequency given, or decided from the prevalence (15% rule)."""
+    o, p = values["outcome"], values["prevalence"]
+    from_p = given(p)
+    decided = np.where(from_p, frequency_of_prevalence(np.where(from_p, p, 0.0)), o)
+    # The frequency matters only for or and hr; elsewhere it is dropped (with a note).
+    return np.where(_needs(values["scale"], "or", "hr"), decided, "").astype(object)
+
+
+# --------------------------------------------------------------------------- entry points
+def evalue(
+    scale: str | Sequence[str] | np.ndarray,
+    estimate: object,
+    ci: tuple[object, object] | None = None,
+    *,
+    se: object = None,
+    sd: object = None,
+    contrast: object = 1.0,
+    outcome: object = None,
+    prevalence: object = None,
+    target: object = None,
+) -> EValueResult:
+    """E-values of an adjusted estimate and its confidence interval, on any common scale.
+
+    Parameters
+    ----------
+    scale : {'rr', 'or', 'hr', 'smd', 'md'} or array of them
+        Risk ratio, odds ratio, hazard ratio, standardized mean difference, or mean
+        difference / linear-regression coefficient (needs `sd`); one per row for a mixed table.
+    estimate : array_like
+        The adjusted estimate(s) on `scale`.
+    ci : (lower, upper), optional
+        Confidence limits on `scale`. For ``smd``/``md`` give `ci` or `se`, not both.
+    se : array_like, optional
+        Standard error on `scale` (``smd``/``md``); the interval is then
+        ``exp(0.91 d -/+ 1.78 se_d)`` on the risk-ratio scale.
+    sd : array_like, optional
+        The outcome's standard deviation (``md`` only).
+    contrast : array_like, default 1
+        For ``md`` with a continuous treatment: the treatment difference of interest, in the
+        treatment's units (the coefficient is per one unit; 10 means "per 10 units").
+    outcome : {'rare', 'common'} or array of them, optional
+        The outcome's frequency at the end of follow-up; required for ``or`` and ``hr``.
+    prevalence : array_like, optional
+        The outcome's prevalence, instead of `outcome`: below 0.15 counts as rare.
+    target : array_like, optional
+        True value to test against, on `scale` (default: the null, 1 or 0).
+
+    Returns
+    -------
+    EValueResult
+
+    Raises
+    ------
+    InputError
+        For the first input that breaks a rule, naming the argument and the rule.
+
+    Notes
+    -----
+    The estimate is mapped to the risk-ratio scale (see `to_risk_ratio`), divided by the
+    mapped target, and ``E = RR + sqrt(RR (RR - 1))`` is applied (inverting ratios below 1).
+    The interval's E-value uses the limit nearest the target and is 1 when the interval
+    includes it.
+
+    References
+    ----------
+    VanderWeele & Ding (2017), Ann Intern Med 167:268-274; VanderWeele (2017), Epidemiology
+    28:e58; VanderWeele (2020), Biometrics 76:746.
+
+    Examples
+    --------
+    The worked example of VanderWeele & Ding (2017): RR 3.9, 95% CI 1.8 to 8.7.
+
+    >>> res = evalue("rr", 3.9, ci=(1.8, 8.7))
+    >>> round(float(res.evalue), 2), round(float(res.evalue_ci), 2)
+    (7.26, 3.0)
+    """
+    values = _inputs(scale, estimate, ci, se, sd, contrast, outcome, prevalence, target)
+    try:
+        require_all(values, CHECKS)
+    except InputError as err:
+        raise InputError(_rename_ci(str(err))) from None
+    freq = _frequency(values)
+    out = compute(
+        values["scale"],
+        values["estimate"],
+        values["lower"],
+        values["upper"],
+        values["se"],
+        values["sd"],
+        values["contrast"],
+        freq,
+        values["target"],
+    )
+    notes = _notes(values, freq, out, target is None)
+    scalar_scale = values["scale"].ndim == 0
+    return EValueResult(
+        scale=str(values["scale"]) if scalar_scale else values["scale"],
+        estimate=values["estimate"],
+        ci=None if ci is None else (values["lower"], values["upper"]),
+        se=None if se is None else values["se"],
+        sd=None if sd is None else values["sd"],
+        contrast=values["contrast"],
+        outcome=_outcome_value(freq),
+        target_value=values["target"],
+        rr=out["rr"],
+        rr_ci=None if np.all(np.isnan(out["rr_lower"])) else (out["rr_lower"], out["rr_upper"]),
+        rr_target=out["rr_target"],
+        evalue=out["evalue"],
+        evalue_ci=None if np.all(np.isnan(out["evalue_ci"])) else out["evalue_ci"],
+        notes=tuple(notes),
+    )
+
+
+def _outcome_value(freq: np.ndarray) -> object:
+    if freq.ndim == 0:
+        return str(freq) or None
+    if np.all(freq == freq.flat[0]):
+        return str(freq.flat[0]) or None
+    return freq
+
+
+def _notes(values, freq, out, null_target: bool) -> list[str]:
+    """Conversions applied and degenerate input, in words (single results)."""
+    notes: list[str] = []
+    p = values["prevalence"]
+    scale = values["scale"]
+    if np.any(given(p)) and p.ndim == 0:
+        f = str(freq) if freq.ndim == 0 else str(freq.flat[0])
+        if f:
+            side = "below" if f == "rare" else "at or above"
+            notes.append(
+                f"Outcome prevalence {float(p):g} is {side} {RARE_OUTCOME_CUTOFF:.0%}: "
+                f"treated as {f} (common practice)."
+            )
+    elif np.any(given(p)):
+        notes.append(
+            f"Outcome prevalences decide rare (below {RARE_OUTCOME_CUTOFF:.0%}) or common per "
+            "row (common practice)."
+        )
+    ignored = given(values["outcome"]) & ~_needs(scale, "or", "hr")
+    if np.any(ignored) and scale.ndim == 0:
+        notes.append(f"The outcome's frequency does not enter the {scale} scale; ignored.")
+    no_ci = ~given(values["se"]) & ~given(values["lower"])
+    if np.any(no_ci & ~_ratio(scale)):
+        notes.append("No `se` or `ci` given: only the estimate's E-value is computed.")
+    covers = (out["rr_lower"] <= out["rr_target"]) & (out["rr_upper"] >= out["rr_target"])
+    if np.any(covers):
+        where = "The" if values["estimate"].ndim == 0 else "For some rows the"
+        goal = "null" if null_target else "target"
+        notes.append(
+            f"{where} confidence interval includes the {goal}: its E-value is 1 "
+            "(no confounding is needed to reach it)."
+        )
+    if np.any(out["rr"] == out["rr_target"]):
+        notes.append("The estimate equals the target: its E-value is 1.")
+    return notes
+
+
+def evalue_rows(columns: dict[str, object], n: int) -> tuple[dict[str, np.ndarray], np.ndarray]:
+    """E-values for a batch of `n` rows: computed columns and a reason per bad row.
+
+    `columns` holds per-row arrays under the names of `evalue`'s arguments (``lower`` and
+    ``upper`` for the interval); absent numbers are NaN, absent text is "". Bad rows get a
+    reason (the first rule they break) and NaN results; the rest are computed in one pass.
+    """
+    values = {
+        "scale": _text(columns.get("scale")),
+        "estimate": np.asarray(columns.get("estimate", np.nan), float),
+        "lower": np.asarray(columns.get("lower", np.nan), float),
+        "upper": np.asarray(columns.get("upper", np.nan), float),
+        "se": np.asarray(columns.get("se", np.nan), float),
+        "sd": np.asarray(columns.get("sd", np.nan), float),
+        "contrast": np.asarray(columns.get("contrast", 1.0), float),
+        "outcome": _text(columns.get("outcome")),
+        "prevalence": np.asarray(columns.get("prevalence", np.nan), float),
+    }
+    target = columns.get("target")
+    values["target"] = null_of(values["scale"]) if target is None else np.asarray(target, float)
+    values = {k: np.broadcast_to(v, (n,)) for k, v in values.items()}
+    reasons = flags(values, CHECKS, n)
+    good = reasons == ""
+    freq = _frequency(values)
+    safe = {k: np.where(good, v, _SAFE.get(k, v)) for k, v in values.items()}
+    out = compute(
+        safe["scale"],
+        safe["estimate"],
+        safe["lower"],
+        safe["upper"],
+        safe["se"],
+        safe["sd"],
+        safe["contrast"],
+        np.where(good, freq, "rare"),
+        safe["target"],
+    )
+    out = {k: np.where(good, v, np.nan) for k, v in out.items()}
+    out["outcome"] = np.where(good, freq, "").astype(object)
+    return out, reasons
+
+
+# Placeholders computed (and then blanked) for bad rows, so no numpy warning is raised.
+_SAFE: dict[str, object] = {
+    "scale": "rr",
+    "estimate": 1.0,
+    "lower": np.nan,
+    "upper": np.nan,
+    "se": np.nan,
+    "sd": 1.0,
+    "contrast": 1.0,
+    "target": 1.0,
+}
+
+
+# --------------------------------------------------------------------------- confounders
+def confounder_bound(
+    result: EValueResult, rr_treatment: object, rr_outcome: object
+) -> ConfounderBound:
+    """The most a confounder with these two risk ratios could move the estimate.
+
+    Under the bounding factor B (Ding & VanderWeele 2016) the whole result, estimate and
+    both interval limits, moves by the same factor toward the target on the risk-ratio
+    scale: divided by B when the estimate lies above the target, multiplied when below. The
+    interval includes the target once the moved limit nearest it reaches it.
+    """
+    rr_t = require(rr_treatment, "rr_treatment", AT_LEAST_ONE)
+    rr_y = require(rr_outcome, "rr_outcome", AT_LEAST_ONE)
+    b = bounding_factor(rr_t, rr_y)
+    t = result.rr_target
+    above = result.rr >= t
+
+    def toward_target(value: np.ndarray) -> np.ndarray:
+        return np.where(above, value / b, value * b)
+
+    back = {"outcome": result.outcome, "sd": result.sd, "contrast": result.contrast}
+    rr = toward_target(result.rr)
+    reach_est = np.where(above, rr <= t, rr >= t) | (result.rr == t)
+    rr_lim = lim = reach_ci = None
+    if result.rr_ci is not None:
+        lo, up = result.rr_ci
+        nearest = np.where(above, lo, up)
+        rr_lim = toward_target(nearest)
+        reach_ci = np.where(above, rr_lim <= t, rr_lim >= t)
+        lim = from_risk_ratio(result.scale, rr_lim, **back)
+    return ConfounderBound(
+        source=result,
+        rr_treatment=rr_t,
+        rr_outcome=rr_y,
+        bounding_factor=b,
+        rr=rr,
+        rr_ci_limit=rr_lim,
+        estimate=from_risk_ratio(result.scale, rr, **back),
+        ci_limit=lim,
+        explains_estimate=reach_est,
+        explains_ci=reach_ci,
+    )
+
+
+def with_confounders(
+    result: EValueResult, rr_treatment: object, rr_outcome: object
+) -> EValueResult:
+    """`result` with `confounder_bound` attached (exported and summarised with it)."""
+    if not result.is_scalar:
+        raise InputError("attach confounders to a single result; use `confounder` for arrays")
+    rr_t = np.atleast_1d(as_array(rr_treatment, "rr_treatment"))
+    rr_y = np.atleast_1d(as_array(rr_outcome, "rr_outcome"))
+    return replace(result, confounders=confounder_bound(result, rr_t, rr_y))
+
+
+__all__ = [
+    "EVALUE_SCALES",
+    "RATIO_SCALES",
+    "SCALES",
+    "bounding_factor",
+    "confounder_bound",
+    "evalue",
+    "evalue_of_interval",
+    "evalue_of_rr",
+    "evalue_rows",
+    "from_risk_ratio",
+    "to_risk_ratio",
+    "with_confounders",
+]

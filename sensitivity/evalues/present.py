@@ -1,0 +1,175 @@
+"""E-value results in words and tables: the Document every view renders."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..common.results import plain
+from ..common.scales import SCALES
+from ..output.document import Document, prose, standard_tail
+from ..output.tables import Table, number
+from .result import ConfounderBound, EValueResult
+
+
+def _records(columns: dict) -> list[dict]:
+    cols = {k: plain(np.asarray(v)) for k, v in columns.items()}
+    n = max(len(v) for v in cols.values())
+    return [{k: v[i] for k, v in cols.items()} for i in range(n)]
+
+
+def _goal(result: EValueResult) -> str:
+    return (
+        "the null"
+        if result.target_is_null
+        else f"{float(np.asarray(result.target_value).flat[0]):g}"
+    )
+
+
+def estimate_table(result: EValueResult) -> Table:
+    mixed = not isinstance(result.scale, str)
+    code = "mixed" if mixed else result.scale
+    name = "Mixed scales" if mixed else SCALES[code].name.capitalize()
+    show_rr = code != "rr"
+    near = "null" if result.target_is_null else "target"
+    columns = ("", "Observed" if mixed else f"Observed ({code.upper()})")
+    columns += ("Risk-ratio scale",) if show_rr else ()
+    columns += ("E-value",)
+    rows = []
+    for i, rec in enumerate(_records(result.own_columns())):
+        label = "Estimate" if result.is_scalar else f"Estimate {i + 1}"
+        est = (label, number(rec["estimate"]))
+        est += (number(rec["rr"]),) if show_rr else ()
+        rows.append((*est, number(rec["evalue"])))
+        if rec["evalue_ci"] is None:
+            continue
+        lo_rr, up_rr = rec["rr_ci_lower"], rec["rr_ci_upper"]
+        lower_nearer = rec["rr"] >= rec["rr_target"]
+        observed = rec["ci_lower"] if lower_nearer else rec["ci_upper"]
+        if observed is None:  # interval from `se`: show its limit on the observed scale
+            from ..common.scales import from_risk_ratio
+
+            observed = float(
+                from_risk_ratio(
+                    rec["scale"],
+                    lo_rr if lower_nearer else up_rr,
+                    outcome=rec["outcome"],
+                    sd=rec["sd"],
+                    contrast=1.0 if rec["contrast"] is None else rec["contrast"],
+                )
+            )
+        limit = ("  CI limit nearest the " + near, number(observed))
+        limit += (number(lo_rr if lower_nearer else up_rr),) if show_rr else ()
+        rows.append((*limit, number(rec["evalue_ci"])))
+    conversion = result.conversion
+    foot = (
+        (f"Conversion to the risk-ratio scale: {conversion}.",)
+        if isinstance(conversion, str)
+        else ()
+    )
+    return Table(columns=columns, rows=tuple(rows), title=f"E-values: {name}", footnotes=foot)
+
+
+def sentence(result: EValueResult) -> str | None:
+    """One paste-ready sentence for a manuscript (scalar results only)."""
+    if not result.is_scalar:
+        return None
+    r = _records(result.own_columns())[0]
+    name = SCALES[result.scale].name
+    ci = ""
+    if r["ci_lower"] is not None:
+        ci = f" (CI {number(r['ci_lower'])} to {number(r['ci_upper'])})"
+    elif r["se"] is not None:
+        ci = f" (standard error {number(r['se'])})"
+    conv = ""
+    if result.scale != "rr" and not (result.scale in ("or", "hr") and result.outcome == "rare"):
+        conv = f", approximately a risk ratio of {number(r['rr'])},"
+    goal = _goal(result)
+    text = (
+        f"For the observed {name} of {number(r['estimate'])}{ci}{conv} an unmeasured "
+        f"confounder would need a risk ratio of at least {number(r['evalue'])} with both "
+        f"the treatment and the outcome, beyond the measured covariates, to move the "
+        f"estimate to {goal} (E-value)"
+    )
+    if r["evalue_ci"] is None:
+        return text + "."
+    if r["evalue_ci"] <= 1:
+        return text + f"; the confidence interval already includes {goal}."
+    return text + (
+        f"; a risk ratio of at least {number(r['evalue_ci'])} with both would move the "
+        f"confidence interval to include {goal}."
+    )
+
+
+def confounder_table(bound: ConfounderBound) -> Table:
+    src = bound.source
+    rows = []
+    for rec in _records(bound.columns()):
+        verdict = "estimate" if rec["explains_estimate"] else ""
+        if rec["explains_ci"]:
+            verdict = "estimate and CI" if verdict else "CI"
+        rows.append(
+            (
+                number(rec["rr_treatment"]),
+                number(rec["rr_outcome"]),
+                number(rec["bounding_factor"], 3),
+                number(rec["bias_adjusted_estimate"]),
+                number(rec["bias_adjusted_ci_limit"]),
+                verdict or "neither",
+            )
+        )
+    target = _goal(src)
+    return Table(
+        columns=(
+            "RR with treatment",
+            "RR with outcome",
+            "Bounding factor",
+            f"Estimate moved to ({str(src.scale).upper()})",
+            "CI limit moved to",
+            f"Reaches {target}",
+        ),
+        rows=tuple(rows),
+        title="Hypothetical confounder: the most it could move the result",
+    )
+
+
+def confounder_sentences(bound: ConfounderBound) -> list[str]:
+    """One sentence a hypothetical confounder: the reviewer's question answered."""
+    goal = _goal(bound.source)
+    out = []
+    for r in _records(bound.columns()):
+        text = (
+            f"A confounder with risk ratio {number(r['rr_treatment'])} with the treatment and "
+            f"{number(r['rr_outcome'])} with the outcome (bounding factor "
+            f"{number(r['bounding_factor'], 3)}) could move the estimate at most to "
+            f"{number(r['bias_adjusted_estimate'])}"
+        )
+        if r["bias_adjusted_ci_limit"] is not None:
+            text += f" and the nearest CI limit to {number(r['bias_adjusted_ci_limit'])}"
+        if r["explains_estimate"]:
+            text += f"; it could explain the estimate away (reach {goal})."
+        elif r["explains_ci"]:
+            text += f"; it could not explain the estimate away, but the CI could include {goal}."
+        else:
+            text += f"; it could not move the estimate or its CI to {goal}."
+        out.append(text)
+    return out
+
+
+def document(result: EValueResult | ConfounderBound) -> Document:
+    if isinstance(result, ConfounderBound):
+        return Document(
+            "Hypothetical confounders",
+            (confounder_table(result), prose(*confounder_sentences(result))),
+        )
+    lead = sentence(result)
+    conversion = result.conversion
+    blocks: list = [estimate_table(result)]
+    if isinstance(conversion, str):
+        blocks.append(prose(f"Conversion: {conversion}."))
+    if lead:
+        blocks.append(prose(lead, role="sentence"))
+    if result.confounders is not None:
+        blocks.append(confounder_table(result.confounders))
+        blocks.append(prose(*confounder_sentences(result.confounders)))
+    blocks += standard_tail(result.notes, result.cautions)
+    return Document("E-values", tuple(blocks), sentence=lead)

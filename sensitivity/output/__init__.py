@@ -1,0 +1,1 @@
+"""Presentation shared by every family: the Document, table renderers, writers and figures."""

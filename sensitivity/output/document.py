@@ -1,0 +1,107 @@
+"""The Document: one result's tables, sentences, notes and cautions, rendered every way.
+
+Each family's `present.document(result)` builds one; text, Markdown, LaTeX and HTML (the
+notebook view, and the report) all render the same blocks, so they cannot disagree.
+"""
+
+from __future__ import annotations
+
+import html
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+from .tables import Table, bullets, latex_escape, render, wrap
+
+
+@dataclass(frozen=True)
+class Prose:
+    """Lines of prose: each wrapped on its own line in text, a paragraph elsewhere."""
+
+    lines: tuple[str, ...]
+    role: str = "text"  # "sentence" marks paste-ready prose for a manuscript
+
+
+@dataclass(frozen=True)
+class Bullets:
+    heading: str
+    items: tuple[str, ...]
+
+
+Block = Table | Prose | Bullets
+
+
+@dataclass(frozen=True)
+class Document:
+    """A result laid out as blocks, in reading order."""
+
+    title: str
+    blocks: tuple[Block, ...]
+    sentence: str | None = None  # the one paste-ready sentence, where there is one
+    references: tuple[str, ...] = field(default=())
+
+    @property
+    def tables(self) -> list[Table]:
+        return [b for b in self.blocks if isinstance(b, Table)]
+
+    @property
+    def sentences(self) -> list[str]:
+        return [] if self.sentence is None else [self.sentence]
+
+    def render(self, fmt: str, *, tables_only: bool = False) -> str:
+        """The document as text, markdown, latex or html (`tables_only`: just the tables)."""
+        blocks = self.tables if tables_only else [b for b in self.blocks if _nonempty(b)]
+        if fmt == "html":
+            return "<div class='sensitivity-result'>" + "".join(_html(b) for b in blocks) + "</div>"
+        return "\n\n".join(_render(b, fmt) for b in blocks)
+
+
+def _nonempty(block: Block) -> bool:
+    if isinstance(block, Bullets):
+        return bool(block.items)
+    if isinstance(block, Prose):
+        return bool(block.lines)
+    return True
+
+
+def _render(block: Block, fmt: str) -> str:
+    if isinstance(block, Table):
+        return render(block, fmt)
+    if isinstance(block, Prose):
+        if fmt == "text":
+            return "\n".join(wrap(line) for line in block.lines)
+        if fmt == "latex":
+            return "\n\n".join(latex_escape(line) for line in block.lines)
+        return "\n\n".join(block.lines)
+    if fmt == "text":
+        return bullets(block.heading, block.items)
+    if fmt == "latex":
+        items = "\n".join(r"  \item " + latex_escape(i) for i in block.items)
+        return (
+            r"\paragraph{" + latex_escape(block.heading) + "}\n"
+            r"\begin{itemize}" + "\n" + items + "\n" + r"\end{itemize}"
+        )
+    return f"**{block.heading}**\n\n" + "\n".join(f"- {i}" for i in block.items)
+
+
+def _html(block: Block) -> str:
+    if isinstance(block, Table):
+        return render(block, "html")
+    if isinstance(block, Prose):
+        return "".join(f"<p>{html.escape(line)}</p>" for line in block.lines)
+    items = "".join(f"<li>{html.escape(i)}</li>" for i in block.items)
+    return f"<p><strong>{html.escape(block.heading)}</strong></p><ul>{items}</ul>"
+
+
+def prose(*lines: str, role: str = "text") -> Prose:
+    return Prose(tuple(line for line in lines if line), role)
+
+
+def standard_tail(
+    notes: Sequence[str], cautions: Sequence[str], assumptions: Sequence[str] = ()
+) -> tuple[Bullets, ...]:
+    """The closing blocks every result shares: assumptions, notes, cautions."""
+    return (
+        Bullets("Assumptions", tuple(assumptions)),
+        Bullets("Notes", tuple(notes)),
+        Bullets("Cautions", tuple(cautions)),
+    )

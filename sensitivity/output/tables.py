@@ -1,0 +1,268 @@
+"""A small table model and its renderers (text, Markdown, LaTeX, HTML), and the writers that
+carry large tables out as columns (CSV through pyarrow, JSON through orjson).
+
+Presenters build a `Table` of already formatted cells; this module only lays it out. It
+imports nothing costly at module level, so one-number commands stay fast.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from collections.abc import Iterator, Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+FORMATS = ("text", "json", "csv", "markdown", "latex")
+
+
+@dataclass(frozen=True)
+class Table:
+    columns: tuple[str, ...]
+    rows: tuple[tuple[str, ...], ...]
+    title: str = ""
+    footnotes: tuple[str, ...] = field(default=())
+
+
+def number(value, digits: int = 2) -> str:
+    """A fixed-decimals cell; missing values print as an en dash-free '-'."""
+    if value is None:
+        return "-"
+    value = float(value)
+    if math.isnan(value):
+        return "-"
+    if math.isinf(value):
+        return "inf" if value > 0 else "-inf"
+    return f"{value:.{digits}f}"
+
+
+def percent(value, digits: int = 1) -> str:
+    if value is None or math.isnan(float(value)):
+        return "-"
+    return f"{100 * float(value):.{digits}f}%"
+
+
+WIDTH = 92
+
+
+def wrap(text: str, indent: str = "") -> str:
+    """Wrap prose for a terminal; tables are never wrapped."""
+    import textwrap
+
+    return textwrap.fill(text, WIDTH, initial_indent=indent, subsequent_indent=" " * len(indent))
+
+
+def bullets(heading: str, items) -> str:
+    """A heading and one wrapped '- ' item a line; empty when there are no items."""
+    items = list(items)
+    if not items:
+        return ""
+    lines = [f"{heading}:"]
+    for item in items:
+        lines.append("- " + wrap(item, "  ")[2:])
+    return "\n".join(lines)
+
+
+def _text(table: Table) -> str:
+    cells = [table.columns, *table.rows]
+    widths = [max(len(row[i]) for row in cells) for i in range(len(table.columns))]
+
+    def line(row):
+        first = row[0].ljust(widths[0])
+        rest = [c.rjust(w) for c, w in zip(row[1:], widths[1:], strict=True)]
+        return "  ".join([first, *rest]).rstrip()
+
+    out = [table.title] if table.title else []
+    out += [line(table.columns), "  ".join("-" * w for w in widths)]
+    out += [line(r) for r in table.rows]
+    return "\n".join(out)
+
+
+def _markdown(table: Table) -> str:
+    def line(row):
+        return "| " + " | ".join(c.replace("|", "\\|") for c in row) + " |"
+
+    align = "|" + "|".join([":---"] + ["---:"] * (len(table.columns) - 1)) + "|"
+    out = [f"**{table.title}**", ""] if table.title else []
+    out += [line(table.columns), align, *map(line, table.rows)]
+    out += [""] + [f"*{n}*" for n in table.footnotes] if table.footnotes else []
+    return "\n".join(out)
+
+
+_LATEX_ESCAPES = {
+    "&": r"\&",
+    "%": r"\%",
+    "$": r"\$",
+    "#": r"\#",
+    "_": r"\_",
+    "{": r"\{",
+    "}": r"\}",
+    "~": r"\textasciitilde{}",
+    "^": r"\textasciicircum{}",
+    "\\": r"\textbackslash{}",
+    "²": r"\textsuperscript{2}",
+    "√": r"$\surd$",
+    "≥": r"$\geq$",
+    "≤": r"$\leq$",
+    "×": r"$\times$",
+    "−": "-",
+}
+
+
+def latex_escape(text: str) -> str:
+    return "".join(_LATEX_ESCAPES.get(ch, ch) for ch in text)
+
+
+def _latex(table: Table) -> str:
+    spec = "l" + "r" * (len(table.columns) - 1)
+    body = [" & ".join(latex_escape(c) for c in row) + r" \\" for row in table.rows]
+    out = [r"\begin{table}[ht]", r"\centering"]
+    if table.title:
+        out.append(r"\caption{" + latex_escape(table.title) + "}")
+    out += [r"\begin{tabular}{" + spec + "}", r"\toprule"]
+    out += [" & ".join(latex_escape(c) for c in table.columns) + r" \\", r"\midrule"]
+    out += body + [r"\bottomrule", r"\end{tabular}"]
+    if table.footnotes:
+        out.append(r"\par\smallskip{\footnotesize " + latex_escape(" ".join(table.footnotes)) + "}")
+    out.append(r"\end{table}")
+    return "\n".join(out)
+
+
+def _html(table: Table) -> str:
+    def esc(s):
+        return s.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+
+    head = "".join(f"<th>{esc(c)}</th>" for c in table.columns)
+    body = "".join(
+        "<tr>" + "".join(f"<td>{esc(c)}</td>" for c in row) + "</tr>" for row in table.rows
+    )
+    cap = f"<caption>{esc(table.title)}</caption>" if table.title else ""
+    return f"<table>{cap}<thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
+
+
+def render(table: Table, fmt: str) -> str:
+    """Lay out `table` as text, markdown, latex or html."""
+    return {"text": _text, "markdown": _markdown, "latex": _latex, "html": _html}[fmt](table)
+
+
+def columns_to_csv(columns: Mapping[str, np.ndarray], sink: Any = None) -> str | None:
+    """Columns (name -> 1-d array) as CSV through pyarrow's C++ writer, in batches.
+
+    NaN and None print as an empty cell, booleans as true/false. With `sink` (a path or a
+    binary file) the CSV is written there and None returned; otherwise it is returned as text.
+    """
+    import pyarrow as pa
+    import pyarrow.csv as pacsv
+
+    names = list(columns)
+    n = len(next(iter(columns.values()))) if names else 0
+    schema = None
+    out = io.BytesIO() if sink is None else sink
+    writer = None
+    try:
+        for start in range(0, max(n, 1), BATCH_ROWS):
+            table = pa.table(
+                {
+                    k: pa.array(np.asarray(v)[start : start + BATCH_ROWS], from_pandas=True)
+                    for k, v in columns.items()
+                }
+            )
+            if writer is None:
+                schema = table.schema
+                writer = pacsv.CSVWriter(
+                    out, schema, write_options=pacsv.WriteOptions(quoting_style="needed")
+                )
+            writer.write_table(table.cast(schema))
+    finally:
+        if writer is not None:
+            writer.close()
+    if sink is None:
+        return out.getvalue().decode("utf-8")
+    return None
+
+
+BATCH_ROWS = 65_536
+
+
+def _tokens(values: np.ndarray) -> list[bytes]:
+    """Each entry of a 1-d column as JSON bytes (NaN and infinities as null)."""
+    import orjson
+
+    values = np.asarray(values)
+    if values.dtype.kind in "fiub":
+        text = orjson.dumps(np.ascontiguousarray(values), option=orjson.OPT_SERIALIZE_NUMPY)
+        return text[1:-1].split(b",") if values.size else []
+    return [
+        orjson.dumps(v if not isinstance(v, float) or math.isfinite(v) else None)
+        for v in values.tolist()
+    ]
+
+
+def json_rows(
+    columns: Mapping[str, np.ndarray], layout: Sequence[tuple[str, Any]]
+) -> Iterator[bytes]:
+    """Stream the rows of a table as JSON objects, built from numpy columns in batches.
+
+    `layout` gives each row's keys in order: ``(key, column)`` for a plain value,
+    ``(key, [(key, column), ...])`` for a nested object and ``(key, (column, column))`` for a
+    pair. A pair whose first column is absent is written as null. Yields comma-separated
+    chunks of bytes (no brackets), so memory stays flat whatever the number of rows.
+    """
+    used: list[str] = []
+
+    def template(spec: Sequence[tuple[str, Any]]) -> bytes:
+        parts = []
+        for key, what in spec:
+            name = b'"' + key.encode() + b'":'
+            if isinstance(what, str):
+                used.append(what)
+                parts.append(name + b"%b")
+            elif isinstance(what, tuple):
+                if what[0] in columns:
+                    used.extend(what)
+                    parts.append(name + b"[%b,%b]")
+                else:
+                    parts.append(name + b"null")
+            else:
+                parts.append(name + template(what))
+        return b"{" + b",".join(parts) + b"}"
+
+    row = template(layout)
+    n = len(np.asarray(columns[used[0]])) if used else 0
+    for start in range(0, n, BATCH_ROWS):
+        stop = min(n, start + BATCH_ROWS)
+        toks = [_tokens(np.asarray(columns[c])[start:stop]) for c in used]
+        chunk = b",".join(row % vals for vals in zip(*toks, strict=True))
+        yield (b"," if start else b"") + chunk
+
+
+def write_json(items: Sequence[tuple[str, Any]], sink: Any, *, indent: bool) -> None:
+    """Write one JSON object whose values are plain data or row streams (`json_rows`).
+
+    Plain values go through orjson; a value that is an iterator of byte chunks is written as
+    a list, chunk by chunk. `indent` lays plain objects out for people (streamed rows stay
+    compact).
+    """
+    import orjson
+
+    opt = orjson.OPT_INDENT_2 if indent else 0
+    if all(not _is_stream(v) for _, v in items):
+        sink.write(orjson.dumps(dict(items), option=opt) + b"\n")
+        return
+    sink.write(b"{")
+    for i, (key, value) in enumerate(items):
+        sink.write((b"," if i else b"") + orjson.dumps(key) + b":")
+        if _is_stream(value):
+            sink.write(b"[")
+            for chunk in value:
+                sink.write(chunk)
+            sink.write(b"]")
+        else:
+            sink.write(orjson.dumps(value))
+    sink.write(b"}\n")
+
+
+def _is_stream(value: Any) -> bool:
+    return hasattr(value, "__next__")

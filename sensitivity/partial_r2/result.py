@@ -1,0 +1,181 @@
+"""Partial-R² results: numbers and inputs (the family's present module words them)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..common import notes as standing
+from ..common.results import Result, plain
+
+
+@dataclass(frozen=True, eq=False)
+class Scenario:
+    """One confounder strength and the bias-adjusted result under it."""
+
+    r2_treatment: float
+    r2_outcome: float
+    bias: float
+    estimate: float
+    se: float
+    t: float
+    ci: tuple[float, float]
+    kind: str = "hypothetical"  # or "benchmark"
+    benchmark: str | None = None
+    k_treatment: float | None = None
+    k_outcome: float | None = None
+    capped: bool = False
+
+    @property
+    def label(self) -> str:
+        """A short name built from the scenario's fields."""
+        if self.kind == "benchmark":
+            kt, ky = self.k_treatment, self.k_outcome
+            k = f"{kt:g}x" if kt == ky else f"{kt:g}x/{ky:g}x"
+            return f"{k} as strong as {self.benchmark}"
+        return f"R² {self.r2_treatment:.3g} / {self.r2_outcome:.3g}"
+
+    def to_dict(self) -> dict:
+        out = {
+            "label": self.label,
+            "kind": self.kind,
+            "r2_treatment": self.r2_treatment,
+            "r2_outcome": self.r2_outcome,
+            "bias": self.bias,
+            "bias_adjusted": {
+                "estimate": self.estimate,
+                "se": self.se,
+                "t": self.t,
+                "ci": list(self.ci),
+            },
+        }
+        if self.kind == "benchmark":
+            out |= {
+                "benchmark": self.benchmark,
+                "k_treatment": self.k_treatment,
+                "k_outcome": self.k_outcome,
+                "capped": self.capped,
+            }
+        return plain(out)
+
+
+@dataclass(frozen=True, eq=False)
+class CovariateStrength:
+    """An observed covariate (or categorical group): its own partial R² on each side."""
+
+    name: str
+    columns: tuple[str, ...]
+    r2_treatment: float
+    r2_outcome: float
+
+    def to_dict(self) -> dict:
+        return plain(
+            {
+                "name": self.name,
+                "columns": list(self.columns),
+                "r2_treatment": self.r2_treatment,
+                "r2_outcome": self.r2_outcome,
+            }
+        )
+
+
+@dataclass(frozen=True, eq=False, repr=False)
+class PartialR2Result(Result):
+    """Partial-R² sensitivity of one OLS coefficient, with its inputs and scenarios."""
+
+    estimate: float
+    se: float
+    dof: float
+    t: float
+    partial_r2: float
+    fraction: float
+    alpha: float
+    robustness_value: float
+    robustness_value_alpha: float
+    treatment: str | None = None
+    outcome: str | None = None
+    n: int | None = None
+    scenarios: tuple[Scenario, ...] = ()
+    covariates: tuple[CovariateStrength, ...] | None = None
+    evalue: object | None = None  # an EValueResult through the SMD conversion, if available
+    notes: tuple[str, ...] = ()
+    cautions: tuple[str, ...] = standing.PARTIAL_R2
+    assumptions: tuple[str, ...] = field(
+        default=(
+            "OLS with classical (homoskedastic) standard errors.",
+            "A single hidden confounder (or a linear combination of several), entering the "
+            "outcome model linearly.",
+            "Benchmarks: the confounder is orthogonal to the benchmark covariate given the others.",
+        )
+    )
+    is_scalar = True
+    _repr_fields = ("estimate", "se", "dof", "robustness_value", "robustness_value_alpha")
+
+    # ----------------------------------------------------------------- derived views
+    def with_scenarios(self, extra) -> PartialR2Result:
+        from dataclasses import replace
+
+        return replace(self, scenarios=self.scenarios + tuple(extra))
+
+    # ----------------------------------------------------------------- export
+    def to_dict(self) -> dict:
+        out = {
+            "treatment": self.treatment,
+            "outcome": self.outcome,
+            "n": self.n,
+            "estimate": self.estimate,
+            "se": self.se,
+            "dof": self.dof,
+            "t": self.t,
+            "partial_r2": self.partial_r2,
+            "fraction": self.fraction,
+            "alpha": self.alpha,
+            "robustness_value": self.robustness_value,
+            "robustness_value_alpha": self.robustness_value_alpha,
+            "scenarios": [s.to_dict() for s in self.scenarios],
+        }
+        if self.covariates is not None:
+            out["covariates"] = [c.to_dict() for c in self.covariates]
+        if self.evalue is not None:
+            e = self.evalue
+            out["evalue"] = {
+                "evalue": e.evalue,
+                "evalue_ci": e.evalue_ci,
+                "rr": e.rr,
+                "rr_ci": None if e.rr_ci is None else list(e.rr_ci),
+                "sd_outcome": e.sd,
+                "conversion": e.conversion,
+            }
+        out["assumptions"] = list(self.assumptions)
+        out["notes"] = list(self.all_notes())
+        return plain(out)
+
+    def records(self) -> list[dict]:
+        """One flat row a scenario (or one row with no scenarios), for CSV."""
+        base = {
+            k: v
+            for k, v in self.to_dict().items()
+            if k not in ("scenarios", "covariates", "evalue", "notes", "assumptions")
+        }
+        rows = []
+        for s in self.scenarios or [None]:
+            row = dict(base)
+            if s is not None:
+                d = s.to_dict()
+                adj = d.pop("bias_adjusted")
+                row |= {f"scenario_{k}": v for k, v in d.items()}
+                row |= {
+                    "bias_adjusted_estimate": adj["estimate"],
+                    "bias_adjusted_se": adj["se"],
+                    "bias_adjusted_t": adj["t"],
+                    "bias_adjusted_ci_lower": adj["ci"][0],
+                    "bias_adjusted_ci_upper": adj["ci"][1],
+                }
+            rows.append(row)
+        return rows
+
+    def columns(self) -> dict[str, np.ndarray]:
+        """One row a scenario (or one row with no scenarios), for CSV."""
+        rows = self.records()
+        return {k: np.asarray([r[k] for r in rows], dtype=object) for k in rows[0]}
