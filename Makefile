@@ -24,7 +24,7 @@ bench: $(STAMP)
 	$(BIN)/python bench/bench.py
 
 lint: $(STAMP)
-	$(BIN)/ruff check . && $(BIN)/ruff format --check .
+	$(BIN)/ruff check . && $(BIN)/ruff format --check . && $(BIN)/mypy
 
 clean:
 	rm -rf $(VENV) build *.egg-info .pytest_cache .hypothesis

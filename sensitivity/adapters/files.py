@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Any
 
 from ..common.errors import InputError
 
@@ -18,7 +19,7 @@ READERS = {
 }
 
 
-def read_table(path, argument: str = "data"):
+def read_table(path: str | Path, argument: str = "data") -> Any:
     """A pandas DataFrame from `path`; ValueError names `argument` for any unreadable file."""
     import pandas as pd
 

@@ -9,8 +9,11 @@ from __future__ import annotations
 
 import re
 import warnings
+from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ..common.checks import POSITIVE, require
 from ..common.errors import InputError, InputTypeError, SensitivityWarning
@@ -98,7 +101,9 @@ def _group_r2(params, cov, dof, cols):
     return float(partial_r2_of_f(f_stat, len(cols), dof))
 
 
-def covariate_strengths(results, treatment_index, groups, intercepts):
+def covariate_strengths(
+    results: Any, treatment_index: int, groups: dict[str, list[int]], intercepts: set[int]
+) -> tuple[CovariateStrength, ...]:
     """Every observed covariate's (or group's) partial R² with the treatment and the outcome.
 
     Two fits: the outcome model given, and one OLS of the treatment on the other columns.
@@ -158,18 +163,18 @@ def _k_pairs(times, times_pairs):
 
 # --------------------------------------------------------------------------- entry points
 def partial_r2_from_model(
-    results,
-    treatment,
+    results: Any,
+    treatment: str,
     *,
-    fraction=1.0,
-    alpha=0.05,
-    benchmarks=(),
-    times=None,
-    times_pairs=(),
-    r2_treatment=None,
-    r2_outcome=None,
-    contrast=1.0,
-    notes=(),
+    fraction: float = 1.0,
+    alpha: float = 0.05,
+    benchmarks: Sequence[str] = (),
+    times: Sequence[float] | None = None,
+    times_pairs: Sequence[tuple[float, float]] = (),
+    r2_treatment: ArrayLike | None = None,
+    r2_outcome: ArrayLike | None = None,
+    contrast: float = 1.0,
+    notes: Sequence[str] = (),
 ) -> PartialR2Result:
     """Partial-R² sensitivity of the `treatment` coefficient of a fitted statsmodels OLS model.
 
@@ -249,7 +254,7 @@ def partial_r2_from_model(
     )
 
 
-def fit_formula(data, formula):
+def fit_formula(data: Any, formula: str) -> tuple[Any, list[str]]:
     """Fit OLS of `formula` on a DataFrame; ValueError names `formula` for any problem."""
     import statsmodels.formula.api as smf
     from pandas.api.types import is_numeric_dtype
@@ -280,7 +285,9 @@ def fit_formula(data, formula):
     return results, notes
 
 
-def partial_r2_from_data(data, formula, treatment, **options) -> PartialR2Result:
+def partial_r2_from_data(
+    data: Any, formula: str, treatment: str, **options: Any
+) -> PartialR2Result:
     """Fit `formula` by OLS on `data` (a DataFrame or a file path) and analyse `treatment`.
 
     Categorical covariates (strings or ``C(x)``) work and benchmark as one group. Options are

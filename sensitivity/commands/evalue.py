@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import click
 
 from sensitivity.commands import COMMANDS
@@ -79,8 +81,19 @@ SHORT_HELP = COMMANDS["evalue"][1]
 )
 @format_options
 def evalue_cmd(
-    scale, estimate, ci, se, sd, contrast, outcome, prevalence, target, confounders, fmt, output
-):
+    scale: Any,
+    estimate: Any,
+    ci: Any,
+    se: Any,
+    sd: Any,
+    contrast: Any,
+    outcome: Any,
+    prevalence: Any,
+    target: Any,
+    confounders: Any,
+    fmt: Any,
+    output: Any,
+) -> None:
     """E-value of ESTIMATE on SCALE: rr, or, hr, smd or md.
 
     \b

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import click
 
 from sensitivity.commands import COMMANDS
@@ -84,27 +86,27 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
 )
 @format_options
 def partial_r2_cmd(
-    estimate,
-    se,
-    t_stat,
-    dof,
-    data,
-    formula,
-    treatment,
-    fraction,
-    alpha,
-    benchmarks,
-    times,
-    times_pairs,
-    r2_treatment,
-    r2_outcome,
-    sd,
-    contrast,
-    plot,
-    plot_statistic,
-    fmt,
-    output,
-):
+    estimate: Any,
+    se: Any,
+    t_stat: Any,
+    dof: Any,
+    data: Any,
+    formula: Any,
+    treatment: Any,
+    fraction: Any,
+    alpha: Any,
+    benchmarks: Any,
+    times: Any,
+    times_pairs: Any,
+    r2_treatment: Any,
+    r2_outcome: Any,
+    sd: Any,
+    contrast: Any,
+    plot: Any,
+    plot_statistic: Any,
+    fmt: Any,
+    output: Any,
+) -> None:
     """Partial-R² sensitivity of a linear-regression (OLS) coefficient.
 
     Give summary numbers (--estimate with --se or --t, and --dof), or data (--data, --formula,

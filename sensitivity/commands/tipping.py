@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import click
 
 from sensitivity.commands import COMMANDS
@@ -66,26 +68,26 @@ SHORT_HELP = COMMANDS["tipping"][1]
 )
 @format_options
 def tipping_cmd(
-    kind,
-    scale,
-    estimate,
-    ci,
-    target,
-    prevalence_treated,
-    prevalence_control,
-    outcome_effect,
-    rr_treatment,
-    rr_outcome,
-    outcome,
-    se,
-    dof,
-    alpha,
-    r2_treatment,
-    r2_outcome,
-    plot,
-    fmt,
-    output,
-):
+    kind: Any,
+    scale: Any,
+    estimate: Any,
+    ci: Any,
+    target: Any,
+    prevalence_treated: Any,
+    prevalence_control: Any,
+    outcome_effect: Any,
+    rr_treatment: Any,
+    rr_outcome: Any,
+    outcome: Any,
+    se: Any,
+    dof: Any,
+    alpha: Any,
+    r2_treatment: Any,
+    r2_outcome: Any,
+    plot: Any,
+    fmt: Any,
+    output: Any,
+) -> None:
     """Tipping-point grid: where does the conclusion tip under a hidden confounder?
 
     Each strength is a single value or a range START:STOP:STEP; the grid is every

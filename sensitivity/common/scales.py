@@ -115,7 +115,7 @@ def _hr_common_inverse(rr: np.ndarray) -> np.ndarray:
 
 
 # --------------------------------------------------------------------------- conversions
-def _route(scale_codes, outcome) -> dict[str, np.ndarray]:
+def _route(scale_codes: object, outcome: object) -> dict[str, np.ndarray]:
     """Masks, per row, of each conversion route."""
     s = np.asarray(scale_codes, dtype=object)
     o = np.asarray("" if outcome is None else outcome, dtype=object)
@@ -130,7 +130,14 @@ def _route(scale_codes, outcome) -> dict[str, np.ndarray]:
     }
 
 
-def _apply(scale_codes, values, outcome, sd, contrast, forward: bool) -> np.ndarray:
+def _apply(
+    scale_codes: object,
+    values: object,
+    outcome: object,
+    sd: object,
+    contrast: object,
+    forward: bool,
+) -> np.ndarray:
     x = np.asarray(values, float)
     sd_arr = np.asarray(np.nan if sd is None else sd, float)
     c_arr = np.asarray(contrast, float)

@@ -285,7 +285,15 @@ def _text(value: object) -> np.ndarray:
 
 
 def _inputs(
-    scale, estimate, ci, se, sd, contrast, outcome, prevalence, target
+    scale: object,
+    estimate: object,
+    ci: tuple[object, object] | None,
+    se: object,
+    sd: object,
+    contrast: object,
+    outcome: object,
+    prevalence: object,
+    target: object,
 ) -> dict[str, np.ndarray]:
     if ci is not None:
         if len(ci) != 2:
@@ -427,7 +435,7 @@ def evalue(
     )
 
 
-def _outcome_value(freq: np.ndarray) -> object:
+def _outcome_value(freq: np.ndarray) -> str | np.ndarray | None:
     if freq.ndim == 0:
         return str(freq) or None
     if np.all(freq == freq.flat[0]):
@@ -435,7 +443,9 @@ def _outcome_value(freq: np.ndarray) -> object:
     return freq
 
 
-def _notes(values, freq, out, null_target: bool) -> list[str]:
+def _notes(
+    values: dict[str, np.ndarray], freq: np.ndarray, out: dict[str, np.ndarray], null_target: bool
+) -> list[str]:
     """Conversions applied and degenerate input, in words (single results)."""
     notes: list[str] = []
     p = values["prevalence"]
@@ -496,7 +506,7 @@ def evalue_rows(columns: dict[str, object], n: int) -> tuple[dict[str, np.ndarra
     reasons = flags(values, CHECKS, n)
     good = reasons == ""
     freq = _frequency(values)
-    safe = {k: np.where(good, v, _SAFE.get(k, v)) for k, v in values.items()}
+    safe = {k: np.where(good, v, np.asarray(_SAFE.get(k, v))) for k, v in values.items()}
     out = compute(
         safe["scale"],
         safe["estimate"],

@@ -27,17 +27,17 @@ def _goal(result: EValueResult) -> str:
 
 def estimate_table(result: EValueResult) -> Table:
     mixed = not isinstance(result.scale, str)
-    code = "mixed" if mixed else result.scale
+    code = "mixed" if mixed else str(result.scale)
     name = "Mixed scales" if mixed else SCALES[code].name.capitalize()
     show_rr = code != "rr"
     near = "null" if result.target_is_null else "target"
-    columns = ("", "Observed" if mixed else f"Observed ({code.upper()})")
+    columns: tuple[str, ...] = ("", "Observed" if mixed else f"Observed ({code.upper()})")
     columns += ("Risk-ratio scale",) if show_rr else ()
     columns += ("E-value",)
-    rows = []
+    rows: list[tuple[str, ...]] = []
     for i, rec in enumerate(_records(result.own_columns())):
         label = "Estimate" if result.is_scalar else f"Estimate {i + 1}"
-        est = (label, number(rec["estimate"]))
+        est: tuple[str, ...] = (label, number(rec["estimate"]))
         est += (number(rec["rr"]),) if show_rr else ()
         rows.append((*est, number(rec["evalue"])))
         if rec["evalue_ci"] is None:
@@ -57,7 +57,7 @@ def estimate_table(result: EValueResult) -> Table:
                     contrast=1.0 if rec["contrast"] is None else rec["contrast"],
                 )
             )
-        limit = ("  CI limit nearest the " + near, number(observed))
+        limit: tuple[str, ...] = ("  CI limit nearest the " + near, number(observed))
         limit += (number(lo_rr if lower_nearer else up_rr),) if show_rr else ()
         rows.append((*limit, number(rec["evalue_ci"])))
     conversion = result.conversion
@@ -74,7 +74,7 @@ def sentence(result: EValueResult) -> str | None:
     if not result.is_scalar:
         return None
     r = _records(result.own_columns())[0]
-    name = SCALES[result.scale].name
+    name = SCALES[str(result.scale)].name
     ci = ""
     if r["ci_lower"] is not None:
         ci = f" (CI {number(r['ci_lower'])} to {number(r['ci_upper'])})"

@@ -7,6 +7,7 @@ no display is needed and one-number commands never pay for it.
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -15,7 +16,7 @@ from ..common.errors import InputError
 PLOT_FORMATS = (".png", ".svg", ".pdf")
 
 
-def check_plot_path(path, argument: str = "plot") -> Path:
+def check_plot_path(path: str | Path, argument: str = "plot") -> Path:
     """Refuse an unsupported extension or a missing folder before any work is done."""
     p = Path(path)
     if p.suffix.lower() not in PLOT_FORMATS:
@@ -34,12 +35,12 @@ def _pyplot():
     return plt
 
 
-def _save(fig, path) -> None:
+def _save(fig: Any, path: str | Path) -> None:
     fig.savefig(path, dpi=150, bbox_inches="tight")
     _pyplot().close(fig)
 
 
-def _r2_limit(result) -> float:
+def _r2_limit(result: Any) -> float:
     """Axis range: room for the robustness value and every scenario point."""
     pts = [result.robustness_value * 1.6, 0.1]
     pts += [max(s.r2_treatment, s.r2_outcome) * 1.25 for s in result.scenarios]
@@ -55,7 +56,13 @@ def _percent_axes(ax, lim, ylim=None):
     ax.yaxis.set_major_formatter(PercentFormatter(1.0, decimals=None))
 
 
-def partial_r2_contours(result, path, statistic: str = "estimate", limit=None, size: int = 241):
+def partial_r2_contours(
+    result: Any,
+    path: str | Path,
+    statistic: str = "estimate",
+    limit: float | None = None,
+    size: int = 241,
+) -> Path:
     """Contours of the bias-adjusted estimate (or t) over the two partial R² of a confounder.
 
     Draws the target contour (estimate reaches zero, or (1 - fraction) times itself), the
@@ -145,7 +152,7 @@ AXIS_LABELS = {
 }
 
 
-def tipping_figure(result, path):
+def tipping_figure(result: Any, path: str | Path) -> Path:
     """Heat map of the bias-adjusted estimate over the two varying strengths, with the
     tipping lines (estimate and interval reach the target) drawn and labelled; a line chart
     when only one strength varies."""

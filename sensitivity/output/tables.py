@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import io
 import math
-from collections.abc import Iterator, Mapping, Sequence
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -26,7 +26,7 @@ class Table:
     footnotes: tuple[str, ...] = field(default=())
 
 
-def number(value, digits: int = 2) -> str:
+def number(value: float | np.ndarray | None, digits: int = 2) -> str:
     """A fixed-decimals cell; missing values print as an en dash-free '-'."""
     if value is None:
         return "-"
@@ -38,7 +38,7 @@ def number(value, digits: int = 2) -> str:
     return f"{value:.{digits}f}"
 
 
-def percent(value, digits: int = 1) -> str:
+def percent(value: float | np.ndarray | None, digits: int = 1) -> str:
     if value is None or math.isnan(float(value)):
         return "-"
     return f"{100 * float(value):.{digits}f}%"
@@ -54,7 +54,7 @@ def wrap(text: str, indent: str = "") -> str:
     return textwrap.fill(text, WIDTH, initial_indent=indent, subsequent_indent=" " * len(indent))
 
 
-def bullets(heading: str, items) -> str:
+def bullets(heading: str, items: Iterable[str]) -> str:
     """A heading and one wrapped '- ' item a line; empty when there are no items."""
     items = list(items)
     if not items:

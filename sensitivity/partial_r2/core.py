@@ -16,16 +16,19 @@ Journal of the Royal Statistical Society, Series B 82:39-67.
 from __future__ import annotations
 
 import warnings
+from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ..common.checks import DOF as DOF_RULE
 from ..common.checks import OPEN_UNIT, POSITIVE, R2_STRENGTH, require
 from ..common.errors import InputError, SensitivityWarning
-from .result import PartialR2Result, Scenario
+from .result import CovariateStrength, PartialR2Result, Scenario
 
 
-def t_critical(alpha, dof):
+def t_critical(alpha: float, dof: ArrayLike) -> np.ndarray:
     """Two-sided Student-t critical value at level `alpha` on `dof` degrees of freedom."""
     from scipy.special import stdtrit
 
@@ -33,7 +36,7 @@ def t_critical(alpha, dof):
 
 
 # --------------------------------------------------------------------------- formulas
-def partial_r2_of_t(t, dof):
+def partial_r2_of_t(t: ArrayLike, dof: ArrayLike) -> np.ndarray:
     """Partial R² of a regressor with the outcome from its t statistic: t² / (t² + dof).
 
     Examples
@@ -47,7 +50,7 @@ def partial_r2_of_t(t, dof):
     return t2 / (t2 + np.asarray(dof, float))
 
 
-def partial_r2_of_f(f_stat, df_num, dof):
+def partial_r2_of_f(f_stat: ArrayLike, df_num: ArrayLike, dof: ArrayLike) -> np.ndarray:
     """Partial R² of a group of `df_num` regressors from their joint Wald F statistic.
 
     ``F q / (F q + dof)``; with one regressor (F = t²) this is `partial_r2_of_t`.
@@ -56,7 +59,9 @@ def partial_r2_of_f(f_stat, df_num, dof):
     return fq / (fq + np.asarray(dof, float))
 
 
-def robustness_value(t, dof, fraction=1.0, alpha=None):
+def robustness_value(
+    t: ArrayLike, dof: ArrayLike, fraction: ArrayLike = 1.0, alpha: float | None = None
+) -> np.ndarray:
     """Robustness value: the equal partial R² (with treatment and outcome) that suffices.
 
     Parameters
@@ -115,7 +120,9 @@ def _rv_curve(f):
     return (np.sqrt(f2**2 + 4 * f2) - f2) / 2
 
 
-def bias(se, dof, r2_treatment, r2_outcome):
+def bias(
+    se: ArrayLike, dof: ArrayLike, r2_treatment: ArrayLike | None, r2_outcome: ArrayLike | None
+) -> np.ndarray:
     """|Bias| of the coefficient from a confounder of the given strengths.
 
     ``se sqrt(dof) sqrt(r2_outcome r2_treatment / (1 - r2_treatment))`` (Cinelli & Hazlett
@@ -126,17 +133,27 @@ def bias(se, dof, r2_treatment, r2_outcome):
     return np.asarray(se, float) * np.sqrt(dof) * np.sqrt(r2y * r2t / (1 - r2t))
 
 
-def se_with_confounder(se, dof, r2_treatment, r2_outcome):
+def se_with_confounder(
+    se: ArrayLike, dof: ArrayLike, r2_treatment: ArrayLike | None, r2_outcome: ArrayLike | None
+) -> np.ndarray:
     """Standard error the coefficient would have with the confounder in the model.
 
     ``se sqrt((1 - r2_outcome) / (1 - r2_treatment)) sqrt(dof / (dof - 1))``.
     """
     r2t = np.asarray(r2_treatment, float)
     r2y = np.asarray(r2_outcome, float)
-    return np.asarray(se, float) * np.sqrt((1 - r2y) / (1 - r2t)) * np.sqrt(dof / (dof - 1))
+    d = np.asarray(dof, float)
+    return np.asarray(se, float) * np.sqrt((1 - r2y) / (1 - r2t)) * np.sqrt(d / (d - 1))
 
 
-def bias_adjusted(estimate, se, dof, r2_treatment, r2_outcome, alpha=0.05):
+def bias_adjusted(
+    estimate: ArrayLike,
+    se: ArrayLike,
+    dof: ArrayLike,
+    r2_treatment: ArrayLike | None,
+    r2_outcome: ArrayLike | None,
+    alpha: float = 0.05,
+) -> dict[str, np.ndarray]:
     """Estimate, se, t and CI with a confounder of the given strengths (broadcasting).
 
     The bias is taken in the direction that shrinks |estimate| toward zero (the adverse
@@ -165,7 +182,12 @@ def bias_adjusted(estimate, se, dof, r2_treatment, r2_outcome, alpha=0.05):
     }
 
 
-def benchmark_strengths(r2_treatment_cov, r2_outcome_cov, k_treatment=1.0, k_outcome=None):
+def benchmark_strengths(
+    r2_treatment_cov: ArrayLike,
+    r2_outcome_cov: ArrayLike,
+    k_treatment: ArrayLike = 1.0,
+    k_outcome: ArrayLike | None = None,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Strengths of a confounder k times as strong as an observed covariate (or group).
 
     Parameters
@@ -224,7 +246,9 @@ def _k_max(r):
 
 
 # --------------------------------------------------------------------------- entry point
-def _check_summary(estimate, se, dof, t, fraction, alpha):
+def _check_summary(
+    estimate: object, se: object, dof: object, t: object, fraction: object, alpha: object
+) -> tuple[float, float, float, float, float]:
     est = float(require(estimate, "estimate"))
     if se is not None and t is not None:
         raise InputError("give `se` or `t`, not both")
@@ -244,7 +268,14 @@ def _check_summary(estimate, se, dof, t, fraction, alpha):
     return est, se, dof, fraction, alpha
 
 
-def hypothetical_scenarios(estimate, se, dof, r2_treatment, r2_outcome, alpha):
+def hypothetical_scenarios(
+    estimate: ArrayLike,
+    se: ArrayLike,
+    dof: ArrayLike,
+    r2_treatment: ArrayLike | None,
+    r2_outcome: ArrayLike | None,
+    alpha: float,
+) -> list[Scenario]:
     """Scenarios for confounders of chosen strengths (`r2_*` are equal-length sequences)."""
     r2t = np.atleast_1d(require(r2_treatment, "r2_treatment", R2_STRENGTH))
     r2y = np.atleast_1d(require(r2_outcome, "r2_outcome", R2_STRENGTH))
@@ -269,7 +300,14 @@ def hypothetical_scenarios(estimate, se, dof, r2_treatment, r2_outcome, alpha):
     return out
 
 
-def benchmark_scenarios(estimate, se, dof, covariate, k_pairs, alpha):
+def benchmark_scenarios(
+    estimate: ArrayLike,
+    se: ArrayLike,
+    dof: ArrayLike,
+    covariate: CovariateStrength,
+    k_pairs: Sequence[tuple[float, float]],
+    alpha: float,
+) -> list[Scenario]:
     """Scenarios for confounders k times as strong as `covariate` (a CovariateStrength)."""
     out = []
     for kt, ky in k_pairs:
@@ -303,17 +341,17 @@ def benchmark_scenarios(estimate, se, dof, covariate, k_pairs, alpha):
 
 
 def partial_r2_summary(
-    estimate,
-    se=None,
-    dof=None,
+    estimate: ArrayLike,
+    se: float | None = None,
+    dof: float | None = None,
     *,
-    t=None,
-    fraction=1.0,
-    alpha=0.05,
-    r2_treatment=None,
-    r2_outcome=None,
-    sd_outcome=None,
-    contrast=1.0,
+    t: float | None = None,
+    fraction: float = 1.0,
+    alpha: float = 0.05,
+    r2_treatment: ArrayLike | None = None,
+    r2_outcome: ArrayLike | None = None,
+    sd_outcome: float | None = None,
+    contrast: float = 1.0,
 ) -> PartialR2Result:
     """Partial-R² sensitivity of an OLS coefficient from its summary numbers.
 
@@ -366,23 +404,23 @@ def partial_r2_summary(
     )
 
 
-def _per(contrast) -> str:
+def _per(contrast: float) -> str:
     return "" if contrast == 1 else f" per {contrast:g} units of treatment"
 
 
 def assemble(
-    est,
-    se,
-    dof,
+    est: float,
+    se: float,
+    dof: float,
     *,
-    fraction,
-    alpha,
-    r2_treatment=None,
-    r2_outcome=None,
-    sd_outcome=None,
-    contrast=1.0,
-    scenarios=(),
-    **context,
+    fraction: float,
+    alpha: float,
+    r2_treatment: ArrayLike | None = None,
+    r2_outcome: ArrayLike | None = None,
+    sd_outcome: float | None = None,
+    contrast: float = 1.0,
+    scenarios: Sequence[Scenario] = (),
+    **context: Any,
 ) -> PartialR2Result:
     """Build the result from checked numbers; adapters add covariates and benchmarks."""
     if (r2_treatment is None) != (r2_outcome is None):
@@ -404,7 +442,7 @@ def assemble(
     if ev is not None:
         notes.append(
             f"E-value: the coefficient{_per(contrast)} standardised by the outcome's SD "
-            f"({float(ev.sd):.4g}) and mapped to a risk ratio with exp(0.91 d) (VanderWeele & "
+            f"({sd:.4g}) and mapped to a risk ratio with exp(0.91 d) (VanderWeele & "
             "Ding 2017); it answers the same question on the risk-ratio scale."
         )
     return PartialR2Result(
@@ -424,7 +462,14 @@ def assemble(
     )
 
 
-def surface(estimate, se, dof, r2_treatment, r2_outcome, alpha=0.05):
+def surface(
+    estimate: ArrayLike,
+    se: ArrayLike,
+    dof: ArrayLike,
+    r2_treatment: ArrayLike | None,
+    r2_outcome: ArrayLike | None,
+    alpha: float = 0.05,
+) -> dict[str, np.ndarray]:
     """`bias_adjusted` over the grid of two 1-d strength vectors (rows: r2_treatment).
 
     The shared computation behind the contour figure and the partial-R² tipping grid.

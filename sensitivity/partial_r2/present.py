@@ -4,20 +4,25 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..output.document import Document, prose, standard_tail
+from ..output.document import Block, Document, prose, standard_tail
 from ..output.tables import Table, number, percent
-from .result import PartialR2Result
+from .result import PartialR2Result, Scenario
 
 
-def _per(contrast) -> str:
+def _per(contrast: float | np.ndarray) -> str:
     return "" if contrast == 1 else f" per {float(contrast):g} units of treatment"
+
+
+def _k(s: Scenario) -> float:
+    """A benchmark scenario's larger multiple (its strength, for ranking)."""
+    return max(s.k_treatment or 0.0, s.k_outcome or 0.0)
 
 
 def _level(r: PartialR2Result) -> str:
     return f"{1 - r.alpha:.0%}"
 
 
-def _num(r: PartialR2Result, x) -> str:
+def _num(r: PartialR2Result, x: float | None) -> str:
     """Estimate-scale numbers with decimals set by the se (two significant digits of it)."""
     digits = int(min(8, max(2, 1 - np.floor(np.log10(r.se)))))
     return number(x, digits)
@@ -122,14 +127,12 @@ def sentence(r: PartialR2Result) -> str:
         )
     bench = [s for s in r.scenarios if s.kind == "benchmark"]
     if bench:
-        k_min = min(max(s.k_treatment, s.k_outcome) for s in bench)
-        s = max(
-            (s for s in bench if max(s.k_treatment, s.k_outcome) == k_min), key=lambda s: s.bias
-        )
+        k_min = min(_k(s) for s in bench)
+        s = max((s for s in bench if _k(s) == k_min), key=lambda s: s.bias)
         target = (1 - q) * r.estimate
         flips = s.estimate == 0 or (s.estimate - target) * (r.estimate - target) < 0
         covers = s.ci[0] <= target <= s.ci[1]
-        k = s.label.split(" as strong as ")[0]
+        k = s.label_multiple
         text += (
             f". A confounder {k} as strong as `{s.benchmark}` (the strongest "
             f"benchmark at that multiple) would move it to {_num(r, s.estimate)} "
@@ -146,6 +149,6 @@ def sentence(r: PartialR2Result) -> str:
 
 def document(r: PartialR2Result) -> Document:
     lead = sentence(r)
-    blocks = (*tables(r), prose(lead, role="sentence"))
+    blocks: tuple[Block, ...] = (*tables(r), prose(lead, role="sentence"))
     blocks += standard_tail(r.notes, r.cautions, r.assumptions)
     return Document("Partial-R² sensitivity", blocks, sentence=lead)

@@ -2,12 +2,17 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from ..common import notes as standing
 from ..common.results import Result, plain
+
+if TYPE_CHECKING:
+    from ..evalues.result import EValueResult
 
 
 @dataclass(frozen=True, eq=False)
@@ -28,12 +33,16 @@ class Scenario:
     capped: bool = False
 
     @property
+    def label_multiple(self) -> str:
+        """The multiples as written in a label: "2x", or "1x/3x" when the sides differ."""
+        kt, ky = self.k_treatment, self.k_outcome
+        return f"{kt:g}x" if kt == ky else f"{kt:g}x/{ky:g}x"
+
+    @property
     def label(self) -> str:
         """A short name built from the scenario's fields."""
         if self.kind == "benchmark":
-            kt, ky = self.k_treatment, self.k_outcome
-            k = f"{kt:g}x" if kt == ky else f"{kt:g}x/{ky:g}x"
-            return f"{k} as strong as {self.benchmark}"
+            return f"{self.label_multiple} as strong as {self.benchmark}"
         return f"R² {self.r2_treatment:.3g} / {self.r2_outcome:.3g}"
 
     def to_dict(self) -> dict:
@@ -98,7 +107,7 @@ class PartialR2Result(Result):
     n: int | None = None
     scenarios: tuple[Scenario, ...] = ()
     covariates: tuple[CovariateStrength, ...] | None = None
-    evalue: object | None = None  # an EValueResult through the SMD conversion, if available
+    evalue: EValueResult | None = None  # an EValueResult through the SMD conversion, if available
     notes: tuple[str, ...] = ()
     cautions: tuple[str, ...] = standing.PARTIAL_R2
     assumptions: tuple[str, ...] = field(
@@ -113,14 +122,14 @@ class PartialR2Result(Result):
     _repr_fields = ("estimate", "se", "dof", "robustness_value", "robustness_value_alpha")
 
     # ----------------------------------------------------------------- derived views
-    def with_scenarios(self, extra) -> PartialR2Result:
+    def with_scenarios(self, extra: Sequence[Scenario]) -> PartialR2Result:
         from dataclasses import replace
 
         return replace(self, scenarios=self.scenarios + tuple(extra))
 
     # ----------------------------------------------------------------- export
     def to_dict(self) -> dict:
-        out = {
+        out: dict[str, Any] = {
             "treatment": self.treatment,
             "outcome": self.outcome,
             "n": self.n,

@@ -22,6 +22,7 @@ from __future__ import annotations
 from dataclasses import replace
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ..common.checks import (
     AT_LEAST_ONE,
@@ -44,7 +45,9 @@ SCALES = ("md", "rd", "rr", "or", "hr")
 
 
 # --------------------------------------------------------------------------- ranges
-def value_range(start, stop=None, step=None, name="range"):
+def value_range(
+    start: float, stop: float | None = None, step: float | None = None, name: str = "range"
+) -> np.ndarray:
     """Grid values START, START+STEP, ... up to STOP (included when the steps reach it).
 
     A single value when only `start` is given. Refuses an empty or backwards range and a
@@ -73,7 +76,7 @@ def value_range(start, stop=None, step=None, name="range"):
     return np.round(start + step * np.arange(count), 12)
 
 
-def parse_range(text: str, name: str):
+def parse_range(text: str, name: str) -> np.ndarray:
     """'START:STOP:STEP' or a single number, as grid values (used by the CLI)."""
     parts = str(text).split(":")
     if len(parts) not in (1, 3):
@@ -82,7 +85,9 @@ def parse_range(text: str, name: str):
         numbers = [float(p) for p in parts]
     except ValueError:
         raise InputError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}") from None
-    return value_range(*numbers, name=name)
+    if len(numbers) == 1:
+        return value_range(numbers[0], name=name)
+    return value_range(numbers[0], numbers[1], numbers[2], name=name)
 
 
 def _or(value, default):
@@ -138,14 +143,14 @@ def _within(x, lo, hi):
 
 # --------------------------------------------------------------------------- binary U
 def binary_confounder_grid(
-    scale,
-    estimate,
-    ci=None,
+    scale: str,
+    estimate: ArrayLike,
+    ci: tuple[float, float] | None = None,
     *,
-    prevalence_treated=None,
-    prevalence_control=None,
-    outcome_effect=None,
-    target=None,
+    prevalence_treated: ArrayLike | None = None,
+    prevalence_control: ArrayLike | None = None,
+    outcome_effect: ArrayLike | None = None,
+    target: float | None = None,
 ) -> TippingGrid:
     """Bias-adjusted estimates under a hidden binary confounder, over a grid of its strengths.
 
@@ -325,7 +330,14 @@ def _binary_exact(result, obs):
 
 # --------------------------------------------------------------------------- bounding factor
 def bounding_grid(
-    scale, estimate, ci=None, *, rr_treatment=None, rr_outcome=None, outcome=None, target=None
+    scale: str,
+    estimate: ArrayLike,
+    ci: tuple[float, float] | None = None,
+    *,
+    rr_treatment: ArrayLike | None = None,
+    rr_outcome: ArrayLike | None = None,
+    outcome: str | None = None,
+    target: float | None = None,
 ) -> TippingGrid:
     """The most a confounder could move the estimate, over a grid of its two risk ratios.
 
@@ -357,7 +369,7 @@ def bounding_grid(
         "bias_adjusted_estimate": np.broadcast_to(bound.estimate, (len(a), len(b))),
     }
     reach_ci = None
-    if bound.ci_limit is not None:
+    if bound.ci_limit is not None and ev.ci is not None:
         # only the limit nearest the target moves toward it; report the interval with it moved
         lower_near = float(ev.rr) >= float(ev.rr_target)
         far = float(ev.ci[1] if lower_near else ev.ci[0])
@@ -365,7 +377,7 @@ def bounding_grid(
         far_arr = np.full(lim.shape, far)
         cells["bias_adjusted_ci_lower"] = lim if lower_near else far_arr
         cells["bias_adjusted_ci_upper"] = far_arr if lower_near else lim
-        reach_ci = np.broadcast_to(bound.explains_ci, lim.shape)
+        reach_ci = np.broadcast_to(np.asarray(bound.explains_ci), lim.shape)
     reach = np.broadcast_to(bound.explains_estimate, (len(a), len(b)))
     notes = list(ev.notes) + [
         f"Conversion to the risk-ratio scale: {ev.conversion}.",
@@ -406,7 +418,14 @@ def bounding_grid(
 
 # --------------------------------------------------------------------------- partial R²
 def partial_r2_grid(
-    estimate, se, dof, *, r2_treatment=None, r2_outcome=None, alpha=0.05, target=0.0
+    estimate: ArrayLike,
+    se: ArrayLike,
+    dof: ArrayLike,
+    *,
+    r2_treatment: ArrayLike | None = None,
+    r2_outcome: ArrayLike | None = None,
+    alpha: float = 0.05,
+    target: float | None = 0.0,
 ) -> TippingGrid:
     """Bias-adjusted OLS estimates over a grid of the confounder's two partial R².
 
@@ -519,7 +538,13 @@ def _nice(x: float) -> float:
 
 
 def default_ranges(
-    kind, *, estimate=None, target=None, scale=None, evalue=None, robustness_value=None
+    kind: str,
+    *,
+    estimate: float | None = None,
+    target: float | None = None,
+    scale: str | None = None,
+    evalue: float | None = None,
+    robustness_value: float | None = None,
 ) -> dict:
     """Grids used when a parameter is not given, scaled to the estimate at hand.
 
@@ -529,7 +554,7 @@ def default_ranges(
     partial-r2: both partial R² from 0 to about twice the robustness value (0.1 to 0.95).
     """
     if kind == "binary":
-        if scale in RATIO_SCALES:
+        if scale in RATIO_SCALES or estimate is None or target is None:
             effect = value_range(1, 6, 0.25)
         else:
             top = _nice(2 * abs(estimate - target)) if estimate != target else 1.0
@@ -537,10 +562,10 @@ def default_ranges(
         prev = value_range(0, 1, 0.05)
         return {"prevalence_treated": prev, "prevalence_control": prev, "outcome_effect": effect}
     if kind == "bounding":
-        top = max(3.0, float(np.ceil(1.5 * evalue)))
+        top = max(3.0, float(np.ceil(1.5 * (evalue or 1.0))))
         step = _nice((top - 1) / 40)
         rr = value_range(1, top, step)
         return {"rr_treatment": rr, "rr_outcome": rr}
-    top = min(0.95, max(0.1, _nice(2 * robustness_value)))
+    top = min(0.95, max(0.1, _nice(2 * (robustness_value or 0.0))))
     r2 = value_range(0, top, _nice(top / 50))
     return {"r2_treatment": r2[r2 < 1], "r2_outcome": r2[r2 < 1]}

@@ -35,7 +35,7 @@ def _first_row(g: TippingGrid) -> dict:
     return rows_of_layout(cols, g.row_layout())[0]
 
 
-def _fmt(g: TippingGrid, name, value) -> str:
+def _fmt(g: TippingGrid, name: str, value: float | None) -> str:
     if value is None or (isinstance(value, float) and np.isnan(value)):
         return "not reached"
     if name.startswith(("prevalence", "r2_")):
@@ -43,7 +43,7 @@ def _fmt(g: TippingGrid, name, value) -> str:
     return f"{value:.4g}"
 
 
-def _exact(g: TippingGrid, name, tp, key) -> str:
+def _exact(g: TippingGrid, name: str, tp: dict, key: str) -> str:
     value = tp[f"{key}_exact"]
     if value is None:
         return "never"
@@ -56,11 +56,12 @@ def table(g: TippingGrid) -> Table:
         r = _first_row(g)
         adj = r["bias_adjusted"]
         ci = "" if adj["ci"] is None else f"{adj['ci'][0]:.4g} to {adj['ci'][1]:.4g}"
-        rows = tuple((NAMES[n], _fmt(g, n, float(v[0]))) for n, v in g.axes)
-        rows += (("Bias-adjusted estimate", f"{adj['estimate']:.4g}"),)
-        rows += (("Bias-adjusted CI", ci),) if ci else ()
-        rows += ((f"Reaches {_goal(g)}", "yes" if r["reaches_target"] else "no"),)
-        return Table(("Quantity", "Value"), rows, title="Bias-adjusted result")
+        single = [(NAMES[n], _fmt(g, n, float(v[0]))) for n, v in g.axes]
+        single.append(("Bias-adjusted estimate", f"{adj['estimate']:.4g}"))
+        if ci:
+            single.append(("Bias-adjusted CI", ci))
+        single.append((f"Reaches {_goal(g)}", "yes" if r["reaches_target"] else "no"))
+        return Table(("Quantity", "Value"), tuple(single), title="Bias-adjusted result")
     solved = g.axes[j][0]
     others = [g.axes[i][0] for i in g.varying if i != j]
     head = tuple(NAMES[o] for o in others)
@@ -71,7 +72,7 @@ def table(g: TippingGrid) -> Table:
         "'(exact)': from the closed-form formula, the values (≥ or ≤ the crossing, which "
         "may lie outside the grid) at which it reaches the target; 'never': no value does."
     )
-    rows = []
+    rows: list[tuple[str, ...]] = []
     for tp in g.tipping_points():
         row = tuple(_fmt(g, o, tp[o]) for o in others)
         row += (_fmt(g, solved, tp["estimate"]), _exact(g, solved, tp, "estimate"))
