@@ -162,10 +162,7 @@ def document(result: EValueResult | ConfounderBound) -> Document:
             (confounder_table(result), prose(*confounder_sentences(result))),
         )
     lead = sentence(result)
-    conversion = result.conversion
     blocks: list = [estimate_table(result)]
-    if isinstance(conversion, str):
-        blocks.append(prose(f"Conversion: {conversion}."))
     if lead:
         blocks.append(prose(lead, role="sentence"))
     if result.confounders is not None:

@@ -87,9 +87,9 @@ def _html(block: Block) -> str:
     if isinstance(block, Table):
         return render(block, "html")
     if isinstance(block, Prose):
-        return "".join(f"<p>{html.escape(line)}</p>" for line in block.lines)
-    items = "".join(f"<li>{html.escape(i)}</li>" for i in block.items)
-    return f"<p><strong>{html.escape(block.heading)}</strong></p><ul>{items}</ul>"
+        return "".join(f"<p>{html.escape(line, quote=False)}</p>" for line in block.lines)
+    items = "".join(f"<li>{html.escape(i, quote=False)}</li>" for i in block.items)
+    return f"<p><strong>{html.escape(block.heading, quote=False)}</strong></p><ul>{items}</ul>"
 
 
 def prose(*lines: str, role: str = "text") -> Prose:

@@ -77,6 +77,7 @@ def _text(table: Table) -> str:
     out = [table.title] if table.title else []
     out += [line(table.columns), "  ".join("-" * w for w in widths)]
     out += [line(r) for r in table.rows]
+    out += [wrap(n) for n in table.footnotes]
     return "\n".join(out)
 
 
@@ -139,7 +140,11 @@ def _html(table: Table) -> str:
         "<tr>" + "".join(f"<td>{esc(c)}</td>" for c in row) + "</tr>" for row in table.rows
     )
     cap = f"<caption>{esc(table.title)}</caption>" if table.title else ""
-    return f"<table>{cap}<thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
+    foot = "".join(
+        f"<tr><td colspan='{len(table.columns)}'>{esc(n)}</td></tr>" for n in table.footnotes
+    )
+    foot = f"<tfoot>{foot}</tfoot>" if foot else ""
+    return f"<table>{cap}<thead><tr>{head}</tr></thead><tbody>{body}</tbody>{foot}</table>"
 
 
 def render(table: Table, fmt: str) -> str:
