@@ -73,7 +73,7 @@ def bench_benchmarks() -> None:
     print("== Benchmark table: 30 covariates, n = 200,000 (issue 3)")
     import numpy as np
     import statsmodels.api as sm
-    from sensitivity.regression import partial_r2_from_model
+    from sensitivity.adapters.statsmodels import partial_r2_from_model
 
     frame = _regression_data()
     names = [c for c in frame.columns if c.startswith("x")]
@@ -112,7 +112,7 @@ def bench_tipping() -> None:
     import json
 
     import numpy as np
-    from sensitivity.tables import columns_to_csv
+    from sensitivity.output.tables import columns_to_csv
 
     from sensitivity.tipping import binary_confounder_grid
 
@@ -145,13 +145,74 @@ def bench_tipping() -> None:
     report("vectorised grid + tipping points", t_vec, t_loop, "plain Python loop", "well under 1 s")
     grid = vectorised()
     t_csv = timed(lambda: columns_to_csv(grid.columns()), repeats=1)
-    t_json = timed(lambda: json.dump(grid.to_dict(), io.StringIO()), repeats=1)
-    print(f"  export of all 1,000,000 rows: CSV {t_csv:.2f} s, JSON {t_json:.2f} s")
+    print(f"  export of all 1,000,000 rows to CSV in-process: {t_csv:.2f} s")
 
 
-SECTIONS = [bench_startup, bench_benchmarks, bench_tipping]
+GRID_ARGS = [
+    "tipping", "--scale", "rr", "--estimate", "1.8", "--ci", "1.2", "2.7",
+    "--prevalence-treated", "0.001:1:0.001", "--prevalence-control", "0.2",
+    "--outcome-effect", "1.01:11:0.01",
+]  # fmt: skip
+LIBRARY_ALONE = """
+import sys, numpy as np
+from sensitivity.tipping import binary_confounder_grid, parse_range
+g = binary_confounder_grid("rr", 1.8, (1.2, 2.7),
+    prevalence_treated=parse_range("0.001:1:0.001", "p"), prevalence_control=0.2,
+    outcome_effect=parse_range("1.01:11:0.01", "g"))
+cols = g.columns()
+if sys.argv[1] == "json":
+    import orjson
+    with open(sys.argv[2], "wb") as fh:
+        fh.write(orjson.dumps({k: np.ascontiguousarray(v) for k, v in cols.items()},
+                              option=orjson.OPT_SERIALIZE_NUMPY))
+else:
+    import pyarrow as pa, pyarrow.csv as pacsv
+    pacsv.write_csv(pa.table(cols), sys.argv[2])
+"""
+
+
+def measured(cmd: list[str]) -> tuple[float, float]:
+    """Wall time (s) and peak resident memory (MiB) of one child process."""
+    import os
+
+    start = time.perf_counter()
+    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    _, status, usage = os.wait4(proc.pid, 0)
+    elapsed = time.perf_counter() - start
+    if status:
+        raise SystemExit(f"{cmd} failed with status {status}")
+    return elapsed, usage.ru_maxrss / 1024
+
+
+def bench_export() -> None:
+    print("== 1000 x 1000 tipping grid (1,000,000 rows) to JSON and CSV (issue 7)")
+    import tempfile
+
+    with tempfile.TemporaryDirectory() as tmp:
+        for fmt in ("json", "csv"):
+            out = f"{tmp}/grid.{fmt}"
+            ours = [str(BIN / "sensitivity"), *GRID_ARGS, "--format", fmt, "--output", out]
+            alone = [sys.executable, "-c", LIBRARY_ALONE, fmt, out]
+            runs = {"ours": [], "alone": []}
+            for _ in range(3):  # alternate, medians
+                runs["ours"].append(measured(ours))
+                runs["alone"].append(measured(alone))
+            (t_o, m_o), (t_a, m_a) = (
+                (statistics.median(r[0] for r in v), statistics.median(r[1] for r in v))
+                for v in (runs["ours"], runs["alone"])
+            )
+            lib = "orjson over the numpy columns" if fmt == "json" else "pyarrow write_csv"
+            print(f"{fmt.upper()}: sensitivity tipping --format {fmt}: {t_o:.2f} s, {m_o:.0f} MiB")
+            print(f"  baseline ({lib}, same columns, whole process): {t_a:.2f} s, {m_a:.0f} MiB")
+            print(f"  ratio: time {t_o / t_a:.2f}, memory {m_o / m_a:.2f}")
+
+
+SECTIONS = [bench_startup, bench_benchmarks, bench_tipping, bench_export]
 
 if __name__ == "__main__":
+    chosen = sys.argv[1:]
     for section in SECTIONS:
+        if chosen and not any(c in section.__name__ for c in chosen):
+            continue
         section()
         print()
