@@ -73,6 +73,7 @@ def bench_benchmarks() -> None:
     print("== Benchmark table: 30 covariates, n = 200,000 (issue 3)")
     import numpy as np
     import statsmodels.api as sm
+
     from sensitivity.adapters.statsmodels import partial_r2_from_model
 
     frame = _regression_data()
@@ -108,12 +109,10 @@ def bench_benchmarks() -> None:
 
 def bench_tipping() -> None:
     print("== Tipping-point grid: 1000 x 1000 cells (issue 4)")
-    import io
-    import json
 
     import numpy as np
-    from sensitivity.output.tables import columns_to_csv
 
+    from sensitivity.output.tables import columns_to_csv
     from sensitivity.tipping import binary_confounder_grid
 
     p1 = np.linspace(0, 1, 1000)
