@@ -22,7 +22,7 @@ def evalue_command(row: dict) -> list[str]:
         if row[column]:
             args += [f"--{column}", row[column]]
     if row["frequency"]:
-        args.append(f"--{row['frequency']}")
+        args += ["--outcome-frequency", row["frequency"]]
     return args
 
 

@@ -204,20 +204,20 @@ CASES = [
         ("evalue", s, args)
         for s, args in [
             ("rr", ["rr", "1.8", "--ci", "1.2", "2.7"]),
-            ("or", ["or", "1.8", "--ci", "1.2", "2.7", "--common"]),
-            ("hr", ["hr", "0.7", "--ci", "0.55", "0.9", "--rare"]),
+            ("or", ["or", "1.8", "--ci", "1.2", "2.7", "--outcome-frequency", "common"]),
+            ("hr", ["hr", "0.7", "--ci", "0.55", "0.9", "--outcome-frequency", "rare"]),
             ("smd", ["smd", "0.4", "--se", "0.1"]),
             ("md", ["md", "2.5", "--se", "0.8", "--sd", "11"]),
         ]
     ],
     *[
-        ("tipping", s, ["--scale", s, "--estimate", e, "--ci", lo, up])
-        for s, e, lo, up in [
-            ("md", "2.5", "1", "4"),
-            ("rd", "0.06", "0.02", "0.1"),
-            ("rr", "1.8", "1.2", "2.7"),
-            ("or", "1.8", "1.2", "2.7"),
-            ("hr", "0.7", "0.55", "0.9"),
+        ("tipping", s, ["--scale", s, "--estimate", e, "--ci", lo, up, *extra])
+        for s, e, lo, up, extra in [
+            ("md", "2.5", "1", "4", []),
+            ("rd", "0.06", "0.02", "0.1", []),
+            ("rr", "1.8", "1.2", "2.7", []),
+            ("or", "1.8", "1.2", "2.7", ["--outcome-frequency", "common"]),
+            ("hr", "0.7", "0.55", "0.9", ["--outcome-frequency", "rare"]),
         ]
     ],
     *[
@@ -226,7 +226,11 @@ CASES = [
             f"bounding-{s}",
             ["--kind", "bounding", "--scale", s, "--estimate", "1.8", "--ci", "1.2", "2.7", *extra],
         )
-        for s, extra in [("rr", []), ("or", ["--rare"]), ("hr", ["--common"])]
+        for s, extra in [
+            ("rr", []),
+            ("or", ["--outcome-frequency", "rare"]),
+            ("hr", ["--outcome-frequency", "common"]),
+        ]
     ],
     (
         "tipping",

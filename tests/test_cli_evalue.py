@@ -38,8 +38,8 @@ def test_json_without_interval_has_nulls(run):
 @pytest.mark.parametrize(
     "args, rr_text",
     [
-        (("or", 2.1, "--ci", 1.4, 3.15, "--common"), "1.45"),
-        (("or", 2.1, "--ci", 1.4, 3.15, "--rare"), "2.10"),
+        (("or", 2.1, "--ci", 1.4, 3.15, "--outcome-frequency", "common"), "1.45"),
+        (("or", 2.1, "--ci", 1.4, 3.15, "--outcome-frequency", "rare"), "2.10"),
         (("hr", 0.72, "--ci", 0.6, 0.86, "--prevalence", 0.3), "0.80"),
         (("hr", 0.72, "--ci", 0.6, 0.86, "--prevalence", 0.05), "0.72"),
         (("smd", 0.5, "--se", 0.1), "1.58"),

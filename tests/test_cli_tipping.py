@@ -41,7 +41,7 @@ def test_json_rows_and_tipping_points_follow_the_contract(run):
     assert len(d["tipping_points"]) == 21
     tp = d["tipping_points"][-1]
     assert tp["prevalence_treated"] == 1.0 and tp["parameter"] == "outcome_effect"
-    assert tp["estimate"] == 2.25 and tp["estimate_exact"] == pytest.approx(2.25)
+    assert tp["estimate"] == 2.25 and tp["estimate_exact"]["low"] == pytest.approx(2.25)
     assert isinstance(d["notes"], list)
 
 
@@ -127,7 +127,7 @@ def test_target_and_difference_scale(run):
     assert d["target"] == 0.02
     (tp,) = d["tipping_points"]
     assert tp["parameter"] == "prevalence_treated"
-    assert tp["estimate_exact"] == pytest.approx(0.1 + 0.06 / 0.2)
+    assert tp["estimate_exact"]["low"] == pytest.approx(0.1 + 0.06 / 0.2)
 
 
 def test_bounding_view(run):
@@ -159,7 +159,8 @@ def test_bounding_view_with_common_odds_ratio(run):
         "or",
         "--estimate",
         2.4,
-        "--common",
+        "--outcome-frequency",
+        "common",
         "--rr-treatment",
         2,
         "--rr-outcome",

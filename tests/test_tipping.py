@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 import statsmodels.api as sm
-from hypothesis import given
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from sensitivity.evalues import bounding_factor, evalue_of_rr
@@ -101,7 +101,8 @@ def test_tipping_points_match_the_grid_and_solve_the_formula():
     for tp in grid.tipping_points():
         if tp["estimate"] is None:
             continue
-        exact = tp["estimate_exact"]
+        assert tp["estimate_exact"]["reached"] == "from"
+        exact = tp["estimate_exact"]["low"]
         assert tp["estimate"] - 0.01 - 1e-9 <= exact <= tp["estimate"] + 1e-9
         q = tp["prevalence_treated"]
         assert 1.8 * (1 + (exact - 1) * 0.2) / (1 + (exact - 1) * q) == pytest.approx(1.0)
@@ -122,8 +123,8 @@ def test_exact_crossing_of_each_parameter_on_the_difference_scale(axis):
     g = binary_confounder_grid("md", -0.4 if axis == "prevalence_control" else 0.4, **params)
     compared = 0
     for tp in g.tipping_points():
-        if tp["estimate"] is not None and tp["estimate_exact_side"] == "above":
-            assert tp["estimate_exact"] == pytest.approx(tp["estimate"], abs=0.0011)
+        if tp["estimate"] is not None and tp["estimate_exact"]["reached"] == "from":
+            assert tp["estimate_exact"]["low"] == pytest.approx(tp["estimate"], abs=0.0011)
             compared += 1
     assert compared > 0
 
@@ -135,9 +136,10 @@ def test_bounding_grid_curve_passes_through_the_evalue():
         "rr", 3.9, (1.8, 8.7), rr_treatment=[2.0, e, 10.0], rr_outcome=value_range(1, 30, 0.01)
     )
     tps = {round(t["rr_treatment"], 6): t for t in g.tipping_points()}
-    assert tps[round(e, 6)]["estimate_exact"] == pytest.approx(e, rel=1e-12)
-    assert tps[2.0]["estimate_exact"] is None  # B(2, b) < 2 < 3.9: never explained away
-    assert tps[10.0]["estimate_exact"] == pytest.approx(3.9 * 9 / 6.1)
+    assert tps[round(e, 6)]["estimate_exact"]["low"] == pytest.approx(e, rel=1e-12)
+    # B(2, b) < 2 < 3.9: never explained away
+    assert tps[2.0]["estimate_exact"]["reached"] == "never"
+    assert tps[10.0]["estimate_exact"]["low"] == pytest.approx(3.9 * 9 / 6.1)
 
 
 def test_partial_r2_view_reuses_the_partial_r2_computation():
@@ -154,7 +156,7 @@ def test_partial_r2_exact_crossings_against_a_fine_grid():
     for tp in g.tipping_points():
         for key in ("estimate", "ci"):
             if tp[key] is not None:
-                assert tp[f"{key}_exact"] == pytest.approx(tp[key], abs=0.00051)
+                assert tp[f"{key}_exact"]["low"] == pytest.approx(tp[key], abs=0.00051)
 
 
 # ----------------------------------------------------------------------- properties
@@ -187,7 +189,13 @@ def test_difference_bias_monotone_in_prevalence_treated(a, b, p0, gamma):
 @given(probs, st.floats(0.01, 20), st.sampled_from(["md", "rd", "rr", "or", "hr"]))
 def test_no_bias_when_prevalences_are_equal(p, effect, scale):
     g = binary_confounder_grid(
-        scale, 1.5, (1.1, 2.0), prevalence_treated=p, prevalence_control=p, outcome_effect=effect
+        scale,
+        1.5,
+        (1.1, 2.0),
+        prevalence_treated=p,
+        prevalence_control=p,
+        outcome_effect=effect,
+        outcome="rare" if scale in ("or", "hr") else None,
     )
     assert float(_adjusted(g).item()) == pytest.approx(1.5, rel=1e-12)
 
@@ -224,7 +232,7 @@ def test_range_includes_stop_when_reached():
         ),
         (
             lambda: parse_range("0:1:1e-9", "outcome_effect"),
-            r"has 1,000,000,001 values; the grid limit is 5,000,000 cells",
+            r"has more than 5,000,000 values \(0 to 1 by 1e-09\); the grid limit is 5,000,000",
         ),
         (
             lambda: binary_confounder_grid(
@@ -246,7 +254,12 @@ def test_range_includes_stop_when_reached():
         ),
         (
             lambda: binary_confounder_grid(
-                "hr", 2, prevalence_treated=0.5, prevalence_control=0.1, outcome_effect=-2
+                "hr",
+                2,
+                prevalence_treated=0.5,
+                prevalence_control=0.1,
+                outcome_effect=-2,
+                outcome="common",
             ),
             r"`outcome_effect` must be positive; got -2",
         ),
@@ -311,11 +324,12 @@ def test_exact_crossing_below_for_a_negative_effect():
         outcome_effect=value_range(-6, -1, 1),
     )
     first = g.tipping_points()[0]
-    assert first["estimate_exact"] == pytest.approx(-4.0)
-    assert first["estimate_exact_side"] == "below"
+    assert first["estimate_exact"]["reached"] == "up_to"
+    assert first["estimate_exact"]["high"] == pytest.approx(-4.0)
     assert first["estimate"] == -6.0  # the least grid value that reaches it
 
 
+@settings(deadline=None)  # up to 64 one-cell grids, each converting a common HR back
 @given(
     st.sampled_from(["md", "rd", "rr", "or", "hr"]),
     st.lists(probs, min_size=1, max_size=4),
@@ -323,6 +337,7 @@ def test_exact_crossing_below_for_a_negative_effect():
     st.lists(st.floats(0.05, 8), min_size=1, max_size=4),
 )
 def test_vectorised_grid_equals_a_scalar_loop(scale, p1s, p0s, effects):
+    frequency = "common" if scale in ("or", "hr") else None
     grid = binary_confounder_grid(
         scale,
         1.5,
@@ -330,6 +345,7 @@ def test_vectorised_grid_equals_a_scalar_loop(scale, p1s, p0s, effects):
         prevalence_treated=p1s,
         prevalence_control=p0s,
         outcome_effect=effects,
+        outcome=frequency,
     )
     for i, a in enumerate(p1s):
         for j, b in enumerate(p0s):
@@ -341,6 +357,7 @@ def test_vectorised_grid_equals_a_scalar_loop(scale, p1s, p0s, effects):
                     prevalence_treated=a,
                     prevalence_control=b,
                     outcome_effect=g,
+                    outcome=frequency,
                 )
                 for key, cell in grid.cells.items():
                     assert cell[i, j, k] == one.cells[key].item()
@@ -376,7 +393,7 @@ def test_three_varying_parameters_key_tipping_points_by_the_first_two():
         a, b = t["prevalence_treated"], t["prevalence_control"]
         exact = 1 + (1 - 1.8) / (1.8 * b - a)  # G at which 1.8 (1 + (G-1) b) / (1 + (G-1) a) = 1
         if 1 <= exact <= 20:
-            assert t["estimate_exact"] == pytest.approx(exact)
+            assert t["estimate_exact"]["low"] == pytest.approx(exact)
             assert t["estimate"] == pytest.approx(exact, abs=0.0011)
         else:
             assert t["estimate"] is None
@@ -389,4 +406,4 @@ def test_partial_r2_exact_crossings_when_solving_the_treatment_side():
     assert tp["parameter"] == "r2_treatment"
     for key in ("estimate", "ci"):
         assert tp[key] is not None
-        assert tp[f"{key}_exact"] == pytest.approx(tp[key], abs=0.00051)
+        assert tp[f"{key}_exact"]["low"] == pytest.approx(tp[key], abs=0.00051)

@@ -47,16 +47,22 @@ def plot_option(help_text: str) -> Callable:
     return click.option("--plot", type=click.Path(dir_okay=False), help=help_text)
 
 
-def outcome_options(rare_help: str, common_help: str) -> Callable:
-    """--rare / --common: the outcome's frequency (or, hr)."""
+def outcome_frequency_option(help_text: str) -> Callable:
+    """--outcome-frequency rare|common (or, hr)."""
+    return click.option(
+        "--outcome-frequency",
+        "outcome",
+        type=click.Choice(["rare", "common"]),
+        default=None,
+        help=help_text,
+    )
 
-    def decorate(func: Callable) -> Callable:
-        func = click.option("--common", "outcome", flag_value="common", help=common_help)(func)
-        return click.option("--rare", "outcome", flag_value="rare", default=None, help=rare_help)(
-            func
-        )
 
-    return decorate
+def exclusive(*options: tuple[str, object]) -> None:
+    """A usage error naming both options when two that cannot go together are given."""
+    given = [name for name, value in options if value is not None]
+    if len(given) > 1:
+        raise click.UsageError(f"{' and '.join(given)} cannot be used together; give one")
 
 
 def check_plot(path: str | None) -> None:

@@ -8,7 +8,7 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import emit, format_options
+from ._options import emit, exclusive, format_options, outcome_frequency_option
 
 SHORT_HELP = COMMANDS["evalue"][1]
 
@@ -43,18 +43,8 @@ SHORT_HELP = COMMANDS["evalue"][1]
     help="md with a continuous treatment: the coefficient is per unit; report per "
     "this many units (e.g. 10).",
 )
-@click.option(
-    "--rare",
-    "outcome",
-    flag_value="rare",
-    default=None,
-    help="Outcome under about 15% at the end of follow-up (or, hr).",
-)
-@click.option(
-    "--common",
-    "outcome",
-    flag_value="common",
-    help="Outcome 15% or more at the end of follow-up (or, hr).",
+@outcome_frequency_option(
+    "or, hr: the outcome's frequency at the end of follow-up (rare: under about 15%)."
 )
 @click.option(
     "--prevalence",
@@ -99,12 +89,15 @@ def evalue_cmd(
     \b
     Examples:
       sensitivity evalue rr 3.9 --ci 1.8 8.7
-      sensitivity evalue or 2.1 --ci 1.4 3.15 --common
+      sensitivity evalue or 2.1 --ci 1.4 3.15 --outcome-frequency common
       sensitivity evalue hr 0.72 --ci 0.6 0.86 --prevalence 0.3
       sensitivity evalue md 0.42 --se 0.11 --sd 12 --contrast 10
       sensitivity evalue rr 3.9 --ci 1.8 8.7 --confounder 2 3 --confounder 4 4
     """
     from sensitivity.evalues.core import evalue
+
+    exclusive(("--outcome-frequency", outcome), ("--prevalence", prevalence))
+    exclusive(("--se", se), ("--ci", ci or None))
 
     result = evalue(
         scale,

@@ -8,7 +8,7 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import RANGE_HELP, check_plot, emit, format_options
+from ._options import RANGE_HELP, check_plot, emit, format_options, outcome_frequency_option
 
 SHORT_HELP = COMMANDS["tipping"][1]
 
@@ -42,15 +42,9 @@ SHORT_HELP = COMMANDS["tipping"][1]
 )
 @click.option("--rr-treatment", help=f"bounding: risk ratio of U with the treatment: {RANGE_HELP}.")
 @click.option("--rr-outcome", help=f"bounding: risk ratio of U with the outcome: {RANGE_HELP}.")
-@click.option(
-    "--rare",
-    "outcome",
-    flag_value="rare",
-    default=None,
-    help="bounding with or/hr: the outcome is rare (under about 15%).",
-)
-@click.option(
-    "--common", "outcome", flag_value="common", help="bounding with or/hr: the outcome is common."
+@outcome_frequency_option(
+    "or, hr (binary and bounding views): the outcome's frequency; a common outcome's ratio is "
+    "converted to the risk-ratio scale as in `evalue`."
 )
 @click.option("--se", type=float, help="partial-r2: the coefficient's standard error.")
 @click.option("--dof", type=float, help="partial-r2: residual degrees of freedom.")
@@ -126,7 +120,7 @@ def tipping_cmd(
     foreign = [k for k, v in given.items() if v is not None and k not in VIEW_OPTIONS[kind]]
     if foreign:
         flags = ", ".join(
-            "--" + ("rare/--common" if k == "outcome" else k.replace("_", "-")) for k in foreign
+            "--" + ("outcome-frequency" if k == "outcome" else k.replace("_", "-")) for k in foreign
         )
         raise click.UsageError(f"{flags} do not apply to the {kind} view")
 
@@ -142,6 +136,7 @@ def tipping_cmd(
             estimate,
             ci or None,
             target=target,
+            outcome=outcome,
             **{k: grid(k) for k in ("prevalence_treated", "prevalence_control", "outcome_effect")},
         )
     elif kind == "bounding":
@@ -176,7 +171,14 @@ def tipping_cmd(
 
 #: The options each tipping view takes (the rest are refused, not silently ignored).
 VIEW_OPTIONS = {
-    "binary": {"scale", "ci", "prevalence_treated", "prevalence_control", "outcome_effect"},
+    "binary": {
+        "scale",
+        "ci",
+        "prevalence_treated",
+        "prevalence_control",
+        "outcome_effect",
+        "outcome",
+    },
     "bounding": {"scale", "ci", "rr_treatment", "rr_outcome", "outcome"},
     "partial-r2": {"se", "dof", "r2_treatment", "r2_outcome"},
 }

@@ -44,10 +44,18 @@ def _fmt(g: TippingGrid, name: str, value: float | None) -> str:
 
 
 def _exact(g: TippingGrid, name: str, tp: dict, key: str) -> str:
-    value = tp[f"{key}_exact"]
-    if value is None:
+    """The exact set in a few characters: "≥ 2.1", "≤ 0.3", "0.1 to 0.6", "all", "never"."""
+    exact = tp[f"{key}_exact"]
+    kind, low, high = exact["reached"], exact["low"], exact["high"]
+    if kind == "never":
         return "never"
-    return ("≥ " if tp[f"{key}_exact_side"] == "above" else "≤ ") + _fmt(g, name, value)
+    if kind == "always":
+        return "all values"
+    if kind == "from":
+        return "≥ " + _fmt(g, name, low)
+    if kind == "up_to":
+        return "≤ " + _fmt(g, name, high)
+    return f"{_fmt(g, name, low)} to {_fmt(g, name, high)}"
 
 
 def table(g: TippingGrid) -> Table:
@@ -69,8 +77,9 @@ def table(g: TippingGrid) -> Table:
     if g.reach_ci is not None:
         cols += ("CI reaches it at", "(exact)")
     exact_note = (
-        "'(exact)': from the closed-form formula, the values (≥ or ≤ the crossing, which "
-        "may lie outside the grid) at which it reaches the target; 'never': no value does."
+        "'(exact)': from the closed-form formula, every value that reaches the target (which "
+        "may lie outside the grid): at least (≥) or at most (≤) the crossing, between two "
+        "values, all values, or never."
     )
     rows: list[tuple[str, ...]] = []
     for tp in g.tipping_points():

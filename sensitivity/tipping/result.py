@@ -11,6 +11,9 @@ from ..common import notes as standing
 from ..common.results import Result, plain, rows_of_layout
 from ..common.scales import RATIO_SCALES
 
+#: The exact set's kinds, by code (see `tipping.core.monotone_set`).
+KIND_NAMES = {0: "never", 1: "always", 2: "from", 3: "up_to", 4: "between"}
+
 
 @dataclass(frozen=True, eq=False, repr=False)
 class TippingGrid(Result):
@@ -25,7 +28,9 @@ class TippingGrid(Result):
     cells: dict  # name -> array of the grid's shape (bias_adjusted_* and extras)
     reach_estimate: np.ndarray
     reach_ci: np.ndarray | None
-    exact: dict  # "estimate"/"ci" -> exact crossing of the solved parameter (grid shape less it)
+    # "estimate"/"ci" -> the exact set of values of the solved parameter that reach the target:
+    # "kind" (see KIND_NAMES), "low" and "high" (NaN where open or empty), grid shape less it
+    exact: dict
     notes: tuple[str, ...] = ()
     cautions: tuple[str, ...] = standing.TIPPING
     extra: dict = field(default_factory=dict)  # e.g. the E-values of the bounding view
@@ -97,12 +102,13 @@ class TippingGrid(Result):
             for key in ("estimate", "ci"):
                 if key in least:
                     row[key] = least[key][tuple(pos)]
-                    row[f"{key}_exact"] = self.exact[key][tuple(pos)]
-                    side = self.exact[f"{key}_side"][tuple(pos)]
-                    exists = np.isfinite(row[f"{key}_exact"])
-                    row[f"{key}_exact_side"] = (
-                        ("above" if side > 0 else "below") if exists else None
-                    )
+                    exact = self.exact[key]
+                    at = tuple(pos)
+                    row[f"{key}_exact"] = {
+                        "reached": KIND_NAMES[int(exact["kind"][at])],
+                        "low": exact["low"][at],
+                        "high": exact["high"][at],
+                    }
             out.append(plain(row))
         return out
 
