@@ -262,12 +262,6 @@ def _check_frequency(scale: str, outcome: str | None) -> str | None:
     return None
 
 
-def _near_limit(est: float, ci: tuple[float, float] | None, target: float) -> float | None:
-    if ci is None:
-        return None
-    return ci[0] if est >= target else ci[1]
-
-
 def _finite(cells: dict[str, np.ndarray], what: str) -> None:
     """Refuse input whose bias-adjusted values leave the range of a double."""
     for name, values in cells.items():
@@ -284,18 +278,18 @@ def _with_exact(result: TippingGrid, exact_of: Callable[[float], dict]) -> Tippi
         return result
     exact = {"estimate": exact_of(result.estimate)}
     if result.ci is not None:
-        exact["ci"] = exact_of(_near_limit(result.estimate, result.ci, result.target))
+        exact["ci"] = exact_of(result.ci[0] if result.estimate >= result.target else result.ci[1])
     return replace(result, exact=exact)
 
 
-def _reduced(axes: tuple[tuple[str, np.ndarray], ...], j: int) -> list[np.ndarray | None]:
-    """Each axis as an array broadcasting over the grid with axis j removed (None for j)."""
+def _reduced(axes: tuple[tuple[str, np.ndarray], ...], j: int) -> list[np.ndarray]:
+    """Each axis as an array broadcasting over the grid with axis j removed (NaN for j)."""
     sizes = [len(v) for i, (_, v) in enumerate(axes) if i != j]
-    out: list[np.ndarray | None] = []
+    out: list[np.ndarray] = []
     k = 0
     for i, (_, v) in enumerate(axes):
         if i == j:
-            out.append(None)
+            out.append(np.asarray(np.nan))
             continue
         shape = [1] * len(sizes)
         shape[k] = len(v)
@@ -469,6 +463,7 @@ def _binary_exact(
     ratio = result.scale in RATIO_SCALES
     shape = result.reduced_shape(j)
     p1, p0, g = args
+    root: np.ndarray
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if ratio:
             r = obs / t  # reached when factor = (1 + (G-1) p1) / (1 + (G-1) p0) hits r
@@ -485,7 +480,7 @@ def _binary_exact(
         full = list(args)
         full[j] = x
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            bias = _binary_factor(*full, ratio)
+            bias = _binary_factor(full[0], full[1], full[2], ratio)
             shifted = obs / bias if ratio else obs - bias
         return _reaches(shifted, t, side, slack)
 
