@@ -101,7 +101,7 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         (("rr", 0), "Error: `estimate` must be positive; got 0"),
         (("rr", -1.5), "Error: `estimate` must be positive; got -1.5"),
         (("rr", "inf"), "Error: `estimate` must be a finite number; got inf"),
-        (("rr", "abc"), "Error: Invalid value for 'ESTIMATE': 'abc' is not a valid float."),
+        (("rr", "abc"), "Error: Invalid value for 'ESTIMATE': 'abc' is not a number"),
         (("rr", 3.9, "--ci", 4, 8.7), "Error: `estimate` must lie within `ci`"),
         (("rr", 3.9, "--ci", 8.7, 1.8), "Error: `ci` lower limit must not exceed the upper"),
         (("or", 2), "Error: `outcome` frequency is needed on the or scale"),

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -9,6 +10,60 @@ from typing import Any
 import click
 
 FORMATS = ("text", "json", "csv", "markdown", "latex")
+_NEGATIVE = re.compile(r"^-(\d|\.\d)")
+#: Options of earlier versions, and what replaced them.
+RENAMED = {"--rare": "--outcome-frequency rare", "--common": "--outcome-frequency common"}
+_MARK = "\x00"  # prefixes a positional negative number while click parses the options
+
+
+class Number(click.ParamType):
+    """A float that may be negative where it stands as a positional argument."""
+
+    name = "number"
+
+    def convert(self, value: Any, param: Any, ctx: Any) -> float:
+        if isinstance(value, float):
+            return value
+        text = str(value).removeprefix(_MARK)
+        try:
+            return float(text)
+        except ValueError:
+            self.fail(f"{text!r} is not a number", param, ctx)
+
+
+class Command(click.Command):
+    """A command whose positional arguments may be negative numbers (an SMD of -0.4) while
+    an unknown or misspelt option is still an error that names it."""
+
+    def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
+        takes = {}
+        for param in self.params:
+            if isinstance(param, click.Option):
+                n = 0 if param.is_flag or param.count else param.nargs
+                for name in param.opts + param.secondary_opts:
+                    takes[name] = n
+        out, skip = [], 0
+        for token in args:
+            if skip:
+                skip -= 1
+            elif token in takes:
+                skip = takes[token]
+            elif token == "--":
+                out.extend(args[len(out) :])
+                break
+            elif _NEGATIVE.match(token):
+                token = _MARK + token
+            out.append(token)
+        try:
+            return super().parse_args(ctx, out)
+        except click.NoSuchOption as err:
+            if err.option_name in RENAMED:
+                raise click.UsageError(
+                    f"No such option {err.option_name!r}; use {RENAMED[err.option_name]}"
+                ) from None
+            raise
+
+
 #: Above this many rows JSON is written compact and streamed (people do not read it).
 COMPACT_ROWS = 10_000
 RANGE_HELP = "a value or START:STOP:STEP (STOP included when the steps reach it)"

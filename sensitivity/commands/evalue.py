@@ -8,18 +8,14 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import emit, exclusive, format_options, outcome_frequency_option
+from ._options import Command, Number, emit, exclusive, format_options, outcome_frequency_option
 
 SHORT_HELP = COMMANDS["evalue"][1]
 
 
-@click.command(
-    "evalue",
-    short_help=SHORT_HELP,
-    context_settings={"ignore_unknown_options": True},  # lets ESTIMATE be negative (smd/md)
-)
+@click.command("evalue", cls=Command, short_help=SHORT_HELP)
 @click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), metavar="SCALE")
-@click.argument("estimate", type=float)
+@click.argument("estimate", type=Number())
 @click.option(
     "--ci",
     nargs=2,

@@ -8,12 +8,12 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import check_plot, emit, format_options, show_warnings
+from ._options import Command, check_plot, emit, exclusive, format_options, show_warnings
 
 SHORT_HELP = COMMANDS["partial-r2"][1]
 
 
-@click.command("partial-r2", short_help=SHORT_HELP)
+@click.command("partial-r2", cls=Command, short_help=SHORT_HELP)
 @click.option("--estimate", type=float, help="Summary input: the treatment's OLS coefficient.")
 @click.option("--se", type=float, help="Summary input: its classical standard error.")
 @click.option("--t", "t_stat", type=float, help="Summary input: its t statistic (instead of --se).")
@@ -121,6 +121,9 @@ def partial_r2_cmd(
           --treatment commute_min --benchmark smoker --times 1 --times 2 --plot contours.png
     """
     show_warnings()
+    exclusive(("--se", se), ("--t", t_stat))
+    if (times or times_pairs) and not benchmarks:
+        raise click.UsageError("--times and --times-pair need --benchmark (the covariate to scale)")
     summary_given = [
         n
         for n, v in (

@@ -8,12 +8,19 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import RANGE_HELP, check_plot, emit, format_options, outcome_frequency_option
+from ._options import (
+    RANGE_HELP,
+    Command,
+    check_plot,
+    emit,
+    format_options,
+    outcome_frequency_option,
+)
 
 SHORT_HELP = COMMANDS["tipping"][1]
 
 
-@click.command("tipping", short_help=SHORT_HELP)
+@click.command("tipping", cls=Command, short_help=SHORT_HELP)
 @click.option(
     "--kind",
     type=click.Choice(["binary", "bounding", "partial-r2"]),

@@ -33,6 +33,7 @@ from ..common.checks import (
     interval_order,
     require,
     require_all,
+    show,
 )
 from ..common.errors import InputError
 from ..common.scales import (
@@ -273,6 +274,25 @@ def compute(
     }
 
 
+def _beyond_double(values: dict[str, np.ndarray], out: dict[str, np.ndarray]) -> np.ndarray:
+    """Per row, which input leaves double precision on the risk-ratio scale ("" if none).
+
+    An SMD of 800 maps to exp(0.91 * 800), beyond 1e308; a risk ratio of 1e-320 is below the
+    smallest double. Such rows are refused rather than given an infinite E-value.
+    """
+    est_bad = ~np.isfinite(out["evalue"]) | ~np.isfinite(out["rr"]) | ~(out["rr"] > 0)
+    ci_bad = given(values["lower"]) & ~np.isfinite(out["evalue_ci"])
+    target_bad = ~np.isfinite(out["rr_target"]) | ~(out["rr_target"] > 0)
+    return np.select([est_bad, ci_bad, target_bad], ["estimate", "ci", "target"], "").astype(object)
+
+
+def _overflow_message(name: str, value: float, scale: str) -> str:
+    return (
+        f"`{name}` {show(value)} on the {scale} scale maps to a risk ratio beyond double "
+        "precision (about 1e-308 to 1e308), so its E-value cannot be computed"
+    )
+
+
 def _numeric(value: object, name: str, shape: tuple[int, ...] | None = None) -> np.ndarray:
     """A float array for an optional numeric input (NaN where not given)."""
     if value is None:
@@ -415,6 +435,14 @@ def evalue(
         freq,
         values["target"],
     )
+    beyond = np.broadcast_to(_beyond_double(values, out), np.shape(out["evalue"]))
+    if np.any(beyond != ""):
+        i = np.flatnonzero(beyond != "")[0]
+        name = str(beyond.flat[i])
+        field_of = {"estimate": "estimate", "ci": "lower", "target": "target"}[name]
+        value = np.broadcast_to(values[field_of], beyond.shape).flat[i]
+        code = np.broadcast_to(values["scale"], beyond.shape).flat[i]
+        raise InputError(_overflow_message(name, value, str(code)))
     notes = _notes(values, freq, out, target is None)
     scalar_scale = values["scale"].ndim == 0
     return EValueResult(
@@ -477,7 +505,7 @@ def _notes(
             f"{where} confidence interval includes the {goal}: its E-value is 1 "
             "(no confounding is needed to reach it)."
         )
-    if np.any(out["rr"] == out["rr_target"]):
+    if np.any(values["estimate"] == values["target"]):
         notes.append("The estimate equals the target: its E-value is 1.")
     return notes
 
@@ -518,6 +546,11 @@ def evalue_rows(columns: dict[str, object], n: int) -> tuple[dict[str, np.ndarra
         np.where(good, freq, "rare"),
         safe["target"],
     )
+    beyond = np.where(good, _beyond_double(safe, out), "")
+    for i in np.flatnonzero(beyond != ""):
+        field_of = {"estimate": "estimate", "ci": "lower", "target": "target"}[beyond[i]]
+        reasons[i] = _overflow_message(beyond[i], values[field_of][i], values["scale"][i])
+    good = reasons == ""
     out = {k: np.where(good, v, np.nan) for k, v in out.items()}
     out["outcome"] = np.where(good, freq, "").astype(object)
     return out, reasons

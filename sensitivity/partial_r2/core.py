@@ -46,8 +46,16 @@ def partial_r2_of_t(t: ArrayLike, dof: ArrayLike) -> np.ndarray:
     >>> round(float(partial_r2_of_t(4.18, 783)), 3)
     0.022
     """
-    t2 = np.square(np.asarray(t, float))
-    return t2 / (t2 + np.asarray(dof, float))
+    f = np.abs(np.asarray(t, float)) / np.sqrt(np.asarray(dof, float))
+    return _share(f)
+
+
+def _share(f: np.ndarray) -> np.ndarray:
+    """f² / (1 + f²) for f >= 0 without overflow (f = 1e300) or underflow of the ratio."""
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        big = 1 / (1 + np.square(1 / f))
+        small = np.square(f) / (1 + np.square(f))
+    return np.where(f > 1, big, small)
 
 
 def partial_r2_of_f(f_stat: ArrayLike, df_num: ArrayLike, dof: ArrayLike) -> np.ndarray:
@@ -56,7 +64,7 @@ def partial_r2_of_f(f_stat: ArrayLike, df_num: ArrayLike, dof: ArrayLike) -> np.
     ``F q / (F q + dof)``; with one regressor (F = t²) this is `partial_r2_of_t`.
     """
     fq = np.asarray(f_stat, float) * np.asarray(df_num, float)
-    return fq / (fq + np.asarray(dof, float))
+    return _share(np.sqrt(fq / np.asarray(dof, float)))
 
 
 def robustness_value(
@@ -110,14 +118,22 @@ def robustness_value(
         return _rv_curve(fq)
     fstar = t_critical(alpha, dof - 1) / np.sqrt(dof - 1)
     fa = fq - fstar
-    with np.errstate(divide="ignore", invalid="ignore"):
-        extreme = (fq**2 - fstar**2) / (1 + fq**2)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        # (fq² - f*²) / (1 + fq²), divided through by fq² so fq = 1e300 does not overflow
+        extreme = (1 - np.square(fstar / fq)) / (1 + np.square(1 / fq))
     return np.where(fq <= fstar, 0.0, np.where(fq < 1 / fstar, _rv_curve(fa), extreme))
 
 
-def _rv_curve(f):
-    f2 = np.square(f)
-    return (np.sqrt(f2**2 + 4 * f2) - f2) / 2
+def _rv_curve(f: np.ndarray) -> np.ndarray:
+    """(sqrt(f^4 + 4 f^2) - f^2) / 2, written as 2 f / (f + sqrt(f^2 + 4)).
+
+    The two are equal for f >= 0; the second neither overflows (f = 1e300 gives 1) nor
+    loses the small values (f = 1e-200 gives 1e-200) to cancellation.
+    """
+    f = np.abs(np.asarray(f, float))
+    with np.errstate(invalid="ignore", over="ignore"):
+        out = 2 * f / (f + np.hypot(f, 2.0))
+    return np.where(np.isinf(f), 1.0, out)
 
 
 def bias(
