@@ -42,7 +42,8 @@ class Command(click.Command):
                 n = 0 if param.is_flag or param.count else param.nargs
                 for name in param.opts + param.secondary_opts:
                     takes[name] = n
-        out, skip = [], 0
+        out: list[str] = []
+        skip = 0
         for token in args:
             if skip:
                 skip -= 1
