@@ -27,7 +27,8 @@ class Table:
 
 
 def number(value: float | np.ndarray | None, digits: int = 2) -> str:
-    """A fixed-decimals cell; missing values print as an en dash-free '-'."""
+    """A fixed-decimals cell; '-' when missing. Values too large or too small for fixed
+    decimals to show (1e12, or 3e-5 at two decimals) keep their meaning in scientific form."""
     if value is None:
         return "-"
     value = float(value)
@@ -35,6 +36,9 @@ def number(value: float | np.ndarray | None, digits: int = 2) -> str:
         return "-"
     if math.isinf(value):
         return "inf" if value > 0 else "-inf"
+    size = abs(value)
+    if size >= 1e9 or 0 < size < 0.5 * 10.0**-digits:
+        return f"{value:.{max(digits, 2) + 1}g}" if size < 1e9 else f"{value:.3e}"
     return f"{value:.{digits}f}"
 
 

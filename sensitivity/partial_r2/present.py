@@ -24,7 +24,7 @@ def _level(r: PartialR2Result) -> str:
 
 def _num(r: PartialR2Result, x: float | None) -> str:
     """Estimate-scale numbers with decimals set by the se (two significant digits of it)."""
-    digits = int(min(8, max(2, 1 - np.floor(np.log10(r.se)))))
+    digits = int(min(8, max(2, 1 - np.floor(np.log10(r.se))))) if r.se > 0 else 2
     return number(x, digits)
 
 
@@ -33,7 +33,7 @@ def table(r: PartialR2Result) -> Table:
     goal = "zero" if q == 1 else f"{1 - q:g} × its value"
     rows = [
         ("Estimate (se)", f"{_num(r, r.estimate)} ({_num(r, r.se)})"),
-        ("t on dof", f"{r.t:.3f} on {r.dof:g}"),
+        ("t on dof", f"{number(r.t, 3)} on {r.dof:g}"),
         ("Partial R² of treatment with outcome", percent(r.partial_r2)),
         (f"Robustness value: bring the estimate to {goal}", percent(r.robustness_value)),
         (

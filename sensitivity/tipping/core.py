@@ -669,7 +669,8 @@ def partial_r2_grid(
     # Distance the bias must cover: it shrinks |estimate|, so a target beyond the estimate
     # (away from zero) is never reached by the estimate itself.
     toward = np.sign(est - tgt) == np.sign(est) or est == tgt
-    d = abs(est - tgt) if toward else np.nan
+    d = np.float64(abs(est - tgt) if toward else np.nan)
+    se, dof = np.float64(se), np.float64(dof)  # numpy arithmetic: overflow gives inf, not an error
     crit = float(t_critical(alpha, dof - 1))
 
     def reached_at(key: str) -> Callable[[np.ndarray], np.ndarray]:
