@@ -26,7 +26,7 @@ _EXPORTS = {
     "EValueResult": "evalues",
     "partial_r2_summary": "partial_r2",
     "PartialR2Result": "partial_r2",
-    "robustness_value": "partial_r2",
+    "robustness_value_of_t": "partial_r2",
     "partial_r2_from_model": "adapters.statsmodels",
     "partial_r2_from_data": "adapters.statsmodels",
     "binary_confounder_grid": "tipping",

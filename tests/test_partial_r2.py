@@ -7,12 +7,12 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from sensitivity.partial_r2 import (
+    adjusted_for_confounder,
     benchmark_strengths,
-    bias,
-    bias_adjusted,
+    bias_of_confounder,
     partial_r2_of_t,
     partial_r2_summary,
-    robustness_value,
+    robustness_value_of_t,
     t_critical,
 )
 
@@ -30,7 +30,9 @@ def test_published_summary(case, stat):
 def _brute_rv(t, dof, alpha=None, fraction=1.0, n=2001):
     """Least max(R2_t, R2_y) over a fine grid at which the conclusion tips."""
     g = np.linspace(0, 1, n)[:-1]
-    adj = bias_adjusted(t, 1.0, dof, g[:, None], g[None, :], alpha or 0.05)
+    adj = adjusted_for_confounder(
+        g[:, None], g[None, :], estimate=t, se=1.0, dof=dof, alpha=alpha or 0.05
+    )
     target = (1 - fraction) * t
     if alpha is None:
         hit = adj["estimate"] <= target
@@ -52,7 +54,7 @@ def _brute_rv(t, dof, alpha=None, fraction=1.0, n=2001):
     ],
 )
 def test_robustness_values_match_brute_force(t, dof, alpha, fraction):
-    rv = float(robustness_value(t, dof, fraction, alpha))
+    rv = float(robustness_value_of_t(t, dof=dof, fraction=fraction, alpha=alpha))
     assert rv == pytest.approx(_brute_rv(t, dof, alpha, fraction), abs=1.5e-3)
 
 
@@ -61,11 +63,13 @@ def test_extreme_branch_is_taken():
     fstar = float(t_critical(0.05, 39)) / np.sqrt(39)
     assert fq >= 1 / fstar
     expected = (fq**2 - fstar**2) / (1 + fq**2)
-    assert float(robustness_value(30, 40, alpha=0.05)) == pytest.approx(expected, rel=1e-12)
+    assert float(robustness_value_of_t(30, dof=40, alpha=0.05)) == pytest.approx(
+        expected, rel=1e-12
+    )
 
 
 def test_not_significant_gives_zero():
-    assert float(robustness_value(1.5, 100, alpha=0.05)) == 0.0
+    assert float(robustness_value_of_t(1.5, dof=100, alpha=0.05)) == 0.0
     res = partial_r2_summary(1.5, se=1.0, dof=100)
     assert "already not significant" in res.sentence()
 
@@ -95,23 +99,30 @@ def test_capped_outcome_side_warns():
 @given(st.floats(0.1, 50), st.floats(0.1, 50), st.integers(3, 10_000))
 def test_robustness_values_rise_with_abs_t(t1, t2, dof):
     lo, hi = sorted((t1, t2))
-    assert robustness_value(hi, dof) >= robustness_value(lo, dof) - 1e-15
-    assert robustness_value(hi, dof, alpha=0.05) >= robustness_value(lo, dof, alpha=0.05) - 1e-15
-    assert robustness_value(-hi, dof) == robustness_value(hi, dof)
+    assert robustness_value_of_t(hi, dof=dof) >= robustness_value_of_t(lo, dof=dof) - 1e-15
+    assert (
+        robustness_value_of_t(hi, dof=dof, alpha=0.05)
+        >= robustness_value_of_t(lo, dof=dof, alpha=0.05) - 1e-15
+    )
+    assert robustness_value_of_t(-hi, dof=dof) == robustness_value_of_t(hi, dof=dof)
 
 
 @given(st.floats(0, 0.98), st.floats(0, 0.98), st.floats(0, 0.98), st.floats(0, 0.98))
 def test_bias_grows_with_both_strengths(a, b, c, d):
     t_lo, t_hi = sorted((a, b))
     y_lo, y_hi = sorted((c, d))
-    assert bias(1.0, 100, t_hi, y_hi) >= bias(1.0, 100, t_lo, y_lo)
-    assert bias(1.0, 100, t_hi, y_lo) >= bias(1.0, 100, t_lo, y_lo)
+    assert bias_of_confounder(t_hi, y_hi, se=1.0, dof=100) >= bias_of_confounder(
+        t_lo, y_lo, se=1.0, dof=100
+    )
+    assert bias_of_confounder(t_hi, y_lo, se=1.0, dof=100) >= bias_of_confounder(
+        t_lo, y_lo, se=1.0, dof=100
+    )
 
 
 @given(st.floats(-20, 20).filter(lambda t: abs(t) > 1e-3), st.integers(3, 5000))
 def test_partial_r2_in_unit_interval_and_rv_below_one(t, dof):
     assert 0 < partial_r2_of_t(t, dof) < 1
-    assert 0 <= robustness_value(t, dof) < 1
+    assert 0 <= robustness_value_of_t(t, dof=dof) < 1
 
 
 # ----------------------------------------------------------------------- bad input

@@ -13,7 +13,7 @@ import statsmodels.formula.api as smf
 
 from sensitivity.adapters.statsmodels import partial_r2_from_data, partial_r2_from_model
 from sensitivity.common.errors import SensitivityWarning
-from sensitivity.partial_r2 import bias, se_with_confounder
+from sensitivity.partial_r2 import bias_of_confounder, se_of_confounder
 
 COVARIATES = "age + yrs_married + educ + C(religious)"
 FORMULA = f"affairs ~ rate_marriage + {COVARIATES}"
@@ -48,9 +48,9 @@ def test_bias_and_se_equal_the_refit(fair, omitted):
         restricted.bse["rate_marriage"],
         restricted.df_resid,
     )
-    got_bias = float(bias(se, dof, r2_treatment, r2_outcome))
+    got_bias = float(bias_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof))
     assert got_bias == pytest.approx(abs(b - full.params["rate_marriage"]), rel=1e-8)
-    got_se = float(se_with_confounder(se, dof, r2_treatment, r2_outcome))
+    got_se = float(se_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof))
     assert got_se == pytest.approx(full.bse["rate_marriage"], rel=1e-8)
 
 

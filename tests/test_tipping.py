@@ -7,7 +7,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from sensitivity.evalues import bounding_factor, evalue_of_rr
-from sensitivity.partial_r2 import bias_adjusted
+from sensitivity.partial_r2 import adjusted_for_confounder
 from sensitivity.tipping import (
     MAX_CELLS,
     binary_confounder_grid,
@@ -145,7 +145,7 @@ def test_bounding_grid_curve_passes_through_the_evalue():
 def test_partial_r2_view_reuses_the_partial_r2_computation():
     r2t, r2y = value_range(0, 0.3, 0.05), value_range(0, 0.3, 0.05)
     g = partial_r2_grid(0.097, 0.0232, 783, r2_treatment=r2t, r2_outcome=r2y)
-    ref = bias_adjusted(0.097, 0.0232, 783, r2t[:, None], r2y[None, :])
+    ref = adjusted_for_confounder(r2t[:, None], r2y[None, :], estimate=0.097, se=0.0232, dof=783)
     np.testing.assert_array_equal(g.cells["bias_adjusted_estimate"], ref["estimate"])
     np.testing.assert_array_equal(g.cells["bias_adjusted_ci_lower"], ref["lower"])
 
@@ -371,7 +371,7 @@ def test_partial_r2_grid_equals_a_scalar_loop(r2ts, r2ys):
     grid = partial_r2_grid(0.097, 0.0232, 783, r2_treatment=r2ts, r2_outcome=r2ys)
     for i, a in enumerate(r2ts):
         for j, b in enumerate(r2ys):
-            one = bias_adjusted(0.097, 0.0232, 783, a, b)
+            one = adjusted_for_confounder(a, b, estimate=0.097, se=0.0232, dof=783)
             assert grid.cells["bias_adjusted_estimate"][i, j] == float(one["estimate"])
             assert grid.cells["bias_adjusted_ci_upper"][i, j] == float(one["upper"])
 

@@ -67,8 +67,8 @@ def partial_r2_of_f(f_stat: ArrayLike, df_num: ArrayLike, dof: ArrayLike) -> np.
     return _share(np.sqrt(fq / np.asarray(dof, float)))
 
 
-def robustness_value(
-    t: ArrayLike, dof: ArrayLike, fraction: ArrayLike = 1.0, alpha: float | None = None
+def robustness_value_of_t(
+    t: ArrayLike, *, dof: ArrayLike, fraction: ArrayLike = 1.0, alpha: float | None = None
 ) -> np.ndarray:
     """Robustness value: the equal partial R² (with treatment and outcome) that suffices.
 
@@ -106,9 +106,9 @@ def robustness_value(
     --------
     The published summary example (t = 4.18, dof = 783): 13.9% and, at alpha 0.05, 7.6%.
 
-    >>> round(float(robustness_value(4.18, 783)), 3)
+    >>> round(float(robustness_value_of_t(4.18, dof=783)), 3)
     0.139
-    >>> round(float(robustness_value(4.18, 783, alpha=0.05)), 3)
+    >>> round(float(robustness_value_of_t(4.18, dof=783, alpha=0.05)), 3)
     0.076
     """
     t = np.asarray(t, float)
@@ -136,8 +136,8 @@ def _rv_curve(f: np.ndarray) -> np.ndarray:
     return np.where(np.isinf(f), 1.0, out)
 
 
-def bias(
-    se: ArrayLike, dof: ArrayLike, r2_treatment: ArrayLike | None, r2_outcome: ArrayLike | None
+def bias_of_confounder(
+    r2_treatment: ArrayLike, r2_outcome: ArrayLike, *, se: ArrayLike, dof: ArrayLike
 ) -> np.ndarray:
     """|Bias| of the coefficient from a confounder of the given strengths.
 
@@ -149,8 +149,8 @@ def bias(
     return np.asarray(se, float) * np.sqrt(dof) * np.sqrt(r2y * r2t / (1 - r2t))
 
 
-def se_with_confounder(
-    se: ArrayLike, dof: ArrayLike, r2_treatment: ArrayLike | None, r2_outcome: ArrayLike | None
+def se_of_confounder(
+    r2_treatment: ArrayLike, r2_outcome: ArrayLike, *, se: ArrayLike, dof: ArrayLike
 ) -> np.ndarray:
     """Standard error the coefficient would have with the confounder in the model.
 
@@ -162,12 +162,13 @@ def se_with_confounder(
     return np.asarray(se, float) * np.sqrt((1 - r2y) / (1 - r2t)) * np.sqrt(d / (d - 1))
 
 
-def bias_adjusted(
+def adjusted_for_confounder(
+    r2_treatment: ArrayLike,
+    r2_outcome: ArrayLike,
+    *,
     estimate: ArrayLike,
     se: ArrayLike,
     dof: ArrayLike,
-    r2_treatment: ArrayLike | None,
-    r2_outcome: ArrayLike | None,
     alpha: float = 0.05,
 ) -> dict[str, np.ndarray]:
     """Estimate, se, t and CI with a confounder of the given strengths (broadcasting).
@@ -182,9 +183,9 @@ def bias_adjusted(
         ``bias``, ``estimate``, ``se``, ``t``, ``lower``, ``upper``.
     """
     est = np.asarray(estimate, float)
-    b = bias(se, dof, r2_treatment, r2_outcome)
+    b = bias_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
     adj = est - np.sign(est) * b
-    s = se_with_confounder(se, dof, r2_treatment, r2_outcome)
+    s = se_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
     crit = t_critical(alpha, np.asarray(dof, float) - 1)
     with np.errstate(divide="ignore", invalid="ignore"):
         t = adj / s
@@ -299,7 +300,7 @@ def hypothetical_scenarios(
         raise InputError(
             f"`r2_treatment` and `r2_outcome` must come in pairs; got {r2t.size} and {r2y.size}"
         )
-    adj = bias_adjusted(estimate, se, dof, r2t, r2y, alpha)
+    adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
     out = []
     for i in range(r2t.size):
         out.append(
@@ -328,7 +329,7 @@ def benchmark_scenarios(
     out = []
     for kt, ky in k_pairs:
         r2t, r2y, capped = benchmark_strengths(covariate.r2_treatment, covariate.r2_outcome, kt, ky)
-        adj = bias_adjusted(estimate, se, dof, r2t, r2y, alpha)
+        adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
         k = f"{kt:g}x" if kt == ky else f"{kt:g}x/{ky:g}x"
         if bool(capped):
             warnings.warn(
@@ -469,8 +470,10 @@ def assemble(
         partial_r2=float(partial_r2_of_t(t, dof)),
         fraction=fraction,
         alpha=alpha,
-        robustness_value=float(robustness_value(t, dof, fraction)),
-        robustness_value_alpha=float(robustness_value(t, dof, fraction, alpha)),
+        robustness_value=float(robustness_value_of_t(t, dof=dof, fraction=fraction)),
+        robustness_value_alpha=float(
+            robustness_value_of_t(t, dof=dof, fraction=fraction, alpha=alpha)
+        ),
         scenarios=tuple(hyp) + tuple(scenarios),
         evalue=ev,
         notes=tuple(notes),
@@ -486,10 +489,12 @@ def surface(
     r2_outcome: ArrayLike | None,
     alpha: float = 0.05,
 ) -> dict[str, np.ndarray]:
-    """`bias_adjusted` over the grid of two 1-d strength vectors (rows: r2_treatment).
+    """`adjusted_for_confounder` over the grid of two 1-d strength vectors (rows: r2_treatment).
 
     The shared computation behind the contour figure and the partial-R² tipping grid.
     """
     r2t = np.atleast_1d(require(r2_treatment, "r2_treatment", R2_STRENGTH))
     r2y = np.atleast_1d(require(r2_outcome, "r2_outcome", R2_STRENGTH))
-    return bias_adjusted(estimate, se, dof, r2t[:, None], r2y[None, :], alpha)
+    return adjusted_for_confounder(
+        r2t[:, None], r2y[None, :], estimate=estimate, se=se, dof=dof, alpha=alpha
+    )

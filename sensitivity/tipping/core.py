@@ -618,15 +618,17 @@ def partial_r2_grid(
     """
     from ..partial_r2.core import (
         _check_summary,
-        bias_adjusted,
-        robustness_value,
+        adjusted_for_confounder,
+        robustness_value_of_t,
         surface,
         t_critical,
     )
 
     est, se, dof, _, alpha = _check_summary(estimate, se, dof, None, 1.0, alpha)
     tgt = float(require(0.0 if target is None else target, "target"))
-    default = default_ranges("partial-r2", robustness_value=float(robustness_value(est / se, dof)))
+    default = default_ranges(
+        "partial-r2", robustness_value=float(robustness_value_of_t(est / se, dof=dof))
+    )
     r2t = _axis(_or(r2_treatment, default["r2_treatment"]), "r2_treatment", R2_STRENGTH)
     r2y = _axis(_or(r2_outcome, default["r2_outcome"]), "r2_outcome", R2_STRENGTH)
     axes = (("r2_treatment", r2t), ("r2_outcome", r2y))
@@ -676,7 +678,7 @@ def partial_r2_grid(
     def reached_at(key: str) -> Callable[[np.ndarray], np.ndarray]:
         def reached(x: np.ndarray) -> np.ndarray:
             pair = (x, other) if j == 0 else (other, x)
-            adj = bias_adjusted(est, se, dof, *pair, alpha)
+            adj = adjusted_for_confounder(*pair, estimate=est, se=se, dof=dof, alpha=alpha)
             return _reaches(adj[key], tgt, side, slack)
 
         return reached
