@@ -178,7 +178,7 @@ def test_notebook_view_shows_everything_the_text_shows(name):
 
 def test_the_data_result_shows_scenarios_covariates_and_assumptions_in_html():
     page = _data_result()._repr_html_()
-    for piece in ("1x as strong as age", "Strength of each observed covariate", "Assumptions"):
+    for piece in ("age ×1", "Measured covariates for comparison", "Assumptions"):
         assert html.escape(piece) in page
 
 

@@ -90,9 +90,9 @@ def test_data_text_has_table_sentence_and_covariates(run, fair_csv):
     res = run(*data_args(fair_csv, "--benchmark", "age", "--times-pair", 1, 3))
     assert res.exit_code == 0, res.stderr
     out = " ".join(res.stdout.split())
-    assert "1x/3x as strong as age" in out
-    assert "Strength of each observed covariate" in out
-    assert "E-value via standardized difference" in out
+    assert "age ×1/×3" in out  # labels built from the scenario's fields (issue 9)
+    assert "Measured covariates for comparison" in out
+    assert "E-value alongside (per unit; estimate / 95% CI)" in out
     assert "Benchmarks compare a hidden confounder with covariates that were measured" in out
 
 
@@ -147,7 +147,7 @@ def test_capped_benchmark_warns_on_one_line(run, tmp_path):
         2,
     )
     assert res.exit_code == 0
-    assert res.stderr.startswith("Warning: the 2x `x` bound on the outcome side exceeds 1")
+    assert res.stderr.startswith("Warning: a confounder x ×2 would need an outcome-side partial R²")
     res = run(
         "partial-r2",
         "--data",
@@ -242,12 +242,12 @@ def test_bad_input_exits_2(run, args, message):
         (
             ("--treatment", "nope"),
             FORMULA,
-            "Error: `treatment` 'nope' is not a coefficient of the model",
+            "Error: `treatment` 'nope' is not a column of the data; columns: rate_marriage",
         ),
         (
             ("--treatment", "rate_marriage", "--benchmark", "height"),
             FORMULA,
-            "Error: `benchmark` 'height' is not an observed covariate",
+            "Error: `benchmark` 'height' is not a column of the data; columns: rate_marriage",
         ),
         (
             ("--treatment", "rate_marriage"),

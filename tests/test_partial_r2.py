@@ -71,7 +71,7 @@ def test_extreme_branch_is_taken():
 def test_not_significant_gives_zero():
     assert float(robustness_value_of_t(1.5, dof=100, alpha=0.05)) == 0.0
     res = partial_r2_summary(1.5, se=1.0, dof=100)
-    assert "already not significant" in res.sentence()
+    assert "confidence interval already includes zero" in res.sentence()
 
 
 def test_benchmark_at_k1_on_the_treatment_side():

@@ -228,7 +228,7 @@ def test_missing_rows_are_noted(fair):
         (
             lambda p: p.write_text("affairs,rate_marriage\n1,2\n3,4\n5,7\n"),
             "affairs ~ rate_marriage + height",
-            r"`formula` .* could not be fitted",
+            r"`formula` uses column 'height', which is not in the data; columns: affairs",
         ),
         (
             lambda p: p.write_text("affairs,rate_marriage\na,2\nb,4\nc,7\n"),

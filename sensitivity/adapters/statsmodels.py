@@ -254,6 +254,70 @@ def partial_r2_from_model(
     )
 
 
+def formula_columns(formula: str) -> tuple[list[str], list[str]]:
+    """The data columns a formula reads, left side and right side, from its terms' code.
+
+    Names that are called (``C(x)``, ``np.log(x)``) or reached through an attribute are
+    functions, not columns; ``Q("a b")`` names a column by its string.
+    """
+    import ast
+
+    if not isinstance(formula, str) or "~" not in formula:
+        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
+    sides = formula.split("~", 1)
+    found: list[list[str]] = [[], []]
+    for side, text in enumerate(sides):
+        for piece in re.split(r"[+*:|/]|\*\*|-(?![^()]*\))", text):
+            piece = piece.strip()
+            if not piece or piece in ("0", "1", "-1"):
+                continue
+            try:
+                tree = ast.parse(piece, mode="eval")
+            except SyntaxError:
+                continue  # left to the formula engine, which names the problem
+            calls = {id(n.func) for n in ast.walk(tree) if isinstance(n, ast.Call)}
+            attrs = {id(n.value) for n in ast.walk(tree) if isinstance(n, ast.Attribute)}
+            for node in ast.walk(tree):
+                if isinstance(node, ast.Call) and getattr(node.func, "id", "") == "Q":
+                    if node.args and isinstance(node.args[0], ast.Constant):
+                        found[side].append(str(node.args[0].value))
+                elif (
+                    isinstance(node, ast.Name)
+                    and id(node) not in calls
+                    and id(node) not in attrs
+                    and node.id not in ("True", "False", "None")
+                ):
+                    found[side].append(node.id)
+    return found[0], found[1]
+
+
+def check_names(data: Any, formula: str, treatment: str, benchmarks: Any = ()) -> None:
+    """Refuse, before any fit, a formula, treatment or benchmark naming a missing column."""
+    left, right = formula_columns(formula)
+    columns = [str(c) for c in data.columns]
+    shown = ", ".join(columns[:30]) + (", ..." if len(columns) > 30 else "")
+    for name in left + right:
+        if name not in columns:
+            raise InputError(
+                f"`formula` uses column {name!r}, which is not in the data; columns: {shown}"
+            )
+    if treatment not in columns and not re.search(r"[\[\](]", treatment):
+        raise InputError(f"`treatment` {treatment!r} is not a column of the data; columns: {shown}")
+    if treatment in columns and treatment not in right:
+        raise InputError(
+            f"`treatment` {treatment!r} is a column of the data but not a term of the "
+            f"formula's right side: {formula.split('~', 1)[1].strip()}"
+        )
+    for name in benchmarks:
+        if name not in columns and not any(name == c or name in c for c in right):
+            raise InputError(f"`benchmark` {name!r} is not a column of the data; columns: {shown}")
+        if name in columns and name not in right:
+            raise InputError(
+                f"`benchmark` {name!r} is not in the formula: a benchmark must be a measured "
+                "covariate of the model"
+            )
+
+
 def fit_formula(data: Any, formula: str) -> tuple[Any, list[str]]:
     """Fit OLS of `formula` on a DataFrame; ValueError names `formula` for any problem."""
     import statsmodels.formula.api as smf
@@ -297,5 +361,6 @@ def partial_r2_from_data(
         from .files import read_table
 
         data = read_table(data, "data")
+    check_names(data, formula, treatment, options.get("benchmarks", ()))
     results, notes = fit_formula(data, formula)
     return partial_r2_from_model(results, treatment, notes=notes, **options)

@@ -24,6 +24,13 @@ SHORT_HELP = COMMANDS["evalue"][1]
     metavar="LOWER UPPER",
     help="Confidence limits on the same scale as ESTIMATE.",
 )
+@click.option(
+    "--ci-level",
+    type=float,
+    default=0.95,
+    show_default=True,
+    help="The level of --ci, as the sentence names it (0.9 for a 90% CI).",
+)
 @click.option("--se", type=float, default=None, help="Standard error (smd and md).")
 @click.option(
     "--sd",
@@ -70,6 +77,7 @@ def evalue_cmd(
     scale: Any,
     estimate: Any,
     ci: Any,
+    ci_level: Any,
     se: Any,
     sd: Any,
     contrast: Any,
@@ -84,11 +92,12 @@ def evalue_cmd(
 
     \b
     Examples:
-      sensitivity evalue rr 3.9 --ci 1.8 8.7
-      sensitivity evalue or 2.1 --ci 1.4 3.15 --outcome-frequency common
-      sensitivity evalue hr 0.72 --ci 0.6 0.86 --prevalence 0.3
-      sensitivity evalue md 0.42 --se 0.11 --sd 12 --contrast 10
-      sensitivity evalue rr 3.9 --ci 1.8 8.7 --confounder 2 3 --confounder 4 4
+      sensitivity evalue hr 1.38 --ci 1.12 1.70 --outcome-frequency rare
+      sensitivity evalue or 2.40 --ci 1.80 3.20 --outcome-frequency common
+      sensitivity evalue rr 0.81 --ci 0.69 0.95
+      sensitivity evalue smd 0.18 --se 0.05
+      sensitivity evalue md 0.035 --se 0.012 --sd 14 --contrast 10
+      sensitivity evalue hr 1.38 --ci 1.12 1.70 --outcome-frequency rare --confounder 1.5 2
     """
     from sensitivity.evalues.core import evalue
 
@@ -105,6 +114,7 @@ def evalue_cmd(
         outcome=outcome,
         prevalence=prevalence,
         target=target,
+        ci_level=ci_level,
     )
     if confounders:
         rr_t, rr_y = zip(*confounders, strict=True)

@@ -115,7 +115,7 @@ def partial_r2_cmd(
 
     \b
     Examples:
-      sensitivity partial-r2 --estimate 0.097 --se 0.0232 --dof 783
+      sensitivity partial-r2 --estimate 0.114 --se 0.027 --dof 1192
       sensitivity partial-r2 --data demo/harbourside_bp.csv \\
           --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
           --treatment commute_min --benchmark smoker --times 1 --times 2 --plot contours.png

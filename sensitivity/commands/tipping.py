@@ -101,8 +101,9 @@ def tipping_cmd(
       sensitivity tipping --scale rr --estimate 1.8 --ci 1.2 2.7 --prevalence-control 0.2
       sensitivity tipping --scale md --estimate 2.4 --ci 0.8 4.0 \\
           --prevalence-treated 0.5 --prevalence-control 0:0.5:0.05 --outcome-effect 0:10:0.5
-      sensitivity tipping --kind bounding --scale rr --estimate 3.9 --ci 1.8 8.7 --plot b.png
-      sensitivity tipping --kind partial-r2 --estimate 0.097 --se 0.0232 --dof 783
+      sensitivity tipping --kind bounding --scale hr --estimate 1.38 --ci 1.12 1.70 \\
+          --outcome-frequency rare --plot b.png
+      sensitivity tipping --kind partial-r2 --estimate 0.114 --se 0.027 --dof 1192
     """
     from sensitivity.tipping import core as tp
 

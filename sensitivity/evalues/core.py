@@ -22,6 +22,7 @@ import numpy as np
 from ..common.checks import (
     AT_LEAST_ONE,
     FINITE,
+    OPEN_UNIT,
     POSITIVE,
     PROBABILITY,
     Check,
@@ -362,6 +363,7 @@ def evalue(
     outcome: object = None,
     prevalence: object = None,
     target: object = None,
+    ci_level: float = 0.95,
 ) -> EValueResult:
     """E-values of an adjusted estimate and its confidence interval, on any common scale.
 
@@ -388,6 +390,10 @@ def evalue(
         The outcome's prevalence, instead of `outcome`: below 0.15 counts as rare.
     target : array_like, optional
         True value to test against, on `scale` (default: the null, 1 or 0).
+    ci_level : float, default 0.95
+        The confidence level of `ci` (or of the interval made from `se`), as the sentences
+        name it. With `se` the interval is the 95% one of VanderWeele & Ding (2017) whatever
+        this says; give `ci` for another level.
 
     Returns
     -------
@@ -418,6 +424,12 @@ def evalue(
     >>> round(float(res.evalue), 2), round(float(res.evalue_ci), 2)
     (7.26, 3.0)
     """
+    level = float(require(ci_level, "ci_level", OPEN_UNIT))
+    if se is not None and level != 0.95:
+        raise InputError(
+            "`ci_level` applies to a `ci` you give; the interval from `se` is the 95% one "
+            "(exp(0.91 d -/+ 1.78 se))"
+        )
     values = _inputs(scale, estimate, ci, se, sd, contrast, outcome, prevalence, target)
     try:
         require_all(values, CHECKS)
@@ -460,6 +472,7 @@ def evalue(
         evalue=out["evalue"],
         evalue_ci=None if np.all(np.isnan(out["evalue_ci"])) else out["evalue_ci"],
         notes=tuple(notes),
+        ci_level=level,
     )
 
 
@@ -496,7 +509,9 @@ def _notes(
         notes.append(f"The outcome's frequency does not enter the {scale} scale; ignored.")
     no_ci = ~given(values["se"]) & ~given(values["lower"])
     if np.any(no_ci & ~_ratio(scale)):
-        notes.append("No `se` or `ci` given: only the estimate's E-value is computed.")
+        notes.append(
+            "No standard error or interval given: only the estimate's E-value is computed."
+        )
     covers = (out["rr_lower"] <= out["rr_target"]) & (out["rr_upper"] >= out["rr_target"])
     if np.any(covers):
         where = "The" if values["estimate"].ndim == 0 else "For some rows the"

@@ -57,7 +57,7 @@ def estimate_table(result: EValueResult) -> Table:
                     contrast=1.0 if rec["contrast"] is None else rec["contrast"],
                 )
             )
-        limit: tuple[str, ...] = ("  CI limit nearest the " + near, number(observed))
+        limit: tuple[str, ...] = (f"  {_level(result)} limit nearest the {near}", number(observed))
         limit += (number(lo_rr if lower_nearer else up_rr),) if show_rr else ()
         rows.append((*limit, number(rec["evalue_ci"])))
     conversion = result.conversion
@@ -69,34 +69,46 @@ def estimate_table(result: EValueResult) -> Table:
     return Table(columns=columns, rows=tuple(rows), title=f"E-values: {name}", footnotes=foot)
 
 
+def _level(result: EValueResult) -> str:
+    return f"{result.ci_level:.0%} CI"
+
+
 def sentence(result: EValueResult) -> str | None:
-    """One paste-ready sentence for a manuscript (scalar results only)."""
+    """One paste-ready sentence for a manuscript (scalar results only).
+
+    Exact in what it claims: the E-value is necessary, not sufficient, so the interval
+    clause says a confounder of that strength could move it.
+    """
     if not result.is_scalar:
         return None
     r = _records(result.own_columns())[0]
     name = SCALES[str(result.scale)].name
+    level = _level(result)
     ci = ""
     if r["ci_lower"] is not None:
-        ci = f" (CI {number(r['ci_lower'])} to {number(r['ci_upper'])})"
+        ci = f" ({level} {number(r['ci_lower'])} to {number(r['ci_upper'])})"
     elif r["se"] is not None:
         ci = f" (standard error {number(r['se'])})"
     conv = ""
     if result.scale != "rr" and not (result.scale in ("or", "hr") and result.outcome == "rare"):
-        conv = f", approximately a risk ratio of {number(r['rr'])},"
+        kind = f" for a {result.outcome} outcome" if result.scale in ("or", "hr") else ""
+        conv = f", about a risk ratio of {number(r['rr'])}{kind},"
     goal = _goal(result)
+    aim = "explaining the estimate away" if result.target_is_null else f"moving it to {goal}"
+    e, e_ci = number(r["evalue"]), r["evalue_ci"]
     text = (
-        f"For the observed {name} of {number(r['estimate'])}{ci}{conv} an unmeasured "
-        f"confounder would need a risk ratio of at least {number(r['evalue'])} with both "
-        f"the treatment and the outcome, beyond the measured covariates, to move the "
-        f"estimate to {goal} (E-value)"
+        f"For the observed {name} of {number(r['estimate'])}{ci}{conv or ','} {aim} would take an "
+        f"unmeasured confounder associated with both the treatment and the outcome by a risk "
+        f"ratio of at least {e} each, beyond the measured covariates (the E-value); a "
+        f"confounder weaker than that on both associations could not."
     )
-    if r["evalue_ci"] is None:
-        return text + "."
-    if r["evalue_ci"] <= 1:
-        return text + f"; the confidence interval already includes {goal}."
+    if e_ci is None:
+        return text
+    if e_ci <= 1:
+        return text + f" The {level} already includes {goal}."
     return text + (
-        f"; a risk ratio of at least {number(r['evalue_ci'])} with both would move the "
-        f"confidence interval to include {goal}."
+        f" One associated with both by a risk ratio of {number(e_ci)} each could move the "
+        f"{level} to include {goal}."
     )
 
 
@@ -124,7 +136,7 @@ def confounder_table(bound: ConfounderBound) -> Table:
             "RR with outcome",
             "Bounding factor",
             f"Estimate moved to ({str(src.scale).upper()})",
-            "CI limit moved to",
+            f"{_level(src)} limit moved to",
             f"Reaches {target}",
         ),
         rows=tuple(rows),
@@ -144,7 +156,10 @@ def confounder_sentences(bound: ConfounderBound) -> list[str]:
             f"{number(r['bias_adjusted_estimate'])}"
         )
         if r["bias_adjusted_ci_limit"] is not None:
-            text += f" and the nearest CI limit to {number(r['bias_adjusted_ci_limit'])}"
+            text += (
+                f" and the nearest {_level(bound.source)} limit to "
+                f"{number(r['bias_adjusted_ci_limit'])}"
+            )
         if r["explains_estimate"]:
             text += f"; it could explain the estimate away (reach {goal})."
         elif r["explains_ci"]:

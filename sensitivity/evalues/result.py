@@ -94,6 +94,7 @@ class EValueResult(Result):
     notes: tuple[str, ...]
     cautions: tuple[str, ...] = standing.EVALUE
     confounders: ConfounderBound | None = None
+    ci_level: float = 0.95
 
     _repr_fields = ("scale", "estimate", "ci", "evalue", "evalue_ci")
 
@@ -160,6 +161,7 @@ class EValueResult(Result):
                 "scale": self.scale,
                 "estimate": self.estimate,
                 "ci": pair(self.ci),
+                "ci_level": self.ci_level if self.rr_ci is not None else None,
                 "se": self.se,
                 "sd": self.sd,
                 "contrast": self.contrast if md else None,

@@ -10,7 +10,7 @@ import html
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 
-from .tables import Table, bullets, latex_escape, render, wrap
+from .tables import LATEX_PACKAGES, Table, bullets, latex_escape, render, wrap
 
 
 @dataclass(frozen=True)
@@ -52,7 +52,11 @@ class Document:
         blocks = self.tables if tables_only else [b for b in self.blocks if _nonempty(b)]
         if fmt == "html":
             return "<div class='sensitivity-result'>" + "".join(_html(b) for b in blocks) + "</div>"
-        return "\n\n".join(_render(b, fmt) for b in blocks)
+        body = "\n\n".join(_render(b, fmt) for b in blocks)
+        if fmt == "latex":
+            needs = ", ".join(LATEX_PACKAGES)
+            body = f"% Needs \\usepackage{{{needs}}} (rules in the tables); nothing else.\n{body}"
+        return body
 
 
 def _nonempty(block: Block) -> bool:

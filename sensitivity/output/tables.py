@@ -24,6 +24,10 @@ class Table:
     rows: tuple[tuple[str, ...], ...]
     title: str = ""
     footnotes: tuple[str, ...] = field(default=())
+    align: str = ""  # one letter a column, l or r; default: the first left, the rest right
+
+    def alignment(self) -> str:
+        return self.align or "l" + "r" * (len(self.columns) - 1)
 
 
 def number(value: float | np.ndarray | None, digits: int = 2) -> str:
@@ -43,9 +47,14 @@ def number(value: float | np.ndarray | None, digits: int = 2) -> str:
 
 
 def percent(value: float | np.ndarray | None, digits: int = 1) -> str:
+    """A share as a percentage; below 1% three significant digits keep its meaning (0.133%,
+    not 0.1%)."""
     if value is None or math.isnan(float(value)):
         return "-"
-    return f"{100 * float(value):.{digits}f}%"
+    pct = 100 * float(value)
+    if 0 < abs(pct) < 1:
+        return f"{pct:.3g}%"
+    return f"{pct:.{digits}f}%"
 
 
 WIDTH = 92
@@ -73,10 +82,14 @@ def _text(table: Table) -> str:
     cells = [table.columns, *table.rows]
     widths = [max(len(row[i]) for row in cells) for i in range(len(table.columns))]
 
+    align = table.alignment()
+
     def line(row):
-        first = row[0].ljust(widths[0])
-        rest = [c.rjust(w) for c, w in zip(row[1:], widths[1:], strict=True)]
-        return "  ".join([first, *rest]).rstrip()
+        cells = [
+            c.ljust(w) if a == "l" else c.rjust(w)
+            for c, w, a in zip(row, widths, align, strict=True)
+        ]
+        return "  ".join(cells).rstrip()
 
     out = [table.title] if table.title else []
     out += [line(table.columns), "  ".join("-" * w for w in widths)]
@@ -89,7 +102,7 @@ def _markdown(table: Table) -> str:
     def line(row):
         return "| " + " | ".join(c.replace("|", "\\|") for c in row) + " |"
 
-    align = "|" + "|".join([":---"] + ["---:"] * (len(table.columns) - 1)) + "|"
+    align = "|" + "|".join(":---" if a == "l" else "---:" for a in table.alignment()) + "|"
     out = [f"**{table.title}**", ""] if table.title else []
     out += [line(table.columns), align, *map(line, table.rows)]
     out += [""] + [f"*{n}*" for n in table.footnotes] if table.footnotes else []
@@ -113,15 +126,64 @@ _LATEX_ESCAPES = {
     "≤": r"$\leq$",
     "×": r"$\times$",
     "−": "-",
+    "≈": r"$\approx$",
+    "±": r"$\pm$",
+    "–": "--",
+    "—": "---",
+    "‘": "`",
+    "’": "'",
+    "“": "``",
+    "”": "''",
+    "…": r"\ldots{}",
+    "·": r"$\cdot$",
+    "µ": r"$\mu$",
+    "³": r"\textsuperscript{3}",
+    "°": r"$^\circ$",
+    "\u00a0": "~",
 }
+# Accents a name may carry (fumeur_été): base letter plus a combining mark, as LaTeX writes it.
+_ACCENTS = {
+    "\u0301": "'",
+    "\u0300": "`",
+    "\u0308": '"',
+    "\u0302": "^",
+    "\u0303": "~",
+    "\u0327": "c",
+}
+
+#: What the LaTeX output needs beyond plain LaTeX (said at the top of every LaTeX document).
+LATEX_PACKAGES = ("booktabs",)
 
 
 def latex_escape(text: str) -> str:
-    return "".join(_LATEX_ESCAPES.get(ch, ch) for ch in text)
+    """Text as LaTeX that compiles with no package beyond `LATEX_PACKAGES`: special
+    characters escaped and every non-ASCII character converted (pure ASCII out)."""
+    import unicodedata
+
+    out = []
+    for ch in text:
+        if ch in _LATEX_ESCAPES:
+            out.append(_LATEX_ESCAPES[ch])
+        elif ord(ch) < 128:
+            out.append(ch)
+        else:
+            base, *marks = unicodedata.normalize("NFD", ch)
+            if marks and marks[0] in _ACCENTS and ord(base) < 128:
+                cmd = _ACCENTS[marks[0]]
+                out.append(f"\\{cmd}{{{base}}}" if cmd == "c" else f"\\{cmd}{{{base}}}")
+            elif unicodedata.name(ch, "").startswith(("GREEK SMALL LETTER ", "GREEK CAPITAL")):
+                word = unicodedata.name(ch).split()[-1].lower()
+                out.append(
+                    f"$\\{word.capitalize() if 'CAPITAL' in unicodedata.name(ch) else word}$"
+                )
+            else:
+                ascii_form = unicodedata.normalize("NFKD", ch).encode("ascii", "ignore").decode()
+                out.append(ascii_form or "?")
+    return "".join(out)
 
 
 def _latex(table: Table) -> str:
-    spec = "l" + "r" * (len(table.columns) - 1)
+    spec = table.alignment()
     body = [" & ".join(latex_escape(c) for c in row) + r" \\" for row in table.rows]
     out = [r"\begin{table}[ht]", r"\centering"]
     if table.title:

@@ -330,11 +330,12 @@ def benchmark_scenarios(
     for kt, ky in k_pairs:
         r2t, r2y, capped = benchmark_strengths(covariate.r2_treatment, covariate.r2_outcome, kt, ky)
         adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
-        k = f"{kt:g}x" if kt == ky else f"{kt:g}x/{ky:g}x"
+        k = f"×{kt:g}" if kt == ky else f"×{kt:g}/×{ky:g}"
         if bool(capped):
             warnings.warn(
-                f"the {k} `{covariate.name}` bound on the outcome side exceeds 1 and was capped "
-                "at 1 (the confounder would explain all residual outcome variance)",
+                f"a confounder {covariate.name} {k} would need an outcome-side partial R² above "
+                "1; it was capped at 1 (the confounder would explain all residual outcome "
+                "variance)",
                 SensitivityWarning,
                 stacklevel=3,
             )

@@ -1,12 +1,18 @@
-"""Partial-R² results in words and tables: the Document every view renders."""
+"""Partial-R² results in words and tables: the Document every view renders.
+
+The layout leads with the answers (how strong a hidden confounder would have to be), puts the
+coefficient's own numbers in one header line, and lists named confounders verdict first.
+"""
 
 from __future__ import annotations
+
+import re
 
 import numpy as np
 
 from ..output.document import Block, Document, prose, standard_tail
 from ..output.tables import Table, number, percent
-from .result import PartialR2Result, Scenario
+from .result import CovariateStrength, PartialR2Result, Scenario
 
 
 def _per(contrast: float | np.ndarray) -> str:
@@ -28,32 +34,82 @@ def _num(r: PartialR2Result, x: float | None) -> str:
     return number(x, digits)
 
 
+def covariate_name(name: str) -> str:
+    """A formula term as a reader knows it: C(shift) is shift."""
+    match = re.fullmatch(r"C\(\s*([^,)]+?)\s*(,.*)?\)", name)
+    return match.group(1) if match else name
+
+
+def scenario_label(s: Scenario) -> str:
+    """A scenario named from its fields: "smoker ×2", "shift ×1/×3", "chosen 2% / 5%"."""
+    if s.kind == "benchmark":
+        kt, ky = s.k_treatment, s.k_outcome
+        times = f"×{kt:g}" if kt == ky else f"×{kt:g}/×{ky:g}"
+        return f"{covariate_name(s.benchmark or '')} {times}"
+    return f"chosen {percent(s.r2_treatment, 2)} / {percent(s.r2_outcome, 2)}"
+
+
+def _target(r: PartialR2Result) -> float:
+    return (1 - r.fraction) * r.estimate
+
+
+def _goal(r: PartialR2Result) -> str:
+    return "zero" if r.fraction == 1 else _num(r, _target(r))
+
+
+def verdict(r: PartialR2Result, s: Scenario) -> str:
+    """Where the scenario leaves the conclusion, in a few words."""
+    target = _target(r)
+    side = np.sign(r.estimate - target)
+    if side * (s.estimate - target) < 0:
+        return "sign reverses" if r.fraction == 1 else f"estimate passes {_goal(r)}"
+    if s.estimate == target:
+        return f"estimate reaches {_goal(r)}"
+    if s.ci[0] <= target <= s.ci[1]:
+        return f"CI includes {_goal(r)}"
+    return "conclusion holds"
+
+
+def header(r: PartialR2Result) -> str:
+    who = f"Coefficient of {r.treatment}" if r.treatment else "Coefficient"
+    on = f" on {r.outcome}" if r.outcome else ""
+    n = f"; n = {r.n:,}" if r.n is not None else ""
+    return (
+        f"{who}{on}: {_num(r, r.estimate)} (se {_num(r, r.se)}), t = {number(r.t, 2)} on "
+        f"{r.dof:,.0f} residual degrees of freedom{n}."
+    )
+
+
 def table(r: PartialR2Result) -> Table:
-    q = r.fraction
-    goal = "zero" if q == 1 else f"{1 - q:g} × its value"
+    goal = _goal(r)
     rows = [
-        ("Estimate (se)", f"{_num(r, r.estimate)} ({_num(r, r.se)})"),
-        ("t on dof", f"{number(r.t, 3)} on {r.dof:g}"),
-        ("Partial R² of treatment with outcome", percent(r.partial_r2)),
-        (f"Robustness value: bring the estimate to {goal}", percent(r.robustness_value)),
         (
-            f"Robustness value: lose significance (alpha {r.alpha:g})",
+            f"To bring the estimate to {goal} (robustness value)",
+            percent(r.robustness_value),
+        ),
+        (
+            f"To make the {_level(r)} CI include {goal} (robustness value, alpha {r.alpha:g})",
             percent(r.robustness_value_alpha),
         ),
+        ("The treatment's own share of the outcome's, for comparison", percent(r.partial_r2)),
     ]
     if r.evalue is not None:
         e = r.evalue
         rows.append(
             (
-                f"E-value via standardized difference{_per(e.contrast)} (estimate, CI)",
-                f"{number(e.evalue)}, {number(e.evalue_ci)}",
+                f"E-value alongside ({_per(e.contrast).strip() or 'per unit'}; estimate / "
+                f"{_level(r)} CI)",
+                f"{number(e.evalue)} / {number(e.evalue_ci)}",
             )
         )
-    who = f" of `{r.treatment}`" if r.treatment else ""
     return Table(
-        ("Quantity", "Value"),
+        ("How strong a hidden confounder would have to be", "Share of residual variance"),
         tuple(rows),
-        title=f"Partial-R² sensitivity of the coefficient{who}",
+        title="Partial-R² sensitivity: the strength needed on both sides",
+        footnotes=(
+            "Shares are partial R²: of the treatment's variance not explained by the "
+            "covariates, and of the outcome's not explained by treatment and covariates.",
+        ),
     )
 
 
@@ -61,45 +117,60 @@ def scenario_table(r: PartialR2Result) -> Table | None:
     if not r.scenarios:
         return None
     rows = []
-    for s in r.scenarios:
+    for i, s in enumerate(r.scenarios, 1):
         cap = " (capped)" if s.capped else ""
         rows.append(
             (
-                s.label,
+                str(i),
+                scenario_label(s),
+                verdict(r, s),
+                _num(r, s.estimate),
+                f"{_num(r, s.ci[0])} to {_num(r, s.ci[1])}",
                 percent(s.r2_treatment, 2),
                 percent(s.r2_outcome, 2) + cap,
                 _num(r, s.bias),
-                _num(r, s.estimate),
                 _num(r, s.se),
                 number(s.t),
-                f"{_num(r, s.ci[0])} to {_num(r, s.ci[1])}",
             )
         )
     return Table(
         (
+            "#",
             "Confounder",
-            "R² treatment",
-            "R² outcome",
-            "Bias",
+            "Conclusion",
             "Estimate",
+            f"{_level(r)} CI",
+            "Share: treatment",
+            "Share: outcome",
+            "Bias",
             "SE",
             "t",
-            f"{_level(r)} CI",
         ),
         tuple(rows),
-        title="Bias-adjusted results under each confounder",
+        title="Named confounders: where each would move the estimate",
+        align="rllrrrrrrr",
+        footnotes=(
+            "'smoker ×2': a confounder twice as strong as the measured covariate smoker, with "
+            "the treatment and with the outcome (×a/×b when the two sides differ); 'chosen': "
+            "strengths given directly. The bias is taken toward zero.",
+        )
+        if any(s.kind == "benchmark" for s in r.scenarios)
+        else ("'chosen': strengths given directly. The bias is taken toward zero.",),
     )
 
 
 def covariate_table(r: PartialR2Result) -> Table | None:
     if not r.covariates:
         return None
-    ranked = sorted(r.covariates, key=lambda c: -c.r2_outcome)
-    rows = tuple((c.name, percent(c.r2_treatment, 2), percent(c.r2_outcome, 2)) for c in ranked)
+    ranked: list[CovariateStrength] = sorted(r.covariates, key=lambda c: -c.r2_outcome)
+    rows = tuple(
+        (covariate_name(c.name), percent(c.r2_outcome, 2), percent(c.r2_treatment, 2))
+        for c in ranked
+    )
     return Table(
-        ("Observed covariate", "Partial R² with treatment", "Partial R² with outcome"),
+        ("Measured covariate", "Share: outcome", "Share: treatment"),
         rows,
-        title="Strength of each observed covariate (ranked by outcome side)",
+        title="Measured covariates for comparison, strongest on the outcome first",
     )
 
 
@@ -108,47 +179,51 @@ def tables(r: PartialR2Result) -> list[Table]:
 
 
 def sentence(r: PartialR2Result) -> str:
-    q = r.fraction
-    goal = "to zero" if q == 1 else f"by {q:.0%} (to {1 - q:g} times its value)"
+    goal = _goal(r)
+    rv, rva = percent(r.robustness_value), percent(r.robustness_value_alpha)
     text = (
-        f"An unmeasured confounder would have to explain {percent(r.robustness_value)} "
-        f"of the residual variance of both the treatment and the outcome to move the "
-        f"estimate {goal}"
+        f"No hidden confounder that accounts for less than {rv} of the residual variance of "
+        f"both the treatment and the outcome could bring the estimate to {goal} (one that "
+        f"accounts for {rv} of each would)"
     )
     if r.robustness_value_alpha == 0:
         text += (
-            f"; the estimate is already not significant at alpha {r.alpha:g}, so "
-            "no confounding is needed to make its interval include that value"
+            f"; the {_level(r)} confidence interval already includes {goal}, so no "
+            "confounding is needed for that"
         )
     else:
         text += (
-            f", and {percent(r.robustness_value_alpha)} of each to make the "
-            f"{_level(r)} confidence interval include that value"
+            f", and none accounting for less than {rva} of each could make the {_level(r)} "
+            f"confidence interval include {goal}"
         )
     bench = [s for s in r.scenarios if s.kind == "benchmark"]
     if bench:
         k_min = min(_k(s) for s in bench)
         s = max((s for s in bench if _k(s) == k_min), key=lambda s: s.bias)
-        target = (1 - q) * r.estimate
-        flips = s.estimate == 0 or (s.estimate - target) * (r.estimate - target) < 0
-        covers = s.ci[0] <= target <= s.ci[1]
-        k = s.label_multiple
-        text += (
-            f". A confounder {k} as strong as `{s.benchmark}` (the strongest "
-            f"benchmark at that multiple) would move it to {_num(r, s.estimate)} "
-            f"({_level(r)} CI {_num(r, s.ci[0])} to {_num(r, s.ci[1])})"
-        )
-        if flips:
-            text += ", past that value"
-        elif covers:
-            text += ", with an interval that includes that value"
+        ci = f"{_level(r)} CI {_num(r, s.ci[0])} to {_num(r, s.ci[1])}"
+        name = covariate_name(s.benchmark or "")
+        times = "as strong as" if k_min == 1 else f"{k_min:g} times as strong as"
+        lead = f". A confounder {times} {name} (the strongest benchmark at that multiple) would"
+        state = verdict(r, s)
+        if state == "sign reverses":
+            text += f"{lead} reverse the sign of the estimate, to {_num(r, s.estimate)} ({ci})"
+        elif state.startswith("estimate"):
+            text += f"{lead} move the estimate to {_num(r, s.estimate)} ({ci}), past {goal}"
+        elif state.startswith("CI"):
+            text += (
+                f"{lead} move the estimate to {_num(r, s.estimate)}, with a {ci} that "
+                f"includes {goal}"
+            )
         else:
-            text += ", not far enough to change the conclusion"
+            text += (
+                f"{lead} move the estimate to {_num(r, s.estimate)} ({ci}), not far enough "
+                "to change the conclusion"
+            )
     return text + "."
 
 
 def document(r: PartialR2Result) -> Document:
     lead = sentence(r)
-    blocks: tuple[Block, ...] = (*tables(r), prose(lead, role="sentence"))
+    blocks: tuple[Block, ...] = (prose(header(r)), *tables(r), prose(lead, role="sentence"))
     blocks += standard_tail(r.notes, r.cautions, r.assumptions)
     return Document("Partial-R² sensitivity", blocks, sentence=lead)

@@ -29,6 +29,7 @@ from numpy.typing import ArrayLike
 
 from ..common.checks import (
     AT_LEAST_ONE,
+    OPEN_UNIT,
     POSITIVE,
     PROBABILITY,
     R2_STRENGTH,
@@ -317,6 +318,7 @@ def binary_confounder_grid(
     outcome_effect: ArrayLike | None = None,
     target: float | None = None,
     outcome: str | None = None,
+    ci_level: float = 0.95,
 ) -> TippingGrid:
     """Bias-adjusted estimates under a hidden binary confounder, over a grid of its strengths.
 
@@ -338,6 +340,8 @@ def binary_confounder_grid(
     outcome : {'rare', 'common'}, optional
         Required for or and hr. A common outcome's OR or HR is converted to the risk-ratio
         scale first (as in `evalue`), adjusted there, and converted back.
+    ci_level : float, default 0.95
+        The level of `ci`, as the sentences name it.
 
     Notes
     -----
@@ -415,6 +419,7 @@ def binary_confounder_grid(
         exact={},
         notes=tuple(notes),
         extra={"outcome": freq} if freq else {},
+        ci_level=float(require(ci_level, "ci_level", OPEN_UNIT)),
     )
     return _with_exact(result, lambda value: _binary_exact(result, on_rr(value), t, side, slack))
 
@@ -498,6 +503,7 @@ def bounding_grid(
     rr_outcome: ArrayLike | None = None,
     outcome: str | None = None,
     target: float | None = None,
+    ci_level: float = 0.95,
 ) -> TippingGrid:
     """The most a confounder could move the estimate, over a grid of its two risk ratios.
 
@@ -569,6 +575,7 @@ def bounding_grid(
             "evalue_ci": None if ev.evalue_ci is None else float(ev.evalue_ci),
             "outcome": ev.outcome,
         },
+        ci_level=float(require(ci_level, "ci_level", OPEN_UNIT)),
     )
     if result.solved is None:
         return result
@@ -662,6 +669,7 @@ def partial_r2_grid(
             "shrinks the estimate toward zero (Cinelli & Hazlett 2020).",
         ),
         extra={"se": se, "dof": dof, "alpha": alpha},
+        ci_level=1 - alpha,
     )
     if result.solved is None:
         return result

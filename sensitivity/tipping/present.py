@@ -66,16 +66,21 @@ def table(g: TippingGrid) -> Table:
         ci = "" if adj["ci"] is None else f"{adj['ci'][0]:.4g} to {adj['ci'][1]:.4g}"
         single = [(NAMES[n], _fmt(g, n, float(v[0]))) for n, v in g.axes]
         single.append(("Bias-adjusted estimate", f"{adj['estimate']:.4g}"))
+        level = f"{g.ci_level:.0%} CI"
         if ci:
-            single.append(("Bias-adjusted CI", ci))
-        single.append((f"Reaches {_goal(g)}", "yes" if r["reaches_target"] else "no"))
+            single.append((f"Bias-adjusted {level}", ci))
+        single.append((f"Estimate reaches {_goal(g)}", "yes" if r["reaches_target"] else "no"))
+        if r.get("ci_reaches_target") is not None:
+            single.append(
+                (f"{level} includes {_goal(g)}", "yes" if r["ci_reaches_target"] else "no")
+            )
         return Table(("Quantity", "Value"), tuple(single), title="Bias-adjusted result")
     solved = g.axes[j][0]
     others = [g.axes[i][0] for i in g.varying if i != j]
     head = tuple(NAMES[o] for o in others)
     cols = head + (f"Estimate reaches {_goal(g)} at", "(exact)")
     if g.reach_ci is not None:
-        cols += ("CI reaches it at", "(exact)")
+        cols += (f"{g.ci_level:.0%} CI reaches it at", "(exact)")
     exact_note = (
         "'(exact)': from the closed-form formula, every value that reaches the target (which "
         "may lie outside the grid): at least (≥) or at most (≤) the crossing, between two "
@@ -107,50 +112,75 @@ def tables(g: TippingGrid) -> list[Table]:
     return [table(g)]
 
 
+def _settings(k: int, n: int) -> str:
+    """'in 4 of 7 settings', 'in the one setting', 'in none of the 3 settings'."""
+    if n == 1:
+        return "in the one setting" if k else "in no setting"
+    if k == 0:
+        return f"in none of the {n} settings"
+    return f"in {k} of {n} settings"
+
+
+def searched(g: TippingGrid) -> str:
+    """The grid in words: each parameter's range, or its one value."""
+    parts = []
+    for name, values in g.axes:
+        label = _lower_first(NAMES[name])
+        if len(values) == 1:
+            parts.append(f"{label} {_fmt(g, name, float(values[0]))}")
+        else:
+            parts.append(
+                f"{label} {_fmt(g, name, float(values.min()))} to "
+                f"{_fmt(g, name, float(values.max()))}"
+            )
+    return "; ".join(parts)
+
+
 def sentence(g: TippingGrid) -> str:
-    j = g.solved
     what = {
         "binary": "a hidden binary confounder",
-        "bounding": "a hidden confounder",
+        "bounding": "a hidden confounder (at its worst-case bias)",
         "partial-r2": "a hidden confounder",
     }[g.kind]
+    goal = _goal(g)
+    level = f"{g.ci_level:.0%} CI"
+    j = g.solved
     if j is None:
         r = _first_row(g)
         verdict = "would" if r["reaches_target"] else "would not"
-        return (
-            f"Under {what} with the stated strengths the estimate {verdict} reach "
-            f"{_goal(g)} (bias-adjusted estimate "
-            f"{r['bias_adjusted']['estimate']:.4g})."
+        text = (
+            f"With the stated strengths ({searched(g)}), {what} {verdict} move the estimate "
+            f"to {goal} (bias-adjusted estimate {number(r['bias_adjusted']['estimate'], 3)})"
         )
+        if r.get("ci_reaches_target") is not None:
+            ci_verdict = "would" if r["ci_reaches_target"] else "would not"
+            text += f", and the {level} {ci_verdict} include it"
+        return text + "."
     tps = g.tipping_points()
-    hit = [t for t in tps if t["estimate"] is not None]
-    name = _lower_first(NAMES[g.axes[j][0]])
-    if not hit:
-        return (
-            f"Within this grid, no {what} moves the estimate to {_goal(g)}; the "
-            "conclusion does not tip over the strengths considered."
-        )
-    lo = min(t["estimate"] for t in hit)
-    text = (
-        f"The estimate reaches {_goal(g)} in {len(hit)} of {len(tps)} settings of "
-        f"the other parameters; the smallest {name} that does so anywhere in the grid "
-        f"is {_fmt(g, g.axes[j][0], lo)}"
-    )
+    name = g.axes[j][0]
+    label = _lower_first(NAMES[name])
+    hit = [t["estimate"] for t in tps if t["estimate"] is not None]
+    text = f"Over the grid searched ({searched(g)}), {what} moves the estimate to {goal} "
+    text += _settings(len(hit), len(tps))
+    if hit:
+        text += f" (least {label} that does so: {_fmt(g, name, min(hit))})"
     if g.reach_ci is not None:
         ci_hit = [t["ci"] for t in tps if t["ci"] is not None]
+        text += f". The {level} includes {goal} {_settings(len(ci_hit), len(tps))}"
         if ci_hit:
-            text += f", and the interval reaches it from {_fmt(g, g.axes[j][0], min(ci_hit))}"
+            text += f" (least {label}: {_fmt(g, name, min(ci_hit))})"
     return text + "."
 
 
 def document(g: TippingGrid) -> Document:
-    ci = "" if g.ci is None else f" (CI {g.ci[0]:g} to {g.ci[1]:g})"
+    ci = "" if g.ci is None else f" ({g.ci_level:.0%} CI {g.ci[0]:g} to {g.ci[1]:g})"
     label = "OLS coefficient" if g.kind == "partial-r2" else SCALES[g.scale].name
+    cells = int(np.prod(g.shape))
     head = (
         f"Tipping-point analysis ({g.kind} view): {label} "
         f"{g.estimate:g}{ci}, target {g.target:g}; grid "
         + " x ".join(str(n) for n in g.shape)
-        + f" = {int(np.prod(g.shape)):,} cells"
+        + f" = {cells:,} {'cell' if cells == 1 else 'cells'}"
     )
     lead = sentence(g)
     blocks: list = [prose(head), table(g), prose(lead, role="sentence")]

@@ -34,6 +34,7 @@ class TippingGrid(Result):
     notes: tuple[str, ...] = ()
     cautions: tuple[str, ...] = standing.TIPPING
     extra: dict = field(default_factory=dict)  # e.g. the E-values of the bounding view
+    ci_level: float = 0.95
     is_scalar = False
     _repr_fields = ("kind", "scale", "estimate", "ci", "shape")
 
