@@ -167,7 +167,8 @@ def latex_escape(text: str) -> str:
         elif ord(ch) < 128:
             out.append(ch)
         else:
-            base, *marks = unicodedata.normalize("NFD", ch)
+            parts = unicodedata.normalize("NFD", ch)
+            base, marks = parts[0], parts[1:]
             if marks and marks[0] in _ACCENTS and ord(base) < 128:
                 cmd = _ACCENTS[marks[0]]
                 out.append(f"\\{cmd}{{{base}}}" if cmd == "c" else f"\\{cmd}{{{base}}}")
