@@ -115,7 +115,7 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         (("rr",), "Error: Missing argument 'ESTIMATE'."),
         (
             ("rr", 2, "--output", "/no/such/folder/e.txt"),
-            "Error: --output: folder '/no/such/folder' does not exist",
+            "Error: Invalid value for '--output' / '-o': folder '/no/such/folder' does not exist",
         ),
     ],
 )

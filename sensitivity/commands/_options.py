@@ -70,14 +70,38 @@ COMPACT_ROWS = 10_000
 RANGE_HELP = "a value or START:STOP:STEP (STOP included when the steps reach it)"
 
 
+#: Output formats by file extension (`--output` picks the format from the name).
+EXTENSIONS = {
+    ".json": "json",
+    ".csv": "csv",
+    ".md": "markdown",
+    ".markdown": "markdown",
+    ".tex": "latex",
+    ".txt": "text",
+    ".html": "html",
+}
+
+
+def _check_outputs(ctx: click.Context, param: click.Parameter, value: tuple) -> tuple:
+    """Refuse a missing folder before any work is done."""
+    for path in value:
+        folder = Path(path).parent
+        if not folder.is_dir():
+            raise click.BadParameter(f"folder {str(folder)!r} does not exist", ctx, param)
+    return value
+
+
 def format_options(func: Callable) -> Callable:
-    """--format and --output."""
+    """--format and --output (repeatable; each file's format from its extension)."""
     func = click.option(
         "--output",
         "-o",
+        "outputs",
+        multiple=True,
         type=click.Path(dir_okay=False, writable=True),
-        default=None,
-        help="Write the result to FILE instead of stdout.",
+        callback=_check_outputs,
+        help="Write the result to FILE instead of stdout; repeatable. The format comes from "
+        "the extension (.json .csv .md .tex .txt .html), else from --format.",
     )(func)
     return click.option(
         "--format",
@@ -87,6 +111,46 @@ def format_options(func: Callable) -> Callable:
         show_default=True,
         help="text for reading; json/csv for scripts; markdown/latex to paste into a manuscript.",
     )(func)
+
+
+def plot_options(what: str) -> Callable:
+    """--plot (repeatable), --plot-limits and --plot-mark, shared by every figure."""
+
+    def decorate(func: Callable) -> Callable:
+        func = click.option(
+            "--plot-mark",
+            "plot_marks",
+            nargs=2,
+            type=float,
+            multiple=True,
+            metavar="X Y",
+            help="Mark a confounder of your choice on the figure (repeatable), in the axes' "
+            "units (partial R² and prevalences as shares: 0.05 for 5%).",
+        )(func)
+        func = click.option(
+            "--plot-limits",
+            nargs=2,
+            type=float,
+            default=None,
+            metavar="X_MAX Y_MAX",
+            help="Upper limits of the figure's axes (default: the region where the "
+            "conclusion changes).",
+        )(func)
+        return click.option(
+            "--plot",
+            "plots",
+            multiple=True,
+            type=click.Path(dir_okay=False),
+            callback=lambda ctx, param, value: _check_plots(value),
+            help=f"Write {what} (.png, .svg or .pdf; repeatable, one figure drawn once).",
+        )(func)
+
+    return decorate
+
+
+def _check_plots(value: tuple) -> tuple:
+    check_plot(*value)
+    return value
 
 
 def ci_option(help_text: str = "Confidence limits on the same scale as the estimate.") -> Callable:
@@ -121,12 +185,13 @@ def exclusive(*options: tuple[str, object]) -> None:
         raise click.UsageError(f"{' and '.join(given)} cannot be used together; give one")
 
 
-def check_plot(path: str | None) -> None:
+def check_plot(*paths: str | None) -> None:
     """Refuse a bad --plot path before any work is done."""
-    if path:
-        from sensitivity.output.figures import check_plot_path
+    from sensitivity.output.figures import check_plot_path
 
-        check_plot_path(path)
+    for path in paths:
+        if path:
+            check_plot_path(path)
 
 
 def show_warnings() -> None:
@@ -157,37 +222,41 @@ def _json(result: Any, sink: Any) -> None:
         write_json([*result.to_dict().items(), *extra], sink, indent=True)
 
 
-def _open_output(output: str | None) -> Any:
-    if output is None:
-        import sys
+def _write(result: Any, fmt: str, sink: Any) -> None:
+    if fmt == "json":
+        _json(result, sink)
+    elif fmt == "csv":
+        from sensitivity.output.tables import columns_to_csv
 
-        return sys.stdout.buffer
-    folder = Path(output).parent
-    if not folder.is_dir():
-        raise click.UsageError(f"--output: folder {str(folder)!r} does not exist")
-    return open(output, "wb")  # noqa: SIM115 - closed by emit
+        columns_to_csv(result.columns(), sink)
+    elif fmt == "html":
+        from sensitivity.output.document import html_page
+
+        sink.write(html_page(result.document()).encode("utf-8"))
+    else:
+        body = result.document().render(fmt, tables_only=fmt in ("markdown", "latex"))
+        sink.write((body + "\n").encode("utf-8"))
+    sink.flush()
 
 
-def emit(result: Any, fmt: str, output: str | None) -> None:
-    """Print `result` in `fmt`; in machine formats the sentence and cautions go to stderr."""
-    sink = _open_output(output)
-    try:
-        if fmt == "json":
-            _json(result, sink)
-        elif fmt == "csv":
-            from sensitivity.output.tables import columns_to_csv
+def emit(result: Any, fmt: str, outputs: tuple[str, ...] | str | None) -> None:
+    """Print `result` in `fmt`, or write it to each of `outputs` (format by extension); in
+    machine formats the sentence and cautions go to stderr."""
+    import sys
 
-            columns_to_csv(result.columns(), sink)
-        else:
-            body = result.document().render(fmt, tables_only=fmt in ("markdown", "latex"))
-            sink.write((body + "\n").encode("utf-8"))
-        sink.flush()
-    finally:
-        if output is not None:
-            sink.close()
-    if output:
-        click.echo(f"Wrote {output}", err=True)
-    if fmt in ("csv", "markdown", "latex"):
+    if isinstance(outputs, str):
+        outputs = (outputs,)
+    formats = []
+    if not outputs:
+        _write(result, fmt, sys.stdout.buffer)
+        formats.append(fmt)
+    for path in outputs or ():
+        chosen = EXTENSIONS.get(Path(path).suffix.lower(), fmt)
+        with open(path, "wb") as sink:
+            _write(result, chosen, sink)
+        click.echo(f"Wrote {path}", err=True)
+        formats.append(chosen)
+    if "text" not in formats and any(f in ("csv", "markdown", "latex") for f in formats):
         document = result.document()
         for line in document.sentences + [f"Note: {n}" for n in result.all_notes()]:
             click.echo(line, err=True)

@@ -8,7 +8,15 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import Command, Number, emit, exclusive, format_options, outcome_frequency_option
+from ._options import (
+    Command,
+    Number,
+    emit,
+    exclusive,
+    format_options,
+    outcome_frequency_option,
+    plot_options,
+)
 
 SHORT_HELP = COMMANDS["evalue"][1]
 
@@ -72,6 +80,7 @@ SHORT_HELP = COMMANDS["evalue"][1]
     "outcome: prints its bounding factor and how far it could move the result. "
     "Repeatable.",
 )
+@plot_options("a figure of the confounder strengths that could explain the result away")
 @format_options
 def evalue_cmd(
     scale: Any,
@@ -85,8 +94,11 @@ def evalue_cmd(
     prevalence: Any,
     target: Any,
     confounders: Any,
+    plots: Any,
+    plot_limits: Any,
+    plot_marks: Any,
     fmt: Any,
-    output: Any,
+    outputs: Any,
 ) -> None:
     """E-value of ESTIMATE on SCALE: rr, or, hr, smd or md.
 
@@ -119,7 +131,16 @@ def evalue_cmd(
     if confounders:
         rr_t, rr_y = zip(*confounders, strict=True)
         result = result.with_confounders(rr_t, rr_y)
-    emit(result, fmt, output)
+    emit(result, fmt, outputs)
+    if plot_marks:
+        raise click.UsageError(
+            "--plot-mark does not apply to evalue: give the confounders with --confounder"
+        )
+    if plots:
+        from sensitivity.output.figures import evalue_figure
+
+        for path in evalue_figure(result, plots, limits=plot_limits):
+            click.echo(f"Wrote {path}", err=True)
 
 
 command = evalue_cmd

@@ -8,7 +8,7 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import Command, check_plot, emit, exclusive, format_options, show_warnings
+from ._options import Command, emit, exclusive, format_options, plot_options, show_warnings
 
 SHORT_HELP = COMMANDS["partial-r2"][1]
 
@@ -74,9 +74,7 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
     show_default=True,
     help="The E-value alongside is per this many units of treatment (e.g. 10).",
 )
-@click.option(
-    "--plot", type=click.Path(dir_okay=False), help="Write a contour figure (.png, .svg or .pdf)."
-)
+@plot_options("a contour figure of the bias-adjusted estimate")
 @click.option(
     "--plot-statistic",
     type=click.Choice(["estimate", "t"]),
@@ -102,10 +100,12 @@ def partial_r2_cmd(
     r2_outcome: Any,
     sd: Any,
     contrast: Any,
-    plot: Any,
+    plots: Any,
+    plot_limits: Any,
+    plot_marks: Any,
     plot_statistic: Any,
     fmt: Any,
-    output: Any,
+    outputs: Any,
 ) -> None:
     """Partial-R² sensitivity of a linear-regression (OLS) coefficient.
 
@@ -150,7 +150,6 @@ def partial_r2_cmd(
         )
     r2t = list(r2_treatment) or None
     r2y = list(r2_outcome) or None
-    check_plot(plot)
     if data_given:
         missing = [n for n in ("--data", "--formula", "--treatment") if n not in data_given]
         if missing:
@@ -191,12 +190,14 @@ def partial_r2_cmd(
             contrast=contrast,
             sd_outcome=sd,
         )
-    emit(result, fmt, output)
-    if plot:
+    emit(result, fmt, outputs)
+    if plots:
         from sensitivity.output.figures import partial_r2_contours
 
-        partial_r2_contours(result, plot, statistic=plot_statistic)
-        click.echo(f"Wrote {plot}", err=True)
+        for path in partial_r2_contours(
+            result, plots, statistic=plot_statistic, limits=plot_limits, marks=plot_marks
+        ):
+            click.echo(f"Wrote {path}", err=True)
 
 
 command = partial_r2_cmd

@@ -11,10 +11,10 @@ from sensitivity.commands import COMMANDS
 from ._options import (
     RANGE_HELP,
     Command,
-    check_plot,
     emit,
     format_options,
     outcome_frequency_option,
+    plot_options,
 )
 
 SHORT_HELP = COMMANDS["tipping"][1]
@@ -62,11 +62,7 @@ SHORT_HELP = COMMANDS["tipping"][1]
     "--r2-treatment", help=f"partial-r2: partial R² of U with the treatment: {RANGE_HELP}."
 )
 @click.option("--r2-outcome", help=f"partial-r2: partial R² of U with the outcome: {RANGE_HELP}.")
-@click.option(
-    "--plot",
-    type=click.Path(dir_okay=False),
-    help="Write a figure (.png, .svg or .pdf) with the tipping line drawn.",
-)
+@plot_options("a figure of the grid with the tipping lines drawn")
 @format_options
 def tipping_cmd(
     kind: Any,
@@ -85,9 +81,11 @@ def tipping_cmd(
     alpha: Any,
     r2_treatment: Any,
     r2_outcome: Any,
-    plot: Any,
+    plots: Any,
+    plot_limits: Any,
+    plot_marks: Any,
     fmt: Any,
-    output: Any,
+    outputs: Any,
 ) -> None:
     """Tipping-point grid: where does the conclusion tip under a hidden confounder?
 
@@ -107,7 +105,6 @@ def tipping_cmd(
     """
     from sensitivity.tipping import core as tp
 
-    check_plot(plot)
     if estimate is None:
         raise click.UsageError("--estimate is required")
 
@@ -169,12 +166,12 @@ def tipping_cmd(
         )
     if fmt in ("json", "csv") and result.n_rows > 200_000:
         click.echo(f"Writing {result.n_rows:,} rows as {fmt}...", err=True)
-    emit(result, fmt, output)
-    if plot:
+    emit(result, fmt, outputs)
+    if plots:
         from sensitivity.output.figures import tipping_figure
 
-        tipping_figure(result, plot)
-        click.echo(f"Wrote {plot}", err=True)
+        for path in tipping_figure(result, plots, limits=plot_limits, marks=plot_marks):
+            click.echo(f"Wrote {path}", err=True)
 
 
 #: The options each tipping view takes (the rest are refused, not silently ignored).

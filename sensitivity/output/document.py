@@ -109,3 +109,22 @@ def standard_tail(
         Bullets("Notes", tuple(notes)),
         Bullets("Cautions", tuple(cautions)),
     )
+
+
+PAGE_STYLE = (
+    "body{font-family:Georgia,serif;max-width:60rem;margin:2rem auto;padding:0 1rem;"
+    "line-height:1.45;color:#222}table{border-collapse:collapse;margin:1rem 0;"
+    "font-family:system-ui,sans-serif;font-size:.9rem}caption{text-align:left;"
+    "font-weight:bold;padding:.3rem 0}th,td{padding:.25rem .6rem;border-bottom:1px solid #ccc}"
+    "th{border-bottom:2px solid #444}tfoot td{border:0;font-size:.8rem;color:#555}"
+)
+
+
+def html_page(document: Document) -> str:
+    """A whole, self-contained HTML page for one document (no scripts, nothing fetched)."""
+    title = html.escape(document.title, quote=False)
+    return (
+        "<!DOCTYPE html>\n<html lang='en'><head><meta charset='utf-8'>"
+        f"<title>{title}</title><style>{PAGE_STYLE}</style></head><body>"
+        f"<h1>{title}</h1>{document.render('html')}</body></html>\n"
+    )

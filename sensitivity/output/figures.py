@@ -1,11 +1,19 @@
-"""Figures. Presentation only: every number drawn comes from the computation modules.
+"""Figures in the project's own visual language, shared by every family.
+
+Every strength map is drawn the same way: filled levels of the bias-adjusted value with a
+colour bar, the lines where the conclusion tips drawn in black and named in a legend below
+the plot, scenarios as numbered white markers keyed to the rows of the scenario table, the
+observed estimate in the title, and shares (partial R², prevalences) in percent. Labels are
+numbers, never free text on the plot, so nothing overlaps or is cut at the edge.
 
 matplotlib is imported here and only here, inside the functions, with the Agg backend, so
-no display is needed and one-number commands never pay for it.
+no display is needed and one-number commands never pay for it. Vector output embeds its
+fonts: TrueType in PDF (fonttype 42), glyphs as paths in SVG.
 """
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
@@ -14,6 +22,22 @@ import numpy as np
 from ..common.errors import InputError
 
 PLOT_FORMATS = (".png", ".svg", ".pdf")
+STYLE = {
+    "font.family": "DejaVu Sans",
+    "font.size": 9,
+    "axes.titlesize": 10,
+    "axes.labelsize": 9,
+    "legend.fontsize": 8,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "pdf.fonttype": 42,
+    "ps.fonttype": 42,
+    "svg.fonttype": "path",
+    "savefig.dpi": 200,
+}
+FILL = "PuOr"  # diverging at the target; readable by colour-blind readers
+LINE = {"estimate": ("black", "-", 2.0), "ci": ("black", "--", 1.5)}
+Mark = tuple[float, float]
 
 
 def check_plot_path(path: str | Path, argument: str = "plot") -> Path:
@@ -26,7 +50,7 @@ def check_plot_path(path: str | Path, argument: str = "plot") -> Path:
     return p
 
 
-def _pyplot():
+def _pyplot() -> Any:
     import matplotlib
 
     matplotlib.use("Agg")
@@ -35,112 +59,178 @@ def _pyplot():
     return plt
 
 
-def _save(fig: Any, path: str | Path) -> None:
-    fig.savefig(path, dpi=150, bbox_inches="tight")
+def _figure() -> tuple[Any, Any]:
+    plt = _pyplot()
+    plt.rcParams.update(STYLE)
+    fig, ax = plt.subplots(figsize=(6.4, 5.6), layout="constrained")
+    return fig, ax
+
+
+def _save(fig: Any, paths: Sequence[str | Path]) -> None:
+    for path in paths:
+        fig.savefig(
+            path, metadata={"Creator": "sensitivity"} if str(path).endswith(".pdf") else None
+        )
     _pyplot().close(fig)
 
 
-def _r2_limit(result: Any) -> float:
-    """Axis range: room for the robustness value and every scenario point."""
-    pts = [result.robustness_value * 1.6, 0.1]
-    pts += [max(s.r2_treatment, s.r2_outcome) * 1.25 for s in result.scenarios]
-    return float(min(0.99, max(pts)))
-
-
-def _percent_axes(ax, lim, ylim=None):
+def _percent(ax: Any, which: str) -> None:
     from matplotlib.ticker import PercentFormatter
 
-    ax.set_xlim(0, lim)
-    ax.set_ylim(0, lim if ylim is None else ylim)
-    ax.xaxis.set_major_formatter(PercentFormatter(1.0, decimals=None))
-    ax.yaxis.set_major_formatter(PercentFormatter(1.0, decimals=None))
+    axis = ax.xaxis if which == "x" else ax.yaxis
+    low, high = ax.get_xlim() if which == "x" else ax.get_ylim()
+    decimals = 0 if high - low >= 0.05 else None
+    axis.set_major_formatter(PercentFormatter(1.0, decimals=decimals))
+
+
+def _legend(ax: Any, handles: list) -> None:
+    if handles:
+        longest = max(len(h.get_label()) for h in handles)
+        ncols = 1 if longest > 42 else 2 if longest > 26 else 3
+        ax.legend(
+            handles=handles,
+            loc="upper center",
+            bbox_to_anchor=(0.5, -0.13),
+            ncols=min(ncols, len(handles)),
+            frameon=False,
+        )
+
+
+def _numbered(ax: Any, points: Sequence[Mark], start: int = 1) -> None:
+    """Numbered markers: white discs with the row number of the table they belong to."""
+    for i, (x, y) in enumerate(points, start):
+        ax.plot([x], [y], "o", ms=13, mfc="white", mec="black", mew=1.0, zorder=5, clip_on=False)
+        ax.annotate(str(i), (x, y), ha="center", va="center", fontsize=7.5, zorder=6)
+
+
+def _marks(ax: Any, marks: Sequence[Mark], handles: list) -> None:
+    """The user's own confounders (the reviewer's question): red diamonds."""
+    plt = _pyplot()
+    if not marks:
+        return
+    xs, ys = zip(*marks, strict=True)
+    ax.plot(xs, ys, "D", ms=7, mfc="#d62728", mec="white", mew=0.8, zorder=6, clip_on=False)
+    handles.append(
+        plt.Line2D([], [], marker="D", ls="", mfc="#d62728", mec="white", label="Your confounder")
+    )
+
+
+def _filled(
+    ax: Any, x: np.ndarray, y: np.ndarray, z: np.ndarray, label: str, center: float
+) -> None:
+    """Filled levels of z (rows along x) with a colour bar named `label`. The colours
+    diverge at `center` (the target), so the side of the target a cell lies on is plain."""
+    from matplotlib.colors import TwoSlopeNorm
+    from matplotlib.ticker import MaxNLocator
+
+    finite = z[np.isfinite(z)]
+    lo, hi = (float(finite.min()), float(finite.max())) if finite.size else (0.0, 1.0)
+    if hi <= lo:
+        hi = lo + 1.0
+    levels = MaxNLocator(nbins=12).tick_values(lo, hi)
+    span = max(abs(hi - center), abs(center - lo), 1e-12)
+    norm = TwoSlopeNorm(vcenter=center, vmin=center - span, vmax=center + span)
+    filled = ax.contourf(x, y, z.T, levels=levels, cmap=FILL, norm=norm, extend="both")
+    bar = ax.figure.colorbar(filled, ax=ax, shrink=0.85, pad=0.02)
+    bar.set_label(label)
+
+
+def _tip_line(
+    ax: Any,
+    x: np.ndarray,
+    y: np.ndarray,
+    z: np.ndarray,
+    level: float,
+    key: str,
+    label: str,
+    handles: list,
+) -> None:
+    plt = _pyplot()
+    finite = z[np.isfinite(z)]
+    if finite.size and finite.min() <= level <= finite.max():
+        color, style, width = LINE[key]
+        ax.contour(x, y, z.T, levels=[level], colors=color, linestyles=style, linewidths=width)
+        handles.append(plt.Line2D([], [], color=color, ls=style, lw=width, label=label))
+
+
+# --------------------------------------------------------------------------- partial R²
+def _r2_limits(result: Any, limits: Mark | None) -> Mark:
+    """The default zoom: where the conclusion changes (twice the larger robustness value)
+    and every scenario, with room around them."""
+    if limits is not None:
+        return float(limits[0]), float(limits[1])
+    pts = [2 * result.robustness_value, 0.05]
+    pts += [max(s.r2_treatment, s.r2_outcome) * 1.2 for s in result.scenarios]
+    lim = float(min(0.99, max(pts)))
+    return lim, lim
 
 
 def partial_r2_contours(
     result: Any,
-    path: str | Path,
+    path: str | Path | Sequence[str | Path],
     statistic: str = "estimate",
-    limit: float | None = None,
+    limits: Mark | None = None,
+    marks: Sequence[Mark] = (),
     size: int = 241,
-) -> Path:
-    """Contours of the bias-adjusted estimate (or t) over the two partial R² of a confounder.
+) -> list[Path]:
+    """The bias-adjusted estimate (or t) over the two partial R² of a hidden confounder.
 
-    Draws the target contour (estimate reaches zero, or (1 - fraction) times itself), the
-    significance contour (the adjusted interval reaches it), the observed point, and every
-    scenario (benchmarks and hypothetical confounders) labelled.
+    Filled levels with a colour bar; black lines where the estimate (solid) and its interval
+    (dashed) reach the target; the scenarios numbered as in the scenario table; `marks` (the
+    user's own confounders) as red diamonds. `limits` sets the axes (partial R², 0 to 1).
     """
     from ..partial_r2.core import surface, t_critical
 
-    path = check_plot_path(path)
-    lim = float(limit) if limit is not None else _r2_limit(result)
-    grid = np.linspace(0, lim, size)
-    s = surface(result.estimate, result.se, result.dof, grid, grid, result.alpha)
+    paths = [check_plot_path(p) for p in ([path] if isinstance(path, (str, Path)) else path)]
+    xlim, ylim = _r2_limits(result, limits)
+    gx = np.linspace(0, min(xlim, 0.999), size)
+    gy = np.linspace(0, min(ylim, 0.999), size)
+    s = surface(result.estimate, result.se, result.dof, gx, gy, result.alpha)
     target = (1 - result.fraction) * result.estimate
     crit = float(t_critical(result.alpha, result.dof - 1))
-    sign = np.sign(result.estimate)
-    # signed distance of the adjusted interval's near limit from the target, in se units
-    dist_t = sign * (s["estimate"] - target) / s["se"]
-    value = s["estimate"] if statistic == "estimate" else s["t"]
-
-    plt = _pyplot()
-    fig, ax = plt.subplots(figsize=(6.4, 5.6))
-    X, Y = grid, grid  # x: treatment side (rows of the surface), y: outcome side
-    cs = ax.contour(
-        X, Y, value.T, levels=12, colors="0.55", linewidths=0.8, negative_linestyles="solid"
-    )
-    ax.clabel(cs, fontsize=7, fmt="%.3g")
+    sign = np.sign(result.estimate) or 1.0
     if statistic == "estimate":
-        ax.contour(
-            X, Y, (sign * (s["estimate"] - target)).T, levels=[0], colors="crimson", linewidths=2.2
-        )
+        value, label = s["estimate"], "Bias-adjusted estimate"
     else:
-        ax.contour(X, Y, (sign * s["t"]).T, levels=[0], colors="crimson", linewidths=2.2)
-    ax.contour(X, Y, dist_t.T, levels=[crit], colors="crimson", linewidths=1.6, linestyles="dashed")
+        value, label = s["t"], "Bias-adjusted t value"
+    level = f"{1 - result.alpha:.0%}"
     goal = "zero" if result.fraction == 1 else f"{target:.3g}"
-    handles = [
-        plt.Line2D([], [], color="crimson", lw=2.2, label=f"Estimate reaches {goal}"),
-        plt.Line2D(
-            [],
-            [],
-            color="crimson",
-            lw=1.6,
-            ls="--",
-            label=f"{1 - result.alpha:.0%} interval reaches {goal}",
-        ),
-    ]
-    ax.plot([0], [0], marker="^", color="black", ms=8, clip_on=False)
-    ax.annotate(
-        f"observed ({result.estimate:.3g})",
-        (0, 0),
-        xytext=(8, 5),
-        textcoords="offset points",
-        fontsize=8,
-    )
-    for sc in result.scenarios:
-        marker = "D" if sc.kind == "benchmark" else "s"
-        ax.plot([sc.r2_treatment], [sc.r2_outcome], marker=marker, color="black", ms=6)
-        ax.annotate(
-            f"{sc.label}\n({sc.estimate:.3g})",
-            (sc.r2_treatment, sc.r2_outcome),
-            xytext=(6, -2),
-            textcoords="offset points",
-            fontsize=7.5,
-        )
+    fig, ax = _figure()
+    _filled(ax, gx, gy, value, label, 0.0 if statistic == "t" else target)
+    handles: list = []
+    distance = sign * (s["estimate"] - target)
+    _tip_line(ax, gx, gy, distance, 0.0, "estimate", f"Estimate reaches {goal}", handles)
+    _tip_line(ax, gx, gy, distance / s["se"], crit, "ci", f"{level} CI reaches {goal}", handles)
+    _numbered(ax, [(sc.r2_treatment, sc.r2_outcome) for sc in result.scenarios])
+    _marks(ax, marks, handles)
     who = f" of {result.treatment}" if result.treatment else ""
-    stat = "bias-adjusted estimate" if statistic == "estimate" else "bias-adjusted t value"
-    ax.set_title(
-        f"Contours of the {stat}{who}\nunder a hidden confounder of given strength", fontsize=10
-    )
-    ax.set_xlabel(
-        "Confounder's share of the treatment's residual variance (partial R²)", fontsize=9
-    )
-    ax.set_ylabel("Confounder's share of the outcome's residual variance (partial R²)", fontsize=9)
-    _percent_axes(ax, lim)
-    ax.legend(handles=handles, loc="upper right", fontsize=8, framealpha=0.9)
-    _save(fig, path)
-    return path
+    shown = f"t = {result.t:.2f}" if statistic == "t" else f"estimate {result.estimate:.3g}"
+    ax.set_title(f"Where a hidden confounder moves the coefficient{who}\n(observed {shown})")
+    ax.set_xlabel("Confounder's share of the treatment's residual variance (partial R²)")
+    ax.set_ylabel("Confounder's share of the outcome's residual variance (partial R²)")
+    ax.set_xlim(0, xlim)
+    ax.set_ylim(0, ylim)
+    _percent(ax, "x")
+    _percent(ax, "y")
+    if result.scenarios:
+        handles.append(
+            _pyplot().Line2D(
+                [],
+                [],
+                marker="o",
+                ls="",
+                mfc="white",
+                mec="black",
+                ms=9,
+                label="Scenario (numbered as in the table)",
+            )
+        )
+    _legend(ax, handles)
+    _save(fig, paths)
+    return paths
 
 
+# --------------------------------------------------------------------------- tipping grids
 AXIS_LABELS = {
     "prevalence_treated": "Prevalence of the confounder among the treated",
     "prevalence_control": "Prevalence of the confounder among the controls",
@@ -150,13 +240,18 @@ AXIS_LABELS = {
     "r2_treatment": "Confounder's share of the treatment's residual variance (partial R²)",
     "r2_outcome": "Confounder's share of the outcome's residual variance (partial R²)",
 }
+SHARES = ("prevalence_treated", "prevalence_control", "r2_treatment", "r2_outcome")
 
 
-def tipping_figure(result: Any, path: str | Path) -> Path:
-    """Heat map of the bias-adjusted estimate over the two varying strengths, with the
-    tipping lines (estimate and interval reach the target) drawn and labelled; a line chart
-    when only one strength varies."""
-    path = check_plot_path(path)
+def tipping_figure(
+    result: Any,
+    path: str | Path | Sequence[str | Path],
+    limits: Mark | None = None,
+    marks: Sequence[Mark] = (),
+) -> list[Path]:
+    """The grid as filled levels over its two varying strengths (a line chart when one
+    varies), with the lines where the estimate and its interval reach the target."""
+    paths = [check_plot_path(p) for p in ([path] if isinstance(path, (str, Path)) else path)]
     varying = result.varying
     if len(varying) not in (1, 2):
         raise InputError(
@@ -165,75 +260,183 @@ def tipping_figure(result: Any, path: str | Path) -> Path:
         )
     plt = _pyplot()
     goal = "the null" if result.target_is_null else f"{result.target:g}"
+    level = f"{result.ci_level:.0%} CI"
     est = np.squeeze(result.cells["bias_adjusted_estimate"])
     near_key = (
         "bias_adjusted_ci_lower" if result.estimate >= result.target else "bias_adjusted_ci_upper"
     )
     near = np.squeeze(result.cells[near_key]) if near_key in result.cells else None
-    fig, ax = plt.subplots(figsize=(6.8, 5.4))
+    colour = "Bias-adjusted estimate"
+    if result.kind == "bounding":
+        colour = "Worst-case bound on the estimate (bounding factor)"
+    fig, ax = _figure()
+    handles: list = []
     if len(varying) == 1:
         name, x = result.axes[varying[0]]
-        ax.plot(x, est, color="black", lw=2, label="Bias-adjusted estimate")
+        ax.plot(x, est, color="black", lw=2, label=colour)
         if near is not None:
             lo = np.squeeze(result.cells["bias_adjusted_ci_lower"])
             up = np.squeeze(result.cells["bias_adjusted_ci_upper"])
-            ax.fill_between(x, lo, up, color="0.8", label="Bias-adjusted interval")
-        ax.axhline(result.target, color="crimson", lw=1.5, label=f"Target ({goal})")
+            ax.fill_between(x, lo, up, color="#c9c9c9", label=f"Bias-adjusted {level}")
+        ax.axhline(result.target, color="#d62728", lw=1.2, ls=":", label=f"Target ({goal})")
         ax.set_xlabel(AXIS_LABELS[name])
-        ax.set_ylabel("Bias-adjusted estimate")
-        ax.legend(fontsize=8)
+        ax.set_ylabel(colour)
+        if name in SHARES:
+            _percent(ax, "x")
+        if limits is not None:
+            ax.set_xlim(right=limits[0])
+        handles = ax.get_legend_handles_labels()[0]
     else:
         (xn, x), (yn, y) = (result.axes[i] for i in varying)
-        from matplotlib.colors import TwoSlopeNorm
-
-        vmin, vmax = float(np.nanmin(est)), float(np.nanmax(est))
-        center = min(
-            max(result.target, vmin + 1e-12 * abs(vmin) + 1e-300), vmax - 1e-12 * abs(vmax) - 1e-300
+        sign = 1 if result.estimate >= result.target else -1
+        _filled(ax, x, y, est, colour, result.target)
+        line = (
+            "E-value curve: estimate reaches" if result.kind == "bounding" else "Estimate reaches"
         )
-        norm = TwoSlopeNorm(
-            vcenter=center, vmin=min(vmin, center - 1e-9), vmax=max(vmax, center + 1e-9)
+        _tip_line(
+            ax, x, y, sign * (est - result.target), 0.0, "estimate", f"{line} {goal}", handles
         )
-        mesh = ax.pcolormesh(x, y, est.T, cmap="RdBu_r", norm=norm, shading="nearest")
-        fig.colorbar(mesh, ax=ax, label="Bias-adjusted estimate")
-        handles = []
-        if np.nanmin(est) <= result.target <= np.nanmax(est):
-            ax.contour(x, y, est.T, levels=[result.target], colors="black", linewidths=2.2)
-            label = f"Estimate reaches {goal}"
-            if result.kind == "bounding":
-                label = f"E-value curve: estimate reaches {goal}"
-            handles.append(plt.Line2D([], [], color="black", lw=2.2, label=label))
-        if near is not None and np.nanmin(near) <= result.target <= np.nanmax(near):
-            ax.contour(
+        if near is not None:
+            _tip_line(
+                ax,
                 x,
                 y,
-                near.T,
-                levels=[result.target],
-                colors="black",
-                linewidths=1.5,
-                linestyles="dashed",
-            )
-            handles.append(
-                plt.Line2D([], [], color="black", lw=1.5, ls="--", label=f"Interval reaches {goal}")
+                sign * (near - result.target),
+                0.0,
+                "ci",
+                f"{level} reaches {goal}",
+                handles,
             )
         e = result.extra.get("evalue")
         if result.kind == "bounding" and e is not None and e <= min(x.max(), y.max()):
-            ax.plot([e], [e], marker="o", color="black", ms=7)
-            ax.annotate(
-                f"E-value ({e:.2f}, {e:.2f})",
-                (e, e),
-                xytext=(8, -14),
-                textcoords="offset points",
-                fontsize=8,
-                bbox={"boxstyle": "round", "fc": "white", "alpha": 0.85, "lw": 0},
+            ax.plot([e], [e], "o", ms=7, mfc="black", mec="white", zorder=5)
+            handles.append(
+                plt.Line2D(
+                    [],
+                    [],
+                    marker="o",
+                    ls="",
+                    mfc="black",
+                    mec="white",
+                    label=f"E-value ({e:.2f}, {e:.2f})",
+                )
             )
-        ax.set_xlabel(AXIS_LABELS[xn], fontsize=9)
-        ax.set_ylabel(AXIS_LABELS[yn], fontsize=9)
-        if handles:
-            ax.legend(handles=handles, loc="upper right", fontsize=8, framealpha=0.9)
-    fixed = [f"{n.replace('_', ' ')} = {v[0]:g}" for n, v in result.axes if len(v) == 1]
-    title = f"Where the conclusion tips ({result.kind} view)"
+        _marks(ax, marks, handles)
+        ax.set_xlabel(AXIS_LABELS[xn])
+        ax.set_ylabel(AXIS_LABELS[yn])
+        for which, n in (("x", xn), ("y", yn)):
+            if n in SHARES:
+                _percent(ax, which)
+        if limits is not None:
+            ax.set_xlim(x.min(), limits[0])
+            ax.set_ylim(y.min(), limits[1])
+    fixed = [
+        f"{AXIS_LABELS[n].lower()} " + (f"{100 * v[0]:g}%" if n in SHARES else f"{v[0]:g}")
+        for n, v in result.axes
+        if len(v) == 1
+    ]
+    what = "coefficient" if result.kind == "partial-r2" else result.scale.upper()
+    observed = f"observed {what} {result.estimate:g}"
+    if result.ci is not None:
+        observed += f", {level} {result.ci[0]:g} to {result.ci[1]:g}"
+    title = f"Where the conclusion tips ({result.kind} view; {observed})"
     if fixed:
-        title += "\n" + ", ".join(fixed)
-    ax.set_title(title, fontsize=10)
-    _save(fig, path)
-    return path
+        title += "\nwith " + "; ".join(fixed)
+    ax.set_title(title)
+    _legend(ax, handles)
+    _save(fig, paths)
+    return paths
+
+
+# --------------------------------------------------------------------------- E-values
+def evalue_figure(
+    result: Any, path: str | Path | Sequence[str | Path], limits: Mark | None = None
+) -> list[Path]:
+    """The pairs of risk ratios (treatment-confounder, confounder-outcome) that could explain
+    the estimate and its interval away: B(a, b) = R on the curve b = R (a - 1) / (a - R),
+    through the E-value point (E, E). The user's hypothetical confounders are numbered as in
+    the confounder table."""
+    paths = [check_plot_path(p) for p in ([path] if isinstance(path, (str, Path)) else path)]
+    if not result.is_scalar:
+        raise InputError("`plot` draws one E-value result; give one estimate")
+    plt = _pyplot()
+    ratio = float(result.rr / result.rr_target)
+    r_est = max(ratio, 1 / ratio)
+    curves = [("estimate", r_est, float(result.evalue))]
+    if result.rr_ci is not None and float(result.evalue_ci) > 1:
+        lo, up = (float(v) / float(result.rr_target) for v in result.rr_ci)
+        near = lo if ratio >= 1 else up
+        curves.append(("ci", max(near, 1 / near), float(result.evalue_ci)))
+    conf = result.confounders
+    pts: list[Mark] = []
+    if conf is not None:
+        pts = list(
+            zip(
+                np.ravel(conf.rr_treatment).tolist(),
+                np.ravel(conf.rr_outcome).tolist(),
+                strict=True,
+            )
+        )
+    top = max([2.2 * e for _, _, e in curves] + [max(p) * 1.15 for p in pts] + [3.0])
+    xlim = ylim = top
+    if limits is not None:
+        xlim, ylim = float(limits[0]), float(limits[1])
+    fig, ax = _figure()
+    handles: list = []
+    grid = np.linspace(1, xlim, 400)
+    goal = "the null" if result.target_is_null else f"{float(result.target_value):g}"
+    level = f"{result.ci_level:.0%} CI"
+    for key, r, e in curves:
+        a = grid[grid > r * (1 + 1e-9)]
+        b = r * (a - 1) / (a - r)
+        color, style, width = LINE[key]
+        name = "estimate" if key == "estimate" else f"{level}"
+        ax.plot(a, b, color=color, ls=style, lw=width)
+        if key == "estimate":
+            ax.fill_between(a, b, ylim, color="#e7d7a8", alpha=0.8, lw=0)
+            handles.append(
+                plt.Rectangle(
+                    (0, 0),
+                    1,
+                    1,
+                    fc="#e7d7a8",
+                    label=f"Could explain the estimate away (reach {goal})",
+                )
+            )
+        handles.append(
+            plt.Line2D(
+                [],
+                [],
+                color=color,
+                ls=style,
+                lw=width,
+                label=f"Least strength for the {name} (E-value {e:.2f})",
+            )
+        )
+        ax.plot([e], [e], "o", ms=6, mfc=color, mec="white", zorder=5)
+    if pts:
+        _numbered(ax, pts)
+        handles.append(
+            plt.Line2D(
+                [],
+                [],
+                marker="o",
+                ls="",
+                mfc="white",
+                mec="black",
+                ms=9,
+                label="Your confounder (numbered as in the table)",
+            )
+        )
+    ax.set_xlim(1, xlim)
+    ax.set_ylim(1, ylim)
+    ax.set_xlabel("Risk ratio relating the confounder to the treatment")
+    ax.set_ylabel("Risk ratio relating the confounder to the outcome")
+    name = str(result.scale).upper()
+    obs = f"{name} {float(result.estimate):.3g}"
+    if result.ci is not None:
+        obs += f", {level} {float(result.ci[0]):.3g} to {float(result.ci[1]):.3g}"
+    ax.set_title(f"Confounders strong enough to explain the result away\n(observed {obs})")
+    _legend(ax, handles)
+    _save(fig, paths)
+    return paths

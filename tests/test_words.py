@@ -1,0 +1,238 @@
+"""Our own look and words (issue 9): labels, sentences a paper can carry, figures a journal
+can print, and errors that help. The numbers behind the sentences are checked elsewhere; here
+the words are pinned."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from sensitivity import evalue, partial_r2_summary
+from sensitivity.output.document import Prose
+from sensitivity.output.tables import percent
+from sensitivity.partial_r2 import CovariateStrength, benchmark_scenarios
+from sensitivity.tipping import binary_confounder_grid, bounding_grid, partial_r2_grid
+
+ROOT = Path(__file__).resolve().parent.parent
+DEMO = ROOT / "demo" / "harbourside_bp.csv"
+FORMULA = "sbp ~ commute_min + age + female + smoker + C(shift) + bmi"
+
+
+def _flat(text: str) -> str:
+    return " ".join(text.split())
+
+
+# --------------------------------------------------------------------------- sentences
+def test_the_evalue_sentence_says_could_and_names_the_level():
+    text = _flat(evalue("rr", 1.64, (1.21, 2.23)).summary())
+    assert "(95% CI 1.21 to 2.23)" in text
+    assert "could move the 95% CI to include the null" in text
+    assert "a confounder weaker than that on both associations could not" in text
+    other = _flat(evalue("rr", 1.64, (1.1, 2.4), ci_level=0.9).sentence())
+    assert "(90% CI 1.10 to 2.40)" in other and "the 90% CI" in other
+
+
+def test_a_sign_reversal_is_said_plainly():
+    # A benchmark strong enough to carry the estimate past zero reverses its sign.
+    res = partial_r2_summary(0.2, 0.1, 200)
+    strong = CovariateStrength("smoker", ("smoker",), 0.2, 0.3)
+    res = res.with_scenarios(benchmark_scenarios(0.2, 0.1, 200, strong, [(1.0, 1.0)], 0.05))
+    assert res.scenarios[0].estimate < 0
+    text = _flat(res.sentence())
+    assert "would reverse the sign of the estimate, to -" in text
+    assert "past that value" not in text
+
+
+def test_the_binary_tipping_sentence_names_the_interval_and_the_range():
+    g = binary_confounder_grid(
+        "rr", 1.8, (1.2, 2.7), prevalence_treated=[0.3, 0.6, 0.9], prevalence_control=0.2,
+        outcome_effect=np.arange(1, 7.0),
+    )  # fmt: skip
+    text = _flat(g.sentence())
+    assert "Over the grid searched (prevalence of U among the treated 0.3 to 0.9" in text
+    assert "effect of U on the outcome 1 to 6" in text
+    assert "The 95% CI includes the null in 3 of 3 settings" in text
+    one = binary_confounder_grid(
+        "rr", 1.8, (1.2, 2.7), prevalence_treated=0.5, prevalence_control=0.2, outcome_effect=2
+    )
+    summary = _flat(one.summary())
+    assert "1 cell" in summary and "1 cells" not in summary
+    assert " no a " not in summary and " a effect" not in summary
+
+
+def _documents():
+    ev = evalue("or", 2.4, (1.8, 3.2), outcome="common").with_confounders([1.5], [2.0])
+    return [
+        ev,
+        partial_r2_summary(
+            0.114, 0.027, 1192, r2_treatment=[0.02], r2_outcome=[0.05], sd_outcome=15
+        ),
+        binary_confounder_grid("md", 2.0, (0.5, 3.5), prevalence_control=0.2),
+        bounding_grid("hr", 1.38, (1.12, 1.70), outcome="rare"),
+        partial_r2_grid(0.114, 0.027, 1192),
+    ]
+
+
+@pytest.mark.parametrize("res", _documents(), ids=lambda r: type(r).__name__)
+def test_no_markdown_backticks_in_prose_captions_or_latex(res):
+    doc = res.document()
+    prose = [line for b in doc.blocks if isinstance(b, Prose) for line in b.lines]
+    prose += [t.title for t in doc.tables] + [n for t in doc.tables for n in t.footnotes]
+    prose += list(res.all_notes())
+    assert not [p for p in prose if "`" in p]
+    assert "`" not in doc.render("latex").replace("``", "")  # `` is LaTeX's opening quote
+
+
+@pytest.mark.parametrize("res", _documents(), ids=lambda r: type(r).__name__)
+def test_latex_is_ascii_and_says_what_it_needs(res):
+    tex = res.document().render("latex")
+    assert tex.isascii()
+    assert tex.startswith(r"% Needs \usepackage{booktabs}")
+
+
+def test_small_shares_keep_their_meaning():
+    assert percent(0.00133) == "0.133%"
+    assert percent(0.139) == "13.9%"
+    assert percent(0.0) == "0.0%"
+
+
+def test_partial_r2_layout_leads_with_the_answers(run):
+    res = run("partial-r2", "--data", DEMO, "--formula", FORMULA, "--treatment", "commute_min",
+              "--benchmark", "smoker", "--times", 1, "--times", 2)  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    out = res.stdout
+    assert out.startswith("Coefficient of commute_min on sbp: 0.114 (se 0.027), t = 4.31 on 1,192")
+    answers = out.index("To bring the estimate to zero (robustness value)")
+    assert answers < out.index("Named confounders")
+    assert "Partial R² of treatment with outcome" not in out
+    assert "as strong as smoker" not in out.split("Named confounders")[1].split("\n\n")[0]
+    row = next(line for line in out.splitlines() if line.startswith("2  smoker ×2"))
+    assert "conclusion holds" in row.split("smoker ×2")[1][:20]
+
+
+# --------------------------------------------------------------------------- figures
+def _saved(monkeypatch):
+    import sensitivity.output.figures as fig
+
+    kept = []
+    monkeypatch.setattr(fig, "_save", lambda f, paths: kept.append(f))
+    return kept
+
+
+def test_the_bounding_colour_is_the_worst_case_bound(monkeypatch, tmp_path):
+    from sensitivity.output.figures import tipping_figure
+
+    kept = _saved(monkeypatch)
+    tipping_figure(bounding_grid("rr", 1.64, (1.21, 2.23)), tmp_path / "b.png")
+    labels = [ax.get_ylabel() for ax in kept[0].axes]
+    assert any(label.startswith("Worst-case bound") for label in labels)
+    assert not any("Bias-adjusted estimate" == label for label in labels)
+
+
+def test_a_t_contour_is_labelled_with_t(monkeypatch, tmp_path):
+    from sensitivity.output.figures import partial_r2_contours
+
+    kept = _saved(monkeypatch)
+    res = partial_r2_summary(0.114, 0.027, 1192)
+    partial_r2_contours(res, tmp_path / "t.png", statistic="t")
+    axes = kept[0].axes
+    assert any(ax.get_ylabel() == "Bias-adjusted t value" for ax in axes)
+    assert "t = 4.22" in axes[0].get_title()
+
+
+def test_figures_use_percent_axes_limits_and_marks(monkeypatch, tmp_path):
+    from sensitivity.output.figures import partial_r2_contours
+
+    kept = _saved(monkeypatch)
+    res = partial_r2_summary(0.114, 0.027, 1192)
+    partial_r2_contours(res, tmp_path / "c.png", limits=(0.3, 0.2), marks=[(0.1, 0.05)])
+    ax = kept[0].axes[0]
+    assert ax.get_xlim() == (0, 0.3) and ax.get_ylim() == (0, 0.2)
+    assert ax.xaxis.get_major_formatter().__class__.__name__ == "PercentFormatter"
+    assert any(h.get_label() == "Your confounder" for h in ax.get_legend().legend_handles)
+
+
+def test_every_figure_writes_png_svg_and_pdf_with_embedded_fonts(run, tmp_path):
+    paths = [tmp_path / f"f.{ext}" for ext in ("png", "svg", "pdf")]
+    res = run("evalue", "hr", 1.38, "--ci", 1.12, 1.70, "--outcome-frequency", "rare",
+              "--confounder", 1.5, 2, *sum((["--plot", p] for p in paths), []))  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    png, svg, pdf = (p.read_bytes() for p in paths)
+    assert png.startswith(b"\x89PNG")
+    assert b"<svg" in svg and b"<text" not in svg  # glyphs drawn as paths: nothing to install
+    assert pdf.startswith(b"%PDF") and b"FontFile2" in pdf  # TrueType embedded
+
+
+def test_one_run_writes_several_outputs(run, tmp_path):
+    names = ["r.json", "r.csv", "r.md", "r.tex", "r.html", "r.txt"]
+    outs = sum((["--output", tmp_path / n] for n in names), [])
+    res = run("partial-r2", "--data", DEMO, "--formula", FORMULA, "--treatment", "commute_min",
+              "--benchmark", "smoker", *outs, "--plot", tmp_path / "c.png")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    assert res.stdout == ""
+    data = json.loads((tmp_path / "r.json").read_text())
+    assert data["robustness_value"] == pytest.approx(0.117, abs=5e-4)
+    assert (tmp_path / "r.tex").read_text().startswith("% Needs")
+    assert (tmp_path / "r.md").read_text().startswith("**Partial-R²")
+    assert "<!DOCTYPE html>" in (tmp_path / "r.html").read_text()
+    assert (tmp_path / "r.txt").read_text().startswith("Coefficient of commute_min")
+    assert (tmp_path / "c.png").read_bytes().startswith(b"\x89PNG")
+
+
+# --------------------------------------------------------------------------- errors
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (("evalue", "rr", 2, "--cii", 1, 3), "Error: No such option '--cii'. Did you mean '--ci'?"),
+        (("evalue", "rr", 2, "--plot", "x.jpg"),
+         "Error: `plot` must end in .png, .svg or .pdf; got 'x.jpg'"),
+        (("tipping", "--scale", "rr", "--estimate", 2, "--plot", "/no/such/x.png"),
+         "Error: `plot`: folder '/no/such' does not exist"),
+    ],
+)  # fmt: skip
+def test_errors_name_the_option(run, args, message):
+    res = run(*args)
+    assert res.exit_code == 2 and res.stderr.startswith(message), res.stderr
+
+
+def test_a_negative_estimate_still_parses(run):
+    res = run("evalue", "smd", -0.4, "--ci", -0.6, -0.2)
+    assert res.exit_code == 0, res.stderr
+
+
+def test_plot_problems_are_reported_before_any_work(run, monkeypatch):
+    import sensitivity.adapters.statsmodels as adapter
+
+    def never(*a, **k):
+        raise AssertionError("the model was fitted before the bad --plot was refused")
+
+    monkeypatch.setattr(adapter, "fit_formula", never)
+    res = run("partial-r2", "--data", DEMO, "--formula", FORMULA, "--treatment", "commute_min",
+              "--plot", "x.gif")  # fmt: skip
+    assert res.exit_code == 2 and "`plot` must end in .png" in res.stderr
+
+
+@pytest.mark.parametrize(
+    "formula, treatment, benchmark, message",
+    [
+        ("sbp ~ commute_min + ag", "commute_min", None,
+         "`formula` uses column 'ag', which is not in the data"),
+        (FORMULA, "commute", None, "`treatment` 'commute' is not a column of the data"),
+        (FORMULA, "commute_min", "smokr", "`benchmark` 'smokr' is not a column of the data"),
+        ("sbp ~ commute_min + age", "commute_min", "smoker",
+         "`benchmark` 'smoker' is not in the formula"),
+    ],
+)  # fmt: skip
+def test_names_are_checked_against_the_data_before_the_fit(
+    run, monkeypatch, formula, treatment, benchmark, message
+):
+    import sensitivity.adapters.statsmodels as adapter
+
+    monkeypatch.setattr(adapter, "fit_formula", lambda *a, **k: pytest.fail("fitted first"))
+    extra = ["--benchmark", benchmark] if benchmark else []
+    res = run("partial-r2", "--data", DEMO, "--formula", formula, "--treatment", treatment, *extra)
+    assert res.exit_code == 2
+    assert res.stderr.startswith(f"Error: {message}"), res.stderr
