@@ -90,6 +90,8 @@ def main() -> int:
                 "--ci",
                 "1.12",
                 "1.70",
+                "--outcome-frequency",
+                "rare",
                 "--prevalence-control",
                 "0.25",
                 "--prevalence-treated",

@@ -96,7 +96,9 @@ def table(g: TippingGrid) -> Table:
     if not others:
         cols = ("",) + cols
         rows = [("Least value",) + r for r in rows]
-    fixed = [f"{n} = {_fmt(g, n, float(v[0]))}" for n, v in g.axes if len(v) == 1]
+    fixed = [
+        f"{_lower_first(NAMES[n])} {_fmt(g, n, float(v[0]))}" for n, v in g.axes if len(v) == 1
+    ]
     title = f"Tipping points: least {_lower_first(NAMES[solved])}"
     if fixed:
         title += f" (with {', '.join(fixed)})"
