@@ -103,16 +103,18 @@ def _numbered(ax: Any, points: Sequence[Mark], start: int = 1) -> None:
         ax.annotate(str(i), (x, y), ha="center", va="center", fontsize=7.5, zorder=6)
 
 
+def _point(marker: str, **style: Any) -> Any:
+    """A legend entry for a marker with no line."""
+    return _pyplot().Line2D([], [], marker=marker, ls="", **style)
+
+
 def _marks(ax: Any, marks: Sequence[Mark], handles: list) -> None:
     """The user's own confounders (the reviewer's question): red diamonds."""
-    plt = _pyplot()
     if not marks:
         return
     xs, ys = zip(*marks, strict=True)
     ax.plot(xs, ys, "D", ms=7, mfc="#d62728", mec="white", mew=0.8, zorder=6, clip_on=False)
-    handles.append(
-        plt.Line2D([], [], marker="D", ls="", mfc="#d62728", mec="white", label="Your confounder")
-    )
+    handles.append(_point("D", mfc="#d62728", mec="white", label="Your confounder"))
 
 
 def _filled(
@@ -214,16 +216,7 @@ def partial_r2_contours(
     _percent(ax, "y")
     if result.scenarios:
         handles.append(
-            _pyplot().Line2D(
-                [],
-                [],
-                marker="o",
-                ls="",
-                mfc="white",
-                mec="black",
-                ms=9,
-                label="Scenario (numbered as in the table)",
-            )
+            _point("o", mfc="white", mec="black", ms=9, label="Scenario (numbered as in the table)")
         )
     _legend(ax, handles)
     _save(fig, paths)
@@ -258,7 +251,6 @@ def tipping_figure(
             f"`plot` needs one or two varying parameters; got {len(varying)} (give one of "
             "them a single value)"
         )
-    plt = _pyplot()
     goal = "the null" if result.target_is_null else f"{result.target:g}"
     level = f"{result.ci_level:.0%} CI"
     est = np.squeeze(result.cells["bias_adjusted_estimate"])
@@ -311,11 +303,8 @@ def tipping_figure(
         if result.kind == "bounding" and e is not None and e <= min(x.max(), y.max()):
             ax.plot([e], [e], "o", ms=7, mfc="black", mec="white", zorder=5)
             handles.append(
-                plt.Line2D(
-                    [],
-                    [],
-                    marker="o",
-                    ls="",
+                _point(
+                    "o",
                     mfc="black",
                     mec="white",
                     label=f"E-value ({e:.2f}, {e:.2f})",
@@ -417,11 +406,8 @@ def evalue_figure(
     if pts:
         _numbered(ax, pts)
         handles.append(
-            plt.Line2D(
-                [],
-                [],
-                marker="o",
-                ls="",
+            _point(
+                "o",
                 mfc="white",
                 mec="black",
                 ms=9,
