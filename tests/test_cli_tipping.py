@@ -295,7 +295,7 @@ def test_plot_every_view(run, tmp_path, args):
         ),
         (
             ("tipping", "--scale", "rr", "--estimate", 2, "--rr-treatment", 2),
-            "Error: --rr-treatment do not apply to the binary view",
+            "Error: --rr-treatment does not apply to the binary view",
         ),
         (
             EXAMPLE + ("--plot", "t.gif"),

@@ -320,7 +320,7 @@ def test_a_step_too_small_is_the_stated_grid_limit(run, text):
          "Error: Invalid value for '--outcome-frequency'"),
         (("tipping", "--kind", "partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50,
           "--outcome-frequency", "rare"),
-         "Error: --outcome-frequency do not apply to the partial-r2 view"),
+         "Error: --outcome-frequency does not apply to the partial-r2 view"),
     ],
 )  # fmt: skip
 def test_options_that_cannot_go_together_are_named(run, args, message):

@@ -113,6 +113,10 @@ def evalue_cmd(
     """
     from sensitivity.evalues.core import evalue
 
+    if plot_marks:
+        raise click.UsageError(
+            "--plot-mark does not apply to evalue: give the confounders with --confounder"
+        )
     exclusive(("--outcome-frequency", outcome), ("--prevalence", prevalence))
     exclusive(("--se", se), ("--ci", ci or None))
 
@@ -132,10 +136,6 @@ def evalue_cmd(
         rr_t, rr_y = zip(*confounders, strict=True)
         result = result.with_confounders(rr_t, rr_y)
     emit(result, fmt, outputs)
-    if plot_marks:
-        raise click.UsageError(
-            "--plot-mark does not apply to evalue: give the confounders with --confounder"
-        )
     if plots:
         from sensitivity.output.figures import evalue_figure
 

@@ -127,7 +127,8 @@ def tipping_cmd(
         flags = ", ".join(
             "--" + ("outcome-frequency" if k == "outcome" else k.replace("_", "-")) for k in foreign
         )
-        raise click.UsageError(f"{flags} do not apply to the {kind} view")
+        verb = "does" if len(foreign) == 1 else "do"
+        raise click.UsageError(f"{flags} {verb} not apply to the {kind} view")
 
     def grid(name):
         return None if given[name] is None else tp.parse_range(given[name], name)
