@@ -7,6 +7,8 @@ Public API (imported lazily, so `import sensitivity` costs almost nothing):
 - `partial_r2_summary`, `partial_r2_from_model`, `partial_r2_from_data`: omitted-variable
   bias in the partial R² parameterisation for an OLS coefficient.
 - `binary_confounder_grid`, `bounding_grid`, `partial_r2_grid`: tipping-point grids.
+- `screen_table`, `screen_batches`, `screen_summary`: many published results at once (a
+  pandas, polars or Arrow table, or a stream of Arrow record batches).
 - `InputError` (bad input, a ValueError) and `SensitivityWarning`.
 """
 
@@ -33,6 +35,9 @@ _EXPORTS = {
     "bounding_grid": "tipping",
     "partial_r2_grid": "tipping",
     "TippingGrid": "tipping",
+    "screen_table": "screen.stream",
+    "screen_batches": "screen.stream",
+    "screen_summary": "screen.stream",
     "InputError": "common.errors",
     "SensitivityWarning": "common.errors",
 }

@@ -51,3 +51,112 @@ def read_table(path: str | Path, argument: str = "data") -> Any:
     if frame.shape[0] == 0 or frame.shape[1] == 0:
         raise InputError(f"`{argument}`: {path} has no data rows")
     return frame
+
+
+# --------------------------------------------------------------------------- batches
+BATCH_ROWS = 100_000
+
+
+def file_kind(path: str | Path, argument: str = "file") -> str:
+    """The format of `path` from its extension; InputError names `argument` if unknown."""
+    p = Path(path)
+    kind = READERS.get(p.suffix.lower())
+    if kind is None:
+        raise InputError(
+            f"`{argument}`: cannot tell the format of {p.name!r} from its extension; use one "
+            f"of {', '.join(sorted(READERS))}"
+        )
+    return kind
+
+
+def read_batches(path: str | Path, argument: str = "file", batch_rows: int = BATCH_ROWS) -> Any:
+    """The rows of a table file as pyarrow RecordBatches, read a batch at a time.
+
+    CSV and TSV cells are read as text, so every cell is echoed exactly as the file holds
+    it; Parquet keeps its column types; Excel is read whole (its sheets are small).
+    """
+    import pyarrow as pa
+
+    p = Path(path)
+    kind = file_kind(p, argument)
+    if not p.is_file():
+        raise InputError(f"`{argument}`: file not found: {path}")
+    if p.stat().st_size == 0:
+        raise InputError(f"`{argument}`: {path} is empty")
+    try:
+        if kind in ("csv", "tsv"):
+            yield from _text_batches(p, "," if kind == "csv" else "\t", batch_rows)
+        elif kind == "parquet":
+            import pyarrow.parquet as pq
+
+            yield from pq.ParquetFile(p).iter_batches(batch_size=batch_rows)
+        else:
+            import pandas as pd
+
+            frame = pd.read_excel(p, dtype=str, keep_default_na=False)
+            table = pa.Table.from_pandas(frame, preserve_index=False)
+            yield from table.to_batches(max_chunksize=batch_rows)
+    except InputError:
+        raise
+    except ImportError as err:
+        raise InputError(f"`{argument}`: reading {kind} needs an optional package: {err}") from None
+    except Exception as err:  # noqa: BLE001 - a parser failure is the file's, not ours
+        first = str(err).strip().splitlines()[0] if str(err).strip() else type(err).__name__
+        raise InputError(f"`{argument}`: could not read {path} as {kind}: {first}") from None
+
+
+def _text_batches(path: Path, delimiter: str, batch_rows: int) -> Any:
+    import csv
+
+    import pyarrow as pa
+    import pyarrow.csv as pacsv
+
+    with open(path, newline="", encoding="utf-8-sig") as fh:
+        header = next(csv.reader(fh, delimiter=delimiter), None)
+    if not header:
+        raise InputError(f"`file`: {path} has no header row")
+    if len(set(header)) != len(header):
+        twice = sorted({h for h in header if header.count(h) > 1})
+        raise InputError(f"`file`: {path} has columns named twice: {', '.join(twice)}")
+    reader = pacsv.open_csv(
+        path,
+        read_options=pacsv.ReadOptions(block_size=1 << 22, encoding="utf8"),
+        parse_options=pacsv.ParseOptions(delimiter=delimiter, newlines_in_values=True),
+        convert_options=pacsv.ConvertOptions(
+            column_types={h: pa.string() for h in header},
+            strings_can_be_null=False,
+            quoted_strings_can_be_null=False,
+        ),
+    )
+    pending = []
+    size = 0
+    for batch in reader:
+        pending.append(batch)
+        size += batch.num_rows
+        if size >= batch_rows:
+            yield from pa.Table.from_batches(pending).to_batches(max_chunksize=batch_rows)
+            pending, size = [], 0
+    if pending:
+        yield from pa.Table.from_batches(pending).to_batches(max_chunksize=batch_rows)
+
+
+def text_or_numbers(column: Any) -> Any:
+    """A column for the screen's core: floats when every cell is blank or a plain number
+    (fast, in C), otherwise the cells as Python strings for the core to read and flag."""
+    import numpy as np
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
+        return column.to_numpy(zero_copy_only=False).astype(float)
+    if pa.types.is_string(column.type) or pa.types.is_large_string(column.type):
+        trimmed = pc.utf8_trim_whitespace(column)
+        blank = pc.equal(trimmed, "")
+        try:
+            numbers = pc.cast(
+                pc.if_else(blank, pa.scalar(None, pa.string()), trimmed), pa.float64()
+            )
+            return numbers.to_numpy(zero_copy_only=False)
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            pass
+    return np.asarray(column.to_pylist(), dtype=object)

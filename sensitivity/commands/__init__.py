@@ -5,4 +5,5 @@ COMMANDS = {
     "evalue": ("evalue", "E-value of an estimate and its CI (rr, or, hr, smd, md)."),
     "partial-r2": ("partial_r2", "Partial-R² bounds for an OLS coefficient, with benchmarks."),
     "tipping": ("tipping", "Tipping-point grids for a hidden confounder of chosen strength."),
+    "screen": ("screen", "Screen a table of published results: E-values for every row."),
 }

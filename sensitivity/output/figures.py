@@ -426,3 +426,72 @@ def evalue_figure(
     _legend(ax, handles)
     _save(fig, paths)
     return paths
+
+
+# --------------------------------------------------------------------------- the screen
+def screen_figure(
+    summary: Any, path: str | Path | Sequence[str | Path], limits: Mark | None = None
+) -> list[Path]:
+    """The distribution of E-values by scale: for each scale, the share of results whose
+    E-value (solid) and interval E-value (dashed) is at most x, on a log axis. Drawn from the
+    screen's tally, so a file of millions of rows costs no more than one of ten."""
+    paths = [check_plot_path(p) for p in ([path] if isinstance(path, (str, Path)) else path)]
+    codes = [c for c, (h, _) in summary.histograms.items() if h.sum() > 0]
+    if not codes:
+        raise InputError("`plot`: no row could be screened, so there is no distribution to draw")
+    plt = _pyplot()
+    plt.rcParams.update(STYLE)
+    cols = min(3, len(codes))
+    rows = -(-len(codes) // cols)
+    fig, axes = plt.subplots(
+        rows, cols, figsize=(3.4 * cols, 2.9 * rows + 0.8), squeeze=False, layout="constrained"
+    )
+    edges = np.exp(summary.log_edges())
+    top = float(limits[0]) if limits is not None else None
+    from matplotlib.ticker import FixedLocator, FuncFormatter, NullFormatter, NullLocator
+
+    from ..common.scales import SCALES
+
+    right = 1.0
+    for code in codes:
+        for counts in summary.histograms[code]:
+            if counts.sum():
+                share = np.cumsum(counts) / counts.sum()
+                right = max(right, float(edges[min(int(np.searchsorted(share, 0.999)) + 1,
+                                                   len(edges) - 1)]))  # fmt: skip
+    right = top if top else right * 1.05
+    nice = [v for v in (1, 1.25, 1.5, 2, 3, 5, 10, 20, 50, 100, 1e3, 1e4) if v <= right]
+    for ax, code in zip(axes.flat, codes, strict=False):
+        est, ci = summary.histograms[code]
+        for counts, key, label in ((est, "estimate", "estimate"), (ci, "ci", "interval limit")):
+            if counts.sum() == 0:
+                continue
+            share = np.cumsum(counts) / counts.sum()
+            last = int(np.searchsorted(share, 0.999)) + 2
+            color, style, width = LINE[key]
+            ax.step(np.r_[1.0, edges[:last]], np.r_[0.0, share[:last]], where="post",
+                    color=color, ls=style, lw=width, label=label)  # fmt: skip
+        name = SCALES[code].name if code in SCALES else "regression coefficient"
+        ax.set_title(f"{name.capitalize()}s ({summary.per_scale[code]['rows']:,})")
+        ax.set_xscale("log")
+        ax.set_xlim(1, right)
+        ax.xaxis.set_major_locator(FixedLocator(nice))
+        ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+        ax.xaxis.set_minor_locator(NullLocator())
+        ax.xaxis.set_minor_formatter(NullFormatter())
+        ax.set_ylim(0, 1)
+        _percent(ax, "y")
+        ax.set_xlabel("E-value")
+        ax.set_ylabel("Share of results at or below")
+        if summary.threshold is not None:
+            ax.axvline(summary.threshold, color="#d62728", lw=1, ls=":")
+    for ax in list(axes.flat)[len(codes) :]:
+        ax.set_visible(False)
+    handles, labels = axes.flat[0].get_legend_handles_labels()
+    if summary.threshold is not None:
+        handles.append(plt.Line2D([], [], color="#d62728", lw=1, ls=":"))
+        labels.append(f"threshold {summary.threshold:g} (your choice, not a pass mark)")
+    fig.legend(handles, labels, loc="outside lower center", ncols=3, frameon=False)
+    fig.suptitle(f"E-values of {summary.rows - summary.n_flagged:,} screened results, by scale")
+    _save(fig, paths)
+    return paths

@@ -15,6 +15,8 @@ from typing import Any
 
 import numpy as np
 
+from ..common.errors import InputError
+
 FORMATS = ("text", "json", "csv", "markdown", "latex")
 
 
@@ -338,3 +340,129 @@ def write_json(items: Sequence[tuple[str, Any]], sink: Any, *, indent: bool) -> 
 
 def _is_stream(value: Any) -> bool:
     return hasattr(value, "__next__")
+
+
+# --------------------------------------------------------------------------- streamed tables
+#: Table files by extension, for writers that take a batch at a time.
+TABLE_FORMATS = {
+    ".csv": "csv",
+    ".tsv": "tsv",
+    ".txt": "tsv",
+    ".parquet": "parquet",
+    ".pq": "parquet",
+    ".xlsx": "excel",
+    ".json": "json",
+}
+#: Spreadsheets run a cell that starts with one of these as a formula (OWASP, common
+#: practice); text cells written for them get a leading apostrophe. A cell that reads as a
+#: number ("-0.4") is left alone.
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def defuse(values: Any) -> Any:
+    """Text cells safe to open in a spreadsheet: formula-looking text gets a leading "'"."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if not (pa.types.is_string(values.type) or pa.types.is_large_string(values.type)):
+        return values
+    risky = pc.match_substring_regex(values, r"^[=+\-@\t\r]")
+    numeric = pc.match_substring_regex(values, r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+    fix = pc.and_kleene(risky, pc.invert(numeric))
+    if not pc.any(fix).as_py():
+        return values
+    quote = pa.scalar("'", type=values.type)
+    empty = pa.scalar("", type=values.type)
+    return pc.if_else(fix, pc.binary_join_element_wise(quote, values, empty), values)
+
+
+class TableWriter:
+    """Writes a table batch by batch to CSV, TSV, Parquet, Excel or JSON (by extension).
+
+    CSV, TSV, Parquet and JSON stream (memory stays flat); Excel is built at the end and
+    holds at most 1,048,575 rows. Text cells for CSV, TSV and Excel are defused against
+    spreadsheet formula injection.
+    """
+
+    def __init__(self, path: Any, argument: str = "output") -> None:
+        from pathlib import Path
+
+        self.path = Path(path)
+        kind = TABLE_FORMATS.get(self.path.suffix.lower())
+        if kind is None:
+            raise InputError(
+                f"`{argument}`: cannot tell the format of {self.path.name!r} from its "
+                f"extension; use one of {', '.join(sorted(TABLE_FORMATS))}"
+            )
+        self.kind = kind
+        self._writer: Any = None
+        self._sink: Any = None
+        self._frames: list = []
+        self._rows = 0
+
+    def write(self, table: Any) -> None:
+        """Append a pyarrow Table (or RecordBatch) of rows."""
+        import pyarrow as pa
+
+        if isinstance(table, pa.RecordBatch):
+            table = pa.Table.from_batches([table])
+        self._rows += table.num_rows
+        if self.kind in ("csv", "tsv", "excel"):
+            table = pa.table({n: defuse(table.column(n)) for n in table.column_names})
+        if self.kind in ("csv", "tsv"):
+            import pyarrow.csv as pacsv
+
+            if self._writer is None:
+                options = pacsv.WriteOptions(
+                    delimiter="," if self.kind == "csv" else "\t", quoting_style="needed"
+                )
+                self._schema = table.schema
+                self._writer = pacsv.CSVWriter(str(self.path), table.schema, write_options=options)
+            self._writer.write_table(table.cast(self._schema))
+        elif self.kind == "parquet":
+            import pyarrow.parquet as pq
+
+            if self._writer is None:
+                self._writer = pq.ParquetWriter(str(self.path), table.schema)
+            self._writer.write_table(table.cast(self._writer.schema))
+        elif self.kind == "json":
+            if self._sink is None:
+                self._sink = open(self.path, "wb")  # noqa: SIM115 - closed in close()
+                self._sink.write(b'{"rows":[')
+            columns = {
+                n: table.column(n).to_numpy(zero_copy_only=False) for n in table.column_names
+            }
+            layout = [(n, n) for n in table.column_names]
+            for i, chunk in enumerate(json_rows(columns, layout)):
+                if self._rows > table.num_rows and i == 0:
+                    self._sink.write(b",")
+                self._sink.write(chunk)
+        else:
+            if self._rows > 1_048_575:
+                raise InputError(
+                    f"`{self.path.name}`: an Excel sheet holds at most 1,048,575 rows; write "
+                    "CSV or Parquet instead"
+                )
+            self._frames.append(table)
+
+    def close(self, extra: dict | None = None) -> None:
+        """Finish the file; for JSON, `extra` (plain data) follows the rows."""
+        import orjson
+
+        if self.kind == "json":
+            if self._sink is None:
+                self._sink = open(self.path, "wb")  # noqa: SIM115
+                self._sink.write(b'{"rows":[')
+            self._sink.write(b"]")
+            for key, value in (extra or {}).items():
+                self._sink.write(b"," + orjson.dumps(key) + b":" + orjson.dumps(value))
+            self._sink.write(b"}\n")
+            self._sink.close()
+        elif self.kind == "excel":
+            import pyarrow as pa
+
+            frame = pa.concat_tables(self._frames).to_pandas() if self._frames else None
+            if frame is not None:
+                frame.to_excel(self.path, index=False)
+        elif self._writer is not None:
+            self._writer.close()

@@ -1,0 +1,198 @@
+"""`sensitivity screen FILE`: many published results at once."""
+
+from __future__ import annotations
+
+import sys
+from typing import Any
+
+import click
+
+from sensitivity.commands import COMMANDS
+
+from ._options import FORMATS, Command, plot_options
+
+SHORT_HELP = COMMANDS["screen"][1]
+
+
+def _column_map(values: tuple[str, ...]) -> dict[str, str]:
+    mapping = {}
+    for value in values:
+        for item in value.split(","):
+            if not item.strip():
+                continue
+            if "=" not in item:
+                raise click.BadParameter(
+                    f"{item!r} must be NAME=COLUMN (e.g. estimate=HR)", param_hint="--columns"
+                )
+            name, column = (part.strip() for part in item.split("=", 1))
+            mapping[name] = column
+    return mapping
+
+
+@click.command("screen", cls=Command, short_help=SHORT_HELP)
+@click.argument("file", type=click.Path(dir_okay=False))
+@click.option(
+    "--columns",
+    "column_map",
+    multiple=True,
+    metavar="NAME=COLUMN",
+    help="Your column names: estimate=HR,lower=LCL,upper=UCL (repeatable or comma-separated).",
+)
+@click.option(
+    "--from-text",
+    metavar="COLUMN",
+    help="Read each row's estimate, interval and (where it names one) scale from this "
+    "free-text column, e.g. 'HR 0.72 (0.60-0.86)'.",
+)
+@click.option(
+    "--confounder",
+    "confounders",
+    nargs=2,
+    type=float,
+    multiple=True,
+    metavar="RR_TREATMENT RR_OUTCOME",
+    help="Add, for every row, whether a confounder this strong could explain the estimate "
+    "and the interval away (repeatable).",
+)
+@click.option(
+    "--threshold",
+    type=float,
+    help="Report the share of results whose interval E-value is below this (no threshold is "
+    "a pass mark; choose it for your question).",
+)
+@click.option(
+    "--alpha", type=float, default=0.05, show_default=True, help="Level for regression rows."
+)
+@click.option(
+    "--output",
+    "-o",
+    type=click.Path(dir_okay=False),
+    help="Write the screened table: .csv, .tsv, .parquet, .xlsx or .json.",
+)
+@click.option(
+    "--format",
+    "fmt",
+    type=click.Choice(FORMATS),
+    default="text",
+    show_default=True,
+    help="Without --output: csv or json puts the screened table on stdout; text, markdown "
+    "or latex the summary.",
+)
+@plot_options("the distribution of E-values (estimate and interval) by scale")
+def screen_cmd(
+    file: str,
+    column_map: tuple[str, ...],
+    from_text: str | None,
+    confounders: tuple,
+    threshold: float | None,
+    alpha: float,
+    output: str | None,
+    fmt: str,
+    plots: tuple[str, ...],
+    plot_limits: Any,
+    plot_marks: Any,
+) -> None:
+    """Screen a table of published results (CSV, TSV, Excel or Parquet), one row each.
+
+    Every row comes out, in input order, with its E-values (and, for regression rows with
+    se and dof, partial R² and robustness values); a bad row gets the reason in `error`
+    and never stops the run. Columns read: scale, estimate, lower, upper, and where a row
+    needs them se, dof, sd, outcome (rare/common), prevalence, contrast, target, and for
+    risk differences cases_treated, total_treated, cases_control, total_control. Text cells
+    written to CSV and Excel are defused against spreadsheet formulas.
+
+    \b
+    Examples:
+      sensitivity screen demo/published_results.csv --output screened.csv
+      sensitivity screen demo/published_results.csv --from-text result \\
+          --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
+    """
+    from sensitivity.adapters.files import read_batches
+    from sensitivity.common.errors import InputError
+    from sensitivity.output.tables import TABLE_FORMATS, TableWriter
+    from sensitivity.screen.result import Tally
+    from sensitivity.screen.stream import screen_batches
+
+    if plot_marks:
+        raise click.UsageError("--plot-mark does not apply to screen")
+    if output is not None:
+        from pathlib import Path
+
+        if Path(output).suffix.lower() not in TABLE_FORMATS:
+            raise InputError(
+                f"`output`: cannot tell the format of {Path(output).name!r} from its "
+                f"extension; use one of {', '.join(sorted(TABLE_FORMATS))}"
+            )
+        if not Path(output).parent.is_dir():
+            raise InputError(f"`output`: folder {str(Path(output).parent)!r} does not exist")
+    if threshold is not None and not threshold >= 1:
+        raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
+    tally = Tally(threshold=threshold, n_confounders=len(confounders))
+    stream = screen_batches(
+        read_batches(file, "file"),
+        columns=_column_map(column_map),
+        from_text=from_text,
+        confounders=confounders,
+        alpha=alpha,
+        tally=tally,
+    )
+    progress = sys.stderr.isatty()
+    writer: Any = None
+    if output is not None:
+        writer = TableWriter(output)
+    elif fmt in ("csv", "json"):
+        writer = _StdoutWriter(fmt)
+    for batch in stream:
+        if writer is not None:
+            writer.write(batch)
+        if progress:
+            click.echo(f"\rscreened {tally.rows:,} rows", err=True, nl=False)
+    if progress:
+        click.echo("", err=True)
+    summary = tally.result(tuple(confounders), click.format_filename(file))
+    if writer is not None:
+        writer.close({"summary": summary.to_dict()} if writer.kind == "json" else None)
+    if output is not None:
+        click.echo(f"Wrote {output}", err=True)
+    document = summary.document()
+    if output is None and fmt not in ("csv", "json"):
+        click.echo(document.render(fmt, tables_only=fmt in ("markdown", "latex")))
+        if fmt != "text":
+            click.echo(document.sentence, err=True)
+    else:
+        click.echo(document.sentence, err=True)
+    if plots:
+        from sensitivity.output.figures import screen_figure
+
+        for path in screen_figure(summary, plots, limits=plot_limits):
+            click.echo(f"Wrote {path}", err=True)
+
+
+class _StdoutWriter:
+    """The screened table on stdout, as CSV or JSON, batch by batch."""
+
+    def __init__(self, kind: str) -> None:
+        import tempfile
+
+        from sensitivity.output.tables import TableWriter
+
+        self.kind = kind
+        self._tmp = tempfile.NamedTemporaryFile(suffix=f".{kind}", delete=False)
+        self._tmp.close()
+        self._writer = TableWriter(self._tmp.name)
+
+    def write(self, batch: Any) -> None:
+        self._writer.write(batch)
+
+    def close(self, extra: dict | None = None) -> None:
+        import os
+        import shutil
+
+        self._writer.close(extra)
+        with open(self._tmp.name, "rb") as fh:
+            shutil.copyfileobj(fh, sys.stdout.buffer)
+        sys.stdout.buffer.flush()
+        os.unlink(self._tmp.name)
+
+
+command = screen_cmd

@@ -1,0 +1,168 @@
+"""What a screen found: a tally kept batch by batch, so memory stays flat whatever the size."""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..common import notes as standing
+from ..common.results import Result
+
+#: log E-values are tallied on a fixed grid from 0 to 20 (E up to 4.8e8) in steps of 1e-4:
+#: medians to four significant digits without keeping the values.
+_EDGES = 200_000
+_TOP = 20.0
+
+
+def reason_kind(reason: str) -> str:
+    """A reason without the row's own values ("`se` must be positive; got -2" -> "`se` must
+    be positive"), so rows flagged for the same rule count together."""
+    return re.split(r"; got |: '|: \"| \(got ", reason)[0]
+
+
+@dataclass(eq=False)
+class Tally:
+    """Counts kept while batches stream past."""
+
+    threshold: float | None = None
+    n_confounders: int = 0
+    rows: int = 0
+    flagged: dict[str, int] = field(default_factory=dict)
+    scales: dict[str, dict] = field(default_factory=dict)
+
+    def add(self, computed: dict[str, np.ndarray]) -> None:
+        reasons = computed["error"]
+        self.rows += len(reasons)
+        bad = reasons != ""
+        for reason in reasons[bad].tolist():
+            kind = reason_kind(reason)
+            self.flagged[kind] = self.flagged.get(kind, 0) + 1
+        scale = computed["scale_used"]
+        for code in np.unique(scale[~bad]).tolist():
+            rows = (scale == code) & ~bad
+            entry = self.scales.setdefault(code, _entry(self.n_confounders))
+            entry["rows"] += int(rows.sum())
+            for key in ("evalue", "evalue_ci"):
+                v = computed[key][rows]
+                v = v[np.isfinite(v)]
+                entry[f"{key}_n"] += v.size
+                idx = np.minimum((np.log(v) / _TOP * _EDGES).astype(np.int64), _EDGES)
+                entry[key] += np.bincount(idx, minlength=_EDGES + 1)
+            if self.threshold is not None:
+                ci = computed["evalue_ci"][rows]
+                entry["below"] += int(np.sum(np.isfinite(ci) & (ci < self.threshold)))
+            for i in range(1, self.n_confounders + 1):
+                flag = computed[f"confounder_{i}_explains_ci"][rows]
+                est = computed[f"confounder_{i}_explains_estimate"][rows]
+                entry["explains_estimate"][i - 1] += int(np.sum(est == "true"))
+                entry["explains_ci"][i - 1] += int(np.sum(flag == "true"))
+            rv = computed["robustness_value"][rows]
+            entry["regression"] += int(np.sum(np.isfinite(rv)))
+
+    def result(self, confounders: tuple, source: str) -> ScreenSummary:
+        per_scale = {}
+        hist: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+        for code, e in sorted(self.scales.items()):
+            per_scale[code] = {
+                "rows": e["rows"],
+                "median_evalue": _median(e["evalue"], e["evalue_n"]),
+                "median_evalue_ci": _median(e["evalue_ci"], e["evalue_ci_n"]),
+                "with_interval": e["evalue_ci_n"],
+                "below_threshold": e["below"] if self.threshold is not None else None,
+                "explains_estimate": list(e["explains_estimate"]),
+                "explains_ci": list(e["explains_ci"]),
+                "regression_rows": e["regression"],
+            }
+            hist[code] = (e["evalue"], e["evalue_ci"])
+        return ScreenSummary(
+            source=source,
+            rows=self.rows,
+            flagged=dict(sorted(self.flagged.items(), key=lambda kv: -kv[1])),
+            per_scale=per_scale,
+            threshold=self.threshold,
+            confounders=tuple(confounders),
+            histograms=hist,
+        )
+
+
+def _entry(k: int) -> dict:
+    return {
+        "rows": 0,
+        "evalue": np.zeros(_EDGES + 1, np.int64),
+        "evalue_ci": np.zeros(_EDGES + 1, np.int64),
+        "evalue_n": 0,
+        "evalue_ci_n": 0,
+        "below": 0,
+        "explains_estimate": [0] * k,
+        "explains_ci": [0] * k,
+        "regression": 0,
+    }
+
+
+def _median(counts: np.ndarray, n: int) -> float | None:
+    if n == 0:
+        return None
+    cum = np.cumsum(counts)
+    i = int(np.searchsorted(cum, (n + 1) / 2))
+    if i >= _EDGES:
+        return float(np.exp(_TOP))
+    return float(np.exp((i + 0.5) / _EDGES * _TOP))
+
+
+@dataclass(frozen=True, eq=False, repr=False)
+class ScreenSummary(Result):
+    """The screen's summary: rows read, flags by reason, and per scale the E-values found."""
+
+    source: str
+    rows: int
+    flagged: dict[str, int]
+    per_scale: dict[str, dict]
+    threshold: float | None
+    confounders: tuple[tuple[float, float], ...]
+    # per scale, counts of log E-values (estimate, interval) on the grid of `log_edges()`
+    histograms: dict[str, tuple[np.ndarray, np.ndarray]] = field(default_factory=dict)
+    cautions: tuple[str, ...] = standing.EVALUE
+    notes: tuple[str, ...] = (
+        "Medians are read from a fine grid of log E-values (to about four significant digits).",
+    )
+    is_scalar = False
+    _repr_fields = ("source", "rows")
+
+    @staticmethod
+    def log_edges() -> np.ndarray:
+        """Upper edges of the log E-value bins of `histograms` (the last bin is open)."""
+        return (np.arange(_EDGES + 1) + 1) / _EDGES * _TOP
+
+    @property
+    def n_flagged(self) -> int:
+        return sum(self.flagged.values())
+
+    def to_dict(self) -> dict:
+        return {
+            "source": self.source,
+            "rows": self.rows,
+            "flagged": self.n_flagged,
+            "flagged_by_reason": self.flagged,
+            "threshold": self.threshold,
+            "confounders": [list(c) for c in self.confounders],
+            "scales": self.per_scale,
+            "notes": list(self.all_notes()),
+        }
+
+    def columns(self) -> dict[str, np.ndarray]:
+        codes = list(self.per_scale)
+        return {
+            "scale": np.array(codes, dtype=object),
+            "rows": np.array([self.per_scale[c]["rows"] for c in codes]),
+            "median_evalue": np.array(
+                [np.nan if (m := self.per_scale[c]["median_evalue"]) is None else m for c in codes]
+            ),
+            "median_evalue_ci": np.array(
+                [
+                    np.nan if (m := self.per_scale[c]["median_evalue_ci"]) is None else m
+                    for c in codes
+                ]
+            ),  # fmt: skip
+        }

@@ -1,0 +1,102 @@
+"""Reading a published result from free text: "HR 0.72 (95% CI 0.60 to 0.86)" and friends.
+
+A cell gives an estimate, an interval and, where the text names one, a scale and a level.
+What cannot be read for certain is flagged with a reason, never guessed: decimal commas, an
+interval cut short, two results in one cell, "NR" and blanks.
+"""
+
+from __future__ import annotations
+
+import re
+
+import numpy as np
+
+#: Scale words as published, lower case, to the project's scale codes.
+SCALE_WORDS = {
+    "hr": "hr", "ahr": "hr", "hazard ratio": "hr", "adjusted hazard ratio": "hr",
+    "or": "or", "aor": "or", "odds ratio": "or", "adjusted odds ratio": "or",
+    "rr": "rr", "arr": "rr", "risk ratio": "rr", "relative risk": "rr", "irr": "rr",
+    "rate ratio": "rr", "incidence rate ratio": "rr", "prevalence ratio": "rr", "pr": "rr",
+    "smd": "smd", "d": "smd", "cohen's d": "smd", "hedges' g": "smd", "g": "smd",
+    "md": "md", "mean difference": "md", "b": "md", "beta": "md", "β": "md", "coef": "md",
+    "rd": "rd", "risk difference": "rd",
+}  # fmt: skip
+_WORDS = sorted(SCALE_WORDS, key=len, reverse=True)
+_NUM = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
+_SCALE = r"(?P<scale>" + "|".join(re.escape(w) for w in _WORDS) + r")"
+_LEVEL = r"(?:(?P<level>\d{2}(?:\.\d+)?)\s*%\s*)?(?:ci|confidence interval|cl|cri|ui)?"
+_SEP = r"\s*(?:to|,|;|-|–|—|\.\.)\s*"
+PATTERN = re.compile(
+    r"^\s*(?:" + _SCALE + r"\b\s*[:=]?\s*)?"
+    r"(?P<estimate>" + _NUM + r")\s*"
+    r"(?:[(\[]?\s*[;,]?\s*" + _LEVEL + r"\s*[:=,]?\s*"
+    r"(?P<lower>" + _NUM + r")" + _SEP + r"(?P<upper>" + _NUM + r")\s*[)\]]?)?"
+    r"\s*[.;,]?\s*$",
+    re.IGNORECASE,
+)
+MISSING = re.compile(
+    r"^\s*(?:nr|n\.r\.|na|n/a|n\.a\.|not reported|not available|-|–|—|\.|)\s*$", re.I
+)
+_P_VALUE = re.compile(r"[,;]?\s*\(?\s*p\s*(?:=|<|>|≤|<=)\s*[\d.]+(?:e-?\d+)?\s*\)?\s*$", re.I)
+_DASHES = str.maketrans({"−": "-", "‐": "-", "‑": "-", "‒": "-", "\u00a0": " ", "·": "."})
+MAX_LENGTH = 200
+
+
+def parse(text: object) -> dict[str, object]:
+    """One cell: ``estimate``, ``lower``, ``upper`` (NaN where absent), ``scale`` and
+    ``level`` ("" / NaN where the text names none) and ``error`` ("" when read)."""
+    out: dict[str, object] = {
+        "estimate": np.nan, "lower": np.nan, "upper": np.nan, "scale": "", "level": np.nan,
+        "error": "",
+    }  # fmt: skip
+    if text is None or (isinstance(text, float) and np.isnan(text)):
+        out["error"] = "the result text is blank"
+        return out
+    raw = str(text)
+    if len(raw) > MAX_LENGTH:
+        out["error"] = f"the result text is longer than {MAX_LENGTH} characters"
+        return out
+    if any(ord(ch) < 32 and ch not in "\t" for ch in raw) or "\ufffd" in raw:
+        out["error"] = "the result text holds control or undecodable characters"
+        return out
+    if MISSING.match(raw):
+        out["error"] = "no result in the text (blank or not reported)"
+        return out
+    cell = raw.translate(_DASHES)
+    cell = re.sub(r"\s+", " ", cell)
+    cell = _P_VALUE.sub("", cell)  # a trailing p-value is not part of the result
+    numbers = re.findall(r"\d+(?:[.,]\d+)*", cell)
+    if re.search(r"\d,\d", cell) and "." not in cell:
+        out["error"] = "decimal commas: the numbers cannot be read for certain (write 1.45)"
+        return out
+    if len(re.findall(r"[(\[]", cell)) > 1 or cell.count(";") > 1 and len(numbers) > 3:
+        out["error"] = "two results in one cell"
+        return out
+    match = PATTERN.match(cell)
+    if match is None:
+        opened = cell.count("(") + cell.count("[") > cell.count(")") + cell.count("]")
+        if opened or re.search(r"(?:-|to|,)\s*[)\]]?\s*$", cell):
+            out["error"] = "the interval is incomplete"
+        elif len(numbers) > 3:
+            out["error"] = "two results in one cell"
+        else:
+            out["error"] = f"cannot read an estimate and interval from {raw.strip()[:60]!r}"
+        return out
+    out["estimate"] = float(match["estimate"])
+    if match["lower"] is not None:
+        out["lower"], out["upper"] = float(match["lower"]), float(match["upper"])
+    if match["scale"]:
+        out["scale"] = SCALE_WORDS[match["scale"].lower()]
+    if match["level"]:
+        out["level"] = float(match["level"]) / 100
+    return out
+
+
+def parse_many(texts: np.ndarray) -> dict[str, np.ndarray]:
+    """`parse` over a column: arrays of estimates, limits, scales, levels and errors."""
+    cells = [parse(t) for t in texts.tolist()]
+    return {
+        key: np.array([c[key] for c in cells], dtype=float if key in ("estimate", "lower",
+                      "upper", "level") else object)
+        for key in ("estimate", "lower", "upper", "scale", "level", "error")
+    }  # fmt: skip

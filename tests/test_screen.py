@@ -1,0 +1,443 @@
+"""Screening many published results at once (issue 10): every row kept in order, bad rows
+flagged with a reason, computed columns equal to the single-result functions."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from sensitivity import evalue, partial_r2_summary
+from sensitivity.common.errors import InputError
+from sensitivity.evalues.core import bounding_factor, evalue_of_risk_difference
+from sensitivity.screen import Options, parse, screen_columns
+from sensitivity.screen.stream import screen_summary, screen_table
+
+# --------------------------------------------------------------------------- free text
+# (cell, estimate, lower, upper, scale named, level): spellings as they appear in papers and
+# abstracts; the values are what a careful reader takes from each.
+SPELLINGS = [
+    ("1.45 (1.12-1.88)", 1.45, 1.12, 1.88, "", None),
+    ("1.45 (1.12–1.88)", 1.45, 1.12, 1.88, "", None),
+    ("1.45 (1.12—1.88)", 1.45, 1.12, 1.88, "", None),
+    ("1.45 (1.12 - 1.88)", 1.45, 1.12, 1.88, "", None),
+    ("1.45(1.12-1.88)", 1.45, 1.12, 1.88, "", None),
+    ("1.45 [1.12-1.88]", 1.45, 1.12, 1.88, "", None),
+    ("1.45 (1.12, 1.88)", 1.45, 1.12, 1.88, "", None),
+    ("1.45 (1.12; 1.88)", 1.45, 1.12, 1.88, "", None),
+    ("1.45 (1.12 to 1.88)", 1.45, 1.12, 1.88, "", None),
+    ("1.45 (95% CI 1.12-1.88)", 1.45, 1.12, 1.88, "", 0.95),
+    ("1.45 (95% CI: 1.12-1.88)", 1.45, 1.12, 1.88, "", 0.95),
+    ("1.45 (95%CI 1.12–1.88)", 1.45, 1.12, 1.88, "", 0.95),
+    ("1.45 (90% CI 1.20 to 1.75)", 1.45, 1.20, 1.75, "", 0.90),
+    ("1.45 (95% confidence interval 1.12 to 1.88)", 1.45, 1.12, 1.88, "", 0.95),
+    ("HR 0.72 [0.60, 0.86]", 0.72, 0.60, 0.86, "hr", None),
+    ("HR 0.72 (0.60-0.86)", 0.72, 0.60, 0.86, "hr", None),
+    ("HR: 0.72 (0.60–0.86)", 0.72, 0.60, 0.86, "hr", None),
+    ("HR=0.72 (0.60-0.86)", 0.72, 0.60, 0.86, "hr", None),
+    ("aHR 0.72 (0.60-0.86)", 0.72, 0.60, 0.86, "hr", None),
+    ("hazard ratio 0.72 (0.60 to 0.86)", 0.72, 0.60, 0.86, "hr", None),
+    ("adjusted hazard ratio 0.72 (95% CI 0.60-0.86)", 0.72, 0.60, 0.86, "hr", 0.95),
+    ("0.72 (95% CI 0.60 to 0.86)", 0.72, 0.60, 0.86, "", 0.95),
+    ("OR=2.1; 95% CI 1.4 to 3.15", 2.1, 1.4, 3.15, "or", 0.95),
+    ("OR 2.1, 95% CI 1.4-3.15", 2.1, 1.4, 3.15, "or", 0.95),
+    ("aOR 1.3 (1.1–1.6)", 1.3, 1.1, 1.6, "or", None),
+    ("odds ratio 1.3 (1.1-1.6)", 1.3, 1.1, 1.6, "or", None),
+    ("RR 1.2 (1.0-1.4)", 1.2, 1.0, 1.4, "rr", None),
+    ("relative risk 1.2 (1.0 to 1.4)", 1.2, 1.0, 1.4, "rr", None),
+    ("IRR 1.8 (1.3–2.5)", 1.8, 1.3, 2.5, "rr", None),
+    ("RR 1.2", 1.2, None, None, "rr", None),
+    ("1.2", 1.2, None, None, "", None),
+    ("−0.30 (−0.50 to −0.10)", -0.30, -0.50, -0.10, "", None),
+    ("-0.30 (-0.50--0.10)", -0.30, -0.50, -0.10, "", None),
+    ("-0.30 (-0.50 – -0.10)", -0.30, -0.50, -0.10, "", None),
+    ("SMD 0.25 (0.10, 0.40)", 0.25, 0.10, 0.40, "smd", None),
+    ("d = 0.25 (0.10-0.40)", 0.25, 0.10, 0.40, "smd", None),
+    ("MD 4.2 (1.1 to 7.3)", 4.2, 1.1, 7.3, "md", None),
+    ("RD 0.05 (0.01-0.09)", 0.05, 0.01, 0.09, "rd", None),
+    ("HR 0.72 (0.60 - 0.86), p=0.01", 0.72, 0.60, 0.86, "hr", None),
+    ("1.3 (1.1-1.6) (P<0.001)", 1.3, 1.1, 1.6, "", None),
+    ("1.45 (1.12-1.88).", 1.45, 1.12, 1.88, "", None),
+    ("  1.45  (1.12-1.88)  ", 1.45, 1.12, 1.88, "", None),
+    ("1.45\u00a0(1.12-1.88)", 1.45, 1.12, 1.88, "", None),
+    ("2.0e-1 (1.0e-1 to 3.0e-1)", 0.2, 0.1, 0.3, "", None),
+]
+
+
+def test_the_table_of_spellings_is_long_enough():
+    assert len(SPELLINGS) >= 40
+
+
+@pytest.mark.parametrize(
+    "cell, est, lo, up, scale, level", SPELLINGS, ids=[s[0] for s in SPELLINGS]
+)
+def test_free_text_spellings(cell, est, lo, up, scale, level):
+    got = parse(cell)
+    assert got["error"] == ""
+    assert got["estimate"] == pytest.approx(est)
+    if lo is None:
+        assert math.isnan(got["lower"]) and math.isnan(got["upper"])
+    else:
+        assert (got["lower"], got["upper"]) == pytest.approx((lo, up))
+    assert got["scale"] == scale
+    if level is None:
+        assert math.isnan(got["level"])
+    else:
+        assert got["level"] == pytest.approx(level)
+
+
+@pytest.mark.parametrize(
+    "cell, reason",
+    [
+        ("1,45 (1,12-1,88)", "decimal commas"),
+        ("1,45", "decimal commas"),
+        ("1.45 (1.12-", "the interval is incomplete"),
+        ("1.45 (1.12", "the interval is incomplete"),
+        ("1.45 (1.12-1.88); 1.30 (1.01-1.67)", "two results in one cell"),
+        ("1.45 (1.12-1.88) and 1.30 (1.01-1.67)", "two results in one cell"),
+        ("NR", "no result in the text"),
+        ("n.r.", "no result in the text"),
+        ("not reported", "no result in the text"),
+        ("", "no result in the text"),
+        ("   ", "no result in the text"),
+        (None, "the result text is blank"),
+        ("x" * 500, "longer than 200 characters"),
+        ("\x00\x01binary\x02", "control or undecodable characters"),
+        ('=HYPERLINK("http://x")', "cannot read an estimate"),
+        ("@SUM(A1:A2)", "cannot read an estimate"),
+        ("see text", "cannot read an estimate"),
+    ],
+)
+def test_cells_that_cannot_be_read_are_flagged_not_guessed(cell, reason):
+    got = parse(cell)
+    assert reason in got["error"]
+    assert math.isnan(got["estimate"])
+
+
+# --------------------------------------------------------------------------- row by row
+def _cells(row: dict, keys) -> dict:
+    return {k: np.array([row.get(k, "") for _ in [0]], dtype=object) for k in keys}
+
+
+KEYS = ("scale", "estimate", "lower", "upper", "se", "dof", "sd", "outcome", "prevalence")
+
+good = st.one_of(
+    st.builds(
+        lambda e, w, s, f: {"scale": s, "estimate": f"{e:.4g}", "lower": f"{e / w:.4g}",
+                            "upper": f"{e * w:.4g}", "outcome": f},
+        st.floats(0.1, 10), st.floats(1.05, 3), st.sampled_from(["rr", "or", "hr", "RR", " Hr "]),
+        st.sampled_from(["rare", "common"]),
+    ),
+    st.builds(lambda e, s: {"scale": "smd", "estimate": f"{e:.4g}", "se": f"{s:.4g}"},
+              st.floats(-2, 2), st.floats(0.01, 1)),
+    st.builds(lambda e, s, sd: {"scale": "md", "estimate": f"{e:.4g}", "se": f"{s:.4g}",
+                                "sd": f"{sd:.4g}"},
+              st.floats(-20, 20), st.floats(0.05, 5), st.floats(1, 30)),
+)  # fmt: skip
+bad = st.sampled_from([
+    {"scale": "rr", "estimate": "-1"},
+    {"scale": "rr", "estimate": "abc"},
+    {"scale": "rr", "estimate": ""},
+    {"scale": "or", "estimate": "2"},
+    {"scale": "rr", "estimate": "2", "lower": "3", "upper": "4"},
+    {"scale": "md", "estimate": "2", "se": "1"},
+    {"scale": "zz", "estimate": "2"},
+    {"scale": "", "estimate": "2"},
+    {"scale": "hr", "estimate": "2", "outcome": "often"},
+])  # fmt: skip
+
+
+def _single(row):
+    """The single-result answer: (evalue, evalue_ci) or the InputError text."""
+    ci = (float(row["lower"]), float(row["upper"])) if row.get("lower") else None
+    kw = {}
+    if row.get("se"):
+        kw["se"] = float(row["se"])
+    if row.get("sd"):
+        kw["sd"] = float(row["sd"])
+    if row.get("outcome"):
+        kw["outcome"] = row["outcome"]
+    res = evalue(row["scale"].strip().lower(), float(row["estimate"]), ci, **kw)
+    return float(res.evalue), None if res.evalue_ci is None else float(res.evalue_ci)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.one_of(good, bad), min_size=1, max_size=25))
+def test_computed_columns_equal_the_single_result_functions(rows):
+    cols = {k: np.array([r.get(k, "") for r in rows], dtype=object) for k in KEYS}
+    out = screen_columns(cols, len(rows), Options(confounders=((2.0, 3.0),)))
+    assert len(out["error"]) == len(rows)
+    for i, row in enumerate(rows):
+        try:
+            e, e_ci = _single(row)
+        except (InputError, ValueError):
+            assert out["error"][i] != "" and math.isnan(out["evalue"][i])
+            continue
+        assert out["error"][i] == ""
+        assert out["evalue"][i] == pytest.approx(e, rel=1e-12)
+        if e_ci is not None:
+            assert out["evalue_ci"][i] == pytest.approx(e_ci, rel=1e-12)
+        b = float(bounding_factor(2.0, 3.0))
+        rr = out["rr"][i]
+        expected = b >= max(rr, 1 / rr)
+        assert out["confounder_1_explains_estimate"][i] == ("true" if expected else "false")
+
+
+@pytest.mark.parametrize(
+    "row, reason",
+    [
+        ({"scale": "rr", "estimate": "-1"}, "`estimate` must be positive; got -1"),
+        ({"scale": "rr", "estimate": "abc"}, "`estimate` is not a number: 'abc'"),
+        ({"scale": "rr", "estimate": "1,5"},
+         "`estimate` is not a number: '1,5' (a decimal comma?)"),
+        ({"scale": "rr", "estimate": ""}, "`estimate` is missing"),
+        ({"scale": "or", "estimate": "2"}, "`outcome` frequency is needed on the or scale"),
+        ({"scale": "rr", "estimate": "2", "lower": "3", "upper": "4"},
+         "`estimate` must lie within `ci`; got 2 outside [3, 4]"),
+        ({"scale": "rr", "estimate": "2", "lower": "1.5"}, "`ci` needs both limits"),
+        ({"scale": "md", "estimate": "2", "se": "1"}, "`sd` is required for scale md"),
+        ({"scale": "zz", "estimate": "2"}, "`scale` must be one of rr, or, hr, smd, md, ols, rd"),
+        ({"scale": "", "estimate": "2"}, "`scale` is missing"),
+        ({"scale": "ols", "estimate": "2", "se": "-1", "dof": "100"}, "`se` must be positive"),
+        ({"scale": "ols", "estimate": "2", "se": "1", "dof": "1"}, "`dof` must be at least 2"),
+        ({"scale": "rd", "cases_treated": "12", "total_treated": "10", "cases_control": "1",
+          "total_control": "10"}, "`cases_treated` must not exceed `total_treated`"),
+        ({"scale": "rd", "cases_treated": "1.5", "total_treated": "10", "cases_control": "1",
+          "total_control": "10"}, "`cases_treated` must be a whole number"),
+        ({"scale": "rr", "estimate": "1e999"}, "`estimate` must be a finite number"),
+    ],
+)  # fmt: skip
+def test_each_reason(row, reason):
+    keys = set(row) | {"scale", "estimate"}
+    cols = {k: np.array([row.get(k, "")], dtype=object) for k in keys}
+    out = screen_columns(cols, 1)
+    assert out["error"][0].replace("`lower`", "`ci`").startswith(reason), out["error"][0]
+
+
+def test_regression_rows_get_partial_r2_and_robustness_values():
+    row = {"scale": "ols", "estimate": "0.114", "se": "0.027", "dof": "1192"}
+    cols = {k: np.array([v], dtype=object) for k, v in row.items()}
+    out = screen_columns(cols, 1)
+    ref = partial_r2_summary(0.114, 0.027, 1192)
+    assert out["partial_r2"][0] == pytest.approx(ref.partial_r2, rel=1e-12)
+    assert out["robustness_value"][0] == pytest.approx(ref.robustness_value, rel=1e-12)
+    assert out["robustness_value_alpha"][0] == pytest.approx(ref.robustness_value_alpha, rel=1e-12)
+    assert math.isnan(out["evalue"][0]) and "no sd" in out["notes"][0]
+
+
+def test_risk_difference_rows_from_counts():
+    cols = {k: np.array([v], dtype=object) for k, v in
+            {"scale": "rd", "cases_treated": "60", "total_treated": "1000",
+             "cases_control": "40", "total_control": "1000"}.items()}  # fmt: skip
+    out = screen_columns(cols, 1)
+    ref = evalue_of_risk_difference(60, 1000, 40, 1000)
+    assert out["evalue"][0] == pytest.approx(float(ref["evalue"]))
+    assert out["evalue_ci"][0] == pytest.approx(float(ref["evalue_ci"]))
+
+
+def test_the_risk_difference_bound_is_never_violated():
+    # METHODS-MORE 4.5: random joint distributions of (E, U binary, Y); the causal RD is never
+    # below (p1 - p0 B) f + (p1 / B - p0)(1 - f), with B from the distribution's own RRs.
+    rng = np.random.default_rng(7)
+    k = 20_000
+    f = rng.uniform(0.05, 0.95, k)
+    pu1, pu0 = rng.uniform(0.01, 0.99, (2, k))  # P(U=1 | E=1), P(U=1 | E=0)
+    y = rng.uniform(0.01, 0.99, (2, 2, k))  # P(Y=1 | E=e, U=u)
+    p1 = y[1, 1] * pu1 + y[1, 0] * (1 - pu1)
+    p0 = y[0, 1] * pu0 + y[0, 0] * (1 - pu0)
+    rr_eu = np.maximum(pu1 / pu0, (1 - pu1) / (1 - pu0))
+    rr_ud = np.maximum(
+        np.maximum(y[1, 1], y[1, 0]) / np.minimum(y[1, 1], y[1, 0]),
+        np.maximum(y[0, 1], y[0, 0]) / np.minimum(y[0, 1], y[0, 0]),
+    )
+    b = bounding_factor(rr_eu, rr_ud)
+    pu = f * pu1 + (1 - f) * pu0
+    true_rd = (y[1, 1] - y[0, 1]) * pu + (y[1, 0] - y[0, 0]) * (1 - pu)
+    bound = (p1 - p0 * b) * f + (p1 / b - p0) * (1 - f)
+    assert np.all(true_rd >= bound - 1e-12)
+
+
+# --------------------------------------------------------------------------- the command
+def _read(path, delimiter=","):
+    with open(path, newline="", encoding="utf-8") as fh:
+        return list(csv.DictReader(fh, delimiter=delimiter))
+
+
+def _write(path, rows, header=None):
+    header = header or list(rows[0])
+    with open(path, "w", newline="", encoding="utf-8") as fh:
+        w = csv.DictWriter(fh, fieldnames=header)
+        w.writeheader()
+        w.writerows(rows)
+
+
+ROWS = [
+    {"id": "a", "scale": "hr", "estimate": "1.38", "lower": "1.12", "upper": "1.70",
+     "outcome": "rare", "note": "=cmd|' /C calc'!A0"},
+    {"id": "b", "scale": "rr", "estimate": "oops", "lower": "", "upper": "", "outcome": "",
+     "note": "-0.4"},
+    {"id": "c", "scale": "smd", "estimate": "-0.30", "lower": "-0.50", "upper": "-0.10",
+     "outcome": "", "note": "@x"},
+    {"id": "d", "scale": "or", "estimate": "2.4", "lower": "1.8", "upper": "3.2",
+     "outcome": "common", "note": "+1"},
+]  # fmt: skip
+
+
+def test_every_row_comes_out_in_order_with_its_cells_echoed(run, tmp_path):
+    src = tmp_path / "in.csv"
+    _write(src, ROWS)
+    res = run("screen", src, "--output", tmp_path / "out.csv", "--confounder", 3, 3)
+    assert res.exit_code == 0, res.stderr
+    out = _read(tmp_path / "out.csv")
+    assert [r["id"] for r in out] == ["a", "b", "c", "d"]
+    assert out[0]["estimate"] == "1.38" and out[2]["lower"] == "-0.50"
+    assert out[1]["error"] == "`estimate` is not a number: 'oops'" and out[1]["evalue"] == ""
+    assert float(out[0]["evalue"]) == pytest.approx(float(evalue("hr", 1.38, (1.12, 1.7),
+                                                               outcome="rare").evalue))  # fmt: skip
+    assert out[0]["confounder_1_explains_estimate"] == "true"
+    assert "Read 4 rows" in res.stderr and "1 flagged" in res.stderr
+
+
+def test_text_cells_are_defused_against_spreadsheet_formulas(run, tmp_path):
+    src = tmp_path / "in.csv"
+    _write(src, ROWS)
+    for ext in ("csv", "xlsx"):
+        res = run("screen", src, "--output", tmp_path / f"out.{ext}")
+        assert res.exit_code == 0, res.stderr
+    out = _read(tmp_path / "out.csv")
+    assert [r["note"] for r in out] == ["'=cmd|' /C calc'!A0", "-0.4", "'@x", "+1"]
+    import pandas as pd
+
+    sheet = pd.read_excel(tmp_path / "out.xlsx", dtype=str)
+    assert sheet["note"].tolist()[0].startswith("'=")
+    assert sheet["estimate"].tolist()[2] == "-0.30"
+
+
+@pytest.mark.parametrize("ext", ["csv", "tsv", "parquet", "xlsx", "json"])
+def test_every_output_format(run, tmp_path, ext):
+    src = tmp_path / "in.csv"
+    _write(src, ROWS)
+    out = tmp_path / f"out.{ext}"
+    res = run("screen", src, "--output", out)
+    assert res.exit_code == 0, res.stderr
+    if ext == "json":
+        data = json.loads(out.read_text())
+        assert [r["id"] for r in data["rows"]] == ["a", "b", "c", "d"]
+        assert data["summary"]["rows"] == 4
+    elif ext == "parquet":
+        import pyarrow.parquet as pq
+
+        assert pq.read_table(out).column("id").to_pylist() == ["a", "b", "c", "d"]
+    elif ext == "xlsx":
+        import pandas as pd
+
+        assert pd.read_excel(out)["id"].tolist() == ["a", "b", "c", "d"]
+    else:
+        sep = "," if ext == "csv" else "\t"
+        assert len(_read(out, sep)) == 4
+
+
+@pytest.mark.parametrize("ext", ["tsv", "parquet", "xlsx"])
+def test_every_input_format(run, tmp_path, ext):
+    import pandas as pd
+
+    frame = pd.DataFrame(ROWS)
+    src = tmp_path / f"in.{ext}"
+    if ext == "tsv":
+        frame.to_csv(src, sep="\t", index=False)
+    elif ext == "parquet":
+        frame.to_parquet(src)
+    else:
+        frame.to_excel(src, index=False)
+    res = run("screen", src, "--format", "csv")
+    assert res.exit_code == 0, res.stderr
+    out = list(csv.DictReader(io.StringIO(res.stdout)))
+    assert [r["id"] for r in out] == ["a", "b", "c", "d"]
+
+
+def test_columns_are_mapped_and_text_is_read(run, tmp_path):
+    src = tmp_path / "in.csv"
+    _write(src, [
+        {"kind": "HR", "value": "1.38", "result": "", "lo": "1.12", "hi": "1.70", "freq": "rare"},
+        {"kind": "", "value": "", "result": "aOR 2.4 (95% CI 1.8 to 3.2)", "lo": "", "hi": "",
+         "freq": "common"},
+        {"kind": "rr", "value": "", "result": "HR 1.2 (1.0-1.4)", "lo": "", "hi": "", "freq": ""},
+    ])  # fmt: skip
+    res = run("screen", src, "--columns", "scale=kind,estimate=value,lower=lo,upper=hi",
+              "--columns", "outcome=freq", "--from-text", "result", "--format", "csv")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    out = list(csv.DictReader(io.StringIO(res.stdout)))
+    assert out[0]["scale_used"] == "hr" and out[0]["error"] == ""
+    assert out[1]["scale_used"] == "or" and "scale read from the text" in out[1]["notes"]
+    assert out[2]["error"] == "the scale column says 'rr' but the text names 'hr'"
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (["--columns", "estimate=nope"], "`columns`: 'nope' (for estimate) is not a column"),
+        (["--columns", "size=estimate"], "`columns`: 'size' is not a column the screen reads"),
+        (["--columns", "estimate"], "Invalid value for --columns: 'estimate' must be NAME=COLUMN"),
+        (["--from-text", "nope"], "`from_text`: 'nope' is not a column of the table"),
+        (["--output", "x.docx"], "`output`: cannot tell the format of 'x.docx'"),
+        (["--threshold", "0.5"], "`threshold` must be at least 1"),
+        (["--plot", "x.jpg"], "`plot` must end in .png, .svg or .pdf"),
+    ],
+)
+def test_bad_options_exit_2_with_one_line(run, tmp_path, args, message):
+    src = tmp_path / "in.csv"
+    _write(src, ROWS)
+    res = run("screen", src, *args)
+    assert res.exit_code == 2
+    assert res.stderr.startswith(f"Error: {message}"), res.stderr
+    assert res.stderr.count("\n") == 1
+
+
+@pytest.mark.parametrize(
+    "content, message",
+    [
+        (b"", "`file`: "),
+        (b"scale,scale\nrr,rr\n", "has columns named twice: scale"),
+        (b"a,b\n1,2\n", "the table has no 'estimate' column"),
+    ],
+)
+def test_bad_files_exit_2(run, tmp_path, content, message):
+    src = tmp_path / "in.csv"
+    src.write_bytes(content)
+    res = run("screen", src)
+    assert res.exit_code == 2 and message in res.stderr, res.stderr
+
+
+def test_summary_and_plot(run, tmp_path):
+    src = tmp_path / "in.csv"
+    _write(src, ROWS)
+    res = run("screen", src, "--threshold", 1.5, "--confounder", 2, 2, "--plot",
+              tmp_path / "e.png")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    text = " ".join(res.stdout.split())
+    assert text.startswith("Read 4 rows from")
+    assert "interval E-value below 1.5" in text and "could explain away the estimate" in text
+    assert (tmp_path / "e.png").read_bytes().startswith(b"\x89PNG")
+
+
+# --------------------------------------------------------------------------- Python
+def test_screen_a_pandas_polars_or_arrow_table():
+    import pandas as pd
+    import pyarrow as pa
+
+    frame = pd.DataFrame(ROWS)
+    out = screen_table(frame)
+    assert isinstance(out, pd.DataFrame) and out["id"].tolist() == ["a", "b", "c", "d"]
+    arrow = screen_table(pa.Table.from_pandas(frame))
+    assert isinstance(arrow, pa.Table) and arrow.num_rows == 4
+    polars = pytest.importorskip("polars")
+    pl_out = screen_table(polars.from_pandas(frame))
+    assert isinstance(pl_out, polars.DataFrame) and pl_out.height == 4
+    summary = screen_summary(frame, threshold=1.5)
+    assert summary.rows == 4 and summary.n_flagged == 1
