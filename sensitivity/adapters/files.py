@@ -138,25 +138,3 @@ def _text_batches(path: Path, delimiter: str, batch_rows: int) -> Any:
             pending, size = [], 0
     if pending:
         yield from pa.Table.from_batches(pending).to_batches(max_chunksize=batch_rows)
-
-
-def text_or_numbers(column: Any) -> Any:
-    """A column for the screen's core: floats when every cell is blank or a plain number
-    (fast, in C), otherwise the cells as Python strings for the core to read and flag."""
-    import numpy as np
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
-    if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
-        return column.to_numpy(zero_copy_only=False).astype(float)
-    if pa.types.is_string(column.type) or pa.types.is_large_string(column.type):
-        trimmed = pc.utf8_trim_whitespace(column)
-        blank = pc.equal(trimmed, "")
-        try:
-            numbers = pc.cast(
-                pc.if_else(blank, pa.scalar(None, pa.string()), trimmed), pa.float64()
-            )
-            return numbers.to_numpy(zero_copy_only=False)
-        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
-            pass
-    return np.asarray(column.to_pylist(), dtype=object)

@@ -77,6 +77,8 @@ def given(x: np.ndarray) -> np.ndarray:
     x = np.asarray(x)
     if x.dtype.kind == "f":
         return ~np.isnan(x)
+    if x.dtype.kind == "U":
+        return x != ""
     if x.dtype.kind == "O":
         return np.vectorize(lambda v: v is not None and v == v and v != "", otypes=[bool])(x)
     return np.ones(x.shape, bool)

@@ -60,6 +60,18 @@ SMD_INTERVAL = 1.78
 _LN_HALF = float(np.log(0.5))
 
 
+def as_text(values: object) -> np.ndarray:
+    """Codes as a numpy string array, None and NaN as "" (fast comparisons per row)."""
+    arr = np.asarray("" if values is None else values)
+    if arr.dtype.kind == "U":
+        return arr
+    if arr.dtype.kind == "O":
+        is_none = np.asarray(np.frompyfunc(lambda v: v is None, 1, 1)(arr), dtype=bool)
+        missing = is_none | (arr != arr)  # NaN is not equal to itself
+        return np.where(missing, "", arr).astype(str)
+    return arr.astype(str)
+
+
 def scale(code: str) -> Scale:
     """The facts of scale `code` (KeyError for an unknown code: validate first)."""
     return SCALES[code]
@@ -67,12 +79,11 @@ def scale(code: str) -> Scale:
 
 def null_of(scale_codes: object) -> np.ndarray:
     """The null value per row: 1 on ratio scales, 0 on difference scales."""
-    codes = np.asarray(scale_codes, dtype=object)
-    return np.where(np.isin(codes, RATIO_SCALES), 1.0, 0.0)
+    return np.where(np.isin(as_text(scale_codes), RATIO_SCALES), 1.0, 0.0)
 
 
 def is_ratio(scale_codes: object) -> np.ndarray:
-    return np.isin(np.asarray(scale_codes, dtype=object), RATIO_SCALES)
+    return np.isin(as_text(scale_codes), RATIO_SCALES)
 
 
 def frequency_of_prevalence(prevalence: object) -> np.ndarray:
@@ -117,8 +128,8 @@ def _hr_common_inverse(rr: np.ndarray) -> np.ndarray:
 # --------------------------------------------------------------------------- conversions
 def _route(scale_codes: object, outcome: object) -> dict[str, np.ndarray]:
     """Masks, per row, of each conversion route."""
-    s = np.asarray(scale_codes, dtype=object)
-    o = np.asarray("" if outcome is None else outcome, dtype=object)
+    s = as_text(scale_codes)
+    o = as_text(outcome)
     rare = o == "rare"
     ratio_or_hr = (s == "or") | (s == "hr")
     return {

@@ -45,6 +45,7 @@ from ..common.scales import (
     SCALES,
     SMD_INTERVAL,
     SMD_SLOPE,
+    as_text,
     frequency_of_prevalence,
     from_risk_ratio,
     is_ratio,
@@ -152,13 +153,13 @@ def _ratio(scale: np.ndarray) -> np.ndarray:
 def _scale_flags(scale: np.ndarray) -> Check:
     return Check(
         ("scale",),
-        lambda s: ~np.isin(s, np.asarray(EVALUE_SCALES, dtype=object)),
-        lambda s: f"`scale` must be one of {', '.join(EVALUE_SCALES)}; got {s!r}",
+        lambda s: ~np.isin(as_text(s), EVALUE_SCALES),
+        lambda s: f"`scale` must be one of {', '.join(EVALUE_SCALES)}; got {str(s)!r}",
     )
 
 
 def _needs(s: np.ndarray, *codes: str) -> np.ndarray:
-    return np.isin(s, np.asarray(codes, dtype=object))
+    return np.isin(as_text(s), codes)
 
 
 #: The rules of one E-value input, in the order a user meets them. Every row is checked
@@ -175,8 +176,8 @@ CHECKS: tuple[Check, ...] = (
     field("prevalence", PROBABILITY, given, ("prevalence",)),
     Check(
         ("outcome",),
-        lambda o: given(o) & ~np.isin(o, np.asarray(OUTCOME_FREQUENCIES, dtype=object)),
-        lambda o: f"`outcome` must be one of {', '.join(OUTCOME_FREQUENCIES)}; got {o!r}",
+        lambda o: given(o) & ~np.isin(as_text(o), OUTCOME_FREQUENCIES),
+        lambda o: f"`outcome` must be one of {', '.join(OUTCOME_FREQUENCIES)}; got {str(o)!r}",
     ),
     Check(
         ("scale", "outcome", "prevalence"),
@@ -303,7 +304,7 @@ def _numeric(value: object, name: str, shape: tuple[int, ...] | None = None) -> 
 
 
 def _text(value: object) -> np.ndarray:
-    return np.asarray("" if value is None else value, dtype=object)
+    return as_text(value)
 
 
 def _inputs(
@@ -349,7 +350,7 @@ def _frequency(values: dict[str, np.ndarray]) -> np.ndarray:
     from_p = given(p)
     decided = np.where(from_p, frequency_of_prevalence(np.where(from_p, p, 0.0)), o)
     # The frequency matters only for or and hr; elsewhere it is dropped (with a note).
-    return np.where(_needs(values["scale"], "or", "hr"), decided, "").astype(object)
+    return as_text(np.where(_needs(values["scale"], "or", "hr"), decided, ""))
 
 
 # --------------------------------------------------------------------------- entry points
@@ -568,7 +569,7 @@ def evalue_rows(columns: Mapping[str, object], n: int) -> tuple[dict[str, np.nda
         reasons[i] = _overflow_message(beyond[i], values[field_of][i], values["scale"][i])
     good = reasons == ""
     out = {k: np.where(good, v, np.nan) for k, v in out.items()}
-    out["outcome"] = np.where(good, freq, "").astype(object)
+    out["outcome"] = np.where(good, freq, "")
     return out, reasons
 
 

@@ -366,7 +366,10 @@ def defuse(values: Any) -> Any:
 
     if not (pa.types.is_string(values.type) or pa.types.is_large_string(values.type)):
         return values
-    risky = pc.match_substring_regex(values, r"^[=+\-@\t\r]")
+    first = pc.utf8_slice_codeunits(values, 0, 1)
+    risky = pc.is_in(first, value_set=pa.array(list(FORMULA_STARTS), type=values.type))
+    if not pc.any(risky).as_py():
+        return values
     numeric = pc.match_substring_regex(values, r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
     fix = pc.and_kleene(risky, pc.invert(numeric))
     if not pc.any(fix).as_py():
@@ -374,6 +377,15 @@ def defuse(values: Any) -> Any:
     quote = pa.scalar("'", type=values.type)
     empty = pa.scalar("", type=values.type)
     return pc.if_else(fix, pc.binary_join_element_wise(quote, values, empty), values)
+
+
+def _polars() -> Any:
+    """polars, where installed (the `polars` extra), else None."""
+    try:
+        import polars
+    except ImportError:
+        return None
+    return polars
 
 
 class TableWriter:
@@ -409,7 +421,17 @@ class TableWriter:
         self._rows += table.num_rows
         if self.kind in ("csv", "tsv", "excel"):
             table = pa.table({n: defuse(table.column(n)) for n in table.column_names})
-        if self.kind in ("csv", "tsv"):
+        if self.kind in ("csv", "tsv") and _polars() is not None:
+            # polars writes CSV three to five times faster than pyarrow here (MEASURED.md)
+            frame = _polars().from_arrow(table)
+            if self._sink is None:
+                self._sink = open(self.path, "wb")  # noqa: SIM115 - closed in close()
+            frame.write_csv(
+                self._sink,
+                include_header=self._rows == table.num_rows,
+                separator="," if self.kind == "csv" else "\t",
+            )
+        elif self.kind in ("csv", "tsv"):
             import pyarrow.csv as pacsv
 
             if self._writer is None:
@@ -466,3 +488,5 @@ class TableWriter:
                 frame.to_excel(self.path, index=False)
         elif self._writer is not None:
             self._writer.close()
+        elif self._sink is not None:
+            self._sink.close()

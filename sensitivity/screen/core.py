@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..common.checks import given
+from ..common.scales import as_text
 from ..evalues.core import bounding_factor, evalue_of_risk_difference, evalue_rows
 from .text import SCALE_WORDS, parse_many
 
@@ -54,11 +55,34 @@ def computed_names(options: Options) -> list[str]:
     return names + ["error", "notes"]
 
 
-def _numbers(values: np.ndarray, name: str) -> tuple[np.ndarray, np.ndarray]:
+@dataclass(frozen=True)
+class Codes:
+    """A code column (scale, outcome) already lower-cased and trimmed by a fast reader."""
+
+    values: np.ndarray
+
+
+@dataclass(frozen=True)
+class Numbers:
+    """A numeric column read by a fast reader: floats (NaN where blank or unreadable), and
+    the unreadable cells' positions and text, for the reasons."""
+
+    values: np.ndarray
+    bad: np.ndarray
+    bad_text: tuple[str, ...]
+
+
+def _numbers(values: np.ndarray | Numbers, name: str) -> tuple[np.ndarray, np.ndarray]:
     """Text cells as floats (blank: NaN) and a reason for each cell that is not a number.
 
     A column that is numeric already (a Parquet column, or text the reader converted) passes
     straight through."""
+    if isinstance(values, Numbers):
+        reasons = np.full(len(values.values), "", dtype=object)
+        for i, text in zip(values.bad.tolist(), values.bad_text, strict=True):
+            hint = " (a decimal comma?)" if "," in text else ""
+            reasons[i] = f"`{name}` is not a number: {text.strip()[:40]!r}{hint}"
+        return values.values, reasons
     arr = np.asarray(values)
     if arr.dtype.kind in "fiu":
         return arr.astype(float), np.full(len(arr), "", dtype=object)
@@ -83,9 +107,31 @@ def _numbers(values: np.ndarray, name: str) -> tuple[np.ndarray, np.ndarray]:
     return out, reasons
 
 
-def _texts(values: np.ndarray) -> np.ndarray:
-    cells = np.asarray(values, dtype=object)
-    return np.array(["" if v is None else str(v).strip().lower() for v in cells], dtype=object)
+_KNOWN_WORDS = np.asarray(["", "rare", "common", *SCALE_ALIASES])
+
+
+def _texts(values: np.ndarray | Codes) -> np.ndarray:
+    """Codes compared per row: lower case, trimmed, numpy strings ("" where blank). Cells
+    already in that form (nearly all) are left alone, so a million rows cost little."""
+    if isinstance(values, Codes):
+        return values.values
+    arr = as_text(values)
+    odd = ~np.isin(arr, _KNOWN_WORDS)
+    if odd.any():
+        arr = arr.astype(f"<U{max(arr.dtype.itemsize // 4, 1)}")
+        arr[odd] = np.strings.lower(np.strings.strip(arr[odd]))
+    return arr
+
+
+def _codes(scale: np.ndarray) -> np.ndarray:
+    """Scale words to codes ("hazard ratio" -> "hr"), one comparison per alias in use."""
+    code = scale.astype(f"<U{max(scale.dtype.itemsize // 4, 3)}")
+    if np.isin(scale, SCREEN_SCALES + ("",)).all():
+        return code
+    for word, target in SCALE_ALIASES.items():
+        if word != target:
+            code[scale == word] = target
+    return code
 
 
 def _first(reasons: np.ndarray, new: np.ndarray) -> np.ndarray:
@@ -93,9 +139,28 @@ def _first(reasons: np.ndarray, new: np.ndarray) -> np.ndarray:
     return np.where(reasons == "", new, reasons)
 
 
-def _append(notes: np.ndarray, mask: np.ndarray, text: str) -> np.ndarray:
-    with_sep = np.where(notes == "", text, notes + "; " + text)
-    return np.where(mask, with_sep, notes)
+class _Notes:
+    """Per-row notes kept as bit flags, joined into text once at the end (fast for a
+    million rows: only the distinct combinations are ever written out)."""
+
+    def __init__(self, n: int) -> None:
+        self.codes = np.zeros(n, np.int64)
+        self.texts: list[str] = []
+
+    def add(self, mask: np.ndarray, text: str, rows: np.ndarray | None = None) -> None:
+        if text not in self.texts:
+            self.texts.append(text)
+        bit = np.int64(1) << self.texts.index(text)
+        if rows is None:
+            self.codes |= np.where(mask, bit, 0)
+        else:
+            self.codes[rows] |= np.where(mask, bit, 0)
+
+    def render(self, keep: np.ndarray) -> np.ndarray:
+        codes = np.where(keep, self.codes, 0)
+        uniq, inverse = np.unique(codes, return_inverse=True)
+        words = ["; ".join(t for k, t in enumerate(self.texts) if int(u) >> k & 1) for u in uniq]
+        return np.asarray(words, dtype=object)[inverse]
 
 
 def screen_columns(
@@ -103,7 +168,7 @@ def screen_columns(
 ) -> dict[str, np.ndarray]:
     """Computed columns for `n` rows of text `columns` (see the module's description)."""
     reasons = np.full(n, "", dtype=object)
-    notes = np.full(n, "", dtype=object)
+    notes = _Notes(n)
     num: dict[str, np.ndarray] = {}
     for name in NUMERIC:
         if name in columns:
@@ -111,8 +176,8 @@ def screen_columns(
             reasons = _first(reasons, why)
         else:
             num[name] = np.full(n, np.nan)
-    scale = _texts(columns["scale"]) if "scale" in columns else np.full(n, "", dtype=object)
-    outcome = _texts(columns["outcome"]) if "outcome" in columns else np.full(n, "", dtype=object)
+    scale = _texts(columns["scale"]) if "scale" in columns else np.full(n, "")
+    outcome = _texts(columns["outcome"]) if "outcome" in columns else np.full(n, "")
     if options.from_text is not None:
         parsed = parse_many(np.asarray(columns[options.from_text], dtype=object))
         # The text supplies what the columns leave blank; where a row's columns give the
@@ -129,32 +194,29 @@ def screen_columns(
         for key in ("estimate", "lower", "upper"):
             num[key] = np.where(from_columns, num[key], parsed[key])
         named = (parsed["scale"] != "") & ~from_columns | (parsed["scale"] != "") & (scale == "")
-        clash = (
-            named
-            & (scale != "")
-            & (np.array([SCALE_ALIASES.get(s, s) for s in scale], dtype=object) != parsed["scale"])
-        )
+        clash = named & (scale != "") & (_codes(scale) != parsed["scale"].astype(str))
         for i in np.flatnonzero(clash & (reasons == "")):
             reasons[i] = (
-                f"the scale column says {scale[i]!r} but the text names {parsed['scale'][i]!r}"
+                f"the scale column says {str(scale[i])!r} but the text names "
+                f"{str(parsed['scale'][i])!r}"
             )
-        notes = _append(notes, named & (scale == ""), "scale read from the text")
-        scale = np.where(scale == "", parsed["scale"], scale)
+        notes.add(named & (scale == ""), "scale read from the text")
+        scale = np.where(scale == "", parsed["scale"].astype(str), scale)
         level = parsed["level"]
-        notes = _append(notes, given(level) & (level != 0.95), "interval level read from text")
-    code = np.array([SCALE_ALIASES.get(s, s) for s in scale], dtype=object)
+        notes.add(given(level) & (level != 0.95), "interval level read from text")
+    code = _codes(scale)
     missing = (code != "rd") & ~given(num["estimate"]) & (reasons == "")
     reasons = np.where(missing, "`estimate` is missing", reasons)
-    unknown = (code != "") & ~np.isin(code, np.asarray(SCREEN_SCALES, dtype=object))
+    unknown = (code != "") & ~np.isin(code, SCREEN_SCALES)
     for i in np.flatnonzero(unknown & (reasons == "")):
-        reasons[i] = f"`scale` must be one of {', '.join(SCREEN_SCALES)}; got {scale[i]!r}"
+        reasons[i] = f"`scale` must be one of {', '.join(SCREEN_SCALES)}; got {str(scale[i])!r}"
     for i in np.flatnonzero((code == "") & (reasons == "")):
         reasons[i] = "`scale` is missing (give a scale column, or text that names one)"
 
     out = {k: np.full(n, np.nan) for k in ("rr", "rr_lower", "rr_upper", "evalue", "evalue_ci")}
     out |= {k: np.full(n, np.nan) for k in ("partial_r2", "robustness_value",
                                            "robustness_value_alpha", "_near")}  # fmt: skip
-    regression = np.isin(code, np.asarray(["md", "ols"], dtype=object)) & given(num["dof"])
+    regression = np.isin(code, ["md", "ols"]) & given(num["dof"])
     rd = code == "rd"
     # ------------------------------------------------------------- E-value rows
     ev_rows = ~rd & ~((code == "ols") | (regression & ~given(num["sd"]))) & (reasons == "")
@@ -167,26 +229,28 @@ def screen_columns(
 
             null = null_of(np.where(code[idx] == "ols", "md", code[idx]))
             sub["target"] = np.where(given(num["target"][idx]), num["target"][idx], null)
-        sub["scale"] = np.where(code[idx] == "ols", "md", code[idx]).astype(object)
+        sub["scale"] = np.where(code[idx] == "ols", "md", code[idx])
         sub["outcome"] = outcome[idx]
         ev, why = evalue_rows(sub, len(idx))
         reasons[idx] = why
         for k in out.keys() & ev.keys():
             out[k][idx] = ev[k]
         conv = ev["outcome"]
-        notes[idx] = _append(notes[idx], given(sub["prevalence"]) & (why == ""),
-                             "outcome frequency from its prevalence (15% rule)")  # fmt: skip
-        notes[idx] = _append(notes[idx], (sub["scale"] == "or") & (conv == "common"),
-                             "common-outcome OR: RR = sqrt(OR)")  # fmt: skip
-        notes[idx] = _append(notes[idx], (sub["scale"] == "hr") & (conv == "common"),
-                             "common-outcome HR converted (VanderWeele 2020)")  # fmt: skip
-        notes[idx] = _append(
-            notes[idx],
-            np.isin(sub["scale"], np.asarray(["smd", "md"], dtype=object)),
-            "RR = exp(0.91 d)",
+        notes.add(
+            given(sub["prevalence"]) & (why == ""),
+            "outcome frequency from its prevalence (15% rule)",
+            idx,
         )
-        notes[idx] = _append(notes[idx], given(sub["se"]) & ~given(sub["lower"]),
-                             "interval from se")  # fmt: skip
+        notes.add(
+            (sub["scale"] == "or") & (conv == "common"), "common-outcome OR: RR = sqrt(OR)", idx
+        )
+        notes.add(
+            (sub["scale"] == "hr") & (conv == "common"),
+            "common-outcome HR converted (VanderWeele 2020)",
+            idx,
+        )
+        notes.add(np.isin(sub["scale"], ["smd", "md"]), "RR = exp(0.91 d)", idx)
+        notes.add(given(sub["se"]) & ~given(sub["lower"]), "interval from se", idx)
     # ------------------------------------------------------------- regression rows
     reg = regression & (reasons == "") | ((code == "ols") & (reasons == ""))
     if reg.any():
@@ -219,7 +283,7 @@ def screen_columns(
             has_ci, np.where(covered | (bf >= near), "true", "false"), ""
         ).astype(object)
     result["error"] = reasons
-    result["notes"] = np.where(good, notes, "").astype(object)
+    result["notes"] = notes.render(good)
     return result
 
 
@@ -248,7 +312,7 @@ def _regression(num, rows, reasons, out, notes, options):
         )
     reasons[idx] = _first(reasons[idx], why)
     no_sd = ~given(num["sd"][idx])
-    notes[idx] = _append(notes[idx], ok & no_sd, "regression row: no sd, so no E-value")
+    notes.add(ok & no_sd, "regression row: no sd, so no E-value", idx)
     return reasons, out, notes
 
 

@@ -40,8 +40,12 @@ class Tally:
             kind = reason_kind(reason)
             self.flagged[kind] = self.flagged.get(kind, 0) + 1
         scale = computed["scale_used"]
-        for code in np.unique(scale[~bad]).tolist():
+        from .core import SCREEN_SCALES
+
+        for code in SCREEN_SCALES:
             rows = (scale == code) & ~bad
+            if not rows.any():
+                continue
             entry = self.scales.setdefault(code, _entry(self.n_confounders))
             entry["rows"] += int(rows.sum())
             for key in ("evalue", "evalue_ci"):

@@ -13,8 +13,46 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
-from .core import NUMERIC, TEXT, Options, computed_names, screen_columns
+from .core import NUMERIC, TEXT, Codes, Numbers, Options, computed_names, screen_columns
 from .result import ScreenSummary, Tally
+
+_NUMBER = r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$|^[-+]?(inf|infinity|nan)$"
+
+
+def text_or_numbers(column: Any) -> Any:
+    """A numeric column for the screen's core, converted in C: floats, with the cells that
+    are not numbers (and their text) kept aside for the reasons."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if pa.types.is_floating(column.type) or pa.types.is_integer(column.type):
+        return column.to_numpy(zero_copy_only=False).astype(float)
+    if not (pa.types.is_string(column.type) or pa.types.is_large_string(column.type)):
+        column = pc.cast(column, pa.string())
+    trimmed = pc.utf8_trim_whitespace(pc.fill_null(column, ""))
+    try:  # the common case: every cell blank or a number, converted in one pass
+        nulls = pc.if_else(pc.equal(trimmed, ""), pa.scalar(None, trimmed.type), trimmed)
+        return pc.cast(nulls, pa.float64()).to_numpy(zero_copy_only=False).astype(float)
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        pass
+    valid = pc.match_substring_regex(trimmed, _NUMBER, ignore_case=True)
+    values = pc.cast(pc.if_else(valid, trimmed, pa.scalar(None, trimmed.type)), pa.float64())
+    floats = values.to_numpy(zero_copy_only=False).astype(float)
+    bad = pc.and_(pc.invert(valid), pc.not_equal(trimmed, ""))
+    where = np.flatnonzero(bad.to_numpy(zero_copy_only=False))
+    texts = tuple(trimmed.take(pa.array(where)).to_pylist()) if where.size else ()
+    return Numbers(floats, where, texts)
+
+
+def clean_text(column: Any) -> Codes:
+    """A code column (scale, outcome) lower-cased and trimmed in C, as numpy strings."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if not (pa.types.is_string(column.type) or pa.types.is_large_string(column.type)):
+        column = pc.cast(column, pa.string())
+    text = pc.utf8_lower(pc.utf8_trim_whitespace(pc.fill_null(column, "")))
+    return Codes(np.asarray(text.to_numpy(zero_copy_only=False), dtype=str))
 
 
 def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text: str | None
@@ -75,8 +113,6 @@ def screen_batches(
     """
     import pyarrow as pa
 
-    from ..adapters.files import text_or_numbers
-
     options = Options(
         confounders=tuple((float(a), float(b)) for a, b in confounders),
         alpha=alpha,
@@ -105,7 +141,7 @@ def screen_batches(
                 if std in NUMERIC:
                     core[std] = text_or_numbers(col)
                 else:
-                    core[std] = np.asarray(col.to_pylist(), dtype=object)
+                    core[std] = clean_text(col)
             if from_text is not None:
                 core["_text"] = np.asarray(part.column(from_text).to_pylist(), dtype=object)
             computed = screen_columns(core, part.num_rows, options)
@@ -115,8 +151,8 @@ def screen_batches(
             fields = list(part.schema.names)
             for name in names:
                 values = computed[name]
-                if values.dtype == object:
-                    arrays.append(pa.array(values.tolist(), type=pa.string()))
+                if values.dtype.kind in "OU":
+                    arrays.append(pa.array(values, type=pa.string()))
                 else:
                     arrays.append(pa.array(values, from_pandas=True))
                 fields.append(name)
