@@ -18,7 +18,7 @@ def paragraph(s: ScreenSummary) -> str:
     good = s.rows - s.n_flagged
     text = f"Read {s.rows:,} rows from {s.source}: {good:,} screened, {s.n_flagged:,} flagged"
     if s.flagged:
-        top = [f"{reason} ({count:,})" for reason, count in list(s.flagged.items())[:4]]
+        top = [f"{count:,} × {reason}" for reason, count in list(s.flagged.items())[:4]]
         more = len(s.flagged) - 4
         text += " (" + "; ".join(top) + (f"; {more} more reasons" if more > 0 else "") + ")"
     text += "."
