@@ -35,6 +35,8 @@ _EXPORTS = {
     "bounding_grid": "tipping",
     "partial_r2_grid": "tipping",
     "TippingGrid": "tipping",
+    "from_model": "adapters",
+    "evalue_from_model": "adapters.models",
     "screen_table": "screen.stream",
     "screen_batches": "screen.stream",
     "screen_summary": "screen.stream",

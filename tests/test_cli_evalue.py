@@ -103,7 +103,7 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         (("rr", 0), "Error: `estimate` must be positive; got 0"),
         (("rr", -1.5), "Error: `estimate` must be positive; got -1.5"),
         (("rr", "inf"), "Error: `estimate` must be a finite number; got inf"),
-        (("rr", "abc"), "Error: Invalid value for 'ESTIMATE': 'abc' is not a number"),
+        (("rr", "abc"), "Error: Invalid value for '[ESTIMATE]': 'abc' is not a number"),
         (("rr", 3.9, "--ci", 4, 8.7), "Error: `estimate` must lie within `ci`"),
         (("rr", 3.9, "--ci", 8.7, 1.8), "Error: `ci` lower limit must not exceed the upper"),
         (("or", 2), "Error: `outcome` frequency is needed on the or scale"),
@@ -112,7 +112,7 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         (("rr", 2, "--target", 0), "Error: `target` must be positive; got 0"),
         (("rr", 2, "--confounder", 0.5, 2), "Error: `rr_treatment` must be at least 1; got 0.5"),
         (("zz", 2), "Error: Invalid value for 'SCALE'"),
-        (("rr",), "Error: Missing argument 'ESTIMATE'."),
+        (("rr",), "Error: give SCALE and ESTIMATE"),
         (
             ("rr", 2, "--output", "/no/such/folder/e.txt"),
             "Error: Invalid value for '--output' / '-o': folder '/no/such/folder' does not exist",

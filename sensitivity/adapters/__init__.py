@@ -1,1 +1,19 @@
 """The outside world into plain numbers: fitted models (one file a library) and data files."""
+
+from __future__ import annotations
+
+from typing import Any
+
+
+def from_model(results: Any, treatment: str, **options: Any) -> Any:
+    """The right result for a fitted model: partial R² (with the E-value alongside) for OLS,
+    the E-value on the fit's own scale for logistic, log-binomial, Poisson, negative binomial
+    and Cox fits (statsmodels, or lifelines' CoxPHFitter)."""
+    from .models import _kind, evalue_from_model
+
+    kind, _ = _kind(results)
+    if kind == "ols":
+        from .statsmodels import partial_r2_from_model
+
+        return partial_r2_from_model(results, treatment, **options)
+    return evalue_from_model(results, treatment, **options)

@@ -16,14 +16,29 @@ from ._options import (
     format_options,
     outcome_frequency_option,
     plot_options,
+    show_warnings,
 )
 
 SHORT_HELP = COMMANDS["evalue"][1]
 
 
 @click.command("evalue", cls=Command, short_help=SHORT_HELP)
-@click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), metavar="SCALE")
-@click.argument("estimate", type=Number())
+@click.argument(
+    "scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), metavar="SCALE", required=False
+)
+@click.argument("estimate", type=Number(), required=False)
+@click.option(
+    "--data", type=click.Path(dir_okay=False), help="Data input: CSV, TSV, Excel or Parquet."
+)
+@click.option("--formula", help='Data input: the model formula, e.g. "y ~ t + age + C(site)".')
+@click.option("--treatment", help="Data input: the treatment's coefficient name.")
+@click.option(
+    "--model",
+    "model_kind",
+    type=click.Choice(["ols", "logit", "poisson", "negbin", "cox"]),
+    help="Data input: the fit, which decides the scale (cox: time on the formula's left side).",
+)
+@click.option("--event", help="Data input with --model cox: the column that is 1 for an event.")
 @click.option(
     "--ci",
     nargs=2,
@@ -85,6 +100,11 @@ SHORT_HELP = COMMANDS["evalue"][1]
 def evalue_cmd(
     scale: Any,
     estimate: Any,
+    data: Any,
+    formula: Any,
+    treatment: Any,
+    model_kind: Any,
+    event: Any,
     ci: Any,
     ci_level: Any,
     se: Any,
@@ -100,7 +120,11 @@ def evalue_cmd(
     fmt: Any,
     outputs: Any,
 ) -> None:
-    """E-value of ESTIMATE on SCALE: rr, or, hr, smd or md.
+    """E-value of ESTIMATE on SCALE (rr, or, hr, smd or md), or of a model fitted to data.
+
+    Give SCALE ESTIMATE and the summary options, or --data --formula --treatment --model to
+    fit the model here: the fit decides the scale, the estimate and interval come from it,
+    and the outcome's share in the data decides rare or common.
 
     \b
     Examples:
@@ -110,6 +134,8 @@ def evalue_cmd(
       sensitivity evalue smd 0.18 --se 0.05
       sensitivity evalue md 0.035 --se 0.012 --sd 14 --contrast 10
       sensitivity evalue hr 1.38 --ci 1.12 1.70 --outcome-frequency rare --confounder 1.5 2
+      sensitivity evalue --data demo/harbourside_bp.csv --formula "sbp ~ commute_min + age + \\
+          female + smoker + C(shift) + bmi" --treatment commute_min --model ols --contrast 10
     """
     from sensitivity.evalues.core import evalue
 
@@ -119,6 +145,33 @@ def evalue_cmd(
         )
     exclusive(("--outcome-frequency", outcome), ("--prevalence", prevalence))
     exclusive(("--se", se), ("--ci", ci or None))
+    inputs = (("--data", data), ("--formula", formula), ("--treatment", treatment))
+    data_given = [n for n, v in (*inputs, ("--model", model_kind)) if v]
+    if data_given:
+        summary = [n for n, v in (("SCALE", scale), ("--ci", ci or None), ("--se", se),
+                                  ("--sd", sd), ("--prevalence", prevalence)) if v]  # fmt: skip
+        if summary:
+            raise click.UsageError(
+                f"give summary numbers or data, not both: got {', '.join(summary + data_given)}"
+            )
+        missing = [n for n in ("--data", "--formula", "--treatment", "--model")
+                   if n not in data_given]  # fmt: skip
+        if missing:
+            raise click.UsageError(f"data input needs {', '.join(missing)} as well")
+        from sensitivity.adapters.models import evalue_from_data
+
+        show_warnings()
+        result = evalue_from_data(data, formula, treatment, model_kind, event=event,
+                                  contrast=contrast, outcome=outcome)  # fmt: skip
+        _finish(result, confounders, fmt, outputs, plots, plot_limits)
+        return
+    if event is not None:
+        raise click.UsageError("--event applies to data input with --model cox")
+    if scale is None or estimate is None:
+        raise click.UsageError(
+            "give SCALE and ESTIMATE (e.g. evalue rr 1.6 --ci 1.2 2.1), or --data, --formula, "
+            "--treatment and --model"
+        )
 
     result = evalue(
         scale,
@@ -132,6 +185,11 @@ def evalue_cmd(
         target=target,
         ci_level=ci_level,
     )
+    _finish(result, confounders, fmt, outputs, plots, plot_limits)
+
+
+def _finish(result: Any, confounders: Any, fmt: str, outputs: Any, plots: Any,
+            plot_limits: Any) -> None:  # fmt: skip
     if confounders:
         rr_t, rr_y = zip(*confounders, strict=True)
         result = result.with_confounders(rr_t, rr_y)

@@ -112,6 +112,31 @@ def sentence(result: EValueResult) -> str | None:
     )
 
 
+def overlap_table(ov: dict) -> Table:
+    """The positivity diagnostic of a binary treatment fitted from data."""
+
+    def span(pair: list) -> str:
+        return f"{pair[0]:.3f} to {pair[1]:.3f}"
+
+    rows = (
+        ("Treated", span(ov["treated"])),
+        ("Controls", span(ov["control"])),
+        ("Common support", span(ov["common_support"])),
+        ("Units outside it", f"{ov['share_outside']:.1%}"),
+    )
+    verdict = "poor: read the E-value with care" if ov["poor"] else "no sign of poor overlap"
+    return Table(
+        ("Group", "Fitted treatment probabilities"),
+        rows,
+        title="Overlap of the treated and the controls (positivity)",
+        footnotes=(
+            f"Overlap: {verdict}. A sensitivity analysis assumes the adjusted estimate itself "
+            "is sound; poor overlap (over 10% of units outside, or probabilities beyond 0.01 "
+            "to 0.99, common practice) undermines that.",
+        ),
+    )
+
+
 def confounder_table(bound: ConfounderBound) -> Table:
     src = bound.source
     rows = []
@@ -180,6 +205,8 @@ def document(result: EValueResult | ConfounderBound) -> Document:
     blocks: list = [estimate_table(result)]
     if lead:
         blocks.append(prose(lead, role="sentence"))
+    if result.overlap is not None:
+        blocks.append(overlap_table(result.overlap))
     if result.confounders is not None:
         blocks.append(confounder_table(result.confounders))
         blocks.append(prose(*confounder_sentences(result.confounders)))

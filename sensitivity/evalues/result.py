@@ -95,6 +95,8 @@ class EValueResult(Result):
     cautions: tuple[str, ...] = standing.EVALUE
     confounders: ConfounderBound | None = None
     ci_level: float = 0.95
+    model: dict | None = None  # from a fitted model: kind, n, outcome_share, treatment
+    overlap: dict | None = None  # a binary treatment's positivity diagnostic
 
     _repr_fields = ("scale", "estimate", "ci", "evalue", "evalue_ci")
 
@@ -178,6 +180,10 @@ class EValueResult(Result):
         )
         if self.confounders is not None:
             out["confounders"] = self.confounders.rows()
+        if self.model is not None:
+            out["model"] = plain(self.model)
+        if self.overlap is not None:
+            out["overlap"] = plain(self.overlap)
         return out
 
     def own_columns(self) -> dict[str, np.ndarray]:

@@ -1,0 +1,314 @@
+"""Fitted models into the right method: the E-value on the fit's own scale.
+
+Logistic fits give an odds ratio, log-binomial fits a risk ratio, Poisson and negative
+binomial fits a rate ratio, Cox fits a hazard ratio (statsmodels PHReg, or lifelines'
+CoxPHFitter). The estimate and interval are exp(coefficient x contrast) and the fit's own
+confidence limits; the outcome's event share in the model's data decides rare or common (the
+15% rule, common practice) and the output says so. OLS fits go to the partial-R² route.
+"""
+
+from __future__ import annotations
+
+import warnings
+from typing import Any
+
+import numpy as np
+
+from ..common.errors import InputError, SensitivityWarning
+from ..evalues.core import evalue
+from ..evalues.result import EValueResult
+
+KINDS = ("ols", "logit", "poisson", "negbin", "cox")
+SHOWN = {"logit": "logistic", "log-binomial": "log-binomial", "poisson": "Poisson",
+         "negbin": "negative binomial", "cox": "Cox", "ols": "OLS"}  # fmt: skip
+
+
+def _kind(results: Any) -> tuple[str, str]:
+    """(model kind, effect scale) of a fitted model; InputError for one we do not route."""
+    model = getattr(results, "model", None)
+    name = type(model).__name__
+    if type(results).__name__ == "CoxPHFitter" or hasattr(results, "baseline_hazard_"):
+        return "cox", "hr"
+    if name == "OLS":
+        return "ols", "md"
+    if name == "Logit":
+        return "logit", "or"
+    if name in ("Poisson", "GeneralizedPoisson"):
+        return "poisson", "rr"
+    if name in ("NegativeBinomial", "NegativeBinomialP"):
+        return "negbin", "rr"
+    if name == "PHReg":
+        return "cox", "hr"
+    if name == "GLM" and model is not None:
+        family = type(model.family).__name__
+        link = type(model.family.link).__name__
+        if family == "Binomial" and link == "Logit":
+            return "logit", "or"
+        if family == "Binomial" and link == "Log":
+            return "log-binomial", "rr"
+        if family == "Poisson" and link == "Log":
+            return "poisson", "rr"
+        if family == "NegativeBinomial" and link == "Log":
+            return "negbin", "rr"
+        raise InputError(
+            f"`results`: a GLM with family {family} and link {link} has no E-value route; "
+            "use a logit or log link (binomial), or a log link (Poisson, negative binomial)"
+        )
+    raise InputError(
+        f"`results` must be a fitted OLS, logistic, log-binomial, Poisson, negative binomial "
+        f"or Cox model; got {name or type(results).__name__}"
+    )
+
+
+def _converged(results: Any) -> None:
+    retvals = getattr(results, "mle_retvals", None)
+    converged = getattr(results, "converged", None)
+    if retvals is not None and retvals.get("converged") is False or converged is False:
+        raise InputError("`results`: the model did not converge; its estimate cannot be used")
+
+
+def _treatment_index(names: list[str], treatment: str) -> int:
+    if treatment in names:
+        return names.index(treatment)
+    raise InputError(
+        f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
+        + ", ".join(map(str, names))
+    )
+
+
+def overlap(treatment: np.ndarray, covariates: np.ndarray) -> dict[str, Any] | None:
+    """Positivity for a binary treatment: fitted treatment probabilities in each group and
+    the share of units outside their common support (None for a non-binary treatment)."""
+    import statsmodels.api as sm
+
+    t = np.asarray(treatment, float)
+    if not np.isin(np.unique(t), [0.0, 1.0]).all() or np.unique(t).size != 2:
+        return None
+    x = np.asarray(covariates, float)
+    if x.ndim == 1:
+        x = x[:, None]
+    if x.shape[1] == 0 or np.allclose(x, x[:1]):
+        return None
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            p = np.asarray(sm.Logit(t, x).fit(disp=0, maxiter=200).predict(x))
+        except Exception:  # noqa: BLE001 - separation here is itself the finding
+            p = np.where(t == 1, 1.0, 0.0)
+    treated, control = p[t == 1], p[t == 0]
+    low, high = max(treated.min(), control.min()), min(treated.max(), control.max())
+    outside = float(np.mean((p < low) | (p > high)))
+    return {
+        "treated": [float(treated.min()), float(treated.max())],
+        "control": [float(control.min()), float(control.max())],
+        "common_support": [float(low), float(high)],
+        "share_outside": outside,
+        "poor": bool(outside > 0.1 or p.min() < 0.01 or p.max() > 0.99),
+    }
+
+
+def evalue_from_model(
+    results: Any,
+    treatment: str,
+    *,
+    contrast: float = 1.0,
+    alpha: float = 0.05,
+    outcome: str | None = None,
+) -> EValueResult:
+    """The E-value of `treatment`'s effect in a fitted logistic, log-binomial, Poisson,
+    negative binomial or Cox model, on the fit's own scale.
+
+    Parameters
+    ----------
+    results : fitted model
+        statsmodels Logit, GLM (binomial with logit or log link, Poisson, negative binomial),
+        Poisson, NegativeBinomial or PHReg results; or a fitted lifelines CoxPHFitter.
+    treatment : str
+        The treatment's coefficient name.
+    contrast : float, default 1
+        For a continuous treatment: the difference the ratio refers to (exp(b x contrast)).
+    alpha : float, default 0.05
+        The interval is the fit's own (1 - alpha) interval (robust or clustered if the fit's
+        covariance is).
+    outcome : {'rare', 'common'}, optional
+        Overrides the frequency the model's event share decides.
+
+    Examples
+    --------
+    >>> import numpy as np, statsmodels.api as sm
+    >>> rng = np.random.default_rng(1)
+    >>> t = rng.binomial(1, 0.5, 4000); y = rng.binomial(1, np.where(t == 1, 0.06, 0.04))
+    >>> fit = sm.Logit(y, sm.add_constant(t.astype(float))).fit(disp=0)
+    >>> res = evalue_from_model(fit, "x1")
+    >>> res.scale, res.outcome, res.model["kind"]
+    ('or', 'rare', 'logit')
+    """
+    kind, scale = _kind(results)
+    if kind == "ols":
+        raise InputError("`results` is an OLS fit: use the partial-R² route (from_model)")
+    if kind == "cox" and type(getattr(results, "model", None)).__name__ != "PHReg":
+        return _lifelines(results, treatment, contrast=contrast, alpha=alpha, outcome=outcome)
+    _converged(results)
+    model = results.model
+    names = list(model.exog_names)
+    j = _treatment_index(names, treatment)
+    b = float(np.asarray(results.params)[j])
+    ci = np.asarray(results.conf_int(alpha=alpha))[j]
+    y = np.asarray(model.endog, float)
+    if kind == "cox":
+        status = getattr(model, "status", None)
+        events = np.asarray(status if status is not None else np.ones_like(y), float)
+        share, n = float(events.mean()), len(y)
+    elif kind in ("logit", "log-binomial"):
+        share, n = float(np.mean(y > 0)), len(y)
+    else:
+        share, n = float(np.mean(y > 0)), len(y)
+    notes = []
+    cov = getattr(results, "cov_type", "nonrobust")
+    if cov != "nonrobust":
+        notes.append(f"The interval is the fit's own, from its {cov} covariance.")
+    freq = outcome
+    prevalence = None
+    if freq is None and scale in ("or", "hr"):
+        prevalence = share
+    est = float(np.exp(b * contrast))
+    lo, up = (float(v) for v in np.exp(np.sort(ci * contrast)))
+    res = evalue(scale, est, (lo, up), outcome=freq, prevalence=prevalence, ci_level=1 - alpha)
+    what = {"or": "odds ratio", "rr": "risk or rate ratio", "hr": "hazard ratio"}[scale]
+    per = f" per {contrast:g} units" if contrast != 1 else ""
+    notes.insert(
+        0,
+        f"From a fitted {SHOWN[kind]} model (n = {n:,}): {what} exp(b){per} = {est:.4g}; the "
+        f"outcome occurs in {share:.1%} of the model's data.",
+    )
+    info = {"kind": kind, "n": n, "outcome_share": share, "treatment": treatment}
+    exog = np.asarray(model.exog, float)
+    others = [i for i in range(exog.shape[1]) if i != j]
+    ov = overlap(exog[:, j], exog[:, others]) if others else None
+    if ov is not None and ov["poor"]:
+        message = (
+            f"poor overlap: {ov['share_outside']:.1%} of units lie outside the common support "
+            "of the fitted treatment probabilities; the sensitivity analysis assumes the "
+            "adjusted estimate itself is sound"
+        )
+        warnings.warn(message, SensitivityWarning, stacklevel=2)
+        notes.append(message[0].upper() + message[1:] + ".")
+    from dataclasses import replace
+
+    return replace(res, notes=tuple(notes) + res.notes, model=info, overlap=ov)
+
+
+def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
+               outcome: str | None) -> EValueResult:  # fmt: skip
+    """A lifelines CoxPHFitter: its summary gives the coefficient and its interval."""
+    from dataclasses import replace
+
+    summary = fitter.summary
+    if treatment not in summary.index:
+        raise InputError(
+            f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
+            + ", ".join(map(str, summary.index))
+        )
+    b = float(summary.loc[treatment, "coef"])
+    se = float(summary.loc[treatment, "se(coef)"])
+    from scipy.special import ndtri
+
+    z = float(ndtri(1 - alpha / 2))
+    events = np.asarray(fitter.event_observed, float)
+    share = float(events.mean())
+    est = float(np.exp(b * contrast))
+    lo, up = sorted(float(np.exp((b + s * z * se) * contrast)) for s in (-1, 1))
+    res = evalue("hr", est, (lo, up), outcome=outcome,
+                 prevalence=None if outcome else share, ci_level=1 - alpha)  # fmt: skip
+    note = (
+        f"From a fitted Cox model (lifelines, n = {len(events):,}): hazard ratio {est:.4g}; "
+        f"the event occurs in {share:.1%} of the data."
+    )
+    info = {"kind": "cox", "n": len(events), "outcome_share": share, "treatment": treatment}
+    return replace(res, notes=(note, *res.notes), model=info)
+
+
+def fit(data: Any, formula: str, model: str, event: str | None = None) -> Any:
+    """Fit `formula` on a DataFrame with the statsmodels model `model` names; InputError for
+    a formula, outcome or event the fit cannot use, a model that does not converge, and
+    perfect separation."""
+    import statsmodels.formula.api as smf
+
+    if model not in KINDS:
+        raise InputError(f"`model` must be one of {', '.join(KINDS)}; got {model!r}")
+    if model == "cox" and event is None:
+        raise InputError("`event` is needed with model cox: the column that is 1 for an event")
+    if model != "cox" and event is not None:
+        raise InputError(f"`event` applies to model cox only; got model {model}")
+    if event is not None and event not in data.columns:
+        raise InputError(f"`event` {event!r} is not a column of the data")
+    fitters = {
+        "ols": lambda: smf.ols(formula, data).fit(),
+        "logit": lambda: smf.logit(formula, data).fit(disp=0),
+        "poisson": lambda: smf.poisson(formula, data).fit(disp=0),
+        "negbin": lambda: smf.negativebinomial(formula, data).fit(disp=0, maxiter=200),
+        "cox": lambda: smf.phreg(formula, data, status=data[event].to_numpy()).fit(),
+    }
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # separation and non-convergence are the user's data
+        try:
+            results = fitters[model]()
+        except Exception as err:  # noqa: BLE001 - a fit failure is the data's or formula's
+            text = " ".join(str(err).split()) or type(err).__name__
+            if "separation" in text.lower():
+                raise InputError(
+                    f"`data`: perfect separation in the {model} fit: a covariate or the "
+                    "treatment predicts the outcome exactly, so the estimate is not defined"
+                ) from None
+            if "converge" in text.lower():
+                raise InputError(
+                    f"`data`: the {model} fit did not converge ({text[:120]})"
+                ) from None
+            raise InputError(
+                f"`formula` {formula!r} could not be fitted ({model}): {text[:240]}"
+            ) from None
+    _converged(results)
+    return results
+
+
+def evalue_from_data(
+    data: Any,
+    formula: str,
+    treatment: str,
+    model: str,
+    *,
+    event: str | None = None,
+    contrast: float = 1.0,
+    alpha: float = 0.05,
+    outcome: str | None = None,
+) -> EValueResult:
+    """Fit `model` on `data` (a DataFrame or a file) and give the E-value of `treatment`.
+
+    ``ols`` gives the E-value of the coefficient through the standardized difference (the
+    outcome's SD from the data); the others as `evalue_from_model`.
+    """
+    from dataclasses import replace
+
+    from .statsmodels import check_names
+
+    if not hasattr(data, "columns"):
+        from .files import read_table
+
+        data = read_table(data, "data")
+    check_names(data, formula, treatment)
+    results = fit(data, formula, model, event)
+    if model != "ols":
+        return evalue_from_model(results, treatment, contrast=contrast, alpha=alpha,
+                                 outcome=outcome)  # fmt: skip
+    names = list(results.model.exog_names)
+    j = _treatment_index(names, treatment)
+    y = np.asarray(results.model.endog, float)
+    sd = float(np.std(y, ddof=1))
+    b, se = float(np.asarray(results.params)[j]), float(np.asarray(results.bse)[j])
+    res = evalue("md", b, se=se, sd=sd, contrast=contrast)
+    info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment}
+    note = (
+        f"From a fitted OLS model (n = {int(results.nobs):,}): coefficient {b:.4g} (se "
+        f"{se:.3g}); the outcome's SD in the data is {sd:.4g}."
+    )
+    return replace(res, notes=(note, *res.notes), model=info)
