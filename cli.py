@@ -38,6 +38,9 @@ class _Cli(click.Group):
 
         args = list(sys.argv[1:] if args is None else args)
         debug = "--debug" in args
+        from sensitivity.commands import _options
+
+        _options.INVOCATION[:] = [a for a in args if a != "--debug"]
         extra.pop("standalone_mode", None)
         try:
             super().main(

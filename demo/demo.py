@@ -21,8 +21,8 @@ def evalue_command(row: dict) -> list[str]:
     for column in ("se", "sd", "contrast"):
         if row[column]:
             args += [f"--{column}", row[column]]
-    if row["frequency"]:
-        args += ["--outcome-frequency", row["frequency"]]
+    if row["outcome"]:
+        args += ["--outcome-frequency", row["outcome"]]
     return args
 
 
@@ -49,7 +49,7 @@ def main() -> int:
         cmd = evalue_command(row)
         if i == 1:  # the reviewer's question, once: confounders as strong as known ones
             cmd += ["--confounder", "1.5", "2", "--confounder", "3", "4"]
-        steps.append((f"[{i}/{len(rows)}] {row['exposure']} -> {row['outcome']}", cmd))
+        steps.append((f"[{i}/{len(rows)}] {row['label']}", cmd))
     steps.append(
         (
             "Systolic blood pressure per daily commute minute (OLS on invented individual data):",

@@ -10,6 +10,8 @@ from typing import Any
 import click
 
 FORMATS = ("text", "json", "csv", "markdown", "latex")
+#: The arguments of the running command line (set by cli.py), for a report to quote.
+INVOCATION: list[str] = []
 _NEGATIVE = re.compile(r"^-(\d|\.\d)")
 #: Options of earlier versions, and what replaced them.
 RENAMED = {"--rare": "--outcome-frequency rare", "--common": "--outcome-frequency common"}

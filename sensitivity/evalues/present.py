@@ -17,6 +17,13 @@ def _records(columns: dict) -> list[dict]:
     return [{k: v[i] for k, v in cols.items()} for i in range(n)]
 
 
+def _value(x: float | None) -> str:
+    """An observed value: two decimals, or two significant digits when it is below 0.1."""
+    if x is None or abs(x) >= 0.1 or x == 0:
+        return number(x)
+    return f"{x:#.2g}"
+
+
 def _goal(result: EValueResult) -> str:
     return (
         "the null"
@@ -37,7 +44,7 @@ def estimate_table(result: EValueResult) -> Table:
     rows: list[tuple[str, ...]] = []
     for i, rec in enumerate(_records(result.own_columns())):
         label = "Estimate" if result.is_scalar else f"Estimate {i + 1}"
-        est: tuple[str, ...] = (label, number(rec["estimate"]))
+        est: tuple[str, ...] = (label, _value(rec["estimate"]))
         est += (number(rec["rr"]),) if show_rr else ()
         rows.append((*est, number(rec["evalue"])))
         if rec["evalue_ci"] is None:
@@ -57,7 +64,7 @@ def estimate_table(result: EValueResult) -> Table:
                     contrast=1.0 if rec["contrast"] is None else rec["contrast"],
                 )
             )
-        limit: tuple[str, ...] = (f"  {_level(result)} limit nearest the {near}", number(observed))
+        limit: tuple[str, ...] = (f"  {_level(result)} limit nearest the {near}", _value(observed))
         limit += (number(lo_rr if lower_nearer else up_rr),) if show_rr else ()
         rows.append((*limit, number(rec["evalue_ci"])))
     conversion = result.conversion
@@ -86,9 +93,9 @@ def sentence(result: EValueResult) -> str | None:
     level = _level(result)
     ci = ""
     if r["ci_lower"] is not None:
-        ci = f" ({level} {number(r['ci_lower'])} to {number(r['ci_upper'])})"
+        ci = f" ({level} {_value(r['ci_lower'])} to {_value(r['ci_upper'])})"
     elif r["se"] is not None:
-        ci = f" (standard error {number(r['se'])})"
+        ci = f" (standard error {_value(r['se'])})"
     conv = ""
     if result.scale != "rr" and not (result.scale in ("or", "hr") and result.outcome == "rare"):
         kind = f" for a {result.outcome} outcome" if result.scale in ("or", "hr") else ""
@@ -97,7 +104,7 @@ def sentence(result: EValueResult) -> str | None:
     aim = "explaining the estimate away" if result.target_is_null else f"moving it to {goal}"
     e, e_ci = number(r["evalue"]), r["evalue_ci"]
     text = (
-        f"For the observed {name} of {number(r['estimate'])}{ci}{conv or ','} {aim} would take an "
+        f"For the observed {name} of {_value(r['estimate'])}{ci}{conv or ','} {aim} would take an "
         f"unmeasured confounder associated with both the treatment and the outcome by a risk "
         f"ratio of at least {e} each, beyond the measured covariates (the E-value); a "
         f"confounder weaker than that on both associations could not."

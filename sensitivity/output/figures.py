@@ -155,6 +155,19 @@ def _tip_line(
         handles.append(plt.Line2D([], [], color=color, ls=style, lw=width, label=label))
 
 
+def log_ticks(ax: Any, low: float, high: float) -> None:
+    """A log x axis labelled with plain numbers (0.8, 1, 1.5, 2), no minor labels."""
+    from matplotlib.ticker import FixedLocator, FuncFormatter, NullFormatter, NullLocator
+
+    nice = [0.1, 0.2, 0.3, 0.5, 0.67, 0.8, 1, 1.25, 1.5, 2, 3, 5, 10, 20, 50, 100, 1e3, 1e4]
+    ax.set_xscale("log")
+    ax.set_xlim(low, high)
+    ax.xaxis.set_major_locator(FixedLocator([v for v in nice if low <= v <= high]))
+    ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+    ax.xaxis.set_minor_locator(NullLocator())
+    ax.xaxis.set_minor_formatter(NullFormatter())
+
+
 # --------------------------------------------------------------------------- partial R²
 def _r2_limits(result: Any, limits: Mark | None) -> Mark:
     """The default zoom: where the conclusion changes (twice the larger robustness value)
@@ -448,7 +461,6 @@ def screen_figure(
     )
     edges = np.exp(summary.log_edges())
     top = float(limits[0]) if limits is not None else None
-    from matplotlib.ticker import FixedLocator, FuncFormatter, NullFormatter, NullLocator
 
     from ..common.scales import SCALES
 
@@ -460,7 +472,6 @@ def screen_figure(
                 right = max(right, float(edges[min(int(np.searchsorted(share, 0.999)) + 1,
                                                    len(edges) - 1)]))  # fmt: skip
     right = top if top else right * 1.05
-    nice = [v for v in (1, 1.25, 1.5, 2, 3, 5, 10, 20, 50, 100, 1e3, 1e4) if v <= right]
     for ax, code in zip(axes.flat, codes, strict=False):
         est, ci = summary.histograms[code]
         for counts, key, label in ((est, "estimate", "estimate"), (ci, "ci", "interval limit")):
@@ -473,12 +484,7 @@ def screen_figure(
                     color=color, ls=style, lw=width, label=label)  # fmt: skip
         name = SCALES[code].name if code in SCALES else "regression coefficient"
         ax.set_title(f"{name.capitalize()}s ({summary.per_scale[code]['rows']:,})")
-        ax.set_xscale("log")
-        ax.set_xlim(1, right)
-        ax.xaxis.set_major_locator(FixedLocator(nice))
-        ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
-        ax.xaxis.set_minor_locator(NullLocator())
-        ax.xaxis.set_minor_formatter(NullFormatter())
+        log_ticks(ax, 1, right)
         ax.set_ylim(0, 1)
         _percent(ax, "y")
         ax.set_xlabel("E-value")

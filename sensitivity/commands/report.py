@@ -1,0 +1,154 @@
+"""`sensitivity report`: the robustness section of a manuscript, in one folder."""
+
+from __future__ import annotations
+
+import shlex
+from typing import Any
+
+import click
+
+from sensitivity.commands import COMMANDS
+
+from . import _options
+from ._options import Command, Number, outcome_frequency_option, show_warnings
+
+SHORT_HELP = COMMANDS["report"][1]
+
+
+def _rows(path: str) -> list[Any]:
+    """Items from a table of estimates (the screen's columns plus a label), strictly: a row
+    that cannot be computed stops the report with its reason."""
+    import numpy as np
+
+    from sensitivity.adapters.files import read_table
+    from sensitivity.common.errors import InputError
+    from sensitivity.evalues.core import evalue
+    from sensitivity.output.report import Item
+    from sensitivity.partial_r2.core import partial_r2_summary
+
+    frame = read_table(path, "estimates")
+    for need in ("scale", "estimate"):
+        if need not in frame.columns:
+            raise InputError(f"`estimates`: the table has no {need!r} column")
+
+    def cell(row: Any, name: str) -> Any:
+        value = row.get(name) if name in row else None
+        if value is None or (isinstance(value, float) and np.isnan(value)) or value == "":
+            return None
+        return value
+
+    items = []
+    for k, (_, row) in enumerate(frame.iterrows(), 1):
+        label = str(cell(row, "label") or f"Estimate {k}")
+        try:
+            scale = str(row["scale"]).strip().lower()
+            scale = "md" if scale == "ols" else scale
+            ci = None
+            if cell(row, "lower") is not None:
+                ci = (float(row["lower"]), float(row["upper"]))
+            num = {k2: (None if cell(row, k2) is None else float(row[k2]))
+                   for k2 in ("se", "sd", "prevalence", "contrast", "target", "dof")}  # fmt: skip
+            res = evalue(scale, float(row["estimate"]), ci, se=num["se"], sd=num["sd"],
+                         outcome=cell(row, "outcome"), prevalence=num["prevalence"],
+                         contrast=num["contrast"] or 1.0, target=num["target"])  # fmt: skip
+            pr2 = None
+            if scale == "md" and num["dof"] is not None and num["se"] is not None:
+                pr2 = partial_r2_summary(float(row["estimate"]), num["se"], num["dof"],
+                                         sd_outcome=num["sd"])  # fmt: skip
+        except (InputError, ValueError, TypeError) as err:
+            raise InputError(f"`estimates` row {k} ({label}): {err}") from None
+        items.append(Item(label, res, pr2))
+    if not items:
+        raise InputError(f"`estimates`: {path} has no rows")
+    return items
+
+
+@click.command("report", cls=Command, short_help=SHORT_HELP)
+@click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), required=False,
+                metavar="[SCALE ESTIMATE]")  # fmt: skip
+@click.argument("estimate", type=Number(), required=False, metavar="")
+@click.option("--ci", nargs=2, type=float, default=None, metavar="LOWER UPPER",
+              help="Summary input: confidence limits.")  # fmt: skip
+@click.option("--se", type=float, help="Summary input: standard error (smd, md).")
+@click.option("--sd", type=float, help="Summary input: the outcome's SD (md).")
+@outcome_frequency_option("Summary input, or and hr: the outcome's frequency.")
+@click.option("--prevalence", type=float, help="Summary input: the outcome's prevalence.")
+@click.option("--label", default="Main estimate", show_default=True,
+              help="Summary or data input: the estimate's name in the report.")  # fmt: skip
+@click.option(
+    "--estimates",
+    type=click.Path(dir_okay=False),
+    help="A table of estimates, one a row: the screen's columns and a label.",
+)
+@click.option("--data", type=click.Path(dir_okay=False), help="Data input, as for evalue.")
+@click.option("--formula", help="Data input: the model formula.")
+@click.option("--treatment", help="Data input: the treatment's coefficient name.")
+@click.option("--model", "model_kind", type=click.Choice(["ols", "logit", "poisson", "negbin",
+              "cox"]), help="Data input: the fit.")  # fmt: skip
+@click.option("--event", help="Data input with --model cox: the event column.")
+@click.option("--contrast", type=float, default=1.0, show_default=True,
+              help="A continuous treatment: report per this many units.")  # fmt: skip
+@click.option("--out", "folder", required=True, type=click.Path(file_okay=False),
+              help="The folder to write (created if missing).")  # fmt: skip
+def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: Any,
+               prevalence: Any, label: str, estimates: Any, data: Any, formula: Any,
+               treatment: Any, model_kind: Any, event: Any, contrast: float,
+               folder: str) -> None:  # fmt: skip
+    """Write the robustness section of a manuscript to a folder.
+
+    report.md, a self-contained report.html (figures embedded, nothing fetched), tables.tex,
+    the figures as PNG and SVG, and report.json with every number: a supplement table across
+    the estimates, a forest-style figure with their E-values, Methods and Results paragraphs,
+    each estimate's tables and sentences, the assumptions, the cautions, the references and
+    the command that reproduces it.
+
+    \b
+    Examples:
+      sensitivity report hr 1.38 --ci 1.12 1.70 --outcome-frequency rare --out report
+      sensitivity report --estimates demo/cohort_estimates.csv --out report
+    """
+    from sensitivity.output.report import Item, write_report
+
+    show_warnings()
+    routes = [bool(scale), bool(estimates), bool(data)]
+    if sum(routes) != 1:
+        raise click.UsageError(
+            "give one input: SCALE ESTIMATE (summary numbers), --estimates FILE, or --data "
+            "with --formula, --treatment and --model"
+        )
+    if estimates:
+        items = _rows(estimates)
+    elif data:
+        missing = [n for n, v in (("--formula", formula), ("--treatment", treatment),
+                                  ("--model", model_kind)) if not v]  # fmt: skip
+        if missing:
+            raise click.UsageError(f"data input needs {', '.join(missing)} as well")
+        from sensitivity.adapters.models import evalue_from_data
+
+        res = evalue_from_data(data, formula, treatment, model_kind, event=event,
+                               contrast=contrast, outcome=outcome)  # fmt: skip
+        pr2 = None
+        if model_kind == "ols":
+            from sensitivity.adapters.statsmodels import partial_r2_from_data
+
+            pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast)
+        items = [Item(label, res, pr2)]
+    else:
+        if estimate is None:
+            raise click.UsageError("summary input needs SCALE and ESTIMATE")
+        from sensitivity.evalues.core import evalue
+
+        res = evalue(scale, estimate, ci or None, se=se, sd=sd, outcome=outcome,
+                     prevalence=prevalence, contrast=contrast)  # fmt: skip
+        items = [Item(label, res)]
+    command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
+    files = write_report(items, folder, command)
+    click.echo(f"Wrote the report to {files['folder']}/ (report.html, report.md, tables.tex, "
+               "report.json, figures)", err=True)  # fmt: skip
+    for item in items:
+        e = item.evalue
+        ci_e = "-" if e.evalue_ci is None else f"{float(e.evalue_ci):.2f}"
+        click.echo(f"{item.label}: E-value {float(e.evalue):.2f} (CI: {ci_e})")
+
+
+command = report_cmd
