@@ -103,11 +103,26 @@ def main() -> int:
             ],
         )
     )
+    steps.append(
+        (
+            "The robustness section of the manuscript, for every estimate at once:",
+            ["sensitivity", "report", "--estimates", "demo/cohort_estimates.csv",
+             "--out", "demo-report"],
+        )
+    )  # fmt: skip
+    steps.append(
+        (
+            "Screening an (invented) evidence review of 40 published results:",
+            ["sensitivity", "screen", "demo/published_results.csv", "--from-text", "result",
+             "--confounder", "2", "2", "--output", "out/screened.csv"],
+        )
+    )  # fmt: skip
     for title, cmd in steps:
         code = show(title, cmd)
         if code:
             return code
     print("Figures written to out/: partial_r2_contours.png, tipping_night_shift.png")
+    print("The report is in demo-report/: open demo-report/report.html in a browser.")
     return 0
 
 
