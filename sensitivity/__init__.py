@@ -35,6 +35,7 @@ _EXPORTS = {
     "bounding_grid": "tipping",
     "partial_r2_grid": "tipping",
     "TippingGrid": "tipping",
+    "impact_threshold": "impact",
     "from_model": "adapters",
     "evalue_from_model": "adapters.models",
     "screen_table": "screen.stream",

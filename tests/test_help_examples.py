@@ -13,7 +13,7 @@ from cli import cli
 def _examples():
     runner = CliRunner()
     found = []
-    for command in ("evalue", "partial-r2", "tipping", "screen"):
+    for command in ("evalue", "partial-r2", "tipping", "screen", "impact", "report"):
         text = runner.invoke(cli, [command, "--help"], terminal_width=200).stdout
         lines, current = [], ""
         for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
@@ -34,7 +34,14 @@ EXAMPLES = _examples()
 
 
 def test_every_command_has_examples():
-    assert {c for c, _ in EXAMPLES} == {"evalue", "partial-r2", "tipping", "screen"}
+    assert {c for c, _ in EXAMPLES} == {
+        "evalue",
+        "partial-r2",
+        "tipping",
+        "screen",
+        "impact",
+        "report",
+    }
 
 
 @pytest.mark.parametrize("command, example", EXAMPLES, ids=[e for _, e in EXAMPLES])

@@ -312,3 +312,20 @@ def evalue_from_data(
         f"{se:.3g}); the outcome's SD in the data is {sd:.4g}."
     )
     return replace(res, notes=(note, *res.notes), model=info)
+
+
+def impact_from_model(results: Any, treatment: str, *, alpha: float = 0.05) -> Any:
+    """The impact threshold of `treatment` in a fitted statsmodels OLS model (classical se;
+    df and covariates from the fit)."""
+    from ..impact.core import impact_threshold
+    from .statsmodels import _check_ols
+
+    model, _ = _check_ols(results)
+    names = list(model.exog_names)
+    j = _treatment_index(names, treatment)
+    cov = np.asarray(results.normalized_cov_params, float) * float(results.scale)
+    n, dof = int(results.nobs), float(results.df_resid)
+    return impact_threshold(
+        float(np.asarray(results.params)[j]), float(np.sqrt(cov[j, j])), n=n,
+        covariates=int(round(n - dof - 2)), alpha=alpha,
+    )  # fmt: skip

@@ -1,0 +1,77 @@
+"""The impact threshold in words and a table."""
+
+from __future__ import annotations
+
+from ..output.document import Block, Document, prose, standard_tail
+from ..output.tables import Table, number, percent
+from .result import ImpactResult
+
+
+def _dof(r: ImpactResult) -> str:
+    return "as given" if r.n is None else f"n - covariates - 2 = {r.dof:,.0f}"
+
+
+def table(r: ImpactResult) -> Table:
+    rows = [
+        ("Observed partial correlation of treatment and outcome", number(r.correlation, 3)),
+        (f"Correlation at which significance changes (alpha {r.alpha:g})",
+         number(r.correlation_threshold, 3)),
+        ("Impact threshold (product of the confounder's two correlations)", number(r.itcv, 3)),
+        ("Each correlation, taken equal", number(r.itcv_component, 3)),
+    ]  # fmt: skip
+    if r.share_to_invalidate is not None:
+        verb = "remove" if r.direction == "invalidate" else "add"
+        rows.append((f"Share of the estimate bias would have to {verb}",
+                     percent(r.share_to_invalidate)))  # fmt: skip
+    if r.cases_to_replace is not None:
+        rows.append(("Cases to replace with cases of no effect", f"{r.cases_to_replace:,.0f}"))
+    return Table(
+        ("How strong a confounding variable would have to be", "Value"),
+        tuple(rows),
+        title=f"Impact threshold (t = {r.t:.2f} on {r.dof:,.0f} df)",
+        footnotes=(
+            f"Degrees of freedom: {_dof(r)}; two-sided critical t {r.t_critical:.3f}. "
+            "Correlations are partial on the "
+            "model's covariates.",
+        ),
+    )
+
+
+def sentence(r: ImpactResult) -> str:
+    c = number(abs(r.itcv_component), 2)
+    level = f"{r.alpha:g}"
+    if r.direction == "invalidate":
+        text = (
+            f"To make the estimate lose significance at the {level} level, an omitted variable "
+            f"would need an impact of {number(abs(r.itcv), 3)} (correlated at {c} with both the "
+            "treatment and the outcome, beyond the covariates, in the direction that weakens "
+            "the estimate); a weaker one could not"
+        )
+        if r.share_to_invalidate is not None:
+            text += (
+                f", and bias would have to remove {percent(r.share_to_invalidate)} of the estimate"
+            )
+    else:
+        text = (
+            f"The estimate is not significant at the {level} level; to make it significant, a "
+            f"suppressing variable would need correlations of {c} in size with the treatment "
+            "and the outcome, of opposite signs"
+        )
+        if r.share_to_invalidate is not None:
+            text += f", and bias would have to add {percent(r.share_to_invalidate)} to it"
+    if r.cases_to_replace is not None and r.direction == "invalidate":
+        text += (
+            f" (about {r.cases_to_replace:,.0f} of the {r.n:,} cases replaced by cases with "
+            "no effect)"
+        )
+    return text + "."
+
+
+def document(r: ImpactResult) -> Document:
+    lead = sentence(r)
+    blocks: tuple[Block, ...] = (table(r), prose(lead, role="sentence"))
+    blocks += standard_tail(r.notes, r.cautions, (
+        "A linear model; the confounder's correlations are partial on the covariates; "
+        "one omitted variable (or a combination of several).",
+    ))  # fmt: skip
+    return Document("Impact threshold", blocks, sentence=lead)

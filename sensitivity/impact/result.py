@@ -1,0 +1,62 @@
+"""The impact threshold's result: numbers and inputs (present.py words them)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..common import notes as standing
+from ..common.results import Result, plain
+
+
+@dataclass(frozen=True, eq=False, repr=False)
+class ImpactResult(Result):
+    """How strong a confounding variable would have to be to change the inference."""
+
+    estimate: float | None
+    se: float | None
+    t: float
+    n: int | None
+    covariates: int | None
+    dof: float
+    alpha: float
+    t_critical: float
+    correlation: float  # observed partial correlation of treatment and outcome
+    correlation_threshold: float  # the correlation at which significance is lost (signed)
+    itcv: float  # the impact: the product of the confounder's two correlations
+    itcv_component: float  # each correlation, taken equal in size
+    direction: str  # "invalidate" (a significant result) or "sustain" (a non-significant one)
+    estimate_threshold: float | None  # t_critical x se
+    share_to_invalidate: float | None
+    cases_to_replace: float | None
+    cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
+    notes: tuple[str, ...] = ()
+    _repr_fields = ("t", "dof", "itcv", "share_to_invalidate")
+
+    def to_dict(self) -> dict:
+        return plain(
+            {
+                "estimate": self.estimate,
+                "se": self.se,
+                "t": self.t,
+                "n": self.n,
+                "covariates": self.covariates,
+                "dof": self.dof,
+                "alpha": self.alpha,
+                "t_critical": self.t_critical,
+                "correlation": self.correlation,
+                "correlation_threshold": self.correlation_threshold,
+                "itcv": self.itcv,
+                "itcv_component": self.itcv_component,
+                "direction": self.direction,
+                "estimate_threshold": self.estimate_threshold,
+                "share_to_invalidate": self.share_to_invalidate,
+                "cases_to_replace": self.cases_to_replace,
+                "notes": list(self.all_notes()),
+            }
+        )
+
+    def columns(self) -> dict[str, np.ndarray]:
+        d = self.to_dict()
+        return {k: np.asarray([v], dtype=object) for k, v in d.items() if k != "notes"}
