@@ -13,7 +13,7 @@ from cli import cli
 def _examples():
     runner = CliRunner()
     found = []
-    for command in ("evalue", "partial-r2", "tipping", "screen", "impact", "report"):
+    for command in ("evalue", "partial-r2", "tipping", "screen", "impact", "report", "stability"):
         text = runner.invoke(cli, [command, "--help"], terminal_width=200).stdout
         lines, current = [], ""
         for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
@@ -41,6 +41,7 @@ def test_every_command_has_examples():
         "screen",
         "impact",
         "report",
+        "stability",
     }
 
 
