@@ -36,6 +36,7 @@ _EXPORTS = {
     "partial_r2_grid": "tipping",
     "TippingGrid": "tipping",
     "impact_threshold": "impact",
+    "rosenbaum_bounds": "matched",
     "coefficient_stability": "stability",
     "from_model": "adapters",
     "evalue_from_model": "adapters.models",

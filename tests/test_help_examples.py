@@ -13,7 +13,8 @@ from cli import cli
 def _examples():
     runner = CliRunner()
     found = []
-    for command in ("evalue", "partial-r2", "tipping", "screen", "impact", "report", "stability"):
+    commands = ("evalue", "partial-r2", "tipping", "screen", "impact", "report", "stability")
+    for command in (*commands, "matched"):
         text = runner.invoke(cli, [command, "--help"], terminal_width=200).stdout
         lines, current = [], ""
         for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
@@ -42,6 +43,7 @@ def test_every_command_has_examples():
         "impact",
         "report",
         "stability",
+        "matched",
     }
 
 

@@ -541,3 +541,26 @@ def stability_figure(result: Any, path: str | Path | Sequence[str | Path]) -> li
     del plt
     _save(fig, paths)
     return paths
+
+
+# --------------------------------------------------------------------------- matched pairs
+def matched_figure(result: Any, path: str | Path | Sequence[str | Path]) -> list[Path]:
+    """The upper bound on the one-sided p-value against Gamma, with alpha and the crossing."""
+    paths = [check_plot_path(p) for p in ([path] if isinstance(path, (str, Path)) else path)]
+    fig, ax = _figure()
+    ax.plot(result.gamma, result.p_upper, color="black", lw=2, marker="o", ms=3,
+            label="Upper bound on the p-value")  # fmt: skip
+    ax.plot(result.gamma, result.p_lower, color="black", lw=1, ls="--",
+            label="Lower bound on the p-value")  # fmt: skip
+    ax.axhline(result.alpha, color="#d62728", lw=1, ls=":", label=f"alpha = {result.alpha:g}")
+    g = result.gamma_at_alpha
+    if g is not None and np.isfinite(g) and result.gamma.min() <= g <= result.gamma.max():
+        ax.plot([g], [result.alpha], "D", color="#d62728", ms=7,
+                label=f"Crossing at Gamma = {g:.2f}")  # fmt: skip
+    ax.set_xlabel("Gamma: how much more likely hidden bias could make one unit the treated one")
+    ax.set_ylabel("One-sided p-value")
+    name = "sign test" if result.test == "sign" else "signed-rank test"
+    ax.set_title(f"Rosenbaum bounds ({name}, {result.pairs:,} pairs)")
+    _legend(ax, ax.get_legend_handles_labels()[0])
+    _save(fig, paths)
+    return paths

@@ -1,0 +1,65 @@
+"""Rosenbaum bounds in words and a table."""
+
+from __future__ import annotations
+
+from ..output.document import Block, Document, prose, standard_tail
+from ..output.tables import Table
+from .result import MatchedResult
+
+
+def _p(x: float) -> str:
+    return "<0.0001" if x < 1e-4 else f"{x:.4f}"
+
+
+def table(r: MatchedResult) -> Table:
+    rows = tuple(
+        (f"{g:g}", _p(u), _p(lo))
+        for g, u, lo in zip(r.gamma.tolist(), r.p_upper.tolist(), r.p_lower.tolist(),
+                            strict=True)
+    )  # fmt: skip
+    name = "sign test" if r.test == "sign" else "Wilcoxon signed-rank test"
+    return Table(
+        ("Gamma", "Upper bound on p", "Lower bound on p"),
+        rows,
+        title=f"Rosenbaum bounds: {name} ({r.method}), {r.pairs:,} pairs",
+        footnotes=(
+            "Gamma: how many times more likely a hidden confounder could make one unit of a pair "
+            "the treated one; one-sided p-values.",
+        ),
+    )
+
+
+def sentence(r: MatchedResult) -> str:
+    if r.gamma_at_alpha is None:
+        return (
+            f"The result is not significant at the {r.alpha:g} level even with no hidden bias "
+            "(Gamma 1), so there is no Gamma to report."
+        )
+    if r.gamma_at_alpha == float("inf"):
+        return f"The upper bound stays below {r.alpha:g} for every Gamma up to 1,000,000."
+    g = f"{r.gamma_at_alpha:.2f}"
+    return (
+        f"The upper bound on the one-sided p-value reaches {r.alpha:g} at Gamma = {g}: only a "
+        f"hidden confounder that could make one unit of a pair at least {g} times as likely as "
+        "the other to be the treated one could make the result lose significance; a weaker "
+        "hidden bias could not."
+    )
+
+
+def document(r: MatchedResult) -> Document:
+    lead = sentence(r)
+    notes = list(r.notes)
+    if r.zero_pairs:
+        rule = "ranked and counted as zero (Pratt)" if r.zeros == "pratt" else "dropped"
+        pairs = "1 pair" if r.zero_pairs == 1 else f"{r.zero_pairs} pairs"
+        verb = "was" if r.zero_pairs == 1 else "were"
+        notes.append(f"{pairs} with a zero difference {verb} {rule}.")
+    if r.missing:
+        pairs = "1 pair" if r.missing == 1 else f"{r.missing} pairs"
+        notes.append(f"{pairs} with a missing value left out (listed on stderr by the command).")
+    blocks: tuple[Block, ...] = (table(r), prose(lead, role="sentence"))
+    blocks += standard_tail(notes, r.cautions, (
+        "Pairs matched on the measured covariates; a hidden confounder with bounded effect "
+        "(Gamma) on which unit is treated; one-sided test in the direction of the effect.",
+    ))  # fmt: skip
+    return Document("Rosenbaum bounds", blocks, sentence=lead)

@@ -1,0 +1,150 @@
+"""Rosenbaum bounds (issue 12): the lead example, the smoking pairs, exact enumeration,
+the vertex argument, the Gamma = 1 identity, properties, errors and the command."""
+
+from __future__ import annotations
+
+import itertools
+import json
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from sensitivity.common.errors import InputError
+from sensitivity.matched import rosenbaum_bounds, sign_test_bounds, signed_rank_bounds
+
+# Morton et al. (1982) lead in children, 33 pairs (exposed, control) [OPENED, METHODS-MORE 1.5b]
+LEAD = (
+    "38,16 23,18 41,18 18,24 37,19 36,11 23,10 62,15 31,16 34,18 24,18 14,13 21,19 17,10 16,16 "
+    "20,16 15,24 10,13 45,9 39,14 22,21 35,19 49,7 48,18 44,19 35,12 43,11 39,22 34,25 13,16 "
+    "73,13 25,11 27,13"
+)
+PAIRS = np.array([[float(v) for v in p.split(",")] for p in LEAD.split()])
+D = PAIRS[:, 0] - PAIRS[:, 1]
+
+
+def test_the_lead_example_exact_at_gamma_one():
+    # Printed exact two-sided p = 8.037e-07 with zeros dropped [OPENED, lecture notes]: V = 499.
+    t, upper, _ = signed_rank_bounds(D, 1.0, method="exact", zeros="drop")
+    assert t == 499
+    assert 2 * upper[0] == pytest.approx(8.037e-07, abs=5e-11)
+
+
+@pytest.mark.parametrize("gamma, printed", [(2, 0.0018), (3, 0.0136), (4, 0.0388)])
+def test_the_lead_example_bounds(gamma, printed):
+    # Rosenbaum (2002, ch. 4) [RECALLED; reproduced by the normal bound with Pratt zeros]: T = 527.
+    res = rosenbaum_bounds(differences=D, gamma=[gamma], method="normal", zeros="pratt")
+    assert res.statistic == 527
+    assert float(res.p_upper[0]) == pytest.approx(printed, abs=0.00005)
+
+
+@pytest.mark.parametrize("gamma, printed", [(4, 0.004), (5, 0.03), (6, 0.10)])
+def test_the_smoking_pairs(gamma, printed):
+    # Hammond (1964) in Rosenbaum (2002, 4.3) [RECALLED]: 122 discordant pairs, 110 against the
+    # smoker; the printed bounds match the large-sample bound with a continuity correction.
+    upper, _ = sign_test_bounds(122, 110, gamma, method="normal", continuity=True)
+    assert float(upper[0]) == pytest.approx(printed, abs=0.0025 if printed < 0.01 else 0.005)
+
+
+def test_the_sign_test_gamma_solves_the_bound():
+    res = rosenbaum_bounds(discordant=122, treated_events=110, gamma=[1], alpha=0.05)
+    upper, _ = sign_test_bounds(122, 110, res.gamma_at_alpha)
+    assert float(upper[0]) == pytest.approx(0.05, rel=1e-9)
+
+
+def test_the_exact_bound_equals_enumeration():
+    # Every assignment of the signs under Bernoulli(p) weights, summed by brute force.
+    d = np.array([1.5, -0.4, 2.2, 0.9, -1.1, 3.0, 0.9, 2.5])
+    q = np.argsort(np.argsort(np.abs(d))) + 1.0
+    q[[3, 6]] = (q[3] + q[6]) / 2  # the tie at |0.9|
+    t = q[d > 0].sum()
+    for gamma in (1.0, 2.0, 3.5):
+        p = gamma / (1 + gamma)
+        total = 0.0
+        for w in itertools.product((0, 1), repeat=len(d)):
+            w = np.array(w)
+            if (q * w).sum() >= t - 1e-9:
+                total += np.prod(np.where(w == 1, p, 1 - p))
+        _, upper, _ = signed_rank_bounds(d, gamma, method="exact")
+        assert float(upper[0]) == pytest.approx(total, rel=1e-12)
+
+
+def test_the_binomial_vertex_is_the_worst_case():
+    # METHODS-MORE 1.6.1: over all 2^8 choices of theta in {p-, p+}, the largest tail is the
+    # Binomial(n, p+) one.
+    from math import comb
+
+    n, k, gamma = 8, 6, 2.0
+    hi, lo = gamma / (1 + gamma), 1 / (1 + gamma)
+    best = 0.0
+    for thetas in itertools.product((lo, hi), repeat=n):
+        dist = np.array([1.0])
+        for th in thetas:
+            dist = np.convolve(dist, [1 - th, th])
+        best = max(best, dist[k:].sum())
+    binom = sum(comb(n, a) * hi**a * lo ** (n - a) for a in range(k, n + 1))
+    assert best == pytest.approx(binom, rel=1e-12)
+    assert float(sign_test_bounds(n, k, gamma)[0][0]) == pytest.approx(binom, rel=1e-12)
+
+
+def test_gamma_one_is_the_usual_normal_signed_rank_test():
+    # METHODS-MORE 1.6.3: at Gamma = 1 the normal bound is scipy's signed-rank normal
+    # approximation without continuity correction, one-sided.
+    from scipy.stats import wilcoxon
+
+    ref = wilcoxon(D, zero_method="pratt", correction=False, method="approx",
+                   alternative="greater")  # fmt: skip
+    _, upper, _ = signed_rank_bounds(D, 1.0, method="normal", zeros="pratt")
+    assert float(upper[0]) == pytest.approx(ref.pvalue, rel=1e-6)
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.lists(st.floats(-5, 5).filter(lambda v: abs(v) > 1e-3), min_size=3, max_size=25),
+       st.floats(1, 5), st.floats(1, 5))  # fmt: skip
+def test_the_upper_bound_rises_with_gamma(d, g1, g2):
+    lo, hi = sorted((g1, g2))
+    _, upper, lower = signed_rank_bounds(d, [lo, hi], method="exact")
+    assert upper[1] >= upper[0] - 1e-12
+    assert lower[1] <= lower[0] + 1e-12
+
+
+@pytest.mark.parametrize(
+    "kwargs, message",
+    [
+        ({"discordant": 10, "treated_events": 8, "gamma": [0.5]}, r"`gamma` must be at least 1"),
+        ({"discordant": 10, "treated_events": 8, "alpha": 0}, r"`alpha` must lie strictly"),
+        ({"discordant": 1, "treated_events": 1}, r"`discordant` must be at least 2 pairs"),
+        ({"discordant": 10, "treated_events": 11}, r"`treated_events` must lie between 0 and"),
+        ({"differences": [1.0]}, r"`differences` must hold at least two pairs"),
+        ({"differences": [0.0, 0.0]}, r"`differences` are all zero"),
+        ({}, r"give `differences`, or `discordant` and `treated_events`"),
+    ],
+)
+def test_bad_input(kwargs, message):
+    with pytest.raises(InputError, match=message):
+        rosenbaum_bounds(**kwargs)
+
+
+@pytest.mark.parametrize("fmt", ["text", "json", "csv", "markdown", "latex"])
+def test_the_command(run, fmt, tmp_path):
+    res = run("matched", "--discordant", 80, "--treated-events", 58, "--gamma", "1:3:0.25",
+              "--format", fmt, "--plot", tmp_path / "m.png")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    if fmt == "json":
+        data = json.loads(res.stdout)
+        assert data["test"] == "sign" and data["pairs"] == 80 and len(data["rows"]) == 9
+        assert set(data["rows"][0]) == {"gamma", "p_upper", "p_lower"}
+        assert data["gamma_at_alpha"] > 1
+
+
+def test_the_command_reads_pairs_and_reports_missing_ones(run, tmp_path):
+    path = tmp_path / "pairs.csv"
+    lines = ["exposed,control"] + [f"{a:g},{b:g}" for a, b in PAIRS] + ["12,", "x,3"]
+    path.write_text("\n".join(lines) + "\n")
+    res = run("matched", "--data", path, "--treated", "exposed", "--control", "control",
+              "--method", "normal", "--format", "json")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    assert "2 pairs with a missing or non-numeric value left out (file lines 35, 36)" in res.stderr
+    data = json.loads(res.stdout)
+    assert data["statistic"] == 527 and data["missing_pairs"] == 2
