@@ -23,17 +23,7 @@ def read_table(path: str | Path, argument: str = "data") -> Any:
     """A pandas DataFrame from `path`; ValueError names `argument` for any unreadable file."""
     import pandas as pd
 
-    p = Path(path)
-    kind = READERS.get(p.suffix.lower())
-    if kind is None:
-        raise InputError(
-            f"`{argument}`: cannot tell the format of {p.name!r} from its extension; use one "
-            f"of {', '.join(sorted(READERS))}"
-        )
-    if not p.is_file():
-        raise InputError(f"`{argument}`: file not found: {path}")
-    if p.stat().st_size == 0:
-        raise InputError(f"`{argument}`: {path} is empty")
+    p, kind = _checked(path, argument)
     try:
         if kind == "csv":
             frame = pd.read_csv(p)
@@ -69,6 +59,17 @@ def file_kind(path: str | Path, argument: str = "file") -> str:
     return kind
 
 
+def _checked(path: str | Path, argument: str) -> tuple[Path, str]:
+    """The file and its format, refusing an unknown extension, a missing or empty file."""
+    p = Path(path)
+    kind = file_kind(p, argument)
+    if not p.is_file():
+        raise InputError(f"`{argument}`: file not found: {path}")
+    if p.stat().st_size == 0:
+        raise InputError(f"`{argument}`: {path} is empty")
+    return p, kind
+
+
 def read_batches(path: str | Path, argument: str = "file", batch_rows: int = BATCH_ROWS) -> Any:
     """The rows of a table file as pyarrow RecordBatches, read a batch at a time.
 
@@ -77,12 +78,7 @@ def read_batches(path: str | Path, argument: str = "file", batch_rows: int = BAT
     """
     import pyarrow as pa
 
-    p = Path(path)
-    kind = file_kind(p, argument)
-    if not p.is_file():
-        raise InputError(f"`{argument}`: file not found: {path}")
-    if p.stat().st_size == 0:
-        raise InputError(f"`{argument}`: {path} is empty")
+    p, kind = _checked(path, argument)
     try:
         if kind in ("csv", "tsv"):
             yield from _text_batches(p, "," if kind == "csv" else "\t", batch_rows)

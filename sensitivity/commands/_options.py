@@ -169,6 +169,19 @@ def plot_option(help_text: str) -> Callable:
     return click.option("--plot", type=click.Path(dir_okay=False), help=help_text)
 
 
+def confounder_option(help_text: str) -> Callable:
+    """--confounder RR_TREATMENT RR_OUTCOME (repeatable): a hypothetical confounder."""
+    return click.option(
+        "--confounder",
+        "confounders",
+        nargs=2,
+        type=float,
+        multiple=True,
+        metavar="RR_TREATMENT RR_OUTCOME",
+        help=help_text,
+    )
+
+
 def outcome_frequency_option(help_text: str) -> Callable:
     """--outcome-frequency rare|common (or, hr)."""
     return click.option(

@@ -11,6 +11,7 @@ from sensitivity.commands import COMMANDS
 from ._options import (
     Command,
     Number,
+    confounder_option,
     emit,
     exclusive,
     format_options,
@@ -84,16 +85,10 @@ SHORT_HELP = COMMANDS["evalue"][1]
     default=None,
     help="True value to test against, on the SCALE's scale (default: the null).",
 )
-@click.option(
-    "--confounder",
-    "confounders",
-    nargs=2,
-    type=float,
-    multiple=True,
-    metavar="RR_TREATMENT RR_OUTCOME",
-    help="A hypothetical confounder's risk ratios with the treatment and with the "
+@confounder_option(
+    "A hypothetical confounder's risk ratios with the treatment and with the "
     "outcome: prints its bounding factor and how far it could move the result. "
-    "Repeatable.",
+    "Repeatable."
 )
 @plot_options("a figure of the confounder strengths that could explain the result away")
 @format_options

@@ -9,7 +9,7 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import FORMATS, Command, plot_options
+from ._options import FORMATS, Command, confounder_option, plot_options
 
 SHORT_HELP = COMMANDS["screen"][1]
 
@@ -44,15 +44,9 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
     help="Read each row's estimate, interval and (where it names one) scale from this "
     "free-text column, e.g. 'HR 0.72 (0.60-0.86)'.",
 )
-@click.option(
-    "--confounder",
-    "confounders",
-    nargs=2,
-    type=float,
-    multiple=True,
-    metavar="RR_TREATMENT RR_OUTCOME",
-    help="Add, for every row, whether a confounder this strong could explain the estimate "
-    "and the interval away (repeatable).",
+@confounder_option(
+    "Add, for every row, whether a confounder this strong could explain the estimate "
+    "and the interval away (repeatable)."
 )
 @click.option(
     "--threshold",

@@ -41,8 +41,6 @@ from ..common.errors import InputError
 from ..common.scales import (
     OUTCOME_FREQUENCIES,
     RARE_OUTCOME_CUTOFF,
-    RATIO_SCALES,
-    SCALES,
     SMD_INTERVAL,
     SMD_SLOPE,
     as_text,
@@ -639,22 +637,6 @@ def with_confounders(
     rr_t = np.atleast_1d(as_array(rr_treatment, "rr_treatment"))
     rr_y = np.atleast_1d(as_array(rr_outcome, "rr_outcome"))
     return replace(result, confounders=confounder_bound(result, rr_t, rr_y))
-
-
-__all__ = [
-    "EVALUE_SCALES",
-    "RATIO_SCALES",
-    "SCALES",
-    "bounding_factor",
-    "confounder_bound",
-    "evalue",
-    "evalue_of_interval",
-    "evalue_of_rr",
-    "evalue_rows",
-    "from_risk_ratio",
-    "to_risk_ratio",
-    "with_confounders",
-]
 
 
 # --------------------------------------------------------------------------- risk differences
