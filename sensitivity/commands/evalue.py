@@ -90,6 +90,17 @@ SHORT_HELP = COMMANDS["evalue"][1]
     "outcome: prints its bounding factor and how far it could move the result. "
     "Repeatable."
 )
+@click.option(
+    "--with-selection",
+    type=click.Choice(["general", "one-factor"]),
+    help="Add selection bias to a joint E-value: general (the whole population, two factors) "
+    "or one-factor (increased risk in the selected).",
+)
+@click.option(
+    "--with-misclassification",
+    is_flag=True,
+    help="Add differential outcome misclassification to a joint E-value.",
+)
 @plot_options("a figure of the confounder strengths that could explain the result away")
 @format_options
 def evalue_cmd(
@@ -109,6 +120,8 @@ def evalue_cmd(
     prevalence: Any,
     target: Any,
     confounders: Any,
+    with_selection: Any,
+    with_misclassification: bool,
     plots: Any,
     plot_limits: Any,
     plot_marks: Any,
@@ -158,7 +171,8 @@ def evalue_cmd(
         show_warnings()
         result = evalue_from_data(data, formula, treatment, model_kind, event=event,
                                   contrast=contrast, outcome=outcome)  # fmt: skip
-        _finish(result, confounders, fmt, outputs, plots, plot_limits)
+        _finish(result, confounders, fmt, outputs, plots, plot_limits,
+                with_selection, with_misclassification)  # fmt: skip
         return
     if event is not None:
         raise click.UsageError("--event applies to data input with --model cox")
@@ -180,11 +194,15 @@ def evalue_cmd(
         target=target,
         ci_level=ci_level,
     )
-    _finish(result, confounders, fmt, outputs, plots, plot_limits)
+    _finish(result, confounders, fmt, outputs, plots, plot_limits,
+            with_selection, with_misclassification)  # fmt: skip
 
 
 def _finish(result: Any, confounders: Any, fmt: str, outputs: Any, plots: Any,
-            plot_limits: Any) -> None:  # fmt: skip
+            plot_limits: Any, selection: Any = None,
+            misclassification: bool = False) -> None:  # fmt: skip
+    if selection or misclassification:
+        result = result.with_biases(selection=selection, misclassification=misclassification)
     if confounders:
         rr_t, rr_y = zip(*confounders, strict=True)
         result = result.with_confounders(rr_t, rr_y)

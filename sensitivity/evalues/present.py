@@ -119,6 +119,35 @@ def sentence(result: EValueResult) -> str | None:
     )
 
 
+def multi_bias_table(result: EValueResult) -> Table:
+    mb = result.multi_bias or {}
+    rows = [("Confounding alone", number(result.evalue),
+             "-" if result.evalue_ci is None else number(result.evalue_ci))]  # fmt: skip
+    rows.append((" + ".join(b.capitalize() if i == 0 else b for i, b in enumerate(mb["biases"])),
+                 number(mb["evalue"]), "-" if mb["evalue_ci"] is None
+                 else number(mb["evalue_ci"])))  # fmt: skip
+    return Table(
+        ("Biases included", "E-value", f"E-value, {_level(result)}"),
+        tuple(rows),
+        title="Several biases at once: the common strength of every bias parameter",
+        footnotes=tuple(f"{b.capitalize()}: {a}." for b, a in zip(mb["biases"],
+                        mb["assumptions"], strict=True)),
+    )  # fmt: skip
+
+
+def multi_bias_sentence(result: EValueResult) -> str:
+    mb = result.multi_bias or {}
+    names = ", ".join(mb["biases"][:-1]) + f" and {mb['biases'][-1]}"
+    text = (
+        f"If {names} were {'all' if len(mb['biases']) > 2 else 'both'} present, each of their bias parameters would need a risk ratio of "
+        f"at least {number(mb['evalue'])} to explain the estimate away together (the joint "
+        f"E-value); weaker biases could not"
+    )
+    if mb["evalue_ci"] is not None and mb["evalue_ci"] > 1:
+        text += f", and {number(mb['evalue_ci'])} each could move the {_level(result)} to the null"
+    return text + "."
+
+
 def overlap_table(ov: dict) -> Table:
     """The positivity diagnostic of a binary treatment fitted from data."""
 
@@ -214,6 +243,9 @@ def document(result: EValueResult | ConfounderBound) -> Document:
         blocks.append(prose(lead, role="sentence"))
     if result.overlap is not None:
         blocks.append(overlap_table(result.overlap))
+    if result.multi_bias is not None:
+        blocks.append(multi_bias_table(result))
+        blocks.append(prose(multi_bias_sentence(result)))
     if result.confounders is not None:
         blocks.append(confounder_table(result.confounders))
         blocks.append(prose(*confounder_sentences(result.confounders)))

@@ -97,6 +97,7 @@ class EValueResult(Result):
     ci_level: float = 0.95
     model: dict | None = None  # from a fitted model: kind, n, outcome_share, treatment
     overlap: dict | None = None  # a binary treatment's positivity diagnostic
+    multi_bias: dict | None = None  # the joint E-value with selection / misclassification
 
     _repr_fields = ("scale", "estimate", "ci", "evalue", "evalue_ci")
 
@@ -184,7 +185,16 @@ class EValueResult(Result):
             out["model"] = plain(self.model)
         if self.overlap is not None:
             out["overlap"] = plain(self.overlap)
+        if self.multi_bias is not None:
+            out["multi_bias"] = plain(self.multi_bias)
         return out
+
+    def with_biases(self, *, selection: str | None = None,
+                    misclassification: bool = False) -> EValueResult:  # fmt: skip
+        """This result with the joint E-value for confounding plus the biases named."""
+        from .core import with_biases
+
+        return with_biases(self, selection=selection, misclassification=misclassification)
 
     def own_columns(self) -> dict[str, np.ndarray]:
         """The result's own columns, one row an estimate."""
