@@ -138,8 +138,9 @@ def multi_bias_table(result: EValueResult) -> Table:
 def multi_bias_sentence(result: EValueResult) -> str:
     mb = result.multi_bias or {}
     names = ", ".join(mb["biases"][:-1]) + f" and {mb['biases'][-1]}"
+    how = "all" if len(mb["biases"]) > 2 else "both"
     text = (
-        f"If {names} were {'all' if len(mb['biases']) > 2 else 'both'} present, each of their bias parameters would need a risk ratio of "
+        f"If {names} were {how} present, each of their bias parameters would need a risk ratio of "
         f"at least {number(mb['evalue'])} to explain the estimate away together (the joint "
         f"E-value); weaker biases could not"
     )
