@@ -232,6 +232,18 @@ CASES = [
             ("hr", ["--outcome-frequency", "common"]),
         ]
     ],
+    *[
+        (
+            "tipping",
+            f"continuous-{s}",
+            ["--kind", "continuous", "--scale", s, "--estimate", e, "--ci", lo, up, *extra],
+        )
+        for s, e, lo, up, extra in [
+            ("md", "2.5", "1", "4", []),
+            ("rr", "1.8", "1.2", "2.7", []),
+            ("hr", "0.7", "0.55", "0.9", ["--outcome-frequency", "common"]),
+        ]
+    ],  # fmt: skip
     (
         "tipping",
         "partial-r2",

@@ -23,10 +23,11 @@ SHORT_HELP = COMMANDS["tipping"][1]
 @click.command("tipping", cls=Command, short_help=SHORT_HELP)
 @click.option(
     "--kind",
-    type=click.Choice(["binary", "bounding", "partial-r2"]),
+    type=click.Choice(["binary", "continuous", "bounding", "partial-r2"]),
     default="binary",
     show_default=True,
-    help="binary: a binary confounder's prevalences and effect; bounding: its two risk "
+    help="binary: a binary confounder's prevalences and effect; continuous: a normal "
+    "confounder's difference between the groups and effect per SD; bounding: its two risk "
     "ratios (bounding factor); partial-r2: its two partial R² (OLS coefficient).",
 )
 @click.option(
@@ -40,6 +41,10 @@ SHORT_HELP = COMMANDS["tipping"][1]
 )
 @click.option(
     "--target", type=float, default=None, help="Value to test against (default: the null)."
+)
+@click.option(
+    "--difference",
+    help=f"continuous: the confounder's mean, treated minus controls, in SDs: {RANGE_HELP}.",
 )
 @click.option("--prevalence-treated", help=f"P(U=1) among the treated: {RANGE_HELP}.")
 @click.option("--prevalence-control", help=f"P(U=1) among the controls: {RANGE_HELP}.")
@@ -73,6 +78,7 @@ def tipping_cmd(
     prevalence_treated: Any,
     prevalence_control: Any,
     outcome_effect: Any,
+    difference: Any,
     rr_treatment: Any,
     rr_outcome: Any,
     outcome: Any,
@@ -102,6 +108,8 @@ def tipping_cmd(
       sensitivity tipping --kind bounding --scale hr --estimate 1.38 --ci 1.12 1.70 \\
           --outcome-frequency rare --plot b.png
       sensitivity tipping --kind partial-r2 --estimate 0.114 --se 0.027 --dof 1192
+      sensitivity tipping --kind continuous --scale rr --estimate 0.81 --ci 0.69 0.95 \\
+          --difference 0:1.5:0.1 --outcome-effect 1.5
     """
     from sensitivity.tipping import core as tp
 
@@ -111,6 +119,7 @@ def tipping_cmd(
     given = {
         "scale": scale,
         "ci": ci or None,
+        "difference": difference,
         "prevalence_treated": prevalence_treated,
         "prevalence_control": prevalence_control,
         "outcome_effect": outcome_effect,
@@ -133,8 +142,8 @@ def tipping_cmd(
     def grid(name):
         return None if given[name] is None else tp.parse_range(given[name], name)
 
-    if kind in ("binary", "bounding") and scale is None:
-        scales = "md, rd, rr, or, hr" if kind == "binary" else "rr, or, hr"
+    if kind in ("binary", "bounding", "continuous") and scale is None:
+        scales = "rr, or, hr" if kind == "bounding" else "md, rd, rr, or, hr"
         raise click.UsageError(f"--scale is required for the {kind} view ({scales})")
     if kind == "binary":
         result = tp.binary_confounder_grid(
@@ -144,6 +153,15 @@ def tipping_cmd(
             target=target,
             outcome=outcome,
             **{k: grid(k) for k in ("prevalence_treated", "prevalence_control", "outcome_effect")},
+        )
+    elif kind == "continuous":
+        result = tp.continuous_confounder_grid(
+            scale,
+            estimate,
+            ci or None,
+            target=target,
+            outcome=outcome,
+            **{k: grid(k) for k in ("difference", "outcome_effect")},
         )
     elif kind == "bounding":
         result = tp.bounding_grid(
@@ -185,6 +203,7 @@ VIEW_OPTIONS = {
         "outcome_effect",
         "outcome",
     },
+    "continuous": {"scale", "ci", "difference", "outcome_effect", "outcome"},
     "bounding": {"scale", "ci", "rr_treatment", "rr_outcome", "outcome"},
     "partial-r2": {"se", "dof", "r2_treatment", "r2_outcome"},
 }

@@ -245,6 +245,7 @@ AXIS_LABELS = {
     "rr_outcome": "Risk ratio relating the confounder to the outcome",
     "r2_treatment": "Confounder's share of the treatment's residual variance (partial R²)",
     "r2_outcome": "Confounder's share of the outcome's residual variance (partial R²)",
+    "difference": "Difference in the confounder's mean, treated minus controls (SDs)",
 }
 SHARES = ("prevalence_treated", "prevalence_control", "r2_treatment", "r2_outcome")
 

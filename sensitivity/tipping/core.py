@@ -184,6 +184,7 @@ def monotone_set(
     hi: float,
     shape: tuple[int, ...],
     probe_hi: float | None = None,
+    probe_lo: float | None = None,
 ) -> dict[str, np.ndarray]:
     """The exact set of values of a parameter at which a monotone condition holds.
 
@@ -194,7 +195,7 @@ def monotone_set(
     or empty).
     """
     top = probe_hi if probe_hi is not None else (hi if np.isfinite(hi) else 1e300)
-    bottom = lo if np.isfinite(lo) else -1e300
+    bottom = probe_lo if probe_lo is not None else (lo if np.isfinite(lo) else -1e300)
     at_lo = np.broadcast_to(reached(np.full(shape, bottom)), shape)
     at_hi = np.broadcast_to(reached(np.full(shape, top)), shape)
     kind = np.select([at_lo & at_hi, ~at_lo & ~at_hi, at_hi], [ALWAYS, NEVER, FROM], UP_TO)
@@ -493,6 +494,126 @@ def _binary_exact(
     return monotone_set(reached, root, lo, hi, shape)
 
 
+# --------------------------------------------------------------------------- normal U
+def continuous_confounder_grid(
+    scale: str,
+    estimate: float,
+    ci: tuple[float, float] | None = None,
+    *,
+    difference: ArrayLike | None = None,
+    outcome_effect: ArrayLike | None = None,
+    target: float | None = None,
+    outcome: str | None = None,
+    ci_level: float = 0.95,
+) -> TippingGrid:
+    """Bias-adjusted estimates under a normally distributed hidden confounder.
+
+    `difference` is the difference in the confounder's mean between the treated and the
+    controls, in units of its (common) SD; `outcome_effect` its effect on the outcome per SD:
+    a difference for md/rd, a ratio for rr/or/hr (a common outcome's OR or HR converted to
+    the risk-ratio scale first, as in `evalue`, and back).
+
+    Notes
+    -----
+    Difference scale: adjusted = observed - gamma x difference (exact for a linear model);
+    ratio scale: adjusted = observed / G^difference, from log RR_obs = log RR_true + gamma
+    Delta for a log-linear mean model (Lin, Psaty & Kronmal 1998; approximate for a rare
+    outcome's OR or HR). Both interval limits shift by the same bias.
+
+    References
+    ----------
+    Lin DY, Psaty BM, Kronmal RA (1998). Biometrics 54:948-963.
+    """
+    scale, est, ci, tgt = _check_effect(scale, estimate, ci, target)
+    freq = _check_frequency(scale, outcome)
+    ratio = scale in RATIO_SCALES
+    default = default_ranges("continuous", estimate=est, target=tgt, scale=scale)
+    delta = _axis(_or(difference, default["difference"]), "difference")
+    g = _axis(
+        _or(outcome_effect, default["outcome_effect"]),
+        "outcome_effect",
+        *((POSITIVE,) if ratio else ()),
+    )
+    axes = (("difference", delta), ("outcome_effect", g))
+    _check_size(axes)
+    conv = {"outcome": freq}
+
+    def on_rr(v: float) -> float:
+        return float(to_risk_ratio(scale, v, **conv)) if ratio else v
+
+    def back(v: np.ndarray) -> np.ndarray:
+        return from_risk_ratio(scale, v, **conv) if ratio else v
+
+    def shift(v: float, d: np.ndarray, e: np.ndarray) -> np.ndarray:
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            return v / np.power(e, d) if ratio else v - e * d
+
+    obs, t = on_rr(est), on_rr(tgt)
+    side = 1 if obs >= t else -1
+    slack = _slack(obs, t)
+    grid_d, grid_g = delta[:, None], g[None, :]
+    adjusted = shift(obs, grid_d, grid_g)
+    cells = {"bias_adjusted_estimate": back(adjusted)}
+    reach_ci = None
+    if ci is not None:
+        lo_rr, up_rr = on_rr(ci[0]), on_rr(ci[1])
+        cells["bias_adjusted_ci_lower"] = back(shift(lo_rr, grid_d, grid_g))
+        cells["bias_adjusted_ci_upper"] = back(shift(up_rr, grid_d, grid_g))
+        reach_ci = _reaches(shift(lo_rr if side > 0 else up_rr, grid_d, grid_g), t, side, slack)
+    _finite(cells, "`estimate`")
+    notes = (
+        list(_already(est, ci, tgt))
+        + list(_binary_notes(scale, freq))[:-1]
+        + [
+            "U is normal with the same SD among the treated and the controls and does not modify "
+            "the treatment effect; its difference is conditional on the measured covariates."
+        ]
+    )
+    result = TippingGrid(
+        kind="continuous", scale=scale, estimate=est, ci=ci, target=tgt, axes=axes,
+        cells=cells, reach_estimate=_reaches(adjusted, t, side, slack), reach_ci=reach_ci,
+        exact={}, notes=tuple(notes), extra={"outcome": freq} if freq else {},
+        ci_level=float(require(ci_level, "ci_level", OPEN_UNIT)),
+    )  # fmt: skip
+    if result.solved is None:
+        return result
+    j = result.solved
+    other = g if j == 0 else delta
+    shape = result.reduced_shape(j)
+
+    def exact_of(value: float) -> dict[str, np.ndarray]:
+        v = on_rr(value)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            if ratio:
+                log_r = np.log(v / t)
+                root = log_r / np.log(other) if j == 0 else np.exp(log_r / other)
+            else:
+                root = (v - t) / other
+
+        def reached(x: np.ndarray) -> np.ndarray:
+            pair = (x, other) if j == 0 else (other, x)
+            return _reaches(shift(v, *pair), t, side, slack)
+
+        lo, hi = (-np.inf, np.inf) if j == 0 or not ratio else (0.0, np.inf)
+        if j == 0 or not ratio:
+            return _two_sided_set(reached, root, shape)
+        return monotone_set(reached, root, lo, hi, shape)
+
+    exact = {"estimate": exact_of(est)}
+    if ci is not None:
+        exact["ci"] = exact_of(ci[0] if est >= tgt else ci[1])
+    return replace(result, exact=exact)
+
+
+def _two_sided_set(
+    reached: Callable[[np.ndarray], np.ndarray], root: np.ndarray, shape: tuple[int, ...]
+) -> dict[str, np.ndarray]:
+    """`monotone_set` over the whole real line (evaluated at +/- 1e150, inside the range
+    where the products stay finite)."""
+    return monotone_set(reached, np.clip(root, -1e150, 1e150), -np.inf, np.inf, shape,
+                        probe_hi=1e150, probe_lo=-1e150)  # fmt: skip
+
+
 # --------------------------------------------------------------------------- bounding factor
 def bounding_grid(
     scale: str,
@@ -789,6 +910,13 @@ def default_ranges(
             effect = value_range(0, top, top / 20)
         prev = value_range(0, 1, 0.05)
         return {"prevalence_treated": prev, "prevalence_control": prev, "outcome_effect": effect}
+    if kind == "continuous":
+        if scale in RATIO_SCALES or estimate is None or target is None:
+            effect = value_range(1, 4, 0.1)
+        else:
+            top = _nice(2 * abs(estimate - target)) if estimate != target else 1.0
+            effect = value_range(0, top, top / 20)
+        return {"difference": value_range(0, 2, 0.1), "outcome_effect": effect}
     if kind == "bounding":
         top = max(3.0, float(np.ceil(1.5 * (evalue or 1.0))))
         step = _nice((top - 1) / 40)

@@ -17,6 +17,7 @@ NAMES = {
     "rr_outcome": "Risk ratio of U with the outcome",
     "r2_treatment": "Partial R² of U with the treatment",
     "r2_outcome": "Partial R² of U with the outcome",
+    "difference": "Difference in the mean of U (treated minus controls, in SDs)",
 }
 
 
@@ -143,6 +144,7 @@ def sentence(g: TippingGrid) -> str:
         "binary": "a hidden binary confounder",
         "bounding": "a hidden confounder (at its worst-case bias)",
         "partial-r2": "a hidden confounder",
+        "continuous": "a hidden normal confounder",
     }[g.kind]
     goal = _goal(g)
     level = f"{g.ci_level:.0%} CI"
