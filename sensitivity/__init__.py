@@ -36,6 +36,7 @@ _EXPORTS = {
     "partial_r2_grid": "tipping",
     "TippingGrid": "tipping",
     "impact_threshold": "impact",
+    "simulate": "simulate",
     "rosenbaum_bounds": "matched",
     "coefficient_stability": "stability",
     "from_model": "adapters",

@@ -13,7 +13,16 @@ from cli import cli
 def _examples():
     runner = CliRunner()
     found = []
-    commands = ("evalue", "partial-r2", "tipping", "screen", "impact", "report", "stability")
+    commands = (
+        "evalue",
+        "partial-r2",
+        "tipping",
+        "screen",
+        "impact",
+        "report",
+        "stability",
+        "simulate",
+    )
     for command in (*commands, "matched"):
         text = runner.invoke(cli, [command, "--help"], terminal_width=200).stdout
         lines, current = [], ""
@@ -44,6 +53,7 @@ def test_every_command_has_examples():
         "report",
         "stability",
         "matched",
+        "simulate",
     }
 
 

@@ -6,6 +6,7 @@ COMMANDS = {
     "partial-r2": ("partial_r2", "Partial-R² bounds for an OLS coefficient, with benchmarks."),
     "tipping": ("tipping", "Tipping-point grids for a hidden confounder of chosen strength."),
     "screen": ("screen", "Screen a table of published results: E-values for every row."),
+    "simulate": ("simulate", "Probabilistic bias analysis for a hidden binary confounder."),
     "matched": ("matched", "Rosenbaum bounds for matched pairs (sign and signed-rank tests)."),
     "stability": ("stability", "Coefficient stability under proportional selection (Oster)."),
     "impact": ("impact", "Impact threshold of a confounding variable (Frank)."),

@@ -1,0 +1,50 @@
+"""Probabilistic bias analysis in words and a table."""
+
+from __future__ import annotations
+
+from ..common.scales import SCALES
+from ..output.document import Block, Document, prose, standard_tail
+from ..output.tables import Table, number
+from .result import SimulationResult
+
+
+def table(r: SimulationResult) -> Table:
+    def span(pair: tuple[float, float]) -> str:
+        return f"{number(pair[0])} to {number(pair[1])}"
+
+    rows = (
+        ("Observed", f"{number(r.estimate)} ({r.ci_level:.0%} CI {span(r.ci)})"),
+        ("Bias-adjusted median, systematic error only", number(r.median)),
+        ("95% interval, systematic error only", span(r.interval)),
+        ("Bias-adjusted median, systematic and random error", number(r.median_total)),
+        ("95% simulation interval, systematic and random error", span(r.interval_total)),
+        (f"Share of draws at or beyond {r.target:g}", f"{r.share_beyond_target:.1%}"),
+    )
+    return Table(
+        ("Probabilistic bias analysis", "Value"),
+        rows,
+        title=f"A hidden binary confounder: {r.draws - r.discarded:,} draws",
+        footnotes=tuple(f"Prior on {k.replace('_', ' ')}: {v}." for k, v in r.priors.items()),
+    )
+
+
+def sentence(r: SimulationResult) -> str:
+    name = SCALES[r.scale].name
+    return (
+        f"Under the stated priors for a hidden binary confounder, the bias-adjusted {name} had "
+        f"a median of {number(r.median)} (95% interval {number(r.interval[0])} to "
+        f"{number(r.interval[1])} for systematic error, and {number(r.interval_total[0])} to "
+        f"{number(r.interval_total[1])} with random error added); {r.share_beyond_target:.1%} "
+        f"of draws reached {r.target:g} or beyond."
+    )
+
+
+def document(r: SimulationResult) -> Document:
+    lead = sentence(r)
+    blocks: tuple[Block, ...] = (table(r), prose(lead, role="sentence"))
+    blocks += standard_tail(r.notes, r.cautions, (
+        "A binary confounder that does not modify the treatment effect; prevalences "
+        "conditional on the measured covariates; priors independent unless a correlation of "
+        "the prevalences is given.",
+    ))  # fmt: skip
+    return Document("Probabilistic bias analysis", blocks, sentence=lead)
