@@ -66,3 +66,28 @@ def test_the_risk_difference_evalue_with_all_treated_is_the_rr_evalue():
     # METHODS-MORE 4.1 special case: with f -> 1 (almost everyone treated) B* -> p1/p0.
     out = evalue_of_risk_difference(600, 1_000_000, 4, 10_000)
     assert float(out["bounding_factor"]) == pytest.approx(1.5, rel=1e-3)
+
+
+def test_evalue_rd_from_counts(run):
+    res = run("evalue", "rd", "--counts", 60, 1000, 40, 1000, "--format", "json")
+    assert res.exit_code == 0, res.stderr
+    data = json.loads(res.stdout)
+    ref = evalue_of_risk_difference(60, 1000, 40, 1000)
+    assert data["scale"] == "rd" and data["estimate"] == pytest.approx(0.02)
+    assert data["evalue"] == pytest.approx(float(ref["evalue"]))
+    assert data["evalue_ci"] == pytest.approx(float(ref["evalue_ci"]))
+    text = " ".join(run("evalue", "rd", "--counts", 60, 1000, 40, 1000).stdout.split())
+    assert "(95% CI 0.0009 to 0.0391)" in text and "at least 2.37 each" in text
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (("rd", "--counts", 60, 1000, 70, 50), "Error: `counts`: cases must not exceed totals"),
+        (("rd", 0.02), "Error: the risk difference takes: evalue rd --counts"),
+        (("rr", 2, "--counts", 1, 2, 3, 4), "Error: the risk difference takes"),
+    ],
+)
+def test_evalue_rd_errors(run, args, message):
+    res = run("evalue", *args)
+    assert res.exit_code == 2 and res.stderr.startswith(message), res.stderr

@@ -25,9 +25,20 @@ SHORT_HELP = COMMANDS["evalue"][1]
 
 @click.command("evalue", cls=Command, short_help=SHORT_HELP)
 @click.argument(
-    "scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), metavar="SCALE", required=False
+    "scale",
+    type=click.Choice(["rr", "or", "hr", "smd", "md", "rd"]),
+    metavar="SCALE",
+    required=False,
 )
 @click.argument("estimate", type=Number(), required=False)
+@click.option(
+    "--counts",
+    nargs=4,
+    type=int,
+    default=None,
+    metavar="CASES_T TOTAL_T CASES_C TOTAL_C",
+    help="rd: the 2 x 2 counts (cases and totals among the treated, then the controls).",
+)
 @click.option(
     "--data", type=click.Path(dir_okay=False), help="Data input: CSV, TSV, Excel or Parquet."
 )
@@ -106,6 +117,7 @@ SHORT_HELP = COMMANDS["evalue"][1]
 def evalue_cmd(
     scale: Any,
     estimate: Any,
+    counts: Any,
     data: Any,
     formula: Any,
     treatment: Any,
@@ -176,6 +188,13 @@ def evalue_cmd(
         return
     if event is not None:
         raise click.UsageError("--event applies to data input with --model cox")
+    if scale == "rd" or counts:
+        if scale != "rd" or estimate is not None or not counts:
+            raise click.UsageError("the risk difference takes: evalue rd --counts A N1 C N0")
+        from sensitivity.evalues.core import evalue_rd
+
+        emit(evalue_rd(tuple(counts), ci_level=ci_level), fmt, outputs)
+        return
     if scale is None or estimate is None:
         raise click.UsageError(
             "give SCALE and ESTIMATE (e.g. evalue rr 1.6 --ci 1.2 2.1), or --data, --formula, "

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import replace
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -828,3 +829,40 @@ def with_biases(
         "assumptions": [BIASES[b] for b in included],
     }
     return replace(result, multi_bias=info)
+
+
+def evalue_rd(counts: tuple[int, int, int, int], *, ci_level: float = 0.95) -> Any:
+    """The E-value of a risk difference from (cases treated, total treated, cases control,
+    total control), with its Wald interval, as one result."""
+    from scipy.special import ndtri
+
+    from .result import RiskDifferenceResult
+
+    if len(counts) != 4:
+        raise InputError(f"`counts` must be four numbers; got {len(counts)}")
+    a, n1, c, n0 = (float(require(v, "counts")) for v in counts)
+    for value in (a, n1, c, n0):
+        if value < 0 or value != round(value):
+            raise InputError(f"`counts` must be whole numbers, 0 or more; got {value:g}")
+    if n1 <= 0 or n0 <= 0 or a > n1 or c > n0:
+        raise InputError(
+            "`counts`: cases must not exceed totals, and totals must be positive; got "
+            f"{a:g} of {n1:g} and {c:g} of {n0:g}"
+        )
+    level = float(require(ci_level, "ci_level", OPEN_UNIT))
+    out = evalue_of_risk_difference(a, n1, c, n0, alpha=1 - level)
+    p1, p0 = a / n1, c / n0
+    half = float(ndtri(1 - (1 - level) / 2)) * np.sqrt(p1 * (1 - p1) / n1 + p0 * (1 - p0) / n0)
+    notes = (
+        "E-value of the risk difference in the whole population from the 2 x 2 counts: B* "
+        "brings the bound (p1 - p0 B) f + (p1/B - p0)(1 - f) to 0, E = B* + sqrt(B* (B* - 1)) "
+        "(Ding & VanderWeele 2016); the interval's from the bound's lower confidence limit "
+        "(delta method, the share treated fixed).",
+    )
+    return RiskDifferenceResult(
+        counts=(int(a), int(n1), int(c), int(n0)), estimate=p1 - p0,
+        ci=(p1 - p0 - half, p1 - p0 + half), ci_level=level,
+        bounding_factor=float(out["bounding_factor"]),
+        bounding_factor_ci=float(out["bounding_factor_ci"]), evalue=float(out["evalue"]),
+        evalue_ci=float(out["evalue_ci"]), notes=notes,
+    )  # fmt: skip

@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from ..common.results import plain
 from ..common.scales import SCALES
-from ..output.document import Document, prose, standard_tail
+from ..output.document import Block, Document, prose, standard_tail
 from ..output.tables import Table, number
 from .result import ConfounderBound, EValueResult
 
@@ -232,7 +234,42 @@ def confounder_sentences(bound: ConfounderBound) -> list[str]:
     return out
 
 
-def document(result: EValueResult | ConfounderBound) -> Document:
+def rd_document(r: Any) -> Document:
+    """A risk difference's E-values."""
+    level = f"{r.ci_level:.0%} CI"
+    rows = (
+        ("Estimate", f"{r.estimate:.4f} ({level} {r.ci[0]:.4f} to {r.ci[1]:.4f})",
+         number(r.bounding_factor, 3), number(r.evalue)),
+        (f"  Lower {level} limit of the bound", "", number(r.bounding_factor_ci, 3),
+         number(r.evalue_ci)),
+    )  # fmt: skip
+    a, n1, c, n0 = r.counts
+    table = Table(
+        ("", "Observed", "Bounding factor", "E-value"),
+        rows,
+        title=f"E-values: Risk difference ({a}/{n1} treated, {c}/{n0} controls)",
+    )
+    lead = (
+        f"For the observed risk difference of {r.estimate:.4f} ({level} {r.ci[0]:.4f} to "
+        f"{r.ci[1]:.4f}), explaining it away in the whole population would take an unmeasured "
+        f"confounder associated with both the treatment and the outcome by a risk ratio of at "
+        f"least {number(r.evalue)} each (the E-value); a weaker one could not. "
+        + (f"One of {number(r.evalue_ci)} each could bring the lower confidence limit of the "
+           "bound to 0." if r.evalue_ci > 1 else "The bound's interval already includes 0.")
+    )  # fmt: skip
+    blocks: tuple[Block, ...] = (
+        table,
+        prose(lead, role="sentence"),
+        *standard_tail(r.notes, r.cautions),
+    )
+    return Document("E-values", blocks, sentence=lead)
+
+
+def document(result: Any) -> Document:
+    from .result import RiskDifferenceResult
+
+    if isinstance(result, RiskDifferenceResult):
+        return rd_document(result)
     if isinstance(result, ConfounderBound):
         return Document(
             "Hypothetical confounders",

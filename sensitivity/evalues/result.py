@@ -240,3 +240,45 @@ class EValueResult(Result):
         out = {name: np.repeat(v, k) for name, v in own.items()}
         out |= {f"confounder_{name}": v for name, v in conf.items()}
         return out
+
+
+@dataclass(frozen=True, eq=False, repr=False)
+class RiskDifferenceResult(Result):
+    """The E-value of a risk difference from the 2 x 2 counts (the whole population)."""
+
+    counts: tuple[int, int, int, int]  # cases and totals: treated, then controls
+    estimate: float  # the risk difference
+    ci: tuple[float, float]  # its Wald interval
+    ci_level: float
+    bounding_factor: float  # B*: brings the bound on the causal RD to 0
+    bounding_factor_ci: float
+    evalue: float
+    evalue_ci: float
+    notes: tuple[str, ...] = ()
+    cautions: tuple[str, ...] = standing.EVALUE
+    _repr_fields = ("estimate", "evalue", "evalue_ci")
+
+    def to_dict(self) -> dict:
+        a, n1, c, n0 = self.counts
+        return plain(
+            {
+                "scale": "rd",
+                "counts": {"cases_treated": a, "total_treated": n1, "cases_control": c,
+                           "total_control": n0},
+                "estimate": self.estimate,
+                "ci": list(self.ci),
+                "ci_level": self.ci_level,
+                "target": 0.0,
+                "rr": self.bounding_factor,
+                "rr_ci": None,
+                "bounding_factor_ci": self.bounding_factor_ci,
+                "evalue": self.evalue,
+                "evalue_ci": self.evalue_ci,
+                "notes": list(self.all_notes()),
+            }
+        )  # fmt: skip
+
+    def columns(self) -> dict[str, np.ndarray]:
+        d = self.to_dict()
+        flat = {k: v for k, v in d.items() if not isinstance(v, (dict, list))}
+        return {k: np.asarray([v], dtype=object) for k, v in flat.items()}
