@@ -208,3 +208,13 @@ def test_the_command_in_every_format(run, fmt, tmp_path):
     )
     assert res.exit_code == 0, res.stderr
     assert (tmp_path / "s.png").read_bytes().startswith(b"\x89PNG")
+
+
+@pytest.mark.parametrize("scale", ["md", "smd", "rd", "rr", "or", "hr"])
+def test_every_scale(scale):
+    ratio = scale in ("rr", "or", "hr")
+    est, ci = (1.6, (1.2, 2.1)) if ratio else (0.3, (0.1, 0.5))
+    res = simulate(scale, est, ci, prevalence_treated="fixed:0.5", prevalence_control="fixed:0.2",
+                   outcome_effect="fixed:2" if ratio else "fixed:0.2", draws=100, seed=1,
+                   outcome="common" if scale in ("or", "hr") else None)  # fmt: skip
+    assert np.isfinite(res.median)

@@ -18,7 +18,7 @@ PRIOR_HELP = (
 
 
 @click.command("simulate", cls=Command, short_help=SHORT_HELP)
-@click.option("--scale", type=click.Choice(["md", "rd", "rr", "or", "hr"]), required=True,
+@click.option("--scale", type=click.Choice(["md", "smd", "rd", "rr", "or", "hr"]), required=True,
               help="Effect scale.")  # fmt: skip
 @click.option("--estimate", type=float, required=True, help="The observed adjusted estimate.")
 @click.option("--ci", nargs=2, type=float, required=True, metavar="LOWER UPPER",

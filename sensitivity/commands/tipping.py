@@ -32,7 +32,7 @@ SHORT_HELP = COMMANDS["tipping"][1]
 )
 @click.option(
     "--scale",
-    type=click.Choice(["md", "rd", "rr", "or", "hr"]),
+    type=click.Choice(["md", "smd", "rd", "rr", "or", "hr"]),
     help="Effect scale (binary and bounding views).",
 )
 @click.option("--estimate", type=float, help="The observed adjusted estimate.")
@@ -143,7 +143,7 @@ def tipping_cmd(
         return None if given[name] is None else tp.parse_range(given[name], name)
 
     if kind in ("binary", "bounding", "continuous") and scale is None:
-        scales = "rr, or, hr" if kind == "bounding" else "md, rd, rr, or, hr"
+        scales = "rr, or, hr" if kind == "bounding" else "md, smd, rd, rr, or, hr"
         raise click.UsageError(f"--scale is required for the {kind} view ({scales})")
     if kind == "binary":
         result = tp.binary_confounder_grid(

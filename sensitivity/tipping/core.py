@@ -52,7 +52,7 @@ from .result import TippingGrid
 
 #: The largest grid computed (cells = product of the axis lengths): about 40 MB per column.
 MAX_CELLS = 5_000_000
-SCALES = ("md", "rd", "rr", "or", "hr")
+SCALES = ("md", "smd", "rd", "rr", "or", "hr")
 
 
 # --------------------------------------------------------------------------- ranges
