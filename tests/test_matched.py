@@ -148,3 +148,41 @@ def test_the_command_reads_pairs_and_reports_missing_ones(run, tmp_path):
     assert "2 pairs with a missing or non-numeric value left out (file lines 35, 36)" in res.stderr
     data = json.loads(res.stdout)
     assert data["statistic"] == 527 and data["missing_pairs"] == 2
+
+
+def _walsh_count_above(d, tau):
+    """T(tau) by brute force: pairs i <= j whose Walsh average (d_i + d_j)/2 exceeds tau."""
+    n = len(d)
+    return sum((d[i] + d[j]) / 2 > tau for i in range(n) for j in range(i, n))
+
+
+def test_the_hodges_lehmann_estimate_at_gamma_one_is_the_walsh_median():
+    # Hodges and Lehmann (1963): the median of all Walsh averages, by explicit loops.
+    from sensitivity.matched.core import hodges_lehmann_range
+
+    walsh = [(D[i] + D[j]) / 2 for i in range(len(D)) for j in range(i, len(D))]
+    low, high = hodges_lehmann_range(D, [1.0])
+    assert low[0] == high[0] == pytest.approx(float(np.median(walsh)))
+
+
+@pytest.mark.parametrize("gamma", [1.5, 2.0, 3.0])
+def test_the_hodges_lehmann_range_solves_the_bounding_equation_on_a_fine_grid(gamma):
+    # Rosenbaum (1993): the ends solve T(tau) = p n(n+1)/2, p = Gamma/(1+Gamma) or 1/(1+Gamma);
+    # each end lies between the last grid tau with T > c and the first with T < c.
+    from sensitivity.matched.core import hodges_lehmann_range
+
+    d = D[:12]
+    total = len(d) * (len(d) + 1) / 2
+    grid = np.arange(-10, 60, 0.25)
+    counts = np.array([_walsh_count_above(d, t) for t in grid])
+    low, high = hodges_lehmann_range(d, [gamma])
+    for end, p in ((low[0], gamma / (1 + gamma)), (high[0], 1 / (1 + gamma))):
+        c = p * total
+        assert grid[counts > c].max() - 0.25 <= end <= grid[counts < c].min() + 0.25
+    assert low[0] <= high[0]
+
+
+def test_the_hodges_lehmann_range_is_in_the_output():
+    res = rosenbaum_bounds(differences=D, gamma=[1, 2])
+    assert res.estimate_low[1] < res.estimate_low[0] == res.estimate_high[0] < res.estimate_high[1]
+    assert "estimate_low" in res.to_dict()["rows"][0]

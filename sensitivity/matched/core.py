@@ -126,6 +126,41 @@ def signed_rank_bounds(differences: ArrayLike, gamma: ArrayLike, *, method: str 
     return t, np.asarray(upper), np.asarray(lower)
 
 
+#: The most pairs whose Walsh averages the Hodges-Lehmann range uses (n (n + 1) / 2 values).
+MAX_HL_PAIRS = 4000
+
+
+def hodges_lehmann_range(differences: ArrayLike, gamma: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
+    """The range of Hodges-Lehmann point estimates of the effect at each Gamma.
+
+    T(tau), the signed-rank statistic of d - tau, counts the Walsh averages (d_i + d_j)/2,
+    i <= j, above tau. The estimates solve T(tau) = c with c = p N for p = Gamma/(1 + Gamma)
+    (the low end) and 1/(1 + Gamma) (the high end), N = n (n + 1)/2, by Rosenbaum's (1993)
+    midpoint convention: (sup{tau: T > c} + inf{tau: T < c}) / 2, which are the Walsh order
+    statistics w_(N - floor c) and w_(N - ceil c + 1). At Gamma = 1 both are the usual
+    Hodges-Lehmann estimate, the median of the Walsh averages.
+    """
+    d = np.asarray(differences, float)
+    n = d.size
+    if n > MAX_HL_PAIRS:
+        raise InputError(
+            f"the Hodges-Lehmann range takes at most {MAX_HL_PAIRS:,} pairs; got {n:,}"
+        )
+    i, j = np.triu_indices(n)
+    walsh = (d[i] + d[j]) / 2
+    total = walsh.size
+    g = _gammas(gamma)
+    out = []
+    for p in (g / (1 + g), 1 / (1 + g)):
+        c = p * total
+        hi_idx = (total - np.floor(c)).astype(int) - 1  # 0-based w_(N - floor c)
+        lo_idx = (total - np.ceil(c)).astype(int)  # 0-based w_(N - ceil c + 1)
+        idx = np.unique(np.clip(np.concatenate([hi_idx, lo_idx]), 0, total - 1))
+        part = np.partition(walsh, idx)
+        out.append((part[np.clip(hi_idx, 0, total - 1)] + part[np.clip(lo_idx, 0, total - 1)]) / 2)
+    return out[0], out[1]
+
+
 def _gamma_at(alpha: float, upper_at: object) -> float | None:
     """The Gamma at which an increasing upper bound reaches alpha (bisection in log Gamma)."""
     f = upper_at  # type: ignore[assignment]
@@ -190,11 +225,12 @@ def rosenbaum_bounds(
         def at(x: float) -> float:
             return float(signed_rank_bounds(d, x, method=method, zeros=zeros)[1][0])
 
+        hl = hodges_lehmann_range(d, g) if d.size <= MAX_HL_PAIRS else (None, None)
         return MatchedResult(
             test="signed-rank", pairs=int(d.size), statistic=t, alpha=alpha, method=method,
             zeros=zeros, gamma=g, p_upper=upper, p_lower=lower,
             gamma_at_alpha=_gamma_at(alpha, at), zero_pairs=int(np.sum(d == 0)),
-            missing=missing,
+            missing=missing, estimate_low=hl[0], estimate_high=hl[1],
         )  # fmt: skip
     if discordant is None or treated_events is None:
         raise InputError("give `differences`, or `discordant` and `treated_events`")

@@ -12,19 +12,33 @@ def _p(x: float) -> str:
 
 
 def table(r: MatchedResult) -> Table:
-    rows = tuple(
-        (f"{g:g}", _p(u), _p(lo))
-        for g, u, lo in zip(r.gamma.tolist(), r.p_upper.tolist(), r.p_lower.tolist(),
-                            strict=True)
-    )  # fmt: skip
+    low, high = r.estimate_low, r.estimate_high
+    rows: list[tuple[str, ...]] = []
+    for k, (g, u, lo) in enumerate(zip(r.gamma.tolist(), r.p_upper.tolist(),
+                                       r.p_lower.tolist(), strict=True)):  # fmt: skip
+        row: tuple[str, ...] = (f"{g:g}", _p(u), _p(lo))
+        if low is not None and high is not None:
+            row += (f"{low[k]:.4g} to {high[k]:.4g}",)
+        rows.append(row)
     name = "sign test" if r.test == "sign" else "Wilcoxon signed-rank test"
+    columns: tuple[str, ...] = ("Gamma", "Upper bound on p", "Lower bound on p")
+    columns += ("Hodges-Lehmann estimates",) if low is not None else ()
     return Table(
-        ("Gamma", "Upper bound on p", "Lower bound on p"),
-        rows,
+        columns,
+        tuple(rows),
         title=f"Rosenbaum bounds: {name} ({r.method}), {r.pairs:,} pairs",
         footnotes=(
             "Gamma: how many times more likely a hidden confounder could make one unit of a pair "
             "the treated one; one-sided p-values.",
+        )
+        + (
+            (
+                "Hodges-Lehmann estimates: the range of point estimates of the treated-minus-"
+                "control effect that hidden bias up to Gamma allows (from the Walsh averages of "
+                "all differences, zeros included).",
+            )
+            if low is not None
+            else ()
         ),
     )
 

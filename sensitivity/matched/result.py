@@ -26,20 +26,22 @@ class MatchedResult(Result):
     gamma_at_alpha: float | None
     zero_pairs: int = 0
     missing: int = 0
+    estimate_low: np.ndarray | None = None  # Hodges-Lehmann range at each Gamma (signed rank)
+    estimate_high: np.ndarray | None = None
     notes: tuple[str, ...] = ()
     cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
     is_scalar = False
     _repr_fields = ("test", "pairs", "statistic", "gamma_at_alpha")
 
     def columns(self) -> dict[str, np.ndarray]:
-        return {"gamma": self.gamma, "p_upper": self.p_upper, "p_lower": self.p_lower}
+        out = {"gamma": self.gamma, "p_upper": self.p_upper, "p_lower": self.p_lower}
+        if self.estimate_low is not None and self.estimate_high is not None:
+            out |= {"estimate_low": self.estimate_low, "estimate_high": self.estimate_high}
+        return out
 
     def to_dict(self) -> dict:
-        rows = [
-            {"gamma": g, "p_upper": u, "p_lower": lo}
-            for g, u, lo in zip(self.gamma.tolist(), self.p_upper.tolist(),
-                                self.p_lower.tolist(), strict=True)
-        ]  # fmt: skip
+        cols = {k: np.asarray(v).tolist() for k, v in self.columns().items()}
+        rows = [dict(zip(cols, values, strict=True)) for values in zip(*cols.values(), strict=True)]
         return plain(
             {
                 "test": self.test,

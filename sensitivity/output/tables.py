@@ -107,7 +107,8 @@ def _markdown(table: Table) -> str:
     align = "|" + "|".join(":---" if a == "l" else "---:" for a in table.alignment()) + "|"
     out = [f"**{table.title}**", ""] if table.title else []
     out += [line(table.columns), align, *map(line, table.rows)]
-    out += [""] + [f"*{n}*" for n in table.footnotes] if table.footnotes else []
+    if table.footnotes:  # a blank line between footnotes keeps each its own paragraph
+        out += [line for n in table.footnotes for line in ("", f"*{n}*")]
     return "\n".join(out)
 
 
