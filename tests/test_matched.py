@@ -186,3 +186,13 @@ def test_the_hodges_lehmann_range_is_in_the_output():
     res = rosenbaum_bounds(differences=D, gamma=[1, 2])
     assert res.estimate_low[1] < res.estimate_low[0] == res.estimate_high[0] < res.estimate_high[1]
     assert "estimate_low" in res.to_dict()["rows"][0]
+
+
+def test_the_signed_rank_gamma_solves_the_exact_bound():
+    # The reported crossing must satisfy upper(Gamma*) = alpha, and a fine grid must agree.
+    res = rosenbaum_bounds(differences=D, gamma=[1], alpha=0.05)
+    _, upper, _ = signed_rank_bounds(D, res.gamma_at_alpha)
+    assert float(upper[0]) == pytest.approx(0.05, rel=1e-9)
+    grid = np.arange(4.0, 5.5, 0.01)
+    _, bounds, _ = signed_rank_bounds(D, grid)
+    assert grid[bounds < 0.05].max() < res.gamma_at_alpha <= grid[bounds >= 0.05].min()
