@@ -31,6 +31,8 @@ def cohort():
             "time": rng.exponential(1 / np.exp(0.3 * t + 0.2 * x)),
             "event": rng.binomial(1, 0.7, n),
             "dose": rng.uniform(0, 10, n),
+            # over-dispersed counts (negative binomial, size 2) for the negbin fit
+            "visits": rng.negative_binomial(2, 2 / (2 + np.exp(0.5 + 0.3 * t + 0.2 * x))),
         }
     )
 
@@ -154,7 +156,7 @@ def cohort_csv(cohort, tmp_path_factory):
     [
         ("logit", "y ~ t + x", [], "or"),
         ("poisson", "count ~ t + x", [], "rr"),
-        ("negbin", "count ~ t + x", [], "rr"),
+        ("negbin", "visits ~ t + x", [], "rr"),
         ("cox", "time ~ t + x", ["--event", "event"], "hr"),
         ("ols", "count ~ t + x", [], "md"),
     ],
@@ -204,3 +206,34 @@ def test_perfect_separation_is_an_input_error(run, tmp_path):
               "--model", "logit")  # fmt: skip
     assert res.exit_code == 2
     assert "perfect separation" in res.stderr or "did not converge" in res.stderr
+
+
+def test_a_lifelines_cox_fit_on_its_shipped_rossi_data_matches_statsmodels():
+    # Rossi et al. (1980) recidivism data, shipped with lifelines; the reference is a
+    # statsmodels PHReg refit with Efron's ties (lifelines' own convention).
+    lifelines = pytest.importorskip("lifelines")
+    from lifelines.datasets import load_rossi
+
+    d = load_rossi()
+    res = from_model(lifelines.CoxPHFitter().fit(d, "week", "arrest"), "fin")
+    ref = smf.phreg(
+        "week ~ fin + age + race + wexp + mar + paro + prio", d,
+        status=d["arrest"].to_numpy(), ties="efron",
+    ).fit()  # fmt: skip
+    assert float(res.estimate) == pytest.approx(float(np.exp(ref.params[0])), rel=1e-6)
+    lo, up = np.exp(np.asarray(ref.conf_int())[0])
+    assert (float(res.ci[0]), float(res.ci[1])) == pytest.approx((lo, up), rel=1e-6)
+    same = from_model(ref, "fin")
+    assert float(res.evalue) == pytest.approx(float(same.evalue), rel=1e-6)
+    assert float(res.evalue_ci) == pytest.approx(float(same.evalue_ci), rel=1e-6)
+    assert res.model["kind"] == "cox" and res.outcome == "common"  # 26% arrested
+    assert "lifelines, n = 432" in res.notes[0]
+
+
+def test_a_lifelines_fit_names_a_missing_coefficient():
+    lifelines = pytest.importorskip("lifelines")
+    from lifelines.datasets import load_rossi
+
+    fit = lifelines.CoxPHFitter().fit(load_rossi(), "week", "arrest")
+    with pytest.raises(InputError, match="`treatment` 'smoking' is not a coefficient"):
+        from_model(fit, "smoking")

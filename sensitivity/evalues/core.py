@@ -497,7 +497,7 @@ def _notes(
         if f:
             side = "below" if f == "rare" else "at or above"
             notes.append(
-                f"Outcome prevalence {float(p):g} is {side} {RARE_OUTCOME_CUTOFF:.0%}: "
+                f"Outcome prevalence {float(p):.3g} is {side} {RARE_OUTCOME_CUTOFF:.0%}: "
                 f"treated as {f} (common practice)."
             )
     elif np.any(given(p)):
