@@ -93,6 +93,18 @@ def _find_treatment(treatment, names, groups):
     )
 
 
+def no_interaction(treatment: str, names: Sequence[str]) -> None:
+    """Refuse a treatment that also enters an interaction term (no single coefficient)."""
+    for name in names:
+        parts = name.split(":")
+        if len(parts) > 1 and treatment in parts:
+            raise InputError(
+                f"`treatment` {treatment!r} also enters the interaction {name!r}; partial-R² "
+                "bounds need a single treatment coefficient (fit the model without the "
+                "interaction, or analyse an effect at a fixed covariate value)"
+            )
+
+
 def _group_r2(params, cov, dof, cols):
     """Partial R² of a group of columns from their joint Wald F (t² for one column)."""
     b = params[cols]
@@ -210,48 +222,53 @@ def partial_r2_from_model(
     groups = _term_groups(model, names)
     j = _find_treatment(treatment, names, groups)
     treat_name = names[j]
-    for name in names:
-        parts = name.split(":")
-        if len(parts) > 1 and treat_name in parts:
-            raise InputError(
-                f"`treatment` {treat_name!r} also enters the interaction {name!r}; partial-R² "
-                "bounds need a single treatment coefficient (fit the model without the "
-                "interaction, or analyse an effect at a fixed covariate value)"
-            )
-    dof = float(results.df_resid)
+    no_interaction(treat_name, names)
     cov = np.asarray(results.normalized_cov_params, float) * float(results.scale)
-    est, se, dof, fraction, alpha = _check_summary(
-        float(np.asarray(results.params)[j]),
-        float(np.sqrt(cov[j, j])),
-        dof,
-        None,
-        fraction,
-        alpha,
-    )
     covariates = covariate_strengths(results, j, groups, _intercepts(model, names))
+    return partial_r2_from_parts(
+        float(np.asarray(results.params)[j]), float(np.sqrt(cov[j, j])),
+        float(results.df_resid), covariates, treatment=treat_name,
+        outcome=str(model.endog_names), n=int(results.nobs),
+        sd_outcome=float(np.std(np.asarray(model.endog, float), ddof=1)),
+        notes=tuple(notes) + tuple(fit_notes), fraction=fraction, alpha=alpha,
+        benchmarks=benchmarks, times=times, times_pairs=times_pairs,
+        r2_treatment=r2_treatment, r2_outcome=r2_outcome, contrast=contrast,
+    )  # fmt: skip
+
+
+def partial_r2_from_parts(
+    estimate: float,
+    se: float,
+    dof: float,
+    covariates: tuple[CovariateStrength, ...],
+    *,
+    treatment: str,
+    outcome: str,
+    n: int,
+    sd_outcome: float,
+    fraction: float = 1.0,
+    alpha: float = 0.05,
+    benchmarks: Sequence[str] = (),
+    times: Sequence[float] | None = None,
+    times_pairs: Sequence[tuple[float, float]] = (),
+    r2_treatment: ArrayLike | None = None,
+    r2_outcome: ArrayLike | None = None,
+    contrast: float = 1.0,
+    notes: Sequence[str] = (),
+) -> PartialR2Result:
+    """The result from a fit's treatment coefficient and covariate strengths (any library)."""
+    est, se, dof, fraction, alpha = _check_summary(estimate, se, dof, None, fraction, alpha)
     scenarios = []
     k_pairs = _k_pairs(times, times_pairs)
     for name in benchmarks:
         cov_strength = _resolve_benchmark(name, covariates)
         scenarios += benchmark_scenarios(est, se, dof, cov_strength, k_pairs, alpha)
-    y = np.asarray(model.endog, float)
     return assemble(
-        est,
-        se,
-        dof,
-        fraction=fraction,
-        alpha=alpha,
-        r2_treatment=r2_treatment,
-        r2_outcome=r2_outcome,
-        sd_outcome=float(np.std(y, ddof=1)),
-        contrast=contrast,
-        scenarios=scenarios,
-        treatment=treat_name,
-        outcome=str(model.endog_names),
-        n=int(results.nobs),
-        covariates=covariates,
-        notes=tuple(notes) + tuple(fit_notes),
-    )
+        est, se, dof, fraction=fraction, alpha=alpha, r2_treatment=r2_treatment,
+        r2_outcome=r2_outcome, sd_outcome=sd_outcome, contrast=contrast,
+        scenarios=scenarios, treatment=treatment, outcome=outcome, n=n,
+        covariates=covariates, notes=tuple(notes),
+    )  # fmt: skip
 
 
 def formula_columns(formula: str) -> tuple[list[str], list[str]]:

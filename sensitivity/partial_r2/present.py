@@ -149,13 +149,21 @@ def scenario_table(r: PartialR2Result) -> Table | None:
         tuple(rows),
         title="Named confounders: where each would move the estimate",
         align="rllrrrrrrr",
-        footnotes=(
-            "'smoker ×2': a confounder twice as strong as the measured covariate smoker, with "
-            "the treatment and with the outcome (×a/×b when the two sides differ); 'chosen': "
-            "strengths given directly. The bias is taken toward zero.",
-        )
-        if any(s.kind == "benchmark" for s in r.scenarios)
-        else ("'chosen': strengths given directly. The bias is taken toward zero.",),
+        footnotes=(_scenario_footnote(r),),
+    )
+
+
+def _scenario_footnote(r: PartialR2Result) -> str:
+    """How to read the scenario names, shown on this result's own first benchmark."""
+    tail = "'chosen': strengths given directly. The bias is taken toward zero."
+    first = next((s for s in r.scenarios if s.kind == "benchmark"), None)
+    if first is None:
+        return tail
+    name, k = covariate_name(first.benchmark or ""), first.k_treatment
+    return (
+        f"'{name} ×{k:g}': a confounder {'' if k == 1 else f'{k:g} times '}as strong as the "
+        f"measured covariate {name}, "
+        f"with the treatment and with the outcome (×a/×b when the two sides differ); {tail}"
     )
 
 
