@@ -9,15 +9,20 @@ on the other covariates with the same absorbed effects.
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
 
-from ..common.errors import InputError, SensitivityWarning
+from ..common.errors import InputError
 from ..partial_r2.result import CovariateStrength, PartialR2Result
-from .statsmodels import _group_r2, _term_groups, no_interaction, partial_r2_from_parts
+from .statsmodels import (
+    _group_r2,
+    _term_groups,
+    classical_errors_used,
+    no_interaction,
+    partial_r2_from_parts,
+)
 
 #: The linearmodels estimators whose fits are least squares with absorbed effects.
 SUPPORTED = ("PanelOLS", "PooledOLS")
@@ -43,12 +48,7 @@ def _model(results: Any) -> tuple[Any, list[str]]:
         raise InputError("`results` absorbs other effects; only entity and time effects are read")
     notes = []
     if str(results._cov_type) != "Unadjusted":
-        message = (
-            f"the model's standard errors are {results._cov_type}; the partial-R² identities "
-            "assume classical standard errors, so the classical ones of the same fit are used"
-        )
-        warnings.warn(message, SensitivityWarning, stacklevel=3)
-        notes.append(message[0].upper() + message[1:] + ".")
+        notes += classical_errors_used(str(results._cov_type))
     if kind == "PanelOLS":
         effects = [n for n, on in (("entity", model.entity_effects), ("time", model.time_effects))
                    if on]  # fmt: skip

@@ -9,15 +9,20 @@ regresses the demeaned treatment on the other demeaned covariates.
 
 from __future__ import annotations
 
-import warnings
 from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
 
-from ..common.errors import InputError, SensitivityWarning
+from ..common.errors import InputError
 from ..partial_r2.result import CovariateStrength, PartialR2Result
-from .statsmodels import _group_r2, _term_groups, no_interaction, partial_r2_from_parts
+from .statsmodels import (
+    _group_r2,
+    _term_groups,
+    classical_errors_used,
+    no_interaction,
+    partial_r2_from_parts,
+)
 
 
 def is_pyfixest(results: Any) -> bool:
@@ -80,12 +85,7 @@ def partial_r2_from_pyfixest(
     no_interaction(treatment, names)
     fit_notes = []
     if str(results._vcov_type) != "iid":
-        message = (
-            f"the model's standard errors are {results._vcov_type}; the partial-R² identities "
-            "assume classical standard errors, so the classical ones of the same fit are used"
-        )
-        warnings.warn(message, SensitivityWarning, stacklevel=3)
-        fit_notes.append(message[0].upper() + message[1:] + ".")
+        fit_notes += classical_errors_used(str(results._vcov_type))
     if getattr(results, "_has_fixef", False):
         fit_notes.append(f"Fixed effects absorbed: {results._fixef} (pyfixest).")
     X = np.asarray(results._X, float)

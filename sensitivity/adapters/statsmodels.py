@@ -45,16 +45,18 @@ def _check_ols(results):
         raise InputError(NOT_OLS.format(kind=type(model).__name__))
     if getattr(results, "normalized_cov_params", None) is None:
         raise InputError(NOT_OLS.format(kind="a regularized OLS fit"))
-    notes = []
     cov_type = getattr(results, "cov_type", "nonrobust")
-    if cov_type != "nonrobust":
-        message = (
-            f"the model's standard errors are {cov_type}; the partial-R² identities assume "
-            "classical standard errors, so the classical ones of the same fit are used here"
-        )
-        warnings.warn(message, SensitivityWarning, stacklevel=3)
-        notes.append(message[0].upper() + message[1:] + ".")
-    return model, notes
+    return model, classical_errors_used(cov_type) if cov_type != "nonrobust" else []
+
+
+def classical_errors_used(cov_type: str) -> list[str]:
+    """Warn that a fit's robust or clustered errors give way to its classical ones; the note."""
+    message = (
+        f"the model's standard errors are {cov_type}; the partial-R² identities assume "
+        "classical standard errors, so the classical ones of the same fit are used here"
+    )
+    warnings.warn(message, SensitivityWarning, stacklevel=4)
+    return [message[0].upper() + message[1:] + "."]
 
 
 def _term_groups(model, names):
