@@ -9,6 +9,8 @@ Public API (imported lazily, so `import sensitivity` costs almost nothing):
 - `binary_confounder_grid`, `bounding_grid`, `partial_r2_grid`: tipping-point grids.
 - `screen_table`, `screen_batches`, `screen_summary`: many published results at once (a
   pandas, polars or Arrow table, or a stream of Arrow record batches).
+- `from_model`: a fitted model into the right result; `report`: results or fitted models into
+  the manuscript folder (report.md, report.html, tables.tex, report.json, figures).
 - `InputError` (bad input, a ValueError) and `SensitivityWarning`.
 """
 
@@ -41,6 +43,7 @@ _EXPORTS = {
     "coefficient_stability": "stability",
     "from_model": "adapters",
     "evalue_from_model": "adapters.models",
+    "report": "adapters.reporting",
     "screen_table": "screen.stream",
     "screen_batches": "screen.stream",
     "screen_summary": "screen.stream",

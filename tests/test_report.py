@@ -154,3 +154,37 @@ def test_report_from_summary_and_from_data(run, tmp_path):
     assert "partial_r2" in data["estimates"][0]
     assert data["estimates"][0]["partial_r2"]["robustness_value"] == pytest.approx(0.117, abs=5e-4)
     assert (tmp_path / "b" / "partial_r2_1.png").is_file()
+
+
+def test_report_from_python_takes_fitted_models_and_results(tmp_path):
+    # The report's numbers are from_model's own, which test_models checks against the fits.
+    import numpy as np
+    import pandas as pd
+    import statsmodels.formula.api as smf
+
+    import sensitivity
+    from sensitivity.common.errors import InputError
+
+    rng = np.random.default_rng(3)
+    x = rng.normal(size=3000)
+    t = rng.binomial(1, 1 / (1 + np.exp(-x)))
+    y = rng.binomial(1, 1 / (1 + np.exp(-(-2 + 0.5 * t + 0.3 * x))))
+    d = pd.DataFrame({"x": x, "t": t, "z": 1.0 * t + 0.5 * x + rng.normal(size=3000), "y": y})
+    logit, ols = smf.logit("y ~ t + x", d).fit(disp=0), smf.ols("z ~ t + x", d).fit()
+    summary = sensitivity.evalue("hr", 1.38, (1.12, 1.70), outcome="rare")
+    files = sensitivity.report([logit, ols, summary], tmp_path / "rep", treatment="t",
+                               labels=["Sleep", "Score", "Diabetes"])  # fmt: skip
+    data = json.loads(files["json"].read_text(encoding="utf-8"))
+    assert [e["label"] for e in data["estimates"]] == ["Sleep", "Score", "Diabetes"]
+    expected = [
+        sensitivity.from_model(logit, "t"),
+        sensitivity.from_model(ols, "t").evalue,
+        summary,
+    ]
+    for row, res in zip(data["estimates"], expected, strict=True):
+        assert row["evalue"] == pytest.approx(float(res.evalue), rel=1e-12)
+    assert (tmp_path / "rep" / "partial_r2_2.png").exists()  # the OLS fit's contours
+    with pytest.raises(InputError, match="`treatment` is needed"):
+        sensitivity.report(logit, tmp_path / "bad")
+    with pytest.raises(InputError, match="`labels` has 1 names for 2 results"):
+        sensitivity.report([summary, summary], tmp_path / "bad", labels=["one"])
