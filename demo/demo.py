@@ -31,7 +31,8 @@ def show(title: str, cmd: list[str]) -> int:
     print(RULE)
     print(title)
     print("$ " + shlex.join(cmd) + "\n")
-    out = subprocess.run(cmd, capture_output=True, text=True, cwd=ROOT)
+    run = [sys.executable, *cmd[1:]] if cmd[0] == "python" else cmd
+    out = subprocess.run(run, capture_output=True, text=True, cwd=ROOT)
     sys.stdout.write(out.stdout)
     sys.stderr.write(out.stderr)
     print()
@@ -107,9 +108,17 @@ def main() -> int:
         (
             "The robustness section of the manuscript, for every estimate at once:",
             ["sensitivity", "report", "--estimates", "demo/cohort_estimates.csv",
-             "--out", "demo-report"],
+             "--out", "out/estimates-report"],
         )
     )  # fmt: skip
+    steps.append(
+        (
+            "From fitted models to the manuscript folder, with a hidden confounder we know "
+            "(Python: three statsmodels fits on demo/harbourside_cohort.csv, then "
+            "sensitivity.report):",
+            ["python", "demo/hidden_confounder.py", "demo-report"],
+        )
+    )
     steps.append(
         (
             "Screening an (invented) evidence review of 40 published results:",
@@ -122,7 +131,8 @@ def main() -> int:
         if code:
             return code
     print("Figures written to out/: partial_r2_contours.png, tipping_night_shift.png")
-    print("The report is in demo-report/: open demo-report/report.html in a browser.")
+    print("The report from the fitted models is in demo-report/: open demo-report/report.html;")
+    print("the one from the table of estimates is in out/estimates-report/.")
     return 0
 
 

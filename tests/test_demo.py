@@ -17,4 +17,7 @@ def test_the_demo_runs(tmp_path):
     assert out.returncode == 0, out.stderr[-2000:]
     assert (tmp_path / "demo-report" / "report.html").is_file()
     assert (tmp_path / "out" / "screened.csv").is_file()
+    assert (tmp_path / "out" / "estimates-report" / "report.html").is_file()
+    # the hidden confounder, known to the generating script, set against the bounds
+    assert "adjusting for apnoea moves the estimate by" in " ".join(out.stdout.split())
     assert "E-value" in out.stdout
