@@ -371,3 +371,12 @@ def test_the_binary_view_takes_the_outcome_frequency_from_the_command_line(run):
     assert "converted to the risk-ratio scale" in " ".join(res.stdout.split())
     missing = run("tipping", "--scale", "or", "--estimate", 2.2)
     assert missing.exit_code == 2 and "`outcome` frequency is needed" in missing.stderr
+
+
+def test_the_exact_set_uses_the_grids_own_tolerance_at_a_tiny_prevalence_difference():
+    # Found by hypothesis: an estimate at the null and a difference of 1e-308 in prevalence;
+    # the crossing is where the moved value meets the target plus the slack, not the target.
+    grid = binary_confounder_grid("md", 0.0, prevalence_treated=[0.0],
+                                  prevalence_control=[1.1125369292536007e-308],
+                                  outcome_effect=value_range(-8, 8, 0.01))  # fmt: skip
+    _agree(grid, "estimate")

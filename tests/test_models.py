@@ -237,3 +237,12 @@ def test_a_lifelines_fit_names_a_missing_coefficient():
     fit = lifelines.CoxPHFitter().fit(load_rossi(), "week", "arrest")
     with pytest.raises(InputError, match="`treatment` 'smoking' is not a coefficient"):
         from_model(fit, "smoking")
+
+
+def test_partial_r2_takes_model_ols_and_sends_the_others_to_evalue(run, cohort_csv):
+    base = ["partial-r2", "--data", cohort_csv, "--formula", "count ~ t + x", "--treatment", "t"]
+    plain, named = run(*base, "--format", "json"), run(*base, "--model", "ols", "--format", "json")
+    assert plain.exit_code == named.exit_code == 0
+    assert json.loads(plain.stdout)["estimate"] == json.loads(named.stdout)["estimate"]
+    res = run(*base, "--model", "poisson")
+    assert res.exit_code == 2 and "sensitivity evalue --data ... --model poisson" in res.stderr

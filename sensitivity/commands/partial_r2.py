@@ -7,6 +7,7 @@ from typing import Any
 import click
 
 from sensitivity.commands import COMMANDS
+from sensitivity.common.errors import InputError
 
 from ._options import Command, emit, exclusive, format_options, plot_options, show_warnings
 
@@ -25,6 +26,14 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
 )
 @click.option("--formula", help='Data input: OLS formula, e.g. "y ~ t + x1 + C(region)".')
 @click.option("--treatment", help="Data input: the treatment's name in the formula.")
+@click.option(
+    "--model",
+    "model_kind",
+    type=click.Choice(["ols", "logit", "poisson", "negbin", "cox"]),
+    default="ols",
+    show_default=True,
+    help="Data input: the fit. Partial-R² bounds need ols; the others go to `evalue`.",
+)
 @click.option(
     "--fraction",
     type=float,
@@ -91,6 +100,7 @@ def partial_r2_cmd(
     data: Any,
     formula: Any,
     treatment: Any,
+    model_kind: Any,
     fraction: Any,
     alpha: Any,
     benchmarks: Any,
@@ -154,6 +164,11 @@ def partial_r2_cmd(
         missing = [n for n in ("--data", "--formula", "--treatment") if n not in data_given]
         if missing:
             raise click.UsageError(f"data input needs {', '.join(missing)} as well")
+        if model_kind != "ols":
+            raise InputError(
+                f"`--model` {model_kind}: partial-R² bounds need an OLS fit; for a {model_kind} "
+                f"model use `sensitivity evalue --data ... --model {model_kind}`"
+            )
         from sensitivity.adapters.statsmodels import partial_r2_from_data
 
         result = partial_r2_from_data(

@@ -470,16 +470,18 @@ def _binary_exact(
     shape = result.reduced_shape(j)
     p1, p0, g = args
     root: np.ndarray
+    # The crossing of the condition itself: the moved value meets the target plus the slack.
+    edge = t + side * slack
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if ratio:
-            r = obs / t  # reached when factor = (1 + (G-1) p1) / (1 + (G-1) p0) hits r
+            r = obs / edge  # reached when factor = (1 + (G-1) p1) / (1 + (G-1) p0) hits r
             root = [
                 lambda: (r * (1 + (g - 1) * p0) - 1) / (g - 1),
                 lambda: ((1 + (g - 1) * p1) / r - 1) / (g - 1),
                 lambda: 1 + (r - 1) / (p1 - r * p0),
             ][j]()
         else:
-            d = obs - t
+            d = obs - edge
             root = [lambda: p0 + d / g, lambda: p1 - d / g, lambda: d / (p1 - p0)][j]()
 
     def reached(x: np.ndarray) -> np.ndarray:
