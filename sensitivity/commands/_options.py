@@ -193,6 +193,22 @@ def outcome_frequency_option(help_text: str) -> Callable:
     )
 
 
+#: The fits `--model` names (the statsmodels routes of adapters.models).
+MODEL_KINDS = ("ols", "logit", "poisson", "negbin", "cox")
+
+
+def model_option(help_text: str, default: str | None = None) -> Callable:
+    """--model ols|logit|poisson|negbin|cox: the fit for data input."""
+    return click.option(
+        "--model",
+        "model_kind",
+        type=click.Choice(MODEL_KINDS),
+        default=default,
+        show_default=default is not None,
+        help=help_text,
+    )
+
+
 def exclusive(*options: tuple[str, object]) -> None:
     """A usage error naming both options when two that cannot go together are given."""
     given = [name for name, value in options if value is not None]

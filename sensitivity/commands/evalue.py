@@ -15,6 +15,7 @@ from ._options import (
     emit,
     exclusive,
     format_options,
+    model_option,
     outcome_frequency_option,
     plot_options,
     show_warnings,
@@ -44,11 +45,8 @@ SHORT_HELP = COMMANDS["evalue"][1]
 )
 @click.option("--formula", help='Data input: the model formula, e.g. "y ~ t + age + C(site)".')
 @click.option("--treatment", help="Data input: the treatment's coefficient name.")
-@click.option(
-    "--model",
-    "model_kind",
-    type=click.Choice(["ols", "logit", "poisson", "negbin", "cox"]),
-    help="Data input: the fit, which decides the scale (cox: time on the formula's left side).",
+@model_option(
+    "Data input: the fit, which decides the scale (cox: time on the formula's left side)."
 )
 @click.option("--event", help="Data input with --model cox: the column that is 1 for an event.")
 @click.option(

@@ -9,7 +9,15 @@ import click
 from sensitivity.commands import COMMANDS
 from sensitivity.common.errors import InputError
 
-from ._options import Command, emit, exclusive, format_options, plot_options, show_warnings
+from ._options import (
+    Command,
+    emit,
+    exclusive,
+    format_options,
+    model_option,
+    plot_options,
+    show_warnings,
+)
 
 SHORT_HELP = COMMANDS["partial-r2"][1]
 
@@ -26,14 +34,7 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
 )
 @click.option("--formula", help='Data input: OLS formula, e.g. "y ~ t + x1 + C(region)".')
 @click.option("--treatment", help="Data input: the treatment's name in the formula.")
-@click.option(
-    "--model",
-    "model_kind",
-    type=click.Choice(["ols", "logit", "poisson", "negbin", "cox"]),
-    default="ols",
-    show_default=True,
-    help="Data input: the fit. Partial-R² bounds need ols; the others go to `evalue`.",
-)
+@model_option("Data input: the fit. Partial-R² bounds need ols; the others go to `evalue`.", "ols")
 @click.option(
     "--fraction",
     type=float,

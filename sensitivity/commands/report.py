@@ -10,7 +10,7 @@ import click
 from sensitivity.commands import COMMANDS
 
 from . import _options
-from ._options import Command, Number, outcome_frequency_option, show_warnings
+from ._options import Command, Number, model_option, outcome_frequency_option, show_warnings
 
 SHORT_HELP = COMMANDS["report"][1]
 
@@ -83,8 +83,7 @@ def _rows(path: str) -> list[Any]:
 @click.option("--data", type=click.Path(dir_okay=False), help="Data input, as for evalue.")
 @click.option("--formula", help="Data input: the model formula.")
 @click.option("--treatment", help="Data input: the treatment's coefficient name.")
-@click.option("--model", "model_kind", type=click.Choice(["ols", "logit", "poisson", "negbin",
-              "cox"]), help="Data input: the fit.")  # fmt: skip
+@model_option("Data input: the fit.")
 @click.option("--event", help="Data input with --model cox: the event column.")
 @click.option("--contrast", type=float, default=1.0, show_default=True,
               help="A continuous treatment: report per this many units.")  # fmt: skip
