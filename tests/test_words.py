@@ -236,3 +236,12 @@ def test_names_are_checked_against_the_data_before_the_fit(
     res = run("partial-r2", "--data", DEMO, "--formula", formula, "--treatment", treatment, *extra)
     assert res.exit_code == 2
     assert res.stderr.startswith(f"Error: {message}"), res.stderr
+
+
+@pytest.mark.parametrize("value, shown", [(0.9957, "0.996"), (1.004, "1.004"), (1.0, "1.00"),
+                                          (0.99, "0.99"), (2.5, "2.50")])  # fmt: skip
+def test_a_value_that_is_not_one_never_prints_as_the_null(value, shown):
+    # A CI limit of 0.9957 at two decimals would read as touching the null (1.00).
+    from sensitivity.output.tables import number
+
+    assert number(value) == shown

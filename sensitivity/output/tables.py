@@ -45,7 +45,13 @@ def number(value: float | np.ndarray | None, digits: int = 2) -> str:
     size = abs(value)
     if size >= 1e9 or 0 < size < 0.5 * 10.0**-digits:
         return f"{value:.{max(digits, 2) + 1}g}" if size < 1e9 else f"{value:.3e}"
-    return f"{value:.{digits}f}"
+    text = f"{value:.{digits}f}"
+    # A value that is not 1 never reads as the null of a ratio: 0.9957 is 0.996, not 1.00.
+    extra = digits
+    while size != 1 and abs(float(text)) == 1 and extra < digits + 6:
+        extra += 1
+        text = f"{value:.{extra}f}"
+    return text
 
 
 def percent(value: float | np.ndarray | None, digits: int = 1) -> str:
