@@ -28,10 +28,6 @@ from .statsmodels import (
 SUPPORTED = ("PanelOLS", "PooledOLS")
 
 
-def is_linearmodels(results: Any) -> bool:
-    return type(results).__module__.startswith("linearmodels.")
-
-
 def _model(results: Any) -> tuple[Any, list[str]]:
     model = results.model
     kind = type(model).__name__

@@ -25,10 +25,6 @@ from .statsmodels import (
 )
 
 
-def is_pyfixest(results: Any) -> bool:
-    return type(results).__module__.startswith("pyfixest.")
-
-
 def _least_squares(X: np.ndarray, y: np.ndarray, dof: float) -> tuple[np.ndarray, np.ndarray]:
     """Coefficients and classical covariance of y on X with `dof` residual degrees of freedom."""
     gram = X.T @ X
