@@ -196,3 +196,113 @@ def test_the_signed_rank_gamma_solves_the_exact_bound():
     grid = np.arange(4.0, 5.5, 0.01)
     _, bounds, _ = signed_rank_bounds(D, grid)
     assert grid[bounds < 0.05].max() < res.gamma_at_alpha <= grid[bounds >= 0.05].min()
+
+
+# The exact bound for many pairs (issue 12): the Fourier route against the direct convolution.
+
+
+def _doubled(d):
+    from sensitivity.matched.core import ranks
+
+    q, sign = ranks(d)
+    return np.rint(2 * q).astype(np.int64), int(np.rint(2 * q[sign > 0].sum()))
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(2, 160), st.sampled_from([None, 2, 1, 0]), st.floats(-0.3, 1.0),
+       st.sampled_from([1.0, 1.3, 2.0, 5.0, 30.0]), st.integers(0, 2**32 - 1))  # fmt: skip
+def test_the_fourier_tail_equals_the_direct_convolution(n, digits, shift, gamma, seed):
+    # Two independent routes to the same exact distribution: the pair-by-pair convolution and
+    # the tilted inverse DFT, on untied and heavily tied data, upper and lower bounds.
+    from sensitivity.matched.core import _tail_direct, _tail_fourier
+
+    d = np.random.default_rng(seed).normal(shift, 1, n)
+    d = d if digits is None else d.round(digits)
+    if not np.any(d):
+        return
+    qi, t = _doubled(d)
+    for p in (gamma / (1 + gamma), 1 / (1 + gamma)):
+        direct = float(_tail_direct(qi, t, np.array([p]))[0])
+        fourier = _tail_fourier(qi, t, p)
+        assert fourier == pytest.approx(direct, rel=1e-11, abs=1e-300)
+
+
+def test_the_fourier_tail_equals_enumeration():
+    # Every one of the 2^12 sign patterns, weighted by p, against the Fourier route.
+    from sensitivity.matched.core import _tail_fourier
+
+    d = np.array([1.5, -0.4, 2.2, 0.9, -1.1, 3.0, 0.9, 2.5, -0.4, 1.7, 4.1, 0.2])
+    qi, t = _doubled(d)
+    for p in (0.5, 0.7, 0.2):
+        brute = sum(
+            np.prod(np.where(np.array(w) == 1, p, 1 - p))
+            for w in itertools.product((0, 1), repeat=d.size)
+            if int(qi @ np.array(w)) >= t
+        )
+        assert _tail_fourier(qi, t, p) == pytest.approx(brute, rel=1e-12)
+
+
+def test_the_fourier_tail_edges():
+    from sensitivity.matched.core import _tail_fourier
+
+    qi = np.array([2, 4, 6, 8])
+    assert _tail_fourier(qi, 20, 0.3) == pytest.approx(0.3**4, rel=1e-14)  # all four needed
+    assert _tail_fourier(qi, 21, 0.3) == 0.0
+    assert _tail_fourier(qi, 0, 0.3) == 1.0
+
+
+@pytest.mark.parametrize("digits", [None, 1])
+def test_ten_thousand_pairs_exact(digits):
+    # Issue 12: the exact bound at 10,000 pairs. No source prints one, so: the large-sample
+    # bound must agree where the normal approximation is good (near the centre, to 1e-3), the
+    # exact bound must rise with Gamma, and its Gamma at alpha must solve the exact bound.
+    d = np.random.default_rng(5).normal(0.05, 1, 10_000)
+    d = d if digits is None else d.round(digits)
+    gamma = [1.0, 1.1, 1.13, 1.2]
+    exact = rosenbaum_bounds(differences=d, gamma=gamma, method="exact")
+    normal = rosenbaum_bounds(differences=d, gamma=gamma, method="normal")
+    assert np.all(np.diff(exact.p_upper) > 0)
+    assert exact.p_upper[2] == pytest.approx(normal.p_upper[2], abs=1e-3)
+    assert exact.gamma_at_alpha == pytest.approx(normal.gamma_at_alpha, rel=1e-3)
+    _, upper, _ = signed_rank_bounds(d, exact.gamma_at_alpha)
+    assert float(upper[0]) == pytest.approx(0.05, rel=1e-9)
+    assert exact.estimate_low is not None  # the Hodges-Lehmann range by counting
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_walsh_order_statistics_by_counting_equal_sorting(seed, monkeypatch):
+    # The counting route (used above 4,000 pairs) against all Walsh averages sorted, on data
+    # with heavy ties, zeros and negative values.
+    import sensitivity.matched.core as core
+
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(2, 600))
+    d = rng.normal(0.3, 1, n).round(seed % 3) if seed % 4 else rng.integers(-3, 5, n) * 1.0
+    i, j = np.triu_indices(n)
+    walsh = np.sort((np.sort(d)[i] + np.sort(d)[j]) / 2)
+    index = np.unique(rng.integers(0, walsh.size, 20))
+    monkeypatch.setattr(core, "WALSH_IN_MEMORY", 1)
+    assert np.array_equal(core._walsh_order_statistics(d, index), walsh[index])
+
+
+def test_a_protective_effect_is_tested_in_its_own_direction():
+    # Rosenbaum reports the bound for the alternative in the direction of the observed effect:
+    # flipping every difference (or swapping treated and control events) must give the same
+    # bounds, with the direction named.
+    up = rosenbaum_bounds(differences=D, gamma=[1, 2, 3])
+    down = rosenbaum_bounds(differences=-D, gamma=[1, 2, 3])
+    assert (up.alternative, down.alternative) == ("greater", "less")
+    assert np.array_equal(up.p_upper, down.p_upper) and up.statistic == down.statistic
+    assert down.gamma_at_alpha == up.gamma_at_alpha
+    assert np.allclose(down.estimate_low, -up.estimate_high)
+    forced = rosenbaum_bounds(differences=-D, gamma=[1], alternative="greater")
+    assert forced.p_upper[0] > 0.999 and forced.gamma_at_alpha is None
+    sign = rosenbaum_bounds(discordant=122, treated_events=12, gamma=[4])
+    assert sign.alternative == "less" and sign.statistic == 110
+    assert "lower than control outcomes" in down.summary()
+    assert down.to_dict()["alternative"] == "less"
+
+
+def test_bad_alternative():
+    with pytest.raises(InputError, match=r"`alternative` must be auto, greater or less"):
+        rosenbaum_bounds(differences=D, alternative="two-sided")

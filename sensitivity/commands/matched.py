@@ -31,6 +31,10 @@ SHORT_HELP = COMMANDS["matched"][1]
 @click.option("--zeros", type=click.Choice(["pratt", "drop"]), default="pratt",
               show_default=True,
               help="Zero differences: ranked and counted as zero (pratt), or dropped.")  # fmt: skip
+@click.option("--alternative", type=click.Choice(["auto", "greater", "less"]), default="auto",
+              show_default=True,
+              help="The one-sided test's direction: treated above control (greater), below "
+                   "(less), or the observed effect's (auto).")  # fmt: skip
 @click.option(
     "--continuity",
     is_flag=True,
@@ -40,8 +44,8 @@ SHORT_HELP = COMMANDS["matched"][1]
 @format_options
 def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discordant: Any,
                 treated_events: Any, gamma: str, alpha: float, method: str, zeros: str,
-                continuity: bool, plots: Any, plot_limits: Any, plot_marks: Any, fmt: str,
-                outputs: Any) -> None:  # fmt: skip
+                alternative: str, continuity: bool, plots: Any, plot_limits: Any,
+                plot_marks: Any, fmt: str, outputs: Any) -> None:  # fmt: skip
     """Rosenbaum bounds: the p-value of a matched-pairs test under hidden bias up to Gamma.
 
     \b
@@ -80,7 +84,8 @@ def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discord
         v = values.to_numpy(float)[~bad]
         d = v[:, 0] if differences else v[:, 0] - v[:, 1]
         result = rosenbaum_bounds(differences=d, gamma=grid, alpha=alpha, method=method,
-                                  zeros=zeros, missing=int(bad.sum()))  # fmt: skip
+                                  zeros=zeros, missing=int(bad.sum()),
+                                  alternative=alternative)  # fmt: skip
     else:
         if discordant is None or treated_events is None:
             raise click.UsageError(
@@ -88,7 +93,7 @@ def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discord
             )
         result = rosenbaum_bounds(discordant=discordant, treated_events=treated_events,
                                   gamma=grid, alpha=alpha, method=method,
-                                  continuity=continuity)  # fmt: skip
+                                  continuity=continuity, alternative=alternative)  # fmt: skip
     emit(result, fmt, outputs)
     if plots:
         from sensitivity.output.figures import matched_figure

@@ -29,7 +29,7 @@ def table(r: MatchedResult) -> Table:
         title=f"Rosenbaum bounds: {name} ({r.method}), {r.pairs:,} pairs",
         footnotes=(
             "Gamma: how many times more likely a hidden confounder could make one unit of a pair "
-            "the treated one; one-sided p-values.",
+            f"the treated one; one-sided p-values for {_direction(r)}.",
         )
         + (
             (
@@ -41,6 +41,14 @@ def table(r: MatchedResult) -> Table:
             else ()
         ),
     )
+
+
+def _direction(r: MatchedResult) -> str:
+    if r.test == "sign":
+        more = "more" if r.alternative == "greater" else "fewer"
+        return f"{more} events among the treated than among their controls"
+    side = "higher" if r.alternative == "greater" else "lower"
+    return f"treated outcomes {side} than control outcomes"
 
 
 def sentence(r: MatchedResult) -> str:
@@ -74,6 +82,6 @@ def document(r: MatchedResult) -> Document:
     blocks: tuple[Block, ...] = (table(r), prose(lead, role="sentence"))
     blocks += standard_tail(notes, r.cautions, (
         "Pairs matched on the measured covariates; a hidden confounder with bounded effect "
-        "(Gamma) on which unit is treated; one-sided test in the direction of the effect.",
+        f"(Gamma) on which unit is treated; a one-sided test for {_direction(r)}.",
     ))  # fmt: skip
     return Document("Rosenbaum bounds", blocks, sentence=lead)

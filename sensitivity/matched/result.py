@@ -28,6 +28,7 @@ class MatchedResult(Result):
     missing: int = 0
     estimate_low: np.ndarray | None = None  # Hodges-Lehmann range at each Gamma (signed rank)
     estimate_high: np.ndarray | None = None
+    alternative: str = "greater"  # the one-sided test's direction: treated above control
     notes: tuple[str, ...] = ()
     cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
     is_scalar = False
@@ -47,6 +48,7 @@ class MatchedResult(Result):
                 "test": self.test,
                 "pairs": self.pairs,
                 "statistic": self.statistic,
+                "alternative": self.alternative,
                 "alpha": self.alpha,
                 "method": self.method,
                 "zeros": self.zeros,
