@@ -274,8 +274,52 @@ def bench_matched() -> None:
                "exact fast at 10,000 pairs")  # fmt: skip
 
 
+REGRESSION_FORMULA = "y ~ t + " + " + ".join(f"x{i}" for i in range(1, 27)) + \
+    " + C(g0) + C(g1) + C(g2) + C(g3)"  # fmt: skip
+GRAM_FLOOR = """
+import sys, numpy as np, polars as pl
+frame = pl.read_csv(sys.argv[1])
+dummies = frame.select(pl.col("g0", "g1", "g2", "g3")).to_dummies(drop_first=True)
+x = np.hstack([np.ones((frame.height, 1)), frame.drop("g0", "g1", "g2", "g3").to_numpy(),
+               dummies.to_numpy().astype(float)])
+gram = x.T @ x
+"""
+
+
+def bench_data_route() -> None:
+    print("== partial-r2 from data: 30 covariates (46 design columns), 1e5 and 1e6 rows (issue 11)")
+    import tempfile
+
+    here = Path(__file__).resolve().parent
+    with tempfile.TemporaryDirectory() as tmp:
+        peaks = {}
+        for rows in (100_000, 1_000_000):
+            src = f"{tmp}/data_{rows}.csv"
+            subprocess.run(
+                [sys.executable, str(here / "make_regression_file.py"), str(rows), src], check=True
+            )
+            ours = [str(BIN / "sensitivity"), "partial-r2", "--data", src, "--formula",
+                    REGRESSION_FORMULA, "--treatment", "t", "--format", "json"]  # fmt: skip
+            floor = [sys.executable, "-c", GRAM_FLOOR, src]
+            runs: dict[str, list] = {"ours": [], "floor": []}
+            for _ in range(3):  # alternate, medians
+                runs["ours"].append(measured(ours))
+                runs["floor"].append(measured(floor))
+            t_o = statistics.median(r[0] for r in runs["ours"])
+            m_o = statistics.median(r[1] for r in runs["ours"])
+            t_f = statistics.median(r[0] for r in runs["floor"])
+            m_f = statistics.median(r[1] for r in runs["floor"])
+            peaks[rows] = m_o
+            print(f"{rows:,} rows: sensitivity partial-r2 --data {t_o:.2f} s, peak {m_o:.0f} MiB")
+            print(f"  floor (polars reads the file whole, dummies, X'X; whole process): "
+                  f"{t_f:.2f} s, {m_f:.0f} MiB")  # fmt: skip
+            print(f"  ratio: {t_o / t_f:.2f}  (goal: within 3x of the floor)")
+        print(f"  peak memory 1e5 -> 1e6 rows: {peaks[100_000]:.0f} -> {peaks[1_000_000]:.0f} MiB "
+              f"({peaks[1_000_000] / peaks[100_000]:.2f}x; goal: flat)")  # fmt: skip
+
+
 SECTIONS = [bench_startup, bench_benchmarks, bench_tipping, bench_export, bench_screen,
-            bench_simulate, bench_matched]  # fmt: skip
+            bench_simulate, bench_matched, bench_data_route]  # fmt: skip
 
 if __name__ == "__main__":
     chosen = sys.argv[1:]

@@ -374,12 +374,10 @@ def partial_r2_from_data(
     """Fit `formula` by OLS on `data` (a DataFrame or a file path) and analyse `treatment`.
 
     Categorical covariates (strings or ``C(x)``) work and benchmark as one group. Options are
-    those of `partial_r2_from_model`.
+    those of `partial_r2_from_model`. The data are read once, in batches, into the R factor
+    of the design's QR decomposition (`sensitivity.adapters.onepass`): the numbers equal a
+    statsmodels fit's, in memory that does not grow with the number of rows.
     """
-    if not hasattr(data, "columns"):
-        from .files import read_table
+    from .onepass import partial_r2_one_pass
 
-        data = read_table(data, "data")
-    check_names(data, formula, treatment, options.get("benchmarks", ()))
-    results, notes = fit_formula(data, formula)
-    return partial_r2_from_model(results, treatment, notes=notes, **options)
+    return partial_r2_one_pass(data, formula, treatment, **options)

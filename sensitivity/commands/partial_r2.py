@@ -170,7 +170,12 @@ def partial_r2_cmd(
                 f"`--model` {model_kind}: partial-R² bounds need an OLS fit; for a {model_kind} "
                 f"model use `sensitivity evalue --data ... --model {model_kind}`"
             )
+        import sys
+
         from sensitivity.adapters.statsmodels import partial_r2_from_data
+
+        def progress(rows: int) -> None:
+            click.echo(f"\rread {rows:,} rows", err=True, nl=False)
 
         result = partial_r2_from_data(
             data,
@@ -184,7 +189,10 @@ def partial_r2_cmd(
             r2_treatment=r2t,
             r2_outcome=r2y,
             contrast=contrast,
+            progress=progress if sys.stderr.isatty() else None,
         )
+        if sys.stderr.isatty():
+            click.echo("", err=True)
     else:
         if benchmarks or times or times_pairs:
             raise click.UsageError("--benchmark, --times and --times-pair need data input (--data)")
