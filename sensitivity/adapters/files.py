@@ -102,10 +102,12 @@ def read_batches(path: str | Path, argument: str = "file", batch_rows: int = BAT
 
 
 def _text_batches(path: Path, delimiter: str, batch_rows: int) -> Any:
+    """Every cell as text, a piece of the file at a time (see `byte_chunks`), parsed by
+    polars: the fastest reader measured here, in memory bounded by the piece."""
     import csv
+    import io
 
-    import pyarrow as pa
-    import pyarrow.csv as pacsv
+    import polars as pl
 
     with open(path, newline="", encoding="utf-8-sig") as fh:
         header = next(csv.reader(fh, delimiter=delimiter), None)
@@ -114,26 +116,13 @@ def _text_batches(path: Path, delimiter: str, batch_rows: int) -> Any:
     if len(set(header)) != len(header):
         twice = sorted({h for h in header if header.count(h) > 1})
         raise InputError(f"`file`: {path} has columns named twice: {', '.join(twice)}")
-    reader = pacsv.open_csv(
-        path,
-        read_options=pacsv.ReadOptions(block_size=1 << 22, encoding="utf8"),
-        parse_options=pacsv.ParseOptions(delimiter=delimiter, newlines_in_values=True),
-        convert_options=pacsv.ConvertOptions(
-            column_types={h: pa.string() for h in header},
-            strings_can_be_null=False,
-            quoted_strings_can_be_null=False,
-        ),
-    )
-    pending = []
-    size = 0
-    for batch in reader:
-        pending.append(batch)
-        size += batch.num_rows
-        if size >= batch_rows:
-            yield from pa.Table.from_batches(pending).to_batches(max_chunksize=batch_rows)
-            pending, size = [], 0
-    if pending:
-        yield from pa.Table.from_batches(pending).to_batches(max_chunksize=batch_rows)
+    schema = {name: pl.String for name in header}
+    for head, body in byte_chunks(path, max(CHUNK_BYTES, 1)):
+        frame = pl.read_csv(
+            io.BytesIO(head + body), separator=delimiter, schema=schema, has_header=True,
+            empty_string_is_null=False, raise_if_empty=False,
+        )  # fmt: skip
+        yield from frame.to_arrow().to_batches(max_chunksize=batch_rows)
 
 
 # --------------------------------------------------------------------------- byte chunks

@@ -154,12 +154,14 @@ def flags(
     `FINITE` flags it where a field is required).
     """
     out = np.full(n, "", dtype=object) if reasons is None else reasons.copy()
+    flagged = np.zeros(n, bool) if reasons is None else out != ""
     for check in checks:
         arrays = [np.broadcast_to(np.asarray(values[f]), (n,)) for f in check.fields]
         with np.errstate(invalid="ignore"):
-            bad = np.asarray(check.bad(*arrays), bool) & (out == "")
+            bad = np.asarray(check.bad(*arrays), bool) & ~flagged
         for i in np.flatnonzero(bad):
             out[i] = check.message(*(a[i] for a in arrays))
+        flagged |= bad
     return out
 
 

@@ -66,8 +66,8 @@ def as_text(values: object) -> np.ndarray:
     if arr.dtype.kind == "U":
         return arr
     if arr.dtype.kind == "O":
-        is_none = np.asarray(np.frompyfunc(lambda v: v is None, 1, 1)(arr), dtype=bool)
-        missing = is_none | (arr != arr)  # NaN is not equal to itself
+        with np.errstate(invalid="ignore"):
+            missing = (arr == None) | (arr != arr)  # noqa: E711 - elementwise; NaN != itself
         return np.where(missing, "", arr).astype(str)
     return arr.astype(str)
 

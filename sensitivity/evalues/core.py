@@ -253,10 +253,9 @@ def compute(
     """
     conv = {"outcome": outcome, "sd": sd, "contrast": contrast}
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        rr = to_risk_ratio(scale, estimate, **conv)
-        rr_target = to_risk_ratio(scale, target, **conv)
-        rr_lower = to_risk_ratio(scale, lower, **conv)
-        rr_upper = to_risk_ratio(scale, upper, **conv)
+        # one pass over the routes for all four (each row's map decided once)
+        stacked = np.stack(np.broadcast_arrays(estimate, target, lower, upper))
+        rr, rr_target, rr_lower, rr_upper = to_risk_ratio(scale, stacked, **conv)
         # An interval from `se` (smd, md): exp(0.91 d -/+ 1.78 se_d) (VanderWeele & Ding 2017).
         per = np.where(_needs(scale, "md"), contrast / sd, 1.0)
         se_d = se * per
@@ -345,11 +344,14 @@ def _inputs(
 
 def _frequency(values: dict[str, np.ndarray]) -> np.ndarray:
     """Per row: the outcome frequency given, or decided from the prevalence (15% rule)."""
-    o, p = values["outcome"], values["prevalence"]
+    o, p = as_text(values["outcome"]), values["prevalence"]
     from_p = given(p)
-    decided = np.where(from_p, frequency_of_prevalence(np.where(from_p, p, 0.0)), o)
+    decided = o
+    if from_p.any():
+        chosen = frequency_of_prevalence(np.where(from_p, p, 0.0)).astype(str)
+        decided = np.where(from_p, chosen, o)
     # The frequency matters only for or and hr; elsewhere it is dropped (with a note).
-    return as_text(np.where(_needs(values["scale"], "or", "hr"), decided, ""))
+    return np.where(_needs(values["scale"], "or", "hr"), decided, "")
 
 
 # --------------------------------------------------------------------------- entry points
