@@ -406,15 +406,6 @@ def defuse_frame(frame: Any) -> Any:
     )
 
 
-def _polars() -> Any:
-    """polars, where installed (the `polars` extra), else None."""
-    try:
-        import polars
-    except ImportError:
-        return None
-    return polars
-
-
 class TableWriter:
     """Writes a table batch by batch to CSV, TSV, Parquet, Excel or JSON (by extension).
 
@@ -450,7 +441,9 @@ class TableWriter:
             table = pa.table({n: defuse(table.column(n)) for n in table.column_names})
         if self.kind in ("csv", "tsv"):
             # polars writes CSV three to five times faster than pyarrow here (MEASURED.md)
-            frame = defuse_frame(_polars().from_arrow(table))
+            import polars as pl
+
+            frame = defuse_frame(pl.from_arrow(table))
             if self._sink is None:
                 self._sink = open(self.path, "wb")  # noqa: SIM115 - closed in close()
             frame.write_csv(
@@ -458,16 +451,6 @@ class TableWriter:
                 include_header=self._rows == table.num_rows,
                 separator="," if self.kind == "csv" else "\t",
             )
-        elif self.kind in ("csv", "tsv"):
-            import pyarrow.csv as pacsv
-
-            if self._writer is None:
-                options = pacsv.WriteOptions(
-                    delimiter="," if self.kind == "csv" else "\t", quoting_style="needed"
-                )
-                self._schema = table.schema
-                self._writer = pacsv.CSVWriter(str(self.path), table.schema, write_options=options)
-            self._writer.write_table(table.cast(self._schema))
         elif self.kind == "parquet":
             import pyarrow.parquet as pq
 
