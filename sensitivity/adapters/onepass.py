@@ -160,9 +160,11 @@ def _csv_batches(path: Path, delimiter: str, header: list[str], wanted: list[str
                 schema_overrides=dtypes, raise_if_empty=False,
             )  # fmt: skip
         except Exception as err:  # noqa: BLE001 - a parser failure is the file's, not ours
-            text = str(err).strip().splitlines()[0] if str(err).strip() else type(err).__name__
+            # the first paragraph, on one line (a cell's own newline shown as \n)
+            text = " ".join(str(err).strip().split("\n\n")[0].replace("\n`", "\\n`").split())
+            text = text or type(err).__name__
             found = re.search(r"as dtype `(\w+)` at column '([^']*)'", text)
-            if found and found.group(2) in wanted:
+            if found and found.group(1) != "str" and found.group(2) in wanted:
                 kind = "number" if found.group(1).startswith("i") else "text"
                 raise _TypeChange(found.group(2), kind) from None
             raise InputError(f"`{argument}`: could not read {path}: {text}") from None
@@ -627,6 +629,9 @@ def partial_r2_one_pass(data: Any, formula: str, treatment: str, **options: Any
     rest = [i for i in range(len(names)) if i != j]
     r = design.factor.of([design.slots[i] for i in rest + [j]] + [design.y_slot])
     kept = _kept(r[:, :-1], design.used)
+    if design.used - len(kept) < 2:  # too few rows: say so before any rank problem
+        raise InputError(f"`data`: the fit has {design.used - len(kept)} residual degrees of "
+                         "freedom; need at least 2")  # fmt: skip
     notes: list[str] = []
     if design.read > design.used:
         notes.append(f"{design.read - design.used} of {design.read} rows had missing values in "
