@@ -288,3 +288,18 @@ def test_the_factor_equals_the_qr_of_all_rows_whatever_the_batches():
         factor.add_rows(x[start : start + 91])
     whole = np.linalg.qr(x, mode="r")
     assert np.allclose(np.abs(factor.r), np.abs(whole), rtol=1e-10, atol=1e-10)
+
+
+def test_bad_files(tmp_path, run):
+    one = tmp_path / "one.csv"
+    one.write_text("y,t,x\n1,2,3\n")
+    res = run("partial-r2", "--data", one, "--formula", "y ~ t + x", "--treatment", "t")
+    assert res.exit_code == 2
+    assert (
+        res.stderr == "Error: `data`: the fit has 0 residual degrees of freedom; need at least 2\n"
+    )
+    broken = tmp_path / "broken.csv"
+    broken.write_text('y,t,x\n1,2,3\n2,"3,4\n')
+    res = run("partial-r2", "--data", broken, "--formula", "y ~ t + x", "--treatment", "t")
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1
+    assert res.stderr.startswith(f"Error: `data`: could not read {broken}: could not parse")
