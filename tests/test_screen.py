@@ -441,3 +441,30 @@ def test_screen_a_pandas_polars_or_arrow_table():
     assert isinstance(pl_out, polars.DataFrame) and pl_out.height == 4
     summary = screen_summary(frame, threshold=1.5)
     assert summary.rows == 4 and summary.n_flagged == 1
+
+
+def test_pieces_of_the_file_keep_every_row_in_order(run, tmp_path, monkeypatch):
+    # The file is parsed a piece at a time (memory bounded by the piece): cut into pieces of
+    # a few hundred bytes, quoted cells with commas and newlines and every row's order survive.
+    import sensitivity.adapters.files as files
+
+    rows = [dict(r, id=f"{r['id']}{k}", note=f'line one\nline "two", {k}') for k in range(60)
+            for r in ROWS]  # fmt: skip
+    src = tmp_path / "in.csv"
+    _write(src, rows)
+    whole = run("screen", src, "--output", tmp_path / "whole.csv")
+    monkeypatch.setattr(files, "CHUNK_BYTES", 300)
+    pieces = run("screen", src, "--output", tmp_path / "pieces.csv")
+    assert whole.exit_code == pieces.exit_code == 0
+    assert (tmp_path / "whole.csv").read_bytes() == (tmp_path / "pieces.csv").read_bytes()
+    assert [r["id"] for r in _read(tmp_path / "pieces.csv")] == [r["id"] for r in rows]
+
+
+def test_a_row_cut_short_is_an_error(run, tmp_path):
+    src = tmp_path / "short.csv"
+    src.write_text("scale,estimate,lower,upper,outcome\nrr,1.5,1.1,2.0,rare\nrr,1.6,1.2\n")
+    res = run("screen", src)
+    assert res.exit_code == 2
+    assert res.stderr.startswith("Error: `file`: could not read") and "Expected 5 columns" in (
+        res.stderr
+    )
