@@ -217,7 +217,10 @@ def exclusive(*options: tuple[str, object]) -> None:
 
 
 def check_plot(*paths: str | None) -> None:
-    """Refuse a bad --plot path before any work is done."""
+    """Refuse a bad --plot path before any work is done (the figures module is imported only
+    when there is a path to check: a one-number command without --plot starts without it)."""
+    if not any(paths):
+        return
     from sensitivity.output.figures import check_plot_path
 
     for path in paths:
