@@ -306,3 +306,16 @@ def test_a_protective_effect_is_tested_in_its_own_direction():
 def test_bad_alternative():
     with pytest.raises(InputError, match=r"`alternative` must be auto, greater or less"):
         rosenbaum_bounds(differences=D, alternative="two-sided")
+
+
+def test_the_command_names_and_takes_the_direction(run):
+    res = run("matched", "--discordant", 122, "--treated-events", 12, "--gamma", "1:2:1",
+              "--format", "json")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    data = json.loads(res.stdout)
+    assert data["alternative"] == "less" and data["statistic"] == 110
+    res = run("matched", "--discordant", 122, "--treated-events", 12, "--alternative", "greater")
+    assert res.exit_code == 0 and "for more events among the treated" in res.stdout
+    assert "not significant at the 0.05 level" in res.stdout
+    res = run("matched", "--discordant", 122, "--treated-events", 12, "--alternative", "both")
+    assert res.exit_code == 2 and "'both' is not one of" in res.stderr
