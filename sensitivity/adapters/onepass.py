@@ -2,13 +2,15 @@
 
 Every regression the route needs comes from one upper-triangular factor R of the design
 [covariates, treatment, outcome]: each batch of rows is stacked under the R so far and
-re-triangularised (the R of QR, so memory does not grow with the number of rows). Then
+re-triangularised (the R of QR, so memory does not grow with the number of rows). With the
+treatment last among the regressors,
 
-- the outcome model y ~ covariates + treatment: coefficients R_xx^-1 r_xy, residual sum of
-  squares r_yy^2, covariance (rss / dof) R_xx^-1 R_xx^-T;
-- the treatment model t ~ covariates: the same from the leading block and the treatment's
-  column (its residual sum of squares is r_tt^2);
-- each covariate's (or categorical group's) partial R² from its joint Wald F in either model.
+- the outcome model y ~ covariates + treatment: the treatment's coefficient r_ty / r_tt, its
+  standard error sqrt(r_yy^2 / dof) / |r_tt| (r_yy^2 is the residual sum of squares);
+- the treatment model t ~ covariates: its residual sum of squares is r_tt^2;
+- each covariate's (or categorical group's) partial R² in either model: R re-triangularised
+  with the group just before the model's outcome, the share of that outcome's remaining sum
+  of squares the group takes (the Wald F identity, by orthogonal steps).
 
 QR rather than the cross-product matrix X'X: X'X squares the design's condition number, the
 R factor does not, so ill-conditioned designs agree with statsmodels' refits to 1e-8 as well
