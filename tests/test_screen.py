@@ -468,3 +468,34 @@ def test_a_row_cut_short_is_an_error(run, tmp_path):
     assert res.stderr.startswith("Error: `file`: could not read") and "Expected 5 columns" in (
         res.stderr
     )
+
+
+def test_numbers_are_read_exactly_as_the_number_pattern_says():
+    # The reader trusts polars' float parser; it must accept exactly the cells the screen's
+    # number pattern describes (ASCII digits, exponents, inf, infinity and nan in any case),
+    # and a cell it refuses is flagged, never read as missing.
+    import re
+
+    from sensitivity.screen.stream import _NUMBER, text_or_numbers
+
+    cells = ["1.5", " 2 ", "+.5", "5.", "-.5e-3", "1E5", "1e+07", "inf", "-Infinity", "NaN",
+             "00012", "1e400", ".", "+", "-", "e", "E5", "1e", "1e+", "1..2", "--1", "+-1",
+             "1e5.5", "0x1p3", "1_0", "1,5", "1 2", "in", "infinit", "snan", "1d5", "1f",
+             "0b101", "∞", "١٢", "１２", "nan(1)", ""]  # fmt: skip
+    out = text_or_numbers(pa_strings(cells))
+    floats, bad = (out.values, set(out.bad.tolist())) if hasattr(out, "bad") else (out, set())
+    for i, cell in enumerate(cells):
+        ascii_number = bool(re.match(_NUMBER, cell.strip(), re.I)) and cell.strip().isascii()
+        if cell.strip() == "":
+            assert i not in bad and np.isnan(floats[i])
+        elif ascii_number:
+            assert i not in bad, cell
+            assert floats[i] == pytest.approx(float(cell), nan_ok=True), cell
+        else:
+            assert i in bad, cell
+
+
+def pa_strings(cells):
+    import pyarrow as pa
+
+    return pa.array(cells, pa.string())

@@ -395,10 +395,13 @@ def defuse_frame(frame: Any) -> Any:
         return frame
     starts = "".join(FORMULA_STARTS).replace("\\", "\\\\").replace("-", "\\-")
     numeric = r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$"
-    risky = {n: pl.col(n).str.contains(f"^[{starts}]") & ~pl.col(n).str.contains(numeric)
-             for n in text}  # fmt: skip
+    first = {n: pl.col(n).str.contains(f"^[{starts}]") for n in text}
+    found = frame.select(expr.any().alias(n) for n, expr in first.items()).row(0, named=True)
+    risky = {n: first[n] & ~pl.col(n).str.contains(numeric) for n in text if found[n]}
+    if not risky:
+        return frame
     found = frame.select(expr.any().alias(n) for n, expr in risky.items()).row(0, named=True)
-    fix = [n for n in text if found[n]]
+    fix = [n for n in risky if found[n]]
     if not fix:
         return frame
     return frame.with_columns(

@@ -263,7 +263,7 @@ def screen_columns(
     good = reasons == ""
     for k in out:
         out[k] = np.where(good, out[k], np.nan)
-    result: dict[str, np.ndarray] = {"scale_used": np.where(good, code, "").astype(object)}
+    result: dict[str, np.ndarray] = {"scale_used": np.where(good, code, "")}
     # the interval limit nearest the null, oriented to be at least 1 unless it covers the null
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(out["rr"] >= 1, out["rr"], 1 / out["rr"])
