@@ -245,3 +245,18 @@ def test_a_value_that_is_not_one_never_prints_as_the_null(value, shown):
     from sensitivity.output.tables import number
 
     assert number(value) == shown
+
+
+@pytest.mark.parametrize("scale, estimate, ci, top", [
+    ("rr", 3.9, (1.8, 8.7), (10, 20)),  # E-value 7.26 (VanderWeele & Ding 2017)
+    ("rr", 1.05, (1.01, 1.09), (1.4, 2.0)),  # E-value 1.28: the curve must not hug the axes
+])  # fmt: skip
+def test_the_evalue_figure_zooms_on_the_evalue(monkeypatch, tmp_path, scale, estimate, ci, top):
+    from sensitivity.output.figures import evalue_figure
+
+    kept = _saved(monkeypatch)
+    res = evalue(scale, estimate, ci)
+    evalue_figure(res, tmp_path / "e.png")
+    ax = kept[0].axes[0]
+    assert top[0] < ax.get_xlim()[1] < top[1] and top[0] < ax.get_ylim()[1] < top[1]
+    assert ax.get_xlim()[1] > 1.3 * float(res.evalue) - 0.3  # the E-value point well inside

@@ -380,7 +380,10 @@ def evalue_figure(
                 strict=True,
             )
         )
-    top = max([2.2 * e for _, _, e in curves] + [max(p) * 1.15 for p in pts] + [3.0])
+    # zoom on where the conclusion changes, in excess over 1: the E-value point sits about two
+    # fifths of the way up whatever its size (a floor of 3 hid the curve of an E-value of 1.09)
+    top = max([1 + 2.5 * (e - 1) for _, _, e in curves]
+              + [1 + 1.15 * (max(p) - 1) for p in pts] + [1.2])  # fmt: skip
     xlim = ylim = top
     if limits is not None:
         xlim, ylim = float(limits[0]), float(limits[1])
