@@ -463,20 +463,30 @@ def evalue(
     return EValueResult(
         scale=str(values["scale"]) if scalar_scale else values["scale"],
         estimate=values["estimate"],
-        ci=None if ci is None else (values["lower"], values["upper"]),
+        ci=None if ci is None else _limits(values["lower"], values["upper"]),
         se=None if se is None else values["se"],
         sd=None if sd is None else values["sd"],
         contrast=values["contrast"],
         outcome=_outcome_value(freq),
         target_value=values["target"],
         rr=out["rr"],
-        rr_ci=None if np.all(np.isnan(out["rr_lower"])) else (out["rr_lower"], out["rr_upper"]),
+        rr_ci=None
+        if np.all(np.isnan(out["rr_lower"]))
+        else _limits(out["rr_lower"], out["rr_upper"]),
         rr_target=out["rr_target"],
         evalue=out["evalue"],
         evalue_ci=None if np.all(np.isnan(out["evalue_ci"])) else out["evalue_ci"],
         notes=tuple(notes),
         ci_level=level,
     )
+
+
+def _limits(lower: np.ndarray, upper: np.ndarray) -> tuple:
+    """An interval's limits: plain floats for one result (so `result.ci` reads (1.8, 8.7) in a
+    notebook), arrays for many."""
+    if np.ndim(lower) == 0 and np.ndim(upper) == 0:
+        return float(lower), float(upper)
+    return lower, upper
 
 
 def _outcome_value(freq: np.ndarray) -> str | np.ndarray | None:
