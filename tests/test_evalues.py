@@ -189,3 +189,13 @@ def test_interval_covering_null_is_one_with_a_note():
     res = evalue("rr", 1.3, (0.9, 1.9))
     assert float(res.evalue_ci) == 1.0
     assert any("includes the null" in n for n in res.notes)
+
+
+def test_one_result_keeps_its_interval_as_plain_numbers():
+    # Printed in a notebook, a single result's interval reads as numbers, not arrays.
+    from sensitivity import evalue
+
+    res = evalue("rr", 3.9, (1.8, 8.7))
+    assert repr(res.ci) == "(1.8, 8.7)" and repr(res.rr_ci) == "(1.8, 8.7)"
+    many = evalue("rr", np.array([3.9, 2.0]), (np.array([1.8, 1.2]), np.array([8.7, 3.1])))
+    assert many.ci[0].shape == (2,)
