@@ -15,6 +15,8 @@ import pandas as pd
 import pytest
 import statsmodels.api as sm
 import statsmodels.formula.api as smf
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import sensitivity.adapters.files as files
 import sensitivity.adapters.onepass as onepass
@@ -303,3 +305,41 @@ def test_bad_files(tmp_path, run):
     res = run("partial-r2", "--data", broken, "--formula", "y ~ t + x", "--treatment", "t")
     assert res.exit_code == 2 and res.stderr.count("\n") == 1
     assert res.stderr.startswith(f"Error: `data`: could not read {broken}: could not parse")
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.integers(12, 80), st.integers(1, 3), st.integers(0, 4), st.floats(0, 0.2),
+       st.integers(1, 50), st.integers(0, 2**32 - 1))  # fmt: skip
+def test_any_small_table_equals_statsmodels(n, k, levels, missing, batch, seed):
+    # Property: whatever the table (numeric covariates, a text category or none, missing
+    # cells, any batch size), the one pass equals a statsmodels fit of the same formula.
+    rng = np.random.default_rng(seed)
+    frame = pd.DataFrame(rng.normal(size=(n, k)), columns=[f"x{i}" for i in range(k)])
+    frame["t"] = rng.normal(size=n) + frame["x0"]
+    frame["y"] = 0.5 * frame["t"] + frame.sum(axis=1) + rng.normal(size=n)
+    terms = [f"x{i}" for i in range(k)]
+    if levels >= 2:
+        frame["g"] = rng.choice([f"L{j}" for j in range(levels)], n).astype(object)
+        terms.append("g")
+    for col in frame.columns:
+        frame.loc[rng.random(n) < missing, col] = np.nan if col != "g" else None
+    formula = "y ~ t + " + " + ".join(terms)
+    used = frame.dropna()
+    if len(used) < len(terms) + 8 or (levels >= 2 and used["g"].nunique() < levels):
+        return  # too few rows, or a level only in dropped rows (statsmodels keeps its column)
+    fit = smf.ols(formula, data=frame).fit()
+    if np.linalg.matrix_rank(fit.model.exog) < fit.model.exog.shape[1]:
+        return
+    onepass.BATCH_ROWS, before = batch, onepass.BATCH_ROWS
+    try:
+        got = partial_r2_one_pass(frame, formula, "t")
+    finally:
+        onepass.BATCH_ROWS = before
+    assert float(got.estimate) == pytest.approx(fit.params["t"], rel=1e-8, abs=1e-12)
+    assert float(got.se) == pytest.approx(fit.bse["t"], rel=1e-8)
+    assert float(got.dof) == fit.df_resid
+    reference = _reference(frame, formula, "t")
+    for mine, theirs in zip(got.covariates, reference.covariates, strict=True):
+        assert mine.name == theirs.name
+        assert mine.r2_outcome == pytest.approx(theirs.r2_outcome, rel=1e-7, abs=1e-12)
+        assert mine.r2_treatment == pytest.approx(theirs.r2_treatment, rel=1e-7, abs=1e-12)
