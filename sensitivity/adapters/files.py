@@ -101,22 +101,29 @@ def read_batches(path: str | Path, argument: str = "file", batch_rows: int = BAT
         raise InputError(f"`{argument}`: could not read {path} as {kind}: {first}") from None
 
 
+def text_header(path: Path, delimiter: str, argument: str) -> list[str]:
+    """A text table's column names; InputError for none, or for a name given twice."""
+    import csv
+
+    with open(path, newline="", encoding="utf-8-sig") as fh:
+        header = next(csv.reader(fh, delimiter=delimiter), None)
+    if not header:
+        raise InputError(f"`{argument}`: {path} has no header row")
+    if len(set(header)) != len(header):
+        twice = sorted({h for h in header if header.count(h) > 1})
+        raise InputError(f"`{argument}`: {path} has columns named twice: {', '.join(twice)}")
+    return header
+
+
 def _text_batches(path: Path, delimiter: str, batch_rows: int) -> Any:
     """Every cell as text, exactly as the file holds it, a piece of the file at a time (see
     `byte_chunks`)."""
-    import csv
     import io
 
     import pyarrow as pa
     import pyarrow.csv as pacsv
 
-    with open(path, newline="", encoding="utf-8-sig") as fh:
-        header = next(csv.reader(fh, delimiter=delimiter), None)
-    if not header:
-        raise InputError(f"`file`: {path} has no header row")
-    if len(set(header)) != len(header):
-        twice = sorted({h for h in header if header.count(h) > 1})
-        raise InputError(f"`file`: {path} has columns named twice: {', '.join(twice)}")
+    header = text_header(path, delimiter, "file")
     options = {
         "parse_options": pacsv.ParseOptions(delimiter=delimiter, newlines_in_values=True),
         "convert_options": pacsv.ConvertOptions(

@@ -55,8 +55,9 @@ class _TypeChange(Exception):
         self.column, self.kind = column, kind
 
 
-#: A batch: column name -> ("number" | "integer", float64 with NaN) or ("bool" | "text", Arrow
-#: strings). "integer": a column of whole numbers read as such (pandas shows its levels as 2).
+#: A batch: column name -> ("number" | "integer" | "bool", float64 with NaN; bools as 1 and 0)
+#: or ("text", Arrow strings). "integer": a column of whole numbers read as such (pandas shows
+#: its levels as 2).
 Batch = dict[str, tuple[str, Any]]
 
 
@@ -84,7 +85,7 @@ def _arrow_batch(batch: Any, wanted: list[str]) -> Batch:
                 or pa.types.is_null(kind_of):  # fmt: skip
             out[name] = ("number", col.cast(pa.float64()).to_numpy(zero_copy_only=False))
         elif pa.types.is_boolean(kind_of):
-            out[name] = ("bool", col.cast(pa.string()).cast(pa.string()))
+            out[name] = ("bool", col.cast(pa.float64()).to_numpy(zero_copy_only=False))
         else:
             out[name] = ("text", col.cast(pa.string()))
     return out
@@ -123,19 +124,17 @@ def file_source(path: str | Path, argument: str = "data") -> Source:
 
 
 def _csv_header(path: Path, delimiter: str, argument: str) -> list[str]:
+    """The column names, refusing a file with no data row after them."""
     import csv
 
+    from .files import text_header
+
+    header = text_header(path, delimiter, argument)
     with open(path, newline="", encoding="utf-8-sig") as fh:
         rows = csv.reader(fh, delimiter=delimiter)
-        header = next(rows, None)
-        first = next((row for row in rows if any(cell.strip() for cell in row)), None)
-    if not header:
-        raise InputError(f"`{argument}`: {path} has no header row")
-    if first is None:
-        raise InputError(f"`{argument}`: {path} has no data rows")
-    if len(set(header)) != len(header):
-        twice = sorted({h for h in header if header.count(h) > 1})
-        raise InputError(f"`{argument}`: {path} has columns named twice: {', '.join(twice)}")
+        next(rows, None)
+        if next((row for row in rows if any(cell.strip() for cell in row)), None) is None:
+            raise InputError(f"`{argument}`: {path} has no data rows")
     return header
 
 
@@ -186,7 +185,7 @@ def _polars_column(column: Any) -> tuple[str, Any]:
     if column.dtype.is_numeric() or column.dtype == pl.Null:
         return "number", column.cast(pl.Float64).to_numpy()
     if column.dtype == pl.Boolean:
-        return "bool", column.cast(pl.String).to_arrow().cast(pa.string())
+        return "bool", column.cast(pl.Float64).to_numpy()
     return "text", column.cast(pl.String).to_arrow().cast(pa.string())
 
 
@@ -212,8 +211,7 @@ def _pandas_column(column: Any) -> tuple[str, Any]:
     if is_integer_dtype(column.dtype) and not column.isna().any():
         return "integer", column.to_numpy(dtype=float)
     if is_bool_dtype(column.dtype):
-        values = column.astype(object).where(column.notna(), None)
-        return "bool", pa.array([None if v is None else str(bool(v)) for v in values])
+        return "bool", column.to_numpy(dtype=float, na_value=np.nan)
     if is_numeric_dtype(column.dtype):
         return "number", column.to_numpy(dtype=float, na_value=np.nan)
     values = column.astype(object).where(column.notna(), None)
@@ -225,6 +223,8 @@ _TERM = re.compile(r"^(?:C\(\s*(?P<c>[A-Za-z_][A-Za-z0-9_]*)\s*\)|(?P<n>[A-Za-z_
 
 
 NUMERIC = ("number", "integer")
+#: Kinds whose cells reach the design as floats (a true/false column as 1 and 0).
+FLOATS = (*NUMERIC, "bool")
 
 
 @dataclass
@@ -234,6 +234,7 @@ class _Term:
     wrapped: bool  # written C(col): categorical whatever its kind
     kind: str = ""  # the column's kind once read: number, bool or text
     levels: list[Any] = field(default_factory=list)  # as met; sorted by `coded_levels`
+    table: Any = None  # text levels as met, as an Arrow array (built without pandas)
 
     @property
     def categorical(self) -> bool:
@@ -248,10 +249,8 @@ class _Term:
         return sorted(self.levels)
 
     def key(self, level: Any) -> Any:
-        """A level as met and as shown, compared."""
-        if self.kind == "bool":
-            return str(level)
-        return float(level) if self.kind in NUMERIC else level
+        """A level as met and as shown, compared (a bool met as 1.0 is shown as True)."""
+        return float(level) if self.kind in FLOATS else level
 
 
 def plain_terms(formula: str) -> tuple[str, list[_Term], bool] | None:
@@ -387,7 +386,7 @@ def _plain_design(source: Source, outcome: str, terms: list[_Term], intercept: b
 
     def build(forced: dict[str, str]) -> Design:
         for term in terms:
-            term.kind, term.levels = "", []
+            term.kind, term.levels, term.table = "", [], None
         slots: dict[tuple, int] = {("y",): 0}
         if intercept:
             slots[("1",)] = 1
@@ -448,34 +447,36 @@ def _shifted(rows: np.ndarray, columns: list[int], shift: dict[int, float]) -> N
 
 
 def _level_codes(term: _Term, values: Any, kind: str) -> np.ndarray:
-    """Each cell's index among the term's levels met so far (adding new ones); -1 if missing."""
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
-    if kind in NUMERIC:
+    """Each cell's index among the term's levels met so far (adding new ones); -1 if missing.
+    Text is matched in Arrow against levels kept as an Arrow array, and the missing cells
+    filled in polars: building Arrow values from Python ones, or converting nulls, would
+    import pandas (half a second) through pyarrow."""
+    if kind in FLOATS:
         present = values[~np.isnan(values)]
         seen = np.asarray(term.levels, float)
-        new = np.setdiff1d(np.unique(present), seen)
-        term.levels += new.tolist()
+        term.levels += np.setdiff1d(np.unique(present), seen).tolist()
         table = np.asarray(term.levels, float)
         order = np.argsort(table)
         at = np.minimum(np.searchsorted(table[order], values), len(table) - 1)
         return np.where(np.isnan(values), -1, order[at])
-    if kind == "bool":
-        values = pc.if_else(pc.is_in(values, value_set=pa.array(["True", "true", "TRUE", "1"])),
-                            "True", "False").cast(pa.string())  # fmt: skip
-        values = pc.if_else(pc.is_null(values), pa.scalar(None, pa.string()), values)
-    table = pa.array([str(v) for v in term.levels], pa.string())
-    codes = pc.index_in(values, value_set=table)
-    unseen = pc.and_(pc.is_null(codes), pc.is_valid(values))
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    codes = None if term.table is None else pc.index_in(values, value_set=term.table)
+    unseen = pc.is_valid(values) if codes is None else pc.and_(pc.is_null(codes),
+                                                              pc.is_valid(values))  # fmt: skip
     if pc.any(unseen).as_py():
-        term.levels += sorted(pc.unique(pc.filter(values, unseen)).to_pylist())
+        new = pc.unique(pc.filter(values, unseen))
+        new = new.take(pc.sort_indices(new))
+        term.table = new if term.table is None else pa.concat_arrays([term.table, new])
+        term.levels += new.to_pylist()
         if len(term.levels) > MAX_LEVELS:
             raise InputError(f"`data`: column {term.column!r} has more than {MAX_LEVELS:,} "
                              "distinct values to code as categories")  # fmt: skip
-        table = pa.array([str(v) for v in term.levels], pa.string())
-        codes = pc.index_in(values, value_set=table)
-    return pc.fill_null(codes, -1).to_numpy(zero_copy_only=False).astype(np.int64)
+        codes = pc.index_in(values, value_set=term.table)
+    import polars as pl
+
+    return pl.Series(values=codes).fill_null(-1).to_numpy().astype(np.int64)
 
 
 def _plain_layout(terms: list[_Term], intercept: bool, slots: dict[tuple, int],
@@ -529,12 +530,11 @@ def _patsy_design(source: Source, formula: str, progress: Callable[[int], None])
                 for name, (kind, values) in batch.items():
                     if kind in NUMERIC:
                         data[name] = values
+                    elif kind == "bool":
+                        data[name] = pd.Series([None if v != v else bool(v) for v in values],
+                                               dtype=object)  # fmt: skip
                     else:
-                        cells = values.to_pylist()
-                        if kind == "bool":
-                            cells = [None if v is None else v in ("True", "true", "TRUE", "1")
-                                     for v in cells]  # fmt: skip
-                        data[name] = pd.Series(cells, dtype=object)
+                        data[name] = pd.Series(values.to_pylist(), dtype=object)
                 yield pd.DataFrame(data)
 
         env = patsy.EvalEnvironment([{"np": np}])
@@ -646,10 +646,7 @@ def partial_r2_one_pass(data: Any, formula: str, treatment: str, **options: Any
         notes.append("Left out as linear combinations of the columns before them: "
                      + ", ".join(dropped) + ".")  # fmt: skip
     k = len(kept) - 1
-    dof = design.used - (k + 1)
-    if dof < 2:
-        raise InputError(f"`data`: the fit has {dof} residual degrees of freedom; need at "
-                         "least 2")  # fmt: skip
+    dof = design.used - (k + 1)  # at least 2: checked above
     r = _r_of(r[:, kept + [r.shape[1] - 1]])  # covariates, treatment, outcome
     # the treatment is the last regressor: b = r_ty / r_tt, se = sqrt(rss / dof) / |r_tt|
     estimate = float(r[k, k + 1] / r[k, k])

@@ -196,12 +196,12 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     ks = np.unique(np.concatenate([[0], starts + np.arange(count.sum())]))
     # B = (1/L) [T_0 + 2 Re sum_{k > 0} T_k], T_k = phi_k exp(-i w_k t) G_k.
     span = hi - t + 1
+    centre = np.expm1(-theta * span) / np.expm1(-theta) if theta > 0 else span  # G_0
     out = 0.0
     for chunk in np.array_split(ks, max(1, ks.size * vals.size // 2**21)):
         turn = (chunk[:, None] * vals[None, :]) % n_fine  # exact integer phase
         log_phi = np.log1p(ps * np.expm1(2j * np.pi * turn / n_fine)) @ mult
         z = np.exp(-theta - 2j * np.pi * chunk / n_fine)
-        centre = np.expm1(-theta * span) / np.expm1(-theta) if theta > 0 else span
         with np.errstate(divide="ignore", invalid="ignore"):
             geo = np.where(chunk == 0, centre, -np.expm1(span * np.log(z)) / (1 - z))
         terms = np.exp(log_phi - 2j * np.pi * ((chunk * t) % n_fine) / n_fine) * geo
@@ -407,8 +407,10 @@ def rosenbaum_bounds(
         q, sign = ranks(d, zeros)
         if alternative == "auto":
             alternative = "less" if q[sign > 0].sum() < q.sum() / 2 else "greater"
-        tested = -d if alternative == "less" else d
-        t, upper, lower = signed_rank_bounds(tested, g, method=method, zeros=zeros)
+        # the statistic of the side tested: ranks of the positive (or negative) differences
+        t = float(q[sign > 0 if alternative == "greater" else sign < 0].sum())
+        upper = _signed_rank_tail(q, t, g / (1 + g), method)
+        lower = _signed_rank_tail(q, t, 1 / (1 + g), method)
 
         def at(x: float) -> float:
             return float(_signed_rank_tail(q, t, np.array([x / (1 + x)]), method)[0])
