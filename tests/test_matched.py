@@ -319,3 +319,14 @@ def test_the_command_names_and_takes_the_direction(run):
     assert "not significant at the 0.05 level" in res.stdout
     res = run("matched", "--discordant", 122, "--treated-events", 12, "--alternative", "both")
     assert res.exit_code == 2 and "'both' is not one of" in res.stderr
+
+
+def test_too_many_pairs_for_the_exact_bound(monkeypatch):
+    import sensitivity.matched.core as core
+
+    monkeypatch.setattr(core, "MAX_EXACT_PAIRS", 20)
+    d = np.arange(1.0, 31.0)
+    with pytest.raises(InputError, match=r"takes at most 20 pairs with a nonzero difference; "
+                       r"got 30: use method normal"):  # fmt: skip
+        rosenbaum_bounds(differences=d)
+    assert rosenbaum_bounds(differences=d, method="normal").pairs == 30
