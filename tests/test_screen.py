@@ -499,3 +499,10 @@ def pa_strings(cells):
     import pyarrow as pa
 
     return pa.array(cells, pa.string())
+
+
+def test_a_file_with_only_a_header_is_an_error(run, tmp_path):
+    src = tmp_path / "header.csv"
+    src.write_text("scale,estimate,lower,upper,outcome\n")
+    res = run("screen", src)
+    assert res.exit_code == 2 and res.stderr == f"Error: `file`: {src} has no data rows\n"

@@ -132,11 +132,15 @@ def _text_batches(path: Path, delimiter: str, batch_rows: int) -> Any:
             quoted_strings_can_be_null=False,
         ),
     }
+    rows = 0
     for head, body in byte_chunks(path):
         # each piece parsed whole (both cores), so memory is bounded by the piece; a row with
         # too few or too many cells is an error, as from a streaming reader
         table = pacsv.read_csv(io.BytesIO(head + body), **options)
+        rows += table.num_rows
         yield from table.to_batches(max_chunksize=batch_rows)
+    if not rows:
+        raise InputError(f"`file`: {path} has no data rows")
 
 
 # --------------------------------------------------------------------------- byte chunks
