@@ -172,8 +172,19 @@ def evalue_from_model(
     if freq is None and scale in ("or", "hr"):
         prevalence = share
     est = float(np.exp(b * contrast))
-    lo, up = (float(v) for v in np.exp(np.sort(ci * contrast)))
-    res = evalue(scale, est, (lo, up), outcome=freq, prevalence=prevalence, ci_level=1 - alpha)
+    interval: tuple[float, float] | None = None
+    if np.isfinite(ci).all():
+        lo, up = (float(v) for v in np.exp(np.sort(ci * contrast)))
+        interval = (lo, up)
+    else:
+        message = (
+            f"the fit gives no finite standard error for {treatment!r} (the model's Hessian "
+            "could not be inverted: a parameter at its boundary, such as a negative binomial "
+            "dispersion near 0, or separation), so only the estimate's E-value is reported"
+        )
+        warnings.warn(message, SensitivityWarning, stacklevel=2)
+        notes.append(message[0].upper() + message[1:] + ".")
+    res = evalue(scale, est, interval, outcome=freq, prevalence=prevalence, ci_level=1 - alpha)
     what = {"or": "odds ratio", "rr": "risk or rate ratio", "hr": "hazard ratio"}[scale]
     per = f" per {contrast:g} units" if contrast != 1 else ""
     notes.insert(
