@@ -506,3 +506,208 @@ def test_a_file_with_only_a_header_is_an_error(run, tmp_path):
     src.write_text("scale,estimate,lower,upper,outcome\n")
     res = run("screen", src)
     assert res.exit_code == 2 and res.stderr == f"Error: `file`: {src} has no data rows\n"
+
+
+# --------------------------------------------------------------------------- the plain route
+# Plain ratio rows are computed in columns (sensitivity/screen/plain.py); every other row by
+# screen_columns. The two must agree bit for bit: the same table screened with the plain
+# route switched off (every row sent to the core) gives the same frame and the same summary.
+_NUMBER_CELLS = st.one_of(
+    st.floats(1e-3, 1e3).map(lambda x: f"{x:.6g}"),
+    st.floats(1e-3, 1e3).map(repr),
+    st.sampled_from(["1", "1.0", "1e-300", "1e300", "9.9e-301", "1.1e300", "1e308", "1.7e308",
+                     "5e-324", "1e-310", "2.5E1", "+3", ".5",
+                     "0", "-1", "nan", "inf", "", " 1.2", "1.2 ", "1,5", "abc", "=1+2"]),
+)  # fmt: skip
+_PLAIN_ROW = st.fixed_dictionaries(
+    {
+        "study": st.text(max_size=6),
+        "scale": st.sampled_from(["rr", "or", "hr", "rr", "or", "hr", "RR", " or", "smd", "", "x"]),
+        "estimate": _NUMBER_CELLS,
+        "lower": _NUMBER_CELLS,
+        "upper": _NUMBER_CELLS,
+        "outcome": st.sampled_from(["rare", "common", "", "rare", "common", "Rare", "often"]),
+        "prevalence": st.sampled_from(["", "", "", "", "0.3", "x"]),
+        "se": st.sampled_from(["", "", "", "", "0.2"]),
+    }
+)
+
+
+def _ordered(row):
+    """Most generated rows made plain-looking: limits around the estimate, when they read."""
+    try:
+        e, lo, up = (float(row[k]) for k in ("estimate", "lower", "upper"))
+    except ValueError:
+        return row
+    if 0 < e < 1e300 and lo == lo and up == up:
+        lo, up = sorted((lo, up))
+        return dict(row, lower=repr(min(lo, e)), upper=repr(max(up, e)))
+    return row
+
+
+_CLEAN_ROW = st.builds(
+    lambda e, w, s, o, fmt: {"study": "s", "scale": s, "estimate": fmt(e), "lower": fmt(e / w),
+                             "upper": fmt(e * w), "outcome": o, "prevalence": "", "se": ""},
+    st.one_of(st.floats(1e-250, 1e250), st.floats(0.05, 20)), st.floats(1, 50),
+    st.sampled_from(["rr", "or", "hr"]), st.sampled_from(["rare", "common", ""]),
+    st.sampled_from([repr, lambda x: f"{x:.3g}", lambda x: f"{x:.2e}"]),
+)  # fmt: skip
+
+
+_EDGES = [
+    "5e-324",
+    "1e-310",
+    "9.99e-301",
+    "1e-300",
+    "1.0000001e-300",
+    "0.5",
+    "1",
+    "2",
+    "9.9e299",
+    "1e300",
+    "1.0000001e300",
+    "1e308",
+    "1.7e308",
+]
+_EDGE_ROW = st.builds(
+    lambda cells, s, o: dict(zip(("lower", "estimate", "upper"),
+                                 sorted(cells, key=float), strict=True),
+                             study="e", scale=s, outcome=o, prevalence="", se=""),
+    st.lists(st.sampled_from(_EDGES), min_size=3, max_size=3),
+    st.sampled_from(["rr", "or", "hr"]), st.sampled_from(["rare", "common"]),
+)  # fmt: skip
+
+
+@settings(max_examples=80, deadline=None)
+@given(st.lists(st.one_of(_CLEAN_ROW, _EDGE_ROW, _PLAIN_ROW.map(_ordered)), min_size=1,
+                max_size=40),
+       st.sampled_from([(), ((2.0, 2.0),), ((1.5, 3.0), (4.0, 4.0))]))  # fmt: skip
+def test_the_plain_route_equals_the_core_bit_for_bit(rows, confounders):
+    import polars as pl
+
+    from sensitivity.screen import plain
+    from sensitivity.screen.result import Tally
+    from sensitivity.screen.stream import screen_frames
+
+    frame = pl.DataFrame(rows, schema={k: pl.String for k in rows[0]})
+
+    def screened(frames):
+        tally = Tally(threshold=1.5, n_confounders=len(confounders))
+        out = pl.concat(list(screen_frames(frames, confounders=confounders, tally=tally)))
+        return out, tally.result(confounders, "t").to_dict()
+
+    # the frame whole, and in pieces of three rows
+    fast, fast_summary = screened([frame])
+    pieces, _ = screened([frame.slice(i, 3) for i in range(0, frame.height, 3)])
+    original = plain.routes
+    try:
+        plain.routes = lambda f, m: plain.no_routes(f.height)
+        core, core_summary = screened([frame])
+    finally:
+        plain.routes = original
+    assert fast.equals(core, null_equal=True) and pieces.equals(core, null_equal=True)
+    for name in ("rr", "rr_lower", "rr_upper", "evalue", "evalue_ci"):  # bits, not approx
+        a, b = fast[name].to_numpy(), core[name].to_numpy()
+        assert np.array_equal(a.view(np.int64), b.view(np.int64)), name
+    assert fast_summary == core_summary
+
+
+def test_plain_rows_are_most_rows_of_a_clean_table():
+    # the point of the route: a clean table of ratios never reaches the core
+    import polars as pl
+
+    from sensitivity.screen.plain import routes
+
+    frame = pl.DataFrame({"scale": ["rr", "or", "hr", "or", "hr"],
+                          "estimate": ["1.5", "0.7", "2", "1.2", "0.4"],
+                          "lower": ["1.1", "0.5", "1.5", "", "0.2"],
+                          "upper": ["2.1", "0.9", "2.8", "", "0.8"],
+                          "outcome": ["", "common", "common", "rare", "rare"]})  # fmt: skip
+    mapping = {c: c for c in frame.columns}
+    route, scale, values = routes(frame, mapping)
+    assert route.tolist() == [0, 1, 2, 0, 0] and scale.tolist() == [0, 1, 2, 1, 2]
+    assert np.isnan(values[1:, 3]).all() and values[0, 4] == 0.4
+
+
+# --------------------------------------------------------------------------- reading pieces
+# Text files are parsed a piece at a time by polars, and by pyarrow for a piece whose cells do
+# not add up (a short row, a blank line). Source: the standard library's csv module reading
+# the same bytes (blank lines skipped, as csv.reader yields them empty).
+_CELL = st.one_of(
+    st.sampled_from(["", "1.5", "rr", "a,b", 'say "hi"', "two\nlines", " padded ", "x\r\ny", "\t"]),
+    st.text(alphabet='ab,"\n 1.', max_size=6),
+)  # fmt: skip
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.lists(_CELL, min_size=3, max_size=3), min_size=1, max_size=30),
+       st.sampled_from([",", "\t"]), st.sampled_from([40, 97, 1 << 20]),
+       st.sampled_from([0, 4, 4096]), st.booleans())  # fmt: skip
+def test_pieces_read_as_the_csv_module_reads_the_file(rows, sep, size, few, crlf):
+    import polars as pl
+
+    import sensitivity.adapters.files as files
+
+    buffer = io.StringIO()
+    csv.writer(buffer, delimiter=sep, lineterminator="\r\n" if crlf else "\n").writerows(
+        [["a", "b", "c"], *rows]
+    )
+    path = _tmp_file(buffer.getvalue(), ".csv" if sep == "," else ".tsv")
+    expected = [r for r in csv.reader(io.StringIO(buffer.getvalue(), newline=""),
+                                      delimiter=sep)][1:]  # fmt: skip
+    expected = [r for r in expected if r]
+    original = files.CHUNK_BYTES, files._FEW_QUOTES, files._pyarrow_piece
+    files.CHUNK_BYTES, files._FEW_QUOTES = size, few
+
+    def refuse(*args):  # a well-formed piece must add up, so polars' reading stands
+        raise AssertionError("a well-formed piece was sent to the fallback parser")
+
+    files._pyarrow_piece = refuse
+    try:
+        if not expected:
+            with pytest.raises(InputError, match="has no data rows"):
+                list(files.read_frames(path))
+            return
+        got = pl.concat(list(files.read_frames(path)))
+    finally:
+        files.CHUNK_BYTES, files._FEW_QUOTES, files._pyarrow_piece = original
+    # the csv module keeps \r\n inside a quoted cell as written; so do the parsers
+    assert got.rows() == [tuple(r) for r in expected]
+
+
+def _tmp_file(text: str, suffix: str):
+    import tempfile
+    from pathlib import Path
+
+    handle = tempfile.NamedTemporaryFile("w", suffix=suffix, delete=False, newline="")
+    with handle:
+        handle.write(text)
+    return Path(handle.name)
+
+
+@pytest.mark.parametrize(
+    "text, rows",
+    [
+        ("scale,estimate\nrr,1.5\n\nrr,2\n", [("rr", "1.5"), ("rr", "2")]),  # blank line
+        ("scale,estimate\r\nrr,1.5\r\n\r\nrr,2\r\n", [("rr", "1.5"), ("rr", "2")]),
+        ("result\n1.5 (1.1-2.0)\n\nHR 2 (1-4)\n", [("1.5 (1.1-2.0)",), ("HR 2 (1-4)",)]),
+        ('scale,estimate\nrr,"1,5"\n"r""r",2', [("rr", "1,5"), ('r"r', "2")]),
+    ],
+)
+def test_blank_lines_are_skipped_and_quotes_kept(tmp_path, text, rows):
+    import polars as pl
+
+    from sensitivity.adapters.files import read_frames
+
+    src = tmp_path / "t.csv"
+    src.write_bytes(text.encode())
+    assert pl.concat(list(read_frames(src))).rows() == rows
+
+
+@pytest.mark.parametrize("body", ["rr,1.6,1.2,2,rare,extra\n", "rr,1.6\n", "rr\n"])
+def test_a_row_with_too_many_or_too_few_cells_is_an_error(run, tmp_path, body):
+    src = tmp_path / "ragged.csv"
+    src.write_text("scale,estimate,lower,upper,outcome\nrr,1.5,1.1,2.0,rare\n" + body)
+    res = run("screen", src)
+    assert res.exit_code == 2 and res.stderr.startswith("Error: `file`: could not read")
+    assert len(res.stderr.strip().splitlines()) == 1

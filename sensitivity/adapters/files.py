@@ -70,28 +70,28 @@ def _checked(path: str | Path, argument: str) -> tuple[Path, str]:
     return p, kind
 
 
-def read_batches(path: str | Path, argument: str = "file", batch_rows: int = BATCH_ROWS) -> Any:
-    """The rows of a table file as pyarrow RecordBatches, read a batch at a time.
+def read_frames(path: str | Path, argument: str = "file", batch_rows: int = BATCH_ROWS) -> Any:
+    """The rows of a table file as polars DataFrames, a piece of the file at a time.
 
     CSV and TSV cells are read as text, so every cell is echoed exactly as the file holds
     it; Parquet keeps its column types; Excel is read whole (its sheets are small).
     """
-    import pyarrow as pa
+    import polars as pl
 
     p, kind = _checked(path, argument)
     try:
         if kind in ("csv", "tsv"):
-            yield from _text_batches(p, "," if kind == "csv" else "\t", batch_rows)
+            yield from _text_frames(p, "," if kind == "csv" else "\t", argument)
         elif kind == "parquet":
             import pyarrow.parquet as pq
 
-            yield from pq.ParquetFile(p).iter_batches(batch_size=batch_rows)
+            for batch in pq.ParquetFile(p).iter_batches(batch_size=batch_rows):
+                yield pl.from_arrow(batch)
         else:
             import pandas as pd
 
             frame = pd.read_excel(p, dtype=str, keep_default_na=False)
-            table = pa.Table.from_pandas(frame, preserve_index=False)
-            yield from table.to_batches(max_chunksize=batch_rows)
+            yield pl.from_pandas(frame)
     except InputError:
         raise
     except ImportError as err:
@@ -115,32 +115,81 @@ def text_header(path: Path, delimiter: str, argument: str) -> list[str]:
     return header
 
 
-def _text_batches(path: Path, delimiter: str, batch_rows: int) -> Any:
+def _text_frames(path: Path, delimiter: str, argument: str) -> Any:
     """Every cell as text, exactly as the file holds it, a piece of the file at a time (see
-    `byte_chunks`)."""
+    `byte_chunks`): each piece parsed whole by polars (both cores), so memory is bounded by
+    the piece. polars pads a row that is cut short and keeps blank lines as rows, so a piece
+    is taken from it only when its records and cells add up (`_cells_add_up`); any other
+    piece is parsed by pyarrow, which skips blank lines and refuses a row with too few or
+    too many cells."""
+    import polars as pl
+
+    header = text_header(path, delimiter, argument)
+    rows = 0
+    for head, body in byte_chunks(path):
+        try:
+            frame = pl.read_csv(head + body, separator=delimiter, infer_schema=False,
+                                empty_string_is_null=False)  # fmt: skip
+        except pl.exceptions.ComputeError:
+            frame = None  # pyarrow says what is wrong, in its words
+        if frame is None or not _cells_add_up(body, delimiter, len(header), frame.height):
+            frame = _pyarrow_piece(head + body, delimiter, header)
+        rows += frame.height
+        yield frame
+    if not rows:
+        raise InputError(f"`{argument}`: {path} has no data rows")
+
+
+#: Above this many quote characters in a piece, cells inside quotes are found with numpy.
+_FEW_QUOTES = 4096
+
+
+def _cells_add_up(body: bytes, delimiter: str, columns: int, records: int) -> bool:
+    """True when the `records` polars read from `body` are its lines as written: the
+    delimiters outside quotes number records x (columns - 1). polars refuses a record with
+    too many cells, so the count rules out one too short, and a blank line (which polars
+    keeps as a row); with one column, blank lines are looked for directly."""
+    if columns == 1:
+        return not (body.startswith((b"\n", b"\r\n")) or b"\n\n" in body or b"\n\r\n" in body)
+    mark = delimiter.encode()
+    found = body.count(mark)
+    quotes = body.count(b'"')
+    if quotes % 2:
+        return False
+    if quotes > _FEW_QUOTES:
+        import numpy as np
+
+        raw = np.frombuffer(body, np.uint8)
+        at = np.flatnonzero(raw == ord('"'))
+        inside = np.searchsorted(at, np.flatnonzero(raw == ord(mark))) % 2 == 1
+        found -= int(np.count_nonzero(inside))
+    elif quotes:
+        start = body.find(b'"')
+        while start >= 0:  # an escaped quote ("") closes and reopens: the count holds
+            end = body.find(b'"', start + 1)
+            found -= body.count(mark, start + 1, end)
+            start = body.find(b'"', end + 1)
+    return found == records * (columns - 1)
+
+
+def _pyarrow_piece(data: bytes, delimiter: str, header: list[str]) -> Any:
+    """A piece parsed by pyarrow: blank lines skipped, a ragged row an error."""
     import io
 
+    import polars as pl
     import pyarrow as pa
     import pyarrow.csv as pacsv
 
-    header = text_header(path, delimiter, "file")
-    options = {
-        "parse_options": pacsv.ParseOptions(delimiter=delimiter, newlines_in_values=True),
-        "convert_options": pacsv.ConvertOptions(
+    table = pacsv.read_csv(
+        io.BytesIO(data),
+        parse_options=pacsv.ParseOptions(delimiter=delimiter, newlines_in_values=True),
+        convert_options=pacsv.ConvertOptions(
             column_types={h: pa.string() for h in header},
             strings_can_be_null=False,
             quoted_strings_can_be_null=False,
         ),
-    }
-    rows = 0
-    for head, body in byte_chunks(path):
-        # each piece parsed whole (both cores), so memory is bounded by the piece; a row with
-        # too few or too many cells is an error, as from a streaming reader
-        table = pacsv.read_csv(io.BytesIO(head + body), **options)
-        rows += table.num_rows
-        yield from table.to_batches(max_chunksize=batch_rows)
-    if not rows:
-        raise InputError(f"`file`: {path} has no data rows")
+    )
+    return pl.from_arrow(table)
 
 
 # --------------------------------------------------------------------------- byte chunks

@@ -101,11 +101,11 @@ def screen_cmd(
       sensitivity screen demo/published_results.csv --from-text result \\
           --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
     """
-    from sensitivity.adapters.files import read_batches
+    from sensitivity.adapters.files import read_frames
     from sensitivity.common.errors import InputError
     from sensitivity.output.tables import TABLE_FORMATS, TableWriter
     from sensitivity.screen.result import Tally
-    from sensitivity.screen.stream import screen_batches
+    from sensitivity.screen.stream import screen_frames
 
     if plot_marks:
         raise click.UsageError("--plot-mark does not apply to screen")
@@ -122,8 +122,8 @@ def screen_cmd(
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
-    stream = screen_batches(
-        read_batches(file, "file"),
+    stream = screen_frames(
+        read_frames(file, "file"),
         columns=_column_map(column_map),
         from_text=from_text,
         confounders=confounders,

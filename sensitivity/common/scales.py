@@ -126,7 +126,7 @@ def _hr_common_inverse(rr: np.ndarray) -> np.ndarray:
 
 
 # --------------------------------------------------------------------------- conversions
-def _route(scale_codes: object, outcome: object) -> dict[str, np.ndarray]:
+def route_of(scale_codes: object, outcome: object) -> dict[str, np.ndarray]:
     """Masks, per row, of each conversion route."""
     s = as_text(scale_codes)
     o = as_text(outcome)
@@ -141,27 +141,32 @@ def _route(scale_codes: object, outcome: object) -> dict[str, np.ndarray]:
     }
 
 
-def _apply(
-    scale_codes: object,
+def convert_by_route(
+    routes: dict[str, np.ndarray],
     values: object,
-    outcome: object,
-    sd: object,
-    contrast: object,
-    forward: bool,
+    sd: object = None,
+    contrast: object = 1.0,
+    forward: bool = True,
 ) -> np.ndarray:
+    """The conversion with each row's route already decided (masks named as `route_of`'s; a
+    row in none of them gives NaN). A caller that knows the routes skips the text
+    comparisons; the numbers are those of `to_risk_ratio` whichever way the routes came."""
     x = np.asarray(values, float)
     sd_arr = np.asarray(np.nan if sd is None else sd, float)
     c_arr = np.asarray(contrast, float)
-    routes = _route(scale_codes, outcome)
     shape = np.broadcast_shapes(
         x.shape, sd_arr.shape, c_arr.shape, *(m.shape for m in routes.values())
     )
     x, sd_arr, c_arr = (np.broadcast_to(a, shape) for a in (x, sd_arr, c_arr))
     out = np.full(shape, np.nan)
     for route, mask in routes.items():
-        mask = np.broadcast_to(mask, shape)
+        mask = np.asarray(mask)
         if not mask.any():
             continue
+        if mask.ndim == 1 and len(shape) > 1 and mask.shape == shape[-1:]:
+            mask = (Ellipsis, mask)  # a row's route for all its values: pick whole columns
+        else:
+            mask = np.broadcast_to(mask, shape)
         v = x[mask]
         if route == "identity":
             res = v
@@ -197,14 +202,14 @@ def to_risk_ratio(
     >>> to_risk_ratio(["rr", "or", "smd"], [2.0, 4.0, 0.0], outcome=["", "common", ""]).tolist()
     [2.0, 2.0, 1.0]
     """
-    return _apply(scale, values, outcome, sd, contrast, forward=True)
+    return convert_by_route(route_of(scale, outcome), values, sd, contrast, forward=True)
 
 
 def from_risk_ratio(
     scale: object, rr: object, *, outcome: object = None, sd: object = None, contrast: object = 1.0
 ) -> np.ndarray:
     """Inverse of `to_risk_ratio`: a risk-ratio-scale value back on `scale`."""
-    return _apply(scale, rr, outcome, sd, contrast, forward=False)
+    return convert_by_route(route_of(scale, outcome), rr, sd, contrast, forward=False)
 
 
 def conversion_text(scale: str, outcome: str | None = None, contrast: float = 1.0) -> str:

@@ -251,18 +251,20 @@ def compute(
     Returns the risk-ratio-scale estimate, interval and target, and both E-values
     (NaN for the interval when a row has neither `ci` nor `se`).
     """
-    conv = {"outcome": outcome, "sd": sd, "contrast": contrast}
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         # one pass over the routes for all four (each row's map decided once)
         stacked = np.stack(np.broadcast_arrays(estimate, target, lower, upper))
-        rr, rr_target, rr_lower, rr_upper = to_risk_ratio(scale, stacked, **conv)
+        rr, rr_target, rr_lower, rr_upper = to_risk_ratio(
+            scale, stacked, outcome=outcome, sd=sd, contrast=contrast
+        )
         # An interval from `se` (smd, md): exp(0.91 d -/+ 1.78 se_d) (VanderWeele & Ding 2017).
-        per = np.where(_needs(scale, "md"), contrast / sd, 1.0)
-        se_d = se * per
         from_se = given(se) & ~given(lower)
-        d = np.log(rr) / SMD_SLOPE
-        rr_lower = np.where(from_se, np.exp(SMD_SLOPE * d - SMD_INTERVAL * se_d), rr_lower)
-        rr_upper = np.where(from_se, np.exp(SMD_SLOPE * d + SMD_INTERVAL * se_d), rr_upper)
+        if np.any(from_se):
+            per = np.where(_needs(scale, "md"), contrast / sd, 1.0)
+            se_d = se * per
+            d = np.log(rr) / SMD_SLOPE
+            rr_lower = np.where(from_se, np.exp(SMD_SLOPE * d - SMD_INTERVAL * se_d), rr_lower)
+            rr_upper = np.where(from_se, np.exp(SMD_SLOPE * d + SMD_INTERVAL * se_d), rr_upper)
         e = evalue_of_rr(rr / rr_target)
         e_ci = np.where(given(rr_lower), evalue_of_interval(rr_lower, rr_upper, rr_target), np.nan)
     return {

@@ -35,6 +35,8 @@ TEXT = ("scale", "outcome")
 COUNTS = ("cases_treated", "total_treated", "cases_control", "total_control")
 SCALE_ALIASES = {**SCALE_WORDS, "ols": "ols", "regression": "ols"}
 SCREEN_SCALES = ("rr", "or", "hr", "smd", "md", "ols", "rd")
+NOTE_COMMON_OR = "common-outcome OR: RR = sqrt(OR)"
+NOTE_COMMON_HR = "common-outcome HR converted (VanderWeele 2020)"
 
 
 @dataclass(frozen=True)
@@ -241,14 +243,8 @@ def screen_columns(
             "outcome frequency from its prevalence (15% rule)",
             idx,
         )
-        notes.add(
-            (sub["scale"] == "or") & (conv == "common"), "common-outcome OR: RR = sqrt(OR)", idx
-        )
-        notes.add(
-            (sub["scale"] == "hr") & (conv == "common"),
-            "common-outcome HR converted (VanderWeele 2020)",
-            idx,
-        )
+        notes.add((sub["scale"] == "or") & (conv == "common"), NOTE_COMMON_OR, idx)
+        notes.add((sub["scale"] == "hr") & (conv == "common"), NOTE_COMMON_HR, idx)
         notes.add(np.isin(sub["scale"], ["smd", "md"]), "RR = exp(0.91 d)", idx)
         notes.add(given(sub["se"]) & ~given(sub["lower"]), "interval from se", idx)
     # ------------------------------------------------------------- regression rows
@@ -270,21 +266,38 @@ def screen_columns(
         near = np.where(out["rr"] >= 1, out["rr_lower"], 1 / out["rr_upper"])
     near = np.where(rd, out.pop("_near"), near)
     result |= out
-    for number, (a, b) in enumerate(options.confounders, 1):
-        tag = f"confounder_{number}"
-        bf = float(bounding_factor(a, b))
-        has = given(out["evalue"])
-        result[f"{tag}_explains_estimate"] = np.where(
-            has, np.where(bf >= ratio, "true", "false"), ""
-        ).astype(object)
-        has_ci = given(out["evalue_ci"])
-        covered = near <= 1
-        result[f"{tag}_explains_ci"] = np.where(
-            has_ci, np.where(covered | (bf >= near), "true", "false"), ""
-        ).astype(object)
+    words = np.asarray(FLAG_WORDS, dtype=object)
+    states = confounder_states(options, ratio, near, out["evalue"], out["evalue_ci"])
+    result |= {name: words[state] for name, state in states.items()}
     result["error"] = reasons
     result["notes"] = notes.render(good)
+    result["_near"] = near  # not written: the limit the confounder columns were judged on
     return result
+
+
+#: A confounder column's cell by state: no E-value, could not, could explain the result away.
+FLAG_WORDS = ("", "false", "true")
+
+
+def confounder_states(
+    options: Options, ratio: np.ndarray, near: np.ndarray, evalue: np.ndarray,
+    evalue_ci: np.ndarray,
+) -> dict[str, np.ndarray]:  # fmt: skip
+    """Per `--confounder` column, each row's state (an index into FLAG_WORDS): whether a
+    confounder of that strength could explain the estimate (its risk ratio, oriented to be at
+    least 1) or the interval (its limit `near` the null, covering it when at most 1) away."""
+    states = {}
+    has, has_ci = given(evalue), given(evalue_ci)
+    covered = near <= 1
+    for number, (a, b) in enumerate(options.confounders, 1):
+        bf = float(bounding_factor(a, b))
+        states[f"confounder_{number}_explains_estimate"] = np.where(
+            has, np.where(bf >= ratio, 2, 1), 0
+        ).astype(np.int8)
+        states[f"confounder_{number}_explains_ci"] = np.where(
+            has_ci, np.where(covered | (bf >= near), 2, 1), 0
+        ).astype(np.int8)
+    return states
 
 
 def _regression(num, rows, reasons, out, notes, options):

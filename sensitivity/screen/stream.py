@@ -13,16 +13,25 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
-from .core import NUMERIC, TEXT, Codes, Numbers, Options, computed_names, screen_columns
+from .core import (
+    FLAG_WORDS,
+    NUMERIC,
+    TEXT,
+    Codes,
+    Numbers,
+    Options,
+    computed_names,
+    screen_columns,
+)  # fmt: skip
 from .result import ScreenSummary, Tally
 
 _NUMBER = r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$|^[-+]?(inf|infinity|nan)$"
 
 
 def _series(column: Any) -> Any:
-    """An Arrow column as a polars String series (zero-copy where it can be). The text work
-    is done in polars: pyarrow's compute functions build their scalars through pandas, whose
-    import alone cost half a second of a million-row screen."""
+    """A column (polars or Arrow) as a polars String series (zero-copy where it can be). The
+    text work is done in polars: pyarrow's compute functions build their scalars through
+    pandas, whose import alone cost half a second of a million-row screen."""
     import polars as pl
 
     series = pl.Series(values=column) if not isinstance(column, pl.Series) else column
@@ -33,13 +42,11 @@ def text_or_numbers(column: Any) -> Any:
     """A numeric column for the screen's core, converted in Rust: floats, with the cells that
     are not numbers (and their text) kept aside for the reasons."""
     import polars as pl
-    import pyarrow as pa
 
-    if isinstance(column, pa.Array | pa.ChunkedArray) and (
-        pa.types.is_floating(column.type) or pa.types.is_integer(column.type)
-    ):
-        return column.to_numpy(zero_copy_only=False).astype(float)
-    trimmed = _series(column).fill_null("").str.strip_chars()
+    series = pl.Series(values=column) if not isinstance(column, pl.Series) else column
+    if series.dtype.is_numeric():
+        return series.cast(pl.Float64).to_numpy()
+    trimmed = _series(series).fill_null("").str.strip_chars()
     # polars reads exactly the numbers _NUMBER describes (ASCII digits, inf, infinity, nan in
     # any case; checked in tests/test_screen.py), so a failed cast is a cell that is not one
     values = trimmed.cast(pl.Float64, strict=False)
@@ -60,15 +67,6 @@ def clean_text(column: Any) -> Codes:
     distinct = text.unique(maintain_order=True).to_list()
     coded = text.cast(pl.Enum(distinct)).to_physical().to_numpy().astype(np.int64)
     return Codes(np.asarray(distinct or [""], dtype=str)[coded])
-
-
-def _arrow(values: np.ndarray) -> Any:
-    """A computed column for the output batch: text as strings, NaN as a missing value."""
-    import polars as pl
-
-    if values.dtype.kind in "OU":
-        return pl.Series(values=values, dtype=pl.String).to_arrow()
-    return pl.Series(values=values, nan_to_null=True).to_arrow()
 
 
 def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text: str | None
@@ -102,6 +100,114 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
     return mapping
 
 
+def screen_frames(
+    frames: Iterable[Any],
+    *,
+    columns: Mapping[str, str] | None = None,
+    from_text: str | None = None,
+    confounders: Sequence[tuple[float, float]] = (),
+    alpha: float = 0.05,
+    tally: Tally | None = None,
+) -> Iterator[Any]:
+    """Screen a stream of polars DataFrames; yield each with the computed columns added.
+
+    The one loop behind the command line, `screen_batches` and `screen_table`. Plain ratio
+    rows are computed in columns (`plain`); every other row by `screen_columns`, and its
+    values put back in its place, so each row comes out where it went in.
+    """
+    options = Options(
+        confounders=tuple((float(a), float(b)) for a, b in confounders),
+        alpha=alpha,
+        from_text=None if from_text is None else "_text",
+    )
+    names = computed_names(options)
+    mapping: dict[str, str] | None = None
+    for frame in frames:
+        if mapping is None:
+            header = list(frame.columns)
+            mapping = _mapping(columns, header, from_text)
+            clash = [n for n in names if n in header]
+            if clash:
+                raise InputError(
+                    f"the table already has columns named {', '.join(clash)}, which the "
+                    "screen adds; rename them first"
+                )
+        yield _screen_frame(frame, mapping, options, from_text, names, tally)
+
+
+def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_text: str | None,
+                  names: list[str], tally: Tally | None) -> Any:  # fmt: skip
+    """One frame with the computed columns appended (see `screen_frames`)."""
+    from .core import SCREEN_SCALES, confounder_states
+    from .plain import ROUTE_NOTES, compute_plain, routes
+
+    n = frame.height
+    if from_text is None:
+        route, scale, values = routes(frame, mapping)
+    else:  # free text is read by the core
+        route, scale, values = (
+            np.full(n, -1, np.int8),
+            np.full(n, -1, np.int8),
+            np.full((3, n), np.nan),
+        )
+    out = compute_plain(route, values)
+    out |= {k: np.full(n, np.nan) for k in ("partial_r2", "robustness_value",
+                                            "robustness_value_alpha")}  # fmt: skip
+    text = {
+        "scale_used": _words(("", *SCREEN_SCALES), scale + 1),
+        "error": _words(("",), np.zeros(n, np.int8)),
+        "notes": _words(ROUTE_NOTES, np.maximum(route, 0)),
+    }
+    reasons: list[str] = []
+    rest = np.flatnonzero(route < 0)
+    if rest.size:
+        core = _core_rows(frame, rest, mapping, options, from_text)
+        for key in out:
+            out[key][rest] = core[key]
+        for key in text:
+            text[key] = text[key].scatter(rest, core[key].astype(str))
+        flagged = core["error"] != ""
+        number = {c: i for i, c in enumerate(SCREEN_SCALES)}
+        scale[rest] = [-1 if bad else number[c] for c, bad in
+                       zip(core["scale_used"].tolist(), flagged.tolist(), strict=True)]  # fmt: skip
+        reasons = core["error"][flagged].tolist()
+    with np.errstate(divide="ignore", invalid="ignore"):
+        rr = out["rr"]
+        ratio = np.where(rr >= 1, rr, 1 / rr)
+        near = np.where(rr >= 1, out["rr_lower"], 1 / out["rr_upper"])
+    if rest.size:
+        near[rest] = core["_near"]
+    states = confounder_states(options, ratio, near, out["evalue"], out["evalue_ci"])
+    if tally is not None:
+        tally.add(scale, reasons, out, states)
+    import polars as pl
+
+    added = text | {k: pl.Series(values=v, nan_to_null=True) for k, v in out.items()}
+    added |= {k: _words(FLAG_WORDS, v) for k, v in states.items()}
+    return frame.with_columns(added[k].alias(k) for k in names)
+
+
+def _words(words: Sequence[str], codes: np.ndarray) -> Any:
+    """A polars String column of `words[code]` per row."""
+    import polars as pl
+
+    return pl.Series(words, dtype=pl.String).gather(pl.Series(codes, dtype=pl.Int32))
+
+
+def _core_rows(frame: Any, rows: np.ndarray, mapping: dict[str, str], options: Options,
+               from_text: str | None) -> dict[str, np.ndarray]:  # fmt: skip
+    """`screen_columns` over the given rows of `frame`."""
+    import polars as pl
+
+    part = frame[pl.Series(rows)]
+    core: dict[str, Any] = {}
+    for std, user in mapping.items():
+        core[std] = text_or_numbers(part[user]) if std in NUMERIC else clean_text(part[user])
+    if from_text is not None:
+        core["_text"] = np.asarray(_series(part[from_text]).to_list(), dtype=object)
+    return screen_columns(core, part.height, options)
+
+
 def screen_batches(
     batches: Iterable[Any],
     *,
@@ -127,48 +233,17 @@ def screen_batches(
     >>> round(out.column("evalue")[0].as_py(), 2), out.column("error")[1].as_py()
     (2.1, "`estimate` is not a number: 'oops'")
     """
+    import polars as pl
     import pyarrow as pa
 
-    options = Options(
-        confounders=tuple((float(a), float(b)) for a, b in confounders),
-        alpha=alpha,
-        from_text=None if from_text is None else "_text",
-    )
-    names = computed_names(options)
-    mapping: dict[str, str] | None = None
-    for batch in batches:
-        if isinstance(batch, pa.Table):
-            parts = batch.to_batches()
-        else:
-            parts = [batch]
-        for part in parts:
-            if mapping is None:
-                header = part.schema.names
-                mapping = _mapping(columns, header, from_text)
-                clash = [n for n in names if n in header]
-                if clash:
-                    raise InputError(
-                        f"the table already has columns named {', '.join(clash)}, which the "
-                        "screen adds; rename them first"
-                    )
-            core: dict[str, Any] = {}
-            for std, user in mapping.items():
-                col = part.column(user)
-                if std in NUMERIC:
-                    core[std] = text_or_numbers(col)
-                else:
-                    core[std] = clean_text(col)
-            if from_text is not None:
-                core["_text"] = np.asarray(part.column(from_text).to_pylist(), dtype=object)
-            computed = screen_columns(core, part.num_rows, options)
-            if tally is not None:
-                tally.add(computed)
-            arrays = list(part.columns)
-            fields = list(part.schema.names)
-            for name in names:
-                arrays.append(_arrow(computed[name]))
-                fields.append(name)
-            yield pa.RecordBatch.from_arrays(arrays, names=fields)
+    def frames() -> Iterator[Any]:
+        for batch in batches:
+            table = batch if isinstance(batch, pa.Table) else pa.Table.from_batches([batch])
+            yield pl.from_arrow(table, rechunk=False)
+
+    for out in screen_frames(frames(), columns=columns, from_text=from_text,
+                             confounders=confounders, alpha=alpha, tally=tally):  # fmt: skip
+        yield from out.to_arrow().to_batches()
 
 
 def screen_table(table: Any, **options: Any) -> Any:
