@@ -453,7 +453,7 @@ def test_pieces_of_the_file_keep_every_row_in_order(run, tmp_path, monkeypatch):
     src = tmp_path / "in.csv"
     _write(src, rows)
     whole = run("screen", src, "--output", tmp_path / "whole.csv")
-    monkeypatch.setattr(files, "CHUNK_BYTES", 300)
+    monkeypatch.setattr(files, "FRAME_BYTES", 300)
     pieces = run("screen", src, "--output", tmp_path / "pieces.csv")
     assert whole.exit_code == pieces.exit_code == 0
     assert (tmp_path / "whole.csv").read_bytes() == (tmp_path / "pieces.csv").read_bytes()
@@ -656,8 +656,8 @@ def test_pieces_read_as_the_csv_module_reads_the_file(rows, sep, size, few, crlf
     expected = [r for r in csv.reader(io.StringIO(buffer.getvalue(), newline=""),
                                       delimiter=sep)][1:]  # fmt: skip
     expected = [r for r in expected if r]
-    original = files.CHUNK_BYTES, files._FEW_QUOTES, files._pyarrow_piece
-    files.CHUNK_BYTES, files._FEW_QUOTES = size, few
+    original = files.FRAME_BYTES, files._FEW_QUOTES, files._pyarrow_piece
+    files.FRAME_BYTES, files._FEW_QUOTES = size, few
 
     def refuse(*args):  # a well-formed piece must add up, so polars' reading stands
         raise AssertionError("a well-formed piece was sent to the fallback parser")
@@ -670,7 +670,7 @@ def test_pieces_read_as_the_csv_module_reads_the_file(rows, sep, size, few, crlf
             return
         got = pl.concat(list(files.read_frames(path)))
     finally:
-        files.CHUNK_BYTES, files._FEW_QUOTES, files._pyarrow_piece = original
+        files.FRAME_BYTES, files._FEW_QUOTES, files._pyarrow_piece = original
     # the csv module keeps \r\n inside a quoted cell as written; so do the parsers
     assert got.rows() == [tuple(r) for r in expected]
 

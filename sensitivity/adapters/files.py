@@ -126,7 +126,7 @@ def _text_frames(path: Path, delimiter: str, argument: str) -> Any:
 
     header = text_header(path, delimiter, argument)
     rows = 0
-    for head, body in byte_chunks(path):
+    for head, body in byte_chunks(path, FRAME_BYTES):
         try:
             frame = pl.read_csv(head + body, separator=delimiter, infer_schema=False,
                                 empty_string_is_null=False)  # fmt: skip
@@ -140,6 +140,10 @@ def _text_frames(path: Path, delimiter: str, argument: str) -> Any:
         raise InputError(f"`{argument}`: {path} has no data rows")
 
 
+#: The size of the pieces `read_frames` parses: smaller than the data route's, as each piece
+#: is a table that is computed on and written while the next is read (4 MiB measured as fast
+#: as 8 on a million rows, in three quarters of the memory).
+FRAME_BYTES = 1 << 22
 #: Above this many quote characters in a piece, cells inside quotes are found with numpy.
 _FEW_QUOTES = 4096
 

@@ -103,6 +103,7 @@ def screen_cmd(
     """
     from sensitivity.adapters.files import read_frames
     from sensitivity.common.errors import InputError
+    from sensitivity.common.overlap import read_ahead
     from sensitivity.output.tables import TABLE_FORMATS, TableWriter
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
@@ -123,7 +124,7 @@ def screen_cmd(
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
     stream = screen_frames(
-        read_frames(file, "file"),
+        read_ahead(read_frames(file, "file")),
         columns=_column_map(column_map),
         from_text=from_text,
         confounders=confounders,

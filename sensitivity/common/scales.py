@@ -17,6 +17,7 @@ risk ratios. Biometrics 76:746-752.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -159,14 +160,13 @@ def convert_by_route(
     )
     x, sd_arr, c_arr = (np.broadcast_to(a, shape) for a in (x, sd_arr, c_arr))
     out = np.full(shape, np.nan)
-    for route, mask in routes.items():
-        mask = np.asarray(mask)
-        if not mask.any():
+    for route, rows in routes.items():
+        rows = np.asarray(rows)
+        if not rows.any():
             continue
-        if mask.ndim == 1 and len(shape) > 1 and mask.shape == shape[-1:]:
-            mask = (Ellipsis, mask)  # a row's route for all its values: pick whole columns
-        else:
-            mask = np.broadcast_to(mask, shape)
+        mask: Any = np.broadcast_to(rows, shape)
+        if rows.ndim == 1 and len(shape) > 1 and rows.shape == shape[-1:]:
+            mask = (Ellipsis, rows)  # a row's route for all its values: pick whole columns
         v = x[mask]
         if route == "identity":
             res = v

@@ -1,0 +1,104 @@
+"""Reading ahead and writing behind in a second thread, so a long stream keeps both cores
+busy: polars parses and writes with the GIL released while numpy works on the piece between.
+
+Each holds at most `depth` items in hand, so memory stays bounded by the pieces; an error in
+the second thread is raised in the caller's, where it would have been raised without it.
+"""
+
+from __future__ import annotations
+
+import queue
+import threading
+from collections.abc import Callable, Iterable, Iterator
+from typing import Any, TypeVar
+
+T = TypeVar("T")
+_END = object()
+_WAIT = 0.05  # seconds between looks at the stop flag while a queue is full
+
+
+def _put(q: queue.Queue, item: Any, stop: threading.Event) -> bool:
+    """Put `item`, unless asked to stop first; True when it was put."""
+    while not stop.is_set():
+        try:
+            q.put(item, timeout=_WAIT)
+            return True
+        except queue.Full:
+            continue
+    return False
+
+
+def read_ahead(items: Iterable[T], depth: int = 1) -> Iterator[T]:
+    """The items of `items`, produced in a second thread up to `depth` ahead of the caller.
+
+    Examples
+    --------
+    >>> list(read_ahead(iter(range(5))))
+    [0, 1, 2, 3, 4]
+    """
+    q: queue.Queue = queue.Queue(maxsize=depth)
+    stop = threading.Event()
+
+    def produce() -> None:
+        try:
+            for item in items:
+                if not _put(q, (True, item), stop):
+                    return
+            _put(q, (True, _END), stop)
+        except BaseException as err:  # noqa: BLE001 - handed to the caller's thread
+            _put(q, (False, err), stop)
+
+    worker = threading.Thread(target=produce, name="read-ahead", daemon=True)
+    worker.start()
+    try:
+        while True:
+            ok, item = q.get()
+            if not ok:
+                raise item
+            if item is _END:
+                return
+            yield item
+    finally:
+        stop.set()
+
+
+class WriteBehind:
+    """Calls `write(item)` for each item given to `put`, in a second thread, at most `depth`
+    items behind; `close` waits for the last one. An error in `write` is raised by the next
+    `put` or by `close`."""
+
+    def __init__(self, write: Callable[[Any], None], depth: int = 1) -> None:
+        self._write = write
+        self._queue: queue.Queue = queue.Queue(maxsize=depth)
+        self._stop = threading.Event()
+        self._error: BaseException | None = None
+        self._worker = threading.Thread(target=self._consume, name="write-behind", daemon=True)
+        self._worker.start()
+
+    def _consume(self) -> None:
+        while True:
+            item = self._queue.get()
+            if item is _END:
+                return
+            try:
+                self._write(item)
+            except BaseException as err:  # noqa: BLE001 - handed to the caller's thread
+                self._error = err
+                self._stop.set()
+                return
+
+    def _raise(self) -> None:
+        if self._error is not None:
+            error, self._error = self._error, None
+            raise error
+
+    def put(self, item: Any) -> None:
+        self._raise()
+        _put(self._queue, item, self._stop)
+        self._raise()
+
+    def close(self) -> None:
+        if self._worker.is_alive():
+            _put(self._queue, _END, self._stop)
+            self._worker.join()
+        self._raise()
