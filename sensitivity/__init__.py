@@ -7,8 +7,9 @@ Public API (imported lazily, so `import sensitivity` costs almost nothing):
 - `partial_r2_summary`, `partial_r2_from_model`, `partial_r2_from_data`: omitted-variable
   bias in the partial R² parameterisation for an OLS coefficient.
 - `binary_confounder_grid`, `bounding_grid`, `partial_r2_grid`: tipping-point grids.
-- `screen_table`, `screen_batches`, `screen_summary`: many published results at once (a
-  pandas, polars or Arrow table, or a stream of Arrow record batches).
+- `screen_table`, `screen_batches`, `screen_frames`, `screen_summary`: many published
+  results at once (a pandas, polars or Arrow table, or a stream of Arrow record batches or
+  of polars DataFrames).
 - `from_model`: a fitted model into the right result; `report`: results or fitted models into
   the manuscript folder (report.md, report.html, tables.tex, report.json, figures).
 - `InputError` (bad input, a ValueError) and `SensitivityWarning`.
@@ -46,6 +47,7 @@ _EXPORTS = {
     "report": "adapters.reporting",
     "screen_table": "screen.stream",
     "screen_batches": "screen.stream",
+    "screen_frames": "screen.stream",
     "screen_summary": "screen.stream",
     "InputError": "common.errors",
     "SensitivityWarning": "common.errors",

@@ -58,10 +58,10 @@ class Tally:
             with np.errstate(invalid="ignore", divide="ignore"):
                 idx = np.minimum(np.log(v) / _TOP * _EDGES, _EDGES)
             finite = np.isfinite(idx) & (slot > 0)
-            spot = np.where(
-                finite, slot * (_EDGES + 1) + np.where(finite, idx, 0).astype(np.int64), 0
-            )
-            bins[key] = np.bincount(spot)  # as long as the largest bin used, no longer
+            # bin-major, so the counts are only as long as the largest E-value needs
+            spot = np.where(finite, np.where(finite, idx, 0).astype(np.int64) * width + slot, 0)
+            counts = np.bincount(spot)
+            bins[key] = np.pad(counts, (0, -counts.size % width)).reshape(-1, width)
             bins[f"{key}_n"] = per_scale(finite)
         if self.threshold is not None:
             ci = values["evalue_ci"]
@@ -79,7 +79,9 @@ class Tally:
             entry = self.scales.setdefault(code, _entry(self.n_confounders))
             entry["rows"] += int(rows[number])
             for key in ("evalue", "evalue_ci"):
-                used = bins[key][number * (_EDGES + 1) : (number + 1) * (_EDGES + 1)]
+                used = bins[key][:, number]
+                if used.size > entry[key].size:
+                    entry[key] = np.pad(entry[key], (0, used.size - entry[key].size))
                 entry[key][: used.size] += used
                 entry[f"{key}_n"] += int(bins[f"{key}_n"][number])
             if self.threshold is not None:
@@ -103,7 +105,9 @@ class Tally:
                 "explains_ci": list(e["explains_ci"]),
                 "regression_rows": e["regression"],
             }
-            hist[code] = (e["evalue"], e["evalue_ci"])
+            hist[code] = tuple(
+                np.pad(e[k], (0, _EDGES + 1 - e[k].size)) for k in ("evalue", "evalue_ci")
+            )
         return ScreenSummary(
             source=source,
             rows=self.rows,
@@ -118,8 +122,8 @@ class Tally:
 def _entry(k: int) -> dict:
     return {
         "rows": 0,
-        "evalue": np.zeros(_EDGES + 1, np.int64),
-        "evalue_ci": np.zeros(_EDGES + 1, np.int64),
+        "evalue": np.zeros(0, np.int64),  # grown to the largest bin used
+        "evalue_ci": np.zeros(0, np.int64),
         "evalue_n": 0,
         "evalue_ci_n": 0,
         "below": 0,

@@ -111,9 +111,20 @@ def screen_frames(
 ) -> Iterator[Any]:
     """Screen a stream of polars DataFrames; yield each with the computed columns added.
 
-    The one loop behind the command line, `screen_batches` and `screen_table`. Plain ratio
-    rows are computed in columns (`plain`); every other row by `screen_columns`, and its
-    values put back in its place, so each row comes out where it went in.
+    The one loop behind the command line, `screen_batches` and `screen_table`: hand it the
+    frames of a polars pipeline. Plain ratio rows are computed in columns (`plain`); every
+    other row by `screen_columns`, and its values put back in its place, so each row comes
+    out where it went in. Pass a `Tally` to collect the summary as the frames go by.
+
+    Examples
+    --------
+    >>> import polars as pl
+    >>> frame = pl.DataFrame({"scale": ["or", "rr"], "estimate": ["2.1", ""],
+    ...                       "lower": ["1.4", ""], "upper": ["3.15", ""],
+    ...                       "outcome": ["common", ""]})
+    >>> out = next(screen_frames([frame]))
+    >>> out["evalue"].round(2).to_list(), out["error"].to_list()
+    ([2.26, None], ['', '`estimate` is missing'])
     """
     options = Options(
         confounders=tuple((float(a), float(b)) for a, b in confounders),
@@ -246,42 +257,48 @@ def screen_batches(
         yield from out.to_arrow().to_batches()
 
 
-def screen_table(table: Any, **options: Any) -> Any:
-    """Screen a whole table in memory (pandas, polars or pyarrow); the result is the same kind.
+#: Rows of an in-memory table screened at a time (bounds the working arrays).
+TABLE_ROWS = 250_000
 
-    Options are those of `screen_batches`. The summary is not returned; use
-    `screen_summary` for it.
-    """
-    import pyarrow as pa
+
+def _as_polars(table: Any) -> tuple[Any, str]:
+    """A pandas, polars or Arrow table as a polars DataFrame, and which kind it was."""
+    import polars as pl
 
     kind = type(table).__module__.split(".")[0]
     if kind == "pandas":
-        arrow = pa.Table.from_pandas(table, preserve_index=False)
-    elif kind == "polars":
-        arrow = table.to_arrow()
-    elif isinstance(table, (pa.Table, pa.RecordBatch)):
-        arrow = table if isinstance(table, pa.Table) else pa.Table.from_batches([table])
-    else:
-        raise InputError(
-            f"`table` must be a pandas, polars or pyarrow table; got {type(table).__name__}"
-        )
-    out = pa.Table.from_batches(list(screen_batches(arrow.to_batches(), **options)))
+        return pl.from_pandas(table), kind
+    if kind == "polars" and isinstance(table, pl.DataFrame):
+        return table, kind
+    if kind == "pyarrow" and hasattr(table, "schema") and hasattr(table, "num_rows"):
+        return pl.from_arrow(table), kind
+    raise InputError(
+        f"`table` must be a pandas, polars or pyarrow table; got {type(table).__name__}"
+    )
+
+
+def screen_table(table: Any, **options: Any) -> Any:
+    """Screen a whole table in memory (pandas, polars or pyarrow); the result is the same kind.
+
+    Options are those of `screen_frames`. The summary is not returned; use `screen_summary`
+    for it.
+    """
+    frame, kind = _as_polars(table)
+    import polars as pl
+
+    out = pl.concat(list(screen_frames(frame.iter_slices(TABLE_ROWS), **options)))
     if kind == "pandas":
         return out.to_pandas()
-    if kind == "polars":
-        import polars as pl
-
-        return pl.from_arrow(out)
+    if kind == "pyarrow":
+        return out.to_arrow()
     return out
 
 
 def screen_summary(table: Any, source: str = "the table", threshold: float | None = None,
                    **options: Any) -> ScreenSummary:  # fmt: skip
     """The summary of a screen of `table` (rows, flags by reason, E-values by scale)."""
-    import pyarrow as pa
-
+    frame, _ = _as_polars(table)
     tally = Tally(threshold=threshold, n_confounders=len(options.get("confounders", ())))
-    arrow = table if isinstance(table, pa.Table) else pa.Table.from_pandas(table)
-    for _ in screen_batches(arrow.to_batches(), tally=tally, **options):
+    for _ in screen_frames(frame.iter_slices(TABLE_ROWS), tally=tally, **options):
         pass
     return tally.result(tuple(options.get("confounders", ())), source)
