@@ -105,9 +105,8 @@ class Tally:
                 "explains_ci": list(e["explains_ci"]),
                 "regression_rows": e["regression"],
             }
-            hist[code] = tuple(
-                np.pad(e[k], (0, _EDGES + 1 - e[k].size)) for k in ("evalue", "evalue_ci")
-            )
+            est, ci = (np.pad(e[k], (0, _EDGES + 1 - e[k].size)) for k in ("evalue", "evalue_ci"))
+            hist[code] = (est, ci)
         return ScreenSummary(
             source=source,
             rows=self.rows,
