@@ -11,7 +11,8 @@ import polars as pl
 
 
 def main(src: str, dst: str) -> None:
-    number = pl.col("estimate").cast(pl.Float64, strict=False)
+    # full-length numbers, as the screen writes (a square root has all 17 digits)
+    number = pl.col("estimate").cast(pl.Float64, strict=False).sqrt()
     floats = ["rr", "rr_lower", "rr_upper", "evalue", "evalue_ci"]
     empty = ["partial_r2", "robustness_value", "robustness_value_alpha"]
     (

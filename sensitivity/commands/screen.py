@@ -105,6 +105,7 @@ def screen_cmd(
     from sensitivity.common.errors import InputError
     from sensitivity.common.overlap import read_ahead
     from sensitivity.output.tables import TABLE_FORMATS, TableWriter
+    from sensitivity.screen.core import Options, computed_names
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
 
@@ -134,9 +135,11 @@ def screen_cmd(
     progress = sys.stderr.isatty()
     writer: Any = None
     if output is not None:
-        writer = TableWriter(output)
+        # the screen's own text columns (codes, reasons, notes, true/false) never start with
+        # a formula character (tests/test_screen.py), so only the input's are defused
+        writer = TableWriter(output, trusted=computed_names(Options(confounders=confounders)))
     elif fmt in ("csv", "json"):
-        writer = _StdoutWriter(fmt)
+        writer = _StdoutWriter(fmt, computed_names(Options(confounders=confounders)))
     for batch in stream:
         if writer is not None:
             writer.write(batch)
@@ -166,7 +169,7 @@ def screen_cmd(
 class _StdoutWriter:
     """The screened table on stdout, as CSV or JSON, batch by batch."""
 
-    def __init__(self, kind: str) -> None:
+    def __init__(self, kind: str, trusted: Any = ()) -> None:
         import tempfile
 
         from sensitivity.output.tables import TableWriter
@@ -174,7 +177,7 @@ class _StdoutWriter:
         self.kind = kind
         self._tmp = tempfile.NamedTemporaryFile(suffix=f".{kind}", delete=False)
         self._tmp.close()
-        self._writer = TableWriter(self._tmp.name)
+        self._writer = TableWriter(self._tmp.name, trusted=trusted)
 
     def write(self, batch: Any) -> None:
         self._writer.write(batch)

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import io
 import math
-from collections.abc import Iterable, Iterator, Mapping, Sequence
+from collections.abc import Collection, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -386,11 +386,12 @@ def defuse(values: Any) -> Any:
     return pc.if_else(fix, pc.binary_join_element_wise(quote, values, empty), values)
 
 
-def defuse_frame(frame: Any) -> Any:
-    """`defuse` for every text column of a polars frame (in Rust, without pandas)."""
+def defuse_frame(frame: Any, trusted: Collection[str] = ()) -> Any:
+    """`defuse` for every text column of a polars frame (in Rust, without pandas), except
+    the `trusted` ones (columns the caller wrote itself, none starting with a formula)."""
     import polars as pl
 
-    text = [n for n, t in frame.schema.items() if t == pl.String]
+    text = [n for n, t in frame.schema.items() if t == pl.String and n not in trusted]
     if not text:
         return frame
     starts = "".join(FORMULA_STARTS).replace("\\", "\\\\").replace("-", "\\-")
@@ -417,7 +418,9 @@ class TableWriter:
     spreadsheet formula injection.
     """
 
-    def __init__(self, path: Any, argument: str = "output") -> None:
+    def __init__(self, path: Any, argument: str = "output", trusted: Collection[str] = ()
+                 ) -> None:  # fmt: skip
+        """`trusted`: text columns the caller computed, left as they are (see defuse_frame)."""
         from pathlib import Path
 
         self.path = Path(path)
@@ -433,6 +436,7 @@ class TableWriter:
         self._frames: list = []
         self._rows = 0
         self._behind: Any = None
+        self._trusted = frozenset(trusted)
 
     def write(self, table: Any) -> None:
         """Append rows: a polars DataFrame, or a pyarrow Table or RecordBatch."""
@@ -487,7 +491,7 @@ class TableWriter:
 
     def _write_text(self, piece: tuple[Any, bool]) -> None:
         frame, header = piece
-        defuse_frame(frame).write_csv(
+        defuse_frame(frame, self._trusted).write_csv(
             self._sink, include_header=header, separator="," if self.kind == "csv" else "\t"
         )
 
