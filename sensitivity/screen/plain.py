@@ -55,13 +55,12 @@ def routes(frame: Any, mapping: dict[str, str]) -> tuple[np.ndarray, np.ndarray,
     import polars as pl
 
     n = frame.height
-    none = no_routes(n)
     text = [mapping[k] for k in ("scale", "outcome") if k in mapping]
     numbers = [mapping[k] for k in ("estimate", "lower", "upper") if k in mapping]
     if "scale" not in mapping or "estimate" not in mapping or not _readable(frame, numbers):
-        return none
+        return no_routes(n)
     if any(frame.schema[name] != pl.String for name in text):
-        return none
+        return no_routes(n)
     f64 = pl.Float64
     value = {k: pl.col(mapping[k]).cast(f64, strict=False) if k in mapping else pl.lit(None, f64)
              for k in ("estimate", "lower", "upper")}  # fmt: skip

@@ -162,11 +162,15 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
             np.full((3, n), np.nan),
         )
     out = compute_plain(route, values)
-    out |= {k: np.full(n, np.nan) for k in ("partial_r2", "robustness_value",
-                                            "robustness_value_alpha")}  # fmt: skip
+    out |= {k: np.full(n, np.nan) for k in _CORE_ONLY}
+    import polars as pl
+
     text = {
-        "scale_used": _words(("", *SCREEN_SCALES), scale + 1),
-        "error": _words(("",), np.zeros(n, np.int8)),
+        # a plain row's scale cell is its code as written; every other row is overwritten below
+        "scale_used": frame[mapping["scale"]]
+        if (route >= 0).any()
+        else pl.repeat("", n, eager=True),
+        "error": pl.repeat("", n, eager=True),
         "notes": _words(ROUTE_NOTES, np.maximum(route, 0)),
     }
     reasons: list[str] = []
@@ -182,20 +186,28 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
         scale[rest] = [-1 if bad else number[c] for c, bad in
                        zip(core["scale_used"].tolist(), flagged.tolist(), strict=True)]  # fmt: skip
         reasons = core["error"][flagged].tolist()
-    with np.errstate(divide="ignore", invalid="ignore"):
-        rr = out["rr"]
-        ratio = np.where(rr >= 1, rr, 1 / rr)
-        near = np.where(rr >= 1, out["rr_lower"], 1 / out["rr_upper"])
-    if rest.size:
-        near[rest] = core["_near"]
-    states = confounder_states(options, ratio, near, out["evalue"], out["evalue_ci"])
+    states: dict[str, np.ndarray] = {}
+    if options.confounders:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            rr = out["rr"]
+            ratio = np.where(rr >= 1, rr, 1 / rr)
+            near = np.where(rr >= 1, out["rr_lower"], 1 / out["rr_upper"])
+        if rest.size:
+            near[rest] = core["_near"]
+        states = confounder_states(options, ratio, near, out["evalue"], out["evalue_ci"])
     if tally is not None:
         tally.add(scale, reasons, out, states)
-    import polars as pl
 
-    added = text | {k: pl.Series(values=v, nan_to_null=True) for k, v in out.items()}
+    added = text | {k: pl.Series(values=v, nan_to_null=True) for k, v in out.items()
+                    if rest.size or k not in _CORE_ONLY}  # fmt: skip
+    added |= {k: pl.repeat(None, n, dtype=pl.Float64, eager=True) for k in _CORE_ONLY
+              if k not in added}  # fmt: skip
     added |= {k: _words(FLAG_WORDS, v) for k, v in states.items()}
     return frame.with_columns(added[k].alias(k) for k in names)
+
+
+#: Columns only the core fills (regression rows): all missing in a frame of plain rows.
+_CORE_ONLY = ("partial_r2", "robustness_value", "robustness_value_alpha")
 
 
 def _words(words: Sequence[str], codes: np.ndarray) -> Any:
