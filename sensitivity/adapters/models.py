@@ -107,6 +107,12 @@ def overlap(treatment: np.ndarray, covariates: np.ndarray) -> dict[str, Any] | N
     }
 
 
+def _warn(message: str, notes: list[str]) -> None:
+    """A SensitivityWarning to the caller of `evalue_from_model`, kept as a note as well."""
+    warnings.warn(message, SensitivityWarning, stacklevel=3)
+    notes.append(message[0].upper() + message[1:] + ".")
+
+
 def evalue_from_model(
     results: Any,
     treatment: str,
@@ -177,13 +183,12 @@ def evalue_from_model(
         lo, up = (float(v) for v in np.exp(np.sort(ci * contrast)))
         interval = (lo, up)
     else:
-        message = (
+        _warn(
             f"the fit gives no finite standard error for {treatment!r} (the model's Hessian "
             "could not be inverted: a parameter at its boundary, such as a negative binomial "
-            "dispersion near 0, or separation), so only the estimate's E-value is reported"
+            "dispersion near 0, or separation), so only the estimate's E-value is reported",
+            notes,
         )
-        warnings.warn(message, SensitivityWarning, stacklevel=2)
-        notes.append(message[0].upper() + message[1:] + ".")
     res = evalue(scale, est, interval, outcome=freq, prevalence=prevalence, ci_level=1 - alpha)
     what = {"or": "odds ratio", "rr": "risk or rate ratio", "hr": "hazard ratio"}[scale]
     per = f" per {contrast:g} units" if contrast != 1 else ""
@@ -197,13 +202,12 @@ def evalue_from_model(
     others = [i for i in range(exog.shape[1]) if i != j]
     ov = overlap(exog[:, j], exog[:, others]) if others else None
     if ov is not None and ov["poor"]:
-        message = (
+        _warn(
             f"poor overlap: {ov['share_outside']:.1%} of units lie outside the common support "
             "of the fitted treatment probabilities; the sensitivity analysis assumes the "
-            "adjusted estimate itself is sound"
+            "adjusted estimate itself is sound",
+            notes,
         )
-        warnings.warn(message, SensitivityWarning, stacklevel=2)
-        notes.append(message[0].upper() + message[1:] + ".")
     from dataclasses import replace
 
     return replace(res, notes=tuple(notes) + res.notes, model=info, overlap=ov)

@@ -231,20 +231,13 @@ def _core_rows(frame: Any, rows: np.ndarray, mapping: dict[str, str], options: O
     return screen_columns(core, part.height, options)
 
 
-def screen_batches(
-    batches: Iterable[Any],
-    *,
-    columns: Mapping[str, str] | None = None,
-    from_text: str | None = None,
-    confounders: Sequence[tuple[float, float]] = (),
-    alpha: float = 0.05,
-    tally: Tally | None = None,
-) -> Iterator[Any]:
+def screen_batches(batches: Iterable[Any], **options: Any) -> Iterator[Any]:
     """Screen a stream of pyarrow RecordBatches; yield each with the computed columns added.
 
     Every row comes out, in order: good rows with their E-values (and for regression rows
-    partial R² and robustness values), bad rows with the reason in `error`. Pass a `Tally`
-    to collect the summary as the batches go by.
+    partial R² and robustness values), bad rows with the reason in `error`. Options are
+    those of `screen_frames` (`columns`, `from_text`, `confounders`, `alpha`, and a `Tally`
+    to collect the summary as the batches go by).
 
     Examples
     --------
@@ -264,8 +257,7 @@ def screen_batches(
             table = batch if isinstance(batch, pa.Table) else pa.Table.from_batches([batch])
             yield pl.from_arrow(table, rechunk=False)
 
-    for out in screen_frames(frames(), columns=columns, from_text=from_text,
-                             confounders=confounders, alpha=alpha, tally=tally):  # fmt: skip
+    for out in screen_frames(frames(), **options):
         yield from out.to_arrow().to_batches()
 
 
