@@ -716,3 +716,20 @@ def test_a_row_with_too_many_or_too_few_cells_is_an_error(run, tmp_path, body):
     res = run("screen", src)
     assert res.exit_code == 2 and res.stderr.startswith("Error: `file`: could not read")
     assert len(res.stderr.strip().splitlines()) == 1
+
+
+def test_the_progress_bar_follows_the_frames_screened(tmp_path, monkeypatch):
+    # each frame's end in the file, in order, whatever the reading ahead; the last is 100%
+    import sensitivity.adapters.files as files
+    from sensitivity.commands.screen import _bar
+    from sensitivity.common.overlap import read_ahead
+
+    src = tmp_path / "in.csv"
+    _write(src, [dict(r, id=f"{r['id']}{k}") for k in range(50) for r in ROWS])
+    monkeypatch.setattr(files, "FRAME_BYTES", 500)
+    share = files.Share()
+    frames = list(read_ahead(files.read_frames(src, share=share)))
+    ends = [share.next() for _ in frames]
+    assert len(frames) > 5 and ends == sorted(ends) and ends[-1] == 1.0 and ends[0] > 0
+    assert _bar(0.5, 1234, width=10) == "[#####.....]  50%  1,234 rows screened"
+    assert _bar(1.0, 7, width=4) == "[####] 100%  7 rows screened"

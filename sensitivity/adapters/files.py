@@ -70,27 +70,56 @@ def _checked(path: str | Path, argument: str) -> tuple[Path, str]:
     return p, kind
 
 
-def read_frames(path: str | Path, argument: str = "file", batch_rows: int = BATCH_ROWS) -> Any:
+class Share:
+    """How far into a file each frame `read_frames` yields ends, from 0 to 1, in order: a
+    consumer that takes one per frame it has finished knows its own progress, however far
+    ahead the reading runs."""
+
+    def __init__(self) -> None:
+        from collections import deque
+
+        self.ends: deque[float] = deque()
+
+    def add(self, end: float) -> None:
+        self.ends.append(end)
+
+    def next(self) -> float:
+        """The end of the oldest frame not yet taken (1 if none is waiting)."""
+        return self.ends.popleft() if self.ends else 1.0
+
+
+def read_frames(path: str | Path, argument: str = "file", batch_rows: int = BATCH_ROWS,
+                share: Share | None = None) -> Any:  # fmt: skip
     """The rows of a table file as polars DataFrames, a piece of the file at a time.
 
     CSV and TSV cells are read as text, so every cell is echoed exactly as the file holds
-    it; Parquet keeps its column types; Excel is read whole (its sheets are small).
+    it; Parquet keeps its column types; Excel is read whole (its sheets are small). `share`,
+    if given, is kept up to date with the part of the file read so far (for a progress bar).
     """
     import polars as pl
 
+    share = share or Share()
     p, kind = _checked(path, argument)
     try:
         if kind in ("csv", "tsv"):
-            yield from _text_frames(p, "," if kind == "csv" else "\t", argument)
+            size = p.stat().st_size
+            for frame, end in _text_frames(p, "," if kind == "csv" else "\t", argument):
+                share.add(end / size)
+                yield frame
         elif kind == "parquet":
             import pyarrow.parquet as pq
 
-            for batch in pq.ParquetFile(p).iter_batches(batch_size=batch_rows):
+            parquet = pq.ParquetFile(p)
+            rows = 0
+            for batch in parquet.iter_batches(batch_size=batch_rows):
+                rows += batch.num_rows
+                share.add(rows / max(parquet.metadata.num_rows, 1))
                 yield pl.from_arrow(batch)
         else:
             import pandas as pd
 
             frame = pd.read_excel(p, dtype=str, keep_default_na=False)
+            share.add(1.0)
             yield pl.from_pandas(frame)
     except InputError:
         raise
@@ -126,7 +155,9 @@ def _text_frames(path: Path, delimiter: str, argument: str) -> Any:
 
     header = text_header(path, delimiter, argument)
     rows = 0
+    end = 0
     for head, body in byte_chunks(path, FRAME_BYTES):
+        end += len(body) + (end == 0) * len(head)
         try:
             frame = pl.read_csv(head + body, separator=delimiter, infer_schema=False,
                                 empty_string_is_null=False)  # fmt: skip
@@ -135,7 +166,7 @@ def _text_frames(path: Path, delimiter: str, argument: str) -> Any:
         if frame is None or not _cells_add_up(body, delimiter, len(header), frame.height):
             frame = _pyarrow_piece(head + body, delimiter, header)
         rows += frame.height
-        yield frame
+        yield frame, end
     if not rows:
         raise InputError(f"`{argument}`: {path} has no data rows")
 

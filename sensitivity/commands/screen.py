@@ -101,7 +101,7 @@ def screen_cmd(
       sensitivity screen demo/published_results.csv --from-text result \\
           --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
     """
-    from sensitivity.adapters.files import read_frames
+    from sensitivity.adapters.files import Share, read_frames
     from sensitivity.common.errors import InputError
     from sensitivity.common.overlap import read_ahead
     from sensitivity.output.tables import TABLE_FORMATS, TableWriter
@@ -124,8 +124,9 @@ def screen_cmd(
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
+    share = Share()
     stream = screen_frames(
-        read_ahead(read_frames(file, "file")),
+        read_ahead(read_frames(file, "file", share=share)),
         columns=_column_map(column_map),
         from_text=from_text,
         confounders=confounders,
@@ -144,7 +145,7 @@ def screen_cmd(
         if writer is not None:
             writer.write(batch)
         if progress:
-            click.echo(f"\rscreened {tally.rows:,} rows", err=True, nl=False)
+            click.echo("\r" + _bar(share.next(), tally.rows), err=True, nl=False)
     if progress:
         click.echo("", err=True)
     summary = tally.result(tuple(confounders), click.format_filename(file))
@@ -164,6 +165,12 @@ def screen_cmd(
 
         for path in screen_figure(summary, plots, limits=plot_limits):
             click.echo(f"Wrote {path}", err=True)
+
+
+def _bar(done: float, rows: int, width: int = 30) -> str:
+    """A progress bar for stderr: how much of the file is read, and the rows screened."""
+    filled = min(int(done * width), width)
+    return f"[{'#' * filled}{'.' * (width - filled)}] {done:4.0%}  {rows:,} rows screened"
 
 
 class _StdoutWriter:
