@@ -593,6 +593,7 @@ def test_the_plain_route_equals_the_core_bit_for_bit(rows, confounders):
     from sensitivity.screen.stream import screen_frames
 
     frame = pl.DataFrame(rows, schema={k: pl.String for k in rows[0]})
+    given_frame = frame.clone()
 
     def screened(frames):
         tally = Tally(threshold=1.5, n_confounders=len(confounders))
@@ -613,6 +614,7 @@ def test_the_plain_route_equals_the_core_bit_for_bit(rows, confounders):
         a, b = fast[name].to_numpy(), core[name].to_numpy()
         assert np.array_equal(a.view(np.int64), b.view(np.int64)), name
     assert fast_summary == core_summary
+    assert frame.equals(given_frame, null_equal=True)  # the caller's frame is left as it was
     for name in ("scale_used", "error", "notes", *(c for c in fast.columns if "explains" in c)):
         assert not fast[name].str.contains(r"^[=+\-@\t\r]").any(), name
 

@@ -56,8 +56,8 @@ def routes(frame: Any, mapping: dict[str, str]) -> tuple[np.ndarray, np.ndarray,
 
     n = frame.height
     text = [mapping[k] for k in ("scale", "outcome") if k in mapping]
-    numbers = [mapping[k] for k in ("estimate", "lower", "upper") if k in mapping]
-    if "scale" not in mapping or "estimate" not in mapping or not _readable(frame, numbers):
+    given_numbers = [mapping[k] for k in ("estimate", "lower", "upper") if k in mapping]
+    if "scale" not in mapping or "estimate" not in mapping or not _readable(frame, given_numbers):
         return no_routes(n)
     if any(frame.schema[name] != pl.String for name in text):
         return no_routes(n)

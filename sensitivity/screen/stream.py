@@ -146,28 +146,26 @@ def screen_frames(
         yield _screen_frame(frame, mapping, options, from_text, names, tally)
 
 
+#: Columns only the core fills (regression rows): all missing in a frame of plain rows.
+_CORE_ONLY = ("partial_r2", "robustness_value", "robustness_value_alpha")
+
+
 def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_text: str | None,
                   names: list[str], tally: Tally | None) -> Any:  # fmt: skip
     """One frame with the computed columns appended (see `screen_frames`)."""
-    from .core import SCREEN_SCALES, confounder_states
-    from .plain import ROUTE_NOTES, compute_plain, routes
-
-    n = frame.height
-    if from_text is None:
-        route, scale, values = routes(frame, mapping)
-    else:  # free text is read by the core
-        route, scale, values = (
-            np.full(n, -1, np.int8),
-            np.full(n, -1, np.int8),
-            np.full((3, n), np.nan),
-        )
-    out = compute_plain(route, values)
-    out |= {k: np.full(n, np.nan) for k in _CORE_ONLY}
     import polars as pl
 
-    text = {
+    from .core import SCREEN_SCALES, confounder_states
+    from .plain import ROUTE_NOTES, compute_plain, no_routes, routes
+
+    n = frame.height
+    # free text is read by the core, row by row
+    route, scale, values = routes(frame, mapping) if from_text is None else no_routes(n)
+    out = compute_plain(route, values)
+    out |= {k: np.full(n, np.nan) for k in _CORE_ONLY}
+    text = {  # each its own Series: scatter below writes in place
         # a plain row's scale cell is its code as written; every other row is overwritten below
-        "scale_used": frame[mapping["scale"]]
+        "scale_used": frame[mapping["scale"]].clone()
         if (route >= 0).any()
         else pl.repeat("", n, eager=True),
         "error": pl.repeat("", n, eager=True),
@@ -204,10 +202,6 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
               if k not in added}  # fmt: skip
     added |= {k: _words(FLAG_WORDS, v) for k, v in states.items()}
     return frame.with_columns(added[k].alias(k) for k in names)
-
-
-#: Columns only the core fills (regression rows): all missing in a frame of plain rows.
-_CORE_ONLY = ("partial_r2", "robustness_value", "robustness_value_alpha")
 
 
 def _words(words: Sequence[str], codes: np.ndarray) -> Any:
