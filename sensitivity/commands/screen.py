@@ -102,8 +102,14 @@ def screen_cmd(
           --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
     """
     from sensitivity.adapters.files import Share, read_frames
-    from sensitivity.common.errors import InputError
     from sensitivity.common.overlap import read_ahead
+
+    # the first pieces of the file are parsed (polars, in a second thread) while the rest of
+    # the screen is imported and the options are checked
+    share = Share()
+    frames = read_ahead(read_frames(file, "file", share=share))
+
+    from sensitivity.common.errors import InputError
     from sensitivity.output.tables import TABLE_FORMATS, TableWriter
     from sensitivity.screen.core import Options, computed_names
     from sensitivity.screen.result import Tally
@@ -124,9 +130,8 @@ def screen_cmd(
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
-    share = Share()
     stream = screen_frames(
-        read_ahead(read_frames(file, "file", share=share)),
+        frames,
         columns=_column_map(column_map),
         from_text=from_text,
         confounders=confounders,

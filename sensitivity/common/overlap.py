@@ -28,38 +28,51 @@ def _put(q: queue.Queue, item: Any, stop: threading.Event) -> bool:
     return False
 
 
-def read_ahead(items: Iterable[T], depth: int = 1) -> Iterator[T]:
-    """The items of `items`, produced in a second thread up to `depth` ahead of the caller.
+class read_ahead(Iterator[T]):  # noqa: N801 - used as a function that starts work at once
+    """The items of `items`, produced in a second thread up to `depth` ahead of the caller;
+    the thread starts at once, so the first items are being made while the caller gets on
+    with its own set-up. `close` (or reaching the end) lets the thread go.
 
     Examples
     --------
     >>> list(read_ahead(iter(range(5))))
     [0, 1, 2, 3, 4]
     """
-    q: queue.Queue = queue.Queue(maxsize=depth)
-    stop = threading.Event()
 
-    def produce() -> None:
+    def __init__(self, items: Iterable[T], depth: int = 1) -> None:
+        self._queue: queue.Queue = queue.Queue(maxsize=depth)
+        self._stop = threading.Event()
+        self._done = False
+        worker = threading.Thread(target=self._produce, args=(items,), name="read-ahead",
+                                  daemon=True)  # fmt: skip
+        worker.start()
+
+    def _produce(self, items: Iterable[T]) -> None:
         try:
             for item in items:
-                if not _put(q, (True, item), stop):
+                if not _put(self._queue, (True, item), self._stop):
                     return
-            _put(q, (True, _END), stop)
+            _put(self._queue, (True, _END), self._stop)
         except BaseException as err:  # noqa: BLE001 - handed to the caller's thread
-            _put(q, (False, err), stop)
+            _put(self._queue, (False, err), self._stop)
 
-    worker = threading.Thread(target=produce, name="read-ahead", daemon=True)
-    worker.start()
-    try:
-        while True:
-            ok, item = q.get()
+    def __next__(self) -> T:
+        if self._done:
+            raise StopIteration
+        ok, item = self._queue.get()
+        if not ok or item is _END:
+            self.close()
             if not ok:
                 raise item
-            if item is _END:
-                return
-            yield item
-    finally:
-        stop.set()
+            raise StopIteration
+        return item
+
+    def close(self) -> None:
+        self._done = True
+        self._stop.set()
+
+    def __del__(self) -> None:
+        self._stop.set()
 
 
 class WriteBehind:
