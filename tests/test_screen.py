@@ -757,3 +757,18 @@ def test_json_rows_equal_the_csv_rows_over_many_pieces(run, tmp_path, monkeypatc
         for key in ("evalue", "evalue_ci", "rr", "partial_r2"):
             assert got[key] == (float(want[key]) if want[key] else None)
         assert got["error"] == want["error"]
+
+
+def test_a_pandas_column_mixing_numbers_and_text_is_read_as_text():
+    # as a spreadsheet often arrives: floats and a decimal-comma string in one object column
+    import pandas as pd
+
+    frame = pd.DataFrame({"scale": ["rr", "hr", "or"], "estimate": [1.5, "2,1", None],
+                          "lower": [1.1, "", None], "upper": [2.0, "", None],
+                          "outcome": [None, "rare", "common"]})  # fmt: skip
+    out = screen_table(frame)
+    assert out["evalue"].round(4).tolist()[0] == 2.366
+    assert out["error"].tolist()[1:] == [
+        "`estimate` is not a number: '2,1' (a decimal comma?)",
+        "`estimate` is missing",
+    ]

@@ -265,7 +265,12 @@ def _as_polars(table: Any) -> tuple[Any, str]:
 
     kind = type(table).__module__.split(".")[0]
     if kind == "pandas":
-        return pl.from_pandas(table), kind
+        try:
+            return pl.from_pandas(table), kind
+        except Exception:  # noqa: BLE001 - a column mixing text and numbers: read it as text
+            mixed = [c for c in table.columns if table[c].dtype == object]
+            text = table.astype({c: "string" for c in mixed})
+            return pl.from_pandas(text), kind
     if kind == "polars" and isinstance(table, pl.DataFrame):
         return table, kind
     if kind == "pyarrow" and hasattr(table, "schema") and hasattr(table, "num_rows"):
