@@ -140,12 +140,13 @@ def screen_cmd(
     )
     progress = sys.stderr.isatty()
     writer: Any = None
+    # the screen's own text columns (codes, reasons, notes, true/false) never start with a
+    # formula character (tests/test_screen.py), so only the input's are defused
+    trusted = computed_names(Options(confounders=confounders))
     if output is not None:
-        # the screen's own text columns (codes, reasons, notes, true/false) never start with
-        # a formula character (tests/test_screen.py), so only the input's are defused
-        writer = TableWriter(output, trusted=computed_names(Options(confounders=confounders)))
+        writer = TableWriter(output, trusted=trusted)
     elif fmt in ("csv", "json"):
-        writer = _StdoutWriter(fmt, computed_names(Options(confounders=confounders)))
+        writer = _StdoutWriter(fmt, trusted)
     for batch in stream:
         if writer is not None:
             writer.write(batch)

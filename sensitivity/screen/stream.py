@@ -1,8 +1,9 @@
-"""Tables in memory and streams of Arrow batches into the screen, and back out.
+"""Tables in memory and streams of frames or Arrow batches into the screen, and back out.
 
-`screen_batches` is the one loop: the command line feeds it batches read from a file, a
-pipeline feeds it its own; `screen_table` takes a pandas, polars or Arrow table and returns
-one of the same kind.
+`screen_frames` is the one loop, over polars DataFrames: the command line feeds it pieces
+read from a file, a pipeline feeds it its own; `screen_batches` wraps it for Arrow record
+batches, and `screen_table` takes a pandas, polars or Arrow table and returns one of the same
+kind.
 """
 
 from __future__ import annotations
@@ -46,7 +47,7 @@ def text_or_numbers(column: Any) -> Any:
     series = pl.Series(values=column) if not isinstance(column, pl.Series) else column
     if series.dtype.is_numeric():
         return series.cast(pl.Float64).to_numpy()
-    trimmed = _series(series).fill_null("").str.strip_chars()
+    trimmed = series.cast(pl.String).fill_null("").str.strip_chars()
     # polars reads exactly the numbers _NUMBER describes (ASCII digits, inf, infinity, nan in
     # any case; checked in tests/test_screen.py), so a failed cast is a cell that is not one
     values = trimmed.cast(pl.Float64, strict=False)
@@ -244,14 +245,9 @@ def screen_batches(batches: Iterable[Any], **options: Any) -> Iterator[Any]:
     (2.1, "`estimate` is not a number: 'oops'")
     """
     import polars as pl
-    import pyarrow as pa
 
-    def frames() -> Iterator[Any]:
-        for batch in batches:
-            table = batch if isinstance(batch, pa.Table) else pa.Table.from_batches([batch])
-            yield pl.from_arrow(table, rechunk=False)
-
-    for out in screen_frames(frames(), **options):
+    frames = (pl.from_arrow(batch, rechunk=False) for batch in batches)
+    for out in screen_frames(frames, **options):
         yield from out.to_arrow().to_batches()
 
 
