@@ -93,7 +93,8 @@ def screen_cmd(
     and never stops the run. Columns read: scale, estimate, lower, upper, and where a row
     needs them se, dof, sd, outcome (rare/common), prevalence, contrast, target, and for
     risk differences cases_treated, total_treated, cases_control, total_control. Text cells
-    written to CSV and Excel are defused against spreadsheet formulas.
+    written to CSV and Excel are defused against spreadsheet formulas. Files are read a piece
+    at a time, so memory stays flat; on a terminal, a progress bar shows on stderr.
 
     \b
     Examples:

@@ -38,7 +38,7 @@ def paragraph(s: ScreenSummary) -> str:
             text += (
                 f"; a confounder with risk ratios {a:g} and {b:g} could explain away the "
                 f"estimate in {_share(e['explains_estimate'][i], e['rows'])} and move the "
-                f"interval to the null in {_share(e['explains_ci'][i], e['with_interval'])}"
+                f"interval to include the null in {_share(e['explains_ci'][i], e['with_interval'])}"
             )
         if e["regression_rows"]:
             text += f"; {e['regression_rows']:,} with robustness values"

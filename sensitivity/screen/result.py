@@ -157,6 +157,8 @@ class ScreenSummary(Result):
     cautions: tuple[str, ...] = standing.EVALUE
     notes: tuple[str, ...] = (
         "Medians are read from a fine grid of log E-values (to about four significant digits).",
+        "Interval E-values are of each row's own interval as published (95% unless the row "
+        "says otherwise; 95% for an interval computed from an se).",
     )
     is_scalar = False
     _repr_fields = ("source", "rows")
