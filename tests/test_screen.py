@@ -391,6 +391,10 @@ def test_columns_are_mapped_and_text_is_read(run, tmp_path):
         (["--output", "x.docx"], "`output`: cannot tell the format of 'x.docx'"),
         (["--threshold", "0.5"], "`threshold` must be at least 1"),
         (["--plot", "x.jpg"], "`plot` must end in .png, .svg or .pdf"),
+        # a confounder weaker than none, or not a number, would flag every row "false"
+        (["--confounder", "0.5", "2"], "`rr_treatment` must be at least 1; got 0.5"),
+        (["--confounder", "2", "nan"], "`rr_outcome` must be a finite number; got nan"),
+        (["--alpha", "2"], "`alpha` must lie strictly between 0 and 1; got 2"),
     ],
 )
 def test_bad_options_exit_2_with_one_line(run, tmp_path, args, message):

@@ -127,9 +127,13 @@ def screen_frames(
     >>> out["evalue"].round(2).to_list(), out["error"].to_list()
     ([2.26, None], ['', '`estimate` is missing'])
     """
+    from ..common.checks import AT_LEAST_ONE, OPEN_UNIT, require
+
+    pairs = [(require(a, "rr_treatment", AT_LEAST_ONE), require(b, "rr_outcome", AT_LEAST_ONE))
+             for a, b in confounders]  # fmt: skip
     options = Options(
-        confounders=tuple((float(a), float(b)) for a, b in confounders),
-        alpha=alpha,
+        confounders=tuple((float(a), float(b)) for a, b in pairs),
+        alpha=float(require(alpha, "alpha", OPEN_UNIT)),
         from_text=None if from_text is None else "_text",
     )
     names = computed_names(options)
