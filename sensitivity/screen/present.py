@@ -16,7 +16,8 @@ def _share(k: int, n: int) -> str:
 
 def paragraph(s: ScreenSummary) -> str:
     good = s.rows - s.n_flagged
-    text = f"Read {s.rows:,} rows from {s.source}: {good:,} screened, {s.n_flagged:,} flagged"
+    rows = "row" if s.rows == 1 else "rows"
+    text = f"Read {s.rows:,} {rows} from {s.source}: {good:,} screened, {s.n_flagged:,} flagged"
     if s.flagged:
         top = [f"{count:,} × {reason}" for reason, count in list(s.flagged.items())[:4]]
         more = len(s.flagged) - 4

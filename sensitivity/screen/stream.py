@@ -96,7 +96,8 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
             if need not in mapping:
                 raise InputError(
                     f"the table has no {need!r} column: map one with `columns` "
-                    f"({need}=YOUR_COLUMN) or read results from text with `from_text`"
+                    f"({need}=YOUR_COLUMN) or read results from text with `from_text`; "
+                    "columns: " + ", ".join(header[:30])
                 )
     return mapping
 
