@@ -776,3 +776,26 @@ def test_a_pandas_column_mixing_numbers_and_text_is_read_as_text():
         "`estimate` is not a number: '2,1' (a decimal comma?)",
         "`estimate` is missing",
     ]
+
+
+def test_python_entry_points_refuse_bad_input_with_the_argument_named():
+    import polars as pl
+
+    from sensitivity.screen.stream import screen_frames
+
+    with pytest.raises(InputError, match="`frames` must yield polars DataFrames; got dict"):
+        list(screen_frames([{"scale": "rr"}]))
+    table = pl.DataFrame({"scale": ["rr"], "estimate": ["2"]})
+    with pytest.raises(InputError, match=r"`confounders` must be pairs \(rr_treatment"):
+        screen_table(table, confounders=[(2,)])
+    with pytest.raises(InputError, match="`table` must be a pandas, polars or pyarrow table"):
+        screen_table({"scale": ["rr"]})
+
+
+def test_a_table_with_no_rows_comes_back_with_the_computed_columns():
+    import polars as pl
+
+    empty = pl.DataFrame(schema={"scale": pl.String, "estimate": pl.String})
+    out = screen_table(empty)
+    assert out.height == 0 and out.columns[-2:] == ["error", "notes"]
+    assert screen_summary(empty).rows == 0

@@ -130,6 +130,8 @@ def screen_frames(
     """
     from ..common.checks import AT_LEAST_ONE, OPEN_UNIT, require
 
+    if any(len(pair) != 2 for pair in confounders):
+        raise InputError("`confounders` must be pairs (rr_treatment, rr_outcome)")
     pairs = [(require(a, "rr_treatment", AT_LEAST_ONE), require(b, "rr_outcome", AT_LEAST_ONE))
              for a, b in confounders]  # fmt: skip
     options = Options(
@@ -140,6 +142,8 @@ def screen_frames(
     names = computed_names(options)
     mapping: dict[str, str] | None = None
     for frame in frames:
+        if not hasattr(frame, "columns") or not hasattr(frame, "with_columns"):
+            raise InputError(f"`frames` must yield polars DataFrames; got {type(frame).__name__}")
         if mapping is None:
             header = list(frame.columns)
             mapping = _mapping(columns, header, from_text)
@@ -281,6 +285,11 @@ def _as_polars(table: Any) -> tuple[Any, str]:
     )
 
 
+def _slices(frame: Any) -> Iterator[Any]:
+    """The frame in slices of TABLE_ROWS rows (a table with no rows as itself)."""
+    yield from frame.iter_slices(TABLE_ROWS) if frame.height else [frame]
+
+
 def screen_table(table: Any, **options: Any) -> Any:
     """Screen a whole table in memory (pandas, polars or pyarrow); the result is the same kind.
 
@@ -290,7 +299,7 @@ def screen_table(table: Any, **options: Any) -> Any:
     frame, kind = _as_polars(table)
     import polars as pl
 
-    out = pl.concat(list(screen_frames(frame.iter_slices(TABLE_ROWS), **options)))
+    out = pl.concat(list(screen_frames(_slices(frame), **options)))
     if kind == "pandas":
         return out.to_pandas()
     if kind == "pyarrow":
@@ -303,6 +312,6 @@ def screen_summary(table: Any, source: str = "the table", threshold: float | Non
     """The summary of a screen of `table` (rows, flags by reason, E-values by scale)."""
     frame, _ = _as_polars(table)
     tally = Tally(threshold=threshold, n_confounders=len(options.get("confounders", ())))
-    for _ in screen_frames(frame.iter_slices(TABLE_ROWS), tally=tally, **options):
+    for _ in screen_frames(_slices(frame), tally=tally, **options):
         pass
     return tally.result(tuple(options.get("confounders", ())), source)
