@@ -116,7 +116,7 @@ class Result:
 
 
 def rows_of_layout(columns: dict[str, np.ndarray], layout: list[tuple[str, Any]]) -> list[dict]:
-    """Nested row dicts built from columns by a layout (see `output.tables.json_rows`).
+    """Nested row dicts built from columns by a layout (see `output.writers.json_rows`).
 
     ``(key, column)`` is a plain value, ``(key, [(key, column), ...])`` a nested object and
     ``(key, (column, column))`` a pair (null when its first column is absent).

@@ -127,7 +127,7 @@ class TippingGrid(Result):
         )
 
     def row_layout(self) -> list[tuple[str, Any]]:
-        """How a JSON row is built from `columns()` (see `output.tables.json_rows`)."""
+        """How a JSON row is built from `columns()` (see `output.writers.json_rows`)."""
         cols = self.columns()
         names = [n for n, _ in self.axes]
         extras = [
