@@ -244,8 +244,8 @@ def show_warnings() -> None:
 def _json(result: Any, sink: Any) -> None:
     from sensitivity.output.writers import json_rows, write_json
 
-    document = result.document()
-    extra = [("sentence", document.sentence)] if document.sentence else []
+    said = result.document().sentences
+    extra = [("sentence", said[0]), ("sentences", said)] if said else []
     rows = getattr(result, "n_rows", 1)
     if hasattr(result, "row_layout") and rows > COMPACT_ROWS:
         head = result.json_head()

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from .tables import Table
+from typing import Any
+
+from .tables import Table, safe_text
 
 _LATEX_ESCAPES = {
     "&": r"\&",
@@ -35,6 +37,9 @@ _LATEX_ESCAPES = {
     "³": r"\textsuperscript{3}",
     "°": r"$^\circ$",
     "\u00a0": "~",
+    "<": r"\textless{}",
+    ">": r"\textgreater{}",
+    "|": r"\textbar{}",
 }
 # Accents a name may carry (fumeur_été): base letter plus a combining mark, as LaTeX writes it.
 _ACCENTS = {
@@ -56,7 +61,7 @@ def latex_escape(text: str) -> str:
     import unicodedata
 
     out = []
-    for ch in text:
+    for ch in safe_text(text):
         if ch in _LATEX_ESCAPES:
             out.append(_LATEX_ESCAPES[ch])
         elif ord(ch) < 128:
@@ -74,7 +79,9 @@ def latex_escape(text: str) -> str:
                 )
             else:
                 ascii_form = unicodedata.normalize("NFKD", ch).encode("ascii", "ignore").decode()
-                out.append(ascii_form or "?")
+                # a character plain LaTeX cannot set (an emoji) is named, never turned into "?"
+                name = unicodedata.name(ch, f"U+{ord(ch):04X}").lower()
+                out.append(ascii_form or f"[{name}]")
     return "".join(out)
 
 
@@ -91,3 +98,25 @@ def latex_table(table: Table) -> str:
         out.append(r"\par\smallskip{\footnotesize " + latex_escape(" ".join(table.footnotes)) + "}")
     out.append(r"\end{table}")
     return "\n".join(out)
+
+
+def latex_block(block: Any) -> str:
+    """A block of a Document other than a table, as LaTeX (prose, headings, lists, code)."""
+    kind = type(block).__name__
+    if kind == "Prose":
+        return "\n\n".join(latex_escape(line) for line in block.lines)
+    if kind == "Heading":
+        command = "section*" if block.level <= 2 else "subsection*"
+        return f"\\{command}{{{latex_escape(block.text)}}}"
+    if kind == "Code":
+        lines = safe_text(block.text, keep_lines=True).splitlines()
+        return (
+            "\\begin{verbatim}\n"
+            + "\n".join(line.encode("ascii", "replace").decode() for line in lines)
+            + "\n\\end{verbatim}"
+        )
+    if kind == "Image":
+        return f"% Figure: {latex_escape(block.caption)} ({block.path.name})"
+    items = "\n".join(r"  \item " + latex_escape(i) for i in block.items)
+    head = r"\paragraph{" + latex_escape(block.heading) + "}\n" if block.heading else ""
+    return head + r"\begin{itemize}" + "\n" + items + "\n" + r"\end{itemize}"

@@ -7,6 +7,7 @@ Markdown or HTML (LaTeX in `latex.py`). Large tables leave through `writers.py` 
 
 from __future__ import annotations
 
+import html
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass, field
@@ -82,7 +83,24 @@ def bullets(heading: str, items: Iterable[str]) -> str:
     return "\n".join(lines)
 
 
+_CONTROLS = {i: None for i in range(32) if i not in (9, 10, 13)} | {127: None}
+_CONTROLS |= {i: None for i in range(0x80, 0xA0)}
+_ONE_LINE = _CONTROLS | {9: " ", 10: " ", 13: " "}
+
+
+def safe_text(text: str, keep_lines: bool = False) -> str:
+    """One line of text with nothing a terminal or a file format would act on: control
+    characters (terminal escapes among them) dropped; tabs, carriage returns and newlines
+    (unless `keep_lines`) become spaces."""
+    text = str(text)
+    if keep_lines:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+        return text.translate(_CONTROLS | {9: " "})
+    return text.translate(_ONE_LINE)
+
+
 def _text(table: Table) -> str:
+    table = _clean(table)
     cells = [table.columns, *table.rows]
     widths = [max(len(row[i]) for row in cells) for i in range(len(table.columns))]
 
@@ -102,21 +120,46 @@ def _text(table: Table) -> str:
     return "\n".join(out)
 
 
+def _clean(table: Table) -> Table:
+    from dataclasses import replace
+
+    return replace(
+        table,
+        columns=tuple(safe_text(c) for c in table.columns),
+        rows=tuple(tuple(safe_text(c) for c in row) for row in table.rows),
+        title=safe_text(table.title),
+        footnotes=tuple(safe_text(n) for n in table.footnotes),
+    )
+
+
+def markdown_cell(text: str) -> str:
+    """A cell, title or footnote for Markdown: one line, markup escaped (a label renders as
+    written, never as a link, an image, emphasis or raw HTML). A "<" that cannot open a tag
+    ("<0.0001") and an "&" that is no entity stay as they are, so the file reads plainly."""
+    import re
+
+    out = safe_text(text)
+    for ch in "\\`*_[]|":
+        out = out.replace(ch, "\\" + ch)
+    out = re.sub(r"&(?=#?\w+;)", "&amp;", out)
+    return re.sub(r"<(?=[A-Za-z/!?])", "&lt;", out)
+
+
 def _markdown(table: Table) -> str:
     def line(row):
-        return "| " + " | ".join(c.replace("|", "\\|") for c in row) + " |"
+        return "| " + " | ".join(markdown_cell(c) for c in row) + " |"
 
     align = "|" + "|".join(":---" if a == "l" else "---:" for a in table.alignment()) + "|"
-    out = [f"**{table.title}**", ""] if table.title else []
+    out = [f"**{markdown_cell(table.title)}**", ""] if table.title else []
     out += [line(table.columns), align, *map(line, table.rows)]
     if table.footnotes:  # a blank line between footnotes keeps each its own paragraph
-        out += [line for n in table.footnotes for line in ("", f"*{n}*")]
+        out += [line for n in table.footnotes for line in ("", f"*{markdown_cell(n)}*")]
     return "\n".join(out)
 
 
 def _html(table: Table) -> str:
     def esc(s):
-        return s.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+        return html.escape(safe_text(s), quote=False)
 
     head = "".join(f"<th>{esc(c)}</th>" for c in table.columns)
     body = "".join(

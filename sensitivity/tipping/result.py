@@ -37,6 +37,7 @@ class TippingGrid(Result):
     ci_level: float = 0.95
     is_scalar = False
     _repr_fields = ("kind", "scale", "estimate", "ci", "shape")
+    presenter = "sensitivity.tipping.present"
 
     # ----------------------------------------------------------------- structure
     @property
