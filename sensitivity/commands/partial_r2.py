@@ -50,6 +50,17 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
     help="Observed covariate to compare with (repeatable; data input).",
 )
 @click.option(
+    "--benchmark-r2",
+    "benchmark_r2",
+    nargs=3,
+    multiple=True,
+    metavar="NAME R2_TREATMENT R2_OUTCOME",
+    help="A benchmark from a paper's published numbers (repeatable; summary or data input): "
+    "each side a partial R², or t:T:DOF, its t statistic and that model's degrees of freedom "
+    "(t:T on the outcome side uses --dof). R² = t²/(t² + dof). A treatment side not "
+    "published may be written assumed:R2, and the output states the assumption.",
+)
+@click.option(
     "--times",
     multiple=True,
     type=float,
@@ -105,6 +116,7 @@ def partial_r2_cmd(
     fraction: Any,
     alpha: Any,
     benchmarks: Any,
+    benchmark_r2: Any,
     times: Any,
     times_pairs: Any,
     r2_treatment: Any,
@@ -130,11 +142,15 @@ def partial_r2_cmd(
       sensitivity partial-r2 --data demo/harbourside_bp.csv \\
           --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
           --treatment commute_min --benchmark smoker --times 1 --times 2 --plot contours.png
+      sensitivity partial-r2 --estimate 0.114 --se 0.027 --dof 1192 \\
+          --benchmark-r2 smoker t:6.1:1193 t:3.9 --times 2
     """
     show_warnings()
     exclusive(("--se", se), ("--t", t_stat))
-    if (times or times_pairs) and not benchmarks:
-        raise click.UsageError("--times and --times-pair need --benchmark (the covariate to scale)")
+    if (times or times_pairs) and not (benchmarks or benchmark_r2):
+        raise click.UsageError(
+            "--times and --times-pair need --benchmark or --benchmark-r2 (the covariate to scale)"
+        )
     summary_given = [
         n
         for n, v in (
@@ -194,8 +210,11 @@ def partial_r2_cmd(
         if sys.stderr.isatty():
             click.echo("", err=True)
     else:
-        if benchmarks or times or times_pairs:
-            raise click.UsageError("--benchmark, --times and --times-pair need data input (--data)")
+        if benchmarks:
+            raise click.UsageError(
+                "--benchmark needs data input (--data); from a paper's tables give the "
+                "covariate's published numbers with --benchmark-r2 NAME R2_TREATMENT R2_OUTCOME"
+            )
         if estimate is None:
             raise click.UsageError("summary input needs --estimate")
         if dof is None:
@@ -213,6 +232,13 @@ def partial_r2_cmd(
             r2_outcome=r2y,
             contrast=contrast,
             sd_outcome=sd,
+        )
+    if benchmark_r2:
+        from sensitivity.partial_r2.published import benchmark_from_text, with_published_benchmarks
+
+        published = [benchmark_from_text(*b, dof=result.dof) for b in benchmark_r2]
+        result = with_published_benchmarks(
+            result, published, times=list(times) or None, times_pairs=times_pairs
         )
     emit(result, fmt, outputs)
     if plots:

@@ -353,6 +353,7 @@ def benchmark_scenarios(
                 k_treatment=float(kt),
                 k_outcome=float(ky),
                 capped=bool(capped),
+                benchmark_source=covariate.source,
             )
         )
     return out
@@ -370,6 +371,9 @@ def partial_r2_summary(
     r2_outcome: ArrayLike | None = None,
     sd_outcome: float | None = None,
     contrast: float = 1.0,
+    benchmark_r2: Sequence[Any] = (),
+    times: Sequence[float] | None = None,
+    times_pairs: Sequence[tuple[float, float]] = (),
 ) -> PartialR2Result:
     """Partial-R² sensitivity of an OLS coefficient from its summary numbers.
 
@@ -394,6 +398,13 @@ def partial_r2_summary(
     contrast : float, default 1
         Treatment difference the E-value alongside refers to (the coefficient is per unit;
         e.g. 10 for "per 10 minutes"). The partial-R² numbers do not depend on it.
+    benchmark_r2 : sequence, optional
+        Benchmarks from a paper's published numbers: (name, r2_treatment, r2_outcome)
+        triples, or `published_benchmark(...)` values (which also take t statistics with
+        their degrees of freedom, or an assumed treatment side). The bounds are those the
+        data route computes from the same covariate.
+    times, times_pairs : optional
+        The benchmarks' multiples, as in the data route (default 1).
 
     Returns
     -------
@@ -407,9 +418,19 @@ def partial_r2_summary(
     >>> rv, rv_alpha = res.robustness_value, res.robustness_value_alpha
     >>> round(res.partial_r2, 3), round(rv, 3), round(rv_alpha, 3)
     (0.022, 0.139, 0.076)
+
+    A confounder twice as strong as a covariate whose published partial R² are 1% with the
+    treatment and 0.5% with the outcome:
+
+    >>> res = partial_r2_summary(4.18, se=1.0, dof=783, benchmark_r2=[("age", 0.01, 0.005)],
+    ...                          times=[2])
+    >>> round(res.scenarios[0].estimate, 3)
+    3.773
     """
     est, se, dof, fraction, alpha = _check_summary(estimate, se, dof, t, fraction, alpha)
-    return assemble(
+    if (times is not None or times_pairs) and not benchmark_r2:
+        raise InputError("`times` and `times_pairs` need `benchmark_r2` (the covariates to scale)")
+    result = assemble(
         est,
         se,
         dof,
@@ -420,6 +441,9 @@ def partial_r2_summary(
         sd_outcome=sd_outcome,
         contrast=contrast,
     )
+    from .published import with_published_benchmarks
+
+    return with_published_benchmarks(result, benchmark_r2, times=times, times_pairs=times_pairs)
 
 
 def _per(contrast: float) -> str:

@@ -52,7 +52,15 @@ def scenario_label(s: Scenario) -> str:
     if s.kind == "benchmark":
         kt, ky = s.k_treatment, s.k_outcome
         times = f"×{kt:g}" if kt == ky else f"×{kt:g}/×{ky:g}"
-        return f"{covariate_name(s.benchmark or '')} {times}"
+        source = s.benchmark_source or "data"
+        mark = (
+            ""
+            if source == "data"
+            else " (published)"
+            if source == "published"
+            else (" (treatment side assumed)")
+        )
+        return f"{covariate_name(s.benchmark or '')} {times}{mark}"
     return f"chosen {percent(s.r2_treatment, 2)} / {percent(s.r2_outcome, 2)}"
 
 

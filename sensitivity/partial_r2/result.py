@@ -31,6 +31,7 @@ class Scenario:
     k_treatment: float | None = None
     k_outcome: float | None = None
     capped: bool = False
+    benchmark_source: str | None = None  # "data", "published", or with an assumed side
 
     @property
     def label_multiple(self) -> str:
@@ -65,6 +66,7 @@ class Scenario:
                 "k_treatment": self.k_treatment,
                 "k_outcome": self.k_outcome,
                 "capped": self.capped,
+                "benchmark_source": self.benchmark_source or "data",
             }
         return plain(out)
 
@@ -77,6 +79,7 @@ class CovariateStrength:
     columns: tuple[str, ...]
     r2_treatment: float
     r2_outcome: float
+    source: str = "data"  # or "published" (a paper's numbers), with an assumed treatment side
 
     def to_dict(self) -> dict:
         return plain(
