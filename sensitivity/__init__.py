@@ -44,7 +44,7 @@ _EXPORTS = {
     "coefficient_stability": "stability",
     "from_model": "adapters",
     "evalue_from_model": "adapters.models",
-    "report": "adapters.reporting",
+    "report": "reporting",
     "screen_table": "screen.stream",
     "screen_batches": "screen.stream",
     "screen_frames": "screen.stream",
