@@ -255,11 +255,8 @@ def benchmark_strengths(
 
 def _k_max(r):
     """Largest k_t for which both R2_t < 1 and rho² < 1 (Cinelli & Hazlett 2020)."""
-    if r <= 0:
-        return float("inf")
-    # R2_t < 1 needs k < (1 - r) / r; rho² < 1 needs k r² < (1 - k r)(1 - r),
-    # i.e. k < (1 - r) / (r² + r (1 - r)) = (1 - r) / r as well: one bound.
-    return (1 - r) / r
+    # R2_t < 1 needs k < (1 - r) / r; rho² < 1 needs k r² < (1 - k r)(1 - r): the same bound.
+    return float("inf") if r <= 0 else (1 - r) / r
 
 
 # --------------------------------------------------------------------------- entry point
@@ -301,20 +298,11 @@ def hypothetical_scenarios(
             f"`r2_treatment` and `r2_outcome` must come in pairs; got {r2t.size} and {r2y.size}"
         )
     adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
-    out = []
-    for i in range(r2t.size):
-        out.append(
-            Scenario(
-                float(r2t[i]),
-                float(r2y[i]),
-                float(adj["bias"][i]),
-                float(adj["estimate"][i]),
-                float(adj["se"][i]),
-                float(adj["t"][i]),
-                (float(adj["lower"][i]), float(adj["upper"][i])),
-            )
-        )
-    return out
+    fields = (r2t, r2y, adj["bias"], adj["estimate"], adj["se"], adj["t"])
+    return [
+        Scenario(*(float(f[i]) for f in fields), (float(adj["lower"][i]), float(adj["upper"][i])))
+        for i in range(r2t.size)
+    ]
 
 
 def benchmark_scenarios(
@@ -398,13 +386,9 @@ def partial_r2_summary(
     contrast : float, default 1
         Treatment difference the E-value alongside refers to (the coefficient is per unit;
         e.g. 10 for "per 10 minutes"). The partial-R² numbers do not depend on it.
-    benchmark_r2 : sequence, optional
-        Benchmarks from a paper's published numbers: (name, r2_treatment, r2_outcome)
-        triples, or `published_benchmark(...)` values (which also take t statistics with
-        their degrees of freedom, or an assumed treatment side). The bounds are those the
-        data route computes from the same covariate.
-    times, times_pairs : optional
-        The benchmarks' multiples, as in the data route (default 1).
+    benchmark_r2, times, times_pairs : optional
+        Benchmarks from a paper's published numbers ((name, r2_treatment, r2_outcome) or
+        `published_benchmark(...)`) and their multiples: `with_published_benchmarks`.
 
     Returns
     -------
@@ -418,18 +402,10 @@ def partial_r2_summary(
     >>> rv, rv_alpha = res.robustness_value, res.robustness_value_alpha
     >>> round(res.partial_r2, 3), round(rv, 3), round(rv_alpha, 3)
     (0.022, 0.139, 0.076)
-
-    A confounder twice as strong as a covariate whose published partial R² are 1% with the
-    treatment and 0.5% with the outcome:
-
-    >>> res = partial_r2_summary(4.18, se=1.0, dof=783, benchmark_r2=[("age", 0.01, 0.005)],
-    ...                          times=[2])
-    >>> round(res.scenarios[0].estimate, 3)
-    3.773
     """
+    from .published import with_published_benchmarks
+
     est, se, dof, fraction, alpha = _check_summary(estimate, se, dof, t, fraction, alpha)
-    if (times is not None or times_pairs) and not benchmark_r2:
-        raise InputError("`times` and `times_pairs` need `benchmark_r2` (the covariates to scale)")
     result = assemble(
         est,
         se,
@@ -441,8 +417,6 @@ def partial_r2_summary(
         sd_outcome=sd_outcome,
         contrast=contrast,
     )
-    from .published import with_published_benchmarks
-
     return with_published_benchmarks(result, benchmark_r2, times=times, times_pairs=times_pairs)
 
 

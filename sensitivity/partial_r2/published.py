@@ -280,6 +280,8 @@ def with_published_benchmarks(
     """
     bench = [as_benchmark(b) for b in benchmark_r2]
     if not bench:
+        if times is not None or list(times_pairs):
+            raise InputError("`times` and `times_pairs` need `benchmark_r2` (covariates to scale)")
         return result
     scenarios = published_scenarios(
         result.estimate, result.se, result.dof, bench, k_pairs(times, times_pairs), result.alpha
