@@ -21,3 +21,8 @@ def test_the_demo_runs(tmp_path):
     # the hidden confounder, known to the generating script, set against the bounds
     assert "adjusting for apnoea moves the estimate by" in " ".join(out.stdout.split())
     assert "E-value" in out.stdout
+    # where it writes comes first, and each step's full output is in a file of its own
+    assert "This demo writes into the current folder" in "\n".join(out.stdout.splitlines()[:6])
+    assert len(list((tmp_path / "out" / "demo").iterdir())) == 6
+    assert "Named confounders" in (tmp_path / "out" / "demo" / "2-partial-r2.md").read_text()
+    assert len(out.stdout.splitlines()) < 150
