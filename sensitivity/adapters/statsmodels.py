@@ -18,9 +18,9 @@ from numpy.typing import ArrayLike
 from ..common.checks import POSITIVE, require
 from ..common.errors import InputError, InputTypeError, SensitivityWarning
 from ..partial_r2.core import (
-    _check_summary,
     assemble,
     benchmark_scenarios,
+    check_summary,
     partial_r2_of_f,
 )
 from ..partial_r2.result import CovariateStrength, PartialR2Result
@@ -259,7 +259,7 @@ def partial_r2_from_parts(
     notes: Sequence[str] = (),
 ) -> PartialR2Result:
     """The result from a fit's treatment coefficient and covariate strengths (any library)."""
-    est, se, dof, fraction, alpha = _check_summary(estimate, se, dof, None, fraction, alpha)
+    est, se, dof, fraction, alpha = check_summary(estimate, se, dof, None, fraction, alpha)
     scenarios = []
     k_pairs = _k_pairs(times, times_pairs)
     for name in benchmarks:

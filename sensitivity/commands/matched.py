@@ -56,7 +56,7 @@ def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discord
     """
     from sensitivity.common.errors import InputError
     from sensitivity.matched.core import rosenbaum_bounds
-    from sensitivity.tipping.core import parse_range
+    from sensitivity.tipping.ranges import parse_range
 
     grid = parse_range(gamma, "gamma")
     if data:

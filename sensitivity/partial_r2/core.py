@@ -263,9 +263,12 @@ def _k_max(r):
 
 
 # --------------------------------------------------------------------------- entry point
-def _check_summary(
+def check_summary(
     estimate: object, se: object, dof: object, t: object, fraction: object, alpha: object
 ) -> tuple[float, float, float, float, float]:
+    """The summary statistics of one OLS coefficient, checked: `se` or `t` (not both), and
+    the degrees of freedom, fraction and alpha in range; returns (estimate, se, dof,
+    fraction, alpha)."""
     est = float(require(estimate, "estimate"))
     if se is not None and t is not None:
         raise InputError("give `se` or `t`, not both")
@@ -408,7 +411,7 @@ def partial_r2_summary(
     >>> round(res.partial_r2, 3), round(rv, 3), round(rv_alpha, 3)
     (0.022, 0.139, 0.076)
     """
-    est, se, dof, fraction, alpha = _check_summary(estimate, se, dof, t, fraction, alpha)
+    est, se, dof, fraction, alpha = check_summary(estimate, se, dof, t, fraction, alpha)
     return assemble(
         est,
         se,
