@@ -304,7 +304,7 @@ def evalue_from_data(
     """
     from dataclasses import replace
 
-    from .statsmodels import check_names
+    from .design import check_names
 
     if not hasattr(data, "columns"):
         from .files import read_table
@@ -333,9 +333,9 @@ def impact_from_model(results: Any, treatment: str, *, alpha: float = 0.05) -> A
     """The impact threshold of `treatment` in a fitted statsmodels OLS model (classical se;
     df and covariates from the fit)."""
     from ..impact.core import impact_threshold
-    from .statsmodels import _check_ols
+    from .statsmodels import check_ols
 
-    model, _ = _check_ols(results)
+    model, _ = check_ols(results)
     names = list(model.exog_names)
     j = _treatment_index(names, treatment)
     cov = np.asarray(results.normalized_cov_params, float) * float(results.scale)
