@@ -68,9 +68,9 @@ def _arrow_batch(batch: Any, wanted: list[str]) -> Batch:
 
 def file_source(path: str | Path, argument: str = "data") -> Source:
     """The columns of a file, read a batch at a time."""
-    from .files import _checked
+    from .files import checked_file
 
-    p, kind = _checked(path, argument)
+    p, kind = checked_file(path, argument)
     if kind == "excel":  # sheets are small: read whole, then batch as a frame
         from .files import read_table
 

@@ -23,7 +23,7 @@ SHOWN = {"logit": "logistic", "log-binomial": "log-binomial", "poisson": "Poisso
          "negbin": "negative binomial", "cox": "Cox", "ols": "OLS"}  # fmt: skip
 
 
-def _kind(results: Any) -> tuple[str, str]:
+def model_kind(results: Any) -> tuple[str, str]:
     """(model kind, effect scale) of a fitted model; InputError for one we do not route."""
     model = getattr(results, "model", None)
     name = type(model).__name__
@@ -149,7 +149,7 @@ def evalue_from_model(
     >>> res.scale, res.outcome, res.model["kind"]
     ('or', 'rare', 'logit')
     """
-    kind, scale = _kind(results)
+    kind, scale = model_kind(results)
     if kind == "ols":
         raise InputError("`results` is an OLS fit: use the partial-R² route (from_model)")
     if kind == "cox" and type(getattr(results, "model", None)).__name__ != "PHReg":
