@@ -5,7 +5,6 @@ kind (number, integer, bool, text) and values, so the one-pass route never holds
 
 from __future__ import annotations
 
-import re
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -129,25 +128,60 @@ def _csv_batches(path: Path, delimiter: str, header: list[str], wanted: list[str
     }
     first = True
     for head, body in byte_chunks(path):
-        try:
-            frame = pl.read_csv(
-                io.BytesIO(head + body), separator=delimiter, columns=wanted,
-                null_values=MISSING, infer_schema_length=None if first else 0,
-                schema_overrides=dtypes, raise_if_empty=False,
+        piece = head + body
+
+        def read(types: dict[str, Any], infer: int | None, piece: bytes = piece) -> Any:
+            return pl.read_csv(
+                io.BytesIO(piece), separator=delimiter, columns=wanted, null_values=MISSING,
+                infer_schema_length=infer, schema_overrides=types, raise_if_empty=False,
             )  # fmt: skip
+
+        try:
+            frame = read(dtypes, None if first else 0)
         except Exception as err:  # noqa: BLE001 - a parser failure is the file's, not ours
-            # the first paragraph, on one line (a cell's own newline shown as \n)
+            change = _type_change(read, dtypes, wanted)
+            if change is not None:
+                raise change from None
+            # the parser's first paragraph, on one line (a cell's own newline shown as \n)
             text = " ".join(str(err).strip().split("\n\n")[0].replace("\n`", "\\n`").split())
             text = text or type(err).__name__
-            found = re.search(r"as dtype `(\w+)` at column '([^']*)'", text)
-            if found and found.group(1) != "str" and found.group(2) in wanted:
-                kind = "number" if found.group(1).startswith("i") else "text"
-                raise ColumnTypeChange(found.group(2), kind) from None
             raise InputError(f"`{argument}`: could not read {path}: {text}") from None
         if first:
             dtypes = {name: frame.schema[name] for name in wanted} | dtypes
             first = False
         yield {name: _polars_column(frame[name]) for name in wanted}
+
+
+def _type_change(
+    read: Callable[[dict[str, Any], int | None], Any], dtypes: dict[str, Any], wanted: list[str]
+) -> ColumnTypeChange | None:
+    """Which held column type a piece breaks, found by reading the piece again with that one
+    type held and every other column as text: an integer column that reads as numbers
+    becomes "number", any other "text". None when no single held type is the cause (the
+    piece itself cannot be parsed)."""
+    import polars as pl
+
+    try:
+        read({}, 0)  # every column as text
+    except Exception:  # noqa: BLE001 - the piece itself cannot be parsed
+        return None
+    for name in wanted:
+        held = dtypes.get(name)
+        if held is None or held == pl.String:
+            continue
+        try:
+            read({name: held}, 0)
+            continue
+        except Exception:  # noqa: BLE001 - this column's held type is what breaks
+            pass
+        if held.is_integer():
+            try:
+                read({name: pl.Float64}, 0)
+                return ColumnTypeChange(name, "number")
+            except Exception:  # noqa: BLE001 - not numbers either: text
+                pass
+        return ColumnTypeChange(name, "text")
+    return None
 
 
 def _polars_column(column: Any) -> tuple[str, Any]:
