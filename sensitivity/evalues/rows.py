@@ -19,7 +19,7 @@ from ..common.checks import (
     Check,
     as_array,
     field,
-    flags,
+    flag_kinds,
     given,
     inside_interval,
     interval_order,
@@ -53,6 +53,7 @@ def _scale_flags(scale: np.ndarray) -> Check:
         ("scale",),
         lambda s: ~np.isin(as_text(s), EVALUE_SCALES),
         lambda s: f"`scale` must be one of {', '.join(EVALUE_SCALES)}; got {str(s)!r}",
+        f"`scale` must be one of {', '.join(EVALUE_SCALES)}",
     )
 
 
@@ -77,6 +78,7 @@ CHECKS: tuple[Check, ...] = (
         ("outcome",),
         lambda o: given(o) & ~np.isin(as_text(o), OUTCOME_FREQUENCIES),
         lambda o: f"`outcome` must be one of {', '.join(OUTCOME_FREQUENCIES)}; got {str(o)!r}",
+        f"`outcome` must be one of {', '.join(OUTCOME_FREQUENCIES)}",
     ),
     Check(
         ("scale", "outcome", "prevalence"),
@@ -90,16 +92,19 @@ CHECKS: tuple[Check, ...] = (
         ("scale", "se"),
         lambda s, se: ratio_scale(s) & given(se),
         lambda s, se: f"`se` applies to scales smd and md only; got {s}",
+        "`se` applies to scales smd and md only",
     ),
     Check(
         ("scale", "sd"),
         lambda s, sd: ~scale_in(s, "md") & given(sd),
         lambda s, sd: f"`sd` applies to scale md only; got {s}",
+        "`sd` applies to scale md only",
     ),
     Check(
         ("scale", "contrast"),
         lambda s, c: ~scale_in(s, "md") & (c != 1),
         lambda s, c: f"`contrast` applies to scale md only; got {s}",
+        "`contrast` applies to scale md only",
     ),
     Check(
         ("scale", "sd"),
@@ -266,6 +271,14 @@ def evalue_rows(columns: Mapping[str, object], n: int) -> tuple[dict[str, np.nda
     ``upper`` for the interval); absent numbers are NaN, absent text is "". Bad rows get a
     reason (the first rule they break) and NaN results; the rest are computed in one pass.
     """
+    out, reasons, _ = evalue_row_kinds(columns, n)
+    return out, reasons
+
+
+def evalue_row_kinds(
+    columns: Mapping[str, object], n: int
+) -> tuple[dict[str, np.ndarray], np.ndarray, np.ndarray]:
+    """`evalue_rows`, with each bad row's kind of reason (`Check.kind`) beside its reason."""
     values = {
         "scale": _text(columns.get("scale")),
         "estimate": np.asarray(columns.get("estimate", np.nan), float),
@@ -280,7 +293,7 @@ def evalue_rows(columns: Mapping[str, object], n: int) -> tuple[dict[str, np.nda
     target = columns.get("target")
     values["target"] = null_of(values["scale"]) if target is None else np.asarray(target, float)
     values = {k: np.broadcast_to(v, (n,)) for k, v in values.items()}
-    reasons = flags(values, CHECKS, n)
+    reasons, kinds = flag_kinds(values, CHECKS, n)
     good = reasons == ""
     freq = outcome_frequency(values)
     safe = {k: np.where(good, v, np.asarray(_SAFE.get(k, v))) for k, v in values.items()}
@@ -299,10 +312,11 @@ def evalue_rows(columns: Mapping[str, object], n: int) -> tuple[dict[str, np.nda
     for i in np.flatnonzero(beyond != ""):
         field_of = {"estimate": "estimate", "ci": "lower", "target": "target"}[beyond[i]]
         reasons[i] = overflow_message(beyond[i], values[field_of][i], values["scale"][i])
+        kinds[i] = reasons[i]  # names no value that varies by rule: its own kind
     good = reasons == ""
     out = {k: np.where(good, v, np.nan) for k, v in out.items()}
     out["outcome"] = np.where(good, freq, "")
-    return out, reasons
+    return out, reasons, kinds
 
 
 # Placeholders computed (and then blanked) for bad rows, so no numpy warning is raised.
