@@ -156,7 +156,7 @@ def screen_cmd(
     else:
         click.echo(document.sentence, err=True)
     if plots:
-        from sensitivity.output.figures import screen_figure
+        from sensitivity.screen.figures import screen_figure
 
         for path in screen_figure(summary, plots, limits=plot_limits):
             click.echo(f"Wrote {path}", err=True)
