@@ -1,5 +1,5 @@
 """Where the screened table goes: a file by its extension, or stdout as CSV or JSON, batch by
-batch through `output.tables.TableWriter` (the one writer; memory stays flat)."""
+batch through `output.streams.TableWriter` (the one writer; memory stays flat)."""
 
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ def check_table_path(output: str | Path) -> None:
     """Refuse, before any work, an output whose format its extension does not tell (the
     writer's own rule) or whose folder does not exist."""
     from ..common.errors import InputError
-    from ..output.tables import TableWriter
+    from ..output.streams import TableWriter
 
     TableWriter(output)  # checks the extension; opens nothing until the first write
     if not Path(output).parent.is_dir():
@@ -23,7 +23,7 @@ def check_table_path(output: str | Path) -> None:
 def table_writer(output: str | Path | None, fmt: str, trusted: Collection[str] = ()) -> Any:
     """A writer for the screened table: to `output` (format by extension), else to stdout when
     `fmt` is csv or json, else None (only the summary is shown). `trusted`: the text
-    columns the screen computed, left as they are (see `output.tables.defuse_frame`).
+    columns the screen computed, left as they are (see `output.streams.defuse_frame`).
 
     Examples
     --------
@@ -32,7 +32,7 @@ def table_writer(output: str | Path | None, fmt: str, trusted: Collection[str] =
     >>> table_writer("screened.parquet", "text").kind
     'parquet'
     """
-    from ..output.tables import TableWriter
+    from ..output.streams import TableWriter
 
     if output is not None:
         return TableWriter(output, trusted=trusted)
@@ -48,7 +48,7 @@ class StdoutTable:
     def __init__(self, kind: str, trusted: Collection[str] = ()) -> None:
         import tempfile
 
-        from ..output.tables import TableWriter
+        from ..output.streams import TableWriter
 
         self.kind = kind
         self._tmp = tempfile.NamedTemporaryFile(suffix=f".{kind}", delete=False)
