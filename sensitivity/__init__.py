@@ -45,6 +45,8 @@ _EXPORTS = {
     "simulate": "simulate",
     "rosenbaum_bounds": "matched",
     "coefficient_stability": "stability",
+    "coefficient_stability_from_data": "adapters.stability",
+    "rosenbaum_bounds_from_data": "adapters.matched",
     "from_model": "adapters",
     "evalue_from_model": "adapters.models",
     "report": "reporting",
