@@ -13,6 +13,7 @@ from ._options import (
     Number,
     confounder_option,
     emit,
+    errors_option,
     exclusive,
     format_options,
     model_option,
@@ -49,6 +50,7 @@ SHORT_HELP = COMMANDS["evalue"][1]
     "Data input: the fit, which decides the scale (cox: time on the formula's left side)."
 )
 @click.option("--event", help="Data input with --model cox: the column that is 1 for an event.")
+@errors_option
 @click.option(
     "--ci",
     nargs=2,
@@ -121,6 +123,7 @@ def evalue_cmd(
     treatment: Any,
     model_kind: Any,
     event: Any,
+    errors: Any,
     ci: Any,
     ci_level: Any,
     se: Any,
@@ -180,12 +183,14 @@ def evalue_cmd(
 
         show_warnings()
         result = evalue_from_data(data, formula, treatment, model_kind, event=event,
-                                  contrast=contrast, outcome=outcome)  # fmt: skip
+                                  contrast=contrast, outcome=outcome, errors=errors)  # fmt: skip
         _finish(result, confounders, fmt, outputs, plots, plot_limits,
                 with_selection, with_misclassification)  # fmt: skip
         return
     if event is not None:
         raise click.UsageError("--event applies to data input with --model cox")
+    if errors is not None:
+        raise click.UsageError("--errors applies to data input (--data ... --model)")
     if scale == "rd" or counts:
         if scale != "rd" or estimate is not None or not counts:
             raise click.UsageError("the risk difference takes: evalue rd --counts A N1 C N0")

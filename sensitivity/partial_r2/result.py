@@ -115,7 +115,10 @@ class PartialR2Result(Result):
     cautions: tuple[str, ...] = standing.PARTIAL_R2
     assumptions: tuple[str, ...] = field(
         default=(
-            "OLS with classical (homoskedastic) standard errors.",
+            "OLS. The partial R², robustness value, bias and bias-adjusted estimates are "
+            "identities of the fit and do not depend on the standard errors; the robustness "
+            "value at alpha and the bias-adjusted se, t and CI use classical (homoskedastic) "
+            "standard errors.",
             "A single hidden confounder (or a linear combination of several), entering the "
             "outcome model linearly.",
             "Benchmarks: the confounder is orthogonal to the benchmark covariate given the others.",
