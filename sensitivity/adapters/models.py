@@ -361,7 +361,7 @@ def evalue_from_data(
     y = np.asarray(results.model.endog, float)
     sd = float(np.std(y, ddof=1))
     b, se = float(np.asarray(results.params)[j]), float(np.asarray(results.bse)[j])
-    res = evalue("md", b, se=se, sd=sd, contrast=contrast)
+    res = evalue("md", b, se=se, sd=sd, contrast=contrast)  # its interval: the 95% one
     code, words = used_by(results)
     info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment,
             "errors": code}  # fmt: skip

@@ -183,7 +183,8 @@ def evalue_cmd(
 
         show_warnings()
         result = evalue_from_data(data, formula, treatment, model_kind, event=event,
-                                  contrast=contrast, outcome=outcome, errors=errors)  # fmt: skip
+                                  contrast=contrast, outcome=outcome, errors=errors,
+                                  alpha=1 - ci_level)  # fmt: skip
         _finish(result, confounders, fmt, outputs, plots, plot_limits,
                 with_selection, with_misclassification)  # fmt: skip
         return

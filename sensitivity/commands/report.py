@@ -10,7 +10,15 @@ import click
 from sensitivity.commands import COMMANDS
 
 from . import _options
-from ._options import Command, Number, model_option, outcome_frequency_option, show_warnings
+from ._options import (
+    Command,
+    Number,
+    confounder_option,
+    errors_option,
+    model_option,
+    outcome_frequency_option,
+    show_warnings,
+)
 
 SHORT_HELP = COMMANDS["report"][1]
 
@@ -37,13 +45,35 @@ SHORT_HELP = COMMANDS["report"][1]
 @click.option("--treatment", help="Data input: the treatment's coefficient name.")
 @model_option("Data input: the fit.")
 @click.option("--event", help="Data input with --model cox: the event column.")
+@errors_option
 @click.option("--contrast", type=float, default=1.0, show_default=True,
               help="A continuous treatment: report per this many units.")  # fmt: skip
+@click.option("--ci-level", type=float, default=0.95, show_default=True,
+              help="The level of the intervals: of --ci and the table's limits, and of the "
+              "intervals computed from data (0.9 for 90%).")  # fmt: skip
+@click.option("--target", type=float, default=None,
+              help="Summary input: the true value to test against (default the null).")  # fmt: skip
+@confounder_option("A confounder to set against every estimate: its risk ratios with the "
+                   "treatment and the outcome (repeatable).")  # fmt: skip
+@click.option("--benchmark", "benchmarks", multiple=True,
+              help="Data input, --model ols: a measured covariate to compare with "
+              "(repeatable), as in partial-r2.")  # fmt: skip
+@click.option("--benchmark-r2", "benchmark_r2", nargs=3, multiple=True,
+              metavar="NAME R2_TREATMENT R2_OUTCOME",
+              help="A benchmark from published numbers, as in partial-r2 (regression "
+              "estimates: --data with --model ols, or table rows with se and dof).")  # fmt: skip
+@click.option("--times", multiple=True, type=float,
+              help="Benchmark multiple k, both sides (repeatable; default 1).")  # fmt: skip
+@click.option("--times-pair", "times_pairs", nargs=2, type=float, multiple=True,
+              metavar="K_TREATMENT K_OUTCOME",
+              help="Separate benchmark multiples for the two sides (repeatable).")  # fmt: skip
 @click.option("--out", "folder", required=True, type=click.Path(file_okay=False),
               help="The folder to write (created if missing).")  # fmt: skip
 def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: Any,
                prevalence: Any, label: str, estimates: Any, data: Any, formula: Any,
-               treatment: Any, model_kind: Any, event: Any, contrast: float,
+               treatment: Any, model_kind: Any, event: Any, errors: Any, contrast: float,
+               ci_level: float, target: Any, confounders: Any, benchmarks: Any,
+               benchmark_r2: Any, times: Any, times_pairs: Any,
                folder: str) -> None:  # fmt: skip
     """Write the robustness section of a manuscript to a folder.
 
@@ -53,10 +83,17 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
     each estimate's tables and sentences, the assumptions, the cautions, the references and
     the command that reproduces it.
 
+    The options of the commands it gathers apply here too: --ci-level, --confounder (set
+    against every estimate), --errors (data input), and for a regression coefficient
+    --benchmark, --benchmark-r2 and their multiples.
+
     \b
     Examples:
       sensitivity report hr 1.38 --ci 1.12 1.70 --outcome-frequency rare --out report
-      sensitivity report --estimates demo/cohort_estimates.csv --out report
+      sensitivity report --estimates demo/cohort_estimates.csv --confounder 2 2 --out report
+      sensitivity report --data demo/harbourside_bp.csv --model ols --treatment commute_min \\
+          --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
+          --benchmark smoker --times 1 --times 2 --errors hc1 --contrast 10 --out report
     """
     from sensitivity.output.report import Reproduce, write_report
 
@@ -67,10 +104,21 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
             "give one input: SCALE ESTIMATE (summary numbers), --estimates FILE, or --data "
             "with --formula, --treatment and --model"
         )
+    if (times or times_pairs) and not (benchmarks or benchmark_r2):
+        raise click.UsageError("--times and --times-pair need --benchmark or --benchmark-r2")
+    if benchmarks and not (data and model_kind == "ols"):
+        raise click.UsageError(
+            "--benchmark needs data input with --model ols (a measured covariate of the fit); "
+            "from a paper's tables use --benchmark-r2"
+        )
+    if errors is not None and not data:
+        raise click.UsageError("--errors applies to data input (--data ... --model)")
+    if target is not None and not scale:
+        raise click.UsageError("--target applies to summary input (SCALE ESTIMATE)")
     if estimates:
         from sensitivity.reporting import results_from_table
 
-        items = results_from_table(estimates)
+        items = results_from_table(estimates, ci_level=ci_level)
     elif data:
         missing = [n for n, v in (("--formula", formula), ("--treatment", treatment),
                                   ("--model", model_kind)) if not v]  # fmt: skip
@@ -79,14 +127,18 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
         from sensitivity.adapters.models import evalue_from_data
 
         res = evalue_from_data(data, formula, treatment, model_kind, event=event,
-                               contrast=contrast, outcome=outcome)  # fmt: skip
+                               contrast=contrast, outcome=outcome, alpha=1 - ci_level,
+                               errors=errors)  # fmt: skip
         items = [(label, res)]
         if model_kind == "ols":
             from dataclasses import replace
 
             from sensitivity.adapters.statsmodels import partial_r2_from_data
 
-            pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast)
+            pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast,
+                                       alpha=1 - ci_level, benchmarks=benchmarks,
+                                       times=list(times) or None,
+                                       times_pairs=times_pairs)  # fmt: skip
             items = [(label, replace(pr2, evalue=res))]
     else:
         if estimate is None:
@@ -94,8 +146,10 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
         from sensitivity.evalues.core import evalue
 
         res = evalue(scale, estimate, ci or None, se=se, sd=sd, outcome=outcome,
-                     prevalence=prevalence, contrast=contrast)  # fmt: skip
+                     prevalence=prevalence, contrast=contrast, ci_level=ci_level,
+                     target=target)  # fmt: skip
         items = [(label, res)]
+    items = _with_options(items, confounders, benchmark_r2, times, times_pairs)
     command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
     files = write_report(items, folder, Reproduce(command))
     click.echo(f"Wrote the report to {files['folder']}/ (report.html, report.md, tables.tex, "
@@ -104,6 +158,41 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
         e = result.report_parts()[0]
         ci_e = "-" if e.evalue_ci is None else f"{float(e.evalue_ci):.2f}"
         click.echo(f"{name}: E-value {float(e.evalue):.2f} (CI: {ci_e})")
+
+
+def _with_options(items: list[tuple[str, Any]], confounders: Any, benchmark_r2: Any,
+                  times: Any, times_pairs: Any) -> list[tuple[str, Any]]:  # fmt: skip
+    """Confounders on every E-value; published benchmarks on every regression coefficient."""
+    from dataclasses import replace
+
+    from sensitivity.evalues.result import EValueResult
+    from sensitivity.partial_r2.result import PartialR2Result
+
+    out = []
+    for name, result in items:
+        if confounders:
+            rr_t, rr_y = zip(*confounders, strict=True)
+            if isinstance(result, EValueResult):
+                result = result.with_confounders(rr_t, rr_y)
+            elif isinstance(result, PartialR2Result) and result.evalue is not None:
+                result = replace(result, evalue=result.evalue.with_confounders(rr_t, rr_y))
+        if benchmark_r2 and isinstance(result, PartialR2Result):
+            from sensitivity.partial_r2.published import (
+                benchmark_from_text,
+                with_published_benchmarks,
+            )
+
+            published = [benchmark_from_text(*b, dof=result.dof) for b in benchmark_r2]
+            result = with_published_benchmarks(
+                result, published, times=list(times) or None, times_pairs=times_pairs
+            )
+        out.append((name, result))
+    if benchmark_r2 and not any(isinstance(r, PartialR2Result) for _, r in out):
+        raise click.UsageError(
+            "--benchmark-r2 applies to a regression coefficient: data input with --model ols, "
+            "or --estimates rows with se and dof"
+        )
+    return out
 
 
 command = report_cmd

@@ -113,7 +113,7 @@ def table(r: PartialR2Result) -> Table:
         rows.append(
             (
                 f"E-value alongside ({_per(e.contrast).strip() or 'per unit'}; estimate / "
-                f"{_level(r)} CI)",
+                f"{e.ci_level:.0%} CI)",
                 f"{number(e.evalue)} / {number(e.evalue_ci)}",
             )
         )
