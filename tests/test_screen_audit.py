@@ -185,3 +185,12 @@ def test_parquet_input_types_pass_through(run, tmp_path):
     assert res.exit_code == 0, res.stderr
     out = pl.read_parquet(tmp_path / "out.parquet")
     assert out.schema["id"] == pl.Int64 and out["id"].to_list() == [7, 8]
+
+
+def test_a_decimal_point_in_a_european_file_is_flagged_not_guessed(run, tmp_path):
+    path = tmp_path / "eu.csv"
+    path.write_text(EUROPEAN + "4;rr;1.500;1,2;1,9;\n")
+    res = run("screen", path, "--format", "csv")
+    out = pl.read_csv(res.stdout.encode(), infer_schema=False)
+    assert "a decimal point where the file writes decimal commas" in out["error"][3]
+    assert out["error"].to_list()[:3] == ["", "", ""]

@@ -84,6 +84,7 @@ class Numbers:
     values: np.ndarray
     bad: np.ndarray
     bad_text: tuple[str, ...]
+    decimal_comma: bool = False  # read with decimal commas: a decimal point is not guessed at
 
 
 def _numbers(values: np.ndarray | Numbers, name: str) -> tuple[np.ndarray, np.ndarray]:
@@ -95,6 +96,8 @@ def _numbers(values: np.ndarray | Numbers, name: str) -> tuple[np.ndarray, np.nd
         reasons = np.full(len(values.values), "", dtype=object)
         for i, text in zip(values.bad.tolist(), values.bad_text, strict=True):
             hint = " (a decimal comma?)" if "," in text else ""
+            if values.decimal_comma and "." in text:
+                hint = " (a decimal point where the file writes decimal commas: 1,5 or 1.500?)"
             reasons[i] = f"`{name}` is not a number: {text.strip()[:40]!r}{hint}"
         return values.values, reasons
     arr = np.asarray(values)

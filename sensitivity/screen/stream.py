@@ -53,17 +53,21 @@ def text_or_numbers(column: Any, decimal_comma: bool = False) -> Any:
     if series.dtype.is_numeric():
         return series.cast(pl.Float64).to_numpy()
     trimmed = series.cast(pl.String).fill_null("").str.strip_chars()
+    cells = trimmed
     if decimal_comma:
+        # a decimal point in a file that writes decimal commas is not guessed at (1.500?)
         trimmed = trimmed.str.replace(_DECIMAL_COMMA, r"${1}.${2}")
+        trimmed = pl.Series(np.where(cells.str.contains(".", literal=True).to_numpy(),
+                                     "\0", trimmed.to_numpy()), dtype=pl.String)  # fmt: skip
     # polars reads exactly the numbers _NUMBER describes (ASCII digits, inf, infinity, nan in
     # any case; checked in tests/test_screen.py), so a failed cast is a cell that is not one
     values = trimmed.cast(pl.Float64, strict=False)
     floats = values.to_numpy().astype(float)
-    bad = (values.is_null() & (trimmed != "")).to_numpy()
+    bad = (values.is_null() & (cells != "")).to_numpy()
     if not bad.any():
         return floats
     where = np.flatnonzero(bad)
-    return Numbers(floats, where, tuple(trimmed.gather(where).to_list()))
+    return Numbers(floats, where, tuple(cells.gather(where).to_list()), decimal_comma)
 
 
 def clean_text(column: Any) -> Codes:
