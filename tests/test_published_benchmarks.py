@@ -198,3 +198,19 @@ def test_summary_benchmark_by_name_points_to_published_numbers(run):
     res = run("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--benchmark", "age")
     assert res.exit_code == 2
     assert "--benchmark-r2 NAME R2_TREATMENT R2_OUTCOME" in res.stderr
+
+
+def test_multiples_written_after_the_name(run):
+    base = ("partial-r2", "--estimate", 0.21, "--se", 0.06, "--dof", 2480, "--format", "json")
+    sides = ("t:2.7:2481", "t:5.2")
+    res = run(*base, "--benchmark-r2", "smoking:3", *sides, "--benchmark-r2", "smoking:1:2",
+              *sides)  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    got = [(s["k_treatment"], s["k_outcome"]) for s in json.loads(res.stdout)["scenarios"]]
+    assert got == [(3.0, 3.0), (1.0, 2.0)]
+    same = run(*base, "--benchmark-r2", "smoking", *sides, "--times", 3)
+    assert json.loads(same.stdout)["scenarios"][0] == json.loads(res.stdout)["scenarios"][0]
+    bad = run(*base, "--benchmark-r2", "smoking:0", *sides)
+    assert bad.exit_code == 2 and "`k_treatment` must be positive" in bad.stderr
+    bad = run(*base, "--benchmark-r2", "smoking:1:2:3", *sides)
+    assert bad.exit_code == 2 and "write NAME, NAME:K or NAME:K_T:K_Y" in bad.stderr

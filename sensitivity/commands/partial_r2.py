@@ -54,11 +54,12 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
     "benchmark_r2",
     nargs=3,
     multiple=True,
-    metavar="NAME R2_TREATMENT R2_OUTCOME",
+    metavar="NAME[:K[:K_OUTCOME]] R2_TREATMENT R2_OUTCOME",
     help="A benchmark from a paper's published numbers (repeatable; summary or data input): "
     "each side a partial R², or t:T:DOF, its t statistic and that model's degrees of freedom "
-    "(t:T on the outcome side uses --dof). R² = t²/(t² + dof). A treatment side not "
-    "published may be written assumed:R2, and the output states the assumption.",
+    "(t:T on the outcome side uses --dof). R² = t²/(t² + dof). NAME:K sets its multiple "
+    "(NAME:1:3 the two sides'). A treatment side not published may be written assumed:R2, "
+    "and the output states the assumption.",
 )
 @click.option(
     "--times",
@@ -234,12 +235,9 @@ def partial_r2_cmd(
             sd_outcome=sd,
         )
     if benchmark_r2:
-        from sensitivity.partial_r2.published import benchmark_from_text, with_published_benchmarks
+        from sensitivity.partial_r2.published import apply_text_benchmarks
 
-        published = [benchmark_from_text(*b, dof=result.dof) for b in benchmark_r2]
-        result = with_published_benchmarks(
-            result, published, times=list(times) or None, times_pairs=times_pairs
-        )
+        result = apply_text_benchmarks(result, benchmark_r2, list(times) or None, times_pairs)
     emit(result, fmt, outputs)
     if plots:
         from sensitivity.partial_r2.figures import partial_r2_contours

@@ -59,7 +59,7 @@ SHORT_HELP = COMMANDS["report"][1]
               help="Data input, --model ols: a measured covariate to compare with "
               "(repeatable), as in partial-r2.")  # fmt: skip
 @click.option("--benchmark-r2", "benchmark_r2", nargs=3, multiple=True,
-              metavar="NAME R2_TREATMENT R2_OUTCOME",
+              metavar="NAME[:K[:K_OUTCOME]] R2_TREATMENT R2_OUTCOME",
               help="A benchmark from published numbers, as in partial-r2 (regression "
               "estimates: --data with --model ols, or table rows with se and dof).")  # fmt: skip
 @click.option("--times", multiple=True, type=float,
@@ -177,15 +177,9 @@ def _with_options(items: list[tuple[str, Any]], confounders: Any, benchmark_r2: 
             elif isinstance(result, PartialR2Result) and result.evalue is not None:
                 result = replace(result, evalue=result.evalue.with_confounders(rr_t, rr_y))
         if benchmark_r2 and isinstance(result, PartialR2Result):
-            from sensitivity.partial_r2.published import (
-                benchmark_from_text,
-                with_published_benchmarks,
-            )
+            from sensitivity.partial_r2.published import apply_text_benchmarks
 
-            published = [benchmark_from_text(*b, dof=result.dof) for b in benchmark_r2]
-            result = with_published_benchmarks(
-                result, published, times=list(times) or None, times_pairs=times_pairs
-            )
+            result = apply_text_benchmarks(result, benchmark_r2, list(times) or None, times_pairs)
         out.append((name, result))
     if benchmark_r2 and not any(isinstance(r, PartialR2Result) for _, r in out):
         raise click.UsageError(

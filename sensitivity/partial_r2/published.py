@@ -182,6 +182,45 @@ def benchmark_from_text(
     return published_benchmark(name, **kwargs)
 
 
+def split_multiples(text: str) -> tuple[str, list[tuple[float, float]] | None]:
+    """NAME, NAME:K or NAME:K_TREATMENT:K_OUTCOME -> (name, [(k_t, k_y)] or None).
+
+    >>> split_multiples("smoking:2"), split_multiples("age:1:3"), split_multiples("bmi")
+    (('smoking', [(2.0, 2.0)]), ('age', [(1.0, 3.0)]), ('bmi', None))
+    """
+    name, *ks = text.split(":")
+    if not ks:
+        return name, None
+    if len(ks) > 2:
+        raise InputError(f"`--benchmark-r2` {text!r}: write NAME, NAME:K or NAME:K_T:K_Y")
+    values = [_number(k, f"{name} multiple") for k in ks]
+    kt, ky = values[0], values[-1]
+    return name, [(float(require(kt, "k_treatment", POSITIVE)),
+                   float(require(ky, "k_outcome", POSITIVE)))]  # fmt: skip
+
+
+def apply_text_benchmarks(
+    result: PartialR2Result,
+    benchmark_r2: Sequence[tuple[str, str, str]],
+    times: Sequence[float] | None = None,
+    times_pairs: Iterable[tuple[float, float]] = (),
+) -> PartialR2Result:
+    """`--benchmark-r2 NAME[:K[:K_OUTCOME]] RT RY` (repeatable) applied to `result`: a
+    multiple written after the name applies to that benchmark; otherwise `times` and
+    `times_pairs` (default 1)."""
+    times_pairs = list(times_pairs)
+    for raw_name, treatment, outcome in benchmark_r2:
+        name, own = split_multiples(raw_name)
+        bench = benchmark_from_text(name, treatment, outcome, dof=result.dof)
+        if own is not None:
+            result = with_published_benchmarks(result, [bench], times_pairs=own)
+        else:
+            result = with_published_benchmarks(
+                result, [bench], times=times, times_pairs=times_pairs
+            )
+    return result
+
+
 def as_benchmark(item: object) -> CovariateStrength:
     """A CovariateStrength, or a (name, r2_treatment, r2_outcome) triple, as a benchmark."""
     if isinstance(item, CovariateStrength):
@@ -290,6 +329,6 @@ def with_published_benchmarks(
     return replace(
         result,
         scenarios=result.scenarios + tuple(scenarios),
-        notes=result.notes + notes,
-        assumptions=result.assumptions + assumptions,
+        notes=tuple(dict.fromkeys(result.notes + notes)),
+        assumptions=tuple(dict.fromkeys(result.assumptions + assumptions)),
     )
