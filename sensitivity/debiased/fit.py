@@ -36,7 +36,7 @@ def make_learner(name: str, kind: str, seed: int | None = 0) -> Any:
     """A named default learner: `kind` "regressor" or "classifier".
 
     linear: least squares (logistic regression without penalty for a classifier); lasso:
-    standardised L1 fits with the penalty chosen by 3-fold cross-validation; forest: 200
+    standardised L1 fits with the penalty chosen by 3-fold cross-validation; forest: 100
     trees, leaves of at least 5 rows; boosting: histogram gradient boosting (100 rounds,
     early stopping on a tenth of the training rows), each with `seed`.
     """
@@ -70,7 +70,7 @@ def make_learner(name: str, kind: str, seed: int | None = 0) -> Any:
         from sklearn.ensemble import RandomForestClassifier, RandomForestRegressor
 
         cls = RandomForestRegressor if reg else RandomForestClassifier
-        return cls(n_estimators=200, min_samples_leaf=5, random_state=seed, n_jobs=1)
+        return cls(n_estimators=100, min_samples_leaf=5, random_state=seed, n_jobs=1)
     from sklearn.ensemble import HistGradientBoostingClassifier, HistGradientBoostingRegressor
 
     cls = HistGradientBoostingRegressor if reg else HistGradientBoostingClassifier
@@ -472,7 +472,16 @@ class _Fitter:
         pi = np.clip(pi, trim, 1 - trim)
         scores = core.average_effect_scores(y, d, mu0, mu1, pi)
         preds = {"outcome_treated": mu1, "outcome_control": mu0, "propensity": pi}
-        return core.moments(scores), preds, trimmed
+        try:
+            return core.moments(scores), preds, trimmed
+        except InputError as err:
+            if "Riesz" not in str(err):
+                raise
+            raise InputError(
+                f"{str(err).split(':')[0]}: {trimmed} propensities reached the trim limits "
+                f"[{trim:g}, {1 - trim:g}]; raise `trim`, or choose another `learner` (the "
+                "treatment may be too predictable from the covariates: poor overlap)"
+            ) from None
 
 
 #: Below this many training rows the learners run on one thread: starting threads costs more
