@@ -61,4 +61,9 @@ REFERENCES = {
         "VanderWeele TJ, Arah OA (2011). Bias formulas for sensitivity analysis of unmeasured "
         "confounding for general outcomes, treatments, and confounders. Epidemiology 22:42-52."
     ),
+    "chernozhukov-cinelli-2022": (
+        "Chernozhukov V, Cinelli C, Newey W, Sharma A, Syrgkanis V (2022). Long story short: "
+        "omitted variable bias in causal machine learning. NBER Working Paper 30302; "
+        "arXiv:2112.13398."
+    ),
 }
