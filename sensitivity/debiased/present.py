@@ -7,11 +7,20 @@ strengths and benchmarks) with their bounds, and the benchmarks' measured streng
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from functools import partial
+from typing import Any
+
 import numpy as np
 
-from ..output.document import Block, Document, prose, standard_tail
+from ..common.notes import REFERENCES
+from ..output.document import Block, Document, Figure, prose, standard_tail
+from ..output.report import ReportPart
 from ..output.tables import Table, number, percent
+from .figures import contours
 from .result import DebiasedResult, Scenario
+
+CITED = (REFERENCES["chernozhukov-cinelli-2022"], REFERENCES["cinelli-hazlett-2020"])
 
 EFFECT = {
     "partial-linear": ("effect", " (the coefficient of the partially linear model)"),
@@ -202,8 +211,83 @@ def tables(r: DebiasedResult) -> list[Table]:
     return [t for t in (table(r), scenario_table(r), benchmark_table(r)) if t]
 
 
+CAPTION = "The bound on the effect over the two strengths of a hidden confounder"
+
+
+def figures(r: DebiasedResult) -> tuple[Figure, ...]:
+    return (Figure("debiased", CAPTION, partial(contours, r)),)
+
+
 def document(r: DebiasedResult) -> Document:
     lead = sentence(r)
     blocks: tuple[Block, ...] = (prose(header(r)), *tables(r), prose(lead, role="sentence"))
     blocks += standard_tail(r.notes, r.cautions, r.assumptions)
-    return Document("Debiased-ML sensitivity", blocks, sentence=lead)
+    return Document("Debiased-ML sensitivity", blocks, figures=figures(r), references=CITED)
+
+
+METHODS = (
+    "For effects estimated by debiased (double) machine learning we bounded the bias a hidden "
+    "confounder could cause with the omitted-variable bounds of Chernozhukov, Cinelli, Newey, "
+    "Sharma and Syrgkanis (2022): the bias is at most |rho| S C_Y C_D, where S is estimated "
+    "from the data and C_Y, C_D grow with the shares of the outcome's residual variation "
+    "(cy2) and of the Riesz representer's variation (cd2) the confounder would explain. The "
+    "nuisance functions were cross-fitted; standard errors and the one-sided confidence "
+    "bounds come from the influence functions. We report the robustness value (the least "
+    "equal share that brings the bound to the null) with and without sampling error, and "
+    "benchmarks from measured covariates, whose strengths were measured by refitting the "
+    "learners without them."
+)
+
+
+def supplement_table(items: Sequence[tuple[str, DebiasedResult]]) -> Table:
+    rows = tuple(
+        (
+            label,
+            f"{_num(r, r.estimate)} ({level(r)} CI {_num(r, r.ci[0])} to {_num(r, r.ci[1])})",
+            fitted_by(r),
+            f"{r.n:,}",
+            percent(r.robustness_value),
+            percent(r.robustness_value_alpha),
+        )
+        for label, r in items
+    )
+    return Table(
+        (
+            "Estimate",
+            "Effect (CI)",
+            "Learners",
+            "n",
+            "Robustness value",
+            "Robustness value, confidence bound",
+        ),
+        rows,
+        title="Debiased machine-learning estimates: omitted-variable robustness values",
+        footnotes=(
+            "Robustness value: the least equal share of the outcome's residual variation and "
+            "of the Riesz representer's variation a confounder would need to explain to bring "
+            "the bound on the effect (or, in the last column, its one-sided confidence bound "
+            "at the row's level) to the target.",
+        ),
+    )
+
+
+def report_part(items: Sequence[Any]) -> ReportPart:
+    """The family's section of a manuscript report: a row an estimate, its contour figure."""
+    pairs = [(label, r) for label, r in items]
+    numbers = [getattr(item, "number", k) for k, item in enumerate(items, 1)]
+    figs = tuple(
+        Figure(f"debiased_{k}", f"{label}: {CAPTION.lower()}", partial(contours, r))
+        for k, (label, r) in zip(numbers, pairs, strict=True)
+    )
+    return ReportPart(
+        family="debiased",
+        methods=METHODS,
+        results=tuple(f"{label}: {sentence(r)}" for label, r in pairs),
+        tables=(supplement_table(pairs),),
+        figures=figs,
+        details=tuple((f"{label} (debiased ML)", document(r)) for label, r in pairs),
+        entries=tuple({"label": label, "family": "debiased", **r.to_dict()} for label, r in pairs),
+        assumptions=tuple(dict.fromkeys(a for _, r in pairs for a in r.assumptions)),
+        cautions=tuple(dict.fromkeys(c for _, r in pairs for c in r.cautions)),
+        references=CITED,
+    )
