@@ -114,6 +114,13 @@ def test_output_files_by_extension(run, data_csv, tmp_path):
     assert json.loads(out.read_text())["estimate"] is not None
 
 
+def test_plot_writes_the_contour_figure(run, data_csv, tmp_path):
+    out = tmp_path / "bound.png"
+    res = run(*args(data_csv, "--benchmark", "x1", "--plot", out))
+    assert res.exit_code == 0, res.stderr
+    assert out.stat().st_size > 1000 and f"Wrote {out}" in res.stderr
+
+
 @pytest.mark.parametrize(
     ("extra", "match"),
     [

@@ -134,6 +134,10 @@ class DebiasedResult(Result):
     assumptions: tuple[str, ...] = ()
     is_scalar = True
     _repr_fields = ("estimate", "se", "robustness_value", "robustness_value_alpha")
+    _input_fields = (
+        "target_effect", "treatment", "outcome", "covariates", "learner", "folds", "seed",
+        "alpha", "rho", "target",
+    )  # fmt: skip
 
     @property
     def n(self) -> int:
