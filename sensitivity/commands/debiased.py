@@ -149,12 +149,12 @@ def debiased_cmd(
 
     \b
     Examples:
-      sensitivity debiased --data demo/orchard_tutoring.csv --treatment tutoring \\
-          --outcome reading --covariates age,baseline,income,school \\
-          --learner forest --strength 0.05 0.05 --benchmark baseline
-      sensitivity debiased --data demo/orchard_tutoring.csv --treatment tutoring \\
-          --outcome reading --covariates age,baseline,income,school \\
-          --target-effect average --folds 5 --seed 3 --format json
+      sensitivity debiased --data harbourside_bp.csv --treatment commute_min \\
+          --outcome sbp --covariates age,female,smoker,shift,bmi --learner lasso \\
+          --strength 0.02 0.05 --benchmark smoker
+      sensitivity debiased --data harbourside_bp.csv --treatment smoker --outcome sbp \\
+          --covariates age,female,commute_min,shift,bmi --target-effect average \\
+          --learner forest --folds 3 --seed 3 --format json
     """
     import sys
     import time
