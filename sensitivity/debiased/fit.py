@@ -484,17 +484,11 @@ class _Fitter:
             ) from None
 
 
-#: Below this many training rows the learners run on one thread: starting threads costs more
-#: than it saves there (measured: 100 boosting rounds on 500 rows, 2.2 s on two busy cores
-#: against 0.18 s on one).
-ONE_THREAD_ROWS = 20_000
-
-
 def _threads(rows: int) -> Any:
-    import contextlib
-
-    if rows >= ONE_THREAD_ROWS:
-        return contextlib.nullcontext()
+    """Learners run on one thread. Measured on a shared two-core machine under load:
+    histogram boosting on 80,000 rows took 2.4 s on one thread and 34 s on two (OpenMP
+    threads wait for each other when the cores are busy); on 500 rows 0.18 s against 2.2 s.
+    Cross-fitting is many fits, so one thread each loses little even on an idle machine."""
     from threadpoolctl import threadpool_limits
 
     return threadpool_limits(1)
