@@ -60,7 +60,8 @@ def test_text(run, data_csv):
     assert res.exit_code == 0, res.stderr
     for text in ("robustness value", "Cautions:", "Assumptions:", "x1 ×1", "chosen 5.00% / 5.00%"):
         assert text in res.stdout
-    assert "Cross-fitted the linear learners on 300 rows" in res.stderr
+    assert "cross-fitted the linear learners on 300 rows" in res.stderr
+    assert "fitting learners: 1 of 8 fits" in res.stderr  # progress while the learners fit
 
 
 def test_json_keys_of_the_contract(run, data_csv):

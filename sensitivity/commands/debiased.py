@@ -13,13 +13,14 @@ from ._options import Command, check_plot, emit, format_options, show_warnings
 SHORT_HELP = COMMANDS["debiased"][1]
 
 
-def _progress() -> Any:
-    """Progress on stderr: one line rewritten in place on a terminal, else a line a stage."""
+def _progress() -> tuple[Any, bool]:
+    """Progress on stderr while the learners fit: one line rewritten in place on a terminal,
+    else a line a fit (a log keeps them all)."""
     import sys
 
     if sys.stderr.isatty():
-        return lambda line: click.echo(f"\r{line}", err=True, nl=False)
-    return None
+        return (lambda line: click.echo(f"\r{line}", err=True, nl=False)), True
+    return (lambda line: click.echo(line, err=True)), False
 
 
 @click.command("debiased", cls=Command, short_help=SHORT_HELP)
@@ -177,7 +178,7 @@ def debiased_cmd(
             raise InputError(f"`multiple` must be positive; got {k:g}")
     from sensitivity.debiased.fit import debiased_fit
 
-    say = _progress()
+    say, in_place = _progress()
     start = time.perf_counter()
     fit = debiased_fit(
         data,
@@ -190,13 +191,14 @@ def debiased_cmd(
         seed=seed,
         benchmarks=benchmarks,
         trim=trim,
-        progress=say or False,
+        progress=say,
     )
-    if say is not None:
+    if in_place:
         click.echo("", err=True)
     took = time.perf_counter() - start
     click.echo(
-        f"Cross-fitted the {learner} learners on {fit.moments.n:,} rows in {folds} fold(s)"
+        f"Read the data and cross-fitted the {learner} learners on {fit.moments.n:,} rows in "
+        f"{folds} fold(s)"
         f"{f' and {len(benchmarks)} benchmark refit(s)' if benchmarks else ''} in {took:.1f} s.",
         err=True,
     )

@@ -169,7 +169,9 @@ def moments(scores: Scores) -> Moments:
 
 
 # --------------------------------------------------------------------------- bounds
-def check_strengths(cy2: ArrayLike, cd2: ArrayLike, rho: ArrayLike = 1.0):
+def check_strengths(
+    cy2: ArrayLike, cd2: ArrayLike, rho: ArrayLike = 1.0
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """cy2 and cd2 in [0, 1), rho in (0, 1], as float arrays."""
     return (
         require(cy2, "cy2", STRENGTH),
@@ -272,7 +274,7 @@ def robustness_value(m: Moments, target: float = 0.0, rho: float = 1.0) -> float
     """
     rho = float(require(rho, "rho", RHO))
     f = abs(m.estimate - float(target)) / (rho * m.s)
-    return float(_rv_curve(f))
+    return float(_rv_curve(np.asarray(f)))
 
 
 def _ci_gap(m: Moments, s: np.ndarray, target: float, rho: float, z: float) -> np.ndarray:

@@ -123,7 +123,9 @@ def _design(frame: Any, covariates: Sequence[str]) -> tuple[np.ndarray, dict[str
     return np.hstack(blocks), groups
 
 
-def _columns(data: Any, treatment: Any, outcome: Any, covariates: Any, formula: Any):
+def _columns(
+    data: Any, treatment: Any, outcome: Any, covariates: Any, formula: Any
+) -> tuple[str, str, list[str]]:
     """Treatment, outcome and covariate names from a column list or a formula."""
     if formula is not None:
         from ..adapters.statsmodels import formula_columns
@@ -457,7 +459,7 @@ class _Fitter:
     def __init__(self, y, d, effect, reg, reg_d, clf, ids, folds, trim, tick, caught):
         self.args = (y, d, effect, reg, reg_d, clf, ids, folds, trim, tick, caught)
 
-    def __call__(self, x: np.ndarray):
+    def __call__(self, x: np.ndarray) -> tuple[core.Moments, dict[str, np.ndarray], int]:
         y, d, effect, reg, reg_d, clf, ids, folds, trim, tick, caught = self.args
         if effect == "partial-linear":
             y_hat = _crossfit(x, y, reg, ids, folds, "regressor", None, tick, caught)

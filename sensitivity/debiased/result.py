@@ -295,7 +295,7 @@ class DebiasedFit:
             out = core.bounds(m, cy2, cd2, rho, alpha)
             for i in range(len(pairs)):
                 scenarios.append(_scenario(out, i, cy2[i], cd2[i], rho))
-        ks = [(float(k), float(k)) if np.ndim(k) == 0 else tuple(map(float, k)) for k in multiples]
+        ks = [_multiple(k) for k in multiples]
         notes = list(self.notes)
         for b in self.benchmarks:
             for ky, kd in ks:
@@ -355,6 +355,18 @@ class DebiasedFit:
             notes=tuple(notes),
             assumptions=ASSUMPTIONS[self.target_effect] + COMMON_ASSUMPTIONS,
         )
+
+
+def _multiple(k: Any) -> tuple[float, float]:
+    """A benchmark multiple as (k_outcome, k_treatment): k alone means both sides."""
+    from ..common.checks import as_array
+
+    arr = as_array(k, "multiples")
+    if arr.ndim == 0:
+        return float(arr), float(arr)
+    if arr.shape != (2,):
+        raise InputError(f"`multiples` must be k or (k_outcome, k_treatment) pairs; got {k!r}")
+    return float(arr[0]), float(arr[1])
 
 
 def _scenario(out: dict, i: int | None, cy2: Any, cd2: Any, rho: float, **extra: Any) -> Scenario:
