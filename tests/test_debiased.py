@@ -455,10 +455,13 @@ def test_bad_strengths_name_the_argument(kw, match):
 
 
 def test_extreme_propensities_are_refused_naming_trim():
-    frame = _small(0, 240)
-    with pytest.raises(InputError, match=r"not positive \(nu2 = .*raise `trim`"):
-        debiased_fit(frame, "d", "y", ["x0", "x1", "x2"], target_effect="average",
-                     learner="boosting", folds=2, seed=2)  # fmt: skip
+    # A single deep tree predicts 0 or 1: every propensity is clipped to the trim limits and
+    # the Riesz moment 2 (1/pi + 1/(1 - pi)) - alpha^2 averages below zero.
+    from sklearn.tree import DecisionTreeClassifier
+
+    with pytest.raises(InputError, match=r"not positive \(nu2 = .*reached the trim .*`trim`"):
+        debiased_fit(_small(0, 240), "d", "y", ["x0", "x1", "x2"], target_effect="average",
+                     learner="linear", treatment_learner=DecisionTreeClassifier(), folds=2)  # fmt: skip
 
 
 def test_without_scikit_learn_the_message_says_what_to_install(monkeypatch):
