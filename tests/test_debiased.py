@@ -199,6 +199,42 @@ def test_ols_identity_a_benchmark_of_the_hidden_variable_lands_on_the_long_estim
     assert min(abs(e - long.estimate) for e in ends) < 1e-10
 
 
+class _LinearProbability:
+    """A least-squares classifier (not a scikit-learn estimator: it is deep-copied per fold):
+    on saturated indicators its fitted values are the cells' proportions exactly."""
+
+    classes_ = np.array([0, 1])
+
+    def fit(self, x, y):
+        from sklearn.linear_model import LinearRegression
+
+        self.model = LinearRegression().fit(x, y)
+        return self
+
+    def predict_proba(self, x):
+        p = self.model.predict(x)
+        return np.column_stack([1 - p, p])
+
+
+def test_average_effect_with_saturated_learners_is_the_standardised_difference():
+    # With one categorical covariate, linear learners on its indicators are saturated: the
+    # AIPW estimate is the difference of cell means weighted by the cells' sizes
+    # (regression standardisation), computed here independently with pandas.
+    rng = np.random.default_rng(4)
+    n = 600
+    cell = rng.choice(["a", "b", "c", "d"], n, p=[0.1, 0.3, 0.4, 0.2])
+    shift = pd.Series(cell).map({"a": -1.0, "b": 0.0, "c": 0.5, "d": 1.5}).to_numpy()
+    d = (rng.uniform(size=n) < 0.2 + 0.15 * (shift + 1)).astype(int)
+    y = 1.0 * d + 2 * shift + 0.5 * d * shift + rng.normal(size=n)
+    frame = pd.DataFrame({"y": y, "d": d, "cell": cell})
+    means = frame.groupby(["cell", "d"])["y"].mean().unstack()
+    weights = frame["cell"].value_counts(normalize=True)
+    standardised = float(((means[1] - means[0]) * weights).sum())
+    fit = debiased_fit(frame, "d", "y", ["cell"], target_effect="average", learner="linear",
+                       treatment_learner=_LinearProbability(), folds=1, trim=1e-6)  # fmt: skip
+    assert fit.estimate == pytest.approx(standardised, rel=1e-10)
+
+
 # --------------------------------------------------------------------------- simulation
 def test_simulation_bound_at_true_strengths_covers_and_a_copy_recovers_them():
     # Y = theta D + X c + a_y A + e, D = X b + a_d A + e_d, all N(0, 1) and independent:
