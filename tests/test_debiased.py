@@ -496,8 +496,16 @@ def test_extreme_propensities_are_refused_naming_trim():
     from sklearn.tree import DecisionTreeClassifier
 
     with pytest.raises(InputError, match=r"not positive \(nu2 = .*reached the trim .*`trim`"):
-        debiased_fit(_small(0, 240), "d", "y", ["x0", "x1", "x2"], target_effect="average",
-                     learner="linear", treatment_learner=DecisionTreeClassifier(), folds=2)  # fmt: skip
+        debiased_fit(
+            _small(0, 240),
+            "d",
+            "y",
+            ["x0", "x1", "x2"],
+            target_effect="average",
+            learner="linear",
+            treatment_learner=DecisionTreeClassifier(),
+            folds=2,
+        )
 
 
 def test_without_scikit_learn_the_message_says_what_to_install(monkeypatch):
