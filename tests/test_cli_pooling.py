@@ -110,7 +110,8 @@ def test_errors_exit_2_with_one_line(run, args, message):
         ("label,result\nA,RR 1.3 (1.1-1.5)\n", "pooling needs at least 2 usable studies; got 1"),
         ("label,result\nA,RR 1.3 (1.1-1.5)\nB,RR 1.2 (1.2-1.2)\n",
          "row 2: `se` must be positive; got 0"),
-        ("label,log_estimate,se\nA,0.3,0.1\nB,0.2,-0.1\n", "row 2: `se` must be positive; got -0.1"),
+        ("label,log_estimate,se\nA,0.3,0.1\nB,0.2,-0.1\n",
+         "row 2: `se` must be positive; got -0.1"),
     ],
 )  # fmt: skip
 def test_too_few_usable_studies_exit_2_naming_the_rule(run, tmp_path, content, message):
@@ -150,3 +151,27 @@ def test_help_examples_run(example, tmp_path, monkeypatch):
     args = shlex.split(example)
     res = CliRunner().invoke(cli, args[1:])
     assert res.exit_code == 0, res.stderr
+
+
+def test_screen_pools_what_it_screened(run, tmp_path):
+    res = run("screen", DEMO, "--from-text", "result", "--pool", "1.1")
+    assert res.exit_code == 0, res.stderr
+    assert "Screened results by scale" in res.stdout
+    text = " ".join(res.stdout.split())
+    assert "A random-effects meta-analysis of 11 studies" in text
+    assert "were pooled on the risk-ratio scale after the screen's conversions" in text
+    res = run("screen", DEMO, "--from-text", "result", "--pool", "1.1", "--format", "json")
+    data = json.loads(res.stdout)
+    assert data["pool"]["pooled"]["studies"] == 11 and len(data["rows"]) == 13
+    assert "A random-effects meta-analysis" in res.stderr
+    alone = json.loads(run(*BASE, "--format", "json").stdout)
+    assert data["pool"]["pooled"] == alone["pooled"]
+
+
+def test_screen_pool_errors_exit_2(run, tmp_path):
+    path = tmp_path / "one.csv"
+    path.write_text("result\nRR 1.3 (1.1-1.5)\n")
+    res = run("screen", path, "--from-text", "result", "--pool", "1.1")
+    assert res.exit_code == 2 and "at least 2 usable studies" in res.stderr
+    res = run("screen", DEMO, "--from-text", "result", "--pool", "0")
+    assert res.exit_code == 2 and "`threshold` must be positive; got 0" in res.stderr

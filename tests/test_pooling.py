@@ -20,12 +20,12 @@ from hypothesis import strategies as st
 from sensitivity.common.errors import InputError
 from sensitivity.evalues.core import evalue_of_rr
 from sensitivity.pooling import (
+    core,
     fit_random_effects,
     pool_estimates,
     pool_table,
     read_studies,
 )
-from sensitivity.pooling import core
 
 # An invented set of studies (log risk ratios and standard errors) for the checks below.
 Y = np.array([0.30, 0.10, 0.45, 0.22, 0.05, 0.38, 0.18, 0.60, -0.05, 0.27, 0.33, 0.12])
@@ -65,12 +65,16 @@ def test_delta_method_ses_match_a_finite_difference_gradient(direction, bias_sd)
     q = np.log(1.1) if direction == "above" else np.log(1 / 1.1)
     x = np.array([mu, tau])
     for bias in (1.0, 1.1, 1.3):
-        g = _gradient(lambda m, t: float(core.share_beyond(m, t, q, bias, direction, bias_sd)), x)
+        g = _gradient(
+            lambda m, t, b=bias: float(core.share_beyond(m, t, q, b, direction, bias_sd)), x
+        )
         expected = np.sqrt(g[0] ** 2 * var_mu + g[1] ** 2 * var_tau)
         got = float(core.share_se(mu, tau, var_mu, var_tau, q, bias, direction, bias_sd))
         assert got == pytest.approx(expected, rel=1e-6)
     for r in (0.1, 0.3, 0.5):
-        g = _gradient(lambda m, t: float(core.bias_to_reduce(m, t, q, r, direction, bias_sd)), x)
+        g = _gradient(
+            lambda m, t, r=r: float(core.bias_to_reduce(m, t, q, r, direction, bias_sd)), x
+        )
         t_hat = float(core.bias_to_reduce(mu, tau, q, r, direction, bias_sd))
         expected = np.sqrt(g[0] ** 2 * var_mu + g[1] ** 2 * var_tau)
         assert float(core.bias_to_reduce_se(t_hat, tau, var_mu, var_tau, r, bias_sd)) == (

@@ -43,7 +43,7 @@ def _phi(z: np.ndarray) -> np.ndarray:
 
 
 def direction_of(mu: float) -> str:
-    """"above" for an apparently causative pooled effect (mu >= 0), else "below"."""
+    """ "above" for an apparently causative pooled effect (mu >= 0), else "below"."""
     return CAUSATIVE if mu >= 0 else PREVENTIVE
 
 

@@ -351,8 +351,9 @@ def read_studies(
     if n == 0:
         raise InputError("the table of studies has no rows")
     labels = (
-        np.asarray([str(v) if v is not None else "" for v in frame[label_col].to_list()],
-                   dtype=object)  # fmt: skip
+        np.asarray(
+            [str(v) if v is not None else "" for v in frame[label_col].to_list()], dtype=object
+        )  # fmt: skip
         if label_col is not None
         else np.asarray([f"Row {i}" for i in range(1, n + 1)], dtype=object)
     )
@@ -379,17 +380,23 @@ def read_studies(
             if reasons[i]:
                 continue
             if not np.isfinite(y[i]):
-                reasons[i] = "`log_estimate` is missing" if np.isnan(y[i]) else (
-                    f"`log_estimate` must be a finite number; got {y[i]:g}"
+                reasons[i] = (
+                    "`log_estimate` is missing"
+                    if np.isnan(y[i])
+                    else (f"`log_estimate` must be a finite number; got {y[i]:g}")
                 )
             elif not (s[i] > 0) or not np.isfinite(s[i]):
-                reasons[i] = "`se` is missing" if np.isnan(s[i]) else (
-                    f"`se` must be positive; got {s[i]:g}"
+                reasons[i] = (
+                    "`se` is missing"
+                    if np.isnan(s[i])
+                    else (f"`se` must be positive; got {s[i]:g}")
                 )
         notes = np.where(reasons == "", "given on the log scale", "").astype(object)
         y = np.where(reasons == "", y, np.nan)
         s = np.where(reasons == "", s, np.nan)
-        return _study_columns(labels, y, s, reasons, notes)
+        columns_out = _study_columns(labels, y, s, reasons, notes)
+        columns_out["scale"] = np.where(reasons == "", "log", "").astype(object)
+        return columns_out
     out = screen_table(frame, columns=mapping or None, from_text=from_text)
     rr = out["rr"].fill_null(np.nan).to_numpy().astype(float)
     lo = out["rr_lower"].fill_null(np.nan).to_numpy().astype(float)
@@ -431,6 +438,7 @@ def read_studies(
     columns_out["evalue"] = out["evalue"].fill_null(np.nan).to_numpy().astype(float)
     columns_out["evalue_ci"] = out["evalue_ci"].fill_null(np.nan).to_numpy().astype(float)
     columns_out["level"] = levels
+    columns_out["scale"] = np.where(good, scale, "").astype(object)
     del pl
     return columns_out
 
@@ -466,10 +474,21 @@ def pool_table(
         flagged = [f"row {i + 1}: {e}" for i, e in enumerate(studies["error"]) if e][:3]
         detail = f" (flagged: {'; '.join(flagged)})" if flagged else ""
         raise InputError(f"pooling needs at least 2 usable studies; got {k}{detail}")
-    return pool_estimates(
+    result = pool_estimates(
         studies["log_estimate"][good], studies["se"][good], threshold=threshold,
         _studies=studies, **options,
     )  # fmt: skip
+    scales = sorted(set(studies["scale"][good].tolist()))
+    if len(scales) > 1:
+        from dataclasses import replace
+
+        mixed = (
+            f"Studies on {len(scales)} scales ({', '.join(scales)}) were pooled on the "
+            "risk-ratio scale after the screen's conversions; pool only studies of one "
+            "question, and check that the conversions suit each outcome."
+        )
+        result = replace(result, notes=(mixed, *result.notes))
+    return result
 
 
 __all__ = ["METHODS", "fit_random_effects", "pool_estimates", "pool_table", "read_studies"]

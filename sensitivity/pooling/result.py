@@ -11,7 +11,7 @@ from ..common.results import Result, plain
 
 #: Per-study columns, in output order.
 STUDY_KEYS = (
-    "label", "used", "log_estimate", "se", "weight", "rr", "rr_lower", "rr_upper", "level",
+    "label", "used", "scale", "log_estimate", "se", "weight", "rr", "rr_lower", "rr_upper", "level",
     "evalue", "evalue_ci", "error", "notes",
 )  # fmt: skip
 
@@ -105,7 +105,9 @@ class PoolResult(Result):
                 "share_beyond": [
                     {"bias": b, "share": p, "se": s}
                     for b, p, s in zip(
-                        plain(self.bias), plain(self.share_beyond), plain(self.share_beyond_se),
+                        plain(self.bias),
+                        plain(self.share_beyond),
+                        plain(self.share_beyond_se),
                         strict=True,
                     )
                 ],
