@@ -61,4 +61,21 @@ REFERENCES = {
         "VanderWeele TJ, Arah OA (2011). Bias formulas for sensitivity analysis of unmeasured "
         "confounding for general outcomes, treatments, and confounders. Epidemiology 22:42-52."
     ),
+    "mathur-vanderweele-2020": (
+        "Mathur MB, VanderWeele TJ (2020). Sensitivity analysis for unmeasured confounding in "
+        "meta-analyses. Journal of the American Statistical Association 115:163-172."
+    ),
+    "dersimonian-laird-1986": (
+        "DerSimonian R, Laird N (1986). Meta-analysis in clinical trials. Controlled Clinical "
+        "Trials 7:177-188."
+    ),
+    "paule-mandel-1982": (
+        "Paule RC, Mandel J (1982). Consensus values and weighting factors. Journal of Research "
+        "of the National Bureau of Standards 87:377-385."
+    ),
+    "biggerstaff-tweedie-1997": (
+        "Biggerstaff BJ, Tweedie RL (1997). Incorporating variability in estimates of "
+        "heterogeneity in the random effects model in meta-analysis. Statistics in Medicine "
+        "16:753-768."
+    ),
 }
