@@ -268,6 +268,15 @@ def test_the_result_holds_every_contract_key():
     assert repr(r).startswith("<PoolResult k=12")
 
 
+def test_varying_bias_is_said_as_a_geometric_mean():
+    r = pool_estimates(Y, SE, threshold=1.1, share=0.1, bias_sd=0.05)
+    assert r.bias_sd == 0.05
+    text = " ".join(r.sentence().split())
+    assert "varying between studies around a geometric mean of" in text
+    common = pool_estimates(Y, SE, threshold=1.1, share=0.1)
+    assert r.bias_to_reduce < common.bias_to_reduce  # less spread left: T moves toward mu/q
+
+
 def test_the_share_at_the_reported_bias_is_r_through_the_public_api():
     r = pool_estimates(Y, SE, threshold=1.1, share=0.25, method="dl")
     at_t = pool_estimates(Y, SE, threshold=1.1, share=0.25, method="dl", bias=r.bias_to_reduce)

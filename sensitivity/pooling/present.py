@@ -117,6 +117,15 @@ def sentence(r: PoolResult) -> str:
             f" That share is already at most {percent(r.share, 0)} without any confounding bias."
         )
     se = f" (SE {number(r.bias_to_reduce_se)})" if np.isfinite(r.bias_to_reduce_se) else ""
+    if r.bias_sd > 0:
+        return lead + (
+            f" Confounding bias factors varying between studies around a geometric mean of "
+            f"{number(r.bias_to_reduce)}{se} (SD {r.bias_sd:g} on the log scale) could reduce "
+            f"that share to {percent(r.share, 0)}, and a smaller geometric mean could not; a "
+            f"bias factor of that size is what an unmeasured confounder associated with both "
+            f"the treatment and the outcome by risk ratios of {number(r.strength_to_reduce)} "
+            f"each could produce."
+        )
     return lead + (
         f" A common confounding bias factor of {number(r.bias_to_reduce)}{se} in every study "
         f"could reduce that share to {percent(r.share, 0)}, and a smaller one could not; an "
