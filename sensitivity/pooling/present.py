@@ -42,8 +42,9 @@ def pooled_table(r: PoolResult) -> Table:
         ("Random-effects model", "Value"),
         rows,
         title=f"Pooled estimate ({r.method_name} heterogeneity)",
-        footnotes=("The E-values are those of the pooled estimate alone (VanderWeele & "
-                   "Ding 2017), shown beside the share below.",),
+        footnotes=(f"The {r.level:.0%} CI is a Wald interval on the log scale (normal, without "
+                   "a Hartung-Knapp adjustment). The E-values are those of the pooled estimate "
+                   "alone (VanderWeele & Ding 2017), shown beside the share below.",),
     )  # fmt: skip
 
 
@@ -149,5 +150,85 @@ def blocks(r: PoolResult) -> tuple[Block, ...]:
 
 def document(r: PoolResult) -> Document:
     return Document(
-        "Confounding in a random-effects meta-analysis", blocks(r), sentence=sentence(r)
+        "Confounding in a random-effects meta-analysis",
+        blocks(r),
+        sentence=sentence(r),
+        references=references(r),
+    )
+
+
+# --------------------------------------------------------------------------- the report
+REFERENCE_KEYS = (
+    "mathur-vanderweele-2020",
+    "vanderweele-ding-2017",
+    "biggerstaff-tweedie-1997",
+)
+ESTIMATOR_KEYS = {"pm": "paule-mandel-1982", "dl": "dersimonian-laird-1986"}
+
+
+def references(r: PoolResult) -> tuple[str, ...]:
+    from ..common.notes import REFERENCES
+
+    keys = (*REFERENCE_KEYS[:1], ESTIMATOR_KEYS[r.method], *REFERENCE_KEYS[1:])
+    return tuple(REFERENCES[k] for k in keys)
+
+
+def methods_paragraph(results: list[PoolResult]) -> str:
+    estimators = sorted({r.method_name for r in results})
+    return (
+        "Studies were pooled by a random-effects model on the log risk-ratio scale "
+        "(statsmodels' combine_effects; heterogeneity by the "
+        f"{' and '.join(estimators)} estimator{'s' if len(estimators) > 1 else ''}), with "
+        "each study's standard error taken from its confidence interval at the interval's "
+        "own level. Following Mathur and VanderWeele (2020), we estimated the share of true "
+        "effects beyond a meaningful risk ratio after removing a confounding bias factor "
+        "common to every study, the least such bias factor that would bring that share down "
+        "to a chosen level, and the least strength of an unmeasured confounder (equal risk "
+        "ratios with the treatment and the outcome) that could produce it, with delta-method "
+        "standard errors; the E-value of the pooled estimate is given beside them "
+        "(VanderWeele and Ding 2017)."
+    )
+
+
+def _slug(label: str) -> str:
+    import re
+
+    return re.sub(r"[^a-z0-9]+", "-", label.lower()).strip("-") or "pool"
+
+
+def report_part(items):  # noqa: ANN001, ANN201 - (label, PoolResult) pairs -> ReportPart
+    """This family's part of the manuscript report (see sensitivity.output.report)."""
+    from dataclasses import replace
+    from functools import partial
+
+    from ..output.document import Figure
+    from ..output.report import ReportPart
+    from .figures import CAPTIONS, forest, share_curve
+
+    items = list(items)
+    results = [r for _, r in items]
+    tables, figures, details, entries, cautions, refs = [], [], [], [], [], []
+    for label, r in items:
+        for table in (pooled_table(r), answer_table(r), share_table(r), study_table(r)):
+            tables.append(replace(table, title=f"{label}: {table.title}"))
+        slug = _slug(label)
+        figures.append(Figure(f"{slug}-forest", f"{label}. {CAPTIONS['forest']}",
+                              draw=partial(forest, r)))  # fmt: skip
+        figures.append(Figure(f"{slug}-share", f"{label}. {CAPTIONS['share']}",
+                              draw=partial(share_curve, r)))  # fmt: skip
+        details.append((label, document(r)))
+        entries.append({"label": label, "family": "pooling", **r.to_dict()})
+        cautions += [c for c in r.cautions if c not in cautions]
+        refs += [x for x in references(r) if x not in refs]
+    return ReportPart(
+        family="pooling",
+        methods=methods_paragraph(results),
+        results=tuple(f"{label}: {sentence(r)}" for label, r in items),
+        tables=tuple(tables),
+        figures=tuple(figures),
+        details=tuple(details),
+        entries=tuple(entries),
+        assumptions=ASSUMPTIONS,
+        cautions=tuple(cautions),
+        references=tuple(refs),
     )
