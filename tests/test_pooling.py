@@ -357,3 +357,35 @@ def test_a_table_with_fewer_than_two_usable_studies_names_the_flagged_rows():
         pool_table(table, from_text="result", threshold=1.1)
     with pytest.raises(InputError, match="no standard error column 'se'"):
         pool_table(pd.DataFrame({"log_estimate": [0.1, 0.2]}), threshold=1.1)
+
+
+# --------------------------------------------------------------------------- report, figures
+def test_the_manuscript_report_takes_a_pooled_result(tmp_path):
+    import json
+
+    from sensitivity import evalue, report
+
+    r = pool_estimates(Y, SE, threshold=1.1, labels=[f"Cohort {i}" for i in range(Y.size)])
+    files = report({"Solvent, kidney": r, "One cohort": evalue("rr", 1.4, ci=(1.1, 1.8))},
+                   tmp_path)  # fmt: skip
+    data = json.loads(files["json"].read_text())
+    entry = data["estimates"][0]
+    assert entry["label"] == "Solvent, kidney" and entry["family"] == "pooling"
+    assert entry["pooled"]["estimate"] == pytest.approx(r.pooled_estimate)
+    assert "Mathur and VanderWeele (2020)" in data["methods_text"]
+    assert any("Mathur MB, VanderWeele TJ (2020)" in ref for ref in data["references"])
+    assert "Solvent, kidney: A random-effects meta-analysis of 12 studies" in data["results_text"]
+    for name in ("pool-forest_1.png", "pool-share_1.svg"):
+        assert (tmp_path / name).stat().st_size > 1000
+    text = files["md"].read_text()
+    assert "Least common bias factor bringing it to 10%" in text
+
+
+def test_the_document_draws_both_figures_on_demand(tmp_path):
+    r = pool_estimates(Y, SE, threshold=1.1, bias_sd=0.05)
+    figs = {f.key: f for f in r.document().figures}
+    assert set(figs) == {"pool-forest", "pool-share"}
+    for key, fig in figs.items():
+        fig.draw([tmp_path / f"{key}.png", tmp_path / f"{key}.pdf"])
+        assert (tmp_path / f"{key}.pdf").read_bytes().startswith(b"%PDF")
+    assert r.document().sentences == [r.sentence()]

@@ -10,44 +10,16 @@ from typing import Any
 
 import numpy as np
 
-from ..output import figures as _shared
-
-
-class _Plumbing:
-    """The shared figure plumbing by its public names (older names where main lacks them)."""
-
-    check_plot_path = staticmethod(_shared.check_plot_path)
-    log_ticks = staticmethod(_shared.log_ticks)
-
-    @staticmethod
-    def pyplot() -> Any:
-        return getattr(_shared, "pyplot", None) or _shared._pyplot()
-
-    @staticmethod
-    def new_figure(figsize: tuple[float, float]) -> tuple[Any, Any]:
-        if hasattr(_shared, "new_figure"):
-            return _shared.new_figure(figsize=figsize)
-        plt = _shared._pyplot()
-        plt.rcParams.update(_shared.STYLE)
-        return plt.subplots(figsize=figsize, layout="constrained")
-
-    @staticmethod
-    def save_figure(fig: Any, paths: Sequence[Path]) -> list[Path]:
-        if hasattr(_shared, "save_figure"):
-            return list(_shared.save_figure(fig, paths))
-        _shared._save(fig, paths)
-        return [Path(p) for p in paths]
-
-    @staticmethod
-    def percent_axis(ax: Any, which: str) -> None:
-        getattr(_shared, "percent_axis", _shared._percent)(ax, which)
-
-    @staticmethod
-    def legend_below(ax: Any, handles: list) -> None:
-        getattr(_shared, "legend_below", _shared._legend)(ax, handles)
-
-
-plumbing = _Plumbing
+from ..output.figures import (
+    figure_paths,
+    legend_below,
+    log_ticks,
+    new_figure,
+    percent_axis,
+    plot_label,
+    pyplot,
+    save_figure,
+)
 
 #: The figures, by key: their captions (the report and `--plot` name them).
 CAPTIONS = {
@@ -60,20 +32,15 @@ CAPTIONS = {
 }
 
 
-def _paths(paths: str | Path | Sequence[str | Path]) -> list[Path]:
-    items = [paths] if isinstance(paths, (str, Path)) else list(paths)
-    return [plumbing.check_plot_path(p) for p in items]
-
-
 def forest(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
     """A forest plot of the pooled studies and the pooled estimate, with E-values."""
-    out = _paths(paths)
+    out = figure_paths(paths)
     r = result
     s = r.studies
     used = np.flatnonzero(np.asarray(s["used"], bool))
     n = used.size
-    plt = plumbing.pyplot()
-    fig, ax = plumbing.new_figure((6.4, max(2.6, 0.32 * (n + 3) + 1.2)))
+    plt = pyplot()
+    fig, ax = new_figure((6.4, max(2.6, 0.32 * (n + 3) + 1.2)))
     ys = np.arange(n, 0, -1) + 1.0  # studies from the top; the pooled row at y = 1
     rr, lo, hi = (np.asarray(s[k], float)[used] for k in ("rr", "rr_lower", "rr_upper"))
     weight = np.asarray(s["weight"], float)[used]
@@ -87,8 +54,8 @@ def forest(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
     ax.axvline(r.threshold, color="#e66101", lw=1.2, ls=":")
     low = min(float(np.nanmin(lo)), lo_p, r.threshold, 1.0) / 1.1
     high = max(float(np.nanmax(hi)), hi_p, r.threshold, 1.0) * 1.1
-    plumbing.log_ticks(ax, low, high)
-    labels = [str(v) for v in np.asarray(s["label"], dtype=object)[used]]
+    log_ticks(ax, low, high)
+    labels = [plot_label(str(v), 40) for v in np.asarray(s["label"], dtype=object)[used]]
     ax.set_yticks([*ys, 1.0], [*labels, "Pooled"])
     ax.set_ylim(0.3, n + 1.7)
     ev, ev_ci = (np.asarray(s[k], float)[used] for k in ("evalue", "evalue_ci"))
@@ -108,8 +75,8 @@ def forest(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
         plt.Line2D([], [], color="0.4", lw=1, label="Null (1)"),
         plt.Line2D([], [], color="#e66101", lw=1.2, ls=":", label=f"Threshold ({r.threshold:g})"),
     ]
-    plumbing.legend_below(ax, handles)
-    return plumbing.save_figure(fig, out)
+    legend_below(ax, handles)
+    return save_figure(fig, out)
 
 
 def share_curve(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
@@ -118,10 +85,10 @@ def share_curve(result: Any, paths: str | Path | Sequence[str | Path]) -> list[P
 
     from .core import share_beyond, share_se
 
-    out = _paths(paths)
+    out = figure_paths(paths)
     r = result
-    plt = plumbing.pyplot()
-    fig, ax = plumbing.new_figure((6.4, 4.6))
+    plt = pyplot()
+    fig, ax = new_figure((6.4, 4.6))
     top = max(float(np.max(r.bias)), r.bias_to_reduce * 1.25, 1.5)
     grid = np.linspace(1.0, top, 301)
     q = np.log(r.threshold)
@@ -142,14 +109,14 @@ def share_curve(result: Any, paths: str | Path | Sequence[str | Path]) -> list[P
                    label=f"Least bias factor {r.bias_to_reduce:.2f}")  # fmt: skip
     ax.set_xlim(1.0, top)
     ax.set_ylim(0, 1)
-    plumbing.percent_axis(ax, "y")
+    percent_axis(ax, "y")
     ax.set_xlabel("Common bias factor removed from every study (risk-ratio scale)")
     ax.set_ylabel(f"Share of true effects {r.direction} {r.threshold:g}")
     ax.set_title(f"Meaningfully strong effects under confounding ({r.k} studies, "
                  f"{r.method_name})")  # fmt: skip
-    plumbing.legend_below(ax, ax.get_legend_handles_labels()[0])
+    legend_below(ax, ax.get_legend_handles_labels()[0])
     del plt
-    return plumbing.save_figure(fig, out)
+    return save_figure(fig, out)
 
 
 DRAW = {"forest": forest, "share": share_curve}

@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
-from ..output.document import Block, Document, prose, standard_tail
+from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table, number, percent
 from .result import PoolResult
 
@@ -152,9 +154,19 @@ def document(r: PoolResult) -> Document:
     return Document(
         "Confounding in a random-effects meta-analysis",
         blocks(r),
-        sentence=sentence(r),
+        figures=figures(r),
         references=references(r),
     )
+
+
+def figures(r: PoolResult) -> tuple[Figure, ...]:
+    """The forest plot and the share against the bias factor (drawn on demand)."""
+    from functools import partial
+
+    from .figures import CAPTIONS, DRAW
+
+    return tuple(Figure(f"pool-{key}", CAPTIONS[key], partial(draw, r)) for key, draw in
+                 DRAW.items())  # fmt: skip
 
 
 # --------------------------------------------------------------------------- the report
@@ -196,26 +208,25 @@ def _slug(label: str) -> str:
     return re.sub(r"[^a-z0-9]+", "-", label.lower()).strip("-") or "pool"
 
 
-def report_part(items):  # noqa: ANN001, ANN201 - (label, PoolResult) pairs -> ReportPart
-    """This family's part of the manuscript report (see sensitivity.output.report)."""
+def report_part(items: Any) -> Any:
+    """This family's section of the manuscript report: a Methods paragraph, each pooled
+    analysis's sentences, its tables and both figures, its own Document under its label."""
     from dataclasses import replace
-    from functools import partial
 
-    from ..output.document import Figure
     from ..output.report import ReportPart
-    from .figures import CAPTIONS, forest, share_curve
 
-    items = list(items)
-    results = [r for _, r in items]
-    tables, figures, details, entries, cautions, refs = [], [], [], [], [], []
-    for label, r in items:
-        for table in (pooled_table(r), answer_table(r), share_table(r), study_table(r)):
+    tables, figs, details, entries, cautions, refs, said = [], [], [], [], [], [], []
+    results = []
+    for k, item in enumerate(items, 1):
+        label, r = item
+        number = getattr(item, "number", k)
+        results.append(r)
+        said.append(f"{label}: {sentence(r)}")
+        for table in (pooled_table(r), answer_table(r), share_table(r)):
             tables.append(replace(table, title=f"{label}: {table.title}"))
-        slug = _slug(label)
-        figures.append(Figure(f"{slug}-forest", f"{label}. {CAPTIONS['forest']}",
-                              draw=partial(forest, r)))  # fmt: skip
-        figures.append(Figure(f"{slug}-share", f"{label}. {CAPTIONS['share']}",
-                              draw=partial(share_curve, r)))  # fmt: skip
+        for drawn in figures(r):
+            figs.append(Figure(f"{drawn.key}_{number}", f"{label}: {drawn.caption}",
+                               drawn.draw))  # fmt: skip
         details.append((label, document(r)))
         entries.append({"label": label, "family": "pooling", **r.to_dict()})
         cautions += [c for c in r.cautions if c not in cautions]
@@ -223,9 +234,9 @@ def report_part(items):  # noqa: ANN001, ANN201 - (label, PoolResult) pairs -> R
     return ReportPart(
         family="pooling",
         methods=methods_paragraph(results),
-        results=tuple(f"{label}: {sentence(r)}" for label, r in items),
+        results=tuple(said),
         tables=tuple(tables),
-        figures=tuple(figures),
+        figures=tuple(figs),
         details=tuple(details),
         entries=tuple(entries),
         assumptions=ASSUMPTIONS,

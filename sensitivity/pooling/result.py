@@ -63,6 +63,7 @@ class PoolResult(Result):
     notes: tuple[str, ...] = ()
     cautions: tuple[str, ...] = CAUTIONS
     presenter = "sensitivity.pooling.present"
+    _input_fields = ("k", "method", "threshold", "share", "bias_sd", "alpha")
     is_scalar = False
     _repr_fields = ("k", "pooled_estimate", "tau2", "bias_to_reduce", "strength_to_reduce")
 
