@@ -60,15 +60,32 @@ def test_manuscript_formats(run, fmt, mark):
 
 
 def test_several_outputs_and_both_figures(run, tmp_path):
-    out_json, out_md = tmp_path / "pool.json", tmp_path / "pool.md"
-    res = run(*BASE, "--method", "dl", "-o", out_json, "-o", out_md,
+    out_json, out_md, out_html = (tmp_path / f"pool.{x}" for x in ("json", "md", "html"))
+    res = run(*BASE, "--method", "dl", "-o", out_json, "-o", out_md, "-o", out_html,
               "--plot", tmp_path / "pool.png", "--plot", tmp_path / "only-share.svg")  # fmt: skip
     assert res.exit_code == 0, res.stderr
     assert json.loads(out_json.read_text())["pooled"]["method"] == "dl"
     assert out_md.read_text().startswith("**")
+    assert "<!DOCTYPE html>" in out_html.read_text() and "could reduce" in out_html.read_text()
     for name in ("pool-forest.png", "pool-share.png", "only-share.svg"):
         assert (tmp_path / name).stat().st_size > 1000
     assert not (tmp_path / "only-share-forest.svg").exists()
+
+
+def test_a_preventive_pooled_effect_counts_effects_below_the_threshold(run, tmp_path):
+    path = tmp_path / "protective.csv"
+    path.write_text("study,result\nA,RR 0.70 (0.55-0.89)\nB,RR 0.82 (0.66-1.02)\n"
+                    "C,RR 0.61 (0.45-0.83)\nD,RR 0.90 (0.75-1.08)\n")  # fmt: skip
+    res = run("pool", path, "--from-text", "result", "--threshold", "0.9", "--format", "json")
+    assert res.exit_code == 0, res.stderr
+    data = json.loads(res.stdout)
+    assert data["direction"] == "below" and data["pooled"]["estimate"] < 1
+    assert "below 0.9" in " ".join(data["sentences"])
+
+
+def test_plot_mark_does_not_apply(run):
+    res = run(*BASE, "--plot-mark", "1", "2")
+    assert res.exit_code == 2 and "--plot-mark does not apply to pool" in res.stderr
 
 
 def test_log_estimates_with_standard_errors(run, tmp_path):
