@@ -10,8 +10,6 @@ Public API (imported lazily, so `import sensitivity` costs almost nothing):
 - `screen_table`, `screen_batches`, `screen_frames`, `screen_summary`: many published
   results at once (a pandas, polars or Arrow table, or a stream of Arrow record batches or
   of polars DataFrames).
-- `pool_estimates`, `pool_table`: confounding in a random-effects meta-analysis (the share of
-  meaningfully strong effects under a common bias).
 - `from_model`: a fitted model into the right result; `report`: results or fitted models into
   the manuscript folder (report.md, report.html, tables.tex, report.json, figures).
 - `InputError` (bad input, a ValueError) and `SensitivityWarning`.
@@ -51,9 +49,6 @@ _EXPORTS = {
     "screen_batches": "screen.stream",
     "screen_frames": "screen.stream",
     "screen_summary": "screen.stream",
-    "pool_estimates": "pooling",
-    "pool_table": "pooling",
-    "PoolResult": "pooling",
     "InputError": "common.errors",
     "SensitivityWarning": "common.errors",
 }
