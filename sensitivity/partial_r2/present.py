@@ -259,7 +259,8 @@ def document(r: PartialR2Result) -> Document:
     lead = sentence(r)
     blocks: tuple[Block, ...] = (prose(header(r)), *tables(r), prose(lead, role="sentence"))
     blocks += standard_tail(r.notes, r.cautions, r.assumptions)
-    return Document("Partial-R² sensitivity", blocks, figures=figures(r))
+    refs = (REFERENCES["cinelli-hazlett-2020"],)
+    return Document("Partial-R² sensitivity", blocks, figures=figures(r), references=refs)
 
 
 METHODS = (
