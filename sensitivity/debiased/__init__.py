@@ -1,44 +1,20 @@
-"""Omitted-variable bounds for debiased (double) machine-learning estimates ("Long story short")."""
+"""Omitted-variable bounds for debiased (double) machine-learning estimates ("Long story short").
 
-from .core import (
-    Moments,
-    Scores,
-    average_effect_scores,
-    benchmark_gain,
-    bounds,
-    moments,
-    multiplier,
-    partial_linear_scores,
-    robustness_value,
-    robustness_value_alpha,
-    surface,
-)
-from .result import Benchmark, DebiasedFit, DebiasedResult, Scenario
+The arithmetic on arrays is in `sensitivity.debiased.core`; the cross-fitting with
+scikit-learn in `sensitivity.debiased.fit`.
+"""
+
+from typing import Any
+
+from .result import DebiasedFit, DebiasedResult
 
 
-def debiased_fit(*args, **kwargs):  # noqa: D103 - documented in fit.debiased_fit
+def debiased_fit(*args: Any, **kwargs: Any) -> DebiasedFit:
+    """Cross-fit the nuisances (see `sensitivity.debiased.fit.debiased_fit`); the fit module,
+    which imports pandas and scikit-learn, is loaded only when called."""
     from .fit import debiased_fit as fit
 
     return fit(*args, **kwargs)
 
 
-debiased_fit.__doc__ = "Cross-fit the nuisances (see `sensitivity.debiased.fit.debiased_fit`)."
-
-__all__ = [
-    "Benchmark",
-    "DebiasedFit",
-    "DebiasedResult",
-    "Moments",
-    "Scenario",
-    "Scores",
-    "average_effect_scores",
-    "benchmark_gain",
-    "bounds",
-    "debiased_fit",
-    "moments",
-    "multiplier",
-    "partial_linear_scores",
-    "robustness_value",
-    "robustness_value_alpha",
-    "surface",
-]
+__all__ = ["DebiasedFit", "DebiasedResult", "debiased_fit"]
