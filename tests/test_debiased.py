@@ -395,6 +395,7 @@ def test_robustness_value_alpha_is_the_first_crossing_on_a_fine_grid(m, rho, alp
     if rva == 0:
         assert crossed[0]
         return
+    assert rva <= core.robustness_value(m, 0.0, rho) + 1e-12  # the confidence bound is outside
     first = s[np.argmax(crossed)] if crossed.any() else 1.0
     assert abs(first - rva) <= s[1] - s[0] + 1e-12
     assert not crossed[s < rva - 1e-9].any()
