@@ -561,3 +561,10 @@ def test_the_report_takes_a_debiased_result(shown, tmp_path):
     entry = json.loads(files["json"].read_text())["estimates"][0]
     assert entry["family"] == "debiased" and entry["label"] == "Tutoring"
     assert "Chernozhukov" in files["md"].read_text()
+
+
+def test_progress_goes_to_stderr_a_fit_at_a_time(capsys):
+    debiased_fit(_small(), "d", "y", ["x0", "x1"], learner="linear", folds=2, progress=True)
+    captured = capsys.readouterr()
+    assert captured.out == ""
+    assert captured.err.splitlines()[-1].startswith("fitting learners: 4 of 4 fits")
