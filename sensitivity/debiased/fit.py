@@ -15,110 +15,25 @@ import numpy as np
 
 from ..common.errors import InputError
 from . import core
+from .learners import (
+    LEARNERS,
+    check_learner,
+    fresh_copy,
+    learner_name,
+    make_learner,
+    one_thread,
+    require_sklearn,
+    seed_everything,
+)
 from .result import Benchmark, DebiasedFit
 
-LEARNERS = ("linear", "lasso", "forest", "boosting")
+__all__ = ["LEARNERS", "debiased_fit", "fold_ids", "make_learner"]
+
 TARGET_EFFECTS = ("partial-linear", "average")
 #: Fewest rows a fold may hold (common practice: a learner needs some rows to fit at all).
 MIN_FOLD_ROWS = 10
-INSTALL = "the debiased family needs scikit-learn: pip install 'sensitivity[ml]'"
 
 
-def _sklearn() -> Any:
-    try:
-        import sklearn
-    except ImportError:
-        raise InputError(INSTALL) from None
-    return sklearn
-
-
-def make_learner(name: str, kind: str, seed: int | None = 0) -> Any:
-    """A named default learner: `kind` "regressor" or "classifier".
-
-    linear: least squares (logistic regression without penalty for a classifier); lasso:
-    standardised L1 fits with the penalty chosen by 3-fold cross-validation; forest: 100
-    trees, leaves of at least 5 rows (20 for a classifier); boosting: histogram gradient
-    boosting with early stopping on a tenth of the training rows (a classifier: learning rate
-    0.05, at most 15 leaves of at least 50 rows), each with `seed`. Classifiers are coarser
-    because the propensity enters the Riesz representer as 1/pi.
-    """
-    sklearn = _sklearn()
-    from sklearn.pipeline import make_pipeline
-    from sklearn.preprocessing import StandardScaler
-
-    if name not in LEARNERS:
-        raise InputError(f"`learner` must be one of {', '.join(LEARNERS)}; got {name!r}")
-    reg = kind == "regressor"
-    if name == "linear":
-        from sklearn.linear_model import LinearRegression, LogisticRegression
-
-        return LinearRegression() if reg else LogisticRegression(C=np.inf, max_iter=5000)
-    if name == "lasso":
-        from sklearn.linear_model import LassoCV, LogisticRegressionCV
-
-        if reg:
-            return make_pipeline(StandardScaler(), LassoCV(cv=3, random_state=seed))
-        major, minor = (int(p) for p in sklearn.__version__.split(".")[:2])
-        l1 = (
-            {"l1_ratios": (1.0,)}
-            if (major, minor) >= (1, 8)
-            else {"penalty": "l1"}  # pragma: no cover - older scikit-learn
-        )
-        clf = LogisticRegressionCV(
-            Cs=10, cv=3, solver="liblinear", scoring="neg_log_loss", random_state=seed, **l1
-        )
-        return make_pipeline(StandardScaler(), clf)
-    if name == "forest":
-        from sklearn.ensemble import RandomForestClassifier, RandomForestRegressor
-
-        if reg:
-            return RandomForestRegressor(
-                n_estimators=100, min_samples_leaf=5, random_state=seed, n_jobs=1
-            )
-        # Propensities enter through 1/pi: larger leaves keep them calibrated (leaves of 5
-        # rows gave propensities of 0.01 where the truth was near 0.15 in the demo data).
-        return RandomForestClassifier(
-            n_estimators=100, min_samples_leaf=20, random_state=seed, n_jobs=1
-        )
-    from sklearn.ensemble import HistGradientBoostingClassifier, HistGradientBoostingRegressor
-
-    # Early stopping always (not only above 10,000 rows): without it small folds overfit and
-    # the propensities run to 0 and 1; the classifier is also slower and coarser, for the
-    # same reason.
-    if reg:
-        return HistGradientBoostingRegressor(early_stopping=True, random_state=seed)
-    return HistGradientBoostingClassifier(
-        early_stopping=True,
-        learning_rate=0.05,
-        max_leaf_nodes=15,
-        min_samples_leaf=50,
-        random_state=seed,
-    )
-
-
-def _check_learner(learner: Any, argument: str, kind: str) -> None:
-    need = ("fit", "predict") if kind == "regressor" else ("fit", "predict_proba")
-    missing = [m for m in need if not callable(getattr(learner, m, None))]
-    if missing:
-        raise InputError(
-            f"`{argument}` must be a scikit-learn style {kind} with "
-            f"{' and '.join(need)} methods; {type(learner).__name__} lacks {', '.join(missing)}"
-        )
-
-
-def _fresh(learner: Any) -> Any:
-    """An unfitted copy (sklearn's clone where it works, else a deep copy)."""
-    from sklearn.base import clone
-
-    try:
-        return clone(learner)
-    except Exception:  # noqa: BLE001 - not a full estimator: copy it instead
-        import copy
-
-        return copy.deepcopy(learner)
-
-
-# --------------------------------------------------------------------------- data
 def _design(frame: Any, covariates: Sequence[str]) -> tuple[np.ndarray, dict[str, list[int]]]:
     """The covariate matrix (text and categorical columns as indicators, first level
     dropped) and, for each covariate name, the matrix columns it owns."""
@@ -249,8 +164,8 @@ def _crossfit(
         train = ~test if folds > 1 else np.ones_like(test)
         if subset is not None:
             train = train & subset
-        model = _fresh(learner)
-        with warnings.catch_warnings(record=True) as seen, _threads(int(train.sum())):
+        model = fresh_copy(learner)
+        with warnings.catch_warnings(record=True) as seen, one_thread(int(train.sum())):
             warnings.simplefilter("always")
             model.fit(x[train], target[train])
             if kind == "regressor":
@@ -326,7 +241,7 @@ def debiased_fit(
     """
     from ..common.checks import OPEN_UNIT, require, require_choice
 
-    _sklearn()
+    require_sklearn()
     require_choice(target_effect, "target_effect", TARGET_EFFECTS)
     if isinstance(data, (str, bytes)) or hasattr(data, "__fspath__"):
         from ..adapters.files import read_table
@@ -391,10 +306,10 @@ def debiased_fit(
 
     x, owned = _design(frame, covariates)
     if outcome_learner is not None:
-        _check_learner(outcome_learner, "outcome_learner", "regressor")
+        check_learner(outcome_learner, "outcome_learner", "regressor")
     if treatment_learner is not None:
         kind = "regressor" if target_effect == "partial-linear" else "classifier"
-        _check_learner(treatment_learner, "treatment_learner", kind)
+        check_learner(treatment_learner, "treatment_learner", kind)
     reg = (
         outcome_learner if outcome_learner is not None else make_learner(learner, "regressor", seed)
     )
@@ -413,11 +328,11 @@ def debiased_fit(
         )
     for model in (reg, reg_d, clf):
         if model is not None and seed is not None and hasattr(model, "get_params"):
-            _seed_everything(model, seed)
+            seed_everything(model, seed)
     names = (
         learner
         if outcome_learner is None and treatment_learner is None
-        else f"{_name(reg)} / {_name(reg_d if clf is None else clf)}"
+        else f"{learner_name(reg)} / {learner_name(reg_d if clf is None else clf)}"
     )
 
     ids = fold_ids(n, folds, seed, d if target_effect == "average" else None)
@@ -512,34 +427,6 @@ class _Fitter:
                 f"[{trim:g}, {1 - trim:g}]; raise `trim`, or choose another `learner` (the "
                 "treatment may be too predictable from the covariates: poor overlap)"
             ) from None
-
-
-def _threads(rows: int) -> Any:
-    """Learners run on one thread. Measured on a shared two-core machine under load:
-    histogram boosting on 80,000 rows took 2.4 s on one thread and 34 s on two (OpenMP
-    threads wait for each other when the cores are busy); on 500 rows 0.18 s against 2.2 s.
-    Cross-fitting is many fits, so one thread each loses little even on an idle machine."""
-    from threadpoolctl import threadpool_limits
-
-    return threadpool_limits(1)
-
-
-def _seed_everything(model: Any, seed: int) -> None:
-    """Set every random_state parameter left at None (also inside pipelines) to `seed`, so
-    equal seeds give equal bits; a random_state the user set is kept."""
-    params = model.get_params(deep=True)
-    fixed = {
-        k: seed
-        for k, v in params.items()
-        if (k == "random_state" or k.endswith("__random_state")) and v is None
-    }
-    if fixed:
-        model.set_params(**fixed)
-
-
-def _name(model: Any) -> str:
-    steps = getattr(model, "steps", None)
-    return type(steps[-1][1] if steps else model).__name__
 
 
 def _reporter(progress: bool | Callable[[str], None]) -> Callable[[str], None] | None:
