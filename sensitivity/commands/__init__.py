@@ -10,5 +10,6 @@ COMMANDS = {
     "matched": ("matched", "Rosenbaum bounds for matched pairs (sign and signed-rank tests)."),
     "stability": ("stability", "Coefficient stability under proportional selection (Oster)."),
     "impact": ("impact", "Impact threshold of a confounding variable (Frank)."),
+    "weighting": ("weighting", "Weighted (IPW) estimates under the marginal sensitivity model."),
     "report": ("report", "Write the robustness section of a manuscript to a folder."),
 }

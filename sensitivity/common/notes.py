@@ -61,4 +61,17 @@ REFERENCES = {
         "VanderWeele TJ, Arah OA (2011). Bias formulas for sensitivity analysis of unmeasured "
         "confounding for general outcomes, treatments, and confounders. Epidemiology 22:42-52."
     ),
+    "tan-2006": (
+        "Tan Z (2006). A distributional approach for causal inference using propensity scores. "
+        "Journal of the American Statistical Association 101:1619-1637."
+    ),
+    "zhao-small-bhattacharya-2019": (
+        "Zhao Q, Small DS, Bhattacharya BB (2019). Sensitivity analysis for inverse probability "
+        "weighting estimators via the percentile bootstrap. Journal of the Royal Statistical "
+        "Society, Series B 81:735-761."
+    ),
+    "dorn-guo-2023": (
+        "Dorn J, Guo K (2023). Sharp sensitivity analysis for inverse propensity weighting via "
+        "quantile balancing. Journal of the American Statistical Association 118:2645-2657."
+    ),
 }
