@@ -26,7 +26,14 @@ Sharp bounds (Dorn & Guo 2023): the box ignores that the true weights balance,
 E[v | X, arm] = 1. With it, the worst case puts v = Λ above the conditional τ-quantile of
 the outcome, τ = Λ/(1 + Λ), and 1/Λ below (the lower bound: Λ below the 1/(1 + Λ)-quantile).
 The quantile comes from a linear quantile regression of the outcome on the covariates within
-the arm (a smoothed check loss, Newton steps; He, Pan, Tan & Zhou 2023). For a binary
+the arm (a smoothed check loss, Newton steps; He, Pan, Tan & Zhou 2023). A continuous outcome
+uses the quantile-centred form of the same bound,
+
+    μ⁺ = Σ [b y + c (Q(x) + Λ^±(y - Q(x)))] / Σ (b + c),  Λ^± = Λ above Q, 1/Λ below,
+
+which equals the Hájek mean with those weights when the balance holds and, unlike it, does
+not jump when a unit crosses the estimated quantile as Λ moves (a unit at Q adds nothing);
+it is held inside the box bounds, where the sharp set of weights lies. For a binary
 outcome the conditional law is P(Y = 1 | X, arm) from a logistic fit in the arm, and the atom
 at the quantile is split so that the balance holds exactly:
 v(1) = Λ, v(0) = (1 - pΛ)/(1 - p) when p <= 1/(1 + Λ); else v(0) = 1/Λ,
@@ -374,9 +381,13 @@ class _Bounds:
                                 start=self.q_start.get(key))  # fmt: skip
             if self.q_start.get("keep"):
                 self.q_start[key] = beta
-            q = arm.x @ beta
-            high = arm.y >= q if upper else arm.y > q
-            v = np.where(high, lam, 1 / lam) if upper else np.where(high, 1 / lam, lam)
+            # the quantile-centred form: Σ m[b y + c(Q + Λ^±(y - Q))] / Σ m(b + c), which
+            # equals the Hájek mean with v = Λ^± at the balance, and is continuous in Q (a
+            # unit at the quantile adds nothing, so the bound does not jump as Q moves)
+            r = arm.y - arm.x @ beta
+            big, small = (lam, 1 / lam) if upper else (1 / lam, lam)
+            tilted = arm.y - r + np.where(r > 0, big, small) * r
+            return float(m @ (b * arm.y + c * tilted) / (m @ (b + c)))
         w = m * (b + c * v)
         return float(w @ arm.y / w.sum())
 
@@ -387,6 +398,12 @@ class _Bounds:
             out[1, i] = self._arm_sharp(0, float(lv), True)
             out[2, i] = self._arm_sharp(1, float(lv), False)
             out[3, i] = self._arm_sharp(1, float(lv), True)
+        if not self.s.binary:
+            # the quantile-centred form can step a hair outside the box in a finite sample;
+            # the sharp set of weights lies inside the box's, so its bounds do too
+            box = self.box(lam)
+            out[[0, 2]] = np.maximum(out[[0, 2]], box[[0, 2]])
+            out[[1, 3]] = np.minimum(out[[1, 3]], box[[1, 3]])
         return out
 
 
