@@ -390,9 +390,7 @@ def test_views_and_dict():
     assert [r["method"] for r in d["rows"]] == ["sharp", "percentile"] * 2
     assert set(d["lambda_at_null"]) == {"sharp", "percentile"}
     assert "95%" in res.sentence()
-    assert res.risk_ratio == pytest.approx(
-        d["rows"][0]["rr_lower"]
-    )
+    assert res.risk_ratio == pytest.approx(d["rows"][0]["rr_lower"])
     cols = res.columns()
     assert len({v.size for v in cols.values()}) == 1
     for fmt in ("text", "markdown", "latex", "html"):
@@ -405,17 +403,31 @@ def test_views_and_dict():
 @pytest.mark.parametrize(
     ("change", "message"),
     [
-        (lambda k: k.update(treatment=np.r_[k["treatment"][:-1], 2.0]), "`treatment` must be binary"),
-        (lambda k: k.update(propensity=np.r_[0.0, np.full(k["outcome"].size - 1, 0.5)],
-                            covariates=None),
-         "`propensity` must lie strictly between 0 and 1; got 0"),
-        (lambda k: k.update(propensity=np.r_[1.0, np.full(k["outcome"].size - 1, 0.5)],
-                            covariates=None),
-         "`propensity` must lie strictly between 0 and 1; got 1"),
+        (
+            lambda k: k.update(treatment=np.r_[k["treatment"][:-1], 2.0]),
+            "`treatment` must be binary",
+        ),
+        (
+            lambda k: k.update(
+                propensity=np.r_[0.0, np.full(k["outcome"].size - 1, 0.5)], covariates=None
+            ),
+            "`propensity` must lie strictly between 0 and 1; got 0",
+        ),
+        (
+            lambda k: k.update(
+                propensity=np.r_[1.0, np.full(k["outcome"].size - 1, 0.5)], covariates=None
+            ),
+            "`propensity` must lie strictly between 0 and 1; got 1",
+        ),
         (lambda k: k.update(lam=[0.5, 2]), "`lambda` must be at least 1; got 0.5"),
-        (lambda k: k.update(outcome=np.array(["a"] * k["outcome"].size)), "`outcome` must be numeric"),
-        (lambda k: k.update(treatment=np.r_[np.ones(5), np.zeros(k["outcome"].size - 5)]),
-         "`treatment`: the treated arm has 5 units; need at least 10"),
+        (
+            lambda k: k.update(outcome=np.array(["a"] * k["outcome"].size)),
+            "`outcome` must be numeric",
+        ),
+        (
+            lambda k: k.update(treatment=np.r_[np.ones(5), np.zeros(k["outcome"].size - 5)]),
+            "`treatment`: the treated arm has 5 units; need at least 10",
+        ),
         (lambda k: k.update(resamples=10), "`resamples` must be at least 50"),
         (lambda k: k.update(estimand="atc"), "`estimand` must be one of ate, att"),
         (lambda k: k.update(alpha=0.7), "`alpha` must be below 0.5"),

@@ -5,7 +5,6 @@ from __future__ import annotations
 from typing import Any
 
 import click
-import numpy as np
 
 from sensitivity.commands import COMMANDS
 from sensitivity.common.errors import InputError
@@ -16,54 +15,102 @@ SHORT_HELP = COMMANDS["weighting"][1]
 
 
 def parse_lambda(text: str) -> list[float]:
-    """A value, a comma-separated list, or START:STOP:STEP (STOP included when reached)."""
-    text = str(text).strip()
-    try:
-        if ":" in text:
-            parts = [float(p) for p in text.split(":")]
-            if len(parts) != 3:
-                raise ValueError
-            start, stop, step = parts
-            if step <= 0 or stop < start:
-                raise InputError(f"`lambda` {text!r}: STEP must be positive and STOP >= START")
-            count = int(np.floor((stop - start) / step + 1e-9)) + 1
-            if count > 1000:
-                raise InputError(f"`lambda` {text!r} gives {count} values; at most 1000")
-            return [start + i * step for i in range(count)]
-        return [float(p) for p in text.split(",")]
-    except ValueError:
-        raise InputError(f"`lambda` must be a value, a list or START:STOP:STEP; got {text!r}") from None
+    """A value, START:STOP:STEP (as every grid option reads it), or a comma-separated list."""
+    if "," in str(text):
+        try:
+            return [float(p) for p in str(text).split(",")]
+        except ValueError:
+            raise InputError(
+                f"`lambda` must be numbers separated by commas; got {text!r}"
+            ) from None
+    from sensitivity.tipping.core import parse_range
+
+    return [float(v) for v in parse_range(text, "lambda")]
 
 
 @click.command("weighting", cls=Command, short_help=SHORT_HELP)
-@click.option("--data", type=click.Path(dir_okay=False), required=True,
-              help="CSV, TSV, Excel or Parquet file, one row per unit.")  # fmt: skip
+@click.option(
+    "--data",
+    type=click.Path(dir_okay=False),
+    required=True,
+    help="CSV, TSV, Excel or Parquet file, one row per unit.",
+)
 @click.option("--treatment", required=True, help="The treatment column (0/1).")
 @click.option("--outcome", required=True, help="The outcome column (numeric; 0/1 is binary).")
 @click.option("--propensity", help='Logistic propensity model, e.g. "T ~ x1 + x2 + C(site)".')
 @click.option("--propensity-column", help="Or a column of fitted propensities.")
-@click.option("--estimand", type=click.Choice(["ate", "att"]), default="ate", show_default=True,
-              help="ate: everyone; att: the treated (only the controls' weights move).")  # fmt: skip
-@click.option("--lambda", "lam", default="1:2:0.25", show_default=True,
-              help=f"Λ >= 1: {RANGE_HELP}, or a comma-separated list.")  # fmt: skip
-@click.option("--resamples", type=int, default=200, show_default=True,
-              help="Bootstrap resamples (at least 50).")  # fmt: skip
+@click.option(
+    "--estimand",
+    type=click.Choice(["ate", "att"]),
+    default="ate",
+    show_default=True,
+    help="ate: everyone; att: the treated (only the controls' weights move).",
+)
+@click.option(
+    "--lambda",
+    "lam",
+    default="1:2:0.25",
+    show_default=True,
+    help=f"Λ >= 1: {RANGE_HELP}, or a comma-separated list.",
+)
+@click.option(
+    "--resamples",
+    type=int,
+    default=200,
+    show_default=True,
+    help="Bootstrap resamples (at least 50).",
+)
 @click.option("--seed", type=int, help="Seed (when not given, one is drawn and reported).")
-@click.option("--alpha", type=float, default=0.05, show_default=True,
-              help="The intervals' level is 1 - alpha.")  # fmt: skip
-@click.option("--target", type=float, default=0.0, show_default=True,
-              help="The effect (difference scale) whose inclusion changes the conclusion.")  # fmt: skip
-@click.option("--extreme", type=click.Choice(["none", "clip", "trim"]), default="none",
-              show_default=True,
-              help="Extreme propensities: clip them to [CUT, 1-CUT] or leave those units out.")  # fmt: skip
-@click.option("--cut", type=float, default=0.01, show_default=True, help="The limit --extreme uses.")
-@click.option("--plot", "plots", multiple=True, type=click.Path(dir_okay=False),
-              help="Write the bounds and intervals against Λ (.png, .svg or .pdf; repeatable).")  # fmt: skip
+@click.option(
+    "--alpha",
+    type=float,
+    default=0.05,
+    show_default=True,
+    help="The intervals' level is 1 - alpha.",
+)
+@click.option(
+    "--target",
+    type=float,
+    default=0.0,
+    show_default=True,
+    help="The effect (difference scale) whose inclusion changes the conclusion.",
+)
+@click.option(
+    "--extreme",
+    type=click.Choice(["none", "clip", "trim"]),
+    default="none",
+    show_default=True,
+    help="Extreme propensities: clip them to [CUT, 1-CUT] or leave those units out.",
+)
+@click.option(
+    "--cut", type=float, default=0.01, show_default=True, help="The limit --extreme uses."
+)
+@click.option(
+    "--plot",
+    "plots",
+    multiple=True,
+    type=click.Path(dir_okay=False),
+    help="Write the bounds and intervals against Λ (.png, .svg or .pdf; repeatable).",
+)
 @format_options
-def weighting_cmd(data: str, treatment: str, outcome: str, propensity: Any,
-                  propensity_column: Any, estimand: str, lam: str, resamples: int, seed: Any,
-                  alpha: float, target: float, extreme: str, cut: float, plots: Any, fmt: str,
-                  outputs: Any) -> None:  # fmt: skip
+def weighting_cmd(
+    data: str,
+    treatment: str,
+    outcome: str,
+    propensity: Any,
+    propensity_column: Any,
+    estimand: str,
+    lam: str,
+    resamples: int,
+    seed: Any,
+    alpha: float,
+    target: float,
+    extreme: str,
+    cut: float,
+    plots: Any,
+    fmt: str,
+    outputs: Any,
+) -> None:
     """Bounds on a weighted (inverse probability weighting) effect when a hidden confounder
     may move each unit's odds of treatment by up to a factor Λ beyond the measured
     covariates: sharp (quantile-balancing) and box bounds with percentile-bootstrap
@@ -86,9 +133,9 @@ def weighting_cmd(data: str, treatment: str, outcome: str, propensity: Any,
         for path in plots:
             check_plot_path(path)
     grid = parse_lambda(lam)
-    from sensitivity.weighting.data import weighted_sensitivity
-
     import time
+
+    from sensitivity.weighting.data import weighted_sensitivity
 
     began = time.monotonic()
     terminal = sys.stderr.isatty()
@@ -103,10 +150,21 @@ def weighting_cmd(data: str, treatment: str, outcome: str, propensity: Any,
             click.echo(f"{lead}bootstrap {done:,}/{total:,} resamples{end}", err=True, nl=False)
 
     result = weighted_sensitivity(
-        data, treatment, outcome, propensity=propensity, propensity_column=propensity_column,
-        estimand=estimand, lam=grid, resamples=resamples, seed=seed, alpha=alpha,
-        target=target, extreme=extreme, cut=cut, progress=progress,
-    )  # fmt: skip
+        data,
+        treatment,
+        outcome,
+        propensity=propensity,
+        propensity_column=propensity_column,
+        estimand=estimand,
+        lam=grid,
+        resamples=resamples,
+        seed=seed,
+        alpha=alpha,
+        target=target,
+        extreme=extreme,
+        cut=cut,
+        progress=progress,
+    )
     if seed is None:
         click.echo(f"Seed {result.seed} (give --seed {result.seed} to repeat this run)", err=True)
     emit(result, fmt, outputs)

@@ -339,7 +339,7 @@ class _Bounds:
         m = keep.astype(float) if counts is None else counts * keep
         b, c = box_weights(e, s.treated, s.estimand)
         self.parts = []
-        for j, arm in enumerate(s.arms):
+        for arm in s.arms:
             mm = m[arm.rows]
             bb, cc = b[arm.rows], c[arm.rows]
             self.parts.append((arm, mm, bb, cc, _sums(arm.y, bb, cc, mm)))
@@ -351,7 +351,10 @@ class _Bounds:
         out = []
         for arm, _, _, _, sums in self.parts:
             start = np.full(lam.shape, (sums[0] + sums[2][-1]) / (sums[1] + sums[3][-1]))
-            out += [_extreme(arm.y, sums, lam, False, start), _extreme(arm.y, sums, lam, True, start)]
+            out += [
+                _extreme(arm.y, sums, lam, False, start),
+                _extreme(arm.y, sums, lam, True, start),
+            ]
         return np.array(out)
 
     def _arm_sharp(self, j: int, lam: float, upper: bool) -> float:
@@ -631,8 +634,6 @@ def weighting_bounds(
             f"Propensities were clipped to [{cut:g}, {1 - cut:g}] ({clipped} of {n} units), "
             "in every resample too."
         )
-    if not binary and not arms[0].y.size:
-        pass  # pragma: no cover
     if not binary:  # the quantile models' bandwidths, fixed at the full sample's
         for j, arm in enumerate(arms):
             ok = kept[arm.rows]
@@ -643,9 +644,6 @@ def weighting_bounds(
     point = {"percentile": full.box(evaluate), "sharp": full.sharp(evaluate)}
     starts["keep"] = False
     if binary:
-        for j in (0, 1):
-            if j in full.p_fit:
-                pass
         starts.update(_outcome_starts(s, kept))
 
     # the bootstrap

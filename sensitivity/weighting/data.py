@@ -9,8 +9,6 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
 from ..common.errors import InputError
 from .result import WeightingResult
 
@@ -69,7 +67,13 @@ def weighted_sensitivity(
     elif isinstance(data, pd.DataFrame):
         frame = data
     else:
-        raise InputError(f"`data` must be a pandas DataFrame or a file path; got {type(data).__name__}")
+        raise InputError(
+            f"`data` must be a pandas DataFrame or a file path; got {type(data).__name__}"
+        )
+    if treatment == outcome:
+        raise InputError(
+            f"`outcome` must be another column than `treatment`; got {outcome!r} twice"
+        )
     _column(frame, treatment, "treatment")
     _column(frame, outcome, "outcome")
     for name, argument in ((outcome, "outcome"), (treatment, "treatment")):

@@ -34,20 +34,33 @@ def draw(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
     for method, alpha in (("percentile", 0.18), ("sharp", 0.32)):
         t = result.table[method]
         colour = COLOURS[method]
-        band = ax.fill_between(lam, t["ci_lower"], t["ci_upper"], color=colour, alpha=alpha,
-                               lw=0, label=f"{NAMES[method]}: {level} interval")  # fmt: skip
-        (line,) = ax.plot(lam, t["lower"], color=colour, lw=1.8,
-                          label=f"{NAMES[method]}: bounds")  # fmt: skip
+        band = ax.fill_between(
+            lam,
+            t["ci_lower"],
+            t["ci_upper"],
+            color=colour,
+            alpha=alpha,
+            lw=0,
+            label=f"{NAMES[method]}: {level} interval",
+        )
+        (line,) = ax.plot(lam, t["lower"], color=colour, lw=1.8, label=f"{NAMES[method]}: bounds")
         ax.plot(lam, t["upper"], color=colour, lw=1.8)
         handles += [band, line]
         crossing = result.lambda_at_null[method]
         if crossing is not None and crossing > 1:
             handles.append(
-                ax.axvline(crossing, color=colour, ls=":", lw=1.4,
-                           label=f"{NAMES[method]}: interval reaches {result.target:g} at "
-                           f"Λ = {crossing:.2f}")  # fmt: skip
+                ax.axvline(
+                    crossing,
+                    color=colour,
+                    ls=":",
+                    lw=1.4,
+                    label=f"{NAMES[method]}: interval reaches {result.target:g} at "
+                    f"Λ = {crossing:.2f}",
+                )
             )
-    handles.append(ax.axhline(result.target, color="black", lw=0.9, label=f"Target {result.target:g}"))
+    handles.append(
+        ax.axhline(result.target, color="black", lw=0.9, label=f"Target {result.target:g}")
+    )
     if lam.size == 1:
         ax.set_xlim(0.95, float(lam[0]) + 0.05)
     else:
@@ -55,8 +68,9 @@ def draw(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
     ax.set_xlabel("Λ: most a hidden confounder multiplies a unit's odds of treatment")
     scale = "risk difference" if result.outcome_type == "binary" else "difference in means"
     ax.set_ylabel(f"Weighted {result.estimand.upper()} ({scale})")
-    ax.set_title(f"Weighted {result.estimand.upper()} {result.estimate:.3g} under hidden "
-                 "confounding up to Λ")  # fmt: skip
+    ax.set_title(
+        f"Weighted {result.estimand.upper()} {result.estimate:.3g} under hidden confounding up to Λ"
+    )
     plumbing._legend(ax, handles)
     plumbing._save(fig, out)
     return out

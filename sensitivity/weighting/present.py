@@ -64,9 +64,7 @@ def crossing_table(r: WeightingResult) -> Table:
     rows = []
     for method in ("sharp", "percentile"):
         value = r.lambda_at_null[method]
-        shown = (
-            f"beyond {r.lam.max():g}" if value is None else f"{value:.3f}"
-        )
+        shown = f"beyond {r.lam.max():g}" if value is None else f"{value:.3f}"
         rows.append((METHOD_NAMES[method], shown))
     return Table(
         ("Bounds", f"Least Λ at which the {_level(r)} interval includes {r.target:g}"),

@@ -49,9 +49,7 @@ class WeightingResult(Result):
     names: tuple[str, str] = ("treatment", "outcome")
     covariate_names: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
-    cautions: tuple[str, ...] = field(
-        default=(standing.ONE_BIAS, MSM_CAUTION, standing.DEFER)
-    )
+    cautions: tuple[str, ...] = field(default=(standing.ONE_BIAS, MSM_CAUTION, standing.DEFER))
     presenter = "sensitivity.weighting.present"
     _repr_fields = ("estimand", "estimate", "lam")
 
