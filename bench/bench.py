@@ -117,7 +117,7 @@ def bench_tipping() -> None:
 
     import numpy as np
 
-    from sensitivity.output.tables import columns_to_csv
+    from sensitivity.output.writers import columns_to_csv
     from sensitivity.tipping import binary_confounder_grid
 
     p1 = np.linspace(0, 1, 1000)

@@ -16,7 +16,7 @@ from hypothesis import strategies as st
 from sensitivity import evalue, partial_r2_summary
 from sensitivity.common.errors import InputError
 from sensitivity.evalues.core import bounding_factor, evalue_of_risk_difference
-from sensitivity.output.tables import FORMULA_STARTS
+from sensitivity.output.streams import FORMULA_STARTS
 from sensitivity.screen import Options, parse, screen_columns
 from sensitivity.screen.stream import screen_summary, screen_table
 

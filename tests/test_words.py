@@ -115,15 +115,18 @@ def test_partial_r2_layout_leads_with_the_answers(run):
 
 # --------------------------------------------------------------------------- figures
 def _saved(monkeypatch):
-    import sensitivity.output.figures as fig
+    """Keep each figure instead of saving it (every family saves through `save_figure`)."""
+    import importlib
 
     kept = []
-    monkeypatch.setattr(fig, "_save", lambda f, paths: kept.append(f))
+    for family in ("tipping", "partial_r2", "evalues"):
+        module = importlib.import_module(f"sensitivity.{family}.figures")
+        monkeypatch.setattr(module, "save_figure", lambda f, paths: kept.append(f))
     return kept
 
 
 def test_the_bounding_colour_is_the_worst_case_bound(monkeypatch, tmp_path):
-    from sensitivity.output.figures import tipping_figure
+    from sensitivity.tipping.figures import tipping_figure
 
     kept = _saved(monkeypatch)
     tipping_figure(bounding_grid("rr", 1.64, (1.21, 2.23)), tmp_path / "b.png")
@@ -133,7 +136,7 @@ def test_the_bounding_colour_is_the_worst_case_bound(monkeypatch, tmp_path):
 
 
 def test_a_t_contour_is_labelled_with_t(monkeypatch, tmp_path):
-    from sensitivity.output.figures import partial_r2_contours
+    from sensitivity.partial_r2.figures import partial_r2_contours
 
     kept = _saved(monkeypatch)
     res = partial_r2_summary(0.114, 0.027, 1192)
@@ -144,7 +147,7 @@ def test_a_t_contour_is_labelled_with_t(monkeypatch, tmp_path):
 
 
 def test_figures_use_percent_axes_limits_and_marks(monkeypatch, tmp_path):
-    from sensitivity.output.figures import partial_r2_contours
+    from sensitivity.partial_r2.figures import partial_r2_contours
 
     kept = _saved(monkeypatch)
     res = partial_r2_summary(0.114, 0.027, 1192)
@@ -252,7 +255,7 @@ def test_a_value_that_is_not_one_never_prints_as_the_null(value, shown):
     ("rr", 1.05, (1.01, 1.09), (1.4, 2.0)),  # E-value 1.28: the curve must not hug the axes
 ])  # fmt: skip
 def test_the_evalue_figure_zooms_on_the_evalue(monkeypatch, tmp_path, scale, estimate, ci, top):
-    from sensitivity.output.figures import evalue_figure
+    from sensitivity.evalues.figures import evalue_figure
 
     kept = _saved(monkeypatch)
     res = evalue(scale, estimate, ci)

@@ -7,31 +7,32 @@ from pathlib import Path
 from typing import Any
 
 from ..common.errors import InputError, InputTypeError
-from ..evalues.result import EValueResult
-from ..output.report import Item, write_report
-from ..partial_r2.result import PartialR2Result
+from ..common.results import Result
+from ..output.report import Reproduce, write_report
 
 
-def _item(label: str, thing: Any, treatment: str | None) -> Item:
-    if isinstance(thing, EValueResult):
-        return Item(label, thing)
-    if isinstance(thing, PartialR2Result):
-        if thing.evalue is None:
-            raise InputError(
-                f"`results` {label!r}: this partial-R² result has no E-value alongside (give "
-                "the outcome's SD); the report's table is built on E-values"
-            )
-        return Item(label, thing.evalue, thing)
+def _result(label: str, thing: Any, treatment: str | None) -> Result:
+    """A result of any family as it is; a fitted model read by `from_model`."""
+    if isinstance(thing, Result) and thing.presenter:
+        if not hasattr(thing.presenting_module(), "report_part"):
+            raise InputError(f"`results` {label!r}: a {type(thing).__name__} has no report section")
+        return thing
     if hasattr(thing, "params") or hasattr(thing, "summary") or hasattr(thing, "coef"):
         if treatment is None:
             raise InputError(f"`treatment` is needed to read the fitted model {label!r}")
         from . import from_model
 
-        return _item(label, from_model(thing, treatment), None)
+        return _result(label, from_model(thing, treatment), None)
     raise InputTypeError(
-        f"`results` {label!r} must be an E-value or partial-R² result or a fitted model; "
+        f"`results` {label!r} must be a result of this package or a fitted model; "
         f"got {type(thing).__name__}"
     )
+
+
+def _call(pairs: Sequence[tuple[str, Result]]) -> Reproduce:
+    """The Python call and each result's inputs, as the report's Reproduce section."""
+    inputs = tuple(f"{label}: {result.inputs()}" for label, result in pairs)
+    return Reproduce("sensitivity.report(results, folder)  # from Python", inputs)
 
 
 def report(results: Any, folder: str | Path, *, treatment: str | None = None,
@@ -42,8 +43,9 @@ def report(results: Any, folder: str | Path, *, treatment: str | None = None,
     Parameters
     ----------
     results : a result, a fitted model, a sequence of them, or a mapping label -> each
-        E-value results, partial-R² results (with their E-value alongside) or fitted models
-        that `from_model` reads (then `treatment` names the coefficient).
+        Results of any family (one estimate each: an E-value, a partial-R² result, a
+        tipping grid, Rosenbaum bounds, ...) or fitted models that `from_model` reads
+        (then `treatment` names the coefficient).
     folder : path
         Created if missing.
     treatment : str, optional
@@ -74,5 +76,54 @@ def report(results: Any, folder: str | Path, *, treatment: str | None = None,
         pairs = list(zip(names, things, strict=True))
     if not pairs:
         raise InputError("`results` is empty: give at least one result or fitted model")
-    items = [_item(label, thing, treatment) for label, thing in pairs]
-    return write_report(items, folder, "sensitivity.report(...) from Python")
+    chosen = [(label, _result(label, thing, treatment)) for label, thing in pairs]
+    return write_report(chosen, folder, _call(chosen))
+
+
+def results_from_table(path: str | Path) -> list[tuple[str, Any]]:
+    """Labelled results from a table of estimates (the screen's columns plus a `label`),
+    strictly: a row that cannot be computed stops with its reason (a report states every
+    estimate or none). A regression row with `se` and `dof` brings its partial-R² result."""
+    from dataclasses import replace
+
+    import numpy as np
+
+    from ..evalues.core import evalue
+    from ..partial_r2.core import partial_r2_summary
+    from .files import read_table
+
+    frame = read_table(path, "estimates")
+    for need in ("scale", "estimate"):
+        if need not in frame.columns:
+            raise InputError(f"`estimates`: the table has no {need!r} column")
+
+    def cell(row: Any, name: str) -> Any:
+        value = row.get(name) if name in row else None
+        if value is None or (isinstance(value, float) and np.isnan(value)) or value == "":
+            return None
+        return value
+
+    items = []
+    for k, (_, row) in enumerate(frame.iterrows(), 1):
+        label = str(cell(row, "label") or f"Estimate {k}")
+        try:
+            scale = str(row["scale"]).strip().lower()
+            scale = "md" if scale == "ols" else scale
+            ci = None
+            if cell(row, "lower") is not None:
+                ci = (float(row["lower"]), float(row["upper"]))
+            num = {k2: (None if cell(row, k2) is None else float(row[k2]))
+                   for k2 in ("se", "sd", "prevalence", "contrast", "target", "dof")}  # fmt: skip
+            res = evalue(scale, float(row["estimate"]), ci, se=num["se"], sd=num["sd"],
+                         outcome=cell(row, "outcome"), prevalence=num["prevalence"],
+                         contrast=num["contrast"] or 1.0, target=num["target"])  # fmt: skip
+            pr2 = None
+            if scale == "md" and num["dof"] is not None and num["se"] is not None:
+                pr2 = partial_r2_summary(float(row["estimate"]), num["se"], num["dof"],
+                                         sd_outcome=num["sd"])  # fmt: skip
+        except (InputError, ValueError, TypeError) as err:
+            raise InputError(f"`estimates` row {k} ({label}): {err}") from None
+        items.append((label, res if pr2 is None else replace(pr2, evalue=res)))
+    if not items:
+        raise InputError(f"`estimates`: {path} has no rows")
+    return items

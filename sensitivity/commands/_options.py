@@ -242,10 +242,10 @@ def show_warnings() -> None:
 
 
 def _json(result: Any, sink: Any) -> None:
-    from sensitivity.output.tables import json_rows, write_json
+    from sensitivity.output.writers import json_rows, write_json
 
-    document = result.document()
-    extra = [("sentence", document.sentence)] if document.sentence else []
+    said = result.document().sentences
+    extra = [("sentence", said[0]), ("sentences", said)] if said else []
     rows = getattr(result, "n_rows", 1)
     if hasattr(result, "row_layout") and rows > COMPACT_ROWS:
         head = result.json_head()
@@ -260,7 +260,7 @@ def _write(result: Any, fmt: str, sink: Any) -> None:
     if fmt == "json":
         _json(result, sink)
     elif fmt == "csv":
-        from sensitivity.output.tables import columns_to_csv
+        from sensitivity.output.writers import columns_to_csv
 
         columns_to_csv(result.columns(), sink)
     elif fmt == "html":

@@ -225,7 +225,7 @@ def _finish(result: Any, confounders: Any, fmt: str, outputs: Any, plots: Any,
         result = result.with_confounders(rr_t, rr_y)
     emit(result, fmt, outputs)
     if plots:
-        from sensitivity.output.figures import evalue_figure
+        from sensitivity.evalues.figures import evalue_figure
 
         for path in evalue_figure(result, plots, limits=plot_limits):
             click.echo(f"Wrote {path}", err=True)

@@ -96,7 +96,7 @@ def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discord
                                   continuity=continuity, alternative=alternative)  # fmt: skip
     emit(result, fmt, outputs)
     if plots:
-        from sensitivity.output.figures import matched_figure
+        from sensitivity.matched.figures import matched_figure
 
         for path in matched_figure(result, plots):
             click.echo(f"Wrote {path}", err=True)

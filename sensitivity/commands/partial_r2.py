@@ -216,7 +216,7 @@ def partial_r2_cmd(
         )
     emit(result, fmt, outputs)
     if plots:
-        from sensitivity.output.figures import partial_r2_contours
+        from sensitivity.partial_r2.figures import partial_r2_contours
 
         for path in partial_r2_contours(
             result, plots, statistic=plot_statistic, limits=plot_limits, marks=plot_marks

@@ -15,54 +15,6 @@ from ._options import Command, Number, model_option, outcome_frequency_option, s
 SHORT_HELP = COMMANDS["report"][1]
 
 
-def _rows(path: str) -> list[Any]:
-    """Items from a table of estimates (the screen's columns plus a label), strictly: a row
-    that cannot be computed stops the report with its reason."""
-    import numpy as np
-
-    from sensitivity.adapters.files import read_table
-    from sensitivity.common.errors import InputError
-    from sensitivity.evalues.core import evalue
-    from sensitivity.output.report import Item
-    from sensitivity.partial_r2.core import partial_r2_summary
-
-    frame = read_table(path, "estimates")
-    for need in ("scale", "estimate"):
-        if need not in frame.columns:
-            raise InputError(f"`estimates`: the table has no {need!r} column")
-
-    def cell(row: Any, name: str) -> Any:
-        value = row.get(name) if name in row else None
-        if value is None or (isinstance(value, float) and np.isnan(value)) or value == "":
-            return None
-        return value
-
-    items = []
-    for k, (_, row) in enumerate(frame.iterrows(), 1):
-        label = str(cell(row, "label") or f"Estimate {k}")
-        try:
-            scale = str(row["scale"]).strip().lower()
-            scale = "md" if scale == "ols" else scale
-            ci = None
-            if cell(row, "lower") is not None:
-                ci = (float(row["lower"]), float(row["upper"]))
-            num = {k2: (None if cell(row, k2) is None else float(row[k2]))
-                   for k2 in ("se", "sd", "prevalence", "contrast", "target", "dof")}  # fmt: skip
-            res = evalue(scale, float(row["estimate"]), ci, se=num["se"], sd=num["sd"],
-                         outcome=cell(row, "outcome"), prevalence=num["prevalence"],
-                         contrast=num["contrast"] or 1.0, target=num["target"])  # fmt: skip
-            pr2 = None
-            if scale == "md" and num["dof"] is not None and num["se"] is not None:
-                pr2 = partial_r2_summary(float(row["estimate"]), num["se"], num["dof"],
-                                         sd_outcome=num["sd"])  # fmt: skip
-        except (InputError, ValueError, TypeError) as err:
-            raise InputError(f"`estimates` row {k} ({label}): {err}") from None
-        items.append(Item(label, res, pr2))
-    if not items:
-        raise InputError(f"`estimates`: {path} has no rows")
-    return items
-
-
 @click.command("report", cls=Command, short_help=SHORT_HELP)
 @click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), required=False,
                 metavar="[SCALE ESTIMATE]")  # fmt: skip
@@ -106,7 +58,7 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
       sensitivity report hr 1.38 --ci 1.12 1.70 --outcome-frequency rare --out report
       sensitivity report --estimates demo/cohort_estimates.csv --out report
     """
-    from sensitivity.output.report import Item, write_report
+    from sensitivity.output.report import Reproduce, write_report
 
     show_warnings()
     routes = [bool(scale), bool(estimates), bool(data)]
@@ -116,7 +68,9 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
             "with --formula, --treatment and --model"
         )
     if estimates:
-        items = _rows(estimates)
+        from sensitivity.adapters.reporting import results_from_table
+
+        items = results_from_table(estimates)
     elif data:
         missing = [n for n, v in (("--formula", formula), ("--treatment", treatment),
                                   ("--model", model_kind)) if not v]  # fmt: skip
@@ -126,12 +80,14 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
 
         res = evalue_from_data(data, formula, treatment, model_kind, event=event,
                                contrast=contrast, outcome=outcome)  # fmt: skip
-        pr2 = None
+        items = [(label, res)]
         if model_kind == "ols":
+            from dataclasses import replace
+
             from sensitivity.adapters.statsmodels import partial_r2_from_data
 
             pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast)
-        items = [Item(label, res, pr2)]
+            items = [(label, replace(pr2, evalue=res))]
     else:
         if estimate is None:
             raise click.UsageError("summary input needs SCALE and ESTIMATE")
@@ -139,15 +95,15 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
 
         res = evalue(scale, estimate, ci or None, se=se, sd=sd, outcome=outcome,
                      prevalence=prevalence, contrast=contrast)  # fmt: skip
-        items = [Item(label, res)]
+        items = [(label, res)]
     command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
-    files = write_report(items, folder, command)
+    files = write_report(items, folder, Reproduce(command))
     click.echo(f"Wrote the report to {files['folder']}/ (report.html, report.md, tables.tex, "
                "report.json, figures)", err=True)  # fmt: skip
-    for item in items:
-        e = item.evalue
+    for name, result in items:
+        e = result.report_parts()[0]
         ci_e = "-" if e.evalue_ci is None else f"{float(e.evalue_ci):.2f}"
-        click.echo(f"{item.label}: E-value {float(e.evalue):.2f} (CI: {ci_e})")
+        click.echo(f"{name}: E-value {float(e.evalue):.2f} (CI: {ci_e})")
 
 
 command = report_cmd

@@ -111,7 +111,7 @@ def screen_cmd(
     frames = read_ahead(read_frames(file, "file", share=share))
 
     from sensitivity.common.errors import InputError
-    from sensitivity.output.tables import TABLE_FORMATS, TableWriter
+    from sensitivity.output.streams import TABLE_FORMATS, TableWriter
     from sensitivity.screen.core import Options, computed_names
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
@@ -168,7 +168,7 @@ def screen_cmd(
     else:
         click.echo(document.sentence, err=True)
     if plots:
-        from sensitivity.output.figures import screen_figure
+        from sensitivity.screen.figures import screen_figure
 
         for path in screen_figure(summary, plots, limits=plot_limits):
             click.echo(f"Wrote {path}", err=True)
@@ -186,7 +186,7 @@ class _StdoutWriter:
     def __init__(self, kind: str, trusted: Any = ()) -> None:
         import tempfile
 
-        from sensitivity.output.tables import TableWriter
+        from sensitivity.output.streams import TableWriter
 
         self.kind = kind
         self._tmp = tempfile.NamedTemporaryFile(suffix=f".{kind}", delete=False)

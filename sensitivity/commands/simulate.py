@@ -63,7 +63,7 @@ def simulate_cmd(scale: str, estimate: float, ci: Any, ci_level: float, prevalen
         click.echo(f"Seed {result.seed} (give --seed {result.seed} to repeat this run)", err=True)
     emit(result, fmt, outputs)
     if plots:
-        from sensitivity.output.figures import simulation_figure
+        from sensitivity.simulate.figures import simulation_figure
 
         for path in simulation_figure(result, plots):
             click.echo(f"Wrote {path}", err=True)

@@ -110,7 +110,7 @@ def stability_cmd(estimate_short: Any, r2_short: Any, estimate_long: Any, r2_lon
     result = coefficient_stability(**numbers, r2_max=r2_max, delta=delta, target=target)
     emit(result, fmt, outputs)
     if plots:
-        from sensitivity.output.figures import stability_figure
+        from sensitivity.stability.figures import stability_figure
 
         for path in stability_figure(result, plots):
             click.echo(f"Wrote {path}", err=True)

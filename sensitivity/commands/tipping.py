@@ -187,7 +187,7 @@ def tipping_cmd(
         click.echo(f"Writing {result.n_rows:,} rows as {fmt}...", err=True)
     emit(result, fmt, outputs)
     if plots:
-        from sensitivity.output.figures import tipping_figure
+        from sensitivity.tipping.figures import tipping_figure
 
         for path in tipping_figure(result, plots, limits=plot_limits, marks=plot_marks):
             click.echo(f"Wrote {path}", err=True)

@@ -61,6 +61,26 @@ REFERENCES = {
         "VanderWeele TJ, Arah OA (2011). Bias formulas for sensitivity analysis of unmeasured "
         "confounding for general outcomes, treatments, and confounders. Epidemiology 22:42-52."
     ),
+    "rosenbaum-2002": (
+        "Rosenbaum PR (2002). Observational Studies, 2nd edition. New York: Springer "
+        "(chapter 4, sensitivity to hidden bias)."
+    ),
+    "oster-2019": (
+        "Oster E (2019). Unobservable selection and coefficient stability: theory and "
+        "evidence. Journal of Business & Economic Statistics 37:187-204."
+    ),
+    "frank-2000": (
+        "Frank KA (2000). Impact of a confounding variable on a regression coefficient. "
+        "Sociological Methods & Research 29:147-194."
+    ),
+    "greenland-2005": (
+        "Greenland S (2005). Multiple-bias modelling for analysis of observational data. "
+        "Journal of the Royal Statistical Society, Series A 168:267-306."
+    ),
+    "lash-fox-fink-2009": (
+        "Lash TL, Fox MP, Fink AK (2009). Applying Quantitative Bias Analysis to "
+        "Epidemiologic Data. New York: Springer."
+    ),
     "tan-2006": (
         "Tan Z (2006). A distributional approach for causal inference using propensity scores. "
         "Journal of the American Statistical Association 101:1619-1637."

@@ -1,8 +1,10 @@
 """The base of every result: a short repr, identity comparison, and views of one Document.
 
-Each family's result class (a frozen dataclass with ``eq=False, repr=False``) holds numbers;
-its family's `present.document(result)` turns it into the Document that the text summary,
-the notebook view and the report all render, so they cannot disagree.
+Each family's result class (a frozen dataclass with ``eq=False, repr=False``) holds numbers
+and names its presenter (`presenter`: the family's `present` module, set by the family in
+its own result class, so this module knows no family). The presenter's `document(result)`
+is the Document that the text summary, the notebook view and the report all render, so they
+cannot disagree; its `report_part(items)` is the family's section of a manuscript report.
 """
 
 from __future__ import annotations
@@ -68,15 +70,48 @@ class Result:
 
     _repr_fields: tuple[str, ...] = ()
     is_scalar: bool = True
+    #: The module that presents this result (``document``, ``report_part``), named by the
+    #: family in its own result class.
+    presenter: str = ""
 
     def __repr__(self) -> str:
         parts = [f"{name}={_brief(getattr(self, name))}" for name in self._repr_fields]
         return f"<{type(self).__name__} {' '.join(parts)}>"
 
+    @classmethod
+    def presenting_module(cls) -> Any:
+        """The family's present module (imported on first use: it pulls in the renderers)."""
+        if not cls.presenter:
+            raise TypeError(f"{cls.__name__} names no presenter")
+        return import_module(cls.presenter)
+
+    @property
+    def family(self) -> str:
+        """The family's short name: the folder of its presenter."""
+        return self.presenter.split(".")[-2]
+
     def document(self) -> Any:
         """The Document every view of this result renders (built by the family's present)."""
-        family = type(self).__module__.rpartition(".")[0]
-        return import_module(f"{family}.present").document(self)
+        return self.presenting_module().document(self)
+
+    #: The fields that were given to compute this result (for a report's Reproduce section).
+    _input_fields: tuple[str, ...] = ()
+
+    def inputs(self) -> str:
+        """The inputs behind this result, in one line (its repr when none are named)."""
+        if not self._input_fields:
+            return repr(self)
+        shown = []
+        for name in self._input_fields:
+            value = getattr(self, name, None)
+            if value is not None:
+                shown.append(f"{name}={_brief(value)}")
+        return f"{type(self).__name__}({', '.join(shown)})"
+
+    def report_parts(self) -> tuple[Result, ...]:
+        """The results this one puts into a report, each presented by its own family (a
+        regression coefficient's partial-R² result brings its E-value along)."""
+        return (self,)
 
     def summary(self) -> str:
         """The text form: every table, sentence, note and caution."""
@@ -89,7 +124,7 @@ class Result:
         return self.document().render("html")
 
     def sentence(self) -> str:
-        """The paste-ready sentence (one result)."""
+        """The paste-ready sentences of this result, joined (the headline first)."""
         return " ".join(self.document().sentences)
 
     def all_notes(self) -> tuple[str, ...]:
@@ -116,7 +151,7 @@ class Result:
 
 
 def rows_of_layout(columns: dict[str, np.ndarray], layout: list[tuple[str, Any]]) -> list[dict]:
-    """Nested row dicts built from columns by a layout (see `output.tables.json_rows`).
+    """Nested row dicts built from columns by a layout (see `output.writers.json_rows`).
 
     ``(key, column)`` is a plain value, ``(key, [(key, column), ...])`` a nested object and
     ``(key, (column, column))`` a pair (null when its first column is absent).

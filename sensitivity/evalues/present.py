@@ -8,9 +8,12 @@ import numpy as np
 
 from ..common.results import plain
 from ..common.scales import SCALES
-from ..output.document import Block, Document, prose, standard_tail
+from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table, number
 from .result import ConfounderBound, EValueResult
+
+#: How an odds or hazard ratio's outcome frequency is judged (common practice).
+RARE_CUTOFF = "the usual 15% cut-off for a rare outcome (common practice)"
 
 
 def _records(columns: dict) -> list[dict]:
@@ -19,7 +22,7 @@ def _records(columns: dict) -> list[dict]:
     return [{k: v[i] for k, v in cols.items()} for i in range(n)]
 
 
-def _value(x: float | None) -> str:
+def observed_value(x: float | None) -> str:
     """An observed value: two decimals, or two significant digits when it is below 0.1."""
     if x is None or abs(x) >= 0.1 or x == 0:
         return number(x)
@@ -38,15 +41,20 @@ def estimate_table(result: EValueResult) -> Table:
     mixed = not isinstance(result.scale, str)
     code = "mixed" if mixed else str(result.scale)
     name = "Mixed scales" if mixed else SCALES[code].name.capitalize()
-    show_rr = code != "rr"
+    records = _records(result.own_columns())
+    scales = [str(rec["scale"]) for rec in records]
+    mixed = mixed or len(set(scales)) > 1
+    show_rr = code != "rr" or mixed
     near = "null" if result.target_is_null else "target"
-    columns: tuple[str, ...] = ("", "Observed" if mixed else f"Observed ({code.upper()})")
+    columns: tuple[str, ...] = ("",) + (("Scale",) if mixed else ())
+    columns += ("Observed" if mixed else f"Observed ({code.upper()})",)
     columns += ("Risk-ratio scale",) if show_rr else ()
     columns += ("E-value",)
     rows: list[tuple[str, ...]] = []
-    for i, rec in enumerate(_records(result.own_columns())):
+    for i, rec in enumerate(records):
         label = "Estimate" if result.is_scalar else f"Estimate {i + 1}"
-        est: tuple[str, ...] = (label, _value(rec["estimate"]))
+        est: tuple[str, ...] = (label,) + ((SCALES[scales[i]].short,) if mixed else ())
+        est += (observed_value(rec["estimate"]),)
         est += (number(rec["rr"]),) if show_rr else ()
         rows.append((*est, number(rec["evalue"])))
         if rec["evalue_ci"] is None:
@@ -66,19 +74,27 @@ def estimate_table(result: EValueResult) -> Table:
                     contrast=1.0 if rec["contrast"] is None else rec["contrast"],
                 )
             )
-        limit: tuple[str, ...] = (f"  {_level(result)} limit nearest the {near}", _value(observed))
+        limit: tuple[str, ...] = (f"  {level_name(result)} limit nearest the {near}",)
+        limit += ("",) if mixed else ()
+        limit += (observed_value(observed),)
         limit += (number(lo_rr if lower_nearer else up_rr),) if show_rr else ()
         rows.append((*limit, number(rec["evalue_ci"])))
     conversion = result.conversion
-    foot = (
-        (f"Conversion to the risk-ratio scale: {conversion}.",)
-        if isinstance(conversion, str)
-        else ()
-    )
+    if isinstance(conversion, str):
+        foot: tuple[str, ...] = (f"Conversion to the risk-ratio scale: {conversion}.",)
+    else:  # one footnote a conversion, naming the estimates it applies to
+        which: dict[str, list[str]] = {}
+        for i, text in enumerate(conversion, 1):
+            which.setdefault(text, []).append(str(i))
+        foot = tuple(
+            f"Conversion to the risk-ratio scale (estimate{'s' * (len(k) > 1)} "
+            f"{', '.join(k)}): {text}."
+            for text, k in which.items()
+        )
     return Table(columns=columns, rows=tuple(rows), title=f"E-values: {name}", footnotes=foot)
 
 
-def _level(result: EValueResult) -> str:
+def level_name(result: EValueResult) -> str:
     return f"{result.ci_level:.0%} CI"
 
 
@@ -92,12 +108,12 @@ def sentence(result: EValueResult) -> str | None:
         return None
     r = _records(result.own_columns())[0]
     name = SCALES[str(result.scale)].name
-    level = _level(result)
+    level = level_name(result)
     ci = ""
     if r["ci_lower"] is not None:
-        ci = f" ({level} {_value(r['ci_lower'])} to {_value(r['ci_upper'])})"
+        ci = f" ({level} {observed_value(r['ci_lower'])} to {observed_value(r['ci_upper'])})"
     elif r["se"] is not None:
-        ci = f" (standard error {_value(r['se'])})"
+        ci = f" (standard error {observed_value(r['se'])})"
     conv = ""
     if result.scale != "rr" and not (result.scale in ("or", "hr") and result.outcome == "rare"):
         kind = f" for a {result.outcome} outcome" if result.scale in ("or", "hr") else ""
@@ -106,7 +122,8 @@ def sentence(result: EValueResult) -> str | None:
     aim = "explaining the estimate away" if result.target_is_null else f"moving it to {goal}"
     e, e_ci = number(r["evalue"]), r["evalue_ci"]
     text = (
-        f"For the observed {name} of {_value(r['estimate'])}{ci}{conv or ','} {aim} would take an "
+        f"For the observed {name} of {observed_value(r['estimate'])}{ci}{conv or ','} {aim} "
+        f"would take an "
         f"unmeasured confounder associated with both the treatment and the outcome by a risk "
         f"ratio of at least {e} each, beyond the measured covariates (the E-value); a "
         f"confounder weaker than that on both associations could not."
@@ -129,7 +146,7 @@ def multi_bias_table(result: EValueResult) -> Table:
                  number(mb["evalue"]), "-" if mb["evalue_ci"] is None
                  else number(mb["evalue_ci"])))  # fmt: skip
     return Table(
-        ("Biases included", "E-value", f"E-value, {_level(result)}"),
+        ("Biases included", "E-value", f"E-value, {level_name(result)}"),
         tuple(rows),
         title="Several biases at once: the common strength of every bias parameter",
         footnotes=tuple(f"{b.capitalize()}: {a}." for b, a in zip(mb["biases"],
@@ -147,7 +164,9 @@ def multi_bias_sentence(result: EValueResult) -> str:
         f"E-value); weaker biases could not"
     )
     if mb["evalue_ci"] is not None and mb["evalue_ci"] > 1:
-        text += f", and {number(mb['evalue_ci'])} each could move the {_level(result)} to the null"
+        text += (
+            f", and {number(mb['evalue_ci'])} each could move the {level_name(result)} to the null"
+        )
     return text + "."
 
 
@@ -200,7 +219,7 @@ def confounder_table(bound: ConfounderBound) -> Table:
             "RR with outcome",
             "Bounding factor",
             f"Estimate moved to ({str(src.scale).upper()})",
-            f"{_level(src)} limit moved to",
+            f"{level_name(src)} limit moved to",
             f"Reaches {target}",
         ),
         rows=tuple(rows),
@@ -221,7 +240,7 @@ def confounder_sentences(bound: ConfounderBound) -> list[str]:
         )
         if r["bias_adjusted_ci_limit"] is not None:
             text += (
-                f" and the nearest {_level(bound.source)} limit to "
+                f" and the nearest {level_name(bound.source)} limit to "
                 f"{number(r['bias_adjusted_ci_limit'])}"
             )
         if r["explains_estimate"]:
@@ -262,7 +281,19 @@ def rd_document(r: Any) -> Document:
         prose(lead, role="sentence"),
         *standard_tail(r.notes, r.cautions),
     )
-    return Document("E-values", blocks, sentence=lead)
+    return Document("E-values", blocks)
+
+
+def figures(result: Any) -> tuple[Figure, ...]:
+    """The figure a single estimate can draw (none for a table of estimates)."""
+    if not isinstance(result, EValueResult) or not result.is_scalar:
+        return ()
+    from functools import partial
+
+    from .figures import evalue_figure
+
+    caption = "Pairs of confounder strengths that could explain the result away"
+    return (Figure("evalue", caption, partial(evalue_figure, result)),)
 
 
 def document(result: Any) -> Document:
@@ -273,7 +304,7 @@ def document(result: Any) -> Document:
     if isinstance(result, ConfounderBound):
         return Document(
             "Hypothetical confounders",
-            (confounder_table(result), prose(*confounder_sentences(result))),
+            (confounder_table(result), prose(*confounder_sentences(result), role="sentence")),
         )
     lead = sentence(result)
     blocks: list = [estimate_table(result)]
@@ -283,9 +314,16 @@ def document(result: Any) -> Document:
         blocks.append(overlap_table(result.overlap))
     if result.multi_bias is not None:
         blocks.append(multi_bias_table(result))
-        blocks.append(prose(multi_bias_sentence(result)))
+        blocks.append(prose(multi_bias_sentence(result), role="sentence"))
     if result.confounders is not None:
         blocks.append(confounder_table(result.confounders))
-        blocks.append(prose(*confounder_sentences(result.confounders)))
+        blocks.append(prose(*confounder_sentences(result.confounders), role="sentence"))
     blocks += standard_tail(result.notes, result.cautions)
-    return Document("E-values", tuple(blocks), sentence=lead)
+    return Document("E-values", tuple(blocks), figures=figures(result))
+
+
+def report_part(items: Any) -> Any:
+    """The family's section of a manuscript report (see `evalues.report`)."""
+    from .report import report_part as build
+
+    return build(items)

@@ -27,6 +27,7 @@ class ConfounderBound(Result):
     explains_ci: np.ndarray | None  # the moved CI limit reaches the target
 
     _repr_fields = ("rr_treatment", "rr_outcome", "bounding_factor", "estimate")
+    presenter = "sensitivity.evalues.present"
     is_scalar = False
 
     def columns(self) -> dict[str, np.ndarray]:
@@ -100,6 +101,9 @@ class EValueResult(Result):
     multi_bias: dict | None = None  # the joint E-value with selection / misclassification
 
     _repr_fields = ("scale", "estimate", "ci", "evalue", "evalue_ci")
+    _input_fields = ("scale", "estimate", "ci", "ci_level", "se", "sd", "contrast", "outcome",
+                     "target_value")  # fmt: skip
+    presenter = "sensitivity.evalues.present"
 
     @property
     def is_scalar(self) -> bool:  # type: ignore[override]
@@ -257,6 +261,7 @@ class RiskDifferenceResult(Result):
     notes: tuple[str, ...] = ()
     cautions: tuple[str, ...] = standing.EVALUE
     _repr_fields = ("estimate", "evalue", "evalue_ci")
+    presenter = "sensitivity.evalues.present"
 
     def to_dict(self) -> dict:
         a, n1, c, n0 = self.counts

@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
-from ..output.document import Block, Document, prose, standard_tail
+from typing import Any
+
+from ..common.notes import REFERENCES
+from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table, number, percent
 from .result import ImpactResult
 
@@ -74,4 +77,24 @@ def document(r: ImpactResult) -> Document:
         "A linear model; the confounder's correlations are partial on the covariates; "
         "one omitted variable (or a combination of several).",
     ))  # fmt: skip
-    return Document("Impact threshold", blocks, sentence=lead)
+    return Document("Impact threshold", blocks, figures=figures(r))
+
+
+def figures(r: Any) -> tuple[Figure, ...]:
+    """This family draws no figure."""
+    return ()
+
+
+METHODS = (
+    "We computed the impact threshold of a confounding variable (Frank 2000): the least "
+    "product of its correlations with the treatment and with the outcome, net of the "
+    "covariates, at which the coefficient would no longer be statistically significant."
+)
+
+
+def report_part(items: Any) -> Any:
+    """The family's section of a manuscript report, from each result's own Document."""
+    from ..output.report import simple_part
+
+    refs = (REFERENCES["frank-2000"],)
+    return simple_part("impact", items, METHODS, references=refs)

@@ -33,6 +33,7 @@ class ImpactResult(Result):
     cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
     notes: tuple[str, ...] = ()
     _repr_fields = ("t", "dof", "itcv", "share_to_invalidate")
+    presenter = "sensitivity.impact.present"
 
     def to_dict(self) -> dict:
         return plain(

@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
-from ..output.document import Block, Document, prose, standard_tail
+from typing import Any
+
+from ..common.notes import REFERENCES
+from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table
 from .result import MatchedResult
 
@@ -84,4 +87,29 @@ def document(r: MatchedResult) -> Document:
         "Pairs matched on the measured covariates; a hidden confounder with bounded effect "
         f"(Gamma) on which unit is treated; a one-sided test for {_direction(r)}.",
     ))  # fmt: skip
-    return Document("Rosenbaum bounds", blocks, sentence=lead)
+    return Document("Rosenbaum bounds", blocks, figures=figures(r))
+
+
+def figures(r: Any) -> tuple[Figure, ...]:
+    """The figure this result can draw (on demand)."""
+    from functools import partial
+
+    from .figures import matched_figure
+
+    return (Figure("matched", "The p-value bounds against Gamma", partial(matched_figure, r)),)
+
+
+METHODS = (
+    "For matched pairs we computed Rosenbaum's sensitivity bounds (Rosenbaum 2002): for each "
+    "Gamma, the most that hidden bias which makes one unit of a pair up to Gamma times more "
+    "likely to be the treated one could raise the one-sided p-value, and the least Gamma at "
+    "which that worst case reaches the significance level."
+)
+
+
+def report_part(items: Any) -> Any:
+    """The family's section of a manuscript report, from each result's own Document."""
+    from ..output.report import simple_part
+
+    refs = (REFERENCES["rosenbaum-2002"],)
+    return simple_part("matched", items, METHODS, references=refs)

@@ -33,6 +33,7 @@ class MatchedResult(Result):
     cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
     is_scalar = False
     _repr_fields = ("test", "pairs", "statistic", "gamma_at_alpha")
+    presenter = "sensitivity.matched.present"
 
     def columns(self) -> dict[str, np.ndarray]:
         out = {"gamma": self.gamma, "p_upper": self.p_upper, "p_lower": self.p_lower}

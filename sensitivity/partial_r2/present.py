@@ -7,11 +7,18 @@ coefficient's own numbers in one header line, and lists named confounders verdic
 from __future__ import annotations
 
 import re
+from collections.abc import Sequence
+from functools import partial
+from typing import Any
 
 import numpy as np
 
-from ..output.document import Block, Document, prose, standard_tail
+from ..common.notes import REFERENCES
+from ..output.document import Block, Document, Figure, prose, standard_tail
+from ..output.report import ReportPart
 from ..output.tables import Table, number, percent
+from .core import t_critical
+from .figures import partial_r2_contours
 from .result import CovariateStrength, PartialR2Result, Scenario
 
 
@@ -230,8 +237,73 @@ def sentence(r: PartialR2Result) -> str:
     return text + "."
 
 
+def figures(r: PartialR2Result) -> tuple[Figure, ...]:
+    caption = "Where a hidden confounder of each strength would move the coefficient"
+    return (Figure("partial_r2", caption, partial(partial_r2_contours, r)),)
+
+
 def document(r: PartialR2Result) -> Document:
     lead = sentence(r)
     blocks: tuple[Block, ...] = (prose(header(r)), *tables(r), prose(lead, role="sentence"))
     blocks += standard_tail(r.notes, r.cautions, r.assumptions)
-    return Document("Partial-R² sensitivity", blocks, sentence=lead)
+    return Document("Partial-R² sensitivity", blocks, figures=figures(r))
+
+
+METHODS = (
+    "For linear-regression coefficients we also report robustness values in the partial-R² "
+    "parameterisation of omitted-variable bias (Cinelli & Hazlett 2020): the least share of "
+    "the residual variance of both the treatment and the outcome a confounder would need to "
+    "explain to bring the estimate to zero, or to make its confidence interval include zero."
+)
+
+
+def supplement_table(items: Sequence[tuple[str, PartialR2Result]]) -> Table:
+    rows = []
+    for label, r in items:
+        half = float(t_critical(r.alpha, r.dof)) * r.se
+        lo, up = r.estimate - half, r.estimate + half
+        rows.append((label, f"{_num(r, r.estimate)} ({_level(r)} CI {_num(r, lo)} to "
+                     f"{_num(r, up)})", f"{r.t:.2f}", f"{r.dof:,}", percent(r.partial_r2),
+                     percent(r.robustness_value), percent(r.robustness_value_alpha)))  # fmt: skip
+    return Table(
+        (
+            "Estimate",
+            "Coefficient (CI)",
+            "t",
+            "dof",
+            "Partial R² with outcome",
+            "Robustness value",
+            "Robustness value, CI",
+        ),  # fmt: skip
+        tuple(rows),
+        title="Regression coefficients: partial-R² robustness values",
+        footnotes=(
+            "Robustness value: the least share of the residual variance of both the treatment "
+            "and the outcome a confounder would need to explain to bring the estimate (or, "
+            "for the CI column, its interval) to zero.",
+        ),
+    )
+
+
+def report_part(items: Sequence[Any]) -> ReportPart:
+    """The family's section of a manuscript report: a row a coefficient, its contours."""
+    pairs = [(label, r) for label, r in items]
+    numbers = [getattr(item, "number", k) for k, item in enumerate(items, 1)]
+    figs = tuple(
+        Figure(
+            f"partial_r2_{k}", f"{label}: partial-R² sensitivity", partial(partial_r2_contours, r)
+        )  # fmt: skip
+        for k, (label, r) in zip(numbers, pairs, strict=True)
+    )
+    return ReportPart(
+        family="partial_r2",
+        methods=METHODS,
+        results=tuple(f"{label}: {sentence(r)}" for label, r in pairs),
+        tables=(supplement_table(pairs),),
+        figures=figs,
+        details=tuple((f"{label} (partial R²)", document(r)) for label, r in pairs),
+        entries=tuple({"label": label, **r.to_dict()} for label, r in pairs),
+        assumptions=tuple(dict.fromkeys(a for _, r in pairs for a in r.assumptions)),
+        cautions=tuple(dict.fromkeys(c for _, r in pairs for c in r.cautions)),
+        references=(REFERENCES["cinelli-hazlett-2020"],),
+    )

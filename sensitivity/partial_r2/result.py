@@ -120,8 +120,14 @@ class PartialR2Result(Result):
     )
     is_scalar = True
     _repr_fields = ("estimate", "se", "dof", "robustness_value", "robustness_value_alpha")
+    _input_fields = ("estimate", "se", "dof", "alpha", "fraction", "treatment")
+    presenter = "sensitivity.partial_r2.present"
 
     # ----------------------------------------------------------------- derived views
+    def report_parts(self) -> tuple[Result, ...]:
+        """In a report a coefficient brings its E-value (when the outcome's SD gave one)."""
+        return (self,) if self.evalue is None else (self.evalue, self)
+
     def with_scenarios(self, extra: Sequence[Scenario]) -> PartialR2Result:
         from dataclasses import replace
 

@@ -74,5 +74,9 @@ def table(s: ScreenSummary) -> Table:
 
 def document(s: ScreenSummary) -> Document:
     text = paragraph(s)
-    blocks: tuple[Block, ...] = (prose(text), table(s), *standard_tail(s.notes, s.cautions))
-    return Document("Screen", blocks, sentence=text)
+    blocks: tuple[Block, ...] = (
+        prose(text, role="sentence"),
+        table(s),
+        *standard_tail(s.notes, s.cautions),
+    )
+    return Document("Screen", blocks)

@@ -162,6 +162,7 @@ class ScreenSummary(Result):
     )
     is_scalar = False
     _repr_fields = ("source", "rows")
+    presenter = "sensitivity.screen.present"
 
     @staticmethod
     def log_edges() -> np.ndarray:

@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+from typing import Any
+
+from ..common.notes import REFERENCES
 from ..common.scales import SCALES
-from ..output.document import Block, Document, prose, standard_tail
+from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table, number
 from .result import SimulationResult
 
@@ -47,4 +50,36 @@ def document(r: SimulationResult) -> Document:
         "conditional on the measured covariates; priors independent unless a correlation of "
         "the prevalences is given.",
     ))  # fmt: skip
-    return Document("Probabilistic bias analysis", blocks, sentence=lead)
+    return Document("Probabilistic bias analysis", blocks, figures=figures(r))
+
+
+def figures(r: Any) -> tuple[Figure, ...]:
+    """The figure this result can draw (on demand)."""
+    from functools import partial
+
+    from .figures import simulation_figure
+
+    return (
+        Figure(
+            "simulate", "The distribution of bias-adjusted estimates", partial(simulation_figure, r)
+        ),
+    )
+
+
+METHODS = (
+    "We carried out a probabilistic bias analysis for a hidden binary confounder (Greenland "
+    "2005; Lash, Fox & Fink 2009): bias parameters were drawn from the stated prior "
+    "distributions, each draw's bias-adjusted estimate computed, and the distribution "
+    "summarised with and without random error."
+)
+
+
+def report_part(items: Any) -> Any:
+    """The family's section of a manuscript report, from each result's own Document."""
+    from ..output.report import simple_part
+
+    refs = (
+        REFERENCES["greenland-2005"],
+        REFERENCES["lash-fox-fink-2009"],
+    )
+    return simple_part("simulate", items, METHODS, references=refs)

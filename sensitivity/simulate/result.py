@@ -39,6 +39,7 @@ class SimulationResult(Result):
         standing.DEFER,
     )
     _repr_fields = ("scale", "draws", "median", "interval")
+    presenter = "sensitivity.simulate.present"
 
     def to_dict(self) -> dict:
         return plain(

@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
-from ..output.document import Block, Document, prose, standard_tail
+from typing import Any
+
+from ..common.notes import REFERENCES
+from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table, number
 from .result import StabilityResult
 
@@ -54,4 +57,33 @@ def document(r: StabilityResult) -> Document:
         "same proportion (delta) as the observed ones, and they are orthogonal to them.",
         "Unadjusted R² throughout; the variances share one n or n - 1 convention.",
     ))  # fmt: skip
-    return Document("Coefficient stability", blocks, sentence=lead)
+    return Document("Coefficient stability", blocks, figures=figures(r))
+
+
+def figures(r: Any) -> tuple[Figure, ...]:
+    """The figure this result can draw (on demand)."""
+    from functools import partial
+
+    from .figures import stability_figure
+
+    return (
+        Figure(
+            "stability", "The bias-adjusted coefficient against delta", partial(stability_figure, r)
+        ),
+    )
+
+
+METHODS = (
+    "We assessed coefficient stability under proportional selection (Oster 2019): the "
+    "coefficient adjusted for unobserved confounders whose selection is delta times that on "
+    "the observed controls, up to an R-squared of R-max, and the delta at which the adjusted "
+    "coefficient would reach the stated target."
+)
+
+
+def report_part(items: Any) -> Any:
+    """The family's section of a manuscript report, from each result's own Document."""
+    from ..output.report import simple_part
+
+    refs = (REFERENCES["oster-2019"],)
+    return simple_part("stability", items, METHODS, references=refs)

@@ -30,6 +30,7 @@ class StabilityResult(Result):
     variances: tuple[float, float, float] | None = None
     cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
     _repr_fields = ("delta", "r2_max", "bias_adjusted", "delta_for_target")
+    presenter = "sensitivity.stability.present"
 
     def to_dict(self) -> dict:
         return plain(

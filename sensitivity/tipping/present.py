@@ -2,10 +2,13 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
+from ..common.notes import REFERENCES
 from ..common.scales import SCALES
-from ..output.document import Document, prose, standard_tail
+from ..output.document import Document, Figure, prose, standard_tail
 from ..output.tables import Table, number
 from .result import TippingGrid
 
@@ -200,4 +203,35 @@ def document(g: TippingGrid) -> Document:
             )
         )
     blocks += standard_tail(g.notes, g.cautions)
-    return Document("Tipping points", tuple(blocks), sentence=lead)
+    return Document("Tipping points", tuple(blocks), figures=figures(g))
+
+
+def figures(g: Any) -> tuple[Figure, ...]:
+    """The figure this result can draw (on demand)."""
+    if len(g.varying) not in (1, 2):
+        return ()
+    from functools import partial
+
+    from .figures import tipping_figure
+
+    return (Figure("tipping", "Where the conclusion tips", partial(tipping_figure, g)),)
+
+
+METHODS = (
+    "We computed how the estimate would change under a hidden confounder of chosen "
+    "prevalence (or mean difference) and strength (Lin, Psaty & Kronmal 1998; VanderWeele & "
+    "Arah 2011), and the least strengths at which the estimate or its confidence interval "
+    "would reach the null or the stated target (tipping points). The strengths are "
+    "assumptions to be judged against known confounders, not estimates."
+)
+
+
+def report_part(items: Any) -> Any:
+    """The family's section of a manuscript report, from each result's own Document."""
+    from ..output.report import simple_part
+
+    refs = (
+        REFERENCES["lin-psaty-kronmal-1998"],
+        REFERENCES["vanderweele-arah-2011"],
+    )
+    return simple_part("tipping", items, METHODS, references=refs)

@@ -37,6 +37,7 @@ class TippingGrid(Result):
     ci_level: float = 0.95
     is_scalar = False
     _repr_fields = ("kind", "scale", "estimate", "ci", "shape")
+    presenter = "sensitivity.tipping.present"
 
     # ----------------------------------------------------------------- structure
     @property
@@ -127,7 +128,7 @@ class TippingGrid(Result):
         )
 
     def row_layout(self) -> list[tuple[str, Any]]:
-        """How a JSON row is built from `columns()` (see `output.tables.json_rows`)."""
+        """How a JSON row is built from `columns()` (see `output.writers.json_rows`)."""
         cols = self.columns()
         names = [n for n, _ in self.axes]
         extras = [
