@@ -449,3 +449,27 @@ def test_separation_is_an_input_error():
     x = np.c_[x, a]  # the treatment itself among the covariates
     with pytest.raises(InputError, match="separates the arms"):
         weighting_bounds(y, a, covariates=x, lam=[1, 2], resamples=50)
+
+
+# ----------------------------------------------------------------- figure and report
+
+
+def test_the_figure_and_the_report_section(tmp_path):
+    import json
+
+    from sensitivity import evalue, report
+
+    y, a, x = _data(300, seed=2, binary=True)
+    res = weighting_bounds(y, a, covariates=x, lam=[1, 1.5, 2], resamples=50, seed=1)
+    (figure,) = res.document().figures
+    drawn = figure.draw([tmp_path / "w.png", tmp_path / "w.svg"])
+    assert all(p.exists() and p.stat().st_size > 0 for p in drawn)
+    files = report({"Outreach and follow-up": res, "Other": evalue("rr", 1.8)}, tmp_path / "r")
+    text = files["md"].read_text()
+    assert "marginal sensitivity model" in text and "Least Λ, sharp" in text
+    assert "Dorn J, Guo K (2023)" in text
+    d = json.loads(files["json"].read_text())
+    entry = d["estimates"][0]
+    assert entry["label"] == "Outreach and follow-up" and entry["family"] == "weighting"
+    assert set(entry["lambda_at_null"]) == {"sharp", "percentile"}
+    assert any(p.name.startswith("weighting") for p in (tmp_path / "r").iterdir())

@@ -14,7 +14,7 @@ from typing import Any
 
 import numpy as np
 
-from ..output import figures as plumbing
+from ..output.figures import figure_paths, legend_below, new_figure, save_figure
 
 COLOURS = {"sharp": "#5e3c99", "percentile": "#e66101"}  # the ends of the diverging fill
 NAMES = {"sharp": "Sharp", "percentile": "Box"}
@@ -22,12 +22,8 @@ NAMES = {"sharp": "Sharp", "percentile": "Box"}
 
 def draw(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
     """Draw `result`'s bounds and intervals against Λ into each of `paths`."""
-    if isinstance(paths, (str, Path)):
-        paths = [paths]
-    out = [plumbing.check_plot_path(p) for p in paths]
-    plt = plumbing._pyplot()
-    plt.rcParams.update(plumbing.STYLE)
-    fig, ax = plt.subplots(figsize=(6.4, 4.8), layout="constrained")
+    out = figure_paths(paths)
+    fig, ax = new_figure(figsize=(6.4, 4.8))
     lam = np.asarray(result.lam, float)
     level = f"{result.ci_level:.0%}"
     handles = []
@@ -71,6 +67,5 @@ def draw(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
     ax.set_title(
         f"Weighted {result.estimand.upper()} {result.estimate:.3g} under hidden confounding up to Λ"
     )
-    plumbing._legend(ax, handles)
-    plumbing._save(fig, out)
-    return out
+    legend_below(ax, handles)
+    return save_figure(fig, out)

@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 from ..common.notes import REFERENCES
-from ..output.document import Block, Document, prose, standard_tail
+from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table, number
 from .result import WeightingResult
 
@@ -129,20 +132,25 @@ def sentence(r: WeightingResult) -> str:
             f"{r.lam.max():g}, beyond what the measured covariates explain, could not move it "
             f"to include {tgt}."
         )
+    could = (
+        "a hidden confounder that multiplies or divides each unit's odds of treatment by up to "
+        "{lam}, beyond what the measured covariates explain, could move the interval to include "
+        f"{tgt}"
+    )
     if sharp is None:
-        first = f"{box:.2f} by the box bounds and beyond {r.lam.max():g} by the sharp bounds"
-        least = box
-    elif box is None:  # pragma: no cover - the sharp bounds lie inside the box bounds
-        first = f"{sharp:.2f} by the sharp bounds and beyond {r.lam.max():g} by the box bounds"
-        least = sharp
+        return head + (
+            f". Under the marginal sensitivity model its {level} interval excludes {tgt} for "
+            f"every Λ up to {r.lam.max():g} by the sharp bounds; by the box bounds, which are "
+            f"wider, it first includes {tgt} at Λ = {box:.2f}."
+        )
+    if box is None:  # pragma: no cover - the sharp bounds lie inside the box bounds
+        box_text = f"beyond {r.lam.max():g}"
     else:
-        first = f"{sharp:.2f} by the sharp bounds ({box:.2f} by the box bounds)"
-        least = min(sharp, box)
+        box_text = f"{box:.2f}"
     return head + (
         f". Under the marginal sensitivity model its {level} interval first includes {tgt} at "
-        f"Λ = {first}: a hidden confounder that multiplies or divides each unit's odds of "
-        f"treatment by up to {least:.2f}, beyond what the measured covariates explain, could "
-        f"move the interval to include {tgt}."
+        f"Λ = {sharp:.2f} by the sharp bounds (at Λ = {box_text} by the box bounds, which are "
+        f"wider): by the sharp bounds, " + could.format(lam=f"{sharp:.2f}") + "."
     )
 
 
@@ -175,6 +183,82 @@ def document(r: WeightingResult) -> Document:
     return Document(
         "Weighted estimate under the marginal sensitivity model",
         blocks,
-        sentence=lead,
+        figures=figures(r),
         references=tuple(REFERENCES[k] for k in KEYS),
     )
+
+
+def figures(r: WeightingResult) -> tuple[Figure, ...]:
+    """The figure this result can draw (on demand): bounds and intervals against Λ."""
+    from functools import partial
+
+    from .figures import draw
+
+    caption = f"Weighted {r.estimand.upper()}: bounds and {_level(r)} intervals against Λ"
+    return (Figure("weighting", caption, partial(draw, r)),)
+
+
+METHODS = (
+    "We estimated the effect by inverse probability weighting (stabilised weights, logistic "
+    "propensity model) and assessed its sensitivity to unmeasured confounding under the "
+    "marginal sensitivity model (Tan 2006), in which a hidden confounder may multiply each "
+    "unit's odds of treatment by at most a factor Λ beyond the measured covariates. At each Λ "
+    "we report box bounds (Zhao, Small & Bhattacharya 2019) and sharp quantile-balancing "
+    "bounds (Dorn & Guo 2023), each with a percentile-bootstrap interval in which the "
+    "propensity model was refitted in every resample, and the least Λ at which each interval "
+    "includes the null."
+)
+
+
+def summary_table(items: Sequence[Any]) -> Table:
+    """One row an estimate: the weighted effect, its interval, the least Λ by each method."""
+    rows = []
+    level = ""
+    for item in items:
+        label, r = item
+        level = _level(r)
+
+        def star(value: float | None, r: WeightingResult = r) -> str:
+            return f"beyond {r.lam.max():g}" if value is None else f"{value:.2f}"
+
+        rows.append(
+            (
+                str(label),
+                r.estimand.upper(),
+                f"{number(r.estimate)} ({_span(*r.estimate_ci)})",
+                star(r.lambda_at_null["sharp"]),
+                star(r.lambda_at_null["percentile"]),
+            )
+        )
+    return Table(
+        (
+            "Estimate",
+            "Estimand",
+            f"Weighted effect ({level} CI)",
+            "Least Λ, sharp",
+            "Least Λ, box",
+        ),  # fmt: skip
+        tuple(rows),
+        title="Weighted estimates under the marginal sensitivity model",
+        footnotes=(
+            "Least Λ: the smallest odds multiplier at which the interval includes the null "
+            "(or the stated target), solved.",
+        ),
+    )
+
+
+def report_part(items: Sequence[Any]) -> Any:
+    """The family's section of a manuscript report: each estimate's sentence and Document,
+    a table across estimates, one figure an estimate."""
+    from dataclasses import replace
+
+    from ..output.report import simple_part
+
+    part = simple_part(
+        "weighting",
+        items,
+        METHODS,
+        assumptions=tuple(dict.fromkeys(a for _, r in items for a in assumptions(r))),
+        references=tuple(REFERENCES[k] for k in KEYS),
+    )
+    return replace(part, tables=(summary_table(items),))
