@@ -473,3 +473,17 @@ def test_the_figure_and_the_report_section(tmp_path):
     assert entry["label"] == "Outreach and follow-up" and entry["family"] == "weighting"
     assert set(entry["lambda_at_null"]) == {"sharp", "percentile"}
     assert any(p.name.startswith("weighting") for p in (tmp_path / "r").iterdir())
+
+
+def test_box_bounds_alone_skip_the_quantile_models():
+    y, a, x = _data(300, seed=2)
+    both = weighting_bounds(y, a, covariates=x, lam=[1, 2], resamples=50, seed=1)
+    box = weighting_bounds(y, a, covariates=x, lam=[1, 2], resamples=50, seed=1,
+                           methods=("percentile",))  # fmt: skip
+    assert box.methods == ("percentile",) and set(box.lambda_at_null) == {"percentile"}
+    for key in ("lower", "upper", "ci_lower", "ci_upper"):
+        np.testing.assert_array_equal(box.table["percentile"][key], both.table["percentile"][key])
+    assert [r["method"] for r in box.to_dict()["rows"]] == ["percentile"] * 2
+    assert "wider than the sharp bounds" in box.sentence() or "excludes" in box.sentence()
+    with pytest.raises(InputError, match="`methods` must be among sharp, percentile"):
+        weighting_bounds(y, a, covariates=x, resamples=50, methods=("zsb",))

@@ -54,6 +54,13 @@ def parse_lambda(text: str) -> list[float]:
     help=f"Λ >= 1: {RANGE_HELP}, or a comma-separated list.",
 )
 @click.option(
+    "--method",
+    type=click.Choice(["both", "sharp", "percentile"]),
+    default="both",
+    show_default=True,
+    help="sharp: quantile-balancing bounds; percentile: box bounds only (fast on large data).",
+)
+@click.option(
     "--resamples",
     type=int,
     default=200,
@@ -100,6 +107,7 @@ def weighting_cmd(
     propensity: Any,
     propensity_column: Any,
     estimand: str,
+    method: str,
     lam: str,
     resamples: int,
     seed: Any,
@@ -161,6 +169,7 @@ def weighting_cmd(
         seed=seed,
         alpha=alpha,
         target=target,
+        methods=("sharp", "percentile") if method == "both" else (method,),
         extreme=extreme,
         cut=cut,
         progress=progress,

@@ -28,6 +28,8 @@ def draw(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
     level = f"{result.ci_level:.0%}"
     handles = []
     for method, alpha in (("percentile", 0.18), ("sharp", 0.32)):
+        if method not in result.methods:
+            continue
         t = result.table[method]
         colour = COLOURS[method]
         band = ax.fill_between(

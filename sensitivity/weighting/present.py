@@ -65,7 +65,7 @@ def bounds_table(r: WeightingResult) -> Table:
 
 def crossing_table(r: WeightingResult) -> Table:
     rows = []
-    for method in ("sharp", "percentile"):
+    for method in r.methods:
         value = r.lambda_at_null[method]
         shown = f"beyond {r.lam.max():g}" if value is None else f"{value:.3f}"
         rows.append((METHOD_NAMES[method], shown))
@@ -120,7 +120,9 @@ def sentence(r: WeightingResult) -> str:
     )
     if r.risk_ratio is not None:
         head += f"; risk ratio {number(r.risk_ratio)}"
-    sharp, box = r.lambda_at_null["sharp"], r.lambda_at_null["percentile"]
+    sharp, box = r.lambda_at_null.get("sharp"), r.lambda_at_null.get("percentile")
+    if r.methods == ("percentile",):
+        return head + _box_only(r, box, level)
     tgt = f"{r.target:g}"
     if sharp == 1.0 and box == 1.0:
         return head + f". Its {level} interval includes {tgt} without any hidden confounding."
@@ -151,6 +153,26 @@ def sentence(r: WeightingResult) -> str:
         f". Under the marginal sensitivity model its {level} interval first includes {tgt} at "
         f"Λ = {sharp:.2f} by the sharp bounds (at Λ = {box_text} by the box bounds, which are "
         f"wider): by the sharp bounds, " + could.format(lam=f"{sharp:.2f}") + "."
+    )
+
+
+def _box_only(r: WeightingResult, box: float | None, level: str) -> str:
+    tgt = f"{r.target:g}"
+    if box == 1.0:
+        return f". Its {level} interval includes {tgt} without any hidden confounding."
+    if box is None:
+        return (
+            f". Under the marginal sensitivity model its {level} interval excludes {tgt} for "
+            f"every Λ up to {r.lam.max():g} by the box bounds (valid for every weight in the "
+            f"model's range): no hidden confounder that multiplies or divides each unit's odds "
+            f"of treatment by at most {r.lam.max():g}, beyond what the measured covariates "
+            f"explain, could move it to include {tgt}."
+        )
+    return (
+        f". Under the marginal sensitivity model its {level} interval first includes {tgt} at "
+        f"Λ = {box:.2f} by the box bounds; these are wider than the sharp bounds (not computed "
+        f"here), so a hidden confounder would need at least that factor on each unit's odds "
+        f"of treatment to move the interval to include {tgt}."
     )
 
 
@@ -226,8 +248,10 @@ def summary_table(items: Sequence[Any]) -> Table:
                 str(label),
                 r.estimand.upper(),
                 f"{number(r.estimate)} ({_span(*r.estimate_ci)})",
-                star(r.lambda_at_null["sharp"]),
-                star(r.lambda_at_null["percentile"]),
+                star(r.lambda_at_null["sharp"]) if "sharp" in r.methods else "not computed",
+                star(r.lambda_at_null["percentile"])
+                if "percentile" in r.methods
+                else "not computed",
             )
         )
     return Table(

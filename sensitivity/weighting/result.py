@@ -28,6 +28,7 @@ class WeightingResult(Result):
     """
 
     estimand: str
+    methods: tuple[str, ...]  # among "sharp" and "percentile" (the box bounds)
     estimate: float
     estimate_ci: tuple[float, float]
     risk_ratio: float | None
@@ -59,12 +60,12 @@ class WeightingResult(Result):
 
     @property
     def lower(self) -> np.ndarray:
-        """The sharp lower bounds over `lam` (shortcut)."""
-        return self.table["sharp"]["lower"]
+        """The first method's lower bounds over `lam` (sharp when computed)."""
+        return self.table[self.methods[0]]["lower"]
 
     @property
     def upper(self) -> np.ndarray:
-        return self.table["sharp"]["upper"]
+        return self.table[self.methods[0]]["upper"]
 
     @property
     def search_range(self) -> tuple[float, float]:
@@ -73,7 +74,7 @@ class WeightingResult(Result):
     def rows(self) -> list[dict]:
         out = []
         for i, lam in enumerate(self.lam):
-            for method in ("sharp", "percentile"):
+            for method in self.methods:
                 t = self.table[method]
                 row = {
                     "lambda": float(lam),
@@ -116,16 +117,14 @@ class WeightingResult(Result):
         )
 
     def columns(self) -> dict[str, np.ndarray]:
-        m = self.lam.size
+        m, k = self.lam.size, len(self.methods)
         cols: dict[str, np.ndarray] = {
-            "lambda": np.repeat(self.lam, 2),
-            "method": np.tile(np.array(["sharp", "percentile"], dtype=object), m),
+            "lambda": np.repeat(self.lam, k),
+            "method": np.tile(np.array(self.methods, dtype=object), m),
         }
         keys = ["lower", "upper", "ci_lower", "ci_upper"]
         if self.outcome_type == "binary":
             keys += ["rr_lower", "rr_upper", "rr_ci_lower", "rr_ci_upper"]
         for key in keys:
-            cols[key] = np.column_stack(
-                [self.table["sharp"][key], self.table["percentile"][key]]
-            ).ravel()
+            cols[key] = np.column_stack([self.table[t][key] for t in self.methods]).ravel()
         return cols
