@@ -183,6 +183,7 @@ def logistic_fit(
     weights: np.ndarray | None = None,
     start: np.ndarray | None = None,
     iterations: int = 50,
+    tol: float = 1e-10,
 ) -> tuple[np.ndarray, bool]:
     """Maximum-likelihood logistic regression by Newton's method (IRLS): (coefficients,
     converged). `weights` are frequencies; the design `x` carries its own intercept."""
@@ -202,7 +203,7 @@ def logistic_fit(
         beta = beta + step
         if not np.all(np.isfinite(beta)):
             return beta, False
-        if np.max(np.abs(step)) < 1e-10 * (1 + np.max(np.abs(beta))):
+        if np.max(np.abs(step)) < tol * (1 + np.max(np.abs(beta))):
             return beta, True
     return beta, False
 
@@ -813,7 +814,10 @@ def _resample(s: _Sample, child, beta0, given, starts) -> tuple[_Bounds, np.ndar
         counts[arm.rows] = np.bincount(rng.integers(0, k, k), minlength=k)
     beta = None
     if s.design is not None:
-        beta, _ = logistic_fit(s.design, s.treated.astype(float), counts, beta0)
+        drawn = counts > 0  # units not drawn add nothing to the likelihood
+        beta, _ = logistic_fit(
+            s.design[drawn], s.treated[drawn].astype(float), counts[drawn], beta0, tol=1e-9
+        )
         if not np.all(np.isfinite(beta)):
             beta = beta0
     e = _propensity(s, beta, given)
