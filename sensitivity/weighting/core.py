@@ -247,28 +247,32 @@ def quantile_fit(
     else:
         beta = np.array(start, float)
 
-    def loss(r: np.ndarray) -> float:
-        z = r / h
-        return float(w @ (h * np.exp(-0.5 * z * z) / np.sqrt(2 * np.pi) + r * (tau - _ncdf(-z))))
+    root = np.sqrt(2 * np.pi)
+    ridge = 1e-10 * max(1.0, float(w.sum())) * np.eye(p)
 
-    r = y - x @ beta
-    current = loss(r)
-    for _ in range(100):
+    def state(b: np.ndarray) -> tuple:
+        """Residuals, Φ(-r/h), φ(r/h) and the smoothed loss at b (each computed once)."""
+        r = y - x @ b
         z = r / h
-        grad = -(x.T @ (w * (tau - _ncdf(-z))))
-        curv = w * np.exp(-0.5 * z * z) / (np.sqrt(2 * np.pi) * h)
-        hess = (x * curv[:, None]).T @ x + 1e-10 * np.eye(p) * max(1.0, w.sum())
+        cdf = _ncdf(-z)
+        pdf = np.exp(-0.5 * z * z) / root
+        return r, cdf, pdf, float((w * (h * pdf + r * (tau - cdf))).sum())
+
+    r, cdf, pdf, current = state(beta)
+    for _ in range(100):
+        grad = -(x.T @ (w * (tau - cdf)))
+        hess = (x * (w * pdf / h)[:, None]).T @ x + ridge
         step = np.linalg.solve(hess, grad)
         t = 1.0
         while True:
             trial = beta - t * step
-            r_trial = y - x @ trial
-            value = loss(r_trial)
-            if value <= current + 1e-12 * abs(current) or t < 1e-8:
+            new = state(trial)
+            if new[3] <= current + 1e-12 * abs(current) or t < 1e-8:
                 break
             t /= 2
-        done = np.max(np.abs(t * step)) < 1e-9 * (1 + np.max(np.abs(beta)))
-        beta, r, current = trial, r_trial, value
+        done = np.max(np.abs(t * step)) < 1e-8 * (1 + np.max(np.abs(beta)))
+        beta = trial
+        r, cdf, pdf, current = new
         if done:
             break
     return beta
@@ -350,6 +354,17 @@ class _Bounds:
             self.parts.append((arm, mm, bb, cc, _sums(arm.y, bb, cc, mm)))
         self.q_start = q_start
         self.p_fit: dict = {}
+        self.drawn: dict = {}
+
+    def _start(self, key: tuple) -> np.ndarray | None:
+        """The full sample's fit at this τ, else at the nearest τ fitted (a warm start)."""
+        if key in self.q_start:
+            return self.q_start[key]
+        near = [k for k in self.q_start if isinstance(k, tuple) and k[0] == key[0]
+                and isinstance(k[1], float)]  # fmt: skip
+        if not near:
+            return None
+        return self.q_start[min(near, key=lambda k: abs(k[1] - key[1]))]
 
     def box(self, lam: np.ndarray) -> np.ndarray:
         """(4, len(lam)): μ1⁻, μ1⁺, μ0⁻, μ0⁺."""
@@ -383,19 +398,21 @@ class _Bounds:
         else:
             tau = lam / (1 + lam) if upper else 1 / (1 + lam)
             key = (j, round(tau, 12))
-            ok = m > 0
-            h = self.s.bandwidths.get(j)
-            beta = quantile_fit(arm.x[ok], arm.y[ok], tau, weights=m[ok], bandwidth=h,
-                                start=self.q_start.get(key))  # fmt: skip
+            if j not in self.drawn:  # the units drawn (the others add nothing)
+                ok = m > 0
+                self.drawn[j] = (arm.x[ok], arm.y[ok], m[ok], b[ok], c[ok])
+            xs, ys, ms, bs, cs = self.drawn[j]
+            beta = quantile_fit(xs, ys, tau, weights=ms, bandwidth=self.s.bandwidths.get(j),
+                                start=self._start(key))  # fmt: skip
             if self.q_start.get("keep"):
                 self.q_start[key] = beta
             # the quantile-centred form: Σ m[b y + c(Q + Λ^±(y - Q))] / Σ m(b + c), which
             # equals the Hájek mean with v = Λ^± at the balance, and is continuous in Q (a
             # unit at the quantile adds nothing, so the bound does not jump as Q moves)
-            r = arm.y - arm.x @ beta
+            r = ys - xs @ beta
             big, small = (lam, 1 / lam) if upper else (1 / lam, lam)
-            tilted = arm.y - r + np.where(r > 0, big, small) * r
-            return float(m @ (b * arm.y + c * tilted) / (m @ (b + c)))
+            tilted = ys - r + np.where(r > 0, big, small) * r
+            return float((ms * (bs * ys + cs * tilted)).sum() / (ms * (bs + cs)).sum())
         w = m * (b + c * v)
         return float(w @ arm.y / w.sum())
 
