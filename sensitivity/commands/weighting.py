@@ -126,8 +126,8 @@ def weighting_cmd(
 
     \b
     Examples:
-      sensitivity weighting --data clinics.csv --treatment outreach --outcome visits \\
-          --propensity "outreach ~ age + distance + C(district)" --lambda 1:2:0.25 --seed 4
+      sensitivity weighting --data demo/harbourside_cohort.csv --treatment night_shift \\
+          --outcome sbp --propensity "night_shift ~ age + female + smoker + bmi" --seed 4
     """
     import sys
 
@@ -150,9 +150,8 @@ def weighting_cmd(
 
     def progress(done: int, total: int) -> None:
         # on a terminal, or once the run has taken long enough for a log to want it
-        if (terminal or time.monotonic() - began > 5) and (
-            done == total or done % max(1, total // 20) == 0
-        ):
+        every = max(1, total // (20 if terminal else 4))  # a log gets a line a quarter
+        if (terminal or time.monotonic() - began > 5) and (done == total or done % every == 0):
             end = "\n" if done == total or not terminal else ""
             lead = "\r" if terminal else ""
             click.echo(f"{lead}bootstrap {done:,}/{total:,} resamples{end}", err=True, nl=False)
