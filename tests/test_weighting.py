@@ -486,4 +486,4 @@ def test_box_bounds_alone_skip_the_quantile_models():
     assert [r["method"] for r in box.to_dict()["rows"]] == ["percentile"] * 2
     assert "wider than the sharp bounds" in box.sentence() or "excludes" in box.sentence()
     with pytest.raises(InputError, match="`methods` must be among sharp, percentile"):
-        weighting_bounds(y, a, covariates=x, resamples=50, methods=("zsb",))
+        weighting_bounds(y, a, covariates=x, resamples=50, methods=("box-only",))

@@ -9,7 +9,7 @@ import numpy as np
 from ..common import notes as standing
 from ..common.results import Result, plain
 
-MSM_CAUTION = (
+ODDS_CAUTION = (
     "Λ bounds how far a hidden confounder moves each unit's odds of treatment beyond the "
     "measured covariates; it says nothing of confounders the model already mishandles "
     "(a misspecified propensity model) or of extreme weights, and no value of Λ is a pass "
@@ -50,7 +50,7 @@ class WeightingResult(Result):
     names: tuple[str, str] = ("treatment", "outcome")
     covariate_names: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
-    cautions: tuple[str, ...] = field(default=(standing.ONE_BIAS, MSM_CAUTION, standing.DEFER))
+    cautions: tuple[str, ...] = field(default=(standing.ONE_BIAS, ODDS_CAUTION, standing.DEFER))
     presenter = "sensitivity.weighting.present"
     _repr_fields = ("estimand", "estimate", "lam")
 
