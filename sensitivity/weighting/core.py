@@ -874,23 +874,27 @@ def _crossing(s, method, boot, evaluate, j_order, tgt, children, betas, beta0, g
     a, b = float(evaluate[c_star - 1]), float(evaluate[c_star])
     roots = []
     for i in inside:
-        bnd = _rebuild(s, children[i], betas[i], given, starts)
-
-        def f(lam: float, bnd=bnd) -> float:
-            one = np.array([lam])
-            arms_b = bnd.box(one) if method == "percentile" else bnd.sharp(one)
-            low, high = _effect(arms_b)
-            return float((low[0] if above else high[0]) - tgt)
-
-        fa, fb = f(a), f(b)
+        # a plain function with its arguments, not a closure: each resample's arrays are
+        # freed as soon as its root is found (a closure cycle kept them until a collection)
+        extra = (_rebuild(s, children[i], betas[i], given, starts), method, above, tgt)
+        fa, fb = _limit_at(a, *extra), _limit_at(b, *extra)
         if fa == 0:
             roots.append(a)
         elif np.sign(fa) == np.sign(fb):
             roots.append(b)  # a bound that is not monotone inside the cell: its grid end
         else:
-            roots.append(brentq(f, a, b, xtol=1e-10, rtol=1e-12))
+            roots.append(brentq(_limit_at, a, b, args=extra, xtol=1e-10, rtol=1e-12))
+        del extra
     roots.sort()
     return float(roots[j_order - 1 - before])
+
+
+def _limit_at(lam: float, bnd: _Bounds, method: str, above: bool, tgt: float) -> float:
+    """The resample's lower (or upper) effect bound at Λ, less the target."""
+    one = np.array([lam])
+    arms_b = bnd.box(one) if method == "percentile" else bnd.sharp(one)
+    low, high = _effect(arms_b)
+    return float((low[0] if above else high[0]) - tgt)
 
 
 def _rebuild(s, child, beta, given, starts) -> _Bounds:
