@@ -255,14 +255,19 @@ def _sharp_lp(y, a, z, lam, arm_treated, upper, estimand="ate"):
 
 
 @pytest.mark.parametrize("seed", range(3))
-def test_sharp_bounds_equal_the_balanced_linear_program(seed):
+@pytest.mark.parametrize("estimand", ["ate", "att"])
+def test_sharp_bounds_equal_the_balanced_linear_program(seed, estimand):
     y, a, x, z = _cells(seed)
     lam = [1.0, 1.5, 2.5]
-    res = weighting_bounds(y, a, covariates=x, lam=lam, resamples=50, seed=1)
+    res = weighting_bounds(y, a, covariates=x, lam=lam, resamples=50, seed=1, estimand=estimand)
     sharp = res.table["sharp"]
     for i, lv in enumerate(lam):
-        upper = _sharp_lp(y, a, z, lv, True, True) - _sharp_lp(y, a, z, lv, False, False)
-        lower = _sharp_lp(y, a, z, lv, True, False) - _sharp_lp(y, a, z, lv, False, True)
+
+        def lp(treated, upper):
+            return _sharp_lp(y, a, z, lv, treated, upper, estimand)  # noqa: B023
+
+        upper = lp(True, True) - lp(False, False)
+        lower = lp(True, False) - lp(False, True)
         assert sharp["upper"][i] == pytest.approx(upper, abs=1e-7)
         assert sharp["lower"][i] == pytest.approx(lower, abs=1e-7)
 
