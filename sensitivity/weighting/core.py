@@ -831,9 +831,11 @@ def _resample(s: _Sample, child, beta0, given, starts) -> tuple[_Bounds, np.ndar
         counts[arm.rows] = np.bincount(rng.integers(0, k, k), minlength=k)
     beta = None
     if s.design is not None:
-        drawn = counts > 0  # units not drawn add nothing to the likelihood
+        # units not drawn add nothing to the likelihood; Newton converges quadratically, so
+        # a last step below 1e-6 leaves an error near 1e-12
+        drawn = counts > 0
         beta, _ = logistic_fit(
-            s.design[drawn], s.treated[drawn].astype(float), counts[drawn], beta0, tol=1e-9
+            s.design[drawn], s.treated[drawn].astype(float), counts[drawn], beta0, tol=1e-6
         )
         if not np.all(np.isfinite(beta)):
             beta = beta0
