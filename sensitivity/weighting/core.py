@@ -184,14 +184,30 @@ def logistic_fit(
     start: np.ndarray | None = None,
     iterations: int = 50,
     tol: float = 1e-10,
+    information: np.ndarray | None = None,
 ) -> tuple[np.ndarray, bool]:
     """Maximum-likelihood logistic regression by Newton's method (IRLS): (coefficients,
-    converged). `weights` are frequencies; the design `x` carries its own intercept."""
+    converged). `weights` are frequencies; the design `x` carries its own intercept.
+
+    With `information` (the full sample's X'WX, for a bootstrap resample started at the full
+    sample's fit), the steps use that fixed matrix: a resample's own differs from it by
+    sampling error only, so the steps shrink fast without forming X'WX again (the costly
+    part), to the same maximum (where the score is zero); full Newton steps take over if
+    they do not."""
     from scipy.special import expit
 
     n, p = x.shape
     w = np.ones(n) if weights is None else np.asarray(weights, float)
     beta = np.zeros(p) if start is None else np.array(start, float)
+    if information is not None:
+        for _ in range(30):
+            step = np.linalg.solve(information, x.T @ (w * (a - expit(x @ beta))))
+            beta = beta + step
+            if not np.all(np.isfinite(beta)):
+                beta = np.array(start, float)
+                break
+            if np.max(np.abs(step)) < 1e-3 * tol * (1 + np.max(np.abs(beta))):
+                return beta, True  # the same fixed point as Newton's (the score is zero)
     for _ in range(iterations):
         pr = expit(x @ beta)
         grad = x.T @ (w * (a - pr))
@@ -322,6 +338,7 @@ class _Sample:
     extreme: str
     cut: float
     bandwidths: dict  # (arm, tau) -> h, fixed at the full sample's
+    information: np.ndarray | None = None  # the propensity fit's X'WX on the full sample
 
 
 def _propensity(s: _Sample, beta: np.ndarray | None, given: np.ndarray | None) -> np.ndarray:
@@ -684,6 +701,9 @@ def _bounds(
     )
     s = _Sample(arms=arms, binary=binary, estimand=estimand, design=design,  # type: ignore[arg-type]
                 treated=treated, extreme=extreme, cut=cut, bandwidths={})  # fmt: skip
+    if design is not None:
+        pr = e0[:, None] * (1 - e0[:, None])
+        s.information = (design * pr).T @ design
     e_full = _propensity(s, beta0, given)
     kept = _kept(s, e_full)
     for j, name in enumerate(("treated", "control")):
@@ -835,8 +855,9 @@ def _resample(s: _Sample, child, beta0, given, starts) -> tuple[_Bounds, np.ndar
         # a last step below 1e-6 leaves an error near 1e-12
         drawn = counts > 0
         beta, _ = logistic_fit(
-            s.design[drawn], s.treated[drawn].astype(float), counts[drawn], beta0, tol=1e-6
-        )
+            s.design[drawn], s.treated[drawn].astype(float), counts[drawn], beta0, tol=1e-6,
+            information=s.information,
+        )  # fmt: skip
         if not np.all(np.isfinite(beta)):
             beta = beta0
     e = _propensity(s, beta, given)
