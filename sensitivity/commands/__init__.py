@@ -11,5 +11,6 @@ COMMANDS = {
     "stability": ("stability", "Coefficient stability under proportional selection (Oster)."),
     "impact": ("impact", "Impact threshold of a confounding variable (Frank)."),
     "weighting": ("weighting", "Weighted (IPW) estimates under the marginal sensitivity model."),
+    "pool": ("pool", "Confounding in a random-effects meta-analysis: the share of strong effects."),
     "report": ("report", "Write the robustness section of a manuscript to a folder."),
 }
