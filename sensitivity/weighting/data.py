@@ -123,7 +123,7 @@ def _design(frame: Any, formula: str, treatment: str, outcome: str) -> tuple:
     kept (rows with a missing covariate are dropped)."""
     import patsy
 
-    from ..adapters.statsmodels import formula_columns
+    from ..adapters.design import formula_columns
 
     if "~" not in formula:
         raise InputError(f"`propensity` must look like 'T ~ x1 + x2'; got {formula!r}")
