@@ -200,8 +200,9 @@ def logistic_fit(
     w = np.ones(n) if weights is None else np.asarray(weights, float)
     beta = np.zeros(p) if start is None else np.array(start, float)
     if information is not None:
+        xt = np.ascontiguousarray(x.T)  # rows of covariates: both products run along memory
         for _ in range(30):
-            step = np.linalg.solve(information, x.T @ (w * (a - expit(x @ beta))))
+            step = np.linalg.solve(information, xt @ (w * (a - expit(beta @ xt))))
             beta = beta + step
             if not np.all(np.isfinite(beta)):
                 beta = np.array(start, float)
