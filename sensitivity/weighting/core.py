@@ -345,7 +345,7 @@ class _Sample:
 def _propensity(s: _Sample, beta: np.ndarray | None, given: np.ndarray | None) -> np.ndarray:
     from scipy.special import expit
 
-    e = given if beta is None else expit(s.design @ beta)  # type: ignore[operator]
+    e = np.asarray(given if beta is None else expit(s.design @ beta), float)  # type: ignore[operator]
     if s.extreme == "clip":
         e = np.clip(e, s.cut, 1 - s.cut)
     return e
@@ -468,7 +468,9 @@ def _lambda_grid(values: object) -> np.ndarray:
     return np.unique(lam)
 
 
-def _check_inputs(outcome: object, treatment: object, propensity: object, n: int | None):
+def _check_inputs(
+    outcome: object, treatment: object, propensity: object, n: int | None
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
     try:
         y = np.asarray(outcome, dtype=float)
     except (TypeError, ValueError):
@@ -843,7 +845,10 @@ def _outcome_starts(s: _Sample, kept: np.ndarray) -> dict:
     return out
 
 
-def _resample(s: _Sample, child, beta0, given, starts) -> tuple[_Bounds, np.ndarray | None]:
+def _resample(
+    s: _Sample, child: np.random.SeedSequence, beta0: np.ndarray | None,
+    given: np.ndarray | None, starts: dict,
+) -> tuple[_Bounds, np.ndarray | None]:  # fmt: skip
     """One resample, drawn within each arm, with the propensity model refitted."""
     rng = np.random.default_rng(child)
     counts = np.zeros(s.treated.size)
@@ -921,7 +926,10 @@ def _limit_at(lam: float, bnd: _Bounds, method: str, above: bool, tgt: float) ->
     return float((low[0] if above else high[0]) - tgt)
 
 
-def _rebuild(s, child, beta, given, starts) -> _Bounds:
+def _rebuild(
+    s: _Sample, child: np.random.SeedSequence, beta: np.ndarray | None,
+    given: np.ndarray | None, starts: dict,
+) -> _Bounds:  # fmt: skip
     """The resample `child` again, with its fitted propensity coefficients."""
     rng = np.random.default_rng(child)
     counts = np.zeros(s.treated.size)

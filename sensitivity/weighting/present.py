@@ -34,7 +34,7 @@ def _span(a: float | None, b: float | None) -> str:
 def bounds_table(r: WeightingResult) -> Table:
     rows = []
     for row in r.rows():
-        cells = (
+        cells: tuple[str, ...] = (
             f"{row['lambda']:g}",
             "sharp" if row["method"] == "sharp" else "box",
             _span(row["lower"], row["upper"]),
