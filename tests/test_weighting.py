@@ -18,12 +18,8 @@ from hypothesis import strategies as st
 
 from sensitivity.common.errors import InputError
 from sensitivity.weighting import box_bounds, weighted_sensitivity, weighting_bounds
-from sensitivity.weighting.core import (
-    box_weights,
-    logistic_fit,
-    quantile_fit,
-    split_atom,
-)
+from sensitivity.weighting.box import box_weights
+from sensitivity.weighting.models import logistic_fit, quantile_fit, split_atom
 
 
 def _data(n=600, seed=0, binary=False):

@@ -2,7 +2,8 @@
 percentile-bootstrap intervals, sharp quantile-balancing bounds, and the least Λ that
 changes the conclusion."""
 
-from .core import box_bounds, weighting_bounds
+from .box import box_bounds
+from .core import weighting_bounds
 from .result import WeightingResult
 
 __all__ = ["WeightingResult", "box_bounds", "weighted_sensitivity", "weighting_bounds"]
