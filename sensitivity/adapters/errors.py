@@ -119,6 +119,6 @@ def used_by(results: Any) -> tuple[str, str]:
         return cov.lower(), WORDS[cov.lower()]
     if cov == "cluster":
         groups = getattr(results, "cov_kwds", {}).get("groups")
-        g = f" ({np.unique(np.asarray(groups)).size:,} clusters)" if groups is not None else ""
-        return "cluster", f"cluster-robust standard errors{g}"
+        count = f" ({np.unique(np.asarray(groups)).size:,} clusters)" if groups is not None else ""
+        return "cluster", f"cluster-robust standard errors{count}"
     return cov.lower(), f"{cov} standard errors"

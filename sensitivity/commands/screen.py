@@ -147,9 +147,9 @@ def screen_cmd(
 
     if plot_marks:
         raise click.UsageError("--plot-mark does not apply to screen")
-    for path in (output, flagged):
-        if path is not None:
-            check_table_path(path)
+    for target in (output, flagged):
+        if target is not None:
+            check_table_path(target)
     if (
         flagged is not None
         and output is not None
@@ -188,7 +188,7 @@ def screen_cmd(
     # Parquet keeps the input's column types: those polars infers from the whole text file
     # (a Parquet input's own types pass through as they are)
     types = {}
-    if mark and any(str(p).lower().endswith((".parquet", ".pq")) for p in (output, flagged) if p):
+    if mark and any(str(t).lower().endswith((".parquet", ".pq")) for t in (output, flagged) if t):
         from sensitivity.adapters.files import text_types
 
         types = text_types(file, mark)

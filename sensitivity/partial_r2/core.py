@@ -298,11 +298,12 @@ def hypothetical_scenarios(
             f"`r2_treatment` and `r2_outcome` must come in pairs; got {r2t.size} and {r2y.size}"
         )
     adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
-    fields = (r2t, r2y, adj["bias"], adj["estimate"], adj["se"], adj["t"])
+    a = {k: np.asarray(v, float) for k, v in adj.items()}
     return [
-        Scenario(*(float(f[i]) for f in fields), (float(adj["lower"][i]), float(adj["upper"][i])))
+        Scenario(float(r2t[i]), float(r2y[i]), float(a["bias"][i]), float(a["estimate"][i]),
+                 float(a["se"][i]), float(a["t"][i]), (float(a["lower"][i]), float(a["upper"][i])))
         for i in range(r2t.size)
-    ]
+    ]  # fmt: skip
 
 
 def benchmark_scenarios(
