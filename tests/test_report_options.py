@@ -113,3 +113,18 @@ def test_report_option_errors(run, tmp_path, args, message):
     res = run("report", *args, "--out", tmp_path / "r")
     assert res.exit_code == 2 and res.stderr.count("\n") == 1
     assert message in res.stderr
+
+
+def test_report_takes_hypothetical_strengths_for_a_coefficient(run, fair_csv, tmp_path):
+    data = ("--data", fair_csv, "--formula", FORMULA, "--treatment", "rate_marriage")
+    strengths = ("--r2-treatment", 0.05, "--r2-outcome", 0.1)
+    res = run("report", *data, "--model", "ols", *strengths, "--out", tmp_path / "r")
+    assert res.exit_code == 0, res.stderr
+    (entry,) = _entries(tmp_path / "r")["estimates"]
+    want = json.loads(run("partial-r2", *data, *strengths, "--format", "json").stdout)
+    got = entry["partial_r2"]["scenarios"]
+    assert got[0]["bias_adjusted"]["ci"] == pytest.approx(
+        want["scenarios"][0]["bias_adjusted"]["ci"], rel=1e-12
+    )
+    bad = run("report", "rr", 1.5, *strengths, "--out", tmp_path / "s")
+    assert bad.exit_code == 2 and "apply to a regression coefficient" in bad.stderr

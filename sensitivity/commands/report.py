@@ -67,14 +67,19 @@ SHORT_HELP = COMMANDS["report"][1]
 @click.option("--times-pair", "times_pairs", nargs=2, type=float, multiple=True,
               metavar="K_TREATMENT K_OUTCOME",
               help="Separate benchmark multiples for the two sides (repeatable).")  # fmt: skip
+@click.option("--r2-treatment", multiple=True, type=float,
+              help="A hypothetical confounder of a regression coefficient: its partial R² "
+              "with the treatment (pairs with --r2-outcome; repeatable).")  # fmt: skip
+@click.option("--r2-outcome", multiple=True, type=float,
+              help="Its partial R² with the outcome.")  # fmt: skip
 @click.option("--out", "folder", required=True, type=click.Path(file_okay=False),
               help="The folder to write (created if missing).")  # fmt: skip
 def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: Any,
                prevalence: Any, label: str, estimates: Any, data: Any, formula: Any,
                treatment: Any, model_kind: Any, event: Any, errors: Any, contrast: float,
                ci_level: float, target: Any, confounders: Any, benchmarks: Any,
-               benchmark_r2: Any, times: Any, times_pairs: Any,
-               folder: str) -> None:  # fmt: skip
+               benchmark_r2: Any, times: Any, times_pairs: Any, r2_treatment: Any,
+               r2_outcome: Any, folder: str) -> None:  # fmt: skip
     """Write the robustness section of a manuscript to a folder.
 
     report.md, a self-contained report.html (figures embedded, nothing fetched), tables.tex,
@@ -150,6 +155,8 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
                      target=target)  # fmt: skip
         items = [(label, res)]
     items = _with_options(items, confounders, benchmark_r2, times, times_pairs)
+    if r2_treatment or r2_outcome:
+        items = _with_strengths(items, r2_treatment, r2_outcome)
     command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
     files = write_report(items, folder, Reproduce(command))
     click.echo(f"Wrote the report to {files['folder']}/ (report.html, report.md, tables.tex, "
@@ -185,6 +192,29 @@ def _with_options(items: list[tuple[str, Any]], confounders: Any, benchmark_r2: 
         raise click.UsageError(
             "--benchmark-r2 applies to a regression coefficient: data input with --model ols, "
             "or --estimates rows with se and dof"
+        )
+    return out
+
+
+def _with_strengths(items: list[tuple[str, Any]], r2_treatment: Any,
+                    r2_outcome: Any) -> list[tuple[str, Any]]:  # fmt: skip
+    """Hypothetical confounders of chosen partial R² on every regression coefficient."""
+    from sensitivity.partial_r2.core import hypothetical_scenarios
+    from sensitivity.partial_r2.result import PartialR2Result
+
+    if len(r2_treatment) != len(r2_outcome):
+        raise click.UsageError("--r2-treatment and --r2-outcome come in pairs")
+    out = []
+    for name, r in items:
+        if isinstance(r, PartialR2Result):
+            extra = hypothetical_scenarios(r.estimate, r.se, r.dof, list(r2_treatment),
+                                           list(r2_outcome), r.alpha)  # fmt: skip
+            r = r.with_scenarios(extra)
+        out.append((name, r))
+    if not any(isinstance(r, PartialR2Result) for _, r in out):
+        raise click.UsageError(
+            "--r2-treatment and --r2-outcome apply to a regression coefficient: data input "
+            "with --model ols, or --estimates rows with se and dof"
         )
     return out
 
