@@ -41,7 +41,8 @@ def test_the_joint_evalue_solves_its_bound(rr, selection, misclassification):
 
 
 def test_the_command_names_each_bias_with_its_assumption(run):
-    res = run("evalue", "rr", 3.2, "--ci", 2.1, 4.8, "--with-selection", "general",
+    res = run("evalue", "--scale", "rr", "--estimate", 3.2, "--ci", 2.1, 4.8,
+              "--with-selection", "general",
               "--with-misclassification", "--format", "json")  # fmt: skip
     assert res.exit_code == 0, res.stderr
     mb = json.loads(res.stdout)["multi_bias"]
@@ -49,8 +50,19 @@ def test_the_command_names_each_bias_with_its_assumption(run):
     assert len(mb["assumptions"]) == 3
     joint = multi_bias_evalue(3.2, selection="general", misclassification=True)
     assert mb["evalue"] == pytest.approx(float(joint))
-    text = run("evalue", "rr", 3.2, "--ci", 2.1, 4.8, "--with-selection", "one-factor").stdout
-    assert "If confounding and selection were both present" in " ".join(text.split())
+    text = run(
+        "evalue",
+        "--scale",
+        "rr",
+        "--estimate",
+        3.2,
+        "--ci",
+        2.1,
+        4.8,
+        "--with-selection",
+        "one-factor",
+    ).stdout
+    assert "With confounding and selection both at work" in " ".join(text.split())
 
 
 def test_bad_bias_options():
@@ -69,23 +81,39 @@ def test_the_risk_difference_evalue_with_all_treated_is_the_rr_evalue():
 
 
 def test_evalue_rd_from_counts(run):
-    res = run("evalue", "rd", "--counts", 60, 1000, 40, 1000, "--format", "json")
+    res = run("evalue", "--scale", "rd", "--counts", 60, 1000, 40, 1000, "--format", "json")
     assert res.exit_code == 0, res.stderr
     data = json.loads(res.stdout)
     ref = evalue_of_risk_difference(60, 1000, 40, 1000)
     assert data["scale"] == "rd" and data["estimate"] == pytest.approx(0.02)
     assert data["evalue"] == pytest.approx(float(ref["evalue"]))
     assert data["evalue_ci"] == pytest.approx(float(ref["evalue_ci"]))
-    text = " ".join(run("evalue", "rd", "--counts", 60, 1000, 40, 1000).stdout.split())
-    assert "(95% CI 0.0009 to 0.0391)" in text and "at least 2.37 each" in text
+    text = " ".join(run("evalue", "--scale", "rd", "--counts", 60, 1000, 40, 1000).stdout.split())
+    assert (
+        "(95% CI 0.0009 to 0.0391)" in text
+        and "the E-value for the whole population is 2.37" in text
+    )
 
 
 @pytest.mark.parametrize(
     "args, message",
     [
-        (("rd", "--counts", 60, 1000, 70, 50), "Error: `counts`: cases must not exceed totals"),
-        (("rd", 0.02), "Error: the risk difference takes: evalue rd --counts"),
-        (("rr", 2, "--counts", 1, 2, 3, 4), "Error: the risk difference takes"),
+        (
+            ("--scale", "rd", "--counts", 60, 1000, 70, 50),
+            "Error: `counts`: cases must not exceed totals",
+        ),
+        (
+            ("rd", "0.02"),
+            "Error: the form `evalue rd` is retired: write `evalue --scale rd --counts",
+        ),
+        (
+            ("--scale", "rd", "--estimate", "0.02"),
+            "Error: the risk difference takes: evalue --scale rd",
+        ),
+        (
+            ("--scale", "rr", "--estimate", 2, "--counts", 1, 2, 3, 4),
+            "Error: the risk difference takes",
+        ),
     ],
 )
 def test_evalue_rd_errors(run, args, message):

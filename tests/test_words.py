@@ -29,8 +29,15 @@ def _flat(text: str) -> str:
 def test_the_evalue_sentence_says_could_and_names_the_level():
     text = _flat(evalue("rr", 1.64, (1.21, 2.23)).summary())
     assert "(95% CI 1.21 to 2.23)" in text
-    assert "could move the 95% CI to include the null" in text
-    assert "a confounder weaker than that on both associations could not" in text
+    assert (
+        "For the 95% CI to take in the null, equal risk ratios of 1.71 or more would be "
+        "needed, and 1.71 could be enough." in text
+    )
+    assert (
+        "could explain the estimate away only if both were 2.66 or more, and none with "
+        "both below 2.66 could" in text
+    )
+    assert "weaker than that on both associations" not in text
     other = _flat(evalue("rr", 1.64, (1.1, 2.4), ci_level=0.9).sentence())
     assert "(90% CI 1.10 to 2.40)" in other and "the 90% CI" in other
 
@@ -160,7 +167,7 @@ def test_figures_use_percent_axes_limits_and_marks(monkeypatch, tmp_path):
 
 def test_every_figure_writes_png_svg_and_pdf_with_embedded_fonts(run, tmp_path):
     paths = [tmp_path / f"f.{ext}" for ext in ("png", "svg", "pdf")]
-    res = run("evalue", "hr", 1.38, "--ci", 1.12, 1.70, "--outcome-frequency", "rare",
+    res = run("evalue", "HR 1.38 (1.12 to 1.70)", "--outcome-frequency", "rare",
               "--confounder", 1.5, 2, *sum((["--plot", p] for p in paths), []))  # fmt: skip
     assert res.exit_code == 0, res.stderr
     png, svg, pdf = (p.read_bytes() for p in paths)
@@ -189,8 +196,9 @@ def test_one_run_writes_several_outputs(run, tmp_path):
 @pytest.mark.parametrize(
     "args, message",
     [
-        (("evalue", "rr", 2, "--cii", 1, 3), "Error: No such option '--cii'. Did you mean '--ci'?"),
-        (("evalue", "rr", 2, "--plot", "x.jpg"),
+        (("evalue", "--scale", "rr", "--estimate", 2, "--cii", 1, 3),
+         "Error: No such option '--cii'. Did you mean '--ci'?"),
+        (("evalue", "--scale", "rr", "--estimate", 2, "--plot", "x.jpg"),
          "Error: `plot` must end in .png, .svg or .pdf; got 'x.jpg'"),
         (("tipping", "--scale", "rr", "--estimate", 2, "--plot", "/no/such/x.png"),
          "Error: `plot`: folder '/no/such' does not exist"),
@@ -202,7 +210,7 @@ def test_errors_name_the_option(run, args, message):
 
 
 def test_a_negative_estimate_still_parses(run):
-    res = run("evalue", "smd", -0.4, "--ci", -0.6, -0.2)
+    res = run("evalue", "--scale", "smd", "--estimate", -0.4, "--ci", -0.6, -0.2)
     assert res.exit_code == 0, res.stderr
 
 

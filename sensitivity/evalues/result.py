@@ -99,6 +99,7 @@ class EValueResult(Result):
     model: dict | None = None  # from a fitted model: kind, n, outcome_share, treatment
     overlap: dict | None = None  # a binary treatment's positivity diagnostic
     multi_bias: dict | None = None  # the joint E-value with selection / misclassification
+    as_read: dict | None = None  # a result given as published text: what was read from it
 
     _repr_fields = ("scale", "estimate", "ci", "evalue", "evalue_ci")
     _input_fields = ("scale", "estimate", "ci", "ci_level", "se", "sd", "contrast", "outcome",
@@ -191,6 +192,8 @@ class EValueResult(Result):
             out["overlap"] = plain(self.overlap)
         if self.multi_bias is not None:
             out["multi_bias"] = plain(self.multi_bias)
+        if self.as_read is not None:
+            out["as_read"] = plain(self.as_read)
         return out
 
     def with_biases(self, *, selection: str | None = None,
@@ -237,6 +240,12 @@ class EValueResult(Result):
     def columns(self) -> dict[str, np.ndarray]:
         """Columns for CSV: one row a result, or one a hypothetical confounder when attached."""
         own = self.own_columns()
+        if self.as_read is not None:  # what was read from the text, as the screen names it
+            n = len(own["estimate"])
+            own |= {
+                f"as_read_{k}": np.full(n, np.nan if v is None else v, dtype=object)
+                for k, v in self.as_read.items()
+            }
         if self.confounders is None:
             return own
         conf = self.confounders.columns()
