@@ -15,9 +15,11 @@ RULE = "=" * 92
 
 
 def evalue_command(row: dict) -> list[str]:
-    args = ["sensitivity", "evalue", row["scale"], row["estimate"]]
-    if row["lower"]:
-        args += ["--ci", row["lower"], row["upper"]]
+    if row["lower"]:  # as a paper prints it: the scale, the estimate and its interval
+        text = f"{row['scale'].upper()} {row['estimate']} (95% CI {row['lower']} to {row['upper']})"
+        args = ["sensitivity", "evalue", text]
+    else:
+        args = ["sensitivity", "evalue", "--scale", row["scale"], "--estimate", row["estimate"]]
     for column in ("se", "sd", "contrast"):
         if row[column]:
             args += [f"--{column}", row[column]]
