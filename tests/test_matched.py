@@ -330,3 +330,28 @@ def test_too_many_pairs_for_the_exact_bound(monkeypatch):
                        r"got 30: use method normal"):  # fmt: skip
         rosenbaum_bounds(differences=d)
     assert rosenbaum_bounds(differences=d, method="normal").pairs == 30
+
+
+def test_pairs_from_data_in_python_equal_the_differences_and_the_command(run, tmp_path):
+    import pandas as pd
+
+    from sensitivity import rosenbaum_bounds_from_data
+
+    path = tmp_path / "pairs.csv"
+    lines = ["exposed,control"] + [f"{a:g},{b:g}" for a, b in PAIRS] + ["12,", "x,3"]
+    path.write_text("\n".join(lines) + "\n")
+    res = rosenbaum_bounds_from_data(path, treated="exposed", control="control",
+                                     method="normal")  # fmt: skip
+    ref = rosenbaum_bounds(differences=D, method="normal", missing=2)
+    assert res.to_dict() == ref.to_dict()
+    frame = pd.read_csv(path)
+    assert rosenbaum_bounds_from_data(frame, treated="exposed", control="control",
+                                      method="normal").to_dict() == ref.to_dict()  # fmt: skip
+    cli = run("matched", "--data", path, "--treated", "exposed", "--control", "control",
+              "--method", "normal", "--gamma", "1:6:0.5", "--format", "json")  # fmt: skip
+    import numpy as np
+
+    grid = rosenbaum_bounds_from_data(path, treated="exposed", control="control",
+                                      method="normal", gamma=np.arange(1, 6.5, 0.5))  # fmt: skip
+    printed, own = json.loads(cli.stdout), json.loads(json.dumps(grid.to_dict()))
+    assert {k: printed[k] for k in own} == own  # the command adds its sentence

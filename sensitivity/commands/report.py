@@ -76,7 +76,7 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
     if scale == "rd":
         raise click.UsageError("--scale rd: a report takes rr, or, hr, smd or md")
     if estimates:
-        from sensitivity.adapters.reporting import results_from_table
+        from sensitivity.reporting import results_from_table
 
         items = results_from_table(estimates)
     elif data:

@@ -111,23 +111,15 @@ def screen_cmd(
     frames = read_ahead(read_frames(file, "file", share=share))
 
     from sensitivity.common.errors import InputError
-    from sensitivity.output.streams import TABLE_FORMATS, TableWriter
     from sensitivity.screen.core import Options, computed_names
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
+    from sensitivity.screen.write import check_table_path, table_writer
 
     if plot_marks:
         raise click.UsageError("--plot-mark does not apply to screen")
     if output is not None:
-        from pathlib import Path
-
-        if Path(output).suffix.lower() not in TABLE_FORMATS:
-            raise InputError(
-                f"`output`: cannot tell the format of {Path(output).name!r} from its "
-                f"extension; use one of {', '.join(sorted(TABLE_FORMATS))}"
-            )
-        if not Path(output).parent.is_dir():
-            raise InputError(f"`output`: folder {str(Path(output).parent)!r} does not exist")
+        check_table_path(output)
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
@@ -140,14 +132,10 @@ def screen_cmd(
         tally=tally,
     )
     progress = sys.stderr.isatty()
-    writer: Any = None
     # the screen's own text columns (codes, reasons, notes, true/false) never start with a
     # formula character (tests/test_screen.py), so only the input's are defused
     trusted = computed_names(Options(confounders=confounders))
-    if output is not None:
-        writer = TableWriter(output, trusted=trusted)
-    elif fmt in ("csv", "json"):
-        writer = _StdoutWriter(fmt, trusted)
+    writer = table_writer(output, fmt, trusted)
     for batch in stream:
         if writer is not None:
             writer.write(batch)
@@ -178,33 +166,6 @@ def _bar(done: float, rows: int, width: int = 30) -> str:
     """A progress bar for stderr: how much of the file is read, and the rows screened."""
     filled = min(int(done * width), width)
     return f"[{'#' * filled}{'.' * (width - filled)}] {done:4.0%}  {rows:,} rows screened"
-
-
-class _StdoutWriter:
-    """The screened table on stdout, as CSV or JSON, batch by batch."""
-
-    def __init__(self, kind: str, trusted: Any = ()) -> None:
-        import tempfile
-
-        from sensitivity.output.streams import TableWriter
-
-        self.kind = kind
-        self._tmp = tempfile.NamedTemporaryFile(suffix=f".{kind}", delete=False)
-        self._tmp.close()
-        self._writer = TableWriter(self._tmp.name, trusted=trusted)
-
-    def write(self, batch: Any) -> None:
-        self._writer.write(batch)
-
-    def close(self, extra: dict | None = None) -> None:
-        import os
-        import shutil
-
-        self._writer.close(extra)
-        with open(self._tmp.name, "rb") as fh:
-            shutil.copyfileobj(fh, sys.stdout.buffer)
-        sys.stdout.buffer.flush()
-        os.unlink(self._tmp.name)
 
 
 command = screen_cmd
