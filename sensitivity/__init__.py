@@ -23,7 +23,7 @@ __version__ = "0.1.0"
 
 _EXPORTS = {
     "evalue": "evalues",
-    "evalue_from_text": "evalues",
+    "evalue_from_text": "adapters.published",
     "evalue_of_rr": "evalues",
     "evalue_of_interval": "evalues",
     "evalue_rows": "evalues",

@@ -13,10 +13,10 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
+from sensitivity.adapters.published import evalue_from_text
 from sensitivity.common.errors import InputError
 from sensitivity.evalues.core import evalue
 from sensitivity.evalues.present import pairs_table
-from sensitivity.evalues.published import evalue_from_text
 from sensitivity.screen.text import read_result
 
 

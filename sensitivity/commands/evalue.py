@@ -185,7 +185,7 @@ def evalue_cmd(
              fmt, outputs)  # fmt: skip
         return
     if route == "text":
-        from sensitivity.evalues.published import evalue_from_text
+        from sensitivity.adapters.published import evalue_from_text
 
         result = evalue_from_text(published, scale=scale, ci_level=ci_level, se=se, sd=sd,
                                   contrast=contrast, outcome=outcome, prevalence=prevalence,

@@ -97,7 +97,7 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
             pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast)
             items = [(label, replace(pr2, evalue=res))]
     elif route == "text":
-        from sensitivity.evalues.published import evalue_from_text
+        from sensitivity.adapters.published import evalue_from_text
 
         res = evalue_from_text(published, scale=scale, ci_level=ci_level, se=se, sd=sd,
                                outcome=outcome, prevalence=prevalence, contrast=contrast,

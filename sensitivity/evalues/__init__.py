@@ -11,7 +11,6 @@ from .core import (
     evalue_of_rr,
     evalue_rows,
 )
-from .published import evalue_from_text
 from .result import ConfounderBound, EValueResult
 
 __all__ = [
@@ -25,7 +24,6 @@ __all__ = [
     "confounder_bound",
     "conversion_text",
     "evalue",
-    "evalue_from_text",
     "evalue_of_interval",
     "evalue_of_rr",
     "evalue_rows",

@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import replace
 
 from ..common.errors import InputError
-from .result import EValueResult
+from ..evalues.result import EValueResult
 
 
 def read_summary(
@@ -78,7 +78,7 @@ def evalue_from_text(
     >>> r.as_read["scale"], round(float(r.evalue), 2), round(float(r.evalue_ci), 2)
     ('hr', 2.12, 1.6)
     """
-    from .core import evalue
+    from ..evalues.core import evalue
 
     read = read_summary(text, scale=scale, ci_level=ci_level, argument=argument)
     ci = None if read["lower"] is None else (read["lower"], read["upper"])
