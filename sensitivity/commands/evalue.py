@@ -81,9 +81,10 @@ SHORT_HELP = COMMANDS["evalue"][1]
 )
 @click.option(
     "--with-selection",
-    type=click.Choice(["general", "one-factor"]),
-    help="Add selection bias to a joint E-value: general (the whole population, two factors) "
-    "or one-factor (the estimate concerns the selected population only).",
+    type=click.Choice(["whole", "simplified"]),
+    help="Add selection bias to a joint E-value: whole (the whole population, two selection "
+    "factors) or simplified (one factor, under Smith & VanderWeele's simplifying assumption "
+    "about how selection relates to the outcome; check that it holds).",
 )
 @click.option(
     "--with-misclassification",

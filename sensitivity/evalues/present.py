@@ -184,26 +184,26 @@ def interval_clause(e_ci: str, level: str, goal: str) -> str:
     )
 
 
-def multi_bias_table(result: EValueResult) -> Table:
-    mb = result.multi_bias or {}
+def several_biases_table(result: EValueResult) -> Table:
+    mb = result.several_biases or {}
     rows = [("Confounding alone", number(result.evalue),
              "-" if result.evalue_ci is None else number(result.evalue_ci))]  # fmt: skip
-    rows.append((" + ".join(b.capitalize() if i == 0 else b for i, b in enumerate(mb["biases"])),
+    rows.append((" + ".join(b.capitalize() if i == 0 else b for i, b in enumerate(mb["included"])),
                  number(mb["evalue"]), "-" if mb["evalue_ci"] is None
                  else number(mb["evalue_ci"])))  # fmt: skip
     return Table(
         ("Biases included", "E-value", f"E-value, {level_name(result)}"),
         tuple(rows),
         title="Several biases at once: the common strength of every bias parameter",
-        footnotes=tuple(f"{b.capitalize()}: {a}." for b, a in zip(mb["biases"],
+        footnotes=tuple(f"{b.capitalize()}: {a}." for b, a in zip(mb["included"],
                         mb["assumptions"], strict=True)),
     )  # fmt: skip
 
 
-def multi_bias_sentence(result: EValueResult) -> str:
-    mb = result.multi_bias or {}
-    names = ", ".join(mb["biases"][:-1]) + f" and {mb['biases'][-1]}"
-    how = "all" if len(mb["biases"]) > 2 else "both"
+def several_biases_sentence(result: EValueResult) -> str:
+    mb = result.several_biases or {}
+    names = ", ".join(mb["included"][:-1]) + f" and {mb['included'][-1]}"
+    how = "all" if len(mb["included"]) > 2 else "both"
     text = (
         f"With {names} {how} at work, and every one of their bias parameters set to the same "
         f"risk ratio, together they could explain the estimate away only if that common risk "
@@ -380,9 +380,9 @@ def document(result: Any) -> Document:
         blocks.append(prose(lead, role="sentence"))
     if result.overlap is not None:
         blocks.append(overlap_table(result.overlap))
-    if result.multi_bias is not None:
-        blocks.append(multi_bias_table(result))
-        blocks.append(prose(multi_bias_sentence(result), role="sentence"))
+    if result.several_biases is not None:
+        blocks.append(several_biases_table(result))
+        blocks.append(prose(several_biases_sentence(result), role="sentence"))
     if result.confounders is not None:
         blocks.append(confounder_table(result.confounders))
         blocks.append(prose(*confounder_sentences(result.confounders), role="sentence"))

@@ -98,7 +98,7 @@ class EValueResult(Result):
     ci_level: float = 0.95
     model: dict | None = None  # from a fitted model: kind, n, outcome_share, treatment
     overlap: dict | None = None  # a binary treatment's positivity diagnostic
-    multi_bias: dict | None = None  # the joint E-value with selection / misclassification
+    several_biases: dict | None = None  # the joint E-value with selection / misclassification
     as_read: dict | None = None  # a result given as published text: what was read from it
 
     _repr_fields = ("scale", "estimate", "ci", "evalue", "evalue_ci")
@@ -202,8 +202,8 @@ class EValueResult(Result):
             out["model"] = plain(self.model)
         if self.overlap is not None:
             out["overlap"] = plain(self.overlap)
-        if self.multi_bias is not None:
-            out["multi_bias"] = plain(self.multi_bias)
+        if self.several_biases is not None:
+            out["several_biases"] = plain(self.several_biases)
         if self.as_read is not None:
             out["as_read"] = plain(self.as_read)
         return out
@@ -212,13 +212,13 @@ class EValueResult(Result):
                     misclassification: bool = False) -> EValueResult:  # fmt: skip
         """This result with the joint E-value for confounding plus the biases named."""
         from ..common.errors import InputError
-        from .bounds import joint_evalues
+        from .bounds import combined_evalues
 
         if not self.is_scalar:
             raise InputError("the joint E-value describes one result; index the inputs first")
-        info = joint_evalues(self.rr, self.rr_ci, self.rr_target, selection=selection,
+        info = combined_evalues(self.rr, self.rr_ci, self.rr_target, selection=selection,
                              misclassification=misclassification)  # fmt: skip
-        return replace(self, multi_bias=info)
+        return replace(self, several_biases=info)
 
     def own_columns(self) -> dict[str, np.ndarray]:
         """The result's own columns, one row an estimate."""
