@@ -50,7 +50,7 @@ def main() -> int:
     steps = []
     for i, row in enumerate(rows, 1):
         cmd = evalue_command(row)
-        if i == 1:  # the reviewer's question, once: confounders as strong as known ones
+        if i == 1:  # the reviewer's question, once: confounders of known ones' strength
             cmd += ["--confounder", "1.5", "2", "--confounder", "3", "4"]
         steps.append((f"[{i}/{len(rows)}] {row['label']}", cmd))
     steps.append(
@@ -68,11 +68,11 @@ def main() -> int:
                 "--benchmark",
                 "smoker",
                 "--benchmark",
+                "smoker:2",
+                "--benchmark",
                 "shift",
-                "--times",
-                "1",
-                "--times",
-                "2",
+                "--benchmark",
+                "shift:2",
                 "--contrast",
                 "10",
                 "--plot",

@@ -54,8 +54,7 @@ def _data_result():
         fair,
         "affairs ~ rate_marriage + age + yrs_married + children",
         "rate_marriage",
-        benchmarks=["age"],
-        times=[1, 2],
+        benchmarks=["age", "age:2"],
     )
 
 

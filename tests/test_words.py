@@ -108,7 +108,7 @@ def test_small_shares_keep_their_meaning():
 
 def test_partial_r2_layout_leads_with_the_answers(run):
     res = run("partial-r2", "--data", DEMO, "--formula", FORMULA, "--treatment", "commute_min",
-              "--benchmark", "smoker", "--times", 1, "--times", 2)  # fmt: skip
+              "--benchmark", "smoker", "--benchmark", "smoker:2")  # fmt: skip
     assert res.exit_code == 0, res.stderr
     out = res.stdout
     assert out.startswith("Coefficient of commute_min on sbp: 0.114 (se 0.027), t = 4.31 on 1,192")
@@ -142,15 +142,16 @@ def test_the_bounding_colour_is_the_worst_case_bound(monkeypatch, tmp_path):
     assert not any("Bias-adjusted estimate" == label for label in labels)
 
 
-def test_a_t_contour_is_labelled_with_t(monkeypatch, tmp_path):
+def test_the_contours_draw_the_estimate_and_t_side_by_side(monkeypatch, tmp_path):
     from sensitivity.partial_r2.figures import partial_r2_contours
 
     kept = _saved(monkeypatch)
     res = partial_r2_summary(0.114, 0.027, 1192)
-    partial_r2_contours(res, tmp_path / "t.png", statistic="t")
+    partial_r2_contours(res, tmp_path / "t.png")
     axes = kept[0].axes
-    assert any(ax.get_ylabel() == "Bias-adjusted t value" for ax in axes)
-    assert "t = 4.22" in axes[0].get_title()
+    bars = [ax.get_ylabel() for ax in axes]
+    assert "Bias-adjusted estimate" in bars and "Bias-adjusted t value" in bars
+    assert "estimate 0.114" in axes[0].get_title() and "t = 4.22" in axes[1].get_title()
 
 
 def test_figures_use_percent_axes_limits_and_marks(monkeypatch, tmp_path):
@@ -162,7 +163,9 @@ def test_figures_use_percent_axes_limits_and_marks(monkeypatch, tmp_path):
     ax = kept[0].axes[0]
     assert ax.get_xlim() == (0, 0.3) and ax.get_ylim() == (0, 0.2)
     assert ax.xaxis.get_major_formatter().__class__.__name__ == "PercentFormatter"
-    assert any(h.get_label() == "Your confounder" for h in ax.get_legend().legend_handles)
+    (legend,) = kept[0].legends
+    mine = [h for h in legend.legend_handles if h.get_label() == "Your confounder"]
+    assert mine and mine[0].get_marker() == "*"  # the project's own marker, not a diamond
 
 
 def test_every_figure_writes_png_svg_and_pdf_with_embedded_fonts(run, tmp_path):
@@ -271,3 +274,38 @@ def test_the_evalue_figure_zooms_on_the_evalue(monkeypatch, tmp_path, scale, est
     ax = kept[0].axes[0]
     assert top[0] < ax.get_xlim()[1] < top[1] and top[0] < ax.get_ylim()[1] < top[1]
     assert ax.get_xlim()[1] > 1.3 * float(res.evalue) - 0.3  # the E-value point well inside
+
+
+def test_the_robustness_value_sentence_is_ours_and_exact():
+    # Cinelli & Hazlett (2020) summary example: t = 4.18 on 783 dof -> RV 13.9%, RV_alpha 7.6%.
+    res = partial_r2_summary(0.5, 0.5 / 4.18, 783)
+    text = _flat(res.sentence())
+    assert text.startswith(
+        "Bringing the estimate to zero would take a hidden confounder that explains at least "
+        "13.9% of the treatment's variation left after the measured covariates, or at least "
+        "13.9% of the outcome's left after the treatment and covariates: one below 13.9% on "
+        "both could not, and one at 13.9% on both would (the robustness value)."
+    )
+    assert (
+        "For the 95% confidence interval to include zero, a confounder below 7.6% on both "
+        "could not." in text
+    )
+    assert "residual variance of both" not in text and "No hidden confounder" not in text
+
+
+def test_benchmark_values_carry_their_multiples():
+    from sensitivity.common.errors import InputError
+    from sensitivity.partial_r2.benchmarks import benchmark_spec
+
+    assert benchmark_spec("smoker") == ("smoker", 1.0, 1.0)
+    assert benchmark_spec("smoker:2") == ("smoker", 2.0, 2.0)
+    assert benchmark_spec("age:1:3") == ("age", 1.0, 3.0)
+    assert benchmark_spec("a:b") == ("a:b", 1.0, 1.0)  # an interaction term stays a name
+    assert benchmark_spec("a:b:2") == ("a:b", 2.0, 2.0)
+    assert benchmark_spec(("C(shift)", 1, 3)) == ("C(shift)", 1.0, 3.0)
+    with pytest.raises(InputError, match=r"^`benchmark` names no covariate; got ':2'"):
+        benchmark_spec(":2")
+    with pytest.raises(InputError, match=r"a multiple must be a positive finite number; got inf"):
+        benchmark_spec("age:inf")
+    with pytest.raises(InputError, match=r"^`benchmark` must be a name, \(name, multiple\)"):
+        benchmark_spec(("age", 1, 2, 3))
