@@ -115,7 +115,7 @@ def test_partial_r2_layout_leads_with_the_answers(run):
     answers = out.index("To bring the estimate to zero (robustness value)")
     assert answers < out.index("Named confounders")
     assert "Partial R² of treatment with outcome" not in out
-    assert "as strong as smoker" not in out.split("Named confounders")[1].split("\n\n")[0]
+    assert "×1" in out.split("Named confounders")[1].split("\n\n")[0]
     row = next(line for line in out.splitlines() if line.startswith("2  smoker ×2"))
     assert "conclusion holds" in row.split("smoker ×2")[1][:20]
 
@@ -165,7 +165,7 @@ def test_figures_use_percent_axes_limits_and_marks(monkeypatch, tmp_path):
     assert ax.xaxis.get_major_formatter().__class__.__name__ == "PercentFormatter"
     (legend,) = kept[0].legends
     mine = [h for h in legend.legend_handles if h.get_label() == "Your confounder"]
-    assert mine and mine[0].get_marker() == "*"  # the project's own marker, not a diamond
+    assert mine and mine[0].get_marker() == "*"  # the project's own marker
 
 
 def test_every_figure_writes_png_svg_and_pdf_with_embedded_fonts(run, tmp_path):

@@ -157,10 +157,11 @@ def _scenario_footnote(r: PartialR2Result) -> str:
     if first is None:
         return tail
     name, k = covariate_name(first.benchmark or ""), first.k_treatment
+    strength = "matching" if k == 1 else f"with {k:g} times the strength of"
     return (
-        f"'{name} ×{k:g}': a hidden confounder of {k:g} times the strength of the measured "
-        f"covariate {name}, with the treatment and with the outcome (×a/×b: the treatment's "
-        f"multiple, then the outcome's); {tail}"
+        f"'{name} ×{k:g}': a hidden confounder {strength} the measured covariate {name}, with "
+        f"the treatment and with the outcome (×a/×b: the treatment's multiple, then the "
+        f"outcome's); {tail}"
     )
 
 
