@@ -306,7 +306,7 @@ def published_options(func: Callable) -> Callable:
         "--ci-level",
         type=float,
         default=None,
-        help="The interval's level when TEXT or --ci does not name it (default 0.95; 0.9 "
+        help="The interval's level: of --ci, or of a TEXT that names none (default 0.95; 0.9 "
         "for a 90% CI).",
     )(func)
     func = ci_option("Confidence limits on the same scale as --estimate.")(func)
