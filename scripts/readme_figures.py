@@ -13,7 +13,7 @@ ROOT = Path(__file__).resolve().parent.parent
 OUT = ROOT / "docs" / "figures"
 FIGURES = {
     "evalue_poor_sleep.png": [
-        "evalue", "--scale", "or", "--estimate", "2.40", "--ci", "1.80", "3.20", "--outcome-frequency", "common",
+        "evalue", "OR 2.40 (95% CI 1.80-3.20)", "--outcome-frequency", "common",
         "--confounder", "1.5", "2", "--confounder", "3", "3",
     ],
     "partial_r2_commute.png": [

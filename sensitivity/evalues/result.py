@@ -216,8 +216,9 @@ class EValueResult(Result):
 
         if not self.is_scalar:
             raise InputError("the joint E-value describes one result; index the inputs first")
-        info = combined_evalues(self.rr, self.rr_ci, self.rr_target, selection=selection,
-                             misclassification=misclassification)  # fmt: skip
+        ci = None if self.rr_ci is None else (float(self.rr_ci[0]), float(self.rr_ci[1]))
+        info = combined_evalues(float(self.rr), ci, float(self.rr_target), selection=selection,
+                                misclassification=misclassification)  # fmt: skip
         return replace(self, several_biases=info)
 
     def own_columns(self) -> dict[str, np.ndarray]:

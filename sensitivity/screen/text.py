@@ -8,6 +8,7 @@ interval cut short, two results in one cell, "NR" and blanks.
 from __future__ import annotations
 
 import re
+from typing import cast
 
 import numpy as np
 
@@ -120,14 +121,15 @@ def read_result(text: object, argument: str = "TEXT") -> dict[str, object]:
         shown = repr(str(text).strip()[:60])
         got = "" if shown in str(cell["error"]) else f"; got {shown}"
         raise InputError(f"`{argument}`: {cell['error']}{got}")
-    lower = None if np.isnan(cell["lower"]) else float(cell["lower"])  # type: ignore[arg-type]
-    upper = None if np.isnan(cell["upper"]) else float(cell["upper"])  # type: ignore[arg-type]
-    level = None if np.isnan(cell["level"]) else float(cell["level"])  # type: ignore[arg-type]
+    def number(key: str) -> float | None:
+        value = float(cast(float, cell[key]))
+        return None if np.isnan(value) else value
+
     return {
         "text": str(text).strip(),
         "scale": cell["scale"] or None,
-        "estimate": float(cell["estimate"]),  # type: ignore[arg-type]
-        "lower": lower,
-        "upper": upper,
-        "level": level,
+        "estimate": number("estimate"),
+        "lower": number("lower"),
+        "upper": number("upper"),
+        "level": number("level"),
     }
