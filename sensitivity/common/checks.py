@@ -54,6 +54,14 @@ class Check:
     bad: Callable[..., np.ndarray]
     message: Callable[..., str]
     kind: str = ""
+    rule: Rule | None = None  # a one-field rule, so a caller may name the field its own way
+
+    def message_as(self, values: Sequence[object], called: Mapping[str, str]) -> str:
+        """The message, naming the field as the caller knows it (`called`: field -> name)."""
+        name = self.fields[0]
+        if self.rule is None or name not in called:
+            return self.message(*values)
+        return f"`{called[name]}` {self.rule.text}; got {show(float(values[0]))}"  # type: ignore[arg-type]
 
 
 def field(
@@ -69,12 +77,13 @@ def field(
     """
     kind = f"`{name}` {rule.text}"
     if where is None:
-        return Check((name,), rule.bad, lambda v: f"{kind}; got {show(v)}", kind)
+        return Check((name,), rule.bad, lambda v: f"{kind}; got {show(v)}", kind, rule)
     return Check(
         (name, *also),
         lambda v, *rest: np.asarray(where(*rest), bool) & rule.bad(v),
         lambda v, *rest: f"{kind}; got {show(v)}",
         kind,
+        rule,
     )
 
 
@@ -136,8 +145,15 @@ def require(value: object, name: str, *rules: Rule) -> np.ndarray:
     return arr
 
 
-def require_all(values: Mapping[str, np.ndarray], checks: Iterable[Check]) -> None:
-    """Raise InputError for the first entry that breaks any of `checks` (single results)."""
+def require_all(
+    values: Mapping[str, np.ndarray],
+    checks: Iterable[Check],
+    called: Mapping[str, str] | None = None,
+) -> None:
+    """Raise InputError for the first entry that breaks any of `checks` (single results).
+
+    `called` names fields as the caller's argument knows them (a single result's `lower` and
+    `upper` are its `ci`)."""
     for check in checks:
         arrays = [np.asarray(values[f]) for f in check.fields]
         shape = np.broadcast_shapes(*(a.shape for a in arrays))
@@ -146,7 +162,7 @@ def require_all(values: Mapping[str, np.ndarray], checks: Iterable[Check]) -> No
         if np.any(bad):
             i = np.flatnonzero(bad)[0]
             picked = [np.broadcast_to(a, shape).flat[i] for a in arrays]
-            raise InputError(check.message(*picked))
+            raise InputError(check.message_as(picked, called or {}))
 
 
 def flags(

@@ -39,7 +39,6 @@ from .rows import (
     outcome_frequency,
     overflow_message,
     ratio_scale,
-    rename_ci,
     scale_in,
     single_inputs,
 )
@@ -143,10 +142,7 @@ def evalue(
             "(exp(0.91 d -/+ 1.78 se))"
         )
     values = single_inputs(scale, estimate, ci, se, sd, contrast, outcome, prevalence, target)
-    try:
-        require_all(values, CHECKS)
-    except InputError as err:
-        raise InputError(rename_ci(str(err))) from None
+    require_all(values, CHECKS, called={"lower": "ci", "upper": "ci"})
     freq = outcome_frequency(values)
     out = compute(
         values["scale"],

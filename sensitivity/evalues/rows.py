@@ -134,11 +134,6 @@ CHECKS: tuple[Check, ...] = (
 )
 
 
-def rename_ci(message: str) -> str:
-    """Single results speak of the interval as `ci`, whichever limit broke the rule."""
-    return message.replace("`lower`", "`ci`").replace("`upper`", "`ci`")
-
-
 # --------------------------------------------------------------------------- computation
 def compute(
     scale: np.ndarray,
