@@ -121,6 +121,7 @@ def read_result(text: object, argument: str = "TEXT") -> dict[str, object]:
         shown = repr(str(text).strip()[:60])
         got = "" if shown in str(cell["error"]) else f"; got {shown}"
         raise InputError(f"`{argument}`: {cell['error']}{got}")
+
     def number(key: str) -> float | None:
         value = float(cast(float, cell[key]))
         return None if np.isnan(value) else value
