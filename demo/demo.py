@@ -25,9 +25,11 @@ This demo writes into the current folder:
 
 
 def evalue_command(row: dict) -> list[str]:
-    args = ["sensitivity", "evalue", row["scale"], row["estimate"]]
-    if row["lower"]:
-        args += ["--ci", row["lower"], row["upper"]]
+    if row["lower"]:  # as a paper prints it: the scale, the estimate and its interval
+        text = f"{row['scale'].upper()} {row['estimate']} (95% CI {row['lower']} to {row['upper']})"
+        args = ["sensitivity", "evalue", text]
+    else:
+        args = ["sensitivity", "evalue", "--scale", row["scale"], "--estimate", row["estimate"]]
     for column in ("se", "sd", "contrast"):
         if row[column]:
             args += [f"--{column}", row[column]]
@@ -107,11 +109,11 @@ def main() -> int:
                 "--benchmark",
                 "smoker",
                 "--benchmark",
+                "smoker:2",
+                "--benchmark",
                 "shift",
-                "--times",
-                "1",
-                "--times",
-                "2",
+                "--benchmark",
+                "shift:2",
                 "--contrast",
                 "10",
                 "--plot",

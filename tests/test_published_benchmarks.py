@@ -60,10 +60,13 @@ def _same(a, b, tol=1e-10):
 @pytest.mark.parametrize("name", ["age", "yrs_married", "educ"])
 def test_published_t_statistics_give_the_data_routes_bounds(fits, name):
     _, out, treat = fits
-    from_data = partial_r2_from_model(out, "rate_marriage", benchmarks=[name], times=[1, 2])
+    from_data = partial_r2_from_model(out, "rate_marriage", benchmarks=[name, f"{name}:2"])
     est, se, dof = out.params["rate_marriage"], out.bse["rate_marriage"], out.df_resid
     published = partial_r2_summary(
-        est, se, dof, benchmark_r2=[_published(out, treat, name)], times=[1, 2]
+        est,
+        se,
+        dof,
+        benchmark_r2=[(_published(out, treat, name), 1), (_published(out, treat, name), 2)],
     )
     _same(from_data, published)
     assert published.scenarios[0].benchmark_source == "published"
@@ -72,16 +75,13 @@ def test_published_t_statistics_give_the_data_routes_bounds(fits, name):
 
 def test_published_partial_r2_pairs_and_unequal_multiples_agree(fits):
     _, out, treat = fits
-    from_data = partial_r2_from_model(
-        out, "rate_marriage", benchmarks=["age"], times_pairs=[(1, 3)]
-    )
+    from_data = partial_r2_from_model(out, "rate_marriage", benchmarks=["age:1:3"])
     cov = {c.name: c for c in from_data.covariates}["age"]
     published = partial_r2_summary(
         out.params["rate_marriage"],
         out.bse["rate_marriage"],
         out.df_resid,
-        benchmark_r2=[("age", cov.r2_treatment, cov.r2_outcome)],
-        times_pairs=[(1, 3)],
+        benchmark_r2=[("age:1:3", cov.r2_treatment, cov.r2_outcome)],
     )
     _same(from_data, published)
 
@@ -89,8 +89,8 @@ def test_published_partial_r2_pairs_and_unequal_multiples_agree(fits):
 def test_published_benchmarks_added_to_a_data_result(fits):
     _, out, treat = fits
     bare = partial_r2_from_model(out, "rate_marriage")
-    added = with_published_benchmarks(bare, [_published(out, treat, "educ")], times=[2])
-    _same(partial_r2_from_model(out, "rate_marriage", benchmarks=["educ"], times=[2]), added)
+    added = with_published_benchmarks(bare, [(_published(out, treat, "educ"), 2)])
+    _same(partial_r2_from_model(out, "rate_marriage", benchmarks=["educ:2"]), added)
     assert any("published numbers" in n for n in added.notes)
 
 
@@ -98,16 +98,17 @@ def test_the_command_line_form_agrees_with_the_data_route(run, fits, tmp_path):
     data, out, treat = fits
     path = tmp_path / "fair.csv"
     data.to_csv(path, index=False)
-    common = ("--times", 1, "--times", 2, "--format", "json")
+    common = ("--format", "json")
     res = run("partial-r2", "--data", path, "--formula", OUTCOME, "--treatment",
-              "rate_marriage", "--benchmark", "age", *common)  # fmt: skip
+              "rate_marriage", "--benchmark", "age", "--benchmark", "age:2", *common)  # fmt: skip
     assert res.exit_code == 0, res.stderr
     from_data = json.loads(res.stdout)["scenarios"]
     t_side = f"t:{float(treat.tvalues['age'])!r}:{treat.df_resid:g}"
     y_side = f"t:{float(out.tvalues['age'])!r}"  # the outcome model's dof is --dof
     res = run("partial-r2", "--estimate", repr(float(out.params["rate_marriage"])), "--se",
               repr(float(out.bse["rate_marriage"])), "--dof", out.df_resid,
-              "--benchmark-r2", "age", t_side, y_side, *common)  # fmt: skip
+              "--benchmark-r2", "age", t_side, y_side, "--benchmark-r2", "age:2", t_side,
+              y_side, *common)  # fmt: skip
     assert res.exit_code == 0, res.stderr
     published = json.loads(res.stdout)["scenarios"]
     for a, b in zip(from_data, published, strict=True):
@@ -118,8 +119,9 @@ def test_the_command_line_form_agrees_with_the_data_route(run, fits, tmp_path):
         assert b["bias_adjusted"]["ci"] == pytest.approx(a["bias_adjusted"]["ci"], rel=1e-10)
     # With data input, --benchmark-r2 adds to the data's own benchmarks.
     res = run("partial-r2", "--data", path, "--formula", OUTCOME, "--treatment",
-              "rate_marriage", "--benchmark", "age", "--benchmark-r2", "age_paper", t_side,
-              y_side, *common)  # fmt: skip
+              "rate_marriage", "--benchmark", "age", "--benchmark", "age:2", "--benchmark-r2",
+              "age_paper", t_side, y_side, "--benchmark-r2", "age_paper:2", t_side, y_side,
+              *common)  # fmt: skip
     both = json.loads(res.stdout)["scenarios"]
     assert [s["benchmark"] for s in both] == ["age", "age", "age_paper", "age_paper"]
     assert both[2]["bias_adjusted"]["ci"] == pytest.approx(both[0]["bias_adjusted"]["ci"], 1e-10)
@@ -137,7 +139,7 @@ def test_r2_is_t_squared_over_t_squared_plus_dof():
 def test_text_and_keyword_forms_agree(rt, ry, k, dof):
     text = benchmark_from_text("z", repr(rt), repr(ry))
     assert (text.r2_treatment, text.r2_outcome) == (rt, ry)
-    res = partial_r2_summary(1.0, 0.1, dof, benchmark_r2=[text], times=[k])
+    res = partial_r2_summary(1.0, 0.1, dof, benchmark_r2=[(text, k)])
     (s,) = res.scenarios
     r2t, r2y, _ = benchmark_strengths(rt, ry, k)
     assert (s.r2_treatment, s.r2_outcome) == (float(r2t), float(r2y))
@@ -190,14 +192,15 @@ def test_bad_python_inputs():
         published_benchmark("a", 0.1, 0.1, assumed_r2_treatment=0.2)
     with pytest.raises(InputError, match="items must be"):
         partial_r2_summary(1.0, 0.1, 100, benchmark_r2=["age"])
-    with pytest.raises(InputError, match="need `benchmark_r2`"):
-        partial_r2_summary(1.0, 0.1, 100, times=[2])
 
 
 def test_summary_benchmark_by_name_points_to_published_numbers(run):
     res = run("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--benchmark", "age")
     assert res.exit_code == 2
     assert "--benchmark-r2 NAME R2_TREATMENT R2_OUTCOME" in res.stderr
+    # from Python, a multiple goes with its benchmark
+    two = partial_r2_summary(1.0, 0.1, 100, benchmark_r2=[("age:2", 0.01, 0.02)])
+    assert (two.scenarios[0].k_treatment, two.scenarios[0].k_outcome) == (2.0, 2.0)
 
 
 def test_multiples_written_after_the_name(run):
@@ -206,11 +209,9 @@ def test_multiples_written_after_the_name(run):
     res = run(*base, "--benchmark-r2", "smoking:3", *sides, "--benchmark-r2", "smoking:1:2",
               *sides)  # fmt: skip
     assert res.exit_code == 0, res.stderr
-    got = [(s["k_treatment"], s["k_outcome"]) for s in json.loads(res.stdout)["scenarios"]]
+    scenarios = json.loads(res.stdout)["scenarios"]
+    got = [(s["multiple_treatment"], s["multiple_outcome"]) for s in scenarios]
     assert got == [(3.0, 3.0), (1.0, 2.0)]
-    same = run(*base, "--benchmark-r2", "smoking", *sides, "--times", 3)
-    assert json.loads(same.stdout)["scenarios"][0] == json.loads(res.stdout)["scenarios"][0]
+    assert scenarios[0]["label"] == "smoking ×3 (published)"
     bad = run(*base, "--benchmark-r2", "smoking:0", *sides)
-    assert bad.exit_code == 2 and "`k_treatment` must be positive" in bad.stderr
-    bad = run(*base, "--benchmark-r2", "smoking:1:2:3", *sides)
-    assert bad.exit_code == 2 and "write NAME, NAME:K or NAME:K_T:K_Y" in bad.stderr
+    assert bad.exit_code == 2 and "a multiple must be a positive finite number" in bad.stderr

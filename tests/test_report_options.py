@@ -26,7 +26,8 @@ def _entries(folder):
 
 
 def test_summary_report_with_confounders_level_and_target(run, tmp_path):
-    args = ("hr", 1.38, "--ci", 1.12, 1.70, "--outcome-frequency", "rare", "--ci-level", 0.9,
+    args = ("--scale", "hr", "--estimate", 1.38, "--ci", 1.12, 1.70, "--outcome-frequency",
+            "rare", "--ci-level", 0.9,
             "--confounder", 1.5, 2, "--target", 1.1)  # fmt: skip
     res = run("report", *args, "--out", tmp_path / "r")
     assert res.exit_code == 0, res.stderr
@@ -40,7 +41,7 @@ def test_summary_report_with_confounders_level_and_target(run, tmp_path):
 
 def test_data_report_with_errors_benchmarks_and_published_benchmarks(run, fair_csv, tmp_path):
     data = ("--data", fair_csv, "--formula", FORMULA, "--treatment", "rate_marriage")
-    bench = ("--benchmark", "age", "--times", 1, "--times", 2,
+    bench = ("--benchmark", "age", "--benchmark", "age:2",
              "--benchmark-r2", "age_paper", 0.01, 0.02, "--ci-level", 0.9)  # fmt: skip
     res = run("report", *data, "--model", "ols", "--errors", "hc3", *bench, "--out", tmp_path / "r")
     assert res.exit_code == 0, res.stderr
@@ -64,12 +65,12 @@ def test_data_report_with_errors_benchmarks_and_published_benchmarks(run, fair_c
 
 def test_reproduce_has_the_exact_command_and_versions(run, fair_csv, tmp_path):
     args = ("report", "--data", str(fair_csv), "--formula", FORMULA, "--treatment",
-            "rate_marriage", "--model", "ols", "--benchmark", "age", "--times", "2",
+            "rate_marriage", "--model", "ols", "--benchmark", "age:2",
             "--out", str(tmp_path / "r"))  # fmt: skip
     assert run(*args).exit_code == 0
     out = _entries(tmp_path / "r")
     assert out["command"].startswith("sensitivity report --data ")
-    assert "--benchmark age --times 2" in out["command"]
+    assert "--benchmark age:2" in out["command"]
     for library in ("sensitivity", "numpy", "statsmodels", "scipy", "pandas"):
         assert library in out["versions"], library
 
@@ -99,13 +100,12 @@ def test_estimates_table_takes_confounders_and_level(run, tmp_path):
 @pytest.mark.parametrize(
     ("args", "message"),
     [
-        (("hr", 1.4, "--outcome-frequency", "rare", "--benchmark", "age"),
+        (("--scale", "hr", "--estimate", 1.4, "--outcome-frequency", "rare", "--benchmark", "age"),
          "--benchmark needs data input with --model ols"),
-        (("hr", 1.4, "--outcome-frequency", "rare", "--times", 2),
-         "--times and --times-pair need --benchmark"),
-        (("hr", 1.4, "--outcome-frequency", "rare", "--errors", "hc0"),
+        (("--scale", "hr", "--estimate", 1.4, "--outcome-frequency", "rare", "--errors", "hc0"),
          "--errors applies to data input"),
-        (("hr", 1.4, "--outcome-frequency", "rare", "--benchmark-r2", "a", 0.1, 0.1),
+        (("--scale", "hr", "--estimate", 1.4, "--outcome-frequency", "rare", "--benchmark-r2",
+          "a", 0.1, 0.1),
          "--benchmark-r2 applies to a regression coefficient"),
     ],
 )  # fmt: skip
@@ -126,5 +126,5 @@ def test_report_takes_hypothetical_strengths_for_a_coefficient(run, fair_csv, tm
     assert got[0]["bias_adjusted"]["ci"] == pytest.approx(
         want["scenarios"][0]["bias_adjusted"]["ci"], rel=1e-12
     )
-    bad = run("report", "rr", 1.5, *strengths, "--out", tmp_path / "s")
+    bad = run("report", "--scale", "rr", "--estimate", 1.5, *strengths, "--out", tmp_path / "s")
     assert bad.exit_code == 2 and "apply to a regression coefficient" in bad.stderr

@@ -12,23 +12,20 @@ from sensitivity.commands import COMMANDS
 from . import _options
 from ._options import (
     Command,
-    Number,
     confounder_option,
     errors_option,
     model_option,
     outcome_frequency_option,
+    published_options,
     show_warnings,
+    summary_route,
 )
 
 SHORT_HELP = COMMANDS["report"][1]
 
 
 @click.command("report", cls=Command, short_help=SHORT_HELP)
-@click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), required=False,
-                metavar="[SCALE ESTIMATE]")  # fmt: skip
-@click.argument("estimate", type=Number(), required=False, metavar="")
-@click.option("--ci", nargs=2, type=float, default=None, metavar="LOWER UPPER",
-              help="Summary input: confidence limits.")  # fmt: skip
+@published_options
 @click.option("--se", type=float, help="Summary input: standard error (smd, md).")
 @click.option("--sd", type=float, help="Summary input: the outcome's SD (md).")
 @outcome_frequency_option("Summary input, or and hr: the outcome's frequency.")
@@ -48,25 +45,17 @@ SHORT_HELP = COMMANDS["report"][1]
 @errors_option
 @click.option("--contrast", type=float, default=1.0, show_default=True,
               help="A continuous treatment: report per this many units.")  # fmt: skip
-@click.option("--ci-level", type=float, default=0.95, show_default=True,
-              help="The level of the intervals: of --ci and the table's limits, and of the "
-              "intervals computed from data (0.9 for 90%).")  # fmt: skip
 @click.option("--target", type=float, default=None,
               help="Summary input: the true value to test against (default the null).")  # fmt: skip
 @confounder_option("A confounder to set against every estimate: its risk ratios with the "
                    "treatment and the outcome (repeatable).")  # fmt: skip
-@click.option("--benchmark", "benchmarks", multiple=True,
-              help="Data input, --model ols: a measured covariate to compare with "
-              "(repeatable), as in partial-r2.")  # fmt: skip
+@click.option("--benchmark", "benchmarks", multiple=True, metavar="COLUMN[:K[:K_OUTCOME]]",
+              help="Data input, --model ols: a measured covariate to compare with, and its "
+              "multiples (repeatable), as in partial-r2.")  # fmt: skip
 @click.option("--benchmark-r2", "benchmark_r2", nargs=3, multiple=True,
               metavar="NAME[:K[:K_OUTCOME]] R2_TREATMENT R2_OUTCOME",
               help="A benchmark from published numbers, as in partial-r2 (regression "
               "estimates: --data with --model ols, or table rows with se and dof).")  # fmt: skip
-@click.option("--times", multiple=True, type=float,
-              help="Benchmark multiple k, both sides (repeatable; default 1).")  # fmt: skip
-@click.option("--times-pair", "times_pairs", nargs=2, type=float, multiple=True,
-              metavar="K_TREATMENT K_OUTCOME",
-              help="Separate benchmark multiples for the two sides (repeatable).")  # fmt: skip
 @click.option("--r2-treatment", multiple=True, type=float,
               help="A hypothetical confounder of a regression coefficient: its partial R² "
               "with the treatment (pairs with --r2-outcome; repeatable).")  # fmt: skip
@@ -74,12 +63,12 @@ SHORT_HELP = COMMANDS["report"][1]
               help="Its partial R² with the outcome.")  # fmt: skip
 @click.option("--out", "folder", required=True, type=click.Path(file_okay=False),
               help="The folder to write (created if missing).")  # fmt: skip
-def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: Any,
+def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se: Any,
+               sd: Any, outcome: Any,
                prevalence: Any, label: str, estimates: Any, data: Any, formula: Any,
                treatment: Any, model_kind: Any, event: Any, errors: Any, contrast: float,
-               ci_level: float, target: Any, confounders: Any, benchmarks: Any,
-               benchmark_r2: Any, times: Any, times_pairs: Any, r2_treatment: Any,
-               r2_outcome: Any, folder: str) -> None:  # fmt: skip
+               target: Any, confounders: Any, benchmarks: Any, benchmark_r2: Any,
+               r2_treatment: Any, r2_outcome: Any, folder: str) -> None:  # fmt: skip
     """Write the robustness section of a manuscript to a folder.
 
     report.md, a self-contained report.html (figures embedded, nothing fetched), tables.tex,
@@ -94,23 +83,25 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
 
     \b
     Examples:
-      sensitivity report hr 1.38 --ci 1.12 1.70 --outcome-frequency rare --out report
+      sensitivity report "HR 1.38 (95% CI 1.12-1.70)" --outcome-frequency rare --out report
+      sensitivity report --scale rr --estimate 1.5 --ci 1.1 2.0 --out report
       sensitivity report --estimates demo/cohort_estimates.csv --confounder 2 2 --out report
       sensitivity report --data demo/harbourside_bp.csv --model ols --treatment commute_min \\
           --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
-          --benchmark smoker --times 1 --times 2 --errors hc1 --contrast 10 --out report
+          --benchmark smoker --benchmark smoker:2 --errors hc1 --contrast 10 --out report
     """
     from sensitivity.output.report import Reproduce, write_report
 
     show_warnings()
-    routes = [bool(scale), bool(estimates), bool(data)]
+    route, published = summary_route("report", text, scale, estimate, ci)
+    routes = [bool(route), bool(estimates), bool(data)]
     if sum(routes) != 1:
         raise click.UsageError(
-            "give one input: SCALE ESTIMATE (summary numbers), --estimates FILE, or --data "
-            "with --formula, --treatment and --model"
+            'give one input: TEXT as published ("HR 1.38 (95% CI 1.12-1.70)"), --scale and '
+            "--estimate, --estimates FILE, or --data with --formula, --treatment and --model"
         )
-    if (times or times_pairs) and not (benchmarks or benchmark_r2):
-        raise click.UsageError("--times and --times-pair need --benchmark or --benchmark-r2")
+    if scale == "rd":
+        raise click.UsageError("--scale rd: a report takes rr, or, hr, smd or md")
     if benchmarks and not (data and model_kind == "ols"):
         raise click.UsageError(
             "--benchmark needs data input with --model ols (a measured covariate of the fit); "
@@ -118,12 +109,13 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
         )
     if errors is not None and not data:
         raise click.UsageError("--errors applies to data input (--data ... --model)")
-    if target is not None and not scale:
-        raise click.UsageError("--target applies to summary input (SCALE ESTIMATE)")
+    if target is not None and route is None:
+        raise click.UsageError("--target applies to summary input (TEXT, or --scale --estimate)")
+    level = 0.95 if ci_level is None else ci_level
     if estimates:
         from sensitivity.reporting import results_from_table
 
-        items = results_from_table(estimates, ci_level=ci_level)
+        items = results_from_table(estimates, ci_level=level)
     elif data:
         missing = [n for n, v in (("--formula", formula), ("--treatment", treatment),
                                   ("--model", model_kind)) if not v]  # fmt: skip
@@ -132,7 +124,7 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
         from sensitivity.adapters.models import evalue_from_data
 
         res = evalue_from_data(data, formula, treatment, model_kind, event=event,
-                               contrast=contrast, outcome=outcome, alpha=1 - ci_level,
+                               contrast=contrast, outcome=outcome, alpha=1 - level,
                                errors=errors)  # fmt: skip
         items = [(label, res)]
         if model_kind == "ols":
@@ -141,20 +133,23 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
             from sensitivity.adapters.statsmodels import partial_r2_from_data
 
             pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast,
-                                       alpha=1 - ci_level, benchmarks=benchmarks,
-                                       times=list(times) or None,
-                                       times_pairs=times_pairs)  # fmt: skip
+                                       alpha=1 - level, benchmarks=benchmarks)  # fmt: skip
             items = [(label, replace(pr2, evalue=res))]
+    elif route == "text":
+        from sensitivity.adapters.published import evalue_from_text
+
+        res = evalue_from_text(published, scale=scale, ci_level=ci_level, se=se, sd=sd,
+                               outcome=outcome, prevalence=prevalence, contrast=contrast,
+                               target=target, argument="TEXT")  # fmt: skip
+        items = [(label, res)]
     else:
-        if estimate is None:
-            raise click.UsageError("summary input needs SCALE and ESTIMATE")
         from sensitivity.evalues.core import evalue
 
         res = evalue(scale, estimate, ci or None, se=se, sd=sd, outcome=outcome,
-                     prevalence=prevalence, contrast=contrast, ci_level=ci_level,
+                     prevalence=prevalence, contrast=contrast, ci_level=level,
                      target=target)  # fmt: skip
         items = [(label, res)]
-    items = _with_options(items, confounders, benchmark_r2, times, times_pairs)
+    items = _with_options(items, confounders, benchmark_r2)
     if r2_treatment or r2_outcome:
         items = _with_strengths(items, r2_treatment, r2_outcome)
     command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
@@ -167,8 +162,8 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
         click.echo(f"{name}: E-value {float(e.evalue):.2f} (CI: {ci_e})")
 
 
-def _with_options(items: list[tuple[str, Any]], confounders: Any, benchmark_r2: Any,
-                  times: Any, times_pairs: Any) -> list[tuple[str, Any]]:  # fmt: skip
+def _with_options(items: list[tuple[str, Any]], confounders: Any,
+                  benchmark_r2: Any) -> list[tuple[str, Any]]:  # fmt: skip
     """Confounders on every E-value; published benchmarks on every regression coefficient."""
     from dataclasses import replace
 
@@ -186,7 +181,7 @@ def _with_options(items: list[tuple[str, Any]], confounders: Any, benchmark_r2: 
         if benchmark_r2 and isinstance(result, PartialR2Result):
             from sensitivity.partial_r2.published import apply_text_benchmarks
 
-            result = apply_text_benchmarks(result, benchmark_r2, list(times) or None, times_pairs)
+            result = apply_text_benchmarks(result, benchmark_r2)
         out.append((name, result))
     if benchmark_r2 and not any(isinstance(r, PartialR2Result) for _, r in out):
         raise click.UsageError(

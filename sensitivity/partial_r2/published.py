@@ -12,12 +12,13 @@ supplied as an assumption (`assumed_r2_treatment`), which the result then states
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Sequence
+from collections.abc import Sequence
 from dataclasses import replace
 from typing import Any
 
-from ..common.checks import DOF, POSITIVE, R2_STRENGTH, require
+from ..common.checks import DOF, R2_STRENGTH, require
 from ..common.errors import InputError
+from .benchmarks import benchmark_spec
 from .result import CovariateStrength, PartialR2Result, Scenario
 
 MISSING_TREATMENT = (
@@ -182,70 +183,35 @@ def benchmark_from_text(
     return published_benchmark(name, **kwargs)
 
 
-def split_multiples(text: str) -> tuple[str, list[tuple[float, float]] | None]:
-    """NAME, NAME:K or NAME:K_TREATMENT:K_OUTCOME -> (name, [(k_t, k_y)] or None).
-
-    >>> split_multiples("smoking:2"), split_multiples("age:1:3"), split_multiples("bmi")
-    (('smoking', [(2.0, 2.0)]), ('age', [(1.0, 3.0)]), ('bmi', None))
-    """
-    name, *ks = text.split(":")
-    if not ks:
-        return name, None
-    if len(ks) > 2:
-        raise InputError(f"`--benchmark-r2` {text!r}: write NAME, NAME:K or NAME:K_T:K_Y")
-    values = [_number(k, f"{name} multiple") for k in ks]
-    kt, ky = values[0], values[-1]
-    return name, [(float(require(kt, "k_treatment", POSITIVE)),
-                   float(require(ky, "k_outcome", POSITIVE)))]  # fmt: skip
-
-
 def apply_text_benchmarks(
-    result: PartialR2Result,
-    benchmark_r2: Sequence[tuple[str, str, str]],
-    times: Sequence[float] | None = None,
-    times_pairs: Iterable[tuple[float, float]] = (),
+    result: PartialR2Result, benchmark_r2: Sequence[tuple[str, str, str]]
 ) -> PartialR2Result:
-    """`--benchmark-r2 NAME[:K[:K_OUTCOME]] RT RY` (repeatable) applied to `result`: a
-    multiple written after the name applies to that benchmark; otherwise `times` and
-    `times_pairs` (default 1)."""
-    times_pairs = list(times_pairs)
-    for raw_name, treatment, outcome in benchmark_r2:
-        name, own = split_multiples(raw_name)
-        bench = benchmark_from_text(name, treatment, outcome, dof=result.dof)
-        if own is not None:
-            result = with_published_benchmarks(result, [bench], times_pairs=own)
-        else:
-            result = with_published_benchmarks(
-                result, [bench], times=times, times_pairs=times_pairs
-            )
-    return result
+    """`--benchmark-r2 NAME[:K[:K_OUTCOME]] RT RY` (repeatable) applied to `result`; the
+    multiples after the name as for `--benchmark` (`benchmarks.benchmark_spec`)."""
+    items: list[object] = []
+    for spec, treatment, outcome in benchmark_r2:
+        name, kt, ky = benchmark_spec(spec, "benchmark_r2")
+        items.append((benchmark_from_text(name, treatment, outcome, dof=result.dof), kt, ky))
+    return with_published_benchmarks(result, items)
 
 
-def as_benchmark(item: object) -> CovariateStrength:
-    """A CovariateStrength, or a (name, r2_treatment, r2_outcome) triple, as a benchmark."""
+def as_benchmark(item: object) -> tuple[CovariateStrength, float, float]:
+    """(benchmark, multiple with the treatment, multiple with the outcome) from an item of
+    `benchmark_r2`: a `published_benchmark(...)` value (multiple 1), that value with one or
+    two multiples in a tuple, or (name, r2_treatment, r2_outcome) where the name may carry
+    its multiples as for `--benchmark` ("age:2", "age:1:3")."""
     if isinstance(item, CovariateStrength):
-        return item
-    if isinstance(item, tuple | list) and len(item) == 3:
-        return published_benchmark(str(item[0]), item[1], item[2])
+        return item, 1.0, 1.0
+    if isinstance(item, tuple | list) and item and isinstance(item[0], CovariateStrength):
+        _, kt, ky = benchmark_spec((item[0].name, *item[1:]), "benchmark_r2")
+        return item[0], kt, ky
+    if isinstance(item, tuple | list) and len(item) == 3 and isinstance(item[0], str):
+        name, kt, ky = benchmark_spec(item[0], "benchmark_r2")
+        return published_benchmark(name, item[1], item[2]), kt, ky
     raise InputError(
-        "`benchmark_r2` items must be (name, r2_treatment, r2_outcome) or made by "
-        f"`published_benchmark`; got {item!r}"
+        "`benchmark_r2` items must be (name, r2_treatment, r2_outcome), a "
+        f"`published_benchmark(...)` value, or that value with its multiples; got {item!r}"
     )
-
-
-def k_pairs(
-    times: Sequence[float] | None = None, times_pairs: Iterable[tuple[float, float]] = ()
-) -> list[tuple[float, float]]:
-    """Multiples as (k_treatment, k_outcome) pairs; 1 when none are given."""
-    times_pairs = list(times_pairs)
-    if times is None:
-        times = () if times_pairs else (1.0,)
-    pairs = [(float(require(k, "times", POSITIVE)),) * 2 for k in times]
-    for kt, ky in times_pairs:
-        pairs.append(
-            (float(require(kt, "times_pair", POSITIVE)), float(require(ky, "times_pair", POSITIVE)))
-        )
-    return pairs
 
 
 def published_words(
@@ -282,29 +248,8 @@ def percent(value: float, digits: int = 2) -> str:
     return f"{pct:.3g}%" if 0 < abs(pct) < 1 else f"{pct:.{digits}f}%"
 
 
-def published_scenarios(
-    estimate: float,
-    se: float,
-    dof: float,
-    benchmarks: Sequence[CovariateStrength],
-    pairs: Sequence[tuple[float, float]],
-    alpha: float,
-) -> list[Scenario]:
-    """Scenarios for every benchmark at every multiple (the data route's computation)."""
-    from .core import benchmark_scenarios
-
-    out: list[Scenario] = []
-    for b in benchmarks:
-        out += benchmark_scenarios(estimate, se, dof, b, pairs, alpha)
-    return out
-
-
 def with_published_benchmarks(
-    result: PartialR2Result,
-    benchmark_r2: Sequence[object],
-    *,
-    times: Sequence[float] | None = None,
-    times_pairs: Iterable[tuple[float, float]] = (),
+    result: PartialR2Result, benchmark_r2: Sequence[object]
 ) -> PartialR2Result:
     """`result` with scenarios for published benchmarks added (from data or summary input).
 
@@ -313,19 +258,19 @@ def with_published_benchmarks(
     result : PartialR2Result
         Any partial-R² result: from `partial_r2_summary`, or a data route.
     benchmark_r2 : sequence
-        `published_benchmark(...)` values or (name, r2_treatment, r2_outcome) triples.
-    times, times_pairs
-        Multiples, as for data benchmarks (default 1).
+        (name, r2_treatment, r2_outcome) triples, the name with its multiples as for data
+        benchmarks ("age", "age:2", "age:1:3"); or `published_benchmark(...)` values, alone
+        (multiple 1) or in a tuple with their multiples: (benchmark, 2), (benchmark, 1, 3).
     """
-    bench = [as_benchmark(b) for b in benchmark_r2]
-    if not bench:
-        if times is not None or list(times_pairs):
-            raise InputError("`times` and `times_pairs` need `benchmark_r2` (covariates to scale)")
-        return result
-    scenarios = published_scenarios(
-        result.estimate, result.se, result.dof, bench, k_pairs(times, times_pairs), result.alpha
-    )
-    notes, assumptions = published_words(bench)
+    from .core import benchmark_scenarios
+
+    items = [as_benchmark(b) for b in benchmark_r2]
+    scenarios: list[Scenario] = []
+    for bench, kt, ky in items:
+        scenarios += benchmark_scenarios(
+            result.estimate, result.se, result.dof, bench, [(kt, ky)], result.alpha
+        )
+    notes, assumptions = published_words([b for b, _, _ in items])
     return replace(
         result,
         scenarios=result.scenarios + tuple(scenarios),
