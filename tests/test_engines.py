@@ -11,7 +11,6 @@ categorical level met in one partition only, and in any order of combination.
 from __future__ import annotations
 
 import functools
-import shutil
 import warnings
 
 import numpy as np
@@ -218,27 +217,6 @@ def test_parquet_folder_local_and_dask(tmp_path):
 
 
 # --------------------------------------------------------------------------- Spark
-@pytest.fixture(scope="module")
-def spark():
-    if shutil.which("java") is None:
-        pytest.skip("Spark needs Java (17) on the PATH; none found")
-    pytest.importorskip("pyspark", reason="the spark extra is not installed")
-    import os
-    import sys
-
-    os.environ.setdefault("PYSPARK_PYTHON", sys.executable)
-    from pyspark.sql import SparkSession
-
-    session = (
-        SparkSession.builder.master("local[2]").appName("sensitivity-tests")
-        .config("spark.ui.enabled", "false").config("spark.ui.showConsoleProgress", "false")
-        .config("spark.sql.shuffle.partitions", "2").getOrCreate()
-    )  # fmt: skip
-    session.sparkContext.setLogLevel("ERROR")
-    yield session
-    session.stop()
-
-
 SCHEMA = "y double, t double, x1 double, x2 double, g string, k long, smoker boolean"
 
 

@@ -25,6 +25,8 @@ EXTRAS = {"dask": "dask", "spark": "spark"}
 FAN_IN = 8
 
 Progress = Callable[[int, int], None]
+#: A Dask client opened for DASK_SCHEDULER_ADDRESS, kept for the life of the process.
+_CLIENTS: list[Any] = []
 
 
 # --------------------------------------------------------------------------- routing
@@ -74,8 +76,15 @@ def open_with(path: str | Path, engine: str, argument: str = "data") -> Any:
         )
     needs(engine)
     if engine == "dask":
+        import os
+
         import dask.dataframe as dd
 
+        address = os.environ.get("DASK_SCHEDULER_ADDRESS")
+        if address and _dask_client() is None:  # kept open as the default client
+            from distributed import Client
+
+            _CLIENTS.append(Client(address))
         return dd.read_parquet(str(p))
     return spark_session().read.parquet(str(p))
 

@@ -209,6 +209,22 @@ def model_option(help_text: str, default: str | None = None) -> Callable:
     )
 
 
+ENGINES = ("local", "dask", "spark")
+
+
+def engine_option(what: str) -> Callable:
+    """`--engine local|dask|spark`: where a Parquet dataset folder is read."""
+    return click.option(
+        "--engine",
+        type=click.Choice(ENGINES),
+        default="local",
+        show_default=True,
+        help=f"Where {what} runs: on this machine, or on Dask or Spark (Parquet file or "
+        "dataset folder; needs the dask or spark extra). Spark runs where spark-submit "
+        "points it, else locally; Dask on DASK_SCHEDULER_ADDRESS if set, else threads here.",
+    )
+
+
 def exclusive(*options: tuple[str, object]) -> None:
     """A usage error naming both options when two that cannot go together are given."""
     given = [name for name, value in options if value is not None]
