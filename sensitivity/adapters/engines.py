@@ -318,12 +318,13 @@ class _SparkWatch:
 
 
 # --------------------------------------------------------------------------- local folder
-def dataset_source(path: str | Path, argument: str = "data") -> Any:
-    """A Parquet dataset folder as the one-pass route's `Source`: its files in order, a batch
-    at a time (hive-style key=value folders add their columns)."""
+def dataset_batches(path: str | Path, argument: str = "data") -> tuple[list[str], Callable]:
+    """A Parquet dataset folder: its column names, and a function giving its Arrow record
+    batches (of chosen columns) file by file in order, hive-style key=value folders adding
+    their columns."""
     import pyarrow.dataset as ds
 
-    from .batches import BATCH_ROWS, Source
+    from .batches import BATCH_ROWS
 
     try:
         dataset = ds.dataset(str(path), format="parquet", partitioning="hive")
@@ -334,15 +335,24 @@ def dataset_source(path: str | Path, argument: str = "data") -> Any:
     if not dataset.files:
         raise InputError(f"`{argument}`: {path} holds no Parquet files")
 
-    def batches(wanted: list[str], forced: dict[str, str]) -> Iterator[Any]:
-        from .batches import _arrow_batch
-
+    def batches(columns: list[str] | None = None) -> Iterator[Any]:
         for fragment in dataset.get_fragments():
-            for batch in fragment.to_batches(columns=wanted, batch_size=BATCH_ROWS):
-                if batch.num_rows:
-                    yield _arrow_batch(batch, wanted)
+            yield from fragment.to_batches(schema=dataset.schema, columns=columns,
+                                           batch_size=BATCH_ROWS)  # fmt: skip
 
-    return Source(list(dataset.schema.names), batches)
+    return list(dataset.schema.names), batches
+
+
+def dataset_source(path: str | Path, argument: str = "data") -> Any:
+    """A Parquet dataset folder as the one-pass route's `Source`, a batch at a time."""
+    from .batches import Source
+
+    names, batches = dataset_batches(path, argument)
+
+    def typed(wanted: list[str], forced: dict[str, str]) -> Iterator[Any]:
+        yield from arrow_batches(batches(wanted), wanted)
+
+    return Source(names, typed)
 
 
 def partial_r2_dataset(path: str | Path, formula: str, treatment: str, **options: Any

@@ -9,7 +9,7 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import FORMATS, Command, confounder_option, plot_options
+from ._options import FORMATS, Command, confounder_option, engine_option, plot_options
 
 SHORT_HELP = COMMANDS["screen"][1]
 
@@ -30,7 +30,8 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
 
 
 @click.command("screen", cls=Command, short_help=SHORT_HELP)
-@click.argument("file", type=click.Path(dir_okay=False))
+@click.argument("file", type=click.Path())
+@engine_option("the screen")
 @click.option(
     "--columns",
     "column_map",
@@ -75,6 +76,7 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
 @plot_options("the distribution of E-values (estimate and interval) by scale")
 def screen_cmd(
     file: str,
+    engine: str,
     column_map: tuple[str, ...],
     from_text: str | None,
     confounders: tuple,
@@ -94,21 +96,31 @@ def screen_cmd(
     needs them se, dof, sd, outcome (rare/common), prevalence, contrast, target, and for
     risk differences cases_treated, total_treated, cases_control, total_control. Text cells
     written to CSV and Excel are defused against spreadsheet formulas. Files are read a piece
-    at a time, so memory stays flat; on a terminal, a progress bar shows on stderr.
+    at a time, so memory stays flat; on a terminal, a progress bar shows on stderr. FILE may
+    be a Parquet dataset folder, screened here or on Dask or Spark (--engine): each
+    partition is screened where it lies, its rows kept in order, and the summary added up.
 
     \b
     Examples:
       sensitivity screen demo/published_results.csv --output screened.csv
       sensitivity screen demo/published_results.csv --from-text result \\
           --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
+      sensitivity screen demo/published_results_parquet --engine dask --output screened.csv
     """
+    # the first pieces of the file are parsed (polars, in a second thread) while the rest of
+    # the screen is imported and the options are checked
+    from pathlib import Path
+
     from sensitivity.adapters.files import Share, read_frames
     from sensitivity.common.overlap import read_ahead
 
-    # the first pieces of the file are parsed (polars, in a second thread) while the rest of
-    # the screen is imported and the options are checked
     share = Share()
-    frames = read_ahead(read_frames(file, "file", share=share))
+    if engine == "local" and Path(file).is_dir():
+        from sensitivity.screen.engines import folder_frames
+
+        frames = read_ahead(folder_frames(file))
+    elif engine == "local":
+        frames = read_ahead(read_frames(file, "file", share=share))
 
     from sensitivity.common.errors import InputError
     from sensitivity.screen.core import Options, computed_names
@@ -123,15 +135,21 @@ def screen_cmd(
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
-    stream = screen_frames(
-        frames,
-        columns=_column_map(column_map),
-        from_text=from_text,
-        confounders=confounders,
-        alpha=alpha,
-        tally=tally,
-    )
+    options = {"columns": _column_map(column_map), "from_text": from_text,
+               "confounders": confounders, "alpha": alpha}  # fmt: skip
     progress = sys.stderr.isatty()
+    if engine == "local":
+        stream = screen_frames(frames, tally=tally, **options)
+    else:
+        from sensitivity.adapters.engines import open_with
+        from sensitivity.screen.engines import screened_frames
+
+        def partitions(done: int, total: int) -> None:
+            click.echo(f"{done:,} of {total:,} partitions screened", err=True)
+
+        data = open_with(file, engine, "file")
+        stream = screened_frames(data, engine, tally, progress=partitions, **options)
+        progress = False
     # the screen's own text columns (codes, reasons, notes, true/false) never start with a
     # formula character (tests/test_screen.py), so only the input's are defused
     trusted = computed_names(Options(confounders=confounders))
