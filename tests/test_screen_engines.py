@@ -134,9 +134,8 @@ def test_cli_folder_equals_the_single_file(run, tmp_path, engine, request):
 def test_cli_engine_errors(run, tmp_path, monkeypatch):
     res = run("screen", ROOT / "demo" / "published_results.csv", "--engine", "dask")
     assert res.exit_code == 2
-    assert res.stderr.strip().splitlines()[-1].endswith(
-        "--engine dask reads Parquet (a file or a dataset folder); got 'published_results.csv'"
-    )
+    last = res.stderr.strip().splitlines()[-1]
+    assert "--engine dask reads Parquet (a file or a dataset folder)" in last
     empty = tmp_path / "empty"
     empty.mkdir()
     res = run("screen", empty)
