@@ -259,3 +259,44 @@ def test_spark_reads_a_parquet_folder(spark, tmp_path):
     same(reference, partial_r2_engine(str(folder), FORMULA, "t", engine="spark", **OPTIONS))
     with pytest.raises(InputError, match="the data are a spark DataFrame"):
         partial_r2_engine(spark.read.parquet(str(folder)), FORMULA, "t", engine="dask")
+
+
+# --------------------------------------------------------------------------- command line
+BP = "sbp ~ commute_min + age + female + smoker + C(shift) + bmi"
+
+
+@pytest.mark.parametrize("engine", ["local", "dask", "spark"])
+def test_cli_folder_equals_the_file(run, engine, request):
+    import json
+
+    from conftest import ROOT
+
+    if engine == "spark":
+        request.getfixturevalue("spark")  # skips without Java; the command reuses the session
+    args = ["--formula", BP, "--treatment", "commute_min", "--benchmark", "smoker", "--format",
+            "json"]  # fmt: skip
+    single = run("partial-r2", "--data", ROOT / "demo" / "harbourside_bp.csv", *args)
+    res = run("partial-r2", "--data", ROOT / "demo" / "harbourside_bp_parquet",
+              "--engine", engine, *args)  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    a, b = json.loads(single.stdout), json.loads(res.stdout)
+    assert b["estimate"] == pytest.approx(a["estimate"], rel=1e-10)
+    assert b["robustness_value"] == pytest.approx(a["robustness_value"], rel=1e-10)
+    assert [c["name"] for c in b["covariates"]] == [c["name"] for c in a["covariates"]]
+    for u, v in zip(a["covariates"], b["covariates"], strict=True):
+        assert v["r2_treatment"] == pytest.approx(u["r2_treatment"], rel=1e-10)
+        assert v["r2_outcome"] == pytest.approx(u["r2_outcome"], rel=1e-10)
+    if engine == "dask":
+        assert "4 of 4 partitions" in res.stderr
+
+
+def test_cli_engine_errors(run):
+    res = run("partial-r2", "--estimate", "0.1", "--se", "0.03", "--dof", "500", "--engine",
+              "dask")  # fmt: skip
+    assert res.exit_code == 2 and "--engine applies to data input (--data)" in res.stderr
+    res = run("partial-r2", "--data", "nowhere/", "--engine", "dask", "--formula", "y ~ t",
+              "--treatment", "t")  # fmt: skip
+    assert res.exit_code == 2 and "`data`: not found: nowhere/" in res.stderr
+    res = run("partial-r2", "--data", "nowhere.parquet", "--engine", "spark", "--formula",
+              "y ~ t + np.log(x)", "--treatment", "t")  # fmt: skip
+    assert res.exit_code == 2
