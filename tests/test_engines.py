@@ -245,8 +245,13 @@ def test_spark_equals_the_one_machine_route(spark, sizes):
     frame = invented()
     reference = partial_r2_one_pass(frame, FORMULA, "t", **OPTIONS)
     sdf = spark_frame(spark, pieces(frame, sizes))
-    assert sdf.rdd.getNumPartitions() == len(pieces(frame, sizes))
-    same(reference, partial_r2_engine(sdf, FORMULA, "t", **OPTIONS))
+    parts = len(pieces(frame, sizes))
+    assert sdf.rdd.getNumPartitions() == parts
+    seen = []
+    got = partial_r2_engine(sdf, FORMULA, "t", progress=lambda d, n: seen.append((d, n)),
+                            **OPTIONS)  # fmt: skip
+    same(reference, got)
+    assert seen[-1] == (parts, parts)
 
 
 def test_spark_reads_a_parquet_folder(spark, tmp_path):

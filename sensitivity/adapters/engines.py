@@ -298,23 +298,32 @@ class _SparkWatch:
         self.thread.start()
         return self
 
+    shown = -1
+
+    def _look(self, context: Any) -> None:
+        """Report the first stage's tasks done (one task a partition), if they changed."""
+        tracker = context.statusTracker()
+        jobs = tracker.getJobIdsForGroup(self.group)
+        info = tracker.getJobInfo(min(jobs)) if jobs else None
+        if info is None or not info.stageIds:
+            return
+        stage = tracker.getStageInfo(min(info.stageIds))
+        if stage is not None and stage.numCompletedTasks != self.shown:
+            self.shown = stage.numCompletedTasks
+            self.progress(self.shown, stage.numTasks)
+
     def _watch(self, context: Any) -> None:
-        tracker, shown = context.statusTracker(), -1
         while not self.stop.wait(0.25):
-            jobs = tracker.getJobIdsForGroup(self.group)
-            info = tracker.getJobInfo(jobs[0]) if jobs else None
-            if info is None or not info.stageIds:
-                continue
-            stage = tracker.getStageInfo(min(info.stageIds))
-            if stage is not None and stage.numCompletedTasks != shown:
-                shown = stage.numCompletedTasks
-                self.progress(shown, stage.numTasks)
+            self._look(context)
 
     def __exit__(self, *exc: Any) -> None:
         self.stop.set()
         if hasattr(self, "thread"):
             self.thread.join()
-            self.frame.sparkSession.sparkContext.setLocalProperty("spark.jobGroup.id", None)
+            context = self.frame.sparkSession.sparkContext
+            if exc[0] is None:
+                self._look(context)  # the last count, however quick the job was
+            context.setLocalProperty("spark.jobGroup.id", None)
 
 
 # --------------------------------------------------------------------------- local folder

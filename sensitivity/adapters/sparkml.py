@@ -100,9 +100,10 @@ def _parts(model: Any, treatment: str) -> dict[str, Any]:
     row = frame.agg(F.count(F.col(label)).alias("n"),
                     F.avg((F.col(label) > 0).cast("double")).alias("share"),
                     F.stddev_samp(F.col(label)).alias("sd")).first()  # fmt: skip
-    dof = summary.degreesOfFreedom if hasattr(summary, "degreesOfFreedom") else None
     if type(model).__name__ == "GeneralizedLinearRegressionModel":
         dof = summary.residualDegreeOfFreedom
+    else:
+        dof = summary.degreesOfFreedom
     return {
         "b": float(model.coefficients[j]), "se": float(errors[j]), "n": int(summary.numInstances),
         "dof": float(dof), "share": float(row["share"]), "sd": float(row["sd"]), "label": label,

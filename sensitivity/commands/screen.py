@@ -160,7 +160,7 @@ def screen_cmd(
             from_text=from_text,
         )
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
-    options = {"columns": _column_map(column_map), "from_text": from_text,
+    options: dict[str, Any] = {"columns": _column_map(column_map), "from_text": from_text,
                "confounders": confounders, "alpha": alpha}  # fmt: skip
     progress = sys.stderr.isatty()
     if engine == "local":

@@ -299,10 +299,11 @@ def screen_table(table: Any, **options: Any) -> Any:
     """
     from ..adapters.engines import engine_of
 
-    if engine_of(table):
+    engine = engine_of(table)
+    if engine is not None:
         from .engines import screen_engine_table
 
-        return screen_engine_table(table, engine_of(table), **options)
+        return screen_engine_table(table, engine, **options)
     frame, kind = _as_polars(table)
     import polars as pl
 
@@ -320,10 +321,11 @@ def screen_summary(table: Any, source: str = "the table", threshold: float | Non
     Spark or Dask DataFrame is screened partition by partition on its engine."""
     from ..adapters.engines import engine_of
 
-    if engine_of(table):
+    engine = engine_of(table)
+    if engine is not None:
         from .engines import screen_engine_summary
 
-        return screen_engine_summary(table, engine_of(table), source, threshold, **options)
+        return screen_engine_summary(table, engine, source, threshold, **options)
     frame, _ = _as_polars(table)
     tally = Tally(threshold=threshold, n_confounders=len(options.get("confounders", ())))
     for _ in screen_frames(_slices(frame), tally=tally, **options):
