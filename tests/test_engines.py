@@ -169,6 +169,15 @@ def test_dask_threads_equal_the_one_machine_route(sizes):
     assert seen[-1] == (ddf.npartitions, ddf.npartitions)
 
 
+def test_a_partition_column_of_mixed_types_is_one_line():
+    frame = invented(100)
+    frame["x1"] = frame["x1"].astype(object)
+    frame.loc[3, "x1"] = "n/a"
+    frame.loc[4, "x1"] = b"\x00"  # bytes among numbers and text: no Arrow type holds them
+    with pytest.raises(InputError, match="a column the formula uses mixes types"):
+        dask_partition(frame, FORMULA)
+
+
 @pytest.fixture(scope="module")
 def dask_cluster():
     distributed = pytest.importorskip("distributed")
@@ -262,6 +271,9 @@ def test_spark_reads_a_parquet_folder(spark, tmp_path):
         part.to_parquet(folder / f"part-{i}.parquet", index=False)
     reference = partial_r2_one_pass(frame, FORMULA, "t", **OPTIONS)
     same(reference, partial_r2_engine(str(folder), FORMULA, "t", engine="spark", **OPTIONS))
+    text_outcome = spark.createDataFrame(frame.assign(y=frame.y.astype(str)).head(50))
+    with pytest.raises(InputError, match="^`formula`: the outcome column 'y' must be numeric$"):
+        partial_r2_engine(text_outcome, FORMULA, "t")  # raised on a worker, one line here
     with pytest.raises(InputError, match="the data are a spark DataFrame"):
         partial_r2_engine(spark.read.parquet(str(folder)), FORMULA, "t", engine="dask")
 

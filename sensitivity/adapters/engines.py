@@ -186,7 +186,12 @@ def dask_partition(frame: Any, formula: str) -> Partial:
     wanted = wanted_columns(formula)
     if not len(frame):
         return partition_factor([], formula)
-    table = pa.Table.from_pandas(frame[wanted], preserve_index=False)
+    try:
+        table = pa.Table.from_pandas(frame[wanted], preserve_index=False)
+    except (pa.ArrowInvalid, pa.ArrowTypeError) as err:  # a column of mixed types
+        text = " ".join(str(err).split())[:200]
+        raise InputError(f"`data`: a column the formula uses mixes types ({text}); give it "
+                         "one type") from None  # fmt: skip
     return partition_factor(arrow_batches(table.to_batches(BATCH_ROWS), wanted), formula)
 
 
@@ -271,11 +276,28 @@ def _spark_partial(frame: Any, formula: str, progress: Progress) -> Partial:
     rows = frame.select(*wanted).mapInArrow(partial(spark_partition, formula=formula),
                                              "partial binary")  # fmt: skip
     empty = partition_factor([], formula)
-    with _SparkWatch(frame, progress):
+    with _SparkWatch(frame, progress), worker_errors():
         if type(frame).__module__.startswith("pyspark.sql.connect"):  # no RDDs: combine here
             parts = [_unpickled(row) for row in rows.toLocalIterator()]
             return tree(parts or [empty], combine_all)
         return rows.rdd.map(_unpickled).treeAggregate(empty, combine, combine, depth=2)
+
+
+class worker_errors:
+    """A bad-input error raised in a Spark worker reaches the driver wrapped in Spark's own
+    exception; raise it here as the InputError it was (one line, exit 2 on the command line)."""
+
+    def __enter__(self) -> None:
+        return None
+
+    def __exit__(self, kind: Any, err: Any, trace: Any) -> None:
+        import re
+
+        if err is None or isinstance(err, InputError):
+            return
+        found = re.search(r"InputError: (.+)", str(err))
+        if found:
+            raise InputError(found.group(1).strip()) from None
 
 
 class _SparkWatch:

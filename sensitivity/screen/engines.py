@@ -138,15 +138,18 @@ def screened_frames(data: Any, engine: str, tally: Tally, *,
         rows = data.mapInArrow(partial(_spark_rows, options=dict(options),
                                        threshold=tally.threshold, schema=schema),
                                "kind byte, payload binary")  # fmt: skip
+        from ..adapters.engines import worker_errors
+
         total, done = data.rdd.getNumPartitions(), 0
-        for row in rows.toLocalIterator(prefetchPartitions=True):
-            if row["kind"] == 1:
-                tally.merge(pickle.loads(row["payload"]))
-                done += 1
-                progress(done, total)
-                continue
-            with pa.ipc.open_stream(row["payload"]) as reader:
-                yield pl.from_arrow(reader.read_all())
+        with worker_errors():
+            for row in rows.toLocalIterator(prefetchPartitions=True):
+                if row["kind"] == 1:
+                    tally.merge(pickle.loads(row["payload"]))
+                    done += 1
+                    progress(done, total)
+                    continue
+                with pa.ipc.open_stream(row["payload"]) as reader:
+                    yield pl.from_arrow(reader.read_all())
         return
     import dask
 
