@@ -123,6 +123,20 @@ def test_fair_data_sorted_so_levels_arrive_late(formula):
     same(reference, got)
 
 
+def test_a_level_met_in_one_partition_only():
+    frame = invented()
+    reference = partial_r2_one_pass(frame, FORMULA, "t", **OPTIONS)
+    parts = pieces(frame, [50, 5, 0])  # rows 50-54, all the 'rare' ones, alone in one piece
+    assert [("rare" in set(p.g)) for p in parts] == [False, True, False, False]
+    partials = [dask_partition(p, FORMULA) for p in parts]
+    assert [("C(g)" in q.levels and "rare" in q.levels["C(g)"]) for q in partials] == [
+        False, True, False, False]  # fmt: skip
+    for order in (partials, partials[::-1], [partials[1], partials[3], partials[0], partials[2]]):
+        same(reference, finish(tree(list(order), combine_all), FORMULA, "t", **OPTIONS))
+    assert "C(g)[T.rare]" in [c for cov in reference.to_dict()["covariates"]
+                              for c in cov["columns"]]  # fmt: skip
+
+
 def test_an_empty_partial_changes_nothing():
     frame = invented()
     empty = partition_factor([], FORMULA)
