@@ -406,8 +406,6 @@ def bench_engines() -> None:
               f"{a.r.nbytes / 1024:.0f} KiB")  # fmt: skip
 
 
-
-
 def bench_debiased() -> None:
     print("== Debiased ML: 100,000 rows, 20 covariates, 5 folds, default learners (issue 23)")
     import numpy as np
