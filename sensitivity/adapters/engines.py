@@ -368,8 +368,10 @@ def dataset_batches(path: str | Path, argument: str = "data") -> tuple[list[str]
 
     def batches(columns: list[str] | None = None) -> Iterator[Any]:
         for fragment in dataset.get_fragments():
+            # no read-ahead: memory stays that of a batch, not of several row groups
             yield from fragment.to_batches(schema=dataset.schema, columns=columns,
-                                           batch_size=BATCH_ROWS)  # fmt: skip
+                                           batch_size=BATCH_ROWS, batch_readahead=0,
+                                           fragment_readahead=0)  # fmt: skip
 
     return list(dataset.schema.names), batches
 
