@@ -95,7 +95,11 @@ class Tally:
 
     def merge(self, other: Tally) -> Tally:
         """Add the counts of another tally (kept with the same threshold and confounders,
-        over other rows: a partition screened elsewhere) to this one; returns this tally."""
+        over other rows: a partition screened elsewhere) to this one; returns this tally.
+        The other's first flagged rows are numbered after this one's rows."""
+        for kind, rows in other.first_rows.items():
+            first = self.first_rows.setdefault(kind, [])
+            first += [self.rows + r for r in rows][: max(FIRST_ROWS - len(first), 0)]
         self.rows += other.rows
         for kind, count in other.flagged.items():
             self.flagged[kind] = self.flagged.get(kind, 0) + count
