@@ -64,3 +64,31 @@ def test_text_columns_take_the_value_by_value_route():
     cols = {"s": np.array(['say "hi"', "x\ny"], dtype=object), "v": np.array([1.0, 2.0])}
     out = b"".join(json_rows(cols, [("s", "s"), ("v", "v")]))
     assert json.loads(b"[" + out + b"]") == [{"s": 'say "hi"', "v": 1.0}, {"s": "x\ny", "v": 2.0}]
+
+
+@pytest.mark.parametrize("suffix", [".json", ".parquet"])
+def test_a_table_written_piece_by_piece_reads_back_whole(suffix, tmp_path):
+    # Pieces (an empty one first and between) written behind the caller: the file holds every
+    # row once, in order, with NaN as null in JSON, as polars reads it back.
+    import polars as pl
+
+    from sensitivity.output.streams import TableWriter
+
+    rng = np.random.default_rng(3)
+    whole = pl.DataFrame({
+        "study": [f's{i} "q"\n' for i in range(2_500)],
+        "evalue": pl.Series(_bits(rng, 2_500), nan_to_null=True),
+        "flag": rng.random(2_500) < 0.5,
+    })  # fmt: skip
+    writer = TableWriter(tmp_path / f"out{suffix}")
+    for piece in (whole.head(0), whole[:1000], whole.head(0), whole[1000:1001], whole[1001:]):
+        writer.write(piece)
+    writer.close({"summary": {"rows": 2_500}} if suffix == ".json" else None)
+    path = tmp_path / f"out{suffix}"
+    if suffix == ".json":
+        data = json.loads(path.read_bytes())
+        assert data["summary"] == {"rows": 2_500}
+        back = pl.DataFrame(data["rows"], schema=whole.schema)
+    else:
+        back = pl.read_parquet(path)
+    assert back.equals(whole)
