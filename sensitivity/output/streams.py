@@ -95,6 +95,7 @@ class TableWriter:
         self._frames: list = []
         self._rows = 0
         self._behind: Any = None
+        self._disk: Any = None
         self._trusted = frozenset(trusted)
 
     def write(self, table: Any) -> None:
@@ -143,19 +144,20 @@ class TableWriter:
             return
         if not frame.height:
             return
-        import numpy as np
-
         # rows as JSON objects, from Rust: one a line, the line ends then turned into the
         # commas between them (a JSON row holds no raw newline: strings escape theirs). The
         # streaming engine's writer spreads the work over polars' threads (the same bytes
         # as write_ndjson, in about two thirds of the time)
         text = io.BytesIO()
         frame.lazy().sink_ndjson(text)
-        rows = np.frombuffer(text.getbuffer(), np.uint8)
-        rows[rows == ord("\n")] = ord(",")
+        rows = text.getvalue()[:-1].replace(b"\n", b",")
+        if self._disk is None:  # a third thread puts the text on disk while the next is made
+            from ..common.overlap import WriteBehind
+
+            self._disk = WriteBehind(self._sink.write)
         if not first:
-            self._sink.write(b",")
-        self._sink.write(text.getbuffer()[:-1])
+            self._disk.put(b",")
+        self._disk.put(rows)
 
     def close(self, extra: dict | None = None) -> None:
         """Finish the file; for JSON, `extra` (plain data) follows the rows."""
@@ -163,6 +165,8 @@ class TableWriter:
 
         if self._behind is not None:
             self._behind.close()
+        if self._disk is not None:
+            self._disk.close()
 
         if self.kind == "json":
             if self._sink is None:
