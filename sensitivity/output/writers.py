@@ -94,14 +94,7 @@ def json_rows(
     arrays = {k: np.asarray(v) for k, v in columns.items()}
     used = _used(arrays, layout)
     if used and all(_rust_ready(arrays, spec) for spec in layout):
-        from ..common.overlap import read_ahead
-
-        # the next batch is built (polars, without the GIL) while the caller writes this one
-        rows = read_ahead(_rows_in_rust(arrays, layout, used))
-        try:
-            yield from rows
-        finally:
-            rows.close()
+        yield from _rows_in_rust(arrays, layout, used)
     else:
         yield from _rows_in_python(arrays, layout)
 
@@ -153,36 +146,59 @@ def _template(columns: Mapping[str, np.ndarray], spec: Sequence[tuple[str, Any]]
     pieces[-1] += "}"
 
 
+#: Batches of rows built at once in Rust, while the caller writes the one before.
+AHEAD = 2
+
+
 def _rows_in_rust(columns: Mapping[str, np.ndarray], layout: Sequence[tuple[str, Any]],
                   used: list[str]) -> Iterator[bytes]:  # fmt: skip
     """Rows as polars concatenates them: each value cast to text in Rust (polars' shortest
-    round-trip floats, the same bytes as orjson's) between the row's fixed pieces."""
+    round-trip floats, the same bytes as orjson's) between the row's fixed pieces. Batches
+    are built AHEAD at a time in worker threads (polars runs without the GIL), in order."""
+    from collections import deque
+    from concurrent.futures import ThreadPoolExecutor
+
     import polars as pl
-    import pyarrow as pa
 
     pieces = [","]  # every row opens with the comma after the row before
     _template(columns, layout, pieces)
     names = list(dict.fromkeys(used))
     frame = pl.DataFrame({name: columns[name] for name in names})
-    floats = [name for name in names if columns[name].dtype.kind == "f"]
-    for start in range(0, frame.height, BATCH_ROWS):
+
+    def batch(start: int) -> bytes:
         stop = min(frame.height, start + BATCH_ROWS)
-        finite = {name: bool(np.isfinite(columns[name][start:stop]).all()) for name in floats}
         parts = []
         for piece, name in zip(pieces, used, strict=False):
             value = pl.col(name).cast(pl.String)
-            if not finite.get(name, True):  # NaN and infinities are null, as orjson writes them
+            if columns[name].dtype.kind == "f" and not np.isfinite(columns[name][start:stop]).all():
+                # NaN and infinities are null, as orjson writes them
                 value = pl.when(pl.col(name).is_finite()).then(value).otherwise(pl.lit("null"))
             parts += [pl.lit(piece), value]
         parts.append(pl.lit(pieces[-1]))
         rows = frame.slice(start, stop - start).select(pl.concat_str(parts)).to_series()
-        text = rows.to_arrow()  # one Arrow string array: its data buffer holds the rows
-        buffers = text.buffers()
-        wide = pa.types.is_large_string(text.type)
-        offsets = np.frombuffer(buffers[1], np.int64 if wide else np.int32)
-        offsets = offsets[text.offset : text.offset + len(text) + 1]
-        first = int(offsets[0]) + (0 if start else 1)
-        yield buffers[2][first : int(offsets[-1])].to_pybytes()
+        return _text_of(rows, skip=0 if start else 1)  # the first row has no comma before
+
+    with ThreadPoolExecutor(AHEAD) as pool:
+        pending: deque = deque()
+        for start in range(0, frame.height, BATCH_ROWS):
+            pending.append(pool.submit(batch, start))
+            if len(pending) > AHEAD:
+                yield pending.popleft().result()
+        while pending:
+            yield pending.popleft().result()
+
+
+def _text_of(rows: Any, skip: int = 0) -> bytes:
+    """A polars String series' values run together, as bytes (from its Arrow data buffer),
+    less the first `skip` bytes."""
+    import pyarrow as pa
+
+    text = rows.to_arrow()
+    buffers = text.buffers()
+    wide = pa.types.is_large_string(text.type)
+    offsets = np.frombuffer(buffers[1], np.int64 if wide else np.int32)
+    offsets = offsets[text.offset : text.offset + len(text) + 1]
+    return buffers[2][int(offsets[0]) + skip : int(offsets[-1])].to_pybytes()
 
 
 def _rows_in_python(
