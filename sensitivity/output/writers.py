@@ -94,9 +94,8 @@ def json_rows(
     arrays = {k: np.asarray(v) for k, v in columns.items()}
     used = _used(arrays, layout)
     if used and all(_rust_ready(arrays, spec) for spec in layout):
-        yield from _rows_in_rust(arrays, layout, used)
-    else:
-        yield from _rows_in_python(arrays, layout)
+        return _rows_in_rust(arrays, layout, used)  # started at once, in other threads
+    return _rows_in_python(arrays, layout)
 
 
 def _used(columns: Mapping[str, np.ndarray], spec: Sequence[tuple[str, Any]]) -> list[str]:
@@ -157,6 +156,7 @@ def _rows_in_rust(columns: Mapping[str, np.ndarray], layout: Sequence[tuple[str,
     are built AHEAD at a time in worker threads (polars runs without the GIL), in order."""
     from collections import deque
     from concurrent.futures import ThreadPoolExecutor
+    from itertools import islice
 
     import polars as pl
 
@@ -178,14 +178,20 @@ def _rows_in_rust(columns: Mapping[str, np.ndarray], layout: Sequence[tuple[str,
         rows = frame.slice(start, stop - start).select(pl.concat_str(parts)).to_series()
         return _text_of(rows, skip=0 if start else 1)  # the first row has no comma before
 
-    with ThreadPoolExecutor(AHEAD) as pool:
-        pending: deque = deque()
-        for start in range(0, frame.height, BATCH_ROWS):
-            pending.append(pool.submit(batch, start))
-            if len(pending) > AHEAD:
-                yield pending.popleft().result()
-        while pending:
-            yield pending.popleft().result()
+    starts = iter(range(0, frame.height, BATCH_ROWS))
+    pool = ThreadPoolExecutor(AHEAD)
+    pending = deque(pool.submit(batch, start) for start in islice(starts, AHEAD))
+
+    def drain() -> Iterator[bytes]:
+        try:
+            while pending:
+                done = pending.popleft().result()
+                pending.extend(pool.submit(batch, start) for start in islice(starts, 1))
+                yield done
+        finally:
+            pool.shutdown(cancel_futures=True)
+
+    return drain()
 
 
 def _text_of(rows: Any, skip: int = 0) -> bytes:
