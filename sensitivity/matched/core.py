@@ -195,7 +195,8 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     wanted[0] = True
     wanted[starts + np.arange(count.sum())] = True
     ks = np.flatnonzero(wanted)
-    sines = np.sin(np.pi * np.arange(n_fine) / n_fine)  # sin(w_j / 2) for each phase j
+    # sin(w_j / 2) for each phase j, from a table when it is shorter than the phases wanted
+    sines = np.sin(np.pi * np.arange(n_fine) / n_fine) if n_fine < ks.size * vals.size else None
     # B = (1/L) [T_0 + 2 Re sum_{k > 0} T_k], T_k = phi_k exp(-i w_k t) G_k.
     span = hi - t + 1
     centre = np.expm1(-theta * span) / np.expm1(-theta) if theta > 0 else span  # G_0
@@ -205,7 +206,7 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
         # log(1 + p (e^{i w v} - 1)) in real arithmetic: |.|^2 = 1 - 4 p (1 - p) sin^2(w v / 2)
         # and its argument. |phi| itself, not only its bound exp(-A), is below exp(-DROP) at
         # most frequencies kept so far when ranks are tied: those are left out before the rest.
-        sine = sines[turn]
+        sine = sines[turn] if sines is not None else np.sin(np.pi * turn / n_fine)
         sine2 = sine * sine
         with np.errstate(divide="ignore"):  # a factor of zero: log |phi| is -inf
             modulus = 0.5 * np.log1p(-4 * ps * (1 - ps) * sine2) @ mult
