@@ -195,18 +195,27 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     wanted[0] = True
     wanted[starts + np.arange(count.sum())] = True
     ks = np.flatnonzero(wanted)
-    # sin(w_j / 2) for each phase j, from a table when it is shorter than the phases wanted
-    sines = np.sin(np.pi * np.arange(n_fine) / n_fine) if n_fine < ks.size * vals.size else None
     # B = (1/L) [T_0 + 2 Re sum_{k > 0} T_k], T_k = phi_k exp(-i w_k t) G_k.
     span = hi - t + 1
     centre = np.expm1(-theta * span) / np.expm1(-theta) if theta > 0 else span  # G_0
     out = 0.0
+    shrink = -4 * ps * (1 - ps)  # |1 + p (e^{ix} - 1)|^2 = 1 + shrink sin^2(x / 2)
+    heavy = np.argsort(mult * shrink)[:8]  # the ranks that weigh most in log |phi|
+
+    def sine_of(phase: np.ndarray) -> np.ndarray:  # sin(w v / 2) from the exact integer phase
+        return np.sin(np.pi * phase / n_fine)
+
     for chunk in np.array_split(ks, max(1, ks.size * vals.size // 2**21)):
+        # |phi| itself, not only its bound exp(-A), is below exp(-DROP) at most frequencies
+        # kept so far when ranks are tied: the heaviest ranks' part of log |phi| (each part
+        # is <= 0) rules most of them out first, then the whole sum the rest
+        with np.errstate(divide="ignore"):  # a factor of zero: log |phi| is -inf
+            part = np.log1p(shrink[heavy] * sine_of((chunk[:, None] * vals[heavy]) % n_fine) ** 2)
+        chunk = chunk[0.5 * part @ mult[heavy] >= -DROP]
         turn = (chunk[:, None] * vals[None, :]) % n_fine  # exact integer phase
         # log(1 + p (e^{i w v} - 1)) in real arithmetic: |.|^2 = 1 - 4 p (1 - p) sin^2(w v / 2)
-        # and its argument. |phi| itself, not only its bound exp(-A), is below exp(-DROP) at
-        # most frequencies kept so far when ranks are tied: those are left out before the rest.
-        sine = sines[turn] if sines is not None else np.sin(np.pi * turn / n_fine)
+        # and its argument
+        sine = sine_of(turn)
         sine2 = sine * sine
         with np.errstate(divide="ignore"):  # a factor of zero: log |phi| is -inf
             modulus = 0.5 * np.log1p(-4 * ps * (1 - ps) * sine2) @ mult
