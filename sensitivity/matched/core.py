@@ -200,18 +200,24 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     centre = np.expm1(-theta * span) / np.expm1(-theta) if theta > 0 else span  # G_0
     out = 0.0
     shrink = -4 * ps * (1 - ps)  # |1 + p (e^{ix} - 1)|^2 = 1 + shrink sin^2(x / 2)
-    heavy = np.argsort(mult * shrink)[:8]  # the ranks that weigh most in log |phi|
+    heavy = np.argsort(mult * shrink)  # the ranks by their weight in log |phi|, heaviest first
 
     def sine_of(phase: np.ndarray) -> np.ndarray:  # sin(w v / 2) from the exact integer phase
         return np.sin(np.pi * phase / n_fine)
 
     for chunk in np.array_split(ks, max(1, ks.size * vals.size // 2**21)):
         # |phi| itself, not only its bound exp(-A), is below exp(-DROP) at most frequencies
-        # kept so far when ranks are tied: the heaviest ranks' part of log |phi| (each part
-        # is <= 0) rules most of them out first, then the whole sum the rest
-        with np.errstate(divide="ignore"):  # a factor of zero: log |phi| is -inf
-            part = np.log1p(shrink[heavy] * sine_of((chunk[:, None] * vals[heavy]) % n_fine) ** 2)
-        chunk = chunk[0.5 * part @ mult[heavy] >= -DROP]
+        # kept so far when ranks are tied: the parts of log |phi| (each <= 0), heaviest ranks
+        # first, rule them out a few ranks at a time; then the whole sum, on what is left
+        part = np.zeros(chunk.size)
+        for block in (heavy[:4], heavy[4:8], heavy[8:16], heavy[16:]):
+            with np.errstate(divide="ignore"):  # a factor of zero: log |phi| is -inf
+                logs = np.log1p(
+                    shrink[block] * sine_of((chunk[:, None] * vals[block]) % n_fine) ** 2
+                )
+            part += 0.5 * logs @ mult[block]
+            alive = part >= -DROP
+            chunk, part = chunk[alive], part[alive]
         turn = (chunk[:, None] * vals[None, :]) % n_fine  # exact integer phase
         # log(1 + p (e^{i w v} - 1)) in real arithmetic: |.|^2 = 1 - 4 p (1 - p) sin^2(w v / 2)
         # and its argument
