@@ -209,6 +209,18 @@ def model_option(help_text: str, default: str | None = None) -> Callable:
     )
 
 
+ERRORS_HELP = (
+    "Data input: the standard errors of the fit: classical, hc0, hc1, hc2, hc3 (hc1-hc3 for "
+    "ols only) or cluster:COLUMN. Default: hc0 for a poisson fit of a 0/1 outcome (modified "
+    "Poisson, Zou 2004), classical otherwise. The output names the choice."
+)
+
+
+def errors_option(f: Callable) -> Callable:
+    """--errors: the standard errors of a fit made from data."""
+    return click.option("--errors", metavar="TYPE", default=None, help=ERRORS_HELP)(f)
+
+
 def exclusive(*options: tuple[str, object]) -> None:
     """A usage error naming both options when two that cannot go together are given."""
     given = [name for name, value in options if value is not None]

@@ -54,6 +54,18 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
     "and the outcome's multiples; default 1).",
 )
 @click.option(
+    "--benchmark-r2",
+    "benchmark_r2",
+    nargs=3,
+    multiple=True,
+    metavar="NAME[:K[:K_OUTCOME]] R2_TREATMENT R2_OUTCOME",
+    help="A benchmark from a paper's published numbers (repeatable; summary or data input): "
+    "each side a partial R², or t:T:DOF, its t statistic and that model's degrees of freedom "
+    "(t:T on the outcome side uses --dof). R² = t²/(t² + dof). NAME:K sets the multiple "
+    "(NAME:1:3 the two sides'), as for --benchmark. A treatment side not published may be "
+    "written assumed:R2, and the output states the assumption.",
+)
+@click.option(
     "--r2-treatment",
     multiple=True,
     type=float,
@@ -87,6 +99,7 @@ def partial_r2_cmd(
     reduce_by: Any,
     alpha: Any,
     benchmarks: Any,
+    benchmark_r2: Any,
     r2_treatment: Any,
     r2_outcome: Any,
     sd: Any,
@@ -109,6 +122,8 @@ def partial_r2_cmd(
       sensitivity partial-r2 --data demo/harbourside_bp.csv \\
           --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
           --treatment commute_min --benchmark smoker --benchmark smoker:2 --plot contours.png
+      sensitivity partial-r2 --estimate 0.114 --se 0.027 --dof 1192 \\
+          --benchmark-r2 smoker t:6.1:1193 t:3.9 --benchmark-r2 smoker:2 t:6.1:1193 t:3.9
     """
     show_warnings()
     exclusive(("--se", se), ("--t", t_stat))
@@ -170,7 +185,10 @@ def partial_r2_cmd(
             click.echo("", err=True)
     else:
         if benchmarks:
-            raise click.UsageError("--benchmark needs data input (--data)")
+            raise click.UsageError(
+                "--benchmark needs data input (--data); from a paper's tables give the "
+                "covariate's published numbers with --benchmark-r2 NAME R2_TREATMENT R2_OUTCOME"
+            )
         if estimate is None:
             raise click.UsageError("summary input needs --estimate")
         if dof is None:
@@ -189,6 +207,10 @@ def partial_r2_cmd(
             contrast=contrast,
             sd_outcome=sd,
         )
+    if benchmark_r2:
+        from sensitivity.partial_r2.published import apply_text_benchmarks
+
+        result = apply_text_benchmarks(result, benchmark_r2)
     emit(result, fmt, outputs)
     if plots:
         from sensitivity.partial_r2.figures import partial_r2_contours
