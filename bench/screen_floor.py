@@ -1,9 +1,11 @@
 """A reference for `make bench`, not a baseline: polars alone reading the screen's file and
-writing a table of the same shape and about the same size (the input's cells and the screen's
-eleven columns, within 5% of its bytes) with nothing computed, through its streaming engine.
-No screen can be faster than reading and writing its own output, so this bounds the speed-up
-any implementation could show here. (The streaming engine's read-ahead grows with the file;
-the screen reads in pieces instead.) Usage: python bench/screen_floor.py SRC DST"""
+writing a table of the same shape and about the same size (the input's cells, the cells as read
+and the screen's eleven columns, within 5% of its bytes) with nothing computed, through its
+streaming engine. No screen can be faster than reading and writing its own output, so this
+bounds the speed-up any implementation could show here. (The streaming engine's read-ahead
+grows with the file; the screen reads in pieces instead.) DST's extension picks the format:
+.csv, .parquet, or .json (rows as NDJSON, polars' fastest JSON writer).
+Usage: python bench/screen_floor.py SRC DST"""
 
 import sys
 
@@ -19,23 +21,32 @@ def main(src: str, dst: str) -> None:
         return pl.when(kept).then(number(name)).otherwise(number(name).sqrt())
 
     empty = ["partial_r2", "robustness_value", "robustness_value_alpha"]
-    (
-        pl.scan_csv(src, infer_schema=False)
-        .with_columns(
-            pl.col("scale").alias("scale_used"),
-            # the limits as read, and full-length numbers where the screen computes them (a
-            # square root has all 17 digits): about the screen's own bytes
-            as_read_or_long("estimate").alias("rr"),
-            as_read_or_long("lower").alias("rr_lower"),
-            as_read_or_long("upper").alias("rr_upper"),
-            number("estimate").sqrt().alias("evalue"),
-            number("lower").sqrt().alias("evalue_ci"),
-            *(pl.lit(None, pl.Float64).alias(name) for name in empty),
-            pl.lit("").alias("error"),
-            pl.lit("").alias("notes"),
-        )
-        .sink_csv(dst)
+    frame = pl.scan_csv(src, infer_schema=False).with_columns(
+        # the cells as read, echoed beside the input as the screen echoes them (as_read_*)
+        *(
+            pl.col(name).alias(f"as_read_{name}")
+            for name in ("scale", "estimate", "lower", "upper")
+        ),
+        pl.lit("").alias("as_read_level"),
+        pl.col("outcome").alias("as_read_outcome"),
+        pl.col("scale").alias("scale_used"),
+        # the limits as read, and full-length numbers where the screen computes them (a
+        # square root has all 17 digits): about the screen's own bytes
+        as_read_or_long("estimate").alias("rr"),
+        as_read_or_long("lower").alias("rr_lower"),
+        as_read_or_long("upper").alias("rr_upper"),
+        number("estimate").sqrt().alias("evalue"),
+        number("lower").sqrt().alias("evalue_ci"),
+        *(pl.lit(None, pl.Float64).alias(name) for name in empty),
+        pl.lit("").alias("error"),
+        pl.lit("").alias("notes"),
     )
+    if dst.endswith(".parquet"):
+        frame.sink_parquet(dst)
+    elif dst.endswith(".json"):
+        frame.sink_ndjson(dst)
+    else:
+        frame.sink_csv(dst)
 
 
 if __name__ == "__main__":

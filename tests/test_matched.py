@@ -269,11 +269,15 @@ def test_ten_thousand_pairs_exact(digits):
     assert exact.estimate_low is not None  # the Hodges-Lehmann range by counting
 
 
+@pytest.mark.parametrize("distinct", [0, 2000])
 @pytest.mark.parametrize("seed", range(12))
-def test_walsh_order_statistics_by_counting_equal_sorting(seed, monkeypatch):
-    # The counting route (used above 4,000 pairs) against all Walsh averages sorted, on data
-    # with heavy ties, zeros and negative values.
+def test_walsh_order_statistics_by_counting_equal_sorting(seed, distinct, monkeypatch):
+    # The routes used above 4,000 pairs, counting (untied data) and listing the averages of
+    # distinct values with their multiplicities (tied data), against all Walsh averages
+    # sorted, on data with heavy ties, zeros and negative values.
     import sensitivity.matched.core as core
+
+    monkeypatch.setattr(core, "WALSH_DISTINCT", distinct)
 
     rng = np.random.default_rng(seed)
     n = int(rng.integers(2, 600))

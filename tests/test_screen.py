@@ -786,6 +786,9 @@ def test_python_entry_points_refuse_bad_input_with_the_argument_named():
     with pytest.raises(InputError, match="`frames` must yield polars DataFrames; got dict"):
         list(screen_frames([{"scale": "rr"}]))
     table = pl.DataFrame({"scale": ["rr"], "estimate": ["2"]})
+    # a later piece is looked at in the second thread; the error is raised in the caller's
+    with pytest.raises(InputError, match="`frames` must yield polars DataFrames; got dict"):
+        list(screen_frames([table, {"scale": "rr"}]))
     with pytest.raises(InputError, match=r"`confounders` must be pairs \(rr_treatment"):
         screen_table(table, confounders=[(2,)])
     with pytest.raises(InputError, match="`table` must be a pandas, polars or pyarrow table"):

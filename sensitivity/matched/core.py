@@ -191,14 +191,45 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     count = np.maximum(np.minimum(np.floor((cells + 1) * n_fine / m).astype(np.int64), half)
                        - first + 1, 0)  # fmt: skip
     starts = np.repeat(first - np.cumsum(count) + count, count)
-    ks = np.unique(np.concatenate([[0], starts + np.arange(count.sum())]))
+    wanted = np.zeros(half + 1, bool)  # the frequencies 0..half kept, in order, once each
+    wanted[0] = True
+    wanted[starts + np.arange(count.sum())] = True
+    ks = np.flatnonzero(wanted)
     # B = (1/L) [T_0 + 2 Re sum_{k > 0} T_k], T_k = phi_k exp(-i w_k t) G_k.
     span = hi - t + 1
     centre = np.expm1(-theta * span) / np.expm1(-theta) if theta > 0 else span  # G_0
     out = 0.0
+    shrink = -4 * ps * (1 - ps)  # |1 + p (e^{ix} - 1)|^2 = 1 + shrink sin^2(x / 2)
+    heavy = np.argsort(mult * shrink)  # the ranks by their weight in log |phi|, heaviest first
+
+    def sine_of(phase: np.ndarray) -> np.ndarray:  # sin(w v / 2) from the exact integer phase
+        return np.sin(np.pi * phase / n_fine)
+
     for chunk in np.array_split(ks, max(1, ks.size * vals.size // 2**21)):
+        # |phi| itself, not only its bound exp(-A), is below exp(-DROP) at most frequencies
+        # kept so far when ranks are tied: the parts of log |phi| (each <= 0), heaviest ranks
+        # first, rule them out a few ranks at a time; then the whole sum, on what is left
+        part = np.zeros(chunk.size)
+        for block in (heavy[:4], heavy[4:8], heavy[8:16], heavy[16:]):
+            with np.errstate(divide="ignore"):  # a factor of zero: log |phi| is -inf
+                logs = np.log1p(
+                    shrink[block] * sine_of((chunk[:, None] * vals[block]) % n_fine) ** 2
+                )
+            part += 0.5 * logs @ mult[block]
+            alive = part >= -DROP
+            chunk, part = chunk[alive], part[alive]
         turn = (chunk[:, None] * vals[None, :]) % n_fine  # exact integer phase
-        log_phi = np.log1p(ps * np.expm1(2j * np.pi * turn / n_fine)) @ mult
+        # log(1 + p (e^{i w v} - 1)) in real arithmetic: |.|^2 = 1 - 4 p (1 - p) sin^2(w v / 2)
+        # and its argument
+        sine = sine_of(turn)
+        sine2 = sine * sine
+        with np.errstate(divide="ignore"):  # a factor of zero: log |phi| is -inf
+            modulus = 0.5 * np.log1p(-4 * ps * (1 - ps) * sine2) @ mult
+        kept = modulus >= -DROP
+        chunk, modulus, sine, sine2 = chunk[kept], modulus[kept], sine[kept], sine2[kept]
+        cosine = np.cos(np.pi * turn[kept] / n_fine)
+        angle = np.arctan2(2 * ps * sine * cosine, 1 - 2 * ps * sine2) @ mult
+        log_phi = modulus + 1j * angle
         z = np.exp(-theta - 2j * np.pi * chunk / n_fine)
         with np.errstate(divide="ignore", invalid="ignore"):
             geo = np.where(chunk == 0, centre, -np.expm1(span * np.log(z)) / (1 - z))
@@ -246,6 +277,9 @@ def signed_rank_bounds(differences: ArrayLike, gamma: ArrayLike, *, method: str 
 #: Up to this many pairs the Walsh averages (n (n + 1) / 2 values) are held in memory; above
 #: it their order statistics are found by counting, in memory proportional to n.
 WALSH_IN_MEMORY = 4000
+#: Above WALSH_IN_MEMORY pairs, differences with at most this many distinct values (tied, as
+#: rounded measurements are) have their averages listed once per pair of distinct values.
+WALSH_DISTINCT = 2000
 #: The most pairs the Hodges-Lehmann range takes (about 3 s for 11 Gammas at the most).
 MAX_HL_PAIRS = 20_000
 
@@ -291,6 +325,16 @@ def _walsh_order_statistics(d: np.ndarray, index: np.ndarray) -> np.ndarray:
     if n <= WALSH_IN_MEMORY:
         i, j = np.triu_indices(n)
         return np.partition((d[i] + d[j]) / 2, np.unique(index))[index]
+    values, counts = np.unique(d, return_counts=True)
+    if values.size <= WALSH_DISTINCT:
+        # Tied differences (values rounded as recorded): the averages of distinct values, each
+        # as many times as pairs give it (c (c + 1) / 2 within a value, c_a c_b across two)
+        i, j = np.triu_indices(values.size)
+        averages = (values[i] + values[j]) / 2  # the very doubles the pairs give
+        times = np.where(i == j, counts[i] * (counts[i] + 1) // 2, counts[i] * counts[j])
+        order = np.argsort(averages, kind="stable")
+        reached = np.cumsum(times[order])  # how many averages up to each, in order
+        return averages[order][np.searchsorted(reached, index, side="right")]
     k = index + 1  # the k-th smallest is the least x with count(x) >= k
     lo = np.full(k.shape, _ordered(np.nextafter(d[0], -np.inf)))
     hi = np.full(k.shape, _ordered(d[-1]))

@@ -9,11 +9,13 @@ kind.
 from __future__ import annotations
 
 from collections.abc import Iterable, Iterator, Mapping, Sequence
+from itertools import chain
 from typing import Any
 
 import numpy as np
 
 from ..common.errors import InputError
+from ..common.overlap import read_ahead
 from .core import (
     FLAG_WORDS,
     NUMERIC,
@@ -156,20 +158,43 @@ def screen_frames(
         decimal_comma=bool(decimal_comma),
     )
     names = computed_names(options)
-    mapping: dict[str, str] | None = None
+    frames = iter(frames)
+    first = next(frames, None)
+    if first is None:
+        return
+    _check_frame(first)
+    header = list(first.columns)
+    mapping = _mapping(columns, header, from_text)
+    clash = [n for n in names if n in header]
+    if clash:
+        raise InputError(
+            f"the table already has columns named {', '.join(clash)}, which the "
+            "screen adds; rename them first"
+        )
+    # each frame's routes (polars, without the GIL) are found in a second thread while this
+    # thread computes the frame before it
+    routed = read_ahead(_routed(chain([first], frames), mapping, from_text))
+    try:
+        for frame, found in routed:
+            yield _screen_frame(frame, mapping, options, from_text, names, tally, found)
+    finally:
+        routed.close()
+
+
+def _check_frame(frame: Any) -> None:
+    if not hasattr(frame, "columns") or not hasattr(frame, "with_columns"):
+        raise InputError(f"`frames` must yield polars DataFrames; got {type(frame).__name__}")
+
+
+def _routed(frames: Iterable[Any], mapping: dict[str, str], from_text: str | None
+            ) -> Iterator[tuple[Any, tuple]]:  # fmt: skip
+    """Each frame with its rows' routes, scales and numbers (see `plain.routes`)."""
+    from .plain import no_routes, routes
+
     for frame in frames:
-        if not hasattr(frame, "columns") or not hasattr(frame, "with_columns"):
-            raise InputError(f"`frames` must yield polars DataFrames; got {type(frame).__name__}")
-        if mapping is None:
-            header = list(frame.columns)
-            mapping = _mapping(columns, header, from_text)
-            clash = [n for n in names if n in header]
-            if clash:
-                raise InputError(
-                    f"the table already has columns named {', '.join(clash)}, which the "
-                    "screen adds; rename them first"
-                )
-        yield _screen_frame(frame, mapping, options, from_text, names, tally)
+        _check_frame(frame)
+        found = routes(frame, mapping) if from_text is None else no_routes(frame.height)
+        yield frame, found
 
 
 #: Columns only the core fills (regression rows): all missing in a frame of plain rows.
@@ -177,16 +202,16 @@ _CORE_ONLY = ("partial_r2", "robustness_value", "robustness_value_alpha")
 
 
 def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_text: str | None,
-                  names: list[str], tally: Tally | None) -> Any:  # fmt: skip
-    """One frame with the computed columns appended (see `screen_frames`)."""
+                  names: list[str], tally: Tally | None, found: tuple) -> Any:  # fmt: skip
+    """One frame, with its routes `found`, and the computed columns appended (see
+    `screen_frames`)."""
     import polars as pl
 
     from .core import SCREEN_SCALES, confounder_states
-    from .plain import ROUTE_NOTES, compute_plain, no_routes, routes
+    from .plain import ROUTE_NOTES, compute_plain
 
     n = frame.height
-    # free text is read by the core, row by row
-    route, scale, values = routes(frame, mapping) if from_text is None else no_routes(n)
+    route, scale, values = found
     out = compute_plain(route, values)
     out |= {k: np.full(n, np.nan) for k in _CORE_ONLY}
     plain = (route >= 0).any()

@@ -77,6 +77,12 @@ class TippingGrid(Result):
 
     def tipping_points(self) -> list[dict]:
         """For each value of the other varying axes, the least value of the solved axis."""
+        if "_tipping_points" not in self.__dict__:  # worked out once (the JSON, the document)
+            object.__setattr__(self, "_tipping_points", self._find_tipping_points())
+        return [{k: dict(v) if isinstance(v, dict) else v for k, v in row.items()}
+                for row in self.__dict__["_tipping_points"]]  # fmt: skip
+
+    def _find_tipping_points(self) -> list[dict]:
         j = self.solved
         if j is None:
             return []
