@@ -243,20 +243,25 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
     return replace(res, notes=(note, *res.notes), model=info)
 
 
-def fit(data: Any, formula: str, model: str, event: str | None = None) -> Any:
-    """Fit `formula` on a DataFrame with the statsmodels model `model` names; InputError for
-    a formula, outcome or event the fit cannot use, a model that does not converge, and
-    perfect separation."""
-    import statsmodels.formula.api as smf
-
+def check_model(model: str, event: str | None, columns: Any) -> None:
+    """Refuse an unknown model, and an event column missing, misplaced or not in the data."""
     if model not in KINDS:
         raise InputError(f"`model` must be one of {', '.join(KINDS)}; got {model!r}")
     if model == "cox" and event is None:
         raise InputError("`event` is needed with model cox: the column that is 1 for an event")
     if model != "cox" and event is not None:
         raise InputError(f"`event` applies to model cox only; got model {model}")
-    if event is not None and event not in data.columns:
+    if event is not None and event not in list(columns):
         raise InputError(f"`event` {event!r} is not a column of the data")
+
+
+def fit(data: Any, formula: str, model: str, event: str | None = None) -> Any:
+    """Fit `formula` on a DataFrame with the statsmodels model `model` names; InputError for
+    a formula, outcome or event the fit cannot use, a model that does not converge, and
+    perfect separation."""
+    import statsmodels.formula.api as smf
+
+    check_model(model, event, data.columns)
     fitters = {
         "ols": lambda: smf.ols(formula, data).fit(),
         "logit": lambda: smf.logit(formula, data).fit(disp=0),
@@ -302,7 +307,6 @@ def evalue_from_data(
     ``ols`` gives the E-value of the coefficient through the standardized difference (the
     outcome's SD from the data); the others as `evalue_from_model`.
     """
-    from dataclasses import replace
 
     from .design import check_names
 
@@ -321,12 +325,37 @@ def evalue_from_data(
     sd = float(np.std(y, ddof=1))
     b, se = float(np.asarray(results.params)[j]), float(np.asarray(results.bse)[j])
     res = evalue("md", b, se=se, sd=sd, contrast=contrast)
-    info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment}
+    return _ols_evalue(res, b, se, sd, int(results.nobs), treatment)
+
+
+def _ols_evalue(res: EValueResult, b: float, se: float, sd: float, n: int,
+                treatment: str) -> EValueResult:  # fmt: skip
+    """An OLS coefficient's E-value (through the standardized difference) with its note."""
+    from dataclasses import replace
+
+    info = {"kind": "ols", "n": n, "outcome_share": None, "treatment": treatment}
     note = (
-        f"From a fitted OLS model (n = {int(results.nobs):,}): coefficient {b:.4g} (se "
+        f"From a fitted OLS model (n = {n:,}): coefficient {b:.4g} (se "
         f"{se:.3g}); the outcome's SD in the data is {sd:.4g}."
     )
     return replace(res, notes=(note, *res.notes), model=info)
+
+
+def ols_report_from_data(data: Any, formula: str, treatment: str, *, contrast: float = 1.0,
+                         event: str | None = None) -> Any:  # fmt: skip
+    """The partial-R² result of an OLS `formula` on `data` (a file or a DataFrame) with the
+    coefficient's E-value beside it, as `evalue_from_data(..., "ols")` gives it, from one pass
+    over the data (`onepass.partial_r2_one_pass`): the report's data route fits once."""
+    from dataclasses import replace
+
+    from .onepass import partial_r2_one_pass
+
+    check_model("ols", event, ())
+    pr2 = partial_r2_one_pass(data, formula, treatment, contrast=contrast)
+    ev = pr2.evalue
+    sd = float(ev.sd)
+    res = _ols_evalue(ev, float(pr2.estimate), float(pr2.se), sd, int(pr2.n), treatment)
+    return replace(pr2, evalue=res)
 
 
 def impact_from_model(results: Any, treatment: str, *, alpha: float = 0.05) -> Any:

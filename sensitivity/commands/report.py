@@ -76,18 +76,14 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
                                   ("--model", model_kind)) if not v]  # fmt: skip
         if missing:
             raise click.UsageError(f"data input needs {', '.join(missing)} as well")
-        from sensitivity.adapters.models import evalue_from_data
+        from sensitivity.adapters.models import evalue_from_data, ols_report_from_data
 
-        res = evalue_from_data(data, formula, treatment, model_kind, event=event,
-                               contrast=contrast, outcome=outcome)  # fmt: skip
-        items = [(label, res)]
-        if model_kind == "ols":
-            from dataclasses import replace
-
-            from sensitivity.adapters.statsmodels import partial_r2_from_data
-
-            pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast)
-            items = [(label, replace(pr2, evalue=res))]
+        if model_kind == "ols":  # one pass gives the partial-R² result and the E-value
+            items = [(label, ols_report_from_data(data, formula, treatment, contrast=contrast,
+                                                  event=event))]  # fmt: skip
+        else:
+            items = [(label, evalue_from_data(data, formula, treatment, model_kind, event=event,
+                                              contrast=contrast, outcome=outcome))]  # fmt: skip
     else:
         if estimate is None:
             raise click.UsageError("summary input needs SCALE and ESTIMATE")
