@@ -29,6 +29,7 @@ from sensitivity.tipping import (
 
 ROOT = Path(__file__).resolve().parent.parent
 
+
 # --------------------------------------------------------------------------- one Document
 def _results():
     ev = evalue("rr", 1.9, (1.3, 2.8)).with_confounders([1.5, 3.0], [2.0, 3.0])

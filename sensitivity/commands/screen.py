@@ -72,6 +72,15 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
     help="Without --output: csv or json puts the screened table on stdout; text, markdown "
     "or latex the summary.",
 )
+@click.option(
+    "--pool",
+    "pool_threshold",
+    type=float,
+    metavar="Q",
+    help="Also pool the screened studies (random effects, Paule-Mandel) and show how much "
+    "common bias would bring the share of true effects beyond Q down to 10%; JSON adds it "
+    "under 'pool'. The pool command has the full options.",
+)
 @plot_options("the distribution of E-values (estimate and interval) by scale")
 def screen_cmd(
     file: str,
@@ -85,6 +94,7 @@ def screen_cmd(
     plots: tuple[str, ...],
     plot_limits: Any,
     plot_marks: Any,
+    pool_threshold: float | None = None,
 ) -> None:
     """Screen a table of published results (CSV, TSV, Excel or Parquet), one row each.
 
@@ -101,6 +111,7 @@ def screen_cmd(
       sensitivity screen demo/published_results.csv --output screened.csv
       sensitivity screen demo/published_results.csv --from-text result \\
           --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
+      sensitivity screen demo/pooled_studies.csv --from-text result --pool 1.1
     """
     from sensitivity.adapters.files import Share, read_frames
     from sensitivity.common.overlap import read_ahead
@@ -122,6 +133,17 @@ def screen_cmd(
         check_table_path(output)
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
+    pooled = None
+    if pool_threshold is not None:  # pooled first: a table that cannot be pooled stops here
+        from sensitivity.adapters.files import read_table
+        from sensitivity.pooling.data import pool_table
+
+        pooled = pool_table(
+            read_table(file, "file"),
+            threshold=pool_threshold,
+            columns=_column_map(column_map) or None,
+            from_text=from_text,
+        )
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
     stream = screen_frames(
         frames,
@@ -145,7 +167,10 @@ def screen_cmd(
         click.echo("", err=True)
     summary = tally.result(tuple(confounders), click.format_filename(file))
     if writer is not None:
-        writer.close({"summary": summary.to_dict()} if writer.kind == "json" else None)
+        extra = {"summary": summary.to_dict()}
+        if pooled is not None:
+            extra["pool"] = pooled.to_dict()
+        writer.close(extra if writer.kind == "json" else None)
     if output is not None:
         click.echo(f"Wrote {output}", err=True)
     document = summary.document()
@@ -155,6 +180,12 @@ def screen_cmd(
             click.echo(document.sentence, err=True)
     else:
         click.echo(document.sentence, err=True)
+    if pooled is not None:
+        shown = output is None and fmt not in ("csv", "json")
+        if shown:
+            click.echo("\n" + pooled.document().render(fmt, tables_only=fmt != "text"))
+        if not shown or fmt != "text":
+            click.echo(pooled.sentence(), err=True)
     if plots:
         from sensitivity.screen.figures import screen_figure
 
