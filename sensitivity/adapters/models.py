@@ -23,6 +23,12 @@ SHOWN = {"logit": "logistic", "log-binomial": "log-binomial", "poisson": "Poisso
          "negbin": "negative binomial", "cox": "Cox", "ols": "OLS"}  # fmt: skip
 
 
+def model_kind_scale(kind: str) -> str:
+    """The effect scale of a model kind: or, rr, hr (md for OLS)."""
+    return {"logit": "or", "log-binomial": "rr", "poisson": "rr", "negbin": "rr",
+            "cox": "hr", "ols": "md"}[kind]  # fmt: skip
+
+
 def model_kind(results: Any) -> tuple[str, str]:
     """(model kind, effect scale) of a fitted model; InputError for one we do not route."""
     model = getattr(results, "model", None)
@@ -309,7 +315,12 @@ def evalue_from_data(
     """
 
     from .design import check_names
+    from .glm import evalue_one_pass, supports
 
+    check_model(model, event, getattr(data, "columns", [event]))
+    if supports(formula, model):  # logit and Poisson: fitted in passes over pieces
+        return evalue_one_pass(data, formula, treatment, model, contrast=contrast, alpha=alpha,
+                               outcome=outcome)  # fmt: skip
     if not hasattr(data, "columns"):
         from .files import read_table
 

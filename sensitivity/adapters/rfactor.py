@@ -199,12 +199,21 @@ class Design:
     used: int
 
 
+#: Called with a piece's kept rows (outcome first, then the factor's slots) and extra columns.
+Sink = Callable[[np.ndarray, dict[str, tuple[str, Any]]], None]
+
+
 # --------------------------------------------------------------------------- plain formulas
 def plain_design(source: Source, outcome: str, terms: list[Term], intercept: bool,
-                  progress: Callable[[int], None]) -> Design:  # fmt: skip
+                  progress: Callable[[int], None], sink: Sink | None = None,
+                  extra: tuple[str, ...] = ()) -> Design:  # fmt: skip
     """The design of a plain formula in one pass: numbers as they come, each categorical
-    column's levels as they are met (a new level is a new column of the factor)."""
-    wanted = list(dict.fromkeys([outcome] + [t.column for t in terms]))
+    column's levels as they are met (a new level is a new column of the factor).
+
+    `sink`, if given, is handed each piece's kept rows as read (column 0 the outcome, the
+    others in the factor's slots, before any shift; to be used at once) and the `extra`
+    columns' cells on those rows (missing cells there do not leave a row out)."""
+    wanted = list(dict.fromkeys([outcome] + [t.column for t in terms] + list(extra)))
 
     def build(forced: dict[str, str]) -> Design:
         for term in terms:
@@ -242,11 +251,15 @@ def plain_design(source: Source, outcome: str, terms: list[Term], intercept: boo
                     for i, level in enumerate(term.levels):
                         slot = slots.setdefault(("level", term.name, level), len(slots))
                         parts.append((slot, (codes == i).astype(float)))
+                extras = {name: batch[name] for name in extra}
                 kept = int(keep.sum())
                 block = factor.block(kept, len(slots))
                 top = block.shape[0] - kept
                 for slot, values in parts:
                     block[top:, slot] = values[keep]
+                if sink is not None:
+                    sink(block[top:], {name: _kept_cells(kind, values, keep)
+                                       for name, (kind, values) in extras.items()})  # fmt: skip
                 if intercept:  # numbers less a constant: an offset costs no digits (see _shifted)
                     _shifted(block[top:], [0] + [slots[("x", t.name)] for t in terms
                                                  if not t.categorical], shift)  # fmt: skip
@@ -259,6 +272,14 @@ def plain_design(source: Source, outcome: str, terms: list[Term], intercept: boo
         return _plain_layout(terms, intercept, slots, factor, moments, read, used)
 
     return restarting(build)
+
+
+def _kept_cells(kind: str, values: Any, keep: np.ndarray) -> tuple[str, Any]:
+    if kind in FLOATS:
+        return kind, values[keep]
+    import pyarrow as pa
+
+    return kind, values.filter(pa.array(keep))
 
 
 def _shifted(rows: np.ndarray, columns: list[int], shift: dict[int, float]) -> None:
