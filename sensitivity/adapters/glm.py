@@ -86,7 +86,7 @@ def piece_step(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str
     from .rfactor import fold
 
     rows, mu = weighted_rows(x, y, beta, model)
-    step = Step(fold(np.zeros((0, rows.shape[1])), rows))
+    step = Step(fold(np.zeros((0, rows.shape[1])), rows, overwrite=True))
     if sums:
         scored = x * (y - mu)[:, None]
         step.meat = scored.T @ scored
@@ -268,19 +268,21 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
                 raise InputError(f"`errors` cluster:{cluster}: the column has missing values in "
                                  "rows the fit uses")  # fmt: skip
             codes_scratch.add(codes[:, None].astype(float))
-        weighted, _ = weighted_rows(rows[:, 1:], y, None, model)
-        first.add_rows(weighted[:, [weighted.shape[1] - 1, *range(weighted.shape[1] - 1)]])
+        weighted, _ = weighted_rows(rows[:, 1:], y, None, model)  # [x (slots 1...), z]
+        first.add(np.roll(weighted, 1, axis=1))  # z in the outcome's slot 0
 
     try:
         with one_blas_thread():
             design = plain_design(source, *plain, progress or (lambda rows: None), sink=sink,
-                                  extra=(cluster,) if cluster else ())  # fmt: skip
+                                  extra=(cluster,) if cluster else (), factor=False)  # fmt: skip
         if design.used == 0:
             raise InputError("`data`: no row has a value in every column the formula uses")
         names = design.names
         j = find_treatment(treatment, names, design.groups)
         no_interaction(names[j], names)
-        kept = _kept(design.factor.of(design.slots), design.used)
+        # the rank, from the first step's weighted design (every weight positive)
+        first.widen(max(design.slots, default=0) + 1)
+        kept = _kept(first.of(design.slots), design.used)
         notes: list[str] = []
         if design.read > design.used:
             notes.append(f"{design.read - design.used} of {design.read} rows had missing values "

@@ -102,21 +102,24 @@ class TriangularFactor:
             self.r = np.hstack([self.r, np.zeros((self.r.shape[0], width - self.r.shape[1]))])
 
     def block(self, rows: int, width: int) -> np.ndarray:
-        """A zeroed array to fill with a batch's rows, below the room R takes."""
+        """A zeroed array (Fortran order) to fill with a batch's rows and hand to `add`. (R is
+        no longer stacked on top: `block(...).shape[0] - rows` is 0.)"""
         self.widen(width)
-        return np.zeros((self.r.shape[0] + rows, width), order="F")
+        return np.zeros((rows, width), order="F")
 
-    def add(self, stacked: np.ndarray) -> None:
-        """Fold in a `block` whose lower rows hold a batch."""
-        top, width = self.r.shape
-        if stacked.shape[0] == top or width == 0:
+    def add(self, block: np.ndarray) -> None:
+        """Fold in a `block` holding a batch (used up: it is overwritten)."""
+        if block.shape[0] == 0 or block.shape[1] == 0:
             return
-        self.r = fold(self.r, stacked[top:])
+        self.widen(block.shape[1])
+        self.r = fold(self.r, block, overwrite=True)
 
     def add_rows(self, rows: np.ndarray) -> None:
-        block = self.block(rows.shape[0], rows.shape[1])
-        block[self.r.shape[0] :] = rows
-        self.add(block)
+        """Fold in rows (left as they are)."""
+        if rows.shape[0] == 0 or rows.shape[1] == 0:
+            return
+        self.widen(rows.shape[1])
+        self.r = fold(self.r, rows)
 
     def of(self, columns: list[int]) -> np.ndarray:
         """The R factor of those columns of the design, in that order."""
@@ -137,18 +140,18 @@ def one_blas_thread() -> Iterator[None]:
         yield
 
 
-def fold(r: np.ndarray, rows: np.ndarray) -> np.ndarray:
+def fold(r: np.ndarray, rows: np.ndarray, overwrite: bool = False) -> np.ndarray:
     """The square R factor of [r; rows]: `r` upper triangular (or fewer rows, the rest
-    taken as zero), `rows` any number of rows of the same width. A pure function of its
-    inputs, so pieces folded anywhere (threads, workers) combine by folding their R's."""
+    taken as zero), `rows` any number of rows of the same width (overwritten if `overwrite`
+    and already float64 in Fortran order). A pure function of its inputs otherwise, so pieces
+    folded anywhere (threads, workers) combine by folding their R's."""
     from scipy.linalg import lapack
 
     width = rows.shape[1]
     a = np.zeros((width, width), order="F")
     a[: r.shape[0]] = r[:width]
-    b = np.asfortranarray(rows, dtype=float)
-    if b is rows:
-        b = b.copy(order="F")
+    usable = overwrite and rows.flags.f_contiguous and rows.dtype == np.float64
+    b = rows if usable else np.array(rows, dtype=float, order="F")
     a, _, _, info = lapack.dtpqrt(0, min(16, width), a, b, overwrite_a=1, overwrite_b=1)
     if info != 0:
         raise RuntimeError(f"LAPACK dtpqrt failed (info {info})")
@@ -206,13 +209,15 @@ Sink = Callable[[np.ndarray, dict[str, tuple[str, Any]]], None]
 # --------------------------------------------------------------------------- plain formulas
 def plain_design(source: Source, outcome: str, terms: list[Term], intercept: bool,
                   progress: Callable[[int], None], sink: Sink | None = None,
-                  extra: tuple[str, ...] = ()) -> Design:  # fmt: skip
+                  extra: tuple[str, ...] = (), factor: bool = True) -> Design:  # fmt: skip
     """The design of a plain formula in one pass: numbers as they come, each categorical
     column's levels as they are met (a new level is a new column of the factor).
 
     `sink`, if given, is handed each piece's kept rows as read (column 0 the outcome, the
     others in the factor's slots, before any shift; to be used at once) and the `extra`
-    columns' cells on those rows (missing cells there do not leave a row out)."""
+    columns' cells on those rows (missing cells there do not leave a row out). With `factor`
+    False the rows are not folded (the sink folds its own)."""
+    folding = factor
     wanted = list(dict.fromkeys([outcome] + [t.column for t in terms] + list(extra)))
 
     def build(forced: dict[str, str]) -> Design:
@@ -264,7 +269,8 @@ def plain_design(source: Source, outcome: str, terms: list[Term], intercept: boo
                     _shifted(block[top:], [0] + [slots[("x", t.name)] for t in terms
                                                  if not t.categorical], shift)  # fmt: skip
                 moments.add(block[top:, 0])
-                factor.add(block)
+                if folding:
+                    factor.add(block)
                 read, used = read + rows, used + kept
                 progress(read)
         finally:
