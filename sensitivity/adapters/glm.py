@@ -49,9 +49,10 @@ def _means(eta: np.ndarray, model: str) -> np.ndarray:
     return expit(eta) if model == "logit" else np.exp(eta)
 
 
-def weighted_rows(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None,
-                  model: str) -> tuple[np.ndarray, np.ndarray]:  # fmt: skip
-    """sqrt(w) [x, z] of a piece at `beta` (None: from the starting means), and the means."""
+def working(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None,
+            model: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:  # fmt: skip
+    """The working response z, the root of the weights and the means of a piece at `beta`
+    (None: from the starting means); a row whose weight is 0 counts for nothing."""
     with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
         if beta is None:
             mu = (y + 0.5) / 2 if model == "logit" else y + 0.5
@@ -63,6 +64,13 @@ def weighted_rows(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None,
         good = (w > 0) & np.isfinite(w)
         z = np.where(good, eta + (y - mu) / np.where(good, w, 1.0), 0.0)
         root = np.sqrt(np.where(good, w, 0.0))
+    return z, root, mu
+
+
+def weighted_rows(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None,
+                  model: str) -> tuple[np.ndarray, np.ndarray]:  # fmt: skip
+    """sqrt(w) [x, z] of a piece at `beta` (None: from the starting means), and the means."""
+    z, root, mu = working(x, y, beta, model)
     rows = np.empty((x.shape[0], x.shape[1] + 1), order="F")
     np.multiply(x, root[:, None], out=rows[:, :-1])
     np.multiply(z, root, out=rows[:, -1])
@@ -107,23 +115,25 @@ class Scratch:
         self.end = 0
 
     def add(self, rows: np.ndarray) -> None:
-        data = np.ascontiguousarray(rows, dtype=float)
-        self.file.write(data.tobytes())
-        self.pieces.append((self.end, data.shape[0], data.shape[1]))
+        data = np.asfortranarray(rows, dtype=float).T  # column after column, as it is held
+        self.file.write(data)
+        self.pieces.append((self.end, data.shape[1], data.shape[0]))
         self.end += data.nbytes
 
     def read(self, k: int, width: int) -> np.ndarray:
         """Piece k, widened with zeros to `width` columns (levels met after it)."""
-        if k == 0:
-            self.file.flush()
         offset, rows, have = self.pieces[k]
         raw = os.pread(self.file.fileno(), rows * have * 8, offset)
-        piece = np.frombuffer(raw, float).reshape(rows, have)
+        piece = np.frombuffer(raw, float).reshape(have, rows).T
         if have >= width:
             return piece
         out = np.zeros((rows, width))
         out[:, :have] = piece
         return out
+
+    def done(self) -> None:
+        """The writing is over: what was written is there for `read` (from any thread)."""
+        self.file.flush()
 
     def close(self) -> None:
         self.file.close()
@@ -133,7 +143,6 @@ def _each_piece(scratch: Scratch, width: int, job: Any) -> list[Any]:
     """`job(k, piece)` over every piece, two at a time (numpy and LAPACK release the GIL)."""
     from concurrent.futures import ThreadPoolExecutor
 
-    scratch.file.flush()
     with ThreadPoolExecutor(max_workers=2) as pool:
         return list(pool.map(lambda k: job(k, scratch.read(k, width)), range(len(scratch.pieces))))
 
@@ -248,7 +257,8 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     scratch, codes_scratch = Scratch(), Scratch()
     first = TriangularFactor()
     table: dict[Any, int] = {}
-    seen = {"positive": 0, "low": np.zeros(0), "high": np.zeros(0)}
+    seen = {"positive": 0, "low": np.zeros(0), "high": np.zeros(0),
+            "binary": np.zeros(0, bool)}  # fmt: skip
 
     def sink(rows: np.ndarray, extras: dict[str, tuple[str, Any]]) -> None:
         y = rows[:, 0]
@@ -262,19 +272,29 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         seen["positive"] += int(np.count_nonzero(y > 0))
         if rows.shape[0]:
             _widen_range(seen, rows.min(axis=0), rows.max(axis=0))
+            zero_one = ((rows == 0) | (rows == 1)).all(axis=0)
+            old = seen["binary"]
+            both = min(old.size, zero_one.size)
+            merged = zero_one.copy() if zero_one.size >= old.size else old.copy()
+            merged[:both] = old[:both] & zero_one[:both]
+            seen["binary"] = merged
         if cluster is not None:
             codes = _cluster_codes(*extras[cluster], table)
             if (codes < 0).any():
                 raise InputError(f"`errors` cluster:{cluster}: the column has missing values in "
                                  "rows the fit uses")  # fmt: skip
             codes_scratch.add(codes[:, None].astype(float))
-        weighted, _ = weighted_rows(rows[:, 1:], y, None, model)  # [x (slots 1...), z]
-        first.add(np.roll(weighted, 1, axis=1))  # z in the outcome's slot 0
+        z, root, _ = working(rows[:, 1:], y, None, model)
+        weighted = np.multiply(rows, root[:, None], order="F")
+        np.multiply(z, root, out=weighted[:, 0])  # z in the outcome's slot 0
+        first.add(weighted)
 
     try:
         with one_blas_thread():
             design = plain_design(source, *plain, progress or (lambda rows: None), sink=sink,
                                   extra=(cluster,) if cluster else (), factor=False)  # fmt: skip
+        scratch.done()
+        codes_scratch.done()
         if design.used == 0:
             raise InputError("`data`: no row has a value in every column the formula uses")
         names = design.names
@@ -308,7 +328,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         treated = None
         if overlap and others and low[t_slot] == 0 and high[t_slot] == 1 \
                 and any(low[s] != high[s] for s in others) \
-                and _binary(scratch, width, t_slot):  # fmt: skip
+                and seen["binary"][t_slot]:  # fmt: skip
             treated = _Model("logit", t_slot, others)
             models.append(treated)
         clusters = len(table)
@@ -418,11 +438,6 @@ def _widen_range(seen: dict[str, Any], low: np.ndarray, high: np.ndarray) -> Non
         merged = new.copy() if new.size >= old.size else old.copy()
         merged[:both] = pick(old[:both], new[:both])
         seen[key] = merged
-
-
-def _binary(scratch: Scratch, width: int, slot: int) -> bool:
-    return all(np.isin(scratch.read(k, width)[:, slot], (0.0, 1.0)).all()
-               for k in range(len(scratch.pieces)))  # fmt: skip
 
 
 def _cluster_codes(kind: str, values: Any, table: dict[Any, int]) -> np.ndarray:
