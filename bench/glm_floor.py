@@ -1,12 +1,17 @@
 """The floor for `make bench`'s E-value-from-data section: polars reads the whole file, the
 design is built in numpy, and Newton's method (IRLS) runs with one X'WX per step until the
-step is below 1e-11 of the coefficients. Usage: glm_floor.py FILE OUTCOME logit|poisson"""
+step is below 1e-11 of the coefficients, BLAS held to one thread as the route holds it (on a
+shared two-core machine two threads were slower). Usage: glm_floor.py FILE OUTCOME logit|poisson
+"""
 
 import sys
 
 import numpy as np
 import polars as pl
 from scipy.special import expit
+from threadpoolctl import threadpool_limits
+
+threadpool_limits(1, user_api="blas")
 
 path, outcome, model = sys.argv[1], sys.argv[2], sys.argv[3]
 frame = pl.read_csv(path)
