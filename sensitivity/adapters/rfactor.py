@@ -131,6 +131,8 @@ def one_blas_thread() -> Iterator[None]:
     """BLAS held to one thread while a pass folds: the reading runs in a second thread
     beside it, and on a shared two-core machine two BLAS threads made the factor's steps
     several times slower, not faster (MEASURED). Without threadpoolctl, as it is."""
+    import scipy.linalg.lapack  # noqa: F401 - its own BLAS must be loaded to be limited
+
     try:
         from threadpoolctl import threadpool_limits
     except ImportError:  # pragma: no cover - a dependency; kept optional for odd installs
