@@ -11,5 +11,6 @@ COMMANDS = {
     "stability": ("stability", "Coefficient stability under proportional selection (Oster)."),
     "impact": ("impact", "Impact threshold of a confounding variable (Frank)."),
     "pool": ("pool", "Confounding in a random-effects meta-analysis: the share of strong effects."),
+    "debiased": ("debiased", "Omitted-variable bounds for debiased machine-learning estimates."),
     "report": ("report", "Write the robustness section of a manuscript to a folder."),
 }

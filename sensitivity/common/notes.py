@@ -98,4 +98,9 @@ REFERENCES = {
         "heterogeneity in the random effects model in meta-analysis. Statistics in Medicine "
         "16:753-768."
     ),
+    "chernozhukov-cinelli-2022": (
+        "Chernozhukov V, Cinelli C, Newey W, Sharma A, Syrgkanis V (2022). Long story short: "
+        "omitted variable bias in causal machine learning. NBER Working Paper 30302; "
+        "arXiv:2112.13398."
+    ),
 }
