@@ -76,14 +76,24 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
                                   ("--model", model_kind)) if not v]  # fmt: skip
         if missing:
             raise click.UsageError(f"data input needs {', '.join(missing)} as well")
-        from sensitivity.adapters.models import evalue_from_data, ols_report_from_data
+        import threading
 
-        if model_kind == "ols":  # one pass gives the partial-R² result and the E-value
-            items = [(label, ols_report_from_data(data, formula, treatment, contrast=contrast,
-                                                  event=event))]  # fmt: skip
-        else:
-            items = [(label, evalue_from_data(data, formula, treatment, model_kind, event=event,
-                                              contrast=contrast, outcome=outcome))]  # fmt: skip
+        from sensitivity.adapters.models import evalue_from_data, ols_report_from_data
+        from sensitivity.output.figures import pyplot
+
+        # matplotlib loads in a second thread while the data are read (the figures come after)
+        loading = threading.Thread(target=pyplot, name="load-matplotlib", daemon=True)
+        loading.start()
+        try:
+            if model_kind == "ols":  # one pass gives the partial-R² result and the E-value
+                items = [(label, ols_report_from_data(data, formula, treatment,
+                                                      contrast=contrast, event=event))]  # fmt: skip
+            else:
+                items = [(label, evalue_from_data(data, formula, treatment, model_kind,
+                                                  event=event, contrast=contrast,
+                                                  outcome=outcome))]  # fmt: skip
+        finally:
+            loading.join()
     else:
         if estimate is None:
             raise click.UsageError("summary input needs SCALE and ESTIMATE")
