@@ -133,8 +133,8 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
                  progress: Any = None) -> Fit:  # fmt: skip
     """Fit a logistic or Poisson `formula` (columns and C(col) joined by '+') on `data` (a
     file or a DataFrame) in passes over pieces: equal to statsmodels' Logit or Poisson fit
-    (to 1e-8), with `errors` classical, hc0, hc1 or cluster:COLUMN, in memory that does not
-    grow with the rows."""
+    (to 1e-8), with `errors` classical, hc0 or cluster:COLUMN, in memory that does not grow
+    with the rows (the pieces wait in a temporary file: 8 bytes a design cell)."""
     from .batches import file_source, frame_source
     from .design import check_names, find_treatment, no_interaction
     from .onepass import _Header, _kept
@@ -284,10 +284,9 @@ def _covariance(m: _Model, kind: str, n: int, k: int, clusters: int) -> tuple[np
     bread = inverse @ inverse.T
     if kind == "classical":
         return bread, "nonrobust"
-    if kind in ("hc0", "hc1"):
+    if kind == "hc0":
         meat = sum(s.meat for s in m.steps)
-        scale = n / (n - k) if kind == "hc1" else 1.0
-        return scale * bread @ meat @ bread, kind.upper()
+        return bread @ meat @ bread, "HC0"
     scores = sum(s.scores for s in m.steps)
     meat = scores.T @ scores
     scale = clusters / (clusters - 1) * (n - 1) / (n - k) if clusters > 1 else 1.0
