@@ -157,30 +157,4 @@ def test_without_scikit_learn_one_line_says_what_to_install(run, data_csv, monke
     )
 
 
-def _help_examples(run):
-    text = run("debiased", "--help").stdout
-    lines, current = [], ""
-    for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
-        line = raw.strip()
-        if not line:
-            continue
-        current = f"{current} {line}".strip()
-        if current.endswith("\\"):
-            current = current[:-1].strip()
-            continue
-        lines.append(current)
-        current = ""
-    return lines
-
-
-def test_help_examples_run_as_printed(run, monkeypatch):
-    import shlex
-
-    from conftest import ROOT
-
-    monkeypatch.chdir(ROOT / "demo")
-    examples = _help_examples(run)
-    assert len(examples) == 2
-    for example in examples:
-        res = run(*shlex.split(example)[1:])
-        assert res.exit_code == 0, (example, res.stderr)
+# The help examples run as printed in tests/test_help_examples.py, with every command's.

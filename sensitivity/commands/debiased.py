@@ -150,10 +150,10 @@ def debiased_cmd(
 
     \b
     Examples:
-      sensitivity debiased --data harbourside_bp.csv --treatment commute_min \\
+      sensitivity debiased --data demo/harbourside_bp.csv --treatment commute_min \\
           --outcome sbp --covariates age,female,smoker,shift,bmi --learner lasso \\
           --strength 0.02 0.05 --benchmark smoker
-      sensitivity debiased --data harbourside_bp.csv --treatment smoker --outcome sbp \\
+      sensitivity debiased --data demo/harbourside_bp.csv --treatment smoker --outcome sbp \\
           --covariates age,female,commute_min,shift,bmi --target-effect average \\
           --learner forest --folds 3 --seed 3 --format json
     """
