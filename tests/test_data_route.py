@@ -218,7 +218,7 @@ def test_glm_input_errors(spector, randhie):
         glm_one_pass(spector, "GRADE ~ PSI + GPA", "PSI", "logit", errors="hc1")
     with pytest.raises(InputError, match=r"`errors` must be classical, hc0, hc1, hc2, hc3"):
         glm_one_pass(spector, "GRADE ~ PSI + GPA", "PSI", "logit", errors="robust")
-    with pytest.raises(InputError, match=r"cluster column 'site' is not a column"):
+    with pytest.raises(InputError, match=r"`errors` cluster:site: 'site' is not a column"):
         glm_one_pass(spector, "GRADE ~ PSI + GPA", "PSI", "logit", errors="cluster:site")
     with pytest.raises(InputError, match=r"need at least 2 clusters; got 1"):
         glm_one_pass(spector.assign(one=1), "GRADE ~ PSI + GPA", "PSI", "logit",

@@ -97,6 +97,8 @@ class Fit:
     cov_type: str
     notes: list[str] = field(default_factory=list)
     overlap: dict[str, Any] | None = None
+    binary: bool = False  # the outcome is 0/1 and both occur
+    clusters: int = 0
 
 
 def parse_errors(errors: str | None) -> tuple[str, str | None]:
@@ -155,7 +157,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     source = frame_source(data) if hasattr(data, "columns") else file_source(data, "data")
     check_names(_Header(source.columns), formula, treatment)
     if cluster is not None and cluster not in source.columns:
-        raise InputError(f"`errors`: the cluster column {cluster!r} is not a column of the data")
+        raise InputError(f"`errors` cluster:{cluster}: {cluster!r} is not a column of the data")
     scratch, codes_scratch = Scratch(), Scratch()
     first = TriangularFactor()
     table: dict[Any, int] = {}
@@ -236,6 +238,9 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         clusters = len(table)
         if cluster is not None and clusters < 2:
             raise InputError(f"`errors` cluster:{cluster}: need at least 2 clusters; got 1")
+        binary = bool(low[0] == 0 and high[0] == 1 and seen["binary"][0])
+        if errors is None and model == "poisson" and binary:
+            kind = "hc0"  # modified Poisson (Zou 2004): robust errors by default
         sums = kind != "classical"
 
         def job(k: int, piece: np.ndarray, active: list[_Model]) -> list[Step]:
@@ -264,7 +269,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         scratch.close()
         codes_scratch.close()
     return Fit([names[i] for i in kept], outcome.beta, cov, design.used,
-               seen["positive"] / design.used, cov_type, notes, ov)  # fmt: skip
+               seen["positive"] / design.used, cov_type, notes, ov, binary, clusters)  # fmt: skip
 
 
 def _stacked(steps: list[Step]) -> np.ndarray:
@@ -365,6 +370,7 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     from scipy.special import ndtri
 
     from ..evalues.core import evalue
+    from .errors import WORDS
     from .models import SHOWN, _warn, model_kind_scale
 
     fit = glm_one_pass(data, formula, treatment, model, errors=errors, progress=progress)
@@ -378,8 +384,16 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     ci = np.array([b - z * se, b + z * se])
     n, share = fit.n, fit.share
     notes = [note for note in fit.notes if note.startswith("Left out")]
-    if fit.cov_type != "nonrobust":
-        notes.append(f"The interval is the fit's own, from its {fit.cov_type} covariance.")
+    code = {"nonrobust": "classical", "HC0": "hc0"}.get(fit.cov_type, fit.cov_type)
+    words = WORDS.get(code, f"cluster-robust standard errors ({fit.clusters:,} clusters)")
+    notes.append(f"The {1 - alpha:.0%} interval is the fit's own, from its {words}.")
+    if code == "classical" and model == "poisson" and fit.binary:
+        _warn(
+            f"a {SHOWN[model]} fit of a 0/1 outcome with model-based errors: for a risk ratio "
+            "from such a fit (modified Poisson, Zou 2004) robust errors are the usual choice; "
+            "refit with cov_type='HC0' (or --errors hc0 on the data route)",
+            notes,
+        )
     prevalence = share if outcome is None and scale in ("or", "hr") else None
     est = float(np.exp(b * contrast))
     interval: tuple[float, float] | None = None
@@ -402,7 +416,8 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         f"From a fitted {SHOWN[model]} model (n = {n:,}): {what} exp(b){per} = {est:.4g}; the "
         f"outcome occurs in {share:.1%} of the model's data.",
     )
-    info = {"kind": model, "n": n, "outcome_share": share, "treatment": treatment}
+    info = {"kind": model, "n": n, "outcome_share": share, "treatment": treatment,
+            "errors": code}  # fmt: skip
     ov = fit.overlap
     if ov is not None and ov["poor"]:
         _warn(

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import sys
+from pathlib import Path
 from typing import Any
 
 import click
@@ -64,6 +65,20 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
     help="Write the screened table: .csv, .tsv, .parquet, .xlsx or .json.",
 )
 @click.option(
+    "--flagged",
+    type=click.Path(dir_okay=False),
+    help="Also write the flagged rows alone (with their reasons in `error`): .csv, .tsv, "
+    ".parquet, .xlsx or .json.",
+)
+@click.option(
+    "--delimiter",
+    type=click.Choice(["auto", ",", ";", "tab"]),
+    default="auto",
+    show_default=True,
+    help="Between the cells of a text file: auto detects a European file (';' between cells, "
+    "',' in decimals) from its header and first lines.",
+)
+@click.option(
     "--format",
     "fmt",
     type=click.Choice(FORMATS),
@@ -90,6 +105,8 @@ def screen_cmd(
     threshold: float | None,
     alpha: float,
     output: str | None,
+    flagged: str | None,
+    delimiter: str,
     fmt: str,
     plots: tuple[str, ...],
     plot_limits: Any,
@@ -113,24 +130,32 @@ def screen_cmd(
           --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
       sensitivity screen demo/pooled_studies.csv --from-text result --pool 1.1
     """
-    from sensitivity.adapters.files import Share, read_frames
+    from sensitivity.adapters.files import Share, read_frames, resolve_delimiter, with_types
     from sensitivity.common.overlap import read_ahead
 
     # the first pieces of the file are parsed (polars, in a second thread) while the rest of
     # the screen is imported and the options are checked
     share = Share()
-    frames = read_ahead(read_frames(file, "file", share=share))
+    mark = resolve_delimiter(file, delimiter)
+    frames = read_ahead(read_frames(file, "file", share=share, delimiter=mark or "auto"))
 
     from sensitivity.common.errors import InputError
-    from sensitivity.screen.core import Options, computed_names
+    from sensitivity.screen.core import AS_READ_TEXT, Options, computed_names
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
     from sensitivity.screen.write import check_table_path, table_writer
 
     if plot_marks:
         raise click.UsageError("--plot-mark does not apply to screen")
-    if output is not None:
-        check_table_path(output)
+    for target in (output, flagged):
+        if target is not None:
+            check_table_path(target)
+    if (
+        flagged is not None
+        and output is not None
+        and Path(flagged).resolve() == Path(output).resolve()
+    ):
+        raise click.UsageError("--flagged and --output must be different files")
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
     pooled = None
@@ -152,20 +177,39 @@ def screen_cmd(
         confounders=confounders,
         alpha=alpha,
         tally=tally,
+        decimal_comma=mark == ";",
     )
     progress = sys.stderr.isatty()
     # the screen's own text columns (codes, reasons, notes, true/false) never start with a
     # formula character (tests/test_screen.py), so only the input's are defused
-    trusted = computed_names(Options(confounders=confounders))
+    trusted = set(computed_names(Options(confounders=confounders))) - set(AS_READ_TEXT)
     writer = table_writer(output, fmt, trusted)
+    flagged_writer = None if flagged is None else table_writer(flagged, "text", trusted)
+    # Parquet keeps the input's column types: those polars infers from the whole text file
+    # (a Parquet input's own types pass through as they are)
+    types = {}
+    if mark and any(str(t).lower().endswith((".parquet", ".pq")) for t in (output, flagged) if t):
+        from sensitivity.adapters.files import text_types
+
+        types = text_types(file, mark)
     for batch in stream:
+        typed = with_types(batch, types) if types else batch
         if writer is not None:
-            writer.write(batch)
+            writer.write(typed if writer.kind == "parquet" else batch)
+        if flagged_writer is not None:
+            import polars as pl
+
+            rows = typed if flagged_writer.kind == "parquet" else batch
+            flagged_writer.write(rows.filter(pl.col("error") != ""))
         if progress:
             click.echo("\r" + _bar(share.next(), tally.rows), err=True, nl=False)
     if progress:
         click.echo("", err=True)
-    summary = tally.result(tuple(confounders), click.format_filename(file))
+    source = click.format_filename(file)
+    if mark == ";":
+        how = "detected" if delimiter == "auto" else "as --delimiter says"
+        source += f" (read as a European file, {how}: ';' between cells, ',' as decimal mark)"
+    summary = tally.result(tuple(confounders), source)
     if writer is not None:
         extra = {"summary": summary.to_dict()}
         if pooled is not None:
@@ -173,6 +217,10 @@ def screen_cmd(
         writer.close(extra if writer.kind == "json" else None)
     if output is not None:
         click.echo(f"Wrote {output}", err=True)
+    if flagged_writer is not None:
+        flagged_writer.close(None)
+        count = sum(tally.flagged.values())
+        click.echo(f"Wrote {count:,} flagged row{'s' * (count != 1)} to {flagged}", err=True)
     document = summary.document()
     if output is None and fmt not in ("csv", "json"):
         click.echo(document.render(fmt, tables_only=fmt in ("markdown", "latex")))

@@ -26,7 +26,7 @@ import numpy as np
 from ..common.checks import OPEN_UNIT, given, require, require_all
 from ..common.errors import InputError
 from ..common.scales import RARE_OUTCOME_CUTOFF
-from .bounds import BIASES, multi_bias_evalue
+from .bounds import BIASES, SELECTION_FACTORS, combined_evalue
 from .formulas import bounding_factor, evalue_of_interval, evalue_of_rr
 from .result import ConfounderBound, EValueResult
 from .risk_difference import evalue_of_risk_difference, evalue_rd
@@ -56,7 +56,8 @@ __all__ = [
     "evalue_of_rr",
     "evalue_rd",
     "evalue_rows",
-    "multi_bias_evalue",
+    "combined_evalue",
+    "SELECTION_FACTORS",
     "with_biases",
     "with_confounders",
 ]

@@ -1,17 +1,20 @@
-"""The impact threshold of a confounding variable (Frank 2000) and the share of an estimate
-bias would have to remove to invalidate the inference (Frank et al. 2013).
+"""The impact threshold of a confounding variable (Frank 2000) and the share of a
+coefficient bias would have to account for before its significance changes (Frank et al.
+2013).
 
 Correlations are partial on the model's other covariates. With t the treatment's t statistic
 on df residual degrees of freedom and t# the two-sided critical value:
 
 - observed correlation r = t / sqrt(t² + df); threshold r# = t# / sqrt(t#² + df);
-- to invalidate (|r| > r#): impact k = (|r| - r#) / (1 - r#), each component sqrt(k) (the
-  confounder's correlation with the treatment and with the outcome, taken equal, which
-  needs the least impact: Frank 2000);
-- to sustain (|r| < r#): a suppressor, r_x = -r_y with r² = (r# - |r|) / (1 + r#), k = -r²
-  (derived in the project's methods notes; the sign convention is Frank's to confirm);
-- share of the estimate to remove: 1 - d# / |b| with d# = t# se (or to add, 1 - |b| / d#),
-  and cases to replace = n x share (the robustness of inference to replacement).
+- a significant coefficient (|r| > r#), to lose significance: impact k = (|r| - r#) /
+  (1 - r#), each component sqrt(k) (the omitted variable's partial correlation with the
+  treatment and with the outcome, taken equal, which needs the least impact: Frank 2000);
+- a coefficient short of significance (|r| < r#), to gain it: a suppressor, r_x = -r_y with
+  r² = (r# - |r|) / (1 + r#), k = -r² (derived in the project's methods notes; the sign
+  convention is Frank's to confirm);
+- the share of the coefficient bias would have to account for: 1 - d# / |b| with d# = t# se
+  (short of significance, the share missing: 1 - |b| / d#), and the observations that many
+  of n would have to be swapped for no-effect ones: n x share (Frank et al. 2013).
 
 References
 ----------
@@ -36,38 +39,43 @@ def partial_correlation(r_xy: float, r_xc: float, r_yc: float) -> float:
 
 
 def impact_threshold(
-    estimate: float | None = None,
-    se: float | None = None,
     *,
     t: float | None = None,
+    dof: float | None = None,
+    estimate: float | None = None,
+    se: float | None = None,
     n: int | None = None,
     covariates: int | None = None,
-    dof: float | None = None,
     alpha: float = 0.05,
 ) -> ImpactResult:
-    """The impact threshold of a confounding variable and the share of the estimate to
-    invalidate (or sustain) the inference.
+    """How strong an omitted variable would have to be to change a regression coefficient's
+    significance (the impact threshold), and the share of the coefficient bias would have
+    to account for. Keyword arguments only: the regression's test first, then its size.
 
     Parameters
     ----------
+    t : float
+        The treatment coefficient's t statistic; or give `estimate` and `se` (which also
+        give the share of the coefficient).
+    dof : float
+        Residual degrees of freedom; or give `n` and `covariates`.
     estimate, se : float
-        The treatment's coefficient and standard error; or give `t` (and `estimate` for the
-        share of the estimate).
+        The treatment's coefficient and standard error (instead of `t`).
     n : int
-        The number of observations (also gives the cases to replace).
+        The number of observations (also gives the observations to swap).
     covariates : int
         The number of covariates besides the treatment; df = n - covariates - 2 (the
-        treatment and the intercept count too). Or give `dof` directly.
+        treatment and the intercept count too).
     alpha : float, default 0.05
         Two-sided level of the test.
 
     Examples
     --------
     A kindergarten-retention estimate of -9.01 with se 0.68 on a large sample (recalled
-    from Frank et al. 2013): bias would have to remove about 85% of it.
+    from Frank et al. 2013): bias would have to account for about 85% of it.
 
-    >>> res = impact_threshold(-9.01, 0.68, dof=10_000)
-    >>> round(float(res.share_to_invalidate), 2)
+    >>> res = impact_threshold(estimate=-9.01, se=0.68, dof=10_000)
+    >>> round(float(res.bias_share), 2)
     0.85
     """
     from scipy.special import stdtrit
@@ -107,19 +115,19 @@ def impact_threshold(
     if size > r_crit:
         k = (size - r_crit) / (1 - r_crit)
         component = np.sqrt(k)
-        direction = "invalidate"
+        significant = True
     else:
         r2 = (r_crit - size) / (1 + r_crit)
         k = -r2
         component = np.sqrt(r2)
-        direction = "sustain"
+        significant = False
     share = None
     threshold = None
     if se is not None and estimate is not None:
         threshold = t_crit * se
         b = abs(estimate)
         share = 1 - threshold / b if b > threshold else 1 - b / threshold if threshold else 0.0
-    cases = None if share is None or n is None else n * share
+    swapped = None if share is None or n is None else n * share
     return ImpactResult(
         estimate=estimate,
         se=se,
@@ -133,8 +141,8 @@ def impact_threshold(
         correlation_threshold=float(r_crit * sign),
         itcv=float(sign * k),
         itcv_component=float(component),
-        direction=direction,
+        significant=significant,
         estimate_threshold=threshold,
-        share_to_invalidate=share,
-        cases_to_replace=cases,
+        bias_share=share,
+        swapped_observations=swapped,
     )

@@ -67,7 +67,7 @@ def partial_r2_of_f(f_stat: ArrayLike, df_num: ArrayLike, dof: ArrayLike) -> np.
 
 
 def robustness_value_of_t(
-    t: ArrayLike, *, dof: ArrayLike, fraction: ArrayLike = 1.0, alpha: float | None = None
+    t: ArrayLike, *, dof: ArrayLike, reduce_by: ArrayLike = 1.0, alpha: float | None = None
 ) -> np.ndarray:
     """Robustness value: the equal partial R² (with treatment and outcome) that suffices.
 
@@ -77,8 +77,8 @@ def robustness_value_of_t(
         t statistic of the treatment coefficient.
     dof : array_like
         Residual degrees of freedom of the OLS fit.
-    fraction : array_like, default 1
-        Share q of the estimate to explain away (1: bring it to zero).
+    reduce_by : array_like, default 1
+        Share of the estimate a confounder must remove (1: all of it, to zero).
     alpha : float, optional
         With `alpha`, the value at which the bias-adjusted interval first reaches
         ``(1 - q)`` times the estimate (loses significance, for q = 1).
@@ -112,7 +112,7 @@ def robustness_value_of_t(
     """
     t = np.asarray(t, float)
     dof = np.asarray(dof, float)
-    fq = np.asarray(fraction, float) * np.abs(t) / np.sqrt(dof)
+    fq = np.asarray(reduce_by, float) * np.abs(t) / np.sqrt(dof)
     if alpha is None:
         return _rv_curve(fq)
     fstar = t_critical(alpha, dof - 1) / np.sqrt(dof - 1)
@@ -204,7 +204,7 @@ def benchmark_strengths(
     k_treatment: ArrayLike = 1.0,
     k_outcome: ArrayLike | None = None,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Strengths of a confounder k times as strong as an observed covariate (or group).
+    """Strengths of a confounder with k times an observed covariate's (or group's) strength.
 
     Parameters
     ----------
@@ -254,18 +254,15 @@ def benchmark_strengths(
 
 def _k_max(r):
     """Largest k_t for which both R2_t < 1 and rho² < 1 (Cinelli & Hazlett 2020)."""
-    if r <= 0:
-        return float("inf")
-    # R2_t < 1 needs k < (1 - r) / r; rho² < 1 needs k r² < (1 - k r)(1 - r),
-    # i.e. k < (1 - r) / (r² + r (1 - r)) = (1 - r) / r as well: one bound.
-    return (1 - r) / r
+    # R2_t < 1 needs k < (1 - r) / r; rho² < 1 needs k r² < (1 - k r)(1 - r): the same bound.
+    return float("inf") if r <= 0 else (1 - r) / r
 
 
 # --------------------------------------------------------------------------- entry point
 def check_summary(
-    estimate: object, se: object, dof: object, t: object, fraction: object, alpha: object
+    estimate: object, se: object, dof: object, t: object, reduce_by: object, alpha: object
 ) -> tuple[float, float, float, float, float]:
-    """One OLS coefficient's summary, checked: (estimate, se, dof, fraction, alpha)."""
+    """One OLS coefficient's summary, checked: (estimate, se, dof, reduce_by, alpha)."""
     est = float(require(estimate, "estimate"))
     if se is not None and t is not None:
         raise InputError("give `se` or `t`, not both")
@@ -280,9 +277,9 @@ def check_summary(
             raise InputError(f"`t` must have the sign of `estimate`; got {t:g} for {est:g}")
         se = est / t
     se = float(require(se, "se", POSITIVE))
-    fraction = float(require(fraction, "fraction", POSITIVE))
+    reduce_by = float(require(reduce_by, "reduce_by", POSITIVE))
     alpha = float(require(alpha, "alpha", OPEN_UNIT))
-    return est, se, dof, fraction, alpha
+    return est, se, dof, reduce_by, alpha
 
 
 def hypothetical_scenarios(
@@ -301,20 +298,12 @@ def hypothetical_scenarios(
             f"`r2_treatment` and `r2_outcome` must come in pairs; got {r2t.size} and {r2y.size}"
         )
     adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
-    out = []
-    for i in range(r2t.size):
-        out.append(
-            Scenario(
-                float(r2t[i]),
-                float(r2y[i]),
-                float(adj["bias"][i]),
-                float(adj["estimate"][i]),
-                float(adj["se"][i]),
-                float(adj["t"][i]),
-                (float(adj["lower"][i]), float(adj["upper"][i])),
-            )
-        )
-    return out
+    a = {k: np.asarray(v, float) for k, v in adj.items()}
+    return [
+        Scenario(float(r2t[i]), float(r2y[i]), float(a["bias"][i]), float(a["estimate"][i]),
+                 float(a["se"][i]), float(a["t"][i]), (float(a["lower"][i]), float(a["upper"][i])))
+        for i in range(r2t.size)
+    ]  # fmt: skip
 
 
 def benchmark_scenarios(
@@ -325,7 +314,7 @@ def benchmark_scenarios(
     k_pairs: Sequence[tuple[float, float]],
     alpha: float,
 ) -> list[Scenario]:
-    """Scenarios for confounders k times as strong as `covariate` (a CovariateStrength)."""
+    """Scenarios for confounders of k times the strength of `covariate` (a CovariateStrength)."""
     out = []
     for kt, ky in k_pairs:
         r2t, r2y, capped = benchmark_strengths(covariate.r2_treatment, covariate.r2_outcome, kt, ky)
@@ -353,6 +342,7 @@ def benchmark_scenarios(
                 k_treatment=float(kt),
                 k_outcome=float(ky),
                 capped=bool(capped),
+                benchmark_source=covariate.source,
             )
         )
     return out
@@ -364,12 +354,13 @@ def partial_r2_summary(
     dof: float | None = None,
     *,
     t: float | None = None,
-    fraction: float = 1.0,
+    reduce_by: float = 1.0,
     alpha: float = 0.05,
     r2_treatment: ArrayLike | None = None,
     r2_outcome: ArrayLike | None = None,
     sd_outcome: float | None = None,
     contrast: float = 1.0,
+    benchmark_r2: Sequence[Any] = (),
 ) -> PartialR2Result:
     """Partial-R² sensitivity of an OLS coefficient from its summary numbers.
 
@@ -383,7 +374,7 @@ def partial_r2_summary(
         Residual degrees of freedom of the fit (n minus the number of coefficients).
     t : float, optional
         The t statistic, instead of `se`.
-    fraction : float, default 1
+    reduce_by : float, default 1
         Share of the estimate a confounder must explain away (1: all of it).
     alpha : float, default 0.05
         Significance level for the significance robustness value and adjusted intervals.
@@ -394,6 +385,10 @@ def partial_r2_summary(
     contrast : float, default 1
         Treatment difference the E-value alongside refers to (the coefficient is per unit;
         e.g. 10 for "per 10 minutes"). The partial-R² numbers do not depend on it.
+    benchmark_r2 : sequence, optional
+        Benchmarks from a paper's published numbers: (name, r2_treatment, r2_outcome), the
+        name with its multiples as for data ("age:2"), or `published_benchmark(...)` values
+        (see `with_published_benchmarks`).
 
     Returns
     -------
@@ -408,18 +403,21 @@ def partial_r2_summary(
     >>> round(res.partial_r2, 3), round(rv, 3), round(rv_alpha, 3)
     (0.022, 0.139, 0.076)
     """
-    est, se, dof, fraction, alpha = check_summary(estimate, se, dof, t, fraction, alpha)
-    return assemble(
+    from .published import with_published_benchmarks
+
+    est, se, dof, reduce_by, alpha = check_summary(estimate, se, dof, t, reduce_by, alpha)
+    result = assemble(
         est,
         se,
         dof,
-        fraction=fraction,
+        reduce_by=reduce_by,
         alpha=alpha,
         r2_treatment=r2_treatment,
         r2_outcome=r2_outcome,
         sd_outcome=sd_outcome,
         contrast=contrast,
     )
+    return with_published_benchmarks(result, benchmark_r2)
 
 
 def assemble(
@@ -427,7 +425,7 @@ def assemble(
     se: float,
     dof: float,
     *,
-    fraction: float,
+    reduce_by: float,
     alpha: float,
     r2_treatment: ArrayLike | None = None,
     r2_outcome: ArrayLike | None = None,
@@ -466,11 +464,11 @@ def assemble(
         dof=dof,
         t=t,
         partial_r2=float(partial_r2_of_t(t, dof)),
-        fraction=fraction,
+        reduce_by=reduce_by,
         alpha=alpha,
-        robustness_value=float(robustness_value_of_t(t, dof=dof, fraction=fraction)),
+        robustness_value=float(robustness_value_of_t(t, dof=dof, reduce_by=reduce_by)),
         robustness_value_alpha=float(
-            robustness_value_of_t(t, dof=dof, fraction=fraction, alpha=alpha)
+            robustness_value_of_t(t, dof=dof, reduce_by=reduce_by, alpha=alpha)
         ),
         scenarios=tuple(hyp) + tuple(scenarios),
         evalue=ev,

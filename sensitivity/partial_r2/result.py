@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
@@ -13,6 +14,18 @@ from ..common.results import Result, plain
 
 if TYPE_CHECKING:
     from ..evalues.result import EValueResult
+
+
+def covariate_name(name: str) -> str:
+    """A formula term as a reader knows it: C(shift) is shift."""
+    match = re.fullmatch(r"C\(\s*([^,)]+?)\s*(,.*)?\)", name)
+    return match.group(1) if match else name
+
+
+def _share(value: float) -> str:
+    """A partial R² as a percentage (three significant digits below 1%)."""
+    pct = 100 * float(value)
+    return f"{pct:.3g}%" if 0 < abs(pct) < 1 else f"{pct:.2f}%"
 
 
 @dataclass(frozen=True, eq=False)
@@ -31,19 +44,22 @@ class Scenario:
     k_treatment: float | None = None
     k_outcome: float | None = None
     capped: bool = False
-
-    @property
-    def label_multiple(self) -> str:
-        """The multiples as written in a label: "2x", or "1x/3x" when the sides differ."""
-        kt, ky = self.k_treatment, self.k_outcome
-        return f"{kt:g}x" if kt == ky else f"{kt:g}x/{ky:g}x"
+    benchmark_source: str | None = None  # "data", "published", or with an assumed side
 
     @property
     def label(self) -> str:
-        """A short name built from the scenario's fields."""
+        """The scenario's one name, in every view: "smoker ×2", "shift ×1/×3" (treatment /
+        outcome multiples), "chosen 2.00% / 5.00%" (partial R² given directly). The numbers
+        are also fields of their own."""
         if self.kind == "benchmark":
-            return f"{self.label_multiple} as strong as {self.benchmark}"
-        return f"R² {self.r2_treatment:.3g} / {self.r2_outcome:.3g}"
+            kt, ky = self.k_treatment, self.k_outcome
+            times = f"×{kt:g}" if kt == ky else f"×{kt:g}/×{ky:g}"
+            source = self.benchmark_source or "data"
+            mark = {"data": "", "published": " (published)"}.get(
+                source, " (treatment side assumed)"
+            )
+            return f"{covariate_name(self.benchmark or '')} {times}{mark}"
+        return f"chosen {_share(self.r2_treatment)} / {_share(self.r2_outcome)}"
 
     def to_dict(self) -> dict:
         out = {
@@ -62,9 +78,10 @@ class Scenario:
         if self.kind == "benchmark":
             out |= {
                 "benchmark": self.benchmark,
-                "k_treatment": self.k_treatment,
-                "k_outcome": self.k_outcome,
+                "multiple_treatment": self.k_treatment,
+                "multiple_outcome": self.k_outcome,
                 "capped": self.capped,
+                "benchmark_source": self.benchmark_source or "data",
             }
         return plain(out)
 
@@ -77,6 +94,7 @@ class CovariateStrength:
     columns: tuple[str, ...]
     r2_treatment: float
     r2_outcome: float
+    source: str = "data"  # or "published" (a paper's numbers), with an assumed treatment side
 
     def to_dict(self) -> dict:
         return plain(
@@ -98,7 +116,7 @@ class PartialR2Result(Result):
     dof: float
     t: float
     partial_r2: float
-    fraction: float
+    reduce_by: float
     alpha: float
     robustness_value: float
     robustness_value_alpha: float
@@ -112,7 +130,10 @@ class PartialR2Result(Result):
     cautions: tuple[str, ...] = standing.PARTIAL_R2
     assumptions: tuple[str, ...] = field(
         default=(
-            "OLS with classical (homoskedastic) standard errors.",
+            "OLS. The partial R², robustness value, bias and bias-adjusted estimates are "
+            "identities of the fit and do not depend on the standard errors; the robustness "
+            "value at alpha and the bias-adjusted se, t and CI use classical (homoskedastic) "
+            "standard errors.",
             "A single hidden confounder (or a linear combination of several), entering the "
             "outcome model linearly.",
             "Benchmarks: the confounder is orthogonal to the benchmark covariate given the others.",
@@ -120,7 +141,7 @@ class PartialR2Result(Result):
     )
     is_scalar = True
     _repr_fields = ("estimate", "se", "dof", "robustness_value", "robustness_value_alpha")
-    _input_fields = ("estimate", "se", "dof", "alpha", "fraction", "treatment")
+    _input_fields = ("estimate", "se", "dof", "alpha", "reduce_by", "treatment")
     presenter = "sensitivity.partial_r2.present"
 
     # ----------------------------------------------------------------- derived views
@@ -144,7 +165,7 @@ class PartialR2Result(Result):
             "dof": self.dof,
             "t": self.t,
             "partial_r2": self.partial_r2,
-            "fraction": self.fraction,
+            "reduce_by": self.reduce_by,
             "alpha": self.alpha,
             "robustness_value": self.robustness_value,
             "robustness_value_alpha": self.robustness_value_alpha,

@@ -9,6 +9,9 @@ import numpy as np
 from ..common import notes as standing
 from ..common.results import Result
 
+#: Rows listed for each reason a row was flagged (the first ones, by row number).
+FIRST_ROWS = 5
+
 #: log E-values are tallied on a fixed grid from 0 to 20 (E up to 4.8e8) in steps of 1e-4:
 #: medians to four significant digits without keeping the values.
 _EDGES = 200_000
@@ -23,19 +26,25 @@ class Tally:
     n_confounders: int = 0
     rows: int = 0
     flagged: dict[str, int] = field(default_factory=dict)
+    first_rows: dict[str, list[int]] = field(default_factory=dict)
     scales: dict[str, dict] = field(default_factory=dict)
 
     def add(self, scale: np.ndarray, kinds: list[str], values: dict[str, np.ndarray],
-            states: dict[str, np.ndarray]) -> None:  # fmt: skip
+            states: dict[str, np.ndarray], positions: list[int] | None = None) -> None:  # fmt: skip
         """Count one batch: each row's scale (an index into SCREEN_SCALES, -1 when flagged),
         the flagged rows' kinds of reason (the rule in words, without the row's values, as
-        given where each reason is made), the computed numbers and the confounder columns'
-        states (2 where the confounder could explain the result away)."""
+        given where each reason is made) and their positions in the batch, the computed
+        numbers and the confounder columns' states (2 where the confounder could explain the
+        result away)."""
         from .core import SCREEN_SCALES
 
+        start = self.rows
         self.rows += len(scale)
-        for kind in kinds:
+        for k, kind in enumerate(kinds):
             self.flagged[kind] = self.flagged.get(kind, 0) + 1
+            first = self.first_rows.setdefault(kind, [])
+            if positions is not None and len(first) < FIRST_ROWS:
+                first.append(start + int(positions[k]) + 1)
         # every count is one bincount over the rows, by scale (slot 0: flagged rows), with no
         # row selected by a mask: a million rows in a few milliseconds
         slot = scale.astype(np.int64) + 1
@@ -104,6 +113,7 @@ class Tally:
             source=source,
             rows=self.rows,
             flagged=dict(sorted(self.flagged.items(), key=lambda kv: -kv[1])),
+            first_rows={k: list(v) for k, v in self.first_rows.items()},
             per_scale=per_scale,
             threshold=self.threshold,
             confounders=tuple(confounders),
@@ -147,6 +157,8 @@ class ScreenSummary(Result):
     confounders: tuple[tuple[float, float], ...]
     # per scale, counts of log E-values (estimate, interval) on the grid of `log_edges()`
     histograms: dict[str, tuple[np.ndarray, np.ndarray]] = field(default_factory=dict)
+    # per reason, the first rows flagged for it (1 = the first row after the header)
+    first_rows: dict[str, list[int]] = field(default_factory=dict)
     cautions: tuple[str, ...] = standing.EVALUE
     notes: tuple[str, ...] = (
         "Medians are read from a fine grid of log E-values (to about four significant digits).",
@@ -172,6 +184,7 @@ class ScreenSummary(Result):
             "rows": self.rows,
             "flagged": self.n_flagged,
             "flagged_by_reason": self.flagged,
+            "first_flagged_rows": self.first_rows,
             "threshold": self.threshold,
             "confounders": [list(c) for c in self.confounders],
             "scales": self.per_scale,
