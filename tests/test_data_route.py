@@ -232,3 +232,26 @@ def test_glm_input_errors(spector, randhie):
     gap = spector.assign(site=[None, *range(31)])
     with pytest.raises(InputError, match=r"cluster:site: the column has missing values"):
         glm_one_pass(gap, "GRADE ~ PSI + GPA", "PSI", "logit", errors="cluster:site")
+
+
+@pytest.mark.parametrize(
+    "model, outcome, errors",
+    [("logit", "any_visit", "hc0"), ("poisson", "mdvis", "cluster:site"),
+     ("poisson", "any_visit", None), ("poisson", "any_visit", "classical")],
+)  # fmt: skip
+def test_the_errors_chosen_give_the_in_memory_result(randhie, model, outcome, errors):
+    # --errors on the data route (issue 21): the fit in passes gives the in-memory fit's whole
+    # result, words included (a Poisson fit of a 0/1 outcome: hc0 unless asked otherwise, and
+    # the warning when classical errors are asked for).
+    import warnings
+
+    frame = randhie.assign(any_visit=(randhie["mdvis"] > 0).astype(int),
+                           site=(np.arange(len(randhie)) // 97) % 61)  # fmt: skip
+    formula = f"{outcome} ~ idp + lncoins + lpi + physlm + disea + C(hlthg)"
+    with warnings.catch_warnings(record=True):
+        warnings.simplefilter("always")
+        before = evalue_from_model(fit(frame, formula, model, errors=errors), "idp", alpha=0.1)
+        now = evalue_one_pass(frame, formula, "idp", model, errors=errors, alpha=0.1)
+    _close(before.to_dict(), now.to_dict(), rel=1e-8)
+    assert before.notes == now.notes
+    assert now.model["errors"] == before.model["errors"]
