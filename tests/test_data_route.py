@@ -255,3 +255,17 @@ def test_the_errors_chosen_give_the_in_memory_result(randhie, model, outcome, er
     _close(before.to_dict(), now.to_dict(), rel=1e-8)
     assert before.notes == now.notes
     assert now.model["errors"] == before.model["errors"]
+
+
+def test_a_first_piece_with_only_a_missing_category_is_left_out(monkeypatch):
+    # One row a piece, the first one's category missing: that row is left out (found by the
+    # property test in test_onepass with one-row batches).
+    monkeypatch.setattr(batches, "BATCH_ROWS", 1)
+    rng = np.random.default_rng(2)
+    frame = pd.DataFrame({"x": rng.normal(size=40), "t": rng.normal(size=40)})
+    frame["y"] = frame["t"] + frame["x"] + rng.normal(size=40)
+    frame["g"] = pd.Series([None] + list(rng.choice(["a", "b"], 39)), dtype=object)
+    got = partial_r2_from_data(frame, "y ~ t + x + g", "t")
+    ref = smf.ols("y ~ t + x + g", frame).fit()
+    assert float(got.estimate) == pytest.approx(ref.params["t"], rel=1e-8)
+    assert got.n == 39

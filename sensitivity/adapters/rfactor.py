@@ -330,6 +330,8 @@ def _level_codes(term: Term, values: Any, kind: str) -> np.ndarray:
             raise InputError(f"`data`: column {term.column!r} has more than {MAX_LEVELS:,} "
                              "distinct values to code as categories")  # fmt: skip
         codes = pc.index_in(values, value_set=term.table)
+    if codes is None:  # no level met yet and every cell missing
+        return np.full(len(values), -1, np.int64)
     import polars as pl
 
     return pl.Series(values=codes).fill_null(-1).to_numpy().astype(np.int64)
