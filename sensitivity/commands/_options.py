@@ -219,6 +219,20 @@ ERRORS_HELP = (
 def errors_option(f: Callable) -> Callable:
     """--errors: the standard errors of a fit made from data."""
     return click.option("--errors", metavar="TYPE", default=None, help=ERRORS_HELP)(f)
+ENGINES = ("local", "dask", "spark")
+
+
+def engine_option(what: str) -> Callable:
+    """`--engine local|dask|spark`: where a Parquet dataset folder is read."""
+    return click.option(
+        "--engine",
+        type=click.Choice(ENGINES),
+        default="local",
+        show_default=True,
+        help=f"Where {what} runs: on this machine, or on Dask or Spark (Parquet file or "
+        "dataset folder; needs the dask or spark extra). Spark runs where spark-submit "
+        "points it, else locally; Dask on DASK_SCHEDULER_ADDRESS if set, else threads here.",
+    )
 
 
 def exclusive(*options: tuple[str, object]) -> None:

@@ -10,7 +10,7 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import FORMATS, Command, confounder_option, plot_options
+from ._options import FORMATS, Command, confounder_option, engine_option, plot_options
 
 SHORT_HELP = COMMANDS["screen"][1]
 
@@ -31,7 +31,8 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
 
 
 @click.command("screen", cls=Command, short_help=SHORT_HELP)
-@click.argument("file", type=click.Path(dir_okay=False))
+@click.argument("file", type=click.Path())
+@engine_option("the screen")
 @click.option(
     "--columns",
     "column_map",
@@ -99,6 +100,7 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
 @plot_options("the distribution of E-values (estimate and interval) by scale")
 def screen_cmd(
     file: str,
+    engine: str,
     column_map: tuple[str, ...],
     from_text: str | None,
     confounders: tuple,
@@ -121,7 +123,9 @@ def screen_cmd(
     needs them se, dof, sd, outcome (rare/common), prevalence, contrast, target, and for
     risk differences cases_treated, total_treated, cases_control, total_control. Text cells
     written to CSV and Excel are defused against spreadsheet formulas. Files are read a piece
-    at a time, so memory stays flat; on a terminal, a progress bar shows on stderr.
+    at a time, so memory stays flat; on a terminal, a progress bar shows on stderr. FILE may
+    be a Parquet dataset folder, screened here or on Dask or Spark (--engine): each
+    partition is screened where it lies, its rows kept in order, and the summary added up.
 
     \b
     Examples:
@@ -129,15 +133,23 @@ def screen_cmd(
       sensitivity screen demo/published_results.csv --from-text result \\
           --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
       sensitivity screen demo/pooled_studies.csv --from-text result --pool 1.1
+      sensitivity screen demo/published_results_parquet --engine dask --output screened.csv
     """
+    # the first pieces of the file are parsed (polars, in a second thread) while the rest of
+    # the screen is imported and the options are checked
+
     from sensitivity.adapters.files import Share, read_frames, resolve_delimiter, with_types
     from sensitivity.common.overlap import read_ahead
 
-    # the first pieces of the file are parsed (polars, in a second thread) while the rest of
-    # the screen is imported and the options are checked
     share = Share()
-    mark = resolve_delimiter(file, delimiter)
-    frames = read_ahead(read_frames(file, "file", share=share, delimiter=mark or "auto"))
+    folder = Path(file).is_dir()
+    mark = None if folder or engine != "local" else resolve_delimiter(file, delimiter)
+    if engine == "local" and folder:
+        from sensitivity.screen.engines import folder_frames
+
+        frames = read_ahead(folder_frames(file))
+    elif engine == "local":
+        frames = read_ahead(read_frames(file, "file", share=share, delimiter=mark or "auto"))
 
     from sensitivity.common.errors import InputError
     from sensitivity.screen.core import AS_READ_TEXT, Options, computed_names
@@ -159,6 +171,9 @@ def screen_cmd(
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
     pooled = None
+    if pool_threshold is not None and (engine != "local" or Path(file).is_dir()):
+        raise click.UsageError("--pool reads a single file; screen a folder or an engine's "
+                               "data without it")  # fmt: skip
     if pool_threshold is not None:  # pooled first: a table that cannot be pooled stops here
         from sensitivity.adapters.files import read_table
         from sensitivity.pooling.data import pool_table
@@ -170,16 +185,21 @@ def screen_cmd(
             from_text=from_text,
         )
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
-    stream = screen_frames(
-        frames,
-        columns=_column_map(column_map),
-        from_text=from_text,
-        confounders=confounders,
-        alpha=alpha,
-        tally=tally,
-        decimal_comma=mark == ";",
-    )
+    options: dict[str, Any] = {"columns": _column_map(column_map), "from_text": from_text,
+               "confounders": confounders, "alpha": alpha}  # fmt: skip
     progress = sys.stderr.isatty()
+    if engine == "local":
+        stream = screen_frames(frames, tally=tally, decimal_comma=mark == ";", **options)
+    else:
+        from sensitivity.adapters.engines import open_with
+        from sensitivity.screen.engines import screened_frames
+
+        def partitions(done: int, total: int) -> None:
+            click.echo(f"{done:,} of {total:,} partitions screened", err=True)
+
+        data = open_with(file, engine, "file")
+        stream = screened_frames(data, engine, tally, progress=partitions, **options)
+        progress = False
     # the screen's own text columns (codes, reasons, notes, true/false) never start with a
     # formula character (tests/test_screen.py), so only the input's are defused
     trusted = set(computed_names(Options(confounders=confounders))) - set(AS_READ_TEXT)

@@ -93,6 +93,28 @@ class Tally:
                 entry["explains_ci"][i] += int(ci[number])
             entry["regression"] += int(regression[number])
 
+    def merge(self, other: Tally) -> Tally:
+        """Add the counts of another tally (kept with the same threshold and confounders,
+        over other rows: a partition screened elsewhere) to this one; returns this tally.
+        The other's first flagged rows are numbered after this one's rows."""
+        for kind, rows in other.first_rows.items():
+            first = self.first_rows.setdefault(kind, [])
+            first += [self.rows + r for r in rows][: max(FIRST_ROWS - len(first), 0)]
+        self.rows += other.rows
+        for kind, count in other.flagged.items():
+            self.flagged[kind] = self.flagged.get(kind, 0) + count
+        for code, theirs in other.scales.items():
+            mine = self.scales.setdefault(code, _entry(self.n_confounders))
+            for key in ("evalue", "evalue_ci"):
+                if theirs[key].size > mine[key].size:
+                    mine[key] = np.pad(mine[key], (0, theirs[key].size - mine[key].size))
+                mine[key][: theirs[key].size] += theirs[key]
+            for key in ("rows", "evalue_n", "evalue_ci_n", "below", "regression"):
+                mine[key] += theirs[key]
+            for key in ("explains_estimate", "explains_ci"):
+                mine[key] = [a + b for a, b in zip(mine[key], theirs[key], strict=True)]
+        return self
+
     def result(self, confounders: tuple, source: str) -> ScreenSummary:
         per_scale = {}
         hist: dict[str, tuple[np.ndarray, np.ndarray]] = {}

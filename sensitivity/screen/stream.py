@@ -323,8 +323,16 @@ def screen_table(table: Any, **options: Any) -> Any:
     """Screen a whole table in memory (pandas, polars or pyarrow); the result is the same kind.
 
     Options are those of `screen_frames`. The summary is not returned; use `screen_summary`
-    for it.
+    for it. A Spark or Dask DataFrame gives a lazy frame of its own kind, each partition
+    screened where it lies (`screen/engines.py`).
     """
+    from ..adapters.engines import engine_of
+
+    engine = engine_of(table)
+    if engine is not None:
+        from .engines import screen_engine_table
+
+        return screen_engine_table(table, engine, **options)
     frame, kind = _as_polars(table)
     import polars as pl
 
@@ -338,7 +346,15 @@ def screen_table(table: Any, **options: Any) -> Any:
 
 def screen_summary(table: Any, source: str = "the table", threshold: float | None = None,
                    **options: Any) -> ScreenSummary:  # fmt: skip
-    """The summary of a screen of `table` (rows, flags by reason, E-values by scale)."""
+    """The summary of a screen of `table` (rows, flags by reason, E-values by scale); a
+    Spark or Dask DataFrame is screened partition by partition on its engine."""
+    from ..adapters.engines import engine_of
+
+    engine = engine_of(table)
+    if engine is not None:
+        from .engines import screen_engine_summary
+
+        return screen_engine_summary(table, engine, source, threshold, **options)
     frame, _ = _as_polars(table)
     tally = Tally(threshold=threshold, n_confounders=len(options.get("confounders", ())))
     for _ in screen_frames(_slices(frame), tally=tally, **options):
