@@ -32,6 +32,12 @@ SHOWN = {"logit": "logistic", "log-binomial": "log-binomial", "poisson": "Poisso
          "negbin": "negative binomial", "cox": "Cox", "ols": "OLS"}  # fmt: skip
 
 
+def model_kind_scale(kind: str) -> str:
+    """The effect scale of a model kind: or, rr, hr (md for OLS)."""
+    return {"logit": "or", "log-binomial": "rr", "poisson": "rr", "negbin": "rr",
+            "cox": "hr", "ols": "md"}[kind]  # fmt: skip
+
+
 def model_kind(results: Any) -> tuple[str, str]:
     """(model kind, effect scale) of a fitted model; InputError for one we do not route."""
     model = getattr(results, "model", None)
@@ -346,6 +352,13 @@ def evalue_from_data(
     from dataclasses import replace
 
     from .design import check_names
+    from .glm import evalue_one_pass, supports
+
+    if event is not None and model != "cox" and model in KINDS:
+        raise InputError(f"`event` applies to model cox only; got model {model}")
+    if supports(formula, model, errors):  # logit and Poisson: fitted in passes over pieces
+        return evalue_one_pass(data, formula, treatment, model, contrast=contrast, alpha=alpha,
+                               outcome=outcome, errors=errors)  # fmt: skip
 
     if not hasattr(data, "columns"):
         from .files import read_table
@@ -370,6 +383,31 @@ def evalue_from_data(
         f"{se:.3g}, from {words}); the outcome's SD in the data is {sd:.4g}."
     )
     return replace(res, notes=(note, *res.notes), model=info)
+
+
+def ols_report_from_data(data: Any, formula: str, treatment: str, *, contrast: float = 1.0,
+                         event: str | None = None, **options: Any) -> Any:  # fmt: skip
+    """The partial-R² result of an OLS `formula` on `data` (a file or a DataFrame) with the
+    coefficient's E-value beside it, as `evalue_from_data(..., "ols")` gives it with classical
+    errors, from one pass over the data (`onepass.partial_r2_one_pass`): the report's data
+    route fits once. Options are those of `partial_r2_from_data`."""
+    from dataclasses import replace
+
+    from .errors import WORDS
+    from .onepass import partial_r2_one_pass
+
+    if event is not None:
+        raise InputError("`event` applies to model cox only; got model ols")
+    pr2 = partial_r2_one_pass(data, formula, treatment, contrast=contrast, **options)
+    ev = pr2.evalue
+    b, se, sd, n = float(pr2.estimate), float(pr2.se), float(ev.sd), int(pr2.n)
+    info = {"kind": "ols", "n": n, "outcome_share": None, "treatment": treatment,
+            "errors": "classical"}  # fmt: skip
+    note = (
+        f"From a fitted OLS model (n = {n:,}): coefficient {b:.4g} (se "
+        f"{se:.3g}, from {WORDS['classical']}); the outcome's SD in the data is {sd:.4g}."
+    )
+    return replace(pr2, evalue=replace(ev, notes=(note, *ev.notes), model=info))
 
 
 def impact_from_model(results: Any, treatment: str, *, alpha: float = 0.05) -> Any:

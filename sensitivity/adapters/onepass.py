@@ -34,7 +34,15 @@ from ..common.errors import InputError
 from ..partial_r2.result import CovariateStrength, PartialR2Result
 from .batches import BATCH_ROWS, file_source, frame_source
 from .design import check_names, find_treatment, no_interaction, partial_r2_from_parts
-from .rfactor import Design, TriangularFactor, patsy_design, plain_design, plain_terms, r_of
+from .rfactor import (
+    Design,
+    TriangularFactor,
+    one_blas_thread,
+    patsy_design,
+    plain_design,
+    plain_terms,
+    r_of,
+)
 
 __all__ = ["BATCH_ROWS", "TriangularFactor", "partial_r2_of_design", "partial_r2_one_pass"]
 
@@ -88,10 +96,11 @@ def partial_r2_one_pass(data: Any, formula: str, treatment: str, **options: Any
     check_names(_Header(source.columns), formula, treatment, options.get("benchmarks", ()))
     progress = options.pop("progress", None) or (lambda rows: None)
     plain = plain_terms(formula)
-    if plain:
-        design = plain_design(source, *plain, progress)
-    else:
-        design = patsy_design(source, formula, progress)
+    with one_blas_thread():
+        if plain:
+            design = plain_design(source, *plain, progress)
+        else:
+            design = patsy_design(source, formula, progress)
     return partial_r2_of_design(design, formula, treatment, **options)
 
 

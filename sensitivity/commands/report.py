@@ -121,20 +121,34 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
                                   ("--model", model_kind)) if not v]  # fmt: skip
         if missing:
             raise click.UsageError(f"data input needs {', '.join(missing)} as well")
-        from sensitivity.adapters.models import evalue_from_data
+        import threading
 
-        res = evalue_from_data(data, formula, treatment, model_kind, event=event,
-                               contrast=contrast, outcome=outcome, alpha=1 - level,
-                               errors=errors)  # fmt: skip
-        items = [(label, res)]
-        if model_kind == "ols":
-            from dataclasses import replace
+        from sensitivity.adapters.models import evalue_from_data, ols_report_from_data
+        from sensitivity.output.figures import pyplot
 
-            from sensitivity.adapters.statsmodels import partial_r2_from_data
+        # matplotlib loads in a second thread while the data are read (the figures come after)
+        loading = threading.Thread(target=pyplot, name="load-matplotlib", daemon=True)
+        loading.start()
+        try:
+            if model_kind == "ols" and errors in (None, "classical"):  # one pass, both parts
+                items = [(label, ols_report_from_data(
+                    data, formula, treatment, contrast=contrast, event=event, alpha=1 - level,
+                    benchmarks=benchmarks))]  # fmt: skip
+            else:
+                res = evalue_from_data(data, formula, treatment, model_kind, event=event,
+                                       contrast=contrast, outcome=outcome, alpha=1 - level,
+                                       errors=errors)  # fmt: skip
+                items = [(label, res)]
+                if model_kind == "ols":
+                    from dataclasses import replace
 
-            pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast,
-                                       alpha=1 - level, benchmarks=benchmarks)  # fmt: skip
-            items = [(label, replace(pr2, evalue=res))]
+                    from sensitivity.adapters.statsmodels import partial_r2_from_data
+
+                    pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast,
+                                               alpha=1 - level, benchmarks=benchmarks)  # fmt: skip
+                    items = [(label, replace(pr2, evalue=res))]
+        finally:
+            loading.join()
     elif route == "text":
         from sensitivity.adapters.published import evalue_from_text
 

@@ -1,0 +1,271 @@
+"""The data route fitted once (issue 26): the report from data and a formula, and the E-value
+of logistic and Poisson fits by iteratively reweighted least squares in passes over pieces.
+
+References: statsmodels fits of the same formula on the same data read whole by pandas (a
+general-purpose library): OLS, Logit and Poisson, with their classical, HC0, HC1 and cluster
+covariances; data: the `fair` extramarital affairs data (Fair 1978) and the `star98` data
+shipped with statsmodels, and data generated here.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+import statsmodels.api as sm
+import statsmodels.formula.api as smf
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+import sensitivity.adapters.batches as batches
+import sensitivity.adapters.files as files
+from sensitivity.adapters.glm import evalue_one_pass, glm_one_pass
+from sensitivity.adapters.models import (
+    evalue_from_data,
+    evalue_from_model,
+    fit,
+    ols_report_from_data,
+)
+from sensitivity.adapters.statsmodels import partial_r2_from_data
+from sensitivity.common.errors import InputError
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def _close(a, b, path="", rel=1e-10):
+    """Two JSON-ready values equal: numbers to `rel`, the rest exactly."""
+    if isinstance(a, dict):
+        assert set(a) == set(b), path
+        for key in a:
+            _close(a[key], b[key], f"{path}.{key}", rel)
+    elif isinstance(a, (list, tuple)):
+        assert len(a) == len(b), path
+        for i, (u, v) in enumerate(zip(a, b, strict=True)):
+            _close(u, v, f"{path}[{i}]", rel)
+    elif isinstance(a, float) and isinstance(b, float):
+        assert b == pytest.approx(a, rel=rel, abs=1e-300), path
+    elif isinstance(a, str) and isinstance(b, str) and a != b:
+        # a note's numbers are printed to 3-4 digits: the same text but for a last digit
+        assert len(a) == len(b) and sum(u != v for u, v in zip(a, b, strict=True)) <= 1, path
+    else:
+        assert a == b, path
+
+
+# --------------------------------------------------------------------------- the report, OLS
+@pytest.mark.parametrize("contrast", [1.0, 10.0])
+def test_the_report_from_data_fits_once_and_keeps_the_numbers(contrast):
+    # Today's report from data: statsmodels' OLS fit for the E-value, the one-pass route for
+    # the partial-R² part. Now one pass gives both: the same numbers (to 1e-10) and words.
+    data = ROOT / "demo" / "harbourside_bp.csv"
+    formula = "sbp ~ commute_min + age + female + smoker + C(shift) + bmi"
+    ev = evalue_from_data(data, formula, "commute_min", "ols", contrast=contrast)
+    pr2 = partial_r2_from_data(data, formula, "commute_min", contrast=contrast)
+    once = ols_report_from_data(data, formula, "commute_min", contrast=contrast)
+    _close(
+        pr2.to_dict() | {"evalue": ev.to_dict()}, once.to_dict() | {"evalue": once.evalue.to_dict()}
+    )
+    assert once.evalue.notes == ev.notes or len(once.evalue.notes) == len(ev.notes)
+    assert once.evalue.model == ev.model
+
+
+def test_the_report_command_from_data_writes_the_same_numbers(run, tmp_path):
+    data = ROOT / "demo" / "harbourside_bp.csv"
+    formula = "sbp ~ commute_min + age + female + smoker + C(shift) + bmi"
+    res = run("report", "--data", data, "--formula", formula, "--treatment", "commute_min",
+              "--model", "ols", "--contrast", 10, "--out", tmp_path / "r")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    got = json.loads((tmp_path / "r" / "report.json").read_text())["estimates"][0]
+    ev = evalue_from_data(data, formula, "commute_min", "ols", contrast=10)
+    pr2 = partial_r2_from_data(data, formula, "commute_min", contrast=10)
+    assert got["partial_r2"]["robustness_value"] == pytest.approx(pr2.robustness_value, rel=1e-12)
+    assert got["evalue"] == pytest.approx(float(ev.evalue), rel=1e-10)
+    assert got["evalue_ci"] == pytest.approx(float(ev.evalue_ci), rel=1e-10)
+    res = run("report", "--data", data, "--formula", formula, "--treatment", "commute_min",
+              "--model", "ols", "--event", "smoker", "--out", tmp_path / "e")  # fmt: skip
+    assert res.exit_code == 2
+    assert res.stderr == "Error: `event` applies to model cox only; got model ols\n"
+
+
+# --------------------------------------------------------------------------- GLMs in passes
+
+
+def _statsmodels(frame, formula, model, errors=None, groups=None):
+    """The reference: statsmodels' Logit or Poisson fit, with the chosen covariance."""
+    options = {}
+    if errors == "hc0":
+        options = {"cov_type": "HC0"}
+    elif errors == "cluster":
+        options = {"cov_type": "cluster", "cov_kwds": {"groups": groups}}
+    return getattr(smf, model)(formula, frame).fit(disp=0, **options)
+
+
+def _agrees(got, ref, rel=1e-8):
+    assert got.names == list(ref.params.index)
+    assert np.allclose(got.params, ref.params, rtol=rel, atol=1e-12)
+    assert np.allclose(np.sqrt(np.diag(got.cov)), ref.bse, rtol=rel, atol=1e-14)
+    assert got.cov_type == ref.cov_type
+    assert got.n == int(ref.nobs)
+
+
+@pytest.fixture(scope="module")
+def spector():
+    # Spector & Mazzeo (1980), shipped with statsmodels: 32 students, a binary GRADE outcome
+    # and a binary PSI (teaching method) treatment.
+    return sm.datasets.spector.load_pandas().data
+
+
+@pytest.fixture(scope="module")
+def randhie():
+    # The RAND Health Insurance Experiment extract shipped with statsmodels (20,190 rows):
+    # doctor visits (counts) and a binary individual deductible plan (idp).
+    return sm.datasets.randhie.load_pandas().data
+
+
+@pytest.mark.parametrize("errors", [None, "hc0"])
+def test_logit_on_the_shipped_spector_data_equals_statsmodels(spector, errors, monkeypatch):
+    monkeypatch.setattr(batches, "BATCH_ROWS", 7)  # five pieces
+    formula = "GRADE ~ PSI + GPA + TUCE"
+    got = glm_one_pass(spector, formula, "PSI", "logit", errors=errors)
+    _agrees(got, _statsmodels(spector, formula, "logit", errors))
+
+
+@pytest.mark.parametrize("errors", [None, "hc0", "cluster"])
+def test_poisson_on_the_shipped_randhie_data_equals_statsmodels(randhie, errors, tmp_path,
+                                                                 monkeypatch):  # fmt: skip
+    monkeypatch.setattr(files, "CHUNK_BYTES", 1 << 16)  # dozens of pieces of the file
+    path = tmp_path / "randhie.csv"
+    frame = randhie.assign(site=(np.arange(len(randhie)) // 97) % 61)
+    frame.to_csv(path, index=False)
+    formula = "mdvis ~ idp + lncoins + lpi + fmde + physlm + disea + hlthg + hlthf + hlthp"
+    spec = "cluster:site" if errors == "cluster" else errors
+    got = glm_one_pass(path, formula, "idp", "poisson", errors=spec)
+    _agrees(got, _statsmodels(frame, formula, "poisson", errors, frame["site"]))
+
+
+@pytest.mark.parametrize("model", ["logit", "poisson"])
+def test_the_evalue_from_data_keeps_the_in_memory_result(randhie, model):
+    # The whole E-value result (estimate, interval, E-values, words, overlap) as the
+    # statsmodels fit gave it before this route: numbers to 1e-8, words the same.
+    frame = randhie.assign(any_visit=(randhie["mdvis"] > 0).astype(int))
+    outcome = "any_visit" if model == "logit" else "mdvis"
+    formula = f"{outcome} ~ idp + lncoins + lpi + physlm + disea + C(hlthg)"
+    before = evalue_from_model(fit(frame, formula, model), "idp", contrast=2.0)
+    now = evalue_one_pass(frame, formula, "idp", model, contrast=2.0)
+    _close(before.to_dict(), now.to_dict(), rel=1e-8)
+    assert before.notes == now.notes
+    assert now.overlap is not None
+
+
+def test_generated_data_with_text_levels_missing_cells_and_clusters(tmp_path, monkeypatch):
+    rng = np.random.default_rng(4)
+    n = 3000
+    frame = pd.DataFrame({"x": rng.normal(size=n), "g": rng.choice(["north", "south", "east"], n),
+                          "clinic": rng.choice([f"c{i}" for i in range(25)], n)})  # fmt: skip
+    frame["t"] = rng.binomial(1, 1 / (1 + np.exp(-frame["x"])))
+    frame["y"] = rng.binomial(1, 1 / (1 + np.exp(-(0.4 * frame["t"] - 0.5 + frame["x"]))))
+    frame.loc[rng.random(n) < 0.05, "x"] = np.nan
+    frame.loc[rng.random(n) < 0.05, "g"] = None
+    path = tmp_path / "gen.csv"
+    frame.to_csv(path, index=False)
+    monkeypatch.setattr(files, "CHUNK_BYTES", 4096)
+    formula = "y ~ t + x + C(g)"
+    used = frame.dropna()
+    got = glm_one_pass(path, formula, "t", "logit", errors="cluster:clinic")
+    _agrees(got, _statsmodels(used, formula, "logit", "cluster", used["clinic"]))
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.integers(40, 150), st.integers(0, 3), st.floats(0, 0.15), st.integers(1, 60),
+       st.sampled_from(["logit", "poisson"]), st.integers(0, 2**32 - 1))  # fmt: skip
+def test_any_small_table_equals_statsmodels(n, levels, missing, batch, model, seed):
+    # Property: whatever the table (a text category or none, missing cells, any batch size),
+    # the fit in passes equals statsmodels' fit of the same formula.
+    rng = np.random.default_rng(seed)
+    frame = pd.DataFrame({"x": rng.normal(size=n), "t": rng.binomial(1, 0.5, n).astype(float)})
+    eta = 0.3 * frame["t"] + 0.5 * frame["x"] - 0.2
+    frame["y"] = (rng.binomial(1, 1 / (1 + np.exp(-eta))) if model == "logit"
+                  else rng.poisson(np.exp(eta))).astype(float)  # fmt: skip
+    terms = ["t", "x"]
+    if levels >= 2:
+        frame["g"] = rng.choice([f"L{j}" for j in range(levels)], n).astype(object)
+        terms.append("C(g)")
+    for col in frame.columns:
+        frame.loc[rng.random(n) < missing, col] = np.nan if col != "g" else None
+    formula = "y ~ " + " + ".join(terms)
+    used = frame.dropna()
+    if len(used) < 25 or (levels >= 2 and used["g"].nunique() < levels):
+        return
+    try:
+        ref = _statsmodels(frame, formula, model)
+    except Exception:  # noqa: BLE001 - a table statsmodels cannot fit (separation) is skipped
+        return
+    if not ref.mle_retvals["converged"]:
+        return
+    batches.BATCH_ROWS, before = batch, batches.BATCH_ROWS
+    try:
+        got = glm_one_pass(frame, formula, "t", model, errors="hc0")
+    finally:
+        batches.BATCH_ROWS = before
+    robust = _statsmodels(frame, formula, model, "hc0")
+    _agrees(got, robust, rel=1e-7)
+
+
+def test_glm_input_errors(spector, randhie):
+    with pytest.raises(InputError, match=r"`errors` hc1 is computed for OLS fits only"):
+        glm_one_pass(spector, "GRADE ~ PSI + GPA", "PSI", "logit", errors="hc1")
+    with pytest.raises(InputError, match=r"`errors` must be classical, hc0, hc1, hc2, hc3"):
+        glm_one_pass(spector, "GRADE ~ PSI + GPA", "PSI", "logit", errors="robust")
+    with pytest.raises(InputError, match=r"`errors` cluster:site: 'site' is not a column"):
+        glm_one_pass(spector, "GRADE ~ PSI + GPA", "PSI", "logit", errors="cluster:site")
+    with pytest.raises(InputError, match=r"need at least 2 clusters; got 1"):
+        glm_one_pass(spector.assign(one=1), "GRADE ~ PSI + GPA", "PSI", "logit",
+                     errors="cluster:one")  # fmt: skip
+    with pytest.raises(InputError, match=r"could not be fitted \(logit\): endog must be in the"):
+        glm_one_pass(randhie, "mdvis ~ idp", "idp", "logit")
+    with pytest.raises(InputError, match=r"this route takes columns and C\(col\)"):
+        glm_one_pass(spector, "GRADE ~ PSI * GPA", "PSI", "logit")
+    with pytest.raises(InputError, match=r"perfect separation"):
+        glm_one_pass(spector, "PSI ~ PSI + GPA", "PSI", "logit")
+    gap = spector.assign(site=[None, *range(31)])
+    with pytest.raises(InputError, match=r"cluster:site: the column has missing values"):
+        glm_one_pass(gap, "GRADE ~ PSI + GPA", "PSI", "logit", errors="cluster:site")
+
+
+@pytest.mark.parametrize(
+    "model, outcome, errors",
+    [("logit", "any_visit", "hc0"), ("poisson", "mdvis", "cluster:site"),
+     ("poisson", "any_visit", None), ("poisson", "any_visit", "classical")],
+)  # fmt: skip
+def test_the_errors_chosen_give_the_in_memory_result(randhie, model, outcome, errors):
+    # --errors on the data route (issue 21): the fit in passes gives the in-memory fit's whole
+    # result, words included (a Poisson fit of a 0/1 outcome: hc0 unless asked otherwise, and
+    # the warning when classical errors are asked for).
+    import warnings
+
+    frame = randhie.assign(any_visit=(randhie["mdvis"] > 0).astype(int),
+                           site=(np.arange(len(randhie)) // 97) % 61)  # fmt: skip
+    formula = f"{outcome} ~ idp + lncoins + lpi + physlm + disea + C(hlthg)"
+    with warnings.catch_warnings(record=True):
+        warnings.simplefilter("always")
+        before = evalue_from_model(fit(frame, formula, model, errors=errors), "idp", alpha=0.1)
+        now = evalue_one_pass(frame, formula, "idp", model, errors=errors, alpha=0.1)
+    _close(before.to_dict(), now.to_dict(), rel=1e-8)
+    assert before.notes == now.notes
+    assert now.model["errors"] == before.model["errors"]
+
+
+def test_a_first_piece_with_only_a_missing_category_is_left_out(monkeypatch):
+    # One row a piece, the first one's category missing: that row is left out (found by the
+    # property test in test_onepass with one-row batches).
+    monkeypatch.setattr(batches, "BATCH_ROWS", 1)
+    rng = np.random.default_rng(2)
+    frame = pd.DataFrame({"x": rng.normal(size=40), "t": rng.normal(size=40)})
+    frame["y"] = frame["t"] + frame["x"] + rng.normal(size=40)
+    frame["g"] = pd.Series([None] + list(rng.choice(["a", "b"], 39)), dtype=object)
+    got = partial_r2_from_data(frame, "y ~ t + x + g", "t")
+    ref = smf.ols("y ~ t + x + g", frame).fit()
+    assert float(got.estimate) == pytest.approx(ref.params["t"], rel=1e-8)
+    assert got.n == 39
