@@ -219,6 +219,8 @@ ERRORS_HELP = (
 def errors_option(f: Callable) -> Callable:
     """--errors: the standard errors of a fit made from data."""
     return click.option("--errors", metavar="TYPE", default=None, help=ERRORS_HELP)(f)
+
+
 ENGINES = ("local", "dask", "spark")
 
 
