@@ -188,8 +188,10 @@ def test_the_issue_examples():
     assert "nearest the long estimate is reported at every delta" in " ".join(res.notes)
     # delta 1 jumped to -46.56 where delta 1 -+ 1e-6 give 0.5127
     for delta in (0.999999, 1.0, 1.000001):
-        res = coefficient_stability(0.5, 0.30, 0.45, 0.31, var_outcome=1, var_treatment=1,
-                                    var_treatment_residual=0.2, r2_max=0.9, delta=delta)  # fmt: skip
+        res = coefficient_stability(
+            0.5, 0.30, 0.45, 0.31, var_outcome=1, var_treatment=1,
+            var_treatment_residual=0.2, r2_max=0.9, delta=delta,
+        )  # fmt: skip
         assert res.bias_adjusted == pytest.approx(0.5127, abs=1e-4)
 
 
