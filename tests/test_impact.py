@@ -112,3 +112,68 @@ def test_the_command_from_data(run, tmp_path):
     data = json.loads(res.stdout)
     assert data["t"] == pytest.approx(fit.tvalues["rate_marriage"], rel=1e-10)
     assert data["dof"] == fit.df_resid
+
+
+# ---------------------------------------------------------------- issue 19: true sentences
+finite_t = st.floats(0.01, 60) | st.floats(-60, -0.01)
+
+
+@given(finite_t, st.floats(0.01, 10), st.integers(3, 10_000))
+def test_the_share_needs_t_alone(t, se, dof):
+    """1 - t#/|t| (or 1 - |t|/t#) from t and dof equals the share from estimate and se."""
+    from_t = impact_threshold(t=t, dof=dof)
+    from_b = impact_threshold(t * se, se, dof=dof)
+    assert from_t.share_to_invalidate == pytest.approx(from_b.share_to_invalidate, rel=1e-9)
+
+
+@given(finite_t, st.floats(0.01, 10), st.integers(3, 10_000), st.integers(0, 50))
+def test_the_counts_and_the_growth_do_what_the_sentence_says(t, se, dof, covariates):
+    """Invalidate: replacing n x share cases (average effect b) by cases of no effect brings
+    b to d#. Sustain: b grown by `estimate_growth` is d#, and replacing n x share cases by
+    cases with effect |b| + d# brings b to d# (the mixture (1 - pi) b + pi e)."""
+    n = dof + covariates + 2
+    res = impact_threshold(t * se, se, n=n, covariates=covariates)
+    b, d = abs(res.estimate), res.estimate_threshold
+    pi = res.cases_to_replace / n
+    if res.direction == "invalidate":
+        assert (1 - pi) * b + pi * 0 == pytest.approx(d, rel=1e-9)
+        assert "cases with no effect" in res.sentence()
+    else:
+        assert b * (1 + res.estimate_growth) == pytest.approx(d, rel=1e-9)
+        assert (1 - pi) * b + pi * (b + d) == pytest.approx(d, rel=1e-9)
+        assert "would have to grow by" in res.sentence()
+        assert "no effect" not in res.sentence()
+
+
+def test_the_issue_example_says_how_much_the_estimate_must_grow():
+    res = impact_threshold(0.05, 0.04, n=300, covariates=4)
+    assert res.estimate_growth == pytest.approx(0.574, abs=5e-4)
+    assert "grow by 57.4%" in " ".join(res.sentence().split())
+
+
+@given(st.floats(1e-300, 0.5), st.integers(1, 100_000), finite_t)
+def test_tiny_alpha_keeps_a_finite_critical_t(alpha, dof, t):
+    """The critical t from the lower tail: finite to alpha 1e-300, no warning, no null."""
+    res = impact_threshold(t=t, dof=dof, alpha=alpha)
+    assert np.isfinite(res.t_critical) and res.t_critical > 0
+    assert np.isfinite(res.itcv) and np.isfinite(res.share_to_invalidate)
+    str(res)
+
+
+@pytest.mark.parametrize("alpha", [1e-301, 5e-324])
+def test_alpha_below_the_stated_limit_is_refused(alpha):
+    with pytest.raises(InputError, match=r"`alpha` must be at least 1e-300"):
+        impact_threshold(t=3, dof=100, alpha=alpha)
+
+
+@pytest.mark.parametrize("t", [1e155, -1e300])
+def test_a_huge_t_is_no_overflow(t):
+    res = impact_threshold(t=t, dof=196)
+    assert res.correlation == pytest.approx(np.sign(t))
+    assert res.share_to_invalidate == pytest.approx(1.0)
+    str(res)
+
+
+def test_an_infinite_t_from_estimate_and_se_is_refused():
+    with pytest.raises(InputError, match=r"`estimate` / `se` must be a finite t statistic"):
+        impact_threshold(1e300, 1e-300, dof=100)

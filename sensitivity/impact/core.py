@@ -10,8 +10,14 @@ on df residual degrees of freedom and t# the two-sided critical value:
   needs the least impact: Frank 2000);
 - to sustain (|r| < r#): a suppressor, r_x = -r_y with r² = (r# - |r|) / (1 + r#), k = -r²
   (derived in the project's methods notes; the sign convention is Frank's to confirm);
-- share of the estimate to remove: 1 - d# / |b| with d# = t# se (or to add, 1 - |b| / d#),
-  and cases to replace = n x share (the robustness of inference to replacement).
+- share of the estimate to remove: 1 - d# / |b| with d# = t# se, which is 1 - t# / |t| and
+  needs t alone; cases to replace = n x share (the robustness of inference to replacement:
+  replacing that share of cases, which carry the average effect b, by cases of no effect
+  brings the estimate to d#);
+- to sustain, the published share is 1 - |b| / d# (a share of the threshold, 1 - |t| / t#);
+  the estimate itself must grow by d# / |b| - 1 = t# / |t| - 1. Replacing n x (1 - |b| / d#)
+  cases by cases with an effect of |b| + d# (in the estimate's direction) brings the estimate
+  to d#: (1 - pi) b + pi (b + d#) = d# at pi = 1 - b / d#.
 
 References
 ----------
@@ -25,7 +31,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..common.checks import OPEN_UNIT, POSITIVE, require
+from ..common import levels
+from ..common.checks import POSITIVE, require
 from ..common.errors import InputError
 from .result import ImpactResult
 
@@ -70,9 +77,7 @@ def impact_threshold(
     >>> round(float(res.share_to_invalidate), 2)
     0.85
     """
-    from scipy.special import stdtrit
-
-    alpha = float(require(alpha, "alpha", OPEN_UNIT))
+    alpha = levels.check_alpha(alpha)
     if t is None and (estimate is None or se is None):
         raise InputError("give `estimate` and `se`, or `t`")
     if t is not None and se is not None:
@@ -80,7 +85,12 @@ def impact_threshold(
     if se is not None:
         se = float(require(se, "se", POSITIVE))
         estimate = float(require(estimate, "estimate"))
-        t = estimate / se
+        with np.errstate(over="ignore", under="ignore"):
+            t = float(np.float64(estimate) / se)
+        if not np.isfinite(t):
+            raise InputError(
+                f"`estimate` / `se` must be a finite t statistic; got {estimate:g} / {se:g}"
+            )
     t = float(require(t, "t"))
     if dof is not None and (n is not None or covariates is not None):
         raise InputError("give `dof`, or `n` and `covariates`, not both")
@@ -99,9 +109,15 @@ def impact_threshold(
             )
         dof = float(n - covariates - 2)
     dof = float(require(dof, "dof", POSITIVE))
-    t_crit = float(stdtrit(dof, 1 - alpha / 2))
-    r = t / np.sqrt(t**2 + dof)
-    r_crit = t_crit / np.sqrt(t_crit**2 + dof)
+    t_crit = float(levels.t_critical(alpha, dof))
+    if not np.isfinite(t_crit):
+        raise InputError(
+            f"`alpha` {alpha:g} has no finite critical t on {dof:g} degrees of freedom; give a "
+            "larger alpha"
+        )
+    # t / sqrt(t² + dof) through hypot: no overflow at t = 1e155
+    r = t / float(np.hypot(t, np.sqrt(dof)))
+    r_crit = t_crit / float(np.hypot(t_crit, np.sqrt(dof)))
     sign = 1.0 if r >= 0 else -1.0
     size = abs(r)
     if size > r_crit:
@@ -113,13 +129,16 @@ def impact_threshold(
         k = -r2
         component = np.sqrt(r2)
         direction = "sustain"
-    share = None
-    threshold = None
-    if se is not None and estimate is not None:
-        threshold = t_crit * se
-        b = abs(estimate)
-        share = 1 - threshold / b if b > threshold else 1 - b / threshold if threshold else 0.0
-    cases = None if share is None or n is None else n * share
+    # the shares need t alone: d# / |b| = t# / |t|
+    threshold = None if se is None else t_crit * se
+    size_t = abs(t)
+    growth = None
+    if size_t > t_crit:
+        share = 1 - t_crit / size_t
+    else:
+        share = 1 - size_t / t_crit
+        growth = t_crit / size_t - 1 if size_t > 0 else None
+    cases = None if n is None else n * share
     return ImpactResult(
         estimate=estimate,
         se=se,
@@ -137,4 +156,8 @@ def impact_threshold(
         estimate_threshold=threshold,
         share_to_invalidate=share,
         cases_to_replace=cases,
+        estimate_growth=growth,
+        notes=() if size_t > 0 else (
+            "The estimate is zero: no growth in proportion to it can reach the threshold.",
+        ),
     )

@@ -30,6 +30,8 @@ class ImpactResult(Result):
     estimate_threshold: float | None  # t_critical x se
     share_to_invalidate: float | None
     cases_to_replace: float | None
+    # sustain only: the proportion by which the estimate must grow to reach the threshold
+    estimate_growth: float | None = None
     cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
     notes: tuple[str, ...] = ()
     _repr_fields = ("t", "dof", "itcv", "share_to_invalidate")
@@ -54,6 +56,7 @@ class ImpactResult(Result):
                 "estimate_threshold": self.estimate_threshold,
                 "share_to_invalidate": self.share_to_invalidate,
                 "cases_to_replace": self.cases_to_replace,
+                "estimate_growth": self.estimate_growth,
                 "notes": list(self.all_notes()),
             }
         )

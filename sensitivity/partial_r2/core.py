@@ -22,6 +22,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike
 
+from ..common import levels
 from ..common.checks import DOF as DOF_RULE
 from ..common.checks import OPEN_UNIT, POSITIVE, R2_STRENGTH, require
 from ..common.errors import InputError, SensitivityWarning
@@ -29,10 +30,11 @@ from .result import CovariateStrength, PartialR2Result, Scenario
 
 
 def t_critical(alpha: float, dof: ArrayLike) -> np.ndarray:
-    """Two-sided Student-t critical value at level `alpha` on `dof` degrees of freedom."""
-    from scipy.special import stdtrit
+    """Two-sided Student-t critical value at level `alpha` on `dof` degrees of freedom.
 
-    return stdtrit(np.asarray(dof, float), 1 - np.asarray(alpha, float) / 2)
+    From the lower tail (finite for alpha down to 1e-300; see `common.levels`).
+    """
+    return levels.t_critical(alpha, dof)
 
 
 # --------------------------------------------------------------------------- formulas
@@ -281,7 +283,7 @@ def _check_summary(
         se = est / t
     se = float(require(se, "se", POSITIVE))
     fraction = float(require(fraction, "fraction", POSITIVE))
-    alpha = float(require(alpha, "alpha", OPEN_UNIT))
+    alpha = levels.check_alpha(alpha)
     return est, se, dof, fraction, alpha
 
 

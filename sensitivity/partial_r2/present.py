@@ -13,6 +13,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.report import ReportPart
@@ -32,7 +33,7 @@ def _k(s: Scenario) -> float:
 
 
 def _level(r: PartialR2Result) -> str:
-    return f"{1 - r.alpha:.0%}"
+    return level_text(alpha=r.alpha)
 
 
 def _num(r: PartialR2Result, x: float | None) -> str:
