@@ -24,7 +24,7 @@ from numpy.typing import ArrayLike
 
 from ..common import levels
 from ..common.checks import DOF as DOF_RULE
-from ..common.checks import OPEN_UNIT, POSITIVE, R2_STRENGTH, require
+from ..common.checks import POSITIVE, R2_STRENGTH, require
 from ..common.errors import InputError, SensitivityWarning
 from .result import CovariateStrength, PartialR2Result, Scenario
 
