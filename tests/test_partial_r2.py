@@ -3,9 +3,10 @@
 import numpy as np
 import pytest
 from conftest import load_cases
-from hypothesis import given
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from sensitivity.common.errors import InputError
 from sensitivity.partial_r2 import (
     adjusted_for_confounder,
     benchmark_strengths,
@@ -178,3 +179,25 @@ def test_partial_r2_in_unit_interval_and_rv_below_one(t, dof):
 def test_bad_summary_input(kwargs, message):
     with pytest.raises(ValueError, match=message):
         partial_r2_summary(**kwargs)
+
+
+# ---------------------------------------------------------------- issue 19: tiny alpha
+@settings(max_examples=200, deadline=None)
+@given(st.floats(1e-300, 0.5), st.integers(3, 100_000), st.floats(0.01, 100))
+def test_tiny_alpha_keeps_every_number_finite(alpha, dof, t):
+    """The critical t comes from the lower tail: finite to alpha 1e-300 (scipy's t.isf as the
+    reference), no warning, and the level printed from alpha, never "100% CI"."""
+    from scipy.stats import t as student
+
+    res = partial_r2_summary(t, 1.0, dof, alpha=alpha)
+    crit = float(t_critical(alpha, dof - 1))
+    assert crit == pytest.approx(float(student.isf(alpha / 2, dof - 1)), rel=1e-6)
+    assert np.isfinite(res.robustness_value_alpha)
+    text = str(res)
+    assert "100% CI" not in text and "nan" not in text
+
+
+@pytest.mark.parametrize("alpha", [1e-301, 5e-324])
+def test_alpha_below_the_limit_is_refused(alpha):
+    with pytest.raises(InputError, match=r"`alpha` must be at least 1e-300"):
+        partial_r2_summary(3.0, 1.0, 100, alpha=alpha)

@@ -43,8 +43,7 @@ def check_level(level: float, name: str = "ci_level") -> float:
         raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}")
     if value < ALPHA_FLOOR or 1 - value < ALPHA_FLOOR:
         raise InputError(
-            f"`{name}` must be at least {ALPHA_FLOOR:g} and leave at least that to 1; got "
-            f"{value:g}"
+            f"`{name}` must be at least {ALPHA_FLOOR:g} and leave at least that to 1; got {value:g}"
         )
     return value
 

@@ -157,7 +157,7 @@ def impact_threshold(
         share_to_invalidate=share,
         cases_to_replace=cases,
         estimate_growth=growth,
-        notes=() if size_t > 0 else (
-            "The estimate is zero: no growth in proportion to it can reach the threshold.",
-        ),
+        notes=()
+        if size_t > 0
+        else ("The estimate is zero: no growth in proportion to it can reach the threshold.",),
     )

@@ -41,7 +41,8 @@ def table(r: ImpactResult) -> Table:
     return Table(
         ("How strong a confounding variable would have to be", "Value"),
         tuple(rows),
-        title=f"Impact threshold (t = {r.t:.2f} on {r.dof:,.0f} df)" if abs(r.t) < 1e6
+        title=f"Impact threshold (t = {r.t:.2f} on {r.dof:,.0f} df)"
+        if abs(r.t) < 1e6
         else f"Impact threshold (t = {r.t:.3g} on {r.dof:,.0f} df)",
         footnotes=(
             f"Degrees of freedom: {_dof(r)}; two-sided critical t {r.t_critical:.3f}. "

@@ -25,8 +25,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..common.checks import OPEN_UNIT, POSITIVE, require
+from ..common.checks import POSITIVE, require
 from ..common.errors import InputError
+from ..common.levels import check_level, z_critical
 from ..common.scales import RATIO_SCALES, from_risk_ratio, to_risk_ratio
 from .result import SimulationResult
 
@@ -155,7 +156,7 @@ def simulate(
     >>> round(res.median, 4)
     1.26
     """
-    from scipy.special import ndtr, ndtri
+    from scipy.special import ndtr
 
     from ..tipping.core import SCALES, _check_effect, _check_frequency
 
@@ -165,7 +166,7 @@ def simulate(
     if pair is None:
         raise InputError("`ci` is needed: the total-error interval draws from it")
     freq = _check_frequency(scale, outcome)
-    level = float(require(ci_level, "ci_level", OPEN_UNIT))
+    level = check_level(ci_level)
     n = int(require(draws, "draws", POSITIVE))
     if n > 20_000_000:
         raise InputError(f"`draws` must be at most 20,000,000; got {n:,}")
@@ -202,7 +203,7 @@ def simulate(
     discarded = int(n - ok.sum())
     p1, p0, g = p1[ok], p0[ok], g[ok]
     z_random = rng.standard_normal(p1.size)
-    crit = float(ndtri(1 - (1 - level) / 2))
+    crit = float(z_critical(1 - level))
     if ratio:
         conv = {"outcome": freq}
         obs = float(to_risk_ratio(scale, est, **conv))
@@ -221,6 +222,7 @@ def simulate(
         raise InputError("every draw was impossible (a prevalence outside [0, 1]); check priors")
     side = 1 if est >= tgt else -1
     beyond = float(np.mean(side * (systematic - tgt) <= 0))
+    beyond_total = float(np.mean(side * (total - tgt) <= 0))
     notes = [f"Seed {seed}{' (drawn; give --seed to repeat this run)' if drawn_seed else ''}."]
     if discarded:
         notes.append(f"{discarded:,} of {n:,} draws were impossible and discarded.")
@@ -235,6 +237,7 @@ def simulate(
         interval_total=tuple(float(x) for x in np.percentile(total, [2.5, 97.5])),  # type: ignore[arg-type]
         share_beyond_target=beyond, priors={k: v.text for k, v in priors.items()},
         correlation=rho, ci_level=level, notes=tuple(notes),
+        share_beyond_target_total=beyond_total,
         sample=systematic[: min(200_000, systematic.size)].copy(),
         sample_total=total[: min(200_000, total.size)].copy(),
     )  # fmt: skip
