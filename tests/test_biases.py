@@ -83,7 +83,7 @@ def test_evalue_rd_from_counts(run):
 @pytest.mark.parametrize(
     "args, message",
     [
-        (("rd", "--counts", 60, 1000, 70, 50), "Error: `counts`: cases must not exceed totals"),
+        (("rd", "--counts", 60, 1000, 70, 50), "Error: `--counts`: cases must not exceed totals"),
         (("rd", 0.02), "Error: the risk difference takes: evalue rd --counts"),
         (("rr", 2, "--counts", 1, 2, 3, 4), "Error: the risk difference takes"),
     ],

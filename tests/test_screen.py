@@ -384,17 +384,17 @@ def test_columns_are_mapped_and_text_is_read(run, tmp_path):
 @pytest.mark.parametrize(
     "args, message",
     [
-        (["--columns", "estimate=nope"], "`columns`: 'nope' (for estimate) is not a column"),
-        (["--columns", "size=estimate"], "`columns`: 'size' is not a column the screen reads"),
+        (["--columns", "estimate=nope"], "`--columns`: 'nope' (for estimate) is not a column"),
+        (["--columns", "size=estimate"], "`--columns`: 'size' is not a column the screen reads"),
         (["--columns", "estimate"], "Invalid value for --columns: 'estimate' must be NAME=COLUMN"),
-        (["--from-text", "nope"], "`from_text`: 'nope' is not a column of the table"),
-        (["--output", "x.docx"], "`output`: cannot tell the format of 'x.docx'"),
-        (["--threshold", "0.5"], "`threshold` must be at least 1"),
-        (["--plot", "x.jpg"], "`plot` must end in .png, .svg or .pdf"),
+        (["--from-text", "nope"], "`--from-text`: 'nope' is not a column of the table"),
+        (["--output", "x.docx"], "`--output`: cannot tell the format of 'x.docx'"),
+        (["--threshold", "0.5"], "`--threshold` must be at least 1"),
+        (["--plot", "x.jpg"], "`--plot` must end in .png, .svg or .pdf"),
         # a confounder weaker than none, or not a number, would flag every row "false"
         (["--confounder", "0.5", "2"], "`rr_treatment` must be at least 1; got 0.5"),
-        (["--confounder", "2", "nan"], "`rr_outcome` must be a finite number; got nan"),
-        (["--alpha", "2"], "`alpha` must lie strictly between 0 and 1; got 2"),
+        (["--confounder", "2", "nan"], "Invalid value for '--confounder': must be a finite number; got nan"),
+        (["--alpha", "2"], "`--alpha` must lie strictly between 0 and 1; got 2"),
     ],
 )
 def test_bad_options_exit_2_with_one_line(run, tmp_path, args, message):
