@@ -42,9 +42,11 @@ _EXPORTS = {
     "simulate": "simulate",
     "rosenbaum_bounds": "matched",
     "coefficient_stability": "stability",
+    "coefficient_stability_from_data": "adapters.stability",
+    "rosenbaum_bounds_from_data": "adapters.matched",
     "from_model": "adapters",
     "evalue_from_model": "adapters.models",
-    "report": "adapters.reporting",
+    "report": "reporting",
     "screen_table": "screen.stream",
     "screen_batches": "screen.stream",
     "screen_frames": "screen.stream",
@@ -53,14 +55,37 @@ _EXPORTS = {
     "SensitivityWarning": "common.errors",
 }
 
+#: Folders of the package that are not method families.
+_NOT_FAMILIES = frozenset({"adapters", "commands", "common", "output", "screen"})
+
+
+def _family_exports() -> dict[str, str]:
+    """Each method family's public names (its ``__all__``), found from the folders, so a new
+    family is exported without an edit here. Imported only when a name is not listed above."""
+    from pathlib import Path
+
+    found: dict[str, str] = {}
+    for folder in sorted(Path(__file__).parent.iterdir()):
+        if folder.name in _NOT_FAMILIES or not (folder / "__init__.py").is_file():
+            continue
+        module = import_module(f".{folder.name}", __name__)
+        for name in getattr(module, "__all__", ()):
+            found.setdefault(name, folder.name)
+    return found
+
+
 __all__ = sorted(_EXPORTS)
 
 
 def __getattr__(name: str) -> Any:
     if name in _EXPORTS:
         return getattr(import_module(f".{_EXPORTS[name]}", __name__), name)
+    if not name.startswith("_"):
+        family = _family_exports().get(name)
+        if family is not None:
+            return getattr(import_module(f".{family}", __name__), name)
     raise AttributeError(f"module 'sensitivity' has no attribute {name!r}")
 
 
 def __dir__() -> list[str]:
-    return __all__ + ["__version__"]
+    return sorted(set(__all__) | set(_family_exports())) + ["__version__"]

@@ -4,7 +4,6 @@ accepts in every format."""
 
 from __future__ import annotations
 
-import ast
 import csv
 import html
 import io
@@ -29,93 +28,6 @@ from sensitivity.tipping import (
 )
 
 ROOT = Path(__file__).resolve().parent.parent
-PACKAGE = ROOT / "sensitivity"
-FAMILIES = ("evalues", "partial_r2", "tipping")
-
-# --------------------------------------------------------------------------- import arrows
-#: Layer of each part of the package; an import may only point to the same layer or below.
-RANK = {"common": 0, "core": 1, "result": 1, "output": 2, "present": 3, "adapters": 3}
-RANK |= {"screen": 4, "commands": 5}
-HEAVY = ("pandas", "matplotlib", "click", "statsmodels", "pyarrow", "orjson")
-
-
-def _part(module: str) -> str | None:
-    """The layer name of a dotted module inside the package (None for outside it)."""
-    parts = module.split(".")
-    if parts[0] != "sensitivity" or len(parts) < 2:
-        return None
-    if parts[1] in FAMILIES:
-        return parts[2] if len(parts) > 2 and parts[2] in ("core", "result", "present") else "core"
-    return parts[1]
-
-
-def _imports(path: Path):
-    """(module imported, is it at module level) for every import in a file, resolved."""
-    rel = path.relative_to(ROOT).with_suffix("")
-    here = ".".join(rel.parts)
-    package = here if path.name == "__init__.py" else here.rpartition(".")[0]
-    tree = ast.parse(path.read_text(encoding="utf-8"))
-    top = {id(n) for n in tree.body}
-    for node in ast.walk(tree):
-        if isinstance(node, ast.Import):
-            for alias in node.names:
-                yield alias.name, id(node) in top
-        elif isinstance(node, ast.ImportFrom):
-            if node.level:
-                base = package.split(".")
-                base = base[: len(base) - node.level + 1]
-                module = ".".join(base + ([node.module] if node.module else []))
-            else:
-                module = node.module or ""
-            names = [f"{module}.{a.name}" for a in node.names] if not node.module else [module]
-            for name in names:
-                yield name, id(node) in top
-
-
-def _layer_of_file(path: Path) -> str:
-    rel = path.relative_to(PACKAGE).parts
-    if rel[0] in FAMILIES:
-        return rel[1].removesuffix(".py") if rel[1] != "__init__.py" else "family-init"
-    return rel[0].removesuffix(".py") if len(rel) > 1 else "root"
-
-
-def _wrong_arrows() -> list[str]:
-    bad = []
-    for path in sorted(PACKAGE.rglob("*.py")):
-        layer = _layer_of_file(path)
-        if layer in ("root", "family-init", "__main__"):
-            continue
-        own_family = path.relative_to(PACKAGE).parts[0]
-        for module, top in _imports(path):
-            if layer in ("core", "result", "common") and top and module.split(".")[0] in HEAVY:
-                bad.append(f"{path.relative_to(ROOT)} imports {module} at module level")
-            target = _part(module)
-            if target is None:
-                continue
-            if layer in ("core", "result") and target == "present":
-                bad.append(f"{path.relative_to(ROOT)} ({layer}) imports {module}")
-            if layer == "present" and target == "present" and module.split(".")[1] != own_family:
-                bad.append(f"{path.relative_to(ROOT)} imports another family's {module}")
-            if RANK.get(target, 0) > RANK.get(layer, 99):
-                bad.append(f"{path.relative_to(ROOT)} ({layer}) imports {module} ({target})")
-    for module, _ in _imports(ROOT / "cli.py"):
-        part = _part(module)
-        if part is not None and part not in ("commands", "common"):
-            bad.append(f"cli.py imports {module}")
-    return bad
-
-
-def test_imports_point_one_way():
-    assert _wrong_arrows() == []
-
-
-def test_the_arrow_check_catches_a_wrong_arrow(tmp_path, monkeypatch):
-    # The scanner itself: a core module importing presentation is reported.
-    fake = PACKAGE / "evalues" / "core.py"
-    text = fake.read_text(encoding="utf-8")
-    monkeypatch.setattr(Path, "read_text", lambda self, **k: text + "\nfrom ..output import x\n")
-    found = [a for a in _wrong_arrows() if "evalues/core.py" in a]
-    assert found and "sensitivity.output" in found[0]
 
 
 # --------------------------------------------------------------------------- one Document

@@ -380,3 +380,28 @@ def test_above_the_hodges_lehmann_limit_a_note_says_why_it_is_missing():
     res = rosenbaum_bounds(differences=d, gamma=[1, 2], method="normal")
     assert res.estimate_low is None
     assert any("Hodges-Lehmann range is not given above 20,000 pairs" in n for n in res.notes)
+
+
+def test_pairs_from_data_in_python_equal_the_differences_and_the_command(run, tmp_path):
+    import pandas as pd
+
+    from sensitivity import rosenbaum_bounds_from_data
+
+    path = tmp_path / "pairs.csv"
+    lines = ["exposed,control"] + [f"{a:g},{b:g}" for a, b in PAIRS] + ["12,", "x,3"]
+    path.write_text("\n".join(lines) + "\n")
+    res = rosenbaum_bounds_from_data(path, treated="exposed", control="control",
+                                     method="normal")  # fmt: skip
+    ref = rosenbaum_bounds(differences=D, method="normal", missing=2)
+    assert res.to_dict() == ref.to_dict()
+    frame = pd.read_csv(path)
+    assert rosenbaum_bounds_from_data(frame, treated="exposed", control="control",
+                                      method="normal").to_dict() == ref.to_dict()  # fmt: skip
+    cli = run("matched", "--data", path, "--treated", "exposed", "--control", "control",
+              "--method", "normal", "--gamma", "1:6:0.5", "--format", "json")  # fmt: skip
+    import numpy as np
+
+    grid = rosenbaum_bounds_from_data(path, treated="exposed", control="control",
+                                      method="normal", gamma=np.arange(1, 6.5, 0.5))  # fmt: skip
+    printed, own = json.loads(cli.stdout), json.loads(json.dumps(grid.to_dict()))
+    assert {k: printed[k] for k in own} == own  # the command adds its sentence

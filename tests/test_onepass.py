@@ -18,6 +18,7 @@ import statsmodels.formula.api as smf
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+import sensitivity.adapters.batches as batches
 import sensitivity.adapters.files as files
 import sensitivity.adapters.onepass as onepass
 from sensitivity.adapters.onepass import partial_r2_one_pass
@@ -89,7 +90,7 @@ def test_file_formats_and_small_batches_agree(fair, tmp_path, monkeypatch):
     fair.to_csv(tmp_path / "fair.tsv", sep="\t", index=False)
     fair.to_csv(tmp_path / "fair.csv", index=False)
     monkeypatch.setattr(files, "CHUNK_BYTES", 997)  # hundreds of pieces, cut anywhere
-    monkeypatch.setattr(onepass, "BATCH_ROWS", 37)
+    monkeypatch.setattr(batches, "BATCH_ROWS", 37)
     for name in ("fair.parquet", "fair.tsv", "fair.csv"):
         _same(reference, partial_r2_one_pass(tmp_path / name, formula, "rate_marriage"))
     _same(reference, partial_r2_one_pass(fair, formula, "rate_marriage"))
@@ -331,11 +332,11 @@ def test_any_small_table_equals_statsmodels(n, k, levels, missing, batch, seed):
     fit = smf.ols(formula, data=frame).fit()
     if np.linalg.matrix_rank(fit.model.exog) < fit.model.exog.shape[1]:
         return
-    onepass.BATCH_ROWS, before = batch, onepass.BATCH_ROWS
+    batches.BATCH_ROWS, before = batch, batches.BATCH_ROWS
     try:
         got = partial_r2_one_pass(frame, formula, "t")
     finally:
-        onepass.BATCH_ROWS = before
+        batches.BATCH_ROWS = before
     assert float(got.estimate) == pytest.approx(fit.params["t"], rel=1e-8, abs=1e-12)
     assert float(got.se) == pytest.approx(fit.bse["t"], rel=1e-8)
     assert float(got.dof) == fit.df_resid

@@ -269,3 +269,25 @@ def test_the_command_from_data(run):
     assert res.exit_code == 0, res.stderr
     data = json.loads(res.stdout)
     assert data["bias_adjusted"] is not None and data["delta_for_target"] > 1
+
+
+def test_from_data_in_python_equals_the_command_and_a_statsmodels_refit(run):
+    # Reference: statsmodels' own OLS fits of the two formulas on the demo data.
+    from pathlib import Path
+
+    import pandas as pd
+    import statsmodels.formula.api as smf
+
+    from sensitivity import coefficient_stability_from_data
+
+    demo = Path(__file__).resolve().parent.parent / "demo" / "harbourside_bp.csv"
+    short, long = "sbp ~ commute_min", "sbp ~ commute_min + age + female + smoker + bmi"
+    res = coefficient_stability_from_data(demo, short, long, "commute_min")
+    frame = pd.read_csv(demo)
+    fit_long = smf.ols(long, frame).fit()
+    assert res.estimate_long == pytest.approx(fit_long.params["commute_min"], rel=1e-12)
+    assert res.r2_short == pytest.approx(smf.ols(short, frame).fit().rsquared, rel=1e-12)
+    cli = run("stability", "--data", demo, "--formula-short", short, "--formula-long", long,
+              "--treatment", "commute_min", "--format", "json")  # fmt: skip
+    printed, own = json.loads(cli.stdout), json.loads(json.dumps(res.to_dict()))
+    assert {k: printed[k] for k in own} == own  # the command adds its sentence

@@ -11,7 +11,7 @@ def from_model(results: Any, treatment: str, **options: Any) -> Any:
     and Cox fits (statsmodels, or lifelines' CoxPHFitter); partial R² for linearmodels
     PanelOLS and PooledOLS fits (absorbed entity and time effects) and pyfixest
     `feols` fits (absorbed fixed effects)."""
-    from .models import _kind, evalue_from_model
+    from .models import evalue_from_model, model_kind
 
     if type(results).__module__.startswith("linearmodels."):
         from .linearmodels import partial_r2_from_linearmodels
@@ -21,7 +21,7 @@ def from_model(results: Any, treatment: str, **options: Any) -> Any:
         from .pyfixest import partial_r2_from_pyfixest
 
         return partial_r2_from_pyfixest(results, treatment, **options)
-    kind, _ = _kind(results)
+    kind, _ = model_kind(results)
     if kind == "ols":
         from .statsmodels import partial_r2_from_model
 

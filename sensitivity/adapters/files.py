@@ -23,7 +23,7 @@ def read_table(path: str | Path, argument: str = "data") -> Any:
     """A pandas DataFrame from `path`; ValueError names `argument` for any unreadable file."""
     import pandas as pd
 
-    p, kind = _checked(path, argument)
+    p, kind = checked_file(path, argument)
     try:
         if kind == "csv":
             frame = pd.read_csv(p)
@@ -59,7 +59,7 @@ def file_kind(path: str | Path, argument: str = "file") -> str:
     return kind
 
 
-def _checked(path: str | Path, argument: str) -> tuple[Path, str]:
+def checked_file(path: str | Path, argument: str) -> tuple[Path, str]:
     """The file and its format, refusing an unknown extension, a missing or empty file."""
     p = Path(path)
     kind = file_kind(p, argument)
@@ -99,7 +99,7 @@ def read_frames(path: str | Path, argument: str = "file", batch_rows: int = BATC
     import polars as pl
 
     share = share or Share()
-    p, kind = _checked(path, argument)
+    p, kind = checked_file(path, argument)
     try:
         if kind in ("csv", "tsv"):
             size = p.stat().st_size

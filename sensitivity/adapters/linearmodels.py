@@ -16,12 +16,12 @@ import numpy as np
 
 from ..common.errors import InputError
 from ..partial_r2.result import CovariateStrength, PartialR2Result
-from .statsmodels import (
-    _group_r2,
-    _term_groups,
+from .design import (
     classical_errors_used,
+    group_r2,
     no_interaction,
     partial_r2_from_parts,
+    term_groups,
 )
 
 #: The linearmodels estimators whose fits are least squares with absorbed effects.
@@ -89,12 +89,12 @@ def partial_r2_from_linearmodels(
         t_params = np.asarray(treat_fit.params, float)
         t_cov = np.asarray(treat_fit.cov, float)
         position = {str(c): k for k, c in enumerate(others)}
-        for name, cols in _term_groups(None, names).items():
+        for name, cols in term_groups(None, names).items():
             cols = [c for c in cols if c != j and names[c] not in ("Intercept", "const")]
             if not cols:
                 continue
-            r2y = _group_r2(params, cov, dof, cols)
-            r2t = _group_r2(t_params, t_cov, float(treat_fit.df_resid),
+            r2y = group_r2(params, cov, dof, cols)
+            r2t = group_r2(t_params, t_cov, float(treat_fit.df_resid),
                             [position[names[c]] for c in cols])  # fmt: skip
             covariates.append(CovariateStrength(name, tuple(names[c] for c in cols), r2t, r2y))
     y = np.asarray(model.dependent.values2d, float).ravel()

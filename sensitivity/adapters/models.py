@@ -23,7 +23,7 @@ SHOWN = {"logit": "logistic", "log-binomial": "log-binomial", "poisson": "Poisso
          "negbin": "negative binomial", "cox": "Cox", "ols": "OLS"}  # fmt: skip
 
 
-def _kind(results: Any) -> tuple[str, str]:
+def model_kind(results: Any) -> tuple[str, str]:
     """(model kind, effect scale) of a fitted model; InputError for one we do not route."""
     model = getattr(results, "model", None)
     name = type(model).__name__
@@ -149,7 +149,7 @@ def evalue_from_model(
     >>> res.scale, res.outcome, res.model["kind"]
     ('or', 'rare', 'logit')
     """
-    kind, scale = _kind(results)
+    kind, scale = model_kind(results)
     if kind == "ols":
         raise InputError("`results` is an OLS fit: use the partial-R² route (from_model)")
     if kind == "cox" and type(getattr(results, "model", None)).__name__ != "PHReg":
@@ -304,7 +304,7 @@ def evalue_from_data(
     """
     from dataclasses import replace
 
-    from .statsmodels import check_names
+    from .design import check_names
 
     if not hasattr(data, "columns"):
         from .files import read_table
@@ -333,9 +333,9 @@ def impact_from_model(results: Any, treatment: str, *, alpha: float = 0.05) -> A
     """The impact threshold of `treatment` in a fitted statsmodels OLS model (classical se;
     df and covariates from the fit)."""
     from ..impact.core import impact_threshold
-    from .statsmodels import _check_ols
+    from .statsmodels import check_ols
 
-    model, _ = _check_ols(results)
+    model, _ = check_ols(results)
     names = list(model.exog_names)
     j = _treatment_index(names, treatment)
     cov = np.asarray(results.normalized_cov_params, float) * float(results.scale)

@@ -16,12 +16,12 @@ import numpy as np
 
 from ..common.errors import InputError
 from ..partial_r2.result import CovariateStrength, PartialR2Result
-from .statsmodels import (
-    _group_r2,
-    _term_groups,
+from .design import (
     classical_errors_used,
+    group_r2,
     no_interaction,
     partial_r2_from_parts,
+    term_groups,
 )
 
 
@@ -96,13 +96,13 @@ def partial_r2_from_pyfixest(
     if others:
         t_params, t_cov = _least_squares(X[:, others], X[:, j], dof + 1)
         position = {c: k for k, c in enumerate(others)}
-        for name, cols in _term_groups(None, names).items():
+        for name, cols in term_groups(None, names).items():
             cols = [c for c in cols if c != j and names[c] != "Intercept"]
             if cols:
                 covariates.append(CovariateStrength(
                     name, tuple(names[c] for c in cols),
-                    _group_r2(t_params, t_cov, dof + 1, [position[c] for c in cols]),
-                    _group_r2(params, cov, dof, cols),
+                    group_r2(t_params, t_cov, dof + 1, [position[c] for c in cols]),
+                    group_r2(params, cov, dof, cols),
                 ))  # fmt: skip
     y_raw = np.asarray(getattr(results, "_Y_untransformed", y), float).ravel()
     return partial_r2_from_parts(

@@ -10,5 +10,6 @@ COMMANDS = {
     "matched": ("matched", "Rosenbaum bounds for matched pairs (sign and signed-rank tests)."),
     "stability": ("stability", "Coefficient stability under proportional selection (Oster)."),
     "impact": ("impact", "Impact threshold of a confounding variable (Frank)."),
+    "pool": ("pool", "Confounding in a random-effects meta-analysis: the share of strong effects."),
     "report": ("report", "Write the robustness section of a manuscript to a folder."),
 }

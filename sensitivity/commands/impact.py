@@ -40,9 +40,10 @@ def impact_cmd(estimate: Any, se: Any, t_stat: Any, n: Any, covariates: Any, dof
     if data:
         if not (formula and treatment):
             raise click.UsageError("data input needs --formula and --treatment as well")
+        from sensitivity.adapters.design import check_names
         from sensitivity.adapters.files import read_table
         from sensitivity.adapters.models import impact_from_model
-        from sensitivity.adapters.statsmodels import check_names, fit_formula
+        from sensitivity.adapters.statsmodels import fit_formula
 
         frame = read_table(data, "data")
         check_names(frame, formula, treatment)

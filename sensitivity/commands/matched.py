@@ -54,37 +54,28 @@ def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discord
       sensitivity matched --data demo/matched_pairs.csv --treated night_shift_sbp \\
           --control day_shift_sbp --gamma 1:2:0.1
     """
-    from sensitivity.common.errors import InputError
     from sensitivity.matched.core import rosenbaum_bounds
-    from sensitivity.tipping.core import parse_range
+    from sensitivity.tipping.ranges import parse_range
 
     grid = parse_range(gamma, "gamma")
     if data:
-        import numpy as np
-
         from sensitivity.adapters.files import read_table
+        from sensitivity.adapters.matched import matched_differences
 
         frame = read_table(data, "data")
         if differences and (treated or control):
             raise click.UsageError("give --differences, or --treated and --control, not both")
-        cols = [differences] if differences else [treated, control]
-        if not all(cols):
+        if not all([differences] if differences else [treated, control]):
             raise click.UsageError("--data needs --treated and --control, or --differences")
-        for col in cols:
-            if col not in frame.columns:
-                raise InputError(f"`data`: no column {col!r}; columns: {', '.join(frame.columns)}")
-        import pandas as pd
-
-        values = frame[cols].apply(lambda c: pd.to_numeric(c, errors="coerce"))
-        bad = values.isna().any(axis=1).to_numpy()
-        if bad.any():
-            rows = ", ".join(str(i + 2) for i in np.flatnonzero(bad)[:20])
-            click.echo(f"Note: {int(bad.sum())} pairs with a missing or non-numeric value left "
+        d, left_out = matched_differences(
+            frame, treated=treated, control=control, differences=differences
+        )
+        if len(left_out):
+            rows = ", ".join(str(i + 2) for i in left_out[:20])
+            click.echo(f"Note: {len(left_out)} pairs with a missing or non-numeric value left "
                        f"out (file lines {rows})", err=True)  # fmt: skip
-        v = values.to_numpy(float)[~bad]
-        d = v[:, 0] if differences else v[:, 0] - v[:, 1]
         result = rosenbaum_bounds(differences=d, gamma=grid, alpha=alpha, method=method,
-                                  zeros=zeros, missing=int(bad.sum()),
+                                  zeros=zeros, missing=len(left_out),
                                   alternative=alternative)  # fmt: skip
     else:
         if discordant is None or treated_events is None:

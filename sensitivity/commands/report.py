@@ -68,7 +68,7 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
             "with --formula, --treatment and --model"
         )
     if estimates:
-        from sensitivity.adapters.reporting import results_from_table
+        from sensitivity.reporting import results_from_table
 
         items = results_from_table(estimates)
     elif data:

@@ -72,6 +72,15 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
     help="Without --output: csv or json puts the screened table on stdout; text, markdown "
     "or latex the summary.",
 )
+@click.option(
+    "--pool",
+    "pool_threshold",
+    type=float,
+    metavar="Q",
+    help="Also pool the screened studies (random effects, Paule-Mandel) and show how much "
+    "common bias would bring the share of true effects beyond Q down to 10%; JSON adds it "
+    "under 'pool'. The pool command has the full options.",
+)
 @plot_options("the distribution of E-values (estimate and interval) by scale")
 def screen_cmd(
     file: str,
@@ -85,6 +94,7 @@ def screen_cmd(
     plots: tuple[str, ...],
     plot_limits: Any,
     plot_marks: Any,
+    pool_threshold: float | None = None,
 ) -> None:
     """Screen a table of published results (CSV, TSV, Excel or Parquet), one row each.
 
@@ -101,6 +111,7 @@ def screen_cmd(
       sensitivity screen demo/published_results.csv --output screened.csv
       sensitivity screen demo/published_results.csv --from-text result \\
           --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
+      sensitivity screen demo/pooled_studies.csv --from-text result --pool 1.1
     """
     from sensitivity.adapters.files import Share, read_frames
     from sensitivity.common.overlap import read_ahead
@@ -111,25 +122,28 @@ def screen_cmd(
     frames = read_ahead(read_frames(file, "file", share=share))
 
     from sensitivity.common.errors import InputError
-    from sensitivity.output.streams import TABLE_FORMATS, TableWriter
     from sensitivity.screen.core import Options, computed_names
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
+    from sensitivity.screen.write import check_table_path, table_writer
 
     if plot_marks:
         raise click.UsageError("--plot-mark does not apply to screen")
     if output is not None:
-        from pathlib import Path
-
-        if Path(output).suffix.lower() not in TABLE_FORMATS:
-            raise InputError(
-                f"`output`: cannot tell the format of {Path(output).name!r} from its "
-                f"extension; use one of {', '.join(sorted(TABLE_FORMATS))}"
-            )
-        if not Path(output).parent.is_dir():
-            raise InputError(f"`output`: folder {str(Path(output).parent)!r} does not exist")
+        check_table_path(output)
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
+    pooled = None
+    if pool_threshold is not None:  # pooled first: a table that cannot be pooled stops here
+        from sensitivity.adapters.files import read_table
+        from sensitivity.pooling.data import pool_table
+
+        pooled = pool_table(
+            read_table(file, "file"),
+            threshold=pool_threshold,
+            columns=_column_map(column_map) or None,
+            from_text=from_text,
+        )
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
     stream = screen_frames(
         frames,
@@ -140,14 +154,10 @@ def screen_cmd(
         tally=tally,
     )
     progress = sys.stderr.isatty()
-    writer: Any = None
     # the screen's own text columns (codes, reasons, notes, true/false) never start with a
     # formula character (tests/test_screen.py), so only the input's are defused
     trusted = computed_names(Options(confounders=confounders))
-    if output is not None:
-        writer = TableWriter(output, trusted=trusted)
-    elif fmt in ("csv", "json"):
-        writer = _StdoutWriter(fmt, trusted)
+    writer = table_writer(output, fmt, trusted)
     for batch in stream:
         if writer is not None:
             writer.write(batch)
@@ -157,7 +167,10 @@ def screen_cmd(
         click.echo("", err=True)
     summary = tally.result(tuple(confounders), click.format_filename(file))
     if writer is not None:
-        writer.close({"summary": summary.to_dict()} if writer.kind == "json" else None)
+        extra = {"summary": summary.to_dict()}
+        if pooled is not None:
+            extra["pool"] = pooled.to_dict()
+        writer.close(extra if writer.kind == "json" else None)
     if output is not None:
         click.echo(f"Wrote {output}", err=True)
     document = summary.document()
@@ -167,6 +180,12 @@ def screen_cmd(
             click.echo(document.sentence, err=True)
     else:
         click.echo(document.sentence, err=True)
+    if pooled is not None:
+        shown = output is None and fmt not in ("csv", "json")
+        if shown:
+            click.echo("\n" + pooled.document().render(fmt, tables_only=fmt != "text"))
+        if not shown or fmt != "text":
+            click.echo(pooled.sentence(), err=True)
     if plots:
         from sensitivity.screen.figures import screen_figure
 
@@ -178,33 +197,6 @@ def _bar(done: float, rows: int, width: int = 30) -> str:
     """A progress bar for stderr: how much of the file is read, and the rows screened."""
     filled = min(int(done * width), width)
     return f"[{'#' * filled}{'.' * (width - filled)}] {done:4.0%}  {rows:,} rows screened"
-
-
-class _StdoutWriter:
-    """The screened table on stdout, as CSV or JSON, batch by batch."""
-
-    def __init__(self, kind: str, trusted: Any = ()) -> None:
-        import tempfile
-
-        from sensitivity.output.streams import TableWriter
-
-        self.kind = kind
-        self._tmp = tempfile.NamedTemporaryFile(suffix=f".{kind}", delete=False)
-        self._tmp.close()
-        self._writer = TableWriter(self._tmp.name, trusted=trusted)
-
-    def write(self, batch: Any) -> None:
-        self._writer.write(batch)
-
-    def close(self, extra: dict | None = None) -> None:
-        import os
-        import shutil
-
-        self._writer.close(extra)
-        with open(self._tmp.name, "rb") as fh:
-            shutil.copyfileobj(fh, sys.stdout.buffer)
-        sys.stdout.buffer.flush()
-        os.unlink(self._tmp.name)
 
 
 command = screen_cmd

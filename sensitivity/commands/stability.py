@@ -13,40 +13,6 @@ from ._options import Command, emit, format_options, plot_options
 SHORT_HELP = COMMANDS["stability"][1]
 
 
-def _from_data(data: str, short: str, long: str, treatment: str) -> dict[str, float]:
-    """The two fits and the auxiliary regression of the treatment on the controls."""
-    import numpy as np
-    import statsmodels.formula.api as smf
-
-    from sensitivity.adapters.files import read_table
-    from sensitivity.adapters.statsmodels import check_names, fit_formula
-    from sensitivity.common.errors import InputError
-
-    frame = read_table(data, "data")
-    check_names(frame, short, treatment)
-    check_names(frame, long, treatment)
-    fit_short, _ = fit_formula(frame, short)
-    fit_long, _ = fit_formula(frame, long)
-    if int(fit_short.nobs) != int(fit_long.nobs):
-        raise InputError("`formula_short` and `formula_long` must be fitted on the same rows")
-    if treatment not in fit_long.params.index:
-        raise InputError(f"`treatment` {treatment!r} is not a coefficient of the long model")
-    terms = [t.strip() for t in long.split("~", 1)[1].split("+")]
-    controls = " + ".join(t for t in terms if t != treatment) or "1"
-    aux = smf.ols(f"{treatment} ~ {controls}", frame.loc[fit_long.model.data.row_labels]).fit()
-    y = np.asarray(fit_long.model.endog, float)
-    x = np.asarray(frame.loc[fit_long.model.data.row_labels, treatment], float)
-    return {
-        "estimate_short": float(fit_short.params[treatment]),
-        "r2_short": float(fit_short.rsquared),
-        "estimate_long": float(fit_long.params[treatment]),
-        "r2_long": float(fit_long.rsquared),
-        "var_outcome": float(np.var(y)),
-        "var_treatment": float(np.var(x)),
-        "var_treatment_residual": float(np.var(aux.resid)),
-    }
-
-
 @click.command("stability", cls=Command, short_help=SHORT_HELP)
 @click.option("--estimate-short", type=float, help="Coefficient without the controls.")
 @click.option("--r2-short", type=float, help="R² without the controls.")
@@ -96,7 +62,9 @@ def stability_cmd(estimate_short: Any, r2_short: Any, estimate_long: Any, r2_lon
             raise click.UsageError(
                 "data input needs --formula-short, --formula-long and --treatment as well"
             )
-        numbers = _from_data(data, formula_short, formula_long, treatment)
+        from sensitivity.adapters.stability import stability_inputs_from_data
+
+        numbers = stability_inputs_from_data(data, formula_short, formula_long, treatment)
     else:
         numbers = {
             "estimate_short": estimate_short, "r2_short": r2_short,

@@ -45,11 +45,23 @@ class Check:
 
     `bad` takes the fields' arrays (broadcast together) and returns a mask of bad entries;
     `message` takes one bad entry's values and returns the text naming the fields and rule.
+    `kind` is the rule in words without any row's values, so that a batch can count rows
+    flagged for the same rule together; empty when the message names no value (the message
+    is then its own kind).
     """
 
     fields: tuple[str, ...]
     bad: Callable[..., np.ndarray]
     message: Callable[..., str]
+    kind: str = ""
+    rule: Rule | None = None  # a one-field rule, so a caller may name the field its own way
+
+    def message_as(self, values: Sequence[object], called: Mapping[str, str]) -> str:
+        """The message, naming the field as the caller knows it (`called`: field -> name)."""
+        name = self.fields[0]
+        if self.rule is None or name not in called:
+            return self.message(*values)
+        return f"`{called[name]}` {self.rule.text}; got {show(float(values[0]))}"  # type: ignore[arg-type]
 
 
 def field(
@@ -63,12 +75,15 @@ def field(
     With `where`, the rule applies only to rows where ``where(*also_arrays)`` holds (a ratio
     scale's positivity, say); `also` names the fields `where` reads.
     """
+    kind = f"`{name}` {rule.text}"
     if where is None:
-        return Check((name,), rule.bad, lambda v: f"`{name}` {rule.text}; got {show(v)}")
+        return Check((name,), rule.bad, lambda v: f"{kind}; got {show(v)}", kind, rule)
     return Check(
         (name, *also),
         lambda v, *rest: np.asarray(where(*rest), bool) & rule.bad(v),
-        lambda v, *rest: f"`{name}` {rule.text}; got {show(v)}",
+        lambda v, *rest: f"{kind}; got {show(v)}",
+        kind,
+        rule,
     )
 
 
@@ -92,6 +107,7 @@ def interval_order(lower: str = "lower", upper: str = "upper", label: str = "ci"
         lambda lo, up: (
             f"`{label}` lower limit must not exceed the upper; got {show(lo)} > {show(up)}"
         ),
+        f"`{label}` lower limit must not exceed the upper",
     )
 
 
@@ -106,6 +122,7 @@ def inside_interval(
             f"`{estimate}` must lie within `{label}`; got {show(e)} outside "
             f"[{show(lo)}, {show(up)}]"
         ),
+        f"`{estimate}` must lie within `{label}`",
     )
 
 
@@ -128,8 +145,15 @@ def require(value: object, name: str, *rules: Rule) -> np.ndarray:
     return arr
 
 
-def require_all(values: Mapping[str, np.ndarray], checks: Iterable[Check]) -> None:
-    """Raise InputError for the first entry that breaks any of `checks` (single results)."""
+def require_all(
+    values: Mapping[str, np.ndarray],
+    checks: Iterable[Check],
+    called: Mapping[str, str] | None = None,
+) -> None:
+    """Raise InputError for the first entry that breaks any of `checks` (single results).
+
+    `called` names fields as the caller's argument knows them (a single result's `lower` and
+    `upper` are its `ci`)."""
     for check in checks:
         arrays = [np.asarray(values[f]) for f in check.fields]
         shape = np.broadcast_shapes(*(a.shape for a in arrays))
@@ -138,7 +162,7 @@ def require_all(values: Mapping[str, np.ndarray], checks: Iterable[Check]) -> No
         if np.any(bad):
             i = np.flatnonzero(bad)[0]
             picked = [np.broadcast_to(a, shape).flat[i] for a in arrays]
-            raise InputError(check.message(*picked))
+            raise InputError(check.message_as(picked, called or {}))
 
 
 def flags(
@@ -153,7 +177,20 @@ def flags(
     missing and are left to the checks that ask for them (a NaN is never "good" silently:
     `FINITE` flags it where a field is required).
     """
+    return flag_kinds(values, checks, n, reasons)[0]
+
+
+def flag_kinds(
+    values: Mapping[str, np.ndarray],
+    checks: Sequence[Check],
+    n: int,
+    reasons: np.ndarray | None = None,
+    kinds: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """`flags`, with each flagged row's `Check.kind` beside its reason (rows already flagged
+    keep theirs, from `kinds`)."""
     out = np.full(n, "", dtype=object) if reasons is None else reasons.copy()
+    kind = np.full(n, "", dtype=object) if kinds is None else kinds.copy()
     flagged = np.zeros(n, bool) if reasons is None else out != ""
     for check in checks:
         arrays = [np.broadcast_to(np.asarray(values[f]), (n,)) for f in check.fields]
@@ -161,8 +198,9 @@ def flags(
             bad = np.asarray(check.bad(*arrays), bool) & ~flagged
         for i in np.flatnonzero(bad):
             out[i] = check.message(*(a[i] for a in arrays))
+            kind[i] = check.kind or out[i]
         flagged |= bad
-    return out
+    return out, kind
 
 
 def require_choice(value: str, name: str, choices: Sequence[str]) -> str:

@@ -81,4 +81,21 @@ REFERENCES = {
         "Lash TL, Fox MP, Fink AK (2009). Applying Quantitative Bias Analysis to "
         "Epidemiologic Data. New York: Springer."
     ),
+    "mathur-vanderweele-2020": (
+        "Mathur MB, VanderWeele TJ (2020). Sensitivity analysis for unmeasured confounding in "
+        "meta-analyses. Journal of the American Statistical Association 115:163-172."
+    ),
+    "dersimonian-laird-1986": (
+        "DerSimonian R, Laird N (1986). Meta-analysis in clinical trials. Controlled Clinical "
+        "Trials 7:177-188."
+    ),
+    "paule-mandel-1982": (
+        "Paule RC, Mandel J (1982). Consensus values and weighting factors. Journal of Research "
+        "of the National Bureau of Standards 87:377-385."
+    ),
+    "biggerstaff-tweedie-1997": (
+        "Biggerstaff BJ, Tweedie RL (1997). Incorporating variability in estimates of "
+        "heterogeneity in the random effects model in meta-analysis. Statistics in Medicine "
+        "16:753-768."
+    ),
 }

@@ -281,7 +281,7 @@ def rd_document(r: Any) -> Document:
         prose(lead, role="sentence"),
         *standard_tail(r.notes, r.cautions),
     )
-    return Document("E-values", blocks)
+    return Document("E-values", blocks, references=_sources_rd())
 
 
 def figures(result: Any) -> tuple[Figure, ...]:
@@ -294,6 +294,12 @@ def figures(result: Any) -> tuple[Figure, ...]:
 
     caption = "Pairs of confounder strengths that could explain the result away"
     return (Figure("evalue", caption, partial(evalue_figure, result)),)
+
+
+def _sources_rd() -> tuple[str, ...]:
+    from ..common.notes import REFERENCES
+
+    return (REFERENCES["ding-vanderweele-2016"],)
 
 
 def document(result: Any) -> Document:
@@ -319,7 +325,21 @@ def document(result: Any) -> Document:
         blocks.append(confounder_table(result.confounders))
         blocks.append(prose(*confounder_sentences(result.confounders), role="sentence"))
     blocks += standard_tail(result.notes, result.cautions)
-    return Document("E-values", tuple(blocks), figures=figures(result))
+    return Document("E-values", tuple(blocks), figures=figures(result), references=_sources(result))
+
+
+def _sources(result: EValueResult) -> tuple[str, ...]:
+    """The E-value's sources, and the conversion's where one was used."""
+    from ..common.notes import REFERENCES
+
+    keys = ["vanderweele-ding-2017", "ding-vanderweele-2016"]
+    scales = set(np.ravel(np.asarray(result.scale, dtype=object)).tolist())
+    outcomes = set(np.ravel(np.asarray(result.outcome, dtype=object)).tolist())
+    if "or" in scales and "common" in outcomes:
+        keys.append("vanderweele-2017")
+    if "hr" in scales and "common" in outcomes:
+        keys.append("vanderweele-2020")
+    return tuple(REFERENCES[k] for k in keys)
 
 
 def report_part(items: Any) -> Any:

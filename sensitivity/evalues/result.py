@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -145,15 +145,27 @@ class EValueResult(Result):
         on the risk-ratio scale (Ding & VanderWeele 2016). Values broadcast against the
         result's estimates.
         """
-        from .core import confounder_bound
+        from .bounds import confounder_shift
 
-        return confounder_bound(self, rr_treatment, rr_outcome)
+        conversion = {"outcome": self.outcome, "sd": self.sd, "contrast": self.contrast}
+        return ConfounderBound(
+            source=self,
+            **confounder_shift(
+                self.scale, self.rr, self.rr_ci, self.rr_target, conversion,
+                rr_treatment, rr_outcome,
+            ),
+        )  # fmt: skip
 
     def with_confounders(self, rr_treatment: object, rr_outcome: object) -> EValueResult:
         """This result with `confounder` bounds attached (exported and summarised with it)."""
-        from .core import with_confounders
+        from ..common.checks import as_array
+        from ..common.errors import InputError
 
-        return with_confounders(self, rr_treatment, rr_outcome)
+        if not self.is_scalar:
+            raise InputError("attach confounders to a single result; use `confounder` for arrays")
+        rr_t = np.atleast_1d(as_array(rr_treatment, "rr_treatment"))
+        rr_y = np.atleast_1d(as_array(rr_outcome, "rr_outcome"))
+        return replace(self, confounders=self.confounder(rr_t, rr_y))
 
     # ----------------------------------------------------------------- export
     def to_dict(self) -> dict:
@@ -196,9 +208,14 @@ class EValueResult(Result):
     def with_biases(self, *, selection: str | None = None,
                     misclassification: bool = False) -> EValueResult:  # fmt: skip
         """This result with the joint E-value for confounding plus the biases named."""
-        from .core import with_biases
+        from ..common.errors import InputError
+        from .bounds import joint_evalues
 
-        return with_biases(self, selection=selection, misclassification=misclassification)
+        if not self.is_scalar:
+            raise InputError("the joint E-value describes one result; index the inputs first")
+        info = joint_evalues(self.rr, self.rr_ci, self.rr_target, selection=selection,
+                             misclassification=misclassification)  # fmt: skip
+        return replace(self, multi_bias=info)
 
     def own_columns(self) -> dict[str, np.ndarray]:
         """The result's own columns, one row an estimate."""

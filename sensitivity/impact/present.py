@@ -101,7 +101,7 @@ def document(r: ImpactResult) -> Document:
         "A linear model; the confounder's correlations are partial on the covariates; "
         "one omitted variable (or a combination of several).",
     ))  # fmt: skip
-    return Document("Impact threshold", blocks, figures=figures(r))
+    return Document("Impact threshold", blocks, figures=figures(r), references=references())
 
 
 def figures(r: Any) -> tuple[Figure, ...]:
@@ -120,5 +120,9 @@ def report_part(items: Any) -> Any:
     """The family's section of a manuscript report, from each result's own Document."""
     from ..output.report import simple_part
 
-    refs = (REFERENCES["frank-2000"],)
-    return simple_part("impact", items, METHODS, references=refs)
+    return simple_part("impact", items, METHODS, references=references())
+
+
+def references() -> tuple[str, ...]:
+    """The method's sources (shown under every view and in a report)."""
+    return (REFERENCES["frank-2000"],)

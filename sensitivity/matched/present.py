@@ -87,7 +87,7 @@ def document(r: MatchedResult) -> Document:
         "Pairs matched on the measured covariates; a hidden confounder with bounded effect "
         f"(Gamma) on which unit is treated; a one-sided test for {_direction(r)}.",
     ))  # fmt: skip
-    return Document("Rosenbaum bounds", blocks, figures=figures(r))
+    return Document("Rosenbaum bounds", blocks, figures=figures(r), references=references())
 
 
 def figures(r: Any) -> tuple[Figure, ...]:
@@ -111,5 +111,9 @@ def report_part(items: Any) -> Any:
     """The family's section of a manuscript report, from each result's own Document."""
     from ..output.report import simple_part
 
-    refs = (REFERENCES["rosenbaum-2002"],)
-    return simple_part("matched", items, METHODS, references=refs)
+    return simple_part("matched", items, METHODS, references=references())
+
+
+def references() -> tuple[str, ...]:
+    """The method's sources (shown under every view and in a report)."""
+    return (REFERENCES["rosenbaum-2002"],)

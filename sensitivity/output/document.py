@@ -107,6 +107,8 @@ class Document:
         """The document as text, markdown, latex or html (`tables_only`: just the tables;
         `embed`: HTML images inline as data, so the page is one self-contained file)."""
         blocks = self.tables if tables_only else [b for b in self.blocks if _nonempty(b)]
+        if self.references and not tables_only:
+            blocks.append(Bullets("References", self.references))
         if fmt == "html":
             body = "".join(_html(b, embed) for b in blocks)
             return "<div class='sensitivity-result'>" + body + "</div>"

@@ -102,9 +102,7 @@ def _own_version() -> str:
     try:
         return version("sensitivity")
     except PackageNotFoundError:  # run from a checkout that is not installed
-        from .. import __version__
-
-        return __version__
+        return str(getattr(sys.modules.get("sensitivity"), "__version__", "unknown"))
 
 
 def parts_of(items: Sequence[ReportItem]) -> list[tuple[ReportPart, list[ReportItem]]]:

@@ -1,8 +1,7 @@
 """Omitted-variable bias of an OLS coefficient in the partial R² parameterisation.
 
-Pure, vectorised numpy (and `scipy.special` for t quantiles). The adapters in
-`sensitivity.adapters.statsmodels` turn fitted models and data into the numbers these
-functions take.
+Pure, vectorised numpy (and `scipy.special` for t quantiles); the adapters
+(`sensitivity.adapters`) turn fitted models and data into the numbers these functions take.
 
 Notation: a hidden confounder U with partial R² `r2_treatment` with the treatment given the
 observed covariates, and `r2_outcome` with the outcome given treatment and covariates.
@@ -265,9 +264,10 @@ def _k_max(r):
 
 
 # --------------------------------------------------------------------------- entry point
-def _check_summary(
+def check_summary(
     estimate: object, se: object, dof: object, t: object, fraction: object, alpha: object
 ) -> tuple[float, float, float, float, float]:
+    """One OLS coefficient's summary, checked: (estimate, se, dof, fraction, alpha)."""
     est = float(require(estimate, "estimate"))
     if se is not None and t is not None:
         raise InputError("give `se` or `t`, not both")
@@ -410,7 +410,7 @@ def partial_r2_summary(
     >>> round(res.partial_r2, 3), round(rv, 3), round(rv_alpha, 3)
     (0.022, 0.139, 0.076)
     """
-    est, se, dof, fraction, alpha = _check_summary(estimate, se, dof, t, fraction, alpha)
+    est, se, dof, fraction, alpha = check_summary(estimate, se, dof, t, fraction, alpha)
     return assemble(
         est,
         se,
@@ -422,10 +422,6 @@ def partial_r2_summary(
         sd_outcome=sd_outcome,
         contrast=contrast,
     )
-
-
-def _per(contrast: float) -> str:
-    return "" if contrast == 1 else f" per {contrast:g} units of treatment"
 
 
 def assemble(
@@ -460,8 +456,9 @@ def assemble(
         ev = evalue("md", est, se=se, sd=sd, contrast=contrast)
     notes = list(context.pop("notes", ()))
     if ev is not None:
+        per = "" if contrast == 1 else f" per {contrast:g} units of treatment"
         notes.append(
-            f"E-value: the coefficient{_per(contrast)} standardised by the outcome's SD "
+            f"E-value: the coefficient{per} standardised by the outcome's SD "
             f"({sd:.4g}) and mapped to a risk ratio with exp(0.91 d) (VanderWeele & "
             "Ding 2017); it answers the same question on the risk-ratio scale."
         )

@@ -65,17 +65,30 @@ def _goal(r: PartialR2Result) -> str:
     return "zero" if r.fraction == 1 else _num(r, _target(r))
 
 
-def verdict(r: PartialR2Result, s: Scenario) -> str:
-    """Where the scenario leaves the conclusion, in a few words."""
+def outcome_of(r: PartialR2Result, s: Scenario) -> str:
+    """Where the scenario leaves the conclusion, as a code: "reverses", "passes",
+    "reaches", "ci" (the interval includes the target) or "holds"."""
     target = _target(r)
     side = np.sign(r.estimate - target)
     if side * (s.estimate - target) < 0:
-        return "sign reverses" if r.fraction == 1 else f"estimate passes {_goal(r)}"
+        return "reverses" if r.fraction == 1 else "passes"
     if s.estimate == target:
-        return f"estimate reaches {_goal(r)}"
+        return "reaches"
     if s.ci[0] <= target <= s.ci[1]:
-        return f"CI includes {_goal(r)}"
-    return "conclusion holds"
+        return "ci"
+    return "holds"
+
+
+def verdict(r: PartialR2Result, s: Scenario) -> str:
+    """Where the scenario leaves the conclusion, in a few words."""
+    goal = _goal(r)
+    return {
+        "reverses": "sign reverses",
+        "passes": f"estimate passes {goal}",
+        "reaches": f"estimate reaches {goal}",
+        "ci": f"CI includes {goal}",
+        "holds": "conclusion holds",
+    }[outcome_of(r, s)]
 
 
 def header(r: PartialR2Result) -> str:
@@ -220,12 +233,12 @@ def sentence(r: PartialR2Result) -> str:
         name = covariate_name(s.benchmark or "")
         times = "as strong as" if k_min == 1 else f"{k_min:g} times as strong as"
         lead = f". A confounder {times} {name} (the strongest benchmark at that multiple) would"
-        state = verdict(r, s)
-        if state == "sign reverses":
+        state = outcome_of(r, s)
+        if state == "reverses":
             text += f"{lead} reverse the sign of the estimate, to {_num(r, s.estimate)} ({ci})"
-        elif state.startswith("estimate"):
+        elif state in ("passes", "reaches"):
             text += f"{lead} move the estimate to {_num(r, s.estimate)} ({ci}), past {goal}"
-        elif state.startswith("CI"):
+        elif state == "ci":
             text += (
                 f"{lead} move the estimate to {_num(r, s.estimate)}, with a {ci} that "
                 f"includes {goal}"
@@ -247,7 +260,8 @@ def document(r: PartialR2Result) -> Document:
     lead = sentence(r)
     blocks: tuple[Block, ...] = (prose(header(r)), *tables(r), prose(lead, role="sentence"))
     blocks += standard_tail(r.notes, r.cautions, r.assumptions)
-    return Document("Partial-R² sensitivity", blocks, figures=figures(r))
+    refs = (REFERENCES["cinelli-hazlett-2020"],)
+    return Document("Partial-R² sensitivity", blocks, figures=figures(r), references=refs)
 
 
 METHODS = (

@@ -18,12 +18,15 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
 from ..common.checks import given
 from ..common.scales import as_text
-from ..evalues.core import bounding_factor, evalue_of_risk_difference, evalue_rows
+from ..evalues.formulas import bounding_factor
+from ..evalues.risk_difference import evalue_of_risk_difference
+from ..evalues.rows import evalue_row_kinds
 from .text import SCALE_WORDS, parse_many
 
 #: Input columns the screen reads (after `--columns` renames), and their kinds.
@@ -136,9 +139,29 @@ def _codes(scale: np.ndarray) -> np.ndarray:
     return code
 
 
-def _first(reasons: np.ndarray, new: np.ndarray) -> np.ndarray:
-    """Keep each row's first reason."""
-    return np.where(reasons == "", new, reasons)
+class _Reasons:
+    """Each row's first reason ("" for a good row), and its kind: the rule in words without
+    the row's own values, given where the reason is made, so that rows flagged for the
+    same rule are counted together (`Tally`)."""
+
+    def __init__(self, n: int) -> None:
+        self.text = np.full(n, "", dtype=object)
+        self.kind = np.full(n, "", dtype=object)
+
+    def first(self, new: np.ndarray, kind: np.ndarray | str, rows: Any = slice(None)) -> None:
+        """Give rows without a reason yet the `new` ones ("" for none), of `kind`."""
+        fresh = (self.text[rows] == "") & (np.asarray(new, dtype=object) != "")
+        self.text[rows] = np.where(fresh, new, self.text[rows])
+        self.kind[rows] = np.where(fresh, kind, self.kind[rows])
+
+    def set(self, i: Any, text: str, kind: str | None = None) -> None:
+        """Row i's reason (its own kind unless the text names the row's values)."""
+        self.text[i] = text
+        self.kind[i] = text if kind is None else kind
+
+    @property
+    def good(self) -> np.ndarray:
+        return self.text == ""
 
 
 class _Notes:
@@ -169,13 +192,13 @@ def screen_columns(
     columns: Mapping[str, np.ndarray], n: int, options: Options = Options()
 ) -> dict[str, np.ndarray]:
     """Computed columns for `n` rows of text `columns` (see the module's description)."""
-    reasons = np.full(n, "", dtype=object)
+    reasons = _Reasons(n)
     notes = _Notes(n)
     num: dict[str, np.ndarray] = {}
     for name in NUMERIC:
         if name in columns:
             num[name], why = _numbers(columns[name], name)
-            reasons = _first(reasons, why)
+            reasons.first(why, f"`{name}` is not a number")
         else:
             num[name] = np.full(n, np.nan)
     scale = _texts(columns["scale"]) if "scale" in columns else np.full(n, "")
@@ -185,35 +208,40 @@ def screen_columns(
         # The text supplies what the columns leave blank; where a row's columns give the
         # estimate the text is only checked against them, and its own problems do not count.
         from_columns = given(num["estimate"])
-        reasons = _first(reasons, np.where(from_columns, "", parsed["error"]))
+        # a text's reason names the text's own problem, and counts as its own kind
+        text_error = np.where(from_columns, "", parsed["error"])
+        reasons.first(text_error, text_error)
         both = from_columns & given(parsed["estimate"])
         differ = both & ~np.isclose(num["estimate"], parsed["estimate"], rtol=5e-3, atol=5e-3)
-        for i in np.flatnonzero(differ & (reasons == "")):
-            reasons[i] = (
+        for i in np.flatnonzero(differ & reasons.good):
+            reasons.set(
+                i,
                 f"the estimate column says {num['estimate'][i]:g} but the text says "
-                f"{parsed['estimate'][i]:g}"
+                f"{parsed['estimate'][i]:g}",
             )
         for key in ("estimate", "lower", "upper"):
             num[key] = np.where(from_columns, num[key], parsed[key])
         named = (parsed["scale"] != "") & ~from_columns | (parsed["scale"] != "") & (scale == "")
         clash = named & (scale != "") & (_codes(scale) != parsed["scale"].astype(str))
-        for i in np.flatnonzero(clash & (reasons == "")):
-            reasons[i] = (
+        for i in np.flatnonzero(clash & reasons.good):
+            reasons.set(
+                i,
                 f"the scale column says {str(scale[i])!r} but the text names "
-                f"{str(parsed['scale'][i])!r}"
+                f"{str(parsed['scale'][i])!r}",
             )
         notes.add(named & (scale == ""), "scale read from the text")
         scale = np.where(scale == "", parsed["scale"].astype(str), scale)
         level = parsed["level"]
         notes.add(given(level) & (level != 0.95), "interval level read from text")
     code = _codes(scale)
-    missing = (code != "rd") & ~given(num["estimate"]) & (reasons == "")
-    reasons = np.where(missing, "`estimate` is missing", reasons)
+    missing = (code != "rd") & ~given(num["estimate"])
+    reasons.first(np.where(missing, "`estimate` is missing", ""), "`estimate` is missing")
     unknown = (code != "") & ~np.isin(code, SCREEN_SCALES)
-    for i in np.flatnonzero(unknown & (reasons == "")):
-        reasons[i] = f"`scale` must be one of {', '.join(SCREEN_SCALES)}; got {str(scale[i])!r}"
-    for i in np.flatnonzero((code == "") & (reasons == "")):
-        reasons[i] = "`scale` is missing (give a scale column, or text that names one)"
+    one_of = f"`scale` must be one of {', '.join(SCREEN_SCALES)}"
+    for i in np.flatnonzero(unknown & reasons.good):
+        reasons.set(i, f"{one_of}; got {str(scale[i])!r}", one_of)
+    for i in np.flatnonzero((code == "") & reasons.good):
+        reasons.set(i, "`scale` is missing (give a scale column, or text that names one)")
 
     out = {k: np.full(n, np.nan) for k in ("rr", "rr_lower", "rr_upper", "evalue", "evalue_ci")}
     out |= {k: np.full(n, np.nan) for k in ("partial_r2", "robustness_value",
@@ -221,7 +249,7 @@ def screen_columns(
     regression = np.isin(code, ["md", "ols"]) & given(num["dof"])
     rd = code == "rd"
     # ------------------------------------------------------------- E-value rows
-    ev_rows = ~rd & ~((code == "ols") | (regression & ~given(num["sd"]))) & (reasons == "")
+    ev_rows = ~rd & ~((code == "ols") | (regression & ~given(num["sd"]))) & reasons.good
     if ev_rows.any():
         idx = np.flatnonzero(ev_rows)
         sub = {k: num[k][idx] for k in ("estimate", "lower", "upper", "se", "sd", "prevalence")}
@@ -233,8 +261,8 @@ def screen_columns(
             sub["target"] = np.where(given(num["target"][idx]), num["target"][idx], null)
         sub["scale"] = np.where(code[idx] == "ols", "md", code[idx])
         sub["outcome"] = outcome[idx]
-        ev, why = evalue_rows(sub, len(idx))
-        reasons[idx] = why
+        ev, why, kinds = evalue_row_kinds(sub, len(idx))
+        reasons.text[idx], reasons.kind[idx] = why, kinds
         for k in out.keys() & ev.keys():
             out[k][idx] = ev[k]
         conv = ev["outcome"]
@@ -248,15 +276,15 @@ def screen_columns(
         notes.add(np.isin(sub["scale"], ["smd", "md"]), "RR = exp(0.91 d)", idx)
         notes.add(given(sub["se"]) & ~given(sub["lower"]), "interval from se", idx)
     # ------------------------------------------------------------- regression rows
-    reg = regression & (reasons == "") | ((code == "ols") & (reasons == ""))
+    reg = regression & reasons.good | ((code == "ols") & reasons.good)
     if reg.any():
-        reasons, out, notes = _regression(num, reg, reasons, out, notes, options)
+        _regression(num, reg, reasons, out, notes, options)
     # ------------------------------------------------------------- risk differences
-    rd_rows = rd & (reasons == "")
+    rd_rows = rd & reasons.good
     if rd_rows.any():
-        reasons, out = _risk_differences(num, rd_rows, reasons, out, options.alpha)
+        _risk_differences(num, rd_rows, reasons, out, options.alpha)
     # ------------------------------------------------------------- confounders
-    good = reasons == ""
+    good = reasons.good
     for k in out:
         out[k] = np.where(good, out[k], np.nan)
     result: dict[str, np.ndarray] = {"scale_used": np.where(good, code, "")}
@@ -269,7 +297,8 @@ def screen_columns(
     words = np.asarray(FLAG_WORDS, dtype=object)
     states = confounder_states(options, ratio, near, out["evalue"], out["evalue_ci"])
     result |= {name: words[state] for name, state in states.items()}
-    result["error"] = reasons
+    result["error"] = reasons.text
+    result["_error_kind"] = reasons.kind  # not written: what the tally counts rows by
     result["notes"] = notes.render(good)
     result["_near"] = near  # not written: the limit the confounder columns were judged on
     return result
@@ -302,7 +331,7 @@ def confounder_states(
 
 def _regression(num, rows, reasons, out, notes, options):
     """Partial R² and robustness values for rows with estimate, se and dof."""
-    from ..common.checks import DOF, FINITE, POSITIVE, field, flags
+    from ..common.checks import DOF, FINITE, POSITIVE, field, flag_kinds
     from ..partial_r2.core import partial_r2_of_t, robustness_value_of_t
 
     idx = np.flatnonzero(rows)
@@ -312,7 +341,7 @@ def _regression(num, rows, reasons, out, notes, options):
         field("se", POSITIVE),
         field("dof", DOF),
     ]
-    why = flags(vals, checks, len(idx))
+    why, kinds = flag_kinds(vals, checks, len(idx))
     ok = why == ""
     safe_se = np.where(ok, vals["se"], 1.0)
     safe_dof = np.where(ok, vals["dof"], 10.0)
@@ -323,10 +352,9 @@ def _regression(num, rows, reasons, out, notes, options):
         out["robustness_value_alpha"][idx] = np.where(
             ok, robustness_value_of_t(t, dof=safe_dof, alpha=options.alpha), np.nan
         )
-    reasons[idx] = _first(reasons[idx], why)
+    reasons.first(why, kinds, idx)
     no_sd = ~given(num["sd"][idx])
     notes.add(ok & no_sd, "regression row: no sd, so no E-value", idx)
-    return reasons, out, notes
 
 
 def _risk_differences(num, rows, reasons, out, alpha):
@@ -334,18 +362,18 @@ def _risk_differences(num, rows, reasons, out, alpha):
     idx = np.flatnonzero(rows)
     counts = {k: num[k][idx] for k in COUNTS}
     why = np.full(len(idx), "", dtype=object)
+    kinds = np.full(len(idx), "", dtype=object)
     for name in COUNTS:
         v = counts[name]
         bad = ~np.isfinite(v) | (v < 0) | (v != np.round(v))
         for i in np.flatnonzero(bad & (why == "")):
             why[i] = f"`{name}` must be a whole number of people, 0 or more (risk-difference rows)"
+            kinds[i] = why[i]
     for cases, total in (("cases_treated", "total_treated"), ("cases_control", "total_control")):
         bad = (counts[total] <= 0) | (counts[cases] > counts[total])
         for i in np.flatnonzero(bad & (why == "")):
-            why[i] = (
-                f"`{cases}` must not exceed `{total}`, which must be positive; got "
-                f"{counts[cases][i]:g} of {counts[total][i]:g}"
-            )
+            kinds[i] = f"`{cases}` must not exceed `{total}`, which must be positive"
+            why[i] = f"{kinds[i]}; got {counts[cases][i]:g} of {counts[total][i]:g}"
     ok = why == ""
     safe = {k: np.where(ok, v, 1.0 if k.startswith("total") else 0.0) for k, v in counts.items()}
     safe["cases_treated"] = np.where(ok, counts["cases_treated"], 1.0)
@@ -360,8 +388,7 @@ def _risk_differences(num, rows, reasons, out, alpha):
     out["evalue"][idx] = np.where(ok, res["evalue"], np.nan)
     out["evalue_ci"][idx] = np.where(ok, res["evalue_ci"], np.nan)
     out["_near"][idx] = np.where(ok, res["bounding_factor_ci"], np.nan)
-    reasons[idx] = _first(reasons[idx], why)
-    return reasons, out
+    reasons.first(why, kinds, idx)
 
 
 __all__ = ["Options", "computed_names", "screen_columns"]

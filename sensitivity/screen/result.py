@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -16,12 +15,6 @@ _EDGES = 200_000
 _TOP = 20.0
 
 
-def reason_kind(reason: str) -> str:
-    """A reason without the row's own values ("`se` must be positive; got -2" -> "`se` must
-    be positive"), so rows flagged for the same rule count together."""
-    return re.split(r"; got |: '|: \"| \(got ", reason)[0]
-
-
 @dataclass(eq=False)
 class Tally:
     """Counts kept while batches stream past."""
@@ -32,16 +25,16 @@ class Tally:
     flagged: dict[str, int] = field(default_factory=dict)
     scales: dict[str, dict] = field(default_factory=dict)
 
-    def add(self, scale: np.ndarray, reasons: list[str], values: dict[str, np.ndarray],
+    def add(self, scale: np.ndarray, kinds: list[str], values: dict[str, np.ndarray],
             states: dict[str, np.ndarray]) -> None:  # fmt: skip
         """Count one batch: each row's scale (an index into SCREEN_SCALES, -1 when flagged),
-        the flagged rows' reasons, the computed numbers and the confounder columns' states
-        (2 where the confounder could explain the result away)."""
+        the flagged rows' kinds of reason (the rule in words, without the row's values, as
+        given where each reason is made), the computed numbers and the confounder columns'
+        states (2 where the confounder could explain the result away)."""
         from .core import SCREEN_SCALES
 
         self.rows += len(scale)
-        for reason in reasons:
-            kind = reason_kind(reason)
+        for kind in kinds:
             self.flagged[kind] = self.flagged.get(kind, 0) + 1
         # every count is one bincount over the rows, by scale (slot 0: flagged rows), with no
         # row selected by a mask: a million rows in a few milliseconds

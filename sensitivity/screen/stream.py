@@ -193,7 +193,7 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
         number = {c: i for i, c in enumerate(SCREEN_SCALES)}
         scale[rest] = [-1 if bad else number[c] for c, bad in
                        zip(core["scale_used"].tolist(), flagged.tolist(), strict=True)]  # fmt: skip
-        reasons = core["error"][flagged].tolist()
+        reasons = core["_error_kind"][flagged].tolist()
     states: dict[str, np.ndarray] = {}
     if options.confounders:
         with np.errstate(divide="ignore", invalid="ignore"):

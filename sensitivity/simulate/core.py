@@ -158,14 +158,14 @@ def simulate(
     """
     from scipy.special import ndtr
 
-    from ..tipping.core import SCALES, _check_effect, _check_frequency
+    from ..tipping.grid import SCALES, check_effect, check_frequency
 
     if scale not in SCALES:
         raise InputError(f"`scale` must be one of {', '.join(SCALES)}; got {scale!r}")
-    scale, est, pair, tgt = _check_effect(scale, estimate, ci, target)
+    scale, est, pair, tgt = check_effect(scale, estimate, ci, target)
     if pair is None:
         raise InputError("`ci` is needed: the total-error interval draws from it")
-    freq = _check_frequency(scale, outcome)
+    freq = check_frequency(scale, outcome)
     level = check_level(ci_level)
     n = int(require(draws, "draws", POSITIVE))
     if n > 20_000_000:

@@ -59,7 +59,9 @@ def document(r: SimulationResult) -> Document:
         "conditional on the measured covariates; priors independent unless a correlation of "
         "the prevalences is given.",
     ))  # fmt: skip
-    return Document("Probabilistic bias analysis", blocks, figures=figures(r))
+    return Document(
+        "Probabilistic bias analysis", blocks, figures=figures(r), references=references()
+    )
 
 
 def figures(r: Any) -> tuple[Figure, ...]:
@@ -87,8 +89,12 @@ def report_part(items: Any) -> Any:
     """The family's section of a manuscript report, from each result's own Document."""
     from ..output.report import simple_part
 
-    refs = (
+    return simple_part("simulate", items, METHODS, references=references())
+
+
+def references() -> tuple[str, ...]:
+    """The method's sources (shown under every view and in a report)."""
+    return (
         REFERENCES["greenland-2005"],
         REFERENCES["lash-fox-fink-2009"],
     )
-    return simple_part("simulate", items, METHODS, references=refs)

@@ -63,7 +63,7 @@ def document(r: StabilityResult) -> Document:
         "same proportion (delta) as the observed ones, and they are orthogonal to them.",
         "Unadjusted R² throughout; the variances share one n or n - 1 convention.",
     ))  # fmt: skip
-    return Document("Coefficient stability", blocks, figures=figures(r))
+    return Document("Coefficient stability", blocks, figures=figures(r), references=references())
 
 
 def figures(r: Any) -> tuple[Figure, ...]:
@@ -91,5 +91,9 @@ def report_part(items: Any) -> Any:
     """The family's section of a manuscript report, from each result's own Document."""
     from ..output.report import simple_part
 
-    refs = (REFERENCES["oster-2019"],)
-    return simple_part("stability", items, METHODS, references=refs)
+    return simple_part("stability", items, METHODS, references=references())
+
+
+def references() -> tuple[str, ...]:
+    """The method's sources (shown under every view and in a report)."""
+    return (REFERENCES["oster-2019"],)

@@ -203,7 +203,7 @@ def document(g: TippingGrid) -> Document:
             )
         )
     blocks += standard_tail(g.notes, g.cautions)
-    return Document("Tipping points", tuple(blocks), figures=figures(g))
+    return Document("Tipping points", tuple(blocks), figures=figures(g), references=references())
 
 
 def figures(g: Any) -> tuple[Figure, ...]:
@@ -230,8 +230,12 @@ def report_part(items: Any) -> Any:
     """The family's section of a manuscript report, from each result's own Document."""
     from ..output.report import simple_part
 
-    refs = (
+    return simple_part("tipping", items, METHODS, references=references())
+
+
+def references() -> tuple[str, ...]:
+    """The method's sources (shown under every view and in a report)."""
+    return (
         REFERENCES["lin-psaty-kronmal-1998"],
         REFERENCES["vanderweele-arah-2011"],
     )
-    return simple_part("tipping", items, METHODS, references=refs)

@@ -1,4 +1,7 @@
-"""`report` from Python: results or fitted models into the manuscript folder."""
+"""`report` from Python: results of any family, or fitted models, into the manuscript folder.
+
+A front door above the layers (like `commands/`): it reads fitted models through `adapters/`
+and hands labelled results to `output.report`."""
 
 from __future__ import annotations
 
@@ -6,9 +9,9 @@ from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
-from ..common.errors import InputError, InputTypeError
-from ..common.results import Result
-from ..output.report import Reproduce, write_report
+from .common.errors import InputError, InputTypeError
+from .common.results import Result
+from .output.report import Reproduce, write_report
 
 
 def _result(label: str, thing: Any, treatment: str | None) -> Result:
@@ -20,7 +23,7 @@ def _result(label: str, thing: Any, treatment: str | None) -> Result:
     if hasattr(thing, "params") or hasattr(thing, "summary") or hasattr(thing, "coef"):
         if treatment is None:
             raise InputError(f"`treatment` is needed to read the fitted model {label!r}")
-        from . import from_model
+        from .adapters import from_model
 
         return _result(label, from_model(thing, treatment), None)
     raise InputTypeError(
@@ -88,9 +91,9 @@ def results_from_table(path: str | Path) -> list[tuple[str, Any]]:
 
     import numpy as np
 
-    from ..evalues.core import evalue
-    from ..partial_r2.core import partial_r2_summary
-    from .files import read_table
+    from .adapters.files import read_table
+    from .evalues.core import evalue
+    from .partial_r2.core import partial_r2_summary
 
     frame = read_table(path, "estimates")
     for need in ("scale", "estimate"):

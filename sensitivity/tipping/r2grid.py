@@ -1,0 +1,133 @@
+"""The partial-R² view: an OLS coefficient over a grid of the confounder's two partial R².
+
+The bias-adjusted values are `sensitivity.partial_r2.surface` (Cinelli & Hazlett 2020); the
+grid, the reaching and the exact sets are the tipping family's.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import replace
+
+import numpy as np
+from numpy.typing import ArrayLike
+
+from ..common.checks import R2_STRENGTH, require
+from .exact import monotone_set, r2_outcome_ci_set, reaches, slack_for
+from .grid import finite_cells, grid_axes, side_of
+from .ranges import default_ranges
+from .result import TippingGrid
+
+
+def partial_r2_grid(
+    estimate: float,
+    se: float,
+    dof: float,
+    *,
+    r2_treatment: ArrayLike | None = None,
+    r2_outcome: ArrayLike | None = None,
+    alpha: float = 0.05,
+    target: float | None = 0.0,
+) -> TippingGrid:
+    """Bias-adjusted OLS estimates over a grid of the confounder's two partial R².
+
+    The computation is `sensitivity.partial_r2.surface` (Cinelli & Hazlett 2020); the
+    interval reaches the target when its limit nearest the target does. Exact sets: for the
+    estimate ``r2_outcome = d² (1 - r2_t) / (se² dof r2_t)`` with ``d = |est - target|`` (and
+    its inverse in r2_treatment); for the interval, with ``r2_outcome = sin² θ``, the limit
+    reaches the target where ``A sin θ + C cos θ >= d``, ``A = se sqrt(dof r2_t / (1 - r2_t))``
+    and ``C = t_crit se sqrt(dof / ((dof - 1)(1 - r2_t)))``: an interval of θ, so of
+    r2_outcome, that may be bounded on both sides (a stronger confounder on the outcome side
+    also shrinks the standard error). On the r2_treatment axis both bias and standard error
+    grow, and the set is one-sided.
+    """
+    from ..partial_r2.core import (
+        adjusted_for_confounder,
+        check_summary,
+        robustness_value_of_t,
+        surface,
+        t_critical,
+    )
+
+    est, se, dof, _, alpha = check_summary(estimate, se, dof, None, 1.0, alpha)
+    tgt = float(require(0.0 if target is None else target, "target"))
+    default = default_ranges(
+        "partial-r2", robustness_value=float(robustness_value_of_t(est / se, dof=dof))
+    )
+    axes = grid_axes(
+        {"r2_treatment": r2_treatment, "r2_outcome": r2_outcome},
+        default,
+        {"r2_treatment": (R2_STRENGTH,), "r2_outcome": (R2_STRENGTH,)},
+    )
+    r2t, r2y = (v for _, v in axes)
+    s = surface(est, se, dof, r2t, r2y, alpha)
+    side = side_of(est, tgt)
+    slack = slack_for(est, tgt)
+    cells = {
+        "bias": s["bias"],
+        "bias_adjusted_estimate": s["estimate"],
+        "bias_adjusted_se": s["se"],
+        "bias_adjusted_t": s["t"],
+        "bias_adjusted_ci_lower": s["lower"],
+        "bias_adjusted_ci_upper": s["upper"],
+    }
+    finite_cells({k: v for k, v in cells.items() if k != "bias_adjusted_t"}, "`estimate`")
+    near = "lower" if side > 0 else "upper"
+    result = TippingGrid(
+        kind="partial-r2",
+        scale="md",
+        estimate=est,
+        ci=None,
+        target=tgt,
+        axes=axes,
+        cells=cells,
+        reach_estimate=reaches(s["estimate"], tgt, side, slack),
+        reach_ci=reaches(s[near], tgt, side, slack),
+        exact={},
+        notes=(
+            "OLS with classical standard errors; the bias is taken in the direction that "
+            "shrinks the estimate toward zero (Cinelli & Hazlett 2020).",
+        ),
+        extra={"se": se, "dof": dof, "alpha": alpha},
+        ci_level=1 - alpha,
+    )
+    if result.solved is None:
+        return result
+    j = result.solved
+    other = r2t if j == 1 else r2y
+    shape = result.reduced_shape(j)
+    # Distance the bias must cover: it shrinks |estimate|, so a target beyond the estimate
+    # (away from zero) is never reached by the estimate itself.
+    toward = np.sign(est - tgt) == np.sign(est) or est == tgt
+    d = np.float64(abs(est - tgt) if toward else np.nan)
+    se, dof = np.float64(se), np.float64(dof)  # numpy arithmetic: overflow gives inf, not an error
+    crit = float(t_critical(alpha, dof - 1))
+
+    def reached_at(key: str) -> Callable[[np.ndarray], np.ndarray]:
+        def reached(x: np.ndarray) -> np.ndarray:
+            pair = (x, other) if j == 0 else (other, x)
+            adj = adjusted_for_confounder(*pair, estimate=est, se=se, dof=dof, alpha=alpha)
+            return reaches(adj[key], tgt, side, slack)
+
+        return reached
+
+    top = 1 - 1e-12  # partial R² lies in [0, 1); the open end is evaluated just below 1
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if j == 1:
+            root = d**2 * (1 - other) / (se**2 * dof * other)
+        else:
+            k = d**2 / (se**2 * dof * other)
+            root = k / (1 + k)
+    est_set = monotone_set(reached_at("estimate"), root, 0.0, 1.0, shape, probe_hi=top)
+    if j == 0:
+        # r2_treatment for each r2_outcome: with x = sqrt(r2_t), w = sqrt(1 - r2_t) the limit
+        # reaches the target when P x + Q >= d w, increasing in the angle of (x, w).
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            P = se * np.sqrt(dof * other)
+            Q = crit * se * np.sqrt(dof / (dof - 1) * (1 - other))
+            angle = np.arctan2(d, P) - np.arcsin(np.clip(Q / np.hypot(P, d), -1, 1))
+            ci_root = np.sin(np.clip(angle, 0, np.pi / 2)) ** 2
+        ci_set = monotone_set(reached_at(near), ci_root, 0.0, 1.0, shape, probe_hi=top)
+    else:
+        ci_set = r2_outcome_ci_set(reached_at(near), est, se, dof, other, d, crit, shape)
+    return replace(result, exact={"estimate": est_set, "ci": ci_set})
