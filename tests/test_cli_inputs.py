@@ -13,14 +13,27 @@ from click.testing import CliRunner
 from conftest import ROOT
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from test_help_examples import EXAMPLES
 
 from cli import cli
 from sensitivity.commands import COMMANDS
 
-FIRST = {}
-for _command, _example in EXAMPLES:
-    FIRST.setdefault(_command, shlex.split(_example)[1:])
+def _first_example(command: str) -> list[str]:
+    """The first example in the command's --help, as arguments."""
+    text = CliRunner().invoke(cli, [command, "--help"], terminal_width=200).stdout
+    current = ""
+    for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
+        line = raw.strip()
+        if not line:
+            continue
+        current = f"{current} {line}".strip()
+        if current.endswith("\\"):
+            current = current[:-1].strip()
+            continue
+        return shlex.split(current)[1:]
+    raise AssertionError(f"{command} --help has no example")
+
+
+FIRST = {name: _first_example(name) for name in COMMANDS}
 
 
 def _numeric_options():
