@@ -17,6 +17,7 @@ from hypothesis import strategies as st
 from cli import cli
 from sensitivity.commands import COMMANDS
 
+
 def _first_example(command: str) -> list[str]:
     """The first example in the command's --help, as arguments."""
     text = CliRunner().invoke(cli, [command, "--help"], terminal_width=200).stdout

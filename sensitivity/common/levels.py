@@ -69,10 +69,19 @@ def t_critical(alpha: ArrayLike, dof: ArrayLike) -> np.ndarray:
     >>> round(float(t_critical(1e-20, 1192)), 2)
     9.51
     """
-    from scipy.special import stdtrit
+    from scipy.special import betaincinv, stdtrit
 
-    with np.errstate(over="ignore"):
-        return -stdtrit(np.asarray(dof, float), np.asarray(alpha, float) / 2)
+    dof = np.asarray(dof, float)
+    half = np.asarray(alpha, float) / 2
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        crit = -stdtrit(dof, half)
+        # stdtrit fails in the far tail of few dof (dof 3, alpha 1e-300 gives -inf): there the
+        # tail is the incomplete beta, P(|T| > t) = I_x(dof/2, 1/2) with x = dof/(dof + t²)
+        bad = ~(np.isfinite(crit) & (crit > 0))
+        if np.any(bad):
+            x = betaincinv(dof / 2, 0.5, 2 * half)
+            crit = np.where(bad, np.sqrt(dof) * np.sqrt(1 / x - 1), crit)
+    return crit
 
 
 def level_text(level: float | None = None, *, alpha: float | None = None) -> str:

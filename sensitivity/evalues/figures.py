@@ -10,6 +10,7 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
+from ..common.levels import level_text
 from ..output.figures import (
     LINE,
     Mark,
@@ -62,7 +63,7 @@ def evalue_figure(
     handles: list = []
     grid = np.linspace(1, xlim, 400)
     goal = "the null" if result.target_is_null else f"{float(result.target_value):g}"
-    level = f"{result.ci_level:.0%} CI"
+    level = f"{level_text(result.ci_level)} CI"
     for key, r, e in curves:
         a = grid[grid > r * (1 + 1e-9)]
         b = r * (a - 1) / (a - r)
@@ -126,7 +127,7 @@ def forest_figure(items: Sequence[tuple[str, Any]], paths: Sequence[str | Path])
     plt = pyplot()
     plt.rcParams.update(STYLE)
     n = len(items)
-    levels = {f"{r.ci_level:.0%} CI" for _, r in items if r.rr_ci is not None}
+    levels = {f"{level_text(r.ci_level)} CI" for _, r in items if r.rr_ci is not None}
     shared = levels.pop() if len(levels) == 1 else None
     fig, ax = plt.subplots(figsize=(8.6, 1.3 + 0.42 * n), layout="constrained")
     y = np.arange(n)[::-1]
@@ -139,7 +140,7 @@ def forest_figure(items: Sequence[tuple[str, Any]], paths: Sequence[str | Path])
         ci = "-" if e.evalue_ci is None else f"{float(e.evalue_ci):.2f}"
         ax.annotate(f"{float(e.evalue):.2f}   {ci}", (1.02, yi),
                     xycoords=("axes fraction", "data"), va="center", fontsize=8.5)  # fmt: skip
-        own = "" if shared or e.rr_ci is None else f" ({e.ci_level:.0%} CI)"
+        own = "" if shared or e.rr_ci is None else f" ({level_text(e.ci_level)} CI)"
         names.append(plot_label(label) + own)
     ax.axvline(1.0, color="#d62728", lw=1, ls=":")
     ax.set_yticks(y, names)

@@ -6,6 +6,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..common.results import plain
 from ..common.scales import SCALES
 from ..output.document import Block, Document, Figure, prose, standard_tail
@@ -95,7 +96,7 @@ def estimate_table(result: EValueResult) -> Table:
 
 
 def level_name(result: EValueResult) -> str:
-    return f"{result.ci_level:.0%} CI"
+    return f"{level_text(result.ci_level)} CI"
 
 
 def sentence(result: EValueResult) -> str | None:
@@ -255,7 +256,7 @@ def confounder_sentences(bound: ConfounderBound) -> list[str]:
 
 def rd_document(r: Any) -> Document:
     """A risk difference's E-values."""
-    level = f"{r.ci_level:.0%} CI"
+    level = f"{level_text(r.ci_level)} CI"
     rows = (
         ("Estimate", f"{r.estimate:.4f} ({level} {r.ci[0]:.4f} to {r.ci[1]:.4f})",
          number(r.bounding_factor, 3), number(r.evalue)),
@@ -268,14 +269,31 @@ def rd_document(r: Any) -> Document:
         rows,
         title=f"E-values: Risk difference ({a}/{n1} treated, {c}/{n0} controls)",
     )
-    lead = (
+    observed = (
         f"For the observed risk difference of {r.estimate:.4f} ({level} {r.ci[0]:.4f} to "
-        f"{r.ci[1]:.4f}), explaining it away in the whole population would take an unmeasured "
-        f"confounder associated with both the treatment and the outcome by a risk ratio of at "
-        f"least {number(r.evalue)} each (the E-value); a weaker one could not. "
-        + (f"One of {number(r.evalue_ci)} each could bring the lower confidence limit of the "
-           "bound to 0." if r.evalue_ci > 1 else "The bound's interval already includes 0.")
-    )  # fmt: skip
+        f"{r.ci[1]:.4f}), "
+    )
+    if np.isfinite(r.evalue):
+        lead = observed + (
+            "explaining it away in the whole population would take an unmeasured confounder "
+            "associated with both the treatment and the outcome by a risk ratio of at least "
+            f"{number(r.evalue)} each (the E-value); a weaker one could not. "
+        )
+    else:
+        # no cases among the controls (in the direction of the effect): the bound stays above
+        # 0 for every finite strength
+        lead = observed + (
+            "no unmeasured confounder of any finite strength could explain it away in the "
+            "whole population under this bound, because there are no cases in the group with "
+            "the lower risk. "
+        )
+    if r.evalue_ci <= 1:
+        lead += "The bound's interval already includes 0."
+    elif np.isfinite(r.evalue_ci):
+        lead += (f"One of {number(r.evalue_ci)} each could bring the lower confidence limit of "
+                 "the bound to 0.")  # fmt: skip
+    else:
+        lead += "No finite strength brings the lower confidence limit of the bound to 0."
     blocks: tuple[Block, ...] = (
         table,
         prose(lead, role="sentence"),

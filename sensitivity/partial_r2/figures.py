@@ -9,6 +9,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..output.figures import (
     Mark,
     figure_paths,
@@ -64,7 +65,7 @@ def partial_r2_contours(
         value, label = s["estimate"], "Bias-adjusted estimate"
     else:
         value, label = s["t"], "Bias-adjusted t value"
-    level = f"{1 - result.alpha:.0%}"
+    level = level_text(alpha=result.alpha)
     goal = "zero" if result.fraction == 1 else f"{target:.3g}"
     fig, ax = new_figure()
     filled_levels(ax, gx, gy, value, label, 0.0 if statistic == "t" else target)

@@ -14,6 +14,7 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
+from ..common.levels import check_alpha
 from .core import (
     FLAG_WORDS,
     NUMERIC,
@@ -128,7 +129,7 @@ def screen_frames(
     >>> out["evalue"].round(2).to_list(), out["error"].to_list()
     ([2.26, None], ['', '`estimate` is missing'])
     """
-    from ..common.checks import AT_LEAST_ONE, OPEN_UNIT, require
+    from ..common.checks import AT_LEAST_ONE, require
 
     if any(len(pair) != 2 for pair in confounders):
         raise InputError("`confounders` must be pairs (rr_treatment, rr_outcome)")
@@ -136,7 +137,7 @@ def screen_frames(
              for a, b in confounders]  # fmt: skip
     options = Options(
         confounders=tuple((float(a), float(b)) for a, b in pairs),
-        alpha=float(require(alpha, "alpha", OPEN_UNIT)),
+        alpha=check_alpha(alpha),
         from_text=None if from_text is None else "_text",
     )
     names = computed_names(options)

@@ -6,6 +6,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..common.scales import SCALES
 from ..output.document import Document, Figure, prose, standard_tail
@@ -70,7 +71,7 @@ def table(g: TippingGrid) -> Table:
         ci = "" if adj["ci"] is None else f"{adj['ci'][0]:.4g} to {adj['ci'][1]:.4g}"
         single = [(NAMES[n], _fmt(g, n, float(v[0]))) for n, v in g.axes]
         single.append(("Bias-adjusted estimate", f"{adj['estimate']:.4g}"))
-        level = f"{g.ci_level:.0%} CI"
+        level = f"{level_text(g.ci_level)} CI"
         if ci:
             single.append((f"Bias-adjusted {level}", ci))
         single.append((f"Estimate reaches {_goal(g)}", "yes" if r["reaches_target"] else "no"))
@@ -84,7 +85,7 @@ def table(g: TippingGrid) -> Table:
     head = tuple(NAMES[o] for o in others)
     cols = head + (f"Estimate reaches {_goal(g)} at", "(exact)")
     if g.reach_ci is not None:
-        cols += (f"{g.ci_level:.0%} CI reaches it at", "(exact)")
+        cols += (f"{level_text(g.ci_level)} CI reaches it at", "(exact)")
     exact_note = (
         "'(exact)': from the closed-form formula, every value that reaches the target (which "
         "may lie outside the grid): at least (≥) or at most (≤) the crossing, between two "
@@ -150,7 +151,7 @@ def sentence(g: TippingGrid) -> str:
         "continuous": "a hidden normal confounder",
     }[g.kind]
     goal = _goal(g)
-    level = f"{g.ci_level:.0%} CI"
+    level = f"{level_text(g.ci_level)} CI"
     j = g.solved
     if j is None:
         r = _first_row(g)
@@ -180,7 +181,7 @@ def sentence(g: TippingGrid) -> str:
 
 
 def document(g: TippingGrid) -> Document:
-    ci = "" if g.ci is None else f" ({g.ci_level:.0%} CI {g.ci[0]:g} to {g.ci[1]:g})"
+    ci = "" if g.ci is None else f" ({level_text(g.ci_level)} CI {g.ci[0]:g} to {g.ci[1]:g})"
     label = "OLS coefficient" if g.kind == "partial-r2" else SCALES[g.scale].name
     cells = int(np.prod(g.shape))
     head = (
