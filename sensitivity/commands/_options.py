@@ -381,7 +381,9 @@ def emit(result: Any, fmt: str, outputs: tuple[str, ...] | str | None) -> None:
         formats.append(fmt)
     for path in outputs or ():
         chosen = EXTENSIONS.get(Path(path).suffix.lower(), fmt)
-        with open(path, "wb") as sink:
+        from sensitivity.output.atomic import replacing
+
+        with replacing(path) as sink:  # whole or not at all
             _write(result, chosen, sink)
         click.echo(f"Wrote {path}", err=True)
         formats.append(chosen)

@@ -158,11 +158,16 @@ def screen_cmd(
     # formula character (tests/test_screen.py), so only the input's are defused
     trusted = computed_names(Options(confounders=confounders))
     writer = table_writer(output, fmt, trusted)
-    for batch in stream:
+    try:
+        for batch in stream:
+            if writer is not None:
+                writer.write(batch)
+            if progress:
+                click.echo("\r" + _bar(share.next(), tally.rows), err=True, nl=False)
+    except BaseException:
         if writer is not None:
-            writer.write(batch)
-        if progress:
-            click.echo("\r" + _bar(share.next(), tally.rows), err=True, nl=False)
+            writer.abort()  # nothing half-written is left under the output's name
+        raise
     if progress:
         click.echo("", err=True)
     summary = tally.result(tuple(confounders), click.format_filename(file))

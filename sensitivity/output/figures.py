@@ -88,12 +88,23 @@ def figure_paths(path: str | Path | Sequence[str | Path], argument: str = "plot"
 
 
 def save_figure(fig: Any, paths: Sequence[str | Path]) -> list[Path]:
-    """Write `fig` to every path (format by extension) and close it."""
-    for path in paths:
-        fig.savefig(
-            path, metadata={"Creator": "sensitivity"} if str(path).endswith(".pdf") else None
-        )
-    pyplot().close(fig)
+    """Write `fig` to every path (format by extension), each whole or not at all, and close it."""
+    from .atomic import commit, discard, temporary_beside
+
+    try:
+        for path in paths:
+            temporary = temporary_beside(path)
+            try:
+                fig.savefig(
+                    temporary, format=Path(path).suffix.lstrip(".").lower() or None,
+                    metadata={"Creator": "sensitivity"} if str(path).endswith(".pdf") else None,
+                )  # fmt: skip
+                commit(temporary, path)
+            except BaseException:
+                discard(temporary)
+                raise
+    finally:
+        pyplot().close(fig)
     return [Path(p) for p in paths]
 
 
