@@ -799,3 +799,61 @@ def test_a_table_with_no_rows_comes_back_with_the_computed_columns():
     out = screen_table(empty)
     assert out.height == 0 and out.columns[-2:] == ["error", "notes"]
     assert screen_summary(empty).rows == 0
+
+
+# ---------------------------------------------------------------- issue 19: exact medians
+ratios = st.lists(st.floats(1.01, 50), min_size=1, max_size=40)
+
+
+@settings(max_examples=60, deadline=None)
+@given(ratios, ratios)
+def test_the_summary_median_is_the_exact_midpoint_median(estimates, limits):
+    """numpy's median (the midpoint rule for an even count) of the rows' own E-values."""
+    import polars as pl
+
+    from sensitivity.evalues.core import evalue_of_rr
+
+    n = min(len(estimates), len(limits))
+    est = np.maximum(estimates[:n], limits[:n])
+    low = np.minimum(estimates[:n], limits[:n])
+    frame = pl.DataFrame({"scale": ["rr"] * n, "estimate": [repr(float(x)) for x in est],
+                          "lower": [repr(float(x)) for x in low],
+                          "upper": [repr(float(x) * 2) for x in est]})  # fmt: skip
+    summary = screen_summary(frame)
+    entry = summary.per_scale["rr"]
+    assert entry["median_evalue"] == pytest.approx(float(np.median(evalue_of_rr(est))), rel=1e-12)
+    assert entry["median_evalue_ci"] == pytest.approx(
+        float(np.median(evalue_of_rr(low))), rel=1e-12
+    )
+
+
+def test_the_issue_example_median_of_two():
+    import polars as pl
+
+    summary = screen_summary(pl.DataFrame({"scale": ["rr", "rr"], "estimate": ["2", "3"]}))
+    assert summary.per_scale["rr"]["median_evalue"] == pytest.approx(4.43, abs=5e-3)
+    assert "Medians are exact" in summary.notes[0]
+
+
+@settings(max_examples=20, deadline=None)
+@given(st.lists(st.floats(1.01, 1e4), min_size=2, max_size=60))
+def test_beyond_memory_the_grid_median_is_within_its_stated_bound(estimates):
+    """Past EXACT_VALUES the median comes from the grid: within GRID_ERROR of the exact one,
+    and the note says so."""
+    import polars as pl
+
+    from sensitivity.evalues.core import evalue_of_rr
+    from sensitivity.screen import result as screen_result
+
+    frame = pl.DataFrame({"scale": ["rr"] * len(estimates),
+                          "estimate": [repr(x) for x in estimates]})  # fmt: skip
+    saved = screen_result.EXACT_VALUES
+    screen_result.EXACT_VALUES = 1
+    try:
+        summary = screen_summary(frame)
+    finally:
+        screen_result.EXACT_VALUES = saved
+    exact = float(np.median(evalue_of_rr(np.array(estimates))))
+    got = summary.per_scale["rr"]["median_evalue"]
+    assert abs(got / exact - 1) <= screen_result.GRID_ERROR * (1 + 1e-9)
+    assert "read from a grid of log E-values, within" in summary.notes[0]
