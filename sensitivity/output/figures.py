@@ -194,6 +194,11 @@ def log_ticks(ax: Any, low: float, high: float) -> None:
     from matplotlib.ticker import FixedLocator, FuncFormatter, NullFormatter, NullLocator
 
     nice = [0.1, 0.2, 0.3, 0.5, 0.67, 0.8, 1, 1.25, 1.5, 2, 3, 5, 10, 20, 50, 100, 1e3, 1e4]
+    if not (np.isfinite(low) and np.isfinite(high) and 0 < low < high):
+        raise ValueError(f"log_ticks needs 0 < low < high, both finite; got {low}, {high}")
+    if high / low > 1e5:  # powers of ten where the nice values would crowd or run out
+        nice = [10.0**k for k in range(int(np.floor(np.log10(low))),
+                                       int(np.ceil(np.log10(high))) + 1, 2)]  # fmt: skip
     ax.set_xscale("log")
     ax.set_xlim(low, high)
     ax.xaxis.set_major_locator(FixedLocator([v for v in nice if low <= v <= high]))

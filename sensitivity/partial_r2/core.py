@@ -188,7 +188,7 @@ def adjusted_for_confounder(
     adj = est - np.sign(est) * b
     s = se_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
     crit = t_critical(alpha, np.asarray(dof, float) - 1)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         t = adj / s
     return {
         "bias": b,
@@ -282,6 +282,10 @@ def check_summary(
             raise InputError(f"`t` must have the sign of `estimate`; got {t:g} for {est:g}")
         se = est / t
     se = float(require(se, "se", POSITIVE))
+    with np.errstate(over="ignore"):
+        ratio = est / se
+    if not np.isfinite(ratio):
+        raise InputError(f"`estimate` / `se` must be a finite t statistic; got {est:g} / {se:g}")
     fraction = float(require(fraction, "fraction", POSITIVE))
     alpha = levels.check_alpha(alpha)
     return est, se, dof, fraction, alpha
