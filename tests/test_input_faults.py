@@ -48,6 +48,7 @@ def test_writing_excel_without_openpyxl_says_what_to_install(run, tmp_path, monk
     import importlib.util
 
     real = importlib.util.find_spec
+
     def find_spec(name, *rest):
         return None if name == "openpyxl" else real(name, *rest)
 

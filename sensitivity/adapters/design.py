@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..common.checks import POSITIVE, require
+from ..common.checks import POSITIVE, require_scalar
 from ..common.errors import InputError, SensitivityWarning
 from ..partial_r2.core import assemble, benchmark_scenarios, check_summary, partial_r2_of_f
 from ..partial_r2.result import CovariateStrength, PartialR2Result
@@ -173,10 +173,13 @@ def _resolve_benchmark(name, covariates):
 def _k_pairs(times, times_pairs):
     if times is None:
         times = () if times_pairs else (1.0,)
-    pairs = [(float(require(k, "times", POSITIVE)),) * 2 for k in times]
+    pairs = [(float(require_scalar(k, "times", POSITIVE)),) * 2 for k in times]
     for kt, ky in times_pairs:
         pairs.append(
-            (float(require(kt, "times_pair", POSITIVE)), float(require(ky, "times_pair", POSITIVE)))
+            (
+                float(require_scalar(kt, "times_pair", POSITIVE)),
+                float(require_scalar(ky, "times_pair", POSITIVE)),
+            )
         )
     return pairs
 

@@ -159,7 +159,7 @@ def evalue(
     if np.any(beyond != ""):
         i = np.flatnonzero(beyond != "")[0]
         name = str(beyond.flat[i])
-        field_of = {"estimate": "estimate", "ci": "lower", "target": "target"}[name]
+        field_of = {"estimate": "estimate", "ci": "lower", "target": "target", "se": "se"}[name]
         value = np.broadcast_to(values[field_of], beyond.shape).flat[i]
         code = np.broadcast_to(values["scale"], beyond.shape).flat[i]
         raise InputError(overflow_message(name, value, str(code)))

@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..common.checks import require
+from ..common.checks import require_scalar
 from ..common.errors import InputError
 from ..common.levels import check_level
 from .formulas import evalue_of_rr
@@ -118,7 +118,7 @@ def evalue_rd(counts: tuple[int, int, int, int], *, ci_level: float = 0.95) -> R
 
     if len(counts) != 4:
         raise InputError(f"`counts` must be four numbers; got {len(counts)}")
-    a, n1, c, n0 = (float(require(v, "counts")) for v in counts)
+    a, n1, c, n0 = (float(require_scalar(v, "counts")) for v in counts)
     for value in (a, n1, c, n0):
         if value < 0 or value != round(value):
             raise InputError(f"`counts` must be whole numbers, 0 or more; got {value:g}")

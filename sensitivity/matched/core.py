@@ -27,7 +27,7 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..common.checks import require
+from ..common.checks import require, require_scalar
 from ..common.errors import InputError
 from ..common.levels import check_alpha
 from .result import MatchedResult
@@ -369,7 +369,7 @@ def _gamma_at(alpha: float, upper_at: object) -> float | None:
 
 def _whole(value: object, name: str) -> int:
     """A count: a finite whole number, 0 or more (a Decimal or numpy integer too)."""
-    v = float(require(value, name))
+    v = float(require_scalar(value, name))
     if v < 0 or v != int(v):
         raise InputError(f"`{name}` must be a whole number, 0 or more; got {value!r}")
     if v > 2**53:  # beyond it a count is no longer held exactly

@@ -23,7 +23,7 @@ from numpy.typing import ArrayLike
 
 from ..common import levels
 from ..common.checks import DOF as DOF_RULE
-from ..common.checks import POSITIVE, R2_STRENGTH, require
+from ..common.checks import POSITIVE, R2_STRENGTH, require, require_numbers, require_scalar, show
 from ..common.errors import InputError, SensitivityWarning
 from .result import CovariateStrength, PartialR2Result, Scenario
 
@@ -112,11 +112,19 @@ def robustness_value_of_t(
     >>> round(float(robustness_value_of_t(4.18, dof=783, alpha=0.05)), 3)
     0.076
     """
-    t = np.asarray(t, float)
-    dof = np.asarray(dof, float)
-    fq = np.asarray(fraction, float) * np.abs(t) / np.sqrt(dof)
+    t = require_numbers(t, "t")
+    dof = require_numbers(dof, "dof")
+    fraction = require_numbers(fraction, "fraction")
+    least = 1 if alpha is None else 2  # the interval's t has dof - 1 degrees of freedom
+    for name, values, bad in (("dof", dof, dof < least), ("fraction", fraction, fraction <= 0)):
+        if np.any(bad):  # NaN (a missing entry) passes through as NaN
+            rule = f"must be at least {least}" if name == "dof" else "must be positive"
+            raise InputError(f"`{name}` {rule}; got {show(values[bad].flat[0])}")
+    with np.errstate(invalid="ignore"):
+        fq = fraction * np.abs(t) / np.sqrt(dof)
     if alpha is None:
         return _rv_curve(fq)
+    alpha = levels.check_alpha(alpha)
     fstar = t_critical(alpha, dof - 1) / np.sqrt(dof - 1)
     fa = fq - fstar
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
@@ -147,7 +155,8 @@ def bias_of_confounder(
     """
     r2t = np.asarray(r2_treatment, float)
     r2y = np.asarray(r2_outcome, float)
-    return np.asarray(se, float) * np.sqrt(dof) * np.sqrt(r2y * r2t / (1 - r2t))
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        return np.asarray(se, float) * np.sqrt(dof) * np.sqrt(r2y * r2t / (1 - r2t))
 
 
 def se_of_confounder(
@@ -184,20 +193,16 @@ def adjusted_for_confounder(
         ``bias``, ``estimate``, ``se``, ``t``, ``lower``, ``upper``.
     """
     est = np.asarray(estimate, float)
-    b = bias_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
-    adj = est - np.sign(est) * b
-    s = se_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
-    crit = t_critical(alpha, np.asarray(dof, float) - 1)
+    # values beyond a double (an se of 1e308) come out as inf, which the callers refuse
+    # (tipping's finite_cells) or report as null; no raw warning
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        b = bias_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
+        adj = est - np.sign(est) * b
+        s = se_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
+        crit = t_critical(alpha, np.asarray(dof, float) - 1)
         t = adj / s
-    return {
-        "bias": b,
-        "estimate": adj,
-        "se": s,
-        "t": t,
-        "lower": adj - crit * s,
-        "upper": adj + crit * s,
-    }
+        lower, upper = adj - crit * s, adj + crit * s
+    return {"bias": b, "estimate": adj, "se": s, "t": t, "lower": lower, "upper": upper}
 
 
 def benchmark_strengths(
@@ -268,25 +273,25 @@ def check_summary(
     estimate: object, se: object, dof: object, t: object, fraction: object, alpha: object
 ) -> tuple[float, float, float, float, float]:
     """One OLS coefficient's summary, checked: (estimate, se, dof, fraction, alpha)."""
-    est = float(require(estimate, "estimate"))
+    est = float(require_scalar(estimate, "estimate"))
     if se is not None and t is not None:
         raise InputError("give `se` or `t`, not both")
     if se is None and t is None:
         raise InputError("`se` (or the t statistic `t`) is required")
-    dof = float(require(dof, "dof", DOF_RULE))
+    dof = float(require_scalar(dof, "dof", DOF_RULE))
     if t is not None:
-        t = float(require(t, "t"))
+        t = float(require_scalar(t, "t"))
         if t == 0 or est == 0:
             raise InputError(f"`t` must be non-zero with a non-zero estimate; got t = {t:g}")
         if np.sign(t) != np.sign(est):
             raise InputError(f"`t` must have the sign of `estimate`; got {t:g} for {est:g}")
         se = est / t
-    se = float(require(se, "se", POSITIVE))
+    se = float(require_scalar(se, "se", POSITIVE))
     with np.errstate(over="ignore"):
         ratio = est / se
     if not np.isfinite(ratio):
         raise InputError(f"`estimate` / `se` must be a finite t statistic; got {est:g} / {se:g}")
-    fraction = float(require(fraction, "fraction", POSITIVE))
+    fraction = float(require_scalar(fraction, "fraction", POSITIVE))
     alpha = levels.check_alpha(alpha)
     return est, se, dof, fraction, alpha
 
@@ -456,7 +461,7 @@ def assemble(
     if sd_outcome is not None:
         from ..evalues.core import evalue
 
-        sd = float(require(sd_outcome, "sd_outcome", POSITIVE))
+        sd = float(require_scalar(sd_outcome, "sd_outcome", POSITIVE))
         ev = evalue("md", est, se=se, sd=sd, contrast=contrast)
     notes = list(context.pop("notes", ()))
     if ev is not None:

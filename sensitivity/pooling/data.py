@@ -14,7 +14,14 @@ from typing import Any
 
 import numpy as np
 
-from ..common.checks import AT_LEAST_ONE, OPEN_UNIT, POSITIVE, require, require_choice
+from ..common.checks import (
+    AT_LEAST_ONE,
+    OPEN_UNIT,
+    POSITIVE,
+    require,
+    require_choice,
+    require_scalar,
+)
 from ..common.errors import InputError
 from ..common.levels import check_alpha, z_critical
 from . import core
@@ -163,10 +170,10 @@ def pool_estimates(
     (1.236, 1.253)
     """
     y, s = core.check_studies(log_estimates, se)
-    q_ratio = float(require(threshold, "threshold", POSITIVE))
-    r = float(require(share, "share", OPEN_UNIT))
+    q_ratio = float(require_scalar(threshold, "threshold", POSITIVE))
+    r = float(require_scalar(share, "share", OPEN_UNIT))
     a = check_alpha(alpha)
-    sd = float(require(bias_sd, "bias_sd"))
+    sd = float(require_scalar(bias_sd, "bias_sd"))
     if sd < 0:
         raise InputError(f"`bias_sd` must be 0 or more; got {sd:g}")
     fit = fit_random_effects(y, s, method)
@@ -177,7 +184,13 @@ def pool_estimates(
     var_tau = core.tau_variance(fit.tau2, fit.var_tau2)
     # with no spread, Var(tau) does not enter (z is 0 in the T formula's tau term)
     var_tau_t = 0.0 if tau == 0 else var_tau
-    raw = float(core.bias_to_reduce(fit.mu, tau, q, r, direction, sd))
+    with np.errstate(over="ignore"):
+        raw = float(core.bias_to_reduce(fit.mu, tau, q, r, direction, sd))
+    if not np.isfinite(raw) or raw > 1e100:
+        raise InputError(
+            f"`threshold` {q_ratio:g} is so far from the pooled estimate that the bias needed "
+            "leaves the range this analysis can show; give a threshold on the estimates' scale"
+        )
     t_bias = max(raw, 1.0)
     t_se = float(core.bias_to_reduce_se(raw, tau, var_mu, var_tau_t, r, sd)) if raw > 1 else np.nan
     grid = _bias_grid(bias, t_bias)
@@ -340,7 +353,7 @@ def read_studies(
     from ..screen.stream import _as_polars, screen_table
 
     frame, _ = _as_polars(table)
-    level = float(require(level, "level", OPEN_UNIT))
+    level = float(require_scalar(level, "level", OPEN_UNIT))
     mapping = dict(columns or {})
     header = list(frame.columns)
     label_col = mapping.pop("label", None) or next((c for c in LABEL_COLUMNS if c in header), None)

@@ -27,7 +27,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..common.checks import POSITIVE, require
+from ..common.checks import POSITIVE, require_scalar
 from ..common.errors import InputError
 from .result import StabilityResult
 
@@ -61,7 +61,7 @@ def _all_roots(
     s_x2: float, tau: float,
 ) -> tuple[np.ndarray, np.ndarray, float]:  # fmt: skip
     """The real roots u and the complex roots of the cubic in u = nu / s (s the scale)."""
-    s = _scale(b0, b1)
+    s = np.float64(_scale(b0, b1))
     # nu = s u: the cubic in u has coefficients of comparable size whatever the units
     with np.errstate(over="ignore", under="ignore", invalid="ignore"):
         a, b, c, d = _cubic(delta, b0, b1, r0, r1, r_max, s_y2, s_x2, tau)
@@ -69,7 +69,10 @@ def _all_roots(
         top = np.max(np.abs(coeffs))
         coeffs = coeffs / top if top > 0 and np.isfinite(top) else coeffs
     if not np.all(np.isfinite(coeffs)):
-        raise InputError("the inputs are too extreme for the cubic (a coefficient overflows)")
+        raise InputError(
+            "the estimates and variances are too extreme for the cubic (a coefficient leaves "
+            "double precision); rescale the outcome or the treatment"
+        )
     first = np.flatnonzero(np.abs(coeffs) > 1e-14)
     coeffs = coeffs[first[0] :] if first.size else coeffs[:0]
     if coeffs.size <= 1:
@@ -201,10 +204,10 @@ def coefficient_stability(
     >>> round(float(res.bias_adjusted_approx), 4)
     0.355
     """
-    b0 = float(require(estimate_short, "estimate_short"))
-    b1 = float(require(estimate_long, "estimate_long"))
-    r0 = float(require(r2_short, "r2_short"))
-    r1 = float(require(r2_long, "r2_long"))
+    b0 = float(require_scalar(estimate_short, "estimate_short"))
+    b1 = float(require_scalar(estimate_long, "estimate_long"))
+    r0 = float(require_scalar(r2_short, "r2_short"))
+    r1 = float(require_scalar(r2_long, "r2_long"))
     for name, value in (("r2_short", r0), ("r2_long", r1)):
         if not 0 <= value < 1:
             raise InputError(f"`{name}` must lie in [0, 1); got {value:g}")
@@ -220,12 +223,17 @@ def coefficient_stability(
             f"R-max = min(1.3 x {r1:g}, 1) = {r_max:.4g} (Oster's rule of thumb; common practice)."
         )
     else:
-        r_max = float(require(r2_max, "r2_max"))
+        r_max = float(require_scalar(r2_max, "r2_max"))
         if r_max > 1 or r_max < r1:
             raise InputError(f"`r2_max` must lie between the long R² ({r1:g}) and 1; got {r_max:g}")
-    delta = float(require(delta, "delta"))
-    target = float(require(target, "target"))
+    delta = float(require_scalar(delta, "delta"))
+    target = float(require_scalar(target, "target"))
     approx = b1 - delta * (b0 - b1) * (r_max - r1) / (r1 - r0)
+    if not np.isfinite(approx):
+        raise InputError(
+            "`estimate_short`, `estimate_long` and `delta` give a bias-adjusted coefficient "
+            "beyond double precision; rescale the outcome or the treatment"
+        )
     denominator = (b0 - b1) * (r_max - r1)
     delta_approx = (b1 - target) * (r1 - r0) / denominator if denominator else float("inf")
     variances = (var_outcome, var_treatment, var_treatment_residual)
@@ -236,9 +244,9 @@ def coefficient_stability(
                 "the exact solution needs all three of `var_outcome`, `var_treatment` and "
                 "`var_treatment_residual`"
             )
-        s_y2 = float(require(var_outcome, "var_outcome", POSITIVE))
-        s_x2 = float(require(var_treatment, "var_treatment", POSITIVE))
-        tau = float(require(var_treatment_residual, "var_treatment_residual", POSITIVE))
+        s_y2 = float(require_scalar(var_outcome, "var_outcome", POSITIVE))
+        s_x2 = float(require_scalar(var_treatment, "var_treatment", POSITIVE))
+        tau = float(require_scalar(var_treatment_residual, "var_treatment_residual", POSITIVE))
         if tau > s_x2:
             raise InputError(
                 f"`var_treatment_residual` ({tau:g}) cannot exceed `var_treatment` ({s_x2:g})"
@@ -274,5 +282,5 @@ def coefficient_stability(
         bias_adjusted_approx=float(approx), delta_for_target=delta_exact,
         delta_for_target_approx=float(delta_approx), notes=tuple(notes),
         complex_nearer=near,
-        variances=None if exact is None and roots is None else tuple(float(v) for v in variances),  # type: ignore[arg-type]
+        variances=None if roots is None else (s_y2, s_x2, tau),
     )  # fmt: skip
