@@ -40,12 +40,41 @@ def _first_row(g: TippingGrid) -> dict:
     return rows_of_layout(cols, g.row_layout())[0]
 
 
-def _fmt(g: TippingGrid, name: str, value: float | None) -> str:
+def _fmt(g: TippingGrid, name: str, value: float | None, outward: int = 0) -> str:
+    """A parameter value as printed; `outward` +1 rounds up, -1 down (at the printed digits),
+    so that an exact set's printed end never overstates it: a crossing at 3.0003 prints as
+    "≥ 3.001", not "≥ 3", when 3 itself does not tip."""
     if value is None or (isinstance(value, float) and np.isnan(value)):
         return "not reached"
-    if name.startswith(("prevalence", "r2_")):
-        return f"{value:.3g}" if value >= 0.001 or value == 0 else f"{value:.2e}"
-    return f"{value:.4g}"
+    value = float(value)
+    small = name.startswith(("prevalence", "r2_")) and 0 < abs(value) < 0.001
+    digits = 3 if name.startswith(("prevalence", "r2_")) else 4
+    if outward and value != 0 and np.isfinite(value):
+        value = round_outward(value, digits, outward)
+    if small:
+        return f"{value:.2e}"
+    return f"{value:.{digits}g}"
+
+
+def round_outward(value: float, digits: int, direction: int) -> float:
+    """`value` rounded to `digits` significant digits up (+1) or down (-1); a value within
+    1e-9 (relative) of a printed number is that number (0.37499999999 is 0.375).
+
+    >>> round_outward(3.0003, 4, 1), round_outward(0.3749999999977, 3, 1)
+    (3.001, 0.375)
+    >>> round_outward(2.9996, 4, -1)
+    2.999
+    """
+    import math
+
+    exponent = math.floor(math.log10(abs(value))) - digits + 1
+    scaled = value / 10.0**exponent
+    near = round(scaled)
+    if abs(scaled - near) <= 1e-9 * max(abs(scaled), 1.0):
+        scaled = near
+    else:
+        scaled = math.ceil(scaled) if direction > 0 else math.floor(scaled)
+    return float(f"{scaled}e{exponent}")
 
 
 def _exact(g: TippingGrid, name: str, tp: dict, key: str) -> str:
@@ -57,10 +86,10 @@ def _exact(g: TippingGrid, name: str, tp: dict, key: str) -> str:
     if kind == "always":
         return "all values"
     if kind == "from":
-        return "≥ " + _fmt(g, name, low)
+        return "≥ " + _fmt(g, name, low, +1)
     if kind == "up_to":
-        return "≤ " + _fmt(g, name, high)
-    return f"{_fmt(g, name, low)} to {_fmt(g, name, high)}"
+        return "≤ " + _fmt(g, name, high, -1)
+    return f"{_fmt(g, name, low, +1)} to {_fmt(g, name, high, -1)}"
 
 
 def table(g: TippingGrid) -> Table:
