@@ -254,11 +254,6 @@ def test_bad_input_exits_2(run, args, message):
             "affairs ~ rate_marriage + (",
             "Error: `--formula` 'affairs ~ rate_marriage + (' could not be fitted",
         ),
-        (
-            ("--treatment", "rate_marriage", "--benchmark", "religious", "--times", 500),
-            FORMULA,
-            "Error: `k_treatment` 500 is impossible",
-        ),
     ],
 )
 def test_bad_data_input_exits_2(run, fair_csv, extra, formula, message):
@@ -277,3 +272,25 @@ def test_empty_file_exits_2(run, tmp_path):
 def test_mixing_inputs_exits_2(run, fair_csv):
     res = run(*data_args(fair_csv, "--estimate", 1))
     assert res.exit_code == 2 and "give summary numbers or data, not both" in res.stderr
+
+
+def test_a_benchmark_too_strong_to_exist_is_a_row_that_says_so(run, fair_csv):
+    """Issue 19: k = 500 of religious cannot exist; the row says so with the largest k that
+    does, and the other rows are computed (the command no longer fails)."""
+    res = run("partial-r2", "--data", fair_csv, "--formula", FORMULA, "--treatment",
+              "rate_marriage", "--benchmark", "religious", "--times", 1, "--times", 500,
+              "--format", "json")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    rows = json.loads(res.stdout)["scenarios"]
+    bench = [r for r in rows if r.get("benchmark")]
+    assert [r.get("impossible", False) for r in bench] == [False, True]
+    assert bench[1]["bias_adjusted"]["estimate"] is None and 1 < bench[1]["k_max"] < 500
+    assert bench[0]["bias_adjusted"]["estimate"] is not None
+
+
+@pytest.mark.parametrize("spelling", ["religious", "C(religious)"])
+def test_a_benchmark_in_either_spelling(run, fair_csv, spelling):
+    res = run("partial-r2", "--data", fair_csv, "--formula", FORMULA, "--treatment",
+              "rate_marriage", "--benchmark", spelling, "--format", "json")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    assert any(r.get("benchmark") for r in json.loads(res.stdout)["scenarios"])

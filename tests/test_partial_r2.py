@@ -203,3 +203,28 @@ def test_tiny_alpha_keeps_every_number_finite(alpha, dof, t):
 def test_alpha_below_the_limit_is_refused(alpha):
     with pytest.raises(InputError, match=r"`alpha` must be at least 1e-300"):
         partial_r2_summary(3.0, 1.0, 100, alpha=alpha)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.floats(0.05, 0.95), st.floats(0.01, 0.5), st.lists(st.floats(0.1, 20), min_size=1,
+                                                             max_size=4))  # fmt: skip
+def test_an_impossible_benchmark_is_a_row_and_the_rest_are_computed(r2t, r2y, ks):
+    """Issue 19: k at or above (1 - R²)/R² cannot exist (Cinelli & Hazlett 2020); that row says
+    so with the bound, and every other row equals the row computed alone."""
+    import warnings
+
+    from sensitivity.common.errors import SensitivityWarning
+    from sensitivity.partial_r2.core import benchmark_scenarios
+    from sensitivity.partial_r2.result import CovariateStrength
+
+    warnings.simplefilter("ignore", SensitivityWarning)  # a capped outcome side is said apart
+    cov = CovariateStrength("C(region)", ("region",), r2t, r2y)
+    rows = benchmark_scenarios(0.5, 0.1, 500, cov, [(k, k) for k in ks], 0.05)
+    bound = (1 - r2t) / r2t
+    for k, row in zip(ks, rows, strict=True):
+        assert row.impossible == (k >= bound)
+        if row.impossible:
+            assert row.k_max == pytest.approx(bound) and np.isnan(row.estimate)
+        else:
+            alone = benchmark_scenarios(0.5, 0.1, 500, cov, [(k, k)], 0.05)[0]
+            assert row.estimate == alone.estimate and not np.isnan(row.estimate)

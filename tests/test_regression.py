@@ -157,11 +157,6 @@ def test_array_fit_uses_name_rule():
             {"benchmarks": ["age"], "times": [0]},
             r"`times` must be positive; got 0",
         ),
-        (
-            "rate_marriage",
-            {"benchmarks": ["C(religious)"], "times": [200]},
-            r"`k_treatment` 200 is impossible",
-        ),
     ],
 )
 def test_model_input_errors(fit, treatment, kwargs, message):

@@ -131,8 +131,11 @@ def legend_below(ax: Any, handles: list) -> None:
 
 
 def numbered_markers(ax: Any, points: Sequence[Mark], start: int = 1) -> None:
-    """Numbered markers: white discs with the row number of the table they belong to."""
+    """Numbered markers: white discs with the row number of the table they belong to (a
+    point that is not a number, such as an impossible benchmark, is skipped; its number too)."""
     for i, (x, y) in enumerate(points, start):
+        if not (np.isfinite(x) and np.isfinite(y)):
+            continue
         ax.plot([x], [y], "o", ms=13, mfc="white", mec="black", mew=1.0, zorder=5, clip_on=False)
         ax.annotate(str(i), (x, y), ha="center", va="center", fontsize=7.5, zorder=6)
 

@@ -338,7 +338,17 @@ def benchmark_scenarios(
 ) -> list[Scenario]:
     """Scenarios for confounders k times as strong as `covariate` (a CovariateStrength)."""
     out = []
+    k_max = _k_max(covariate.r2_treatment)
     for kt, ky in k_pairs:
+        if kt >= k_max:
+            # too strong to exist: the confounder would explain all of the treatment's
+            # residual variance. The row says so, with the largest k that exists; the
+            # other rows are computed.
+            nan = float("nan")
+            out.append(Scenario(nan, nan, nan, nan, nan, nan, (nan, nan), kind="benchmark",
+                                benchmark=covariate.name, k_treatment=float(kt),
+                                k_outcome=float(ky), k_max=float(k_max)))  # fmt: skip
+            continue
         r2t, r2y, capped = benchmark_strengths(covariate.r2_treatment, covariate.r2_outcome, kt, ky)
         adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
         k = f"×{kt:g}" if kt == ky else f"×{kt:g}/×{ky:g}"

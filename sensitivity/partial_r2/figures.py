@@ -32,7 +32,8 @@ def _r2_limits(result: Any, limits: Mark | None) -> Mark:
     if limits is not None:
         return float(limits[0]), float(limits[1])
     pts = [2 * result.robustness_value, 0.05]
-    pts += [max(s.r2_treatment, s.r2_outcome) * 1.2 for s in result.scenarios]
+    pts += [max(s.r2_treatment, s.r2_outcome) * 1.2 for s in result.scenarios
+            if not s.impossible]  # fmt: skip
     lim = float(min(0.99, max(pts)))
     return lim, lim
 
@@ -73,6 +74,7 @@ def partial_r2_contours(
     distance = sign * (s["estimate"] - target)
     tip_line(ax, gx, gy, distance, 0.0, "estimate", f"Estimate reaches {goal}", handles)
     tip_line(ax, gx, gy, distance / s["se"], crit, "ci", f"{level} CI reaches {goal}", handles)
+    # numbered as in the table; an impossible benchmark has no point (NaN is not drawn)
     numbered_markers(ax, [(sc.r2_treatment, sc.r2_outcome) for sc in result.scenarios])
     own_marks(ax, marks, handles)
     who = f" of {plot_label(result.treatment)}" if result.treatment else ""

@@ -31,6 +31,14 @@ class Scenario:
     k_treatment: float | None = None
     k_outcome: float | None = None
     capped: bool = False
+    # set when the benchmark multiple is too strong to exist: the largest k_treatment that does
+    # (exclusive); the numbers are then NaN (null in JSON)
+    k_max: float | None = None
+
+    @property
+    def impossible(self) -> bool:
+        """True for a benchmark multiple no confounder can have."""
+        return self.k_max is not None
 
     @property
     def label_multiple(self) -> str:
@@ -66,6 +74,8 @@ class Scenario:
                 "k_outcome": self.k_outcome,
                 "capped": self.capped,
             }
+            if self.impossible:
+                out |= {"impossible": True, "k_max": self.k_max}
         return plain(out)
 
 
@@ -193,4 +203,5 @@ class PartialR2Result(Result):
     def columns(self) -> dict[str, np.ndarray]:
         """One row a scenario (or one row with no scenarios), for CSV."""
         rows = self.records()
-        return {k: np.asarray([r[k] for r in rows], dtype=object) for k in rows[0]}
+        keys = list(dict.fromkeys(k for r in rows for k in r))  # every row's keys, in order
+        return {k: np.asarray([r.get(k) for r in rows], dtype=object) for k in keys}
