@@ -857,3 +857,63 @@ def test_beyond_memory_the_grid_median_is_within_its_stated_bound(estimates):
     got = summary.per_scale["rr"]["median_evalue"]
     assert abs(got / exact - 1) <= screen_result.GRID_ERROR * (1 + 1e-9)
     assert "read from a grid of log E-values, within" in summary.notes[0]
+
+
+# ---------------------------------------------------------------- issue 19: journal styles
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("HR, 0.72; 95% CI, 0.60-0.86", ("hr", 0.72, 0.60, 0.86)),
+        ("hazard ratio [HR] 0.72, 95% CI 0.60 to 0.86", ("hr", 0.72, 0.60, 0.86)),
+        ("23% lower risk (95% CI 10% to 34%)", ("rr", 0.77, 0.66, 0.90)),
+        ("15% higher odds (95% CI 2% to 30%)", ("or", 1.15, 1.02, 1.30)),
+    ],
+)
+def test_common_journal_styles_are_read(text, expected):
+    got = parse(text)
+    assert got["error"] == ""
+    assert (got["scale"], got["estimate"], got["lower"], got["upper"]) == expected
+    assert got["level"] == 0.95
+
+
+two_decimals = st.integers(1, 999).map(lambda k: k / 100)
+
+
+@given(two_decimals, two_decimals, two_decimals, st.sampled_from(["HR", "OR", "RR"]))
+def test_the_comma_style_reads_what_it_says(a, b, c, word):
+    lo, est, hi = sorted((a, b, c))
+    got = parse(f"{word}, {est:.2f}; 95% CI, {lo:.2f}-{hi:.2f}")
+    assert (got["estimate"], got["lower"], got["upper"]) == (est, lo, hi)
+    assert got["scale"] == word.lower()
+
+
+@given(st.integers(1, 99), st.integers(1, 99), st.integers(1, 99),
+       st.sampled_from(["lower", "higher"]))  # fmt: skip
+def test_a_relative_change_in_percent_is_its_ratio(a, b, c, direction):
+    lo, est, hi = sorted((a, b, c))
+    got = parse(f"{est}% {direction} risk (95% CI {lo}% to {hi}%)")
+    sign = -1 if direction == "lower" else 1
+    assert got["estimate"] == pytest.approx(1 + sign * est / 100, abs=1e-12)
+    limits = sorted((1 + sign * lo / 100, 1 + sign * hi / 100))
+    assert (got["lower"], got["upper"]) == pytest.approx(tuple(limits), abs=1e-12)
+    assert got["lower"] <= got["estimate"] <= got["upper"]
+
+
+def test_two_results_in_one_cell_are_still_refused():
+    assert parse("HR 0.72 (95% CI 0.60-0.86); OR 2 (1-3)")["error"] == "two results in one cell"
+
+
+def test_rows_with_their_own_numbers_ignore_a_blank_text_alike(run, tmp_path):
+    """Issue 19: an rd row with its four counts and a blank text is computed, as an md row
+    with its estimate is; an rd row without counts says the counts are needed."""
+    src = tmp_path / "rd.csv"
+    src.write_text(
+        "scale,result,cases_treated,total_treated,cases_control,total_control,estimate,se,dof,sd\n"
+        "rd,,10,100,5,100,,,,\nmd,,,,,,0.5,0.1,100,2\nrd,0.05 (0.01-0.09),,,,,,,,\n"
+    )
+    res = run("screen", src, "--from-text", "result", "--format", "csv")
+    assert res.exit_code == 0, res.stderr
+    rows = list(csv.DictReader(io.StringIO(res.stdout)))
+    assert rows[0]["error"] == "" and rows[0]["evalue"] != ""
+    assert rows[1]["error"] == "" and rows[1]["evalue"] != ""
+    assert rows[2]["error"].startswith("a risk-difference row needs its four counts")
