@@ -917,3 +917,12 @@ def test_rows_with_their_own_numbers_ignore_a_blank_text_alike(run, tmp_path):
     assert rows[0]["error"] == "" and rows[0]["evalue"] != ""
     assert rows[1]["error"] == "" and rows[1]["evalue"] != ""
     assert rows[2]["error"].startswith("a risk-difference row needs its four counts")
+
+
+def test_a_tsv_named_csv_says_so_plainly(run, tmp_path):
+    src = tmp_path / "tab.csv"
+    src.write_text("scale\testimate\tlower\tupper\nrr\t2\t1.5\t3\n")
+    res = run("screen", src)
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1
+    assert "read as one column, whose name holds tabs: 'scale' | 'estimate'" in res.stderr
+    assert "rename it .tsv" in res.stderr
