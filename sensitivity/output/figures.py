@@ -204,7 +204,16 @@ def log_ticks(ax: Any, low: float, high: float) -> None:
                                        int(np.ceil(np.log10(high))) + 1, 2)]  # fmt: skip
     ax.set_xscale("log")
     ax.set_xlim(low, high)
-    ax.xaxis.set_major_locator(FixedLocator([v for v in nice if low <= v <= high]))
+    # keep ticks far enough apart that their labels cannot run together ("1.251.5" on a
+    # narrow panel): about 0.45 inch of axis between neighbours
+    box = ax.get_position()
+    width = max(box.width * ax.figure.get_figwidth(), 0.5)
+    gap = 0.45 / width * (np.log10(high) - np.log10(low))
+    ticks: list[float] = []
+    for v in (v for v in nice if low <= v <= high):
+        if not ticks or np.log10(v) - np.log10(ticks[-1]) >= gap:
+            ticks.append(v)
+    ax.xaxis.set_major_locator(FixedLocator(ticks))
     ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
     ax.xaxis.set_minor_locator(NullLocator())
     ax.xaxis.set_minor_formatter(NullFormatter())

@@ -60,7 +60,8 @@ def tipping_figure(
     near = np.squeeze(result.cells[near_key]) if near_key in result.cells else None
     colour = "Bias-adjusted estimate"
     if result.kind == "bounding":
-        colour = "Worst-case bound on the estimate (bounding factor)"
+        code = str(result.scale)
+        colour = f"Worst-case bound on the {code.upper()} (after the bounding factor)"
     fig, ax = new_figure()
     handles: list = []
     if len(varying) == 1:
