@@ -138,12 +138,15 @@ def screen_cmd(
         from sensitivity.adapters.files import read_table
         from sensitivity.pooling.data import pool_table
 
-        pooled = pool_table(
-            read_table(file, "file"),
-            threshold=pool_threshold,
-            columns=_column_map(column_map) or None,
-            from_text=from_text,
-        )
+        try:
+            pooled = pool_table(
+                read_table(file, "file"),
+                threshold=pool_threshold,
+                columns=_column_map(column_map) or None,
+                from_text=from_text,
+            )
+        except InputError as err:  # the pool's threshold is --pool here (--threshold is ours)
+            raise InputError(str(err).replace("`threshold`", "`--pool`")) from None
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
     stream = screen_frames(
         frames,

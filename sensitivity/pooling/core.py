@@ -154,7 +154,14 @@ def bias_to_reduce(
     s = _sign(direction)
     r = require(r, "share", OPEN_UNIT)
     spread = _spread(tau, bias_sd)
-    return np.exp(s * (np.asarray(mu, float) - np.asarray(q, float)) - ndtri(r) * spread)
+    with np.errstate(over="ignore"):
+        out = np.exp(s * (np.asarray(mu, float) - np.asarray(q, float)) - ndtri(r) * spread)
+    if np.any(~np.isfinite(out) | (out > 1e100)):
+        raise InputError(
+            "`threshold` is so far from the pooled estimate that the bias needed leaves the "
+            "range this analysis can show; give a threshold on the estimates' scale"
+        )
+    return out
 
 
 def bias_to_reduce_se(

@@ -184,13 +184,7 @@ def pool_estimates(
     var_tau = core.tau_variance(fit.tau2, fit.var_tau2)
     # with no spread, Var(tau) does not enter (z is 0 in the T formula's tau term)
     var_tau_t = 0.0 if tau == 0 else var_tau
-    with np.errstate(over="ignore"):
-        raw = float(core.bias_to_reduce(fit.mu, tau, q, r, direction, sd))
-    if not np.isfinite(raw) or raw > 1e100:
-        raise InputError(
-            f"`threshold` {q_ratio:g} is so far from the pooled estimate that the bias needed "
-            "leaves the range this analysis can show; give a threshold on the estimates' scale"
-        )
+    raw = float(core.bias_to_reduce(fit.mu, tau, q, r, direction, sd))
     t_bias = max(raw, 1.0)
     t_se = float(core.bias_to_reduce_se(raw, tau, var_mu, var_tau_t, r, sd)) if raw > 1 else np.nan
     grid = _bias_grid(bias, t_bias)
