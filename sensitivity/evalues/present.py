@@ -125,9 +125,11 @@ def sentence(result: EValueResult) -> str | None:
     text = (
         f"For the observed {name} of {observed_value(r['estimate'])}{ci}{conv or ','} {aim} "
         f"would take an "
-        f"unmeasured confounder associated with both the treatment and the outcome by a risk "
-        f"ratio of at least {e} each, beyond the measured covariates (the E-value); a "
-        f"confounder weaker than that on both associations could not."
+        f"unmeasured confounder associated with both the treatment and the outcome, beyond "
+        f"the measured covariates, by a risk ratio of at least {e} on one of the two (the "
+        f"E-value, the least strength when the two associations are equal); a confounder "
+        f"weaker than that on both associations could not, and unequal pairs that could are "
+        f"traced in the figure."
     )
     if e_ci is None:
         return text
