@@ -329,8 +329,110 @@ def bench_data_route() -> None:
               f"({peaks[1_000_000] / peaks[100_000]:.2f}x; goal: flat)")  # fmt: skip
 
 
+def bench_debiased() -> None:
+    print("== Debiased ML: 100,000 rows, 20 covariates, 5 folds, default learners (issue 23)")
+    import numpy as np
+    import pandas as pd
+
+    from sensitivity.debiased.fit import debiased_fit
+
+    rng = np.random.default_rng(23)
+    n, k = 100_000, 20
+    x = rng.normal(size=(n, k))
+    d = x[:, :5] @ rng.normal(0, 0.4, 5) + np.sin(x[:, 5]) + rng.normal(size=n)
+    y = 0.3 * d + x[:, :8] @ rng.normal(0, 0.5, 8) + np.cos(x[:, 6]) + rng.normal(size=n)
+    frame = pd.DataFrame(x, columns=[f"x{i}" for i in range(k)]).assign(y=y, d=d)
+    covariates = [f"x{i}" for i in range(k)]
+    start = time.perf_counter()
+    fit = debiased_fit(frame, "d", "y", covariates, folds=5, seed=1)
+    crossfit = time.perf_counter() - start
+    grid = np.linspace(0, 0.5, 50)
+
+    def sensitivity_step() -> None:
+        fit.grid(grid, grid)  # the bounds over a 50 x 50 strength grid
+        fit.bounds([(0.01, 0.01), (0.05, 0.1)])  # scenarios and both robustness values
+
+    step = timed(sensitivity_step)
+    print(f"  cross-fitting (2 nuisances x 5 folds, boosting): {crossfit:.2f} s")
+    print(f"  sensitivity step (50 x 50 grid, robustness values): {step * 1e3:.2f} ms")
+    print(f"  ratio: {step / crossfit:.5f}  (goal: under 0.05 of the cross-fitting)")
+
+
+WEIGHTING_CHILD = """
+import sys, numpy as np
+n, resamples, mode = int(sys.argv[1]), int(sys.argv[2]), sys.argv[3]
+rng = np.random.default_rng(0)
+x = rng.normal(size=(n, 4))
+e = 1 / (1 + np.exp(-(x @ [0.5, -0.3, 0.2, 0.1])))
+a = (rng.uniform(size=n) < e).astype(float)
+y = x @ [1.0, 0.5, 0.0, 0.0] + 0.3 * a + rng.normal(size=n)
+if mode == "floor":
+    draws = np.random.default_rng(1)
+    for _ in range(resamples):
+        np.sort(y[draws.integers(0, n, n)])
+else:
+    from sensitivity.weighting import weighting_bounds
+    given = {"propensity": e} if mode == "given" else {"covariates": np.c_[np.ones(n), x]}
+    methods = ("sharp", "percentile") if mode == "sharp" else ("percentile",)
+    weighting_bounds(y, a, lam=np.linspace(1, 2.8, 10), resamples=resamples, seed=1,
+                     methods=methods, **given)
+"""
+
+
+def bench_weighting() -> None:
+    print("== Weighted estimates under the marginal sensitivity model: 10 Λ (issue 22)")
+    child = [sys.executable, "-c", WEIGHTING_CHILD]
+
+    def median_of(cmd: list[str], runs: int = 1) -> tuple[float, float]:
+        got = [measured(cmd) for _ in range(runs)]
+        return statistics.median(g[0] for g in got), statistics.median(g[1] for g in got)
+
+    t_f, m_f = median_of([*child, "100000", "500", "floor"])
+    print(f"floor: numpy draws and sorts 500 resamples of 100,000 (whole process): "
+          f"{t_f:.2f} s, peak {m_f:.0f} MiB")  # fmt: skip
+    for mode, what in (("given", "propensities given"), ("refit", "propensity model refitted")):
+        t_o, m_o = median_of([*child, "100000", "500", mode])
+        print(f"box bounds, 100,000 units, 500 resamples, {what}: {t_o:.2f} s, "
+              f"peak {m_o:.0f} MiB; ratio {t_o / t_f:.2f}  (goal: within 3x)")  # fmt: skip
+    print("growth with the units (box bounds, propensities given, 100 resamples; in process,")
+    print("start-up and data excluded):")
+    import math
+
+    import numpy as np
+
+    from sensitivity.weighting import weighting_bounds
+
+    times = {}
+    for n in (10_000, 100_000, 1_000_000):
+        rng = np.random.default_rng(0)
+        x = rng.normal(size=(n, 4))
+        e = 1 / (1 + np.exp(-(x @ [0.5, -0.3, 0.2, 0.1])))
+        a = (rng.uniform(size=n) < e).astype(float)
+        y = x @ [1.0, 0.5, 0.0, 0.0] + 0.3 * a + rng.normal(size=n)
+
+        def ours() -> None:
+            weighting_bounds(y, a, propensity=e, lam=np.linspace(1, 2.8, 10), resamples=100,  # noqa: B023
+                             seed=1, methods=("percentile",))  # fmt: skip
+
+        def floor() -> None:
+            draws = np.random.default_rng(1)
+            for _ in range(100):
+                np.sort(y[draws.integers(0, n, n)])  # noqa: B023
+
+        times[n] = timed(ours, 1)
+        t_f = timed(floor, 1)
+        print(f"  {n:>9,} units: {times[n]:.2f} s (floor {t_f:.2f} s, ratio {times[n] / t_f:.2f})")
+    ratio = times[1_000_000] / times[10_000]
+    nlogn = 1_000_000 * math.log(1_000_000) / (10_000 * math.log(10_000))
+    print(f"  10^4 -> 10^6: time x{ratio:.0f}; n log n x{nlogn:.0f}  (goal: no faster growth)")
+    t_s, m_s = median_of([*child, "10000", "100", "sharp"])
+    print(f"sharp and box bounds, 10,000 units, 100 resamples (quantile models refitted): "
+          f"{t_s:.2f} s, peak {m_s:.0f} MiB")  # fmt: skip
+
+
 SECTIONS = [bench_startup, bench_benchmarks, bench_tipping, bench_export, bench_screen,
-            bench_simulate, bench_matched, bench_data_route]  # fmt: skip
+            bench_simulate, bench_matched, bench_data_route, bench_debiased,
+            bench_weighting]  # fmt: skip
 
 if __name__ == "__main__":
     chosen = sys.argv[1:]

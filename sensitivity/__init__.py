@@ -10,8 +10,12 @@ Public API (imported lazily, so `import sensitivity` costs almost nothing):
 - `screen_table`, `screen_batches`, `screen_frames`, `screen_summary`: many published
   results at once (a pandas, polars or Arrow table, or a stream of Arrow record batches or
   of polars DataFrames).
+- `debiased_fit`: cross-fitted debiased machine learning (scikit-learn learners) whose
+  `.bounds()` gives omitted-variable bounds for confounders of chosen strength.
 - `from_model`: a fitted model into the right result; `report`: results or fitted models into
   the manuscript folder (report.md, report.html, tables.tex, report.json, figures).
+- `weighted_sensitivity` (a table and a propensity formula or column) and `weighting_bounds`
+  (arrays): a weighted (IPW) effect under the marginal sensitivity model.
 - `InputError` (bad input, a ValueError) and `SensitivityWarning`.
 """
 
@@ -51,6 +55,9 @@ _EXPORTS = {
     "screen_batches": "screen.stream",
     "screen_frames": "screen.stream",
     "screen_summary": "screen.stream",
+    "weighting_bounds": "weighting",
+    "weighted_sensitivity": "weighting",
+    "WeightingResult": "weighting",
     "InputError": "common.errors",
     "SensitivityWarning": "common.errors",
 }

@@ -8,22 +8,13 @@ from click.testing import CliRunner
 from conftest import ROOT
 
 from cli import cli
+from sensitivity.commands import COMMANDS
 
 
 def _examples():
     runner = CliRunner()
     found = []
-    commands = (
-        "evalue",
-        "partial-r2",
-        "tipping",
-        "screen",
-        "impact",
-        "report",
-        "stability",
-        "simulate",
-    )
-    for command in (*commands, "matched"):
+    for command in COMMANDS:
         text = runner.invoke(cli, [command, "--help"], terminal_width=200).stdout
         lines, current = [], ""
         for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
@@ -44,17 +35,7 @@ EXAMPLES = _examples()
 
 
 def test_every_command_has_examples():
-    assert {c for c, _ in EXAMPLES} == {
-        "evalue",
-        "partial-r2",
-        "tipping",
-        "screen",
-        "impact",
-        "report",
-        "stability",
-        "matched",
-        "simulate",
-    }
+    assert {c for c, _ in EXAMPLES} == set(COMMANDS)
 
 
 @pytest.mark.parametrize("command, example", EXAMPLES, ids=[e for _, e in EXAMPLES])

@@ -10,6 +10,8 @@ COMMANDS = {
     "matched": ("matched", "Rosenbaum bounds for matched pairs (sign and signed-rank tests)."),
     "stability": ("stability", "Coefficient stability under proportional selection (Oster)."),
     "impact": ("impact", "Impact threshold of a confounding variable (Frank)."),
+    "weighting": ("weighting", "Weighted (IPW) estimates under the marginal sensitivity model."),
     "pool": ("pool", "Confounding in a random-effects meta-analysis: the share of strong effects."),
+    "debiased": ("debiased", "Omitted-variable bounds for debiased machine-learning estimates."),
     "report": ("report", "Write the robustness section of a manuscript to a folder."),
 }

@@ -98,4 +98,22 @@ REFERENCES = {
         "heterogeneity in the random effects model in meta-analysis. Statistics in Medicine "
         "16:753-768."
     ),
+    "chernozhukov-cinelli-2022": (
+        "Chernozhukov V, Cinelli C, Newey W, Sharma A, Syrgkanis V (2022). Long story short: "
+        "omitted variable bias in causal machine learning. NBER Working Paper 30302; "
+        "arXiv:2112.13398."
+    ),
+    "tan-2006": (
+        "Tan Z (2006). A distributional approach for causal inference using propensity scores. "
+        "Journal of the American Statistical Association 101:1619-1637."
+    ),
+    "zhao-small-bhattacharya-2019": (
+        "Zhao Q, Small DS, Bhattacharya BB (2019). Sensitivity analysis for inverse probability "
+        "weighting estimators via the percentile bootstrap. Journal of the Royal Statistical "
+        "Society, Series B 81:735-761."
+    ),
+    "dorn-guo-2023": (
+        "Dorn J, Guo K (2023). Sharp sensitivity analysis for inverse propensity weighting via "
+        "quantile balancing. Journal of the American Statistical Association 118:2645-2657."
+    ),
 }
