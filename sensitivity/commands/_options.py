@@ -60,10 +60,11 @@ class Command(click.Command):
         from sensitivity.common.errors import InputError
 
         _refuse_repeats(self, args)
+        ctx.meta["typed"] = {a.split("=", 1)[0] for a in args if a.startswith("--")}
         try:
             rest = super().parse_args(ctx, out)
         except InputError as err:  # from an option's callback (a --plot path, say)
-            raise type(err)(as_typed(self, str(err))) from err.__cause__
+            raise type(err)(as_typed(self, str(err), ctx.meta["typed"])) from err.__cause__
         except click.NoSuchOption as err:
             if err.option_name in RENAMED:
                 raise click.UsageError(
@@ -80,7 +81,8 @@ class Command(click.Command):
             return super().invoke(ctx)
         except InputError as err:
             # the library names its Python argument (`ci_level`); the user typed --ci-level
-            raise type(err)(as_typed(self, str(err))) from err.__cause__
+            typed = ctx.meta.get("typed")
+            raise type(err)(as_typed(self, str(err), typed)) from err.__cause__
 
 
 def _option_name(param: click.Parameter) -> str:
@@ -89,17 +91,23 @@ def _option_name(param: click.Parameter) -> str:
     return names[0]
 
 
-def as_typed(command: click.Command, message: str) -> str:
+def as_typed(command: click.Command, message: str, typed: set[str] | None = None) -> str:
     """`message` with each `argument` that is one of the command's options as typed: `ci_level`
-    becomes `--ci-level` where the command has --ci-level. Only literal matches (`outcome` is
+    becomes `--ci-level` where the command has --ci-level (but not where the user gave a longer
+    option it begins, `typed`: a value from --propensity-column is not --propensity's). Only
+    literal matches (`outcome` is
     not --outcome-frequency), and in a message about a row of a file only the leading name
     (the rest name the file's columns)."""
+    typed = typed or set()
     options = {
         opt.removeprefix("--").replace("-", "_"): opt
         for param in command.params
         if isinstance(param, click.Option)
         for opt in param.opts
         if opt.startswith("--")
+        # not --propensity when the user gave --propensity-column (whose values the message
+        # is about), unless --propensity itself was given
+        and (opt in typed or not any(t.startswith(opt + "-") for t in typed))
     }
     pattern = re.compile(r"`([A-Za-z_][\w-]*)`")
     count = 1 if re.search(r"\brow \d", message) else 0
