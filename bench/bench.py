@@ -51,10 +51,20 @@ def bench_startup() -> None:
     root = Path(__file__).resolve().parent.parent
     subprocess.run([sys.executable, "-m", "compileall", "-q", str(root / "sensitivity"),
                     str(root / "cli.py")], check=True)  # fmt: skip
-    cmd = [str(BIN / "sensitivity"), "evalue", "rr", "3.9", "--ci", "1.8", "8.7"]
+    cmd = [
+        str(BIN / "sensitivity"),
+        "evalue",
+        "--scale",
+        "rr",
+        "--estimate",
+        "3.9",
+        "--ci",
+        "1.8",
+        "8.7",
+    ]
     base = [sys.executable, "-c", "import numpy, click"]
     report(
-        "sensitivity evalue rr 3.9 --ci 1.8 8.7",
+        "sensitivity evalue --scale rr --estimate 3.9 --ci 1.8 8.7",
         wall(cmd),
         wall(base),
         'python -c "import numpy, click"',

@@ -15,9 +15,11 @@ RULE = "=" * 92
 
 
 def evalue_command(row: dict) -> list[str]:
-    args = ["sensitivity", "evalue", row["scale"], row["estimate"]]
-    if row["lower"]:
-        args += ["--ci", row["lower"], row["upper"]]
+    if row["lower"]:  # as a paper prints it: the scale, the estimate and its interval
+        text = f"{row['scale'].upper()} {row['estimate']} (95% CI {row['lower']} to {row['upper']})"
+        args = ["sensitivity", "evalue", text]
+    else:
+        args = ["sensitivity", "evalue", "--scale", row["scale"], "--estimate", row["estimate"]]
     for column in ("se", "sd", "contrast"):
         if row[column]:
             args += [f"--{column}", row[column]]
@@ -48,7 +50,7 @@ def main() -> int:
     steps = []
     for i, row in enumerate(rows, 1):
         cmd = evalue_command(row)
-        if i == 1:  # the reviewer's question, once: confounders as strong as known ones
+        if i == 1:  # the reviewer's question, once: confounders of known ones' strength
             cmd += ["--confounder", "1.5", "2", "--confounder", "3", "4"]
         steps.append((f"[{i}/{len(rows)}] {row['label']}", cmd))
     steps.append(
@@ -66,11 +68,11 @@ def main() -> int:
                 "--benchmark",
                 "smoker",
                 "--benchmark",
+                "smoker:2",
+                "--benchmark",
                 "shift",
-                "--times",
-                "1",
-                "--times",
-                "2",
+                "--benchmark",
+                "shift:2",
                 "--contrast",
                 "10",
                 "--plot",

@@ -13,14 +13,14 @@ ROOT = Path(__file__).resolve().parent.parent
 OUT = ROOT / "docs" / "figures"
 FIGURES = {
     "evalue_poor_sleep.png": [
-        "evalue", "or", "2.40", "--ci", "1.80", "3.20", "--outcome-frequency", "common",
+        "evalue", "OR 2.40 (95% CI 1.80-3.20)", "--outcome-frequency", "common",
         "--confounder", "1.5", "2", "--confounder", "3", "3",
     ],
     "partial_r2_commute.png": [
         "partial-r2", "--data", "demo/harbourside_bp.csv", "--formula",
         "sbp ~ commute_min + age + female + smoker + C(shift) + bmi", "--treatment",
-        "commute_min", "--benchmark", "smoker", "--benchmark", "shift", "--times", "1",
-        "--times", "2", "--plot-mark", "0.08", "0.04",
+        "commute_min", "--benchmark", "smoker", "--benchmark", "smoker:2", "--benchmark",
+        "shift", "--benchmark", "shift:2", "--plot-mark", "0.08", "0.04",
     ],
     "tipping_night_shift.png": [
         "tipping", "--scale", "hr", "--estimate", "1.38", "--ci", "1.12", "1.70",

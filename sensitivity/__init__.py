@@ -3,7 +3,8 @@
 Public API (imported lazily, so `import sensitivity` costs almost nothing):
 
 - `evalue`, `evalue_of_rr`, `evalue_of_interval`, `bounding_factor`, `to_risk_ratio`: E-values
-  on any scale, vectorised over rows (scales may differ per row).
+  on any scale, vectorised over rows (scales may differ per row); `evalue_from_text`: one
+  result as published ("HR 0.72 (95% CI 0.60-0.86)").
 - `partial_r2_summary`, `partial_r2_from_model`, `partial_r2_from_data`: omitted-variable
   bias in the partial R² parameterisation for an OLS coefficient.
 - `binary_confounder_grid`, `bounding_grid`, `partial_r2_grid`: tipping-point grids.
@@ -26,6 +27,7 @@ __version__ = "0.1.0"
 
 _EXPORTS = {
     "evalue": "evalues",
+    "evalue_from_text": "adapters.published",
     "evalue_of_rr": "evalues",
     "evalue_of_interval": "evalues",
     "evalue_rows": "evalues",

@@ -54,8 +54,7 @@ def _data_result():
         fair,
         "affairs ~ rate_marriage + age + yrs_married + children",
         "rate_marriage",
-        benchmarks=["age"],
-        times=[1, 2],
+        benchmarks=["age", "age:2"],
     )
 
 
@@ -115,11 +114,37 @@ CASES = [
     *[
         ("evalue", s, args)
         for s, args in [
-            ("rr", ["rr", "1.8", "--ci", "1.2", "2.7"]),
-            ("or", ["or", "1.8", "--ci", "1.2", "2.7", "--outcome-frequency", "common"]),
-            ("hr", ["hr", "0.7", "--ci", "0.55", "0.9", "--outcome-frequency", "rare"]),
-            ("smd", ["smd", "0.4", "--se", "0.1"]),
-            ("md", ["md", "2.5", "--se", "0.8", "--sd", "11"]),
+            ("rr", ["--scale", "rr", "--estimate", "1.8", "--ci", "1.2", "2.7"]),
+            (
+                "or",
+                [
+                    "--scale",
+                    "or",
+                    "--estimate",
+                    "1.8",
+                    "--ci",
+                    "1.2",
+                    "2.7",
+                    "--outcome-frequency",
+                    "common",
+                ],
+            ),
+            (
+                "hr",
+                [
+                    "--scale",
+                    "hr",
+                    "--estimate",
+                    "0.7",
+                    "--ci",
+                    "0.55",
+                    "0.9",
+                    "--outcome-frequency",
+                    "rare",
+                ],
+            ),
+            ("smd", ["--scale", "smd", "--estimate", "0.4", "--se", "0.1"]),
+            ("md", ["--scale", "md", "--estimate", "2.5", "--se", "0.8", "--sd", "11"]),
         ]
     ],
     *[
@@ -341,7 +366,7 @@ def test_a_numpy_value_error_is_ours_exit_1(run, monkeypatch):
         raise ValueError("operands could not be broadcast together")
 
     monkeypatch.setattr(ev, "evalue", broken)
-    res = run("evalue", "rr", 2)
+    res = run("evalue", "--scale", "rr", "--estimate", 2)
     assert res.exit_code == 1
     assert res.stderr.startswith("Error: internal error (ValueError: operands could not")
     assert res.stderr.count("\n") == 1

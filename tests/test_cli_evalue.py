@@ -7,7 +7,7 @@ import json
 import pytest
 
 # VanderWeele & Ding (2017): RR 3.9 (1.8, 8.7) -> 7.26 and 3.0.
-PUBLISHED = ("evalue", "rr", 3.9, "--ci", 1.8, 8.7)
+PUBLISHED = ("evalue", "--scale", "rr", "--estimate", 3.9, "--ci", 1.8, 8.7)
 
 
 def test_text_shows_both_evalues_sentence_and_cautions(run):
@@ -15,10 +15,10 @@ def test_text_shows_both_evalues_sentence_and_cautions(run):
     assert res.exit_code == 0
     assert "7.26" in res.stdout and "3.00" in res.stdout
     text = " ".join(res.stdout.split())
-    assert "by a risk ratio of at least 7.26 on one of the two" in text
-    # issue 19: not "each", which a (2, 3) pair in the table contradicts when E is 2.10
-    assert "the least strength when the two associations are equal" in text
-    assert "(95% CI 1.80 to 8.70)" in text and "could move the 95% CI to include the null" in text
+    assert "the E-value is 7.26: a hidden confounder with equal risk ratios" in text
+    assert "only if both were 7.26 or more, and none with both below 7.26 could" in text
+    assert "(95% CI 1.80 to 8.70)" in text
+    assert "For the 95% CI to take in the null, equal risk ratios of 3.00 or more" in text
     assert "not a pass/fail threshold" in res.stdout
     assert res.stderr == ""
 
@@ -35,21 +35,37 @@ def test_json_keys_follow_the_contract(run):
 
 
 def test_json_without_interval_has_nulls(run):
-    data = json.loads(run("evalue", "rr", 2.0, "--format", "json").stdout)
+    data = json.loads(run("evalue", "--scale", "rr", "--estimate", 2.0, "--format", "json").stdout)
     assert data["ci"] is None and data["rr_ci"] is None and data["evalue_ci"] is None
 
 
 @pytest.mark.parametrize(
     "args, rr_text",
     [
-        (("or", 2.1, "--ci", 1.4, 3.15, "--outcome-frequency", "common"), "1.45"),
-        (("or", 2.1, "--ci", 1.4, 3.15, "--outcome-frequency", "rare"), "2.10"),
-        (("hr", 0.72, "--ci", 0.6, 0.86, "--prevalence", 0.3), "0.80"),
-        (("hr", 0.72, "--ci", 0.6, 0.86, "--prevalence", 0.05), "0.72"),
-        (("smd", 0.5, "--se", 0.1), "1.58"),
-        (("smd", -0.4, "--ci", -0.6, -0.2), "0.69"),
-        (("md", 0.42, "--se", 0.11, "--sd", 12, "--contrast", 10), "1.38"),
-        (("rr", 0.5, "--ci", 0.3, 0.8, "--target", 0.8), "0.50"),
+        (
+            (
+                "--scale",
+                "or",
+                "--estimate",
+                2.1,
+                "--ci",
+                1.4,
+                3.15,
+                "--outcome-frequency",
+                "common",
+            ),
+            "1.45",
+        ),
+        (
+            ("--scale", "or", "--estimate", 2.1, "--ci", 1.4, 3.15, "--outcome-frequency", "rare"),
+            "2.10",
+        ),
+        (("--scale", "hr", "--estimate", 0.72, "--ci", 0.6, 0.86, "--prevalence", 0.3), "0.80"),
+        (("--scale", "hr", "--estimate", 0.72, "--ci", 0.6, 0.86, "--prevalence", 0.05), "0.72"),
+        (("--scale", "smd", "--estimate", 0.5, "--se", 0.1), "1.58"),
+        (("--scale", "smd", "--estimate", -0.4, "--ci", -0.6, -0.2), "0.69"),
+        (("--scale", "md", "--estimate", 0.42, "--se", 0.11, "--sd", 12, "--contrast", 10), "1.38"),
+        (("--scale", "rr", "--estimate", 0.5, "--ci", 0.3, 0.8, "--target", 0.8), "0.50"),
     ],
 )
 def test_every_scale_runs(run, args, rr_text):
@@ -102,19 +118,56 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
 @pytest.mark.parametrize(
     "args, message",
     [
-        (("rr", 0), "Error: `estimate` must be positive; got 0"),
-        (("rr", -1.5), "Error: `estimate` must be positive; got -1.5"),
-        (("rr", "inf"), "Error: `estimate` must be a finite number; got inf"),
-        (("rr", "abc"), "Error: Invalid value for '[ESTIMATE]': 'abc' is not a number"),
-        (("rr", 3.9, "--ci", 4, 8.7), "Error: `estimate` must lie within `--ci`"),
-        (("rr", 3.9, "--ci", 8.7, 1.8), "Error: `--ci` lower limit must not exceed the upper"),
-        (("or", 2), "Error: `outcome` frequency is needed on the or scale"),
-        (("hr", 2, "--prevalence", 2), "Error: `--prevalence` must lie in [0, 1]; got 2"),
-        (("md", 2, "--se", 1), "Error: `--sd` is required for scale md"),
-        (("rr", 2, "--target", 0), "Error: `--target` must be positive; got 0"),
-        (("rr", 2, "--confounder", 0.5, 2), "Error: `rr_treatment` must be at least 1; got 0.5"),
-        (("zz", 2), "Error: Invalid value for 'SCALE'"),
-        (("rr",), "Error: give SCALE and ESTIMATE"),
+        (("--scale", "rr", "--estimate", 0), "Error: `--estimate` must be positive; got 0"),
+        (("--scale", "rr", "--estimate", -1.5), "Error: `--estimate` must be positive; got -1.5"),
+        (
+            ("--scale", "rr", "--estimate", "inf"),
+            "Error: Invalid value for '--estimate': must be a finite number; got inf",
+        ),
+        (
+            ("--scale", "rr", "--estimate", "abc"),
+            "Error: Invalid value for '--estimate': 'abc' is not a valid float",
+        ),
+        (
+            ("--scale", "rr", "--estimate", 3.9, "--ci", 4, 8.7),
+            "Error: `--estimate` must lie within `--ci`",
+        ),
+        (
+            ("--scale", "rr", "--estimate", 3.9, "--ci", 8.7, 1.8),
+            "Error: `--ci` lower limit must not exceed the upper",
+        ),
+        (
+            ("--scale", "or", "--estimate", 2),
+            "Error: `outcome` frequency is needed on the or scale",
+        ),
+        (
+            ("--scale", "hr", "--estimate", 2, "--prevalence", 2),
+            "Error: `--prevalence` must lie in [0, 1]; got 2",
+        ),
+        (("--scale", "md", "--estimate", 2, "--se", 1), "Error: `--sd` is required for scale md"),
+        (
+            ("--scale", "rr", "--estimate", 2, "--target", 0),
+            "Error: `--target` must be positive; got 0",
+        ),
+        (
+            ("--scale", "rr", "--estimate", 2, "--confounder", 0.5, 2),
+            "Error: `rr_treatment` must be at least 1; got 0.5",
+        ),
+        (("--scale", "zz", "--estimate", 2), "Error: Invalid value for '--scale'"),
+        (("--scale", "rr"), "Error: give the result as published"),
+        (("--estimate", 2), "Error: --estimate needs --scale"),
+        (
+            ("rr", 2),
+            "Error: the form `evalue SCALE ESTIMATE` is retired: give the result as "
+            'published, `evalue "RR 2 (95% CI ...)"`, or by name, `evalue --scale rr --estimate 2',
+        ),
+        (("1.5", "2"), "Error: TEXT is one argument: quote the published result"),
+        (("HR 1.4 (1.1-",), "Error: `TEXT`: the interval is incomplete; got 'HR 1.4 (1.1-'"),
+        (("1.4 (1.1-1.8)",), "Error: `TEXT` names no scale"),
+        (("HR 1.4 (1.1-1.8)", "--scale", "or"), "Error: `--scale` 'or' differs from the scale"),
+        (("RR 1.4 (90% CI 1.1-1.8)", "--ci-level", 0.95), "Error: `--ci-level` 0.95 differs"),
+        (("RR 1.4 (1.1-1.8)", "--estimate", 1.4), "Error: TEXT and --estimate cannot be used"),
+        (("RR 1.4", "--ci", 1.1, 1.8), "Error: TEXT and --ci cannot be used together"),
         (
             ("rr", 2, "--output", "/no/such/folder/e.txt"),
             "Error: Invalid value for '--output' / '-o': folder '/no/such/folder' does not exist",

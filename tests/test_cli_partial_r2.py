@@ -50,10 +50,8 @@ def test_json_keys_follow_the_contract(run, fair_csv):
             fair_csv,
             "--benchmark",
             "religious",
-            "--times",
-            1,
-            "--times",
-            2,
+            "--benchmark",
+            "religious:2",
             "--r2-treatment",
             0.05,
             "--r2-outcome",
@@ -70,7 +68,7 @@ def test_json_keys_follow_the_contract(run, fair_csv):
         "dof",
         "t",
         "partial_r2",
-        "fraction",
+        "reduce_by",
         "alpha",
         "robustness_value",
         "robustness_value_alpha",
@@ -79,6 +77,11 @@ def test_json_keys_follow_the_contract(run, fair_csv):
     ):
         assert key in d
     assert len(d["scenarios"]) == 3
+    # one label form everywhere (the text table's), the numbers in fields of their own
+    assert [sc["label"] for sc in d["scenarios"]] == ["chosen 5.00% / 5.00%", "religious ×1",
+                                                     "religious ×2"]  # fmt: skip
+    assert [(sc["multiple_treatment"], sc["multiple_outcome"]) for sc in d["scenarios"][1:]] == [
+        (1.0, 1.0), (2.0, 2.0)]  # fmt: skip
     for sc in d["scenarios"]:
         assert {"label", "r2_treatment", "r2_outcome", "bias", "bias_adjusted"} <= set(sc)
         assert {"estimate", "se", "t", "ci"} <= set(sc["bias_adjusted"])
@@ -87,7 +90,7 @@ def test_json_keys_follow_the_contract(run, fair_csv):
 
 
 def test_data_text_has_table_sentence_and_covariates(run, fair_csv):
-    res = run(*data_args(fair_csv, "--benchmark", "age", "--times-pair", 1, 3))
+    res = run(*data_args(fair_csv, "--benchmark", "age:1:3"))
     assert res.exit_code == 0, res.stderr
     out = " ".join(res.stdout.split())
     assert "age ×1/×3" in out  # labels built from the scenario's fields (issue 9)
@@ -104,6 +107,8 @@ def test_paste_and_table_formats(run, fair_csv, fmt):
     if fmt == "csv":
         rows = list(csv.DictReader(io.StringIO(res.stdout)))
         assert rows[0]["scenario_benchmark"] == "age"
+        assert rows[0]["scenario_label"] == "age ×1"
+        assert float(rows[0]["scenario_multiple_treatment"]) == 1.0
 
 
 @pytest.mark.parametrize(
@@ -117,10 +122,12 @@ def test_plot_formats(run, fair_csv, tmp_path, suffix, magic):
     json.loads(res.stdout)  # stdout stays parseable with a plot written
 
 
-def test_plot_of_t_values(run, tmp_path):
-    out = tmp_path / "t.png"
-    res = run(*SUMMARY, "--plot", out, "--plot-statistic", "t")
+def test_the_figure_has_an_estimate_panel_and_a_t_panel(run, tmp_path):
+    out = tmp_path / "t.svg"
+    res = run(*SUMMARY, "--plot", out)
     assert res.exit_code == 0 and out.stat().st_size > 1000
+    svg = out.read_text()
+    assert "Bias-adjusted estimate" in svg and "Bias-adjusted t value" in svg
 
 
 def test_capped_benchmark_warns_on_one_line(run, tmp_path):
@@ -142,9 +149,7 @@ def test_capped_benchmark_warns_on_one_line(run, tmp_path):
         "--treatment",
         "t",
         "--benchmark",
-        "x",
-        "--times",
-        2,
+        "x:2",
     )
     assert res.exit_code == 0
     assert res.stderr.startswith("Warning: a confounder x ×2 would need an outcome-side partial R²")
@@ -157,9 +162,7 @@ def test_capped_benchmark_warns_on_one_line(run, tmp_path):
         "--treatment",
         "t",
         "--benchmark",
-        "x",
-        "--times",
-        2,
+        "x:2",
         "--format",
         "json",
     )
@@ -185,8 +188,8 @@ def test_capped_benchmark_warns_on_one_line(run, tmp_path):
             "Error: `--alpha` must lie strictly between 0 and 1; got 1.5",
         ),
         (
-            ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--fraction", -1),
-            "Error: `--fraction` must be positive; got -1",
+            ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--reduce-by", -1),
+            "Error: `--reduce-by` must be positive; got -1",
         ),
         (
             (
@@ -213,7 +216,7 @@ def test_capped_benchmark_warns_on_one_line(run, tmp_path):
         (("partial-r2",), "Error: give --estimate, --se (or --t) and --dof, or --data"),
         (
             ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--benchmark", "age"),
-            "Error: --benchmark, --times and --times-pair need data input",
+            "Error: --benchmark needs data input",
         ),
         (
             ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--plot", "x.jpg"),
@@ -254,6 +257,11 @@ def test_bad_input_exits_2(run, args, message):
             "affairs ~ rate_marriage + (",
             "Error: `--formula` 'affairs ~ rate_marriage + (' could not be fitted",
         ),
+        (
+            ("--treatment", "rate_marriage", "--benchmark", "religious:-2"),
+            FORMULA,
+            "Error: `--benchmark` 'religious:-2': a multiple must be a positive finite number",
+        ),
     ],
 )
 def test_bad_data_input_exits_2(run, fair_csv, extra, formula, message):
@@ -272,25 +280,3 @@ def test_empty_file_exits_2(run, tmp_path):
 def test_mixing_inputs_exits_2(run, fair_csv):
     res = run(*data_args(fair_csv, "--estimate", 1))
     assert res.exit_code == 2 and "give summary numbers or data, not both" in res.stderr
-
-
-def test_a_benchmark_too_strong_to_exist_is_a_row_that_says_so(run, fair_csv):
-    """Issue 19: k = 500 of religious cannot exist; the row says so with the largest k that
-    does, and the other rows are computed (the command no longer fails)."""
-    res = run("partial-r2", "--data", fair_csv, "--formula", FORMULA, "--treatment",
-              "rate_marriage", "--benchmark", "religious", "--times", 1, "--times", 500,
-              "--format", "json")  # fmt: skip
-    assert res.exit_code == 0, res.stderr
-    rows = json.loads(res.stdout)["scenarios"]
-    bench = [r for r in rows if r.get("benchmark")]
-    assert [r.get("impossible", False) for r in bench] == [False, True]
-    assert bench[1]["bias_adjusted"]["estimate"] is None and 1 < bench[1]["k_max"] < 500
-    assert bench[0]["bias_adjusted"]["estimate"] is not None
-
-
-@pytest.mark.parametrize("spelling", ["religious", "C(religious)"])
-def test_a_benchmark_in_either_spelling(run, fair_csv, spelling):
-    res = run("partial-r2", "--data", fair_csv, "--formula", FORMULA, "--treatment",
-              "rate_marriage", "--benchmark", spelling, "--format", "json")  # fmt: skip
-    assert res.exit_code == 0, res.stderr
-    assert any(r.get("benchmark") for r in json.loads(res.stdout)["scenarios"])

@@ -97,8 +97,8 @@ def test_bounds_reproduce_the_partial_r2_family(fair_fit, fair_ols, cy2, cd2):
 def test_robustness_value_reproduces_the_partial_r2_family(fair_fit, fair_ols, target):
     ols = fair_ols[0]
     est = ols.params["rate_marriage"]
-    fraction = 1 - target / est
-    pr = partial_r2_summary(est, ols.bse["rate_marriage"], ols.df_resid, fraction=fraction)
+    share = 1 - target / est
+    pr = partial_r2_summary(est, ols.bse["rate_marriage"], ols.df_resid, reduce_by=share)
     res = fair_fit.bounds(target=target)
     assert res.robustness_value == pytest.approx(pr.robustness_value, rel=1e-8)
 

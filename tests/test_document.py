@@ -20,7 +20,21 @@ ALL_VIEWS = ("text", "markdown", "latex", "html")
 
 # --------------------------------------------------------------------------- one document
 def test_the_json_sentences_are_the_documents(run):
-    res = run("evalue", "rr", 1.64, "--ci", 1.21, 2.23, "--confounder", 2, 3, "--format", "json")
+    res = run(
+        "evalue",
+        "--scale",
+        "rr",
+        "--estimate",
+        1.64,
+        "--ci",
+        1.21,
+        2.23,
+        "--confounder",
+        2,
+        3,
+        "--format",
+        "json",
+    )
     data = json.loads(res.stdout)
     document = sensitivity.evalue("rr", 1.64, (1.21, 2.23)).with_confounders(2, 3).document()
     assert data["sentences"] == document.sentences
@@ -29,14 +43,30 @@ def test_the_json_sentences_are_the_documents(run):
 
 @pytest.mark.parametrize("fmt", ["markdown", "latex", "csv", "json"])
 def test_the_confounder_sentence_is_in_every_format(run, fmt):
-    res = run("evalue", "rr", 1.64, "--ci", 1.21, 2.23, "--confounder", 2, 3, "--format", fmt)
+    res = run(
+        "evalue",
+        "--scale",
+        "rr",
+        "--estimate",
+        1.64,
+        "--ci",
+        1.21,
+        2.23,
+        "--confounder",
+        2,
+        3,
+        "--format",
+        fmt,
+    )
     assert res.exit_code == 0
     said = res.stdout if fmt == "json" else res.stderr
     assert "A confounder with risk ratio 2.00 with the treatment and 3.00" in said
 
 
 def test_text_mode_has_the_confounder_sentence_too(run):
-    res = run("evalue", "rr", 1.64, "--ci", 1.21, 2.23, "--confounder", 2, 3)
+    res = run(
+        "evalue", "--scale", "rr", "--estimate", 1.64, "--ci", 1.21, 2.23, "--confounder", 2, 3
+    )
     assert "A confounder with risk ratio 2.00 with the treatment and 3.00" in res.stdout
 
 
@@ -157,10 +187,13 @@ def test_a_report_from_python_has_a_reproduce_section_and_versions(mixed_report)
 
 
 def test_the_command_lines_report_names_its_versions(run, tmp_path):
-    res = run("report", "rr", 1.5, "--ci", 1.1, 2.0, "--out", tmp_path)
+    res = run("report", "--scale", "rr", "--estimate", 1.5, "--ci", 1.1, 2.0, "--out", tmp_path)
     assert res.exit_code == 0, res.stderr
     md = (tmp_path / "report.md").read_text(encoding="utf-8")
-    assert "sensitivity report rr 1.5 --ci 1.1 2.0" in md.split("## Reproduce", 1)[1]
+    assert (
+        "sensitivity report --scale rr --estimate 1.5 --ci 1.1 2.0"
+        in md.split("## Reproduce", 1)[1]
+    )
     assert "Computed with sensitivity" in md
 
 

@@ -31,7 +31,21 @@ from sensitivity.tipping.core import set_contains
 def test_the_issue_example_moves_the_limit_with_the_estimate(run):
     # Ding & VanderWeele (2016): under the bounding factor B = 4/3 (both RRs 2) the estimate
     # and the interval move by the same factor: 1.3 / B = 0.975 and 0.9 / B = 0.675.
-    res = run("evalue", "rr", 1.3, "--ci", 0.9, 1.9, "--confounder", 2, 2, "--format", "json")
+    res = run(
+        "evalue",
+        "--scale",
+        "rr",
+        "--estimate",
+        1.3,
+        "--ci",
+        0.9,
+        1.9,
+        "--confounder",
+        2,
+        2,
+        "--format",
+        "json",
+    )
     (c,) = json.loads(res.stdout)["confounders"]
     assert c["bias_adjusted"]["estimate"] == pytest.approx(0.975)
     assert c["bias_adjusted"]["ci_limit"] == pytest.approx(0.675)
@@ -255,7 +269,7 @@ def test_every_finite_input_gives_a_finite_evalue_or_an_input_error(scale, extra
 def test_the_cli_never_exits_1_on_extremes(run, scale, value):
     extra = {"or": ["--outcome-frequency", "common"], "hr": ["--outcome-frequency", "common"],
              "md": ["--sd", "3"]}.get(scale, [])  # fmt: skip
-    res = run("evalue", scale, value, *extra, "--format", "json")
+    res = run("evalue", "--scale", scale, "--estimate", value, *extra, "--format", "json")
     assert res.exit_code in (0, 2), res.stderr
     if res.exit_code == 0:
         data = json.loads(res.stdout)
@@ -313,15 +327,15 @@ def test_a_step_too_small_is_the_stated_grid_limit(run, text):
 @pytest.mark.parametrize(
     "args, message",
     [
-        (("evalue", "or", 2, "--outcome-frequency", "rare", "--prevalence", 0.3),
+        (("evalue", "OR 2", "--outcome-frequency", "rare", "--prevalence", 0.3),
          "Error: --outcome-frequency and --prevalence cannot be used together"),
-        (("evalue", "smd", 0.4, "--se", 0.1, "--ci", 0.2, 0.6),
+        (("evalue", "--scale", "smd", "--estimate", 0.4, "--se", 0.1, "--ci", 0.2, 0.6),
          "Error: --se and --ci cannot be used together"),
         (("partial-r2", "--estimate", 1, "--se", 0.1, "--t", 10, "--dof", 50),
          "Error: --se and --t cannot be used together"),
-        (("evalue", "or", 2, "--rare"),
+        (("evalue", "--scale", "or", "--estimate", 2, "--rare"),
          "Error: No such option '--rare'; use --outcome-frequency rare"),
-        (("evalue", "or", 2, "--outcome-frequency", "often"),
+        (("evalue", "--scale", "or", "--estimate", 2, "--outcome-frequency", "often"),
          "Error: Invalid value for '--outcome-frequency'"),
         (("tipping", "--kind", "partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50,
           "--outcome-frequency", "rare"),
@@ -337,10 +351,30 @@ def test_options_that_cannot_go_together_are_named(run, args, message):
 def test_the_two_frequencies_give_their_own_evalues(run):
     # VanderWeele (2017): OR 2 of a common outcome -> RR sqrt(2); rare -> RR 2.
     rare = json.loads(
-        run("evalue", "or", 2, "--outcome-frequency", "rare", "--format", "json").stdout
+        run(
+            "evalue",
+            "--scale",
+            "or",
+            "--estimate",
+            2,
+            "--outcome-frequency",
+            "rare",
+            "--format",
+            "json",
+        ).stdout
     )
     common = json.loads(
-        run("evalue", "or", 2, "--outcome-frequency", "common", "--format", "json").stdout
+        run(
+            "evalue",
+            "--scale",
+            "or",
+            "--estimate",
+            2,
+            "--outcome-frequency",
+            "common",
+            "--format",
+            "json",
+        ).stdout
     )
     assert rare["evalue"] == pytest.approx(2 + math.sqrt(2))
     r = math.sqrt(2)

@@ -17,7 +17,7 @@ from sensitivity.impact import impact_threshold, partial_correlation
 
 def test_equal_components_bring_the_correlation_to_the_threshold():
     # METHODS-MORE 3.4, check 1: r_x = r_y = sqrt(ITCV) returns r# exactly.
-    res = impact_threshold(0.114, 0.027, n=1200, covariates=6)
+    res = impact_threshold(estimate=0.114, se=0.027, n=1200, covariates=6)
     c = math.sqrt(res.itcv)
     assert partial_correlation(res.correlation, c, c) == pytest.approx(
         res.correlation_threshold, abs=1e-12
@@ -27,7 +27,7 @@ def test_equal_components_bring_the_correlation_to_the_threshold():
 def test_equal_components_need_the_least_impact():
     # METHODS-MORE 3.4, check 2: over a grid of (r_x, r_y) that bring the partial
     # correlation to r# or below, the least product is the formula's ITCV.
-    res = impact_threshold(3.5, 1.0, dof=200)
+    res = impact_threshold(estimate=3.5, se=1.0, dof=200)
     rx = np.linspace(0.001, 0.999, 1500)[:, None]
     ry = np.linspace(0.001, 0.999, 1500)[None, :]
     reach = partial_correlation(res.correlation, rx, ry) <= res.correlation_threshold
@@ -39,21 +39,21 @@ def test_equal_components_need_the_least_impact():
 def test_the_recalled_kindergarten_example():
     # Frank et al. (2013), kindergarten retention [RECALLED, METHODS-MORE 3.3]: estimate
     # -9.01, se 0.68, threshold about 1.96 x 0.68 = 1.33, bias must remove about 85%.
-    res = impact_threshold(-9.01, 0.68, dof=100_000)
+    res = impact_threshold(estimate=-9.01, se=0.68, dof=100_000)
     assert res.estimate_threshold == pytest.approx(1.33, abs=0.005)
-    assert res.share_to_invalidate == pytest.approx(0.852, abs=0.001)
+    assert res.bias_share == pytest.approx(0.852, abs=0.001)
     assert res.itcv < 0 and res.correlation < 0  # a negative effect keeps its sign
 
 
 def test_a_non_significant_result_needs_a_suppressor():
-    res = impact_threshold(0.3, 0.27, n=1200, covariates=6)
-    assert res.direction == "sustain" and res.itcv < 0
+    res = impact_threshold(estimate=0.3, se=0.27, n=1200, covariates=6)
+    assert res.significant is False and res.itcv < 0
     # r_x = -r_y = c: the partial correlation reaches r# from below
     c = res.itcv_component
     assert partial_correlation(res.correlation, c, -c) == pytest.approx(
         res.correlation_threshold, abs=1e-12
     )
-    assert "suppressing variable" in res.sentence()
+    assert "could make it significant only by suppressing it" in res.sentence()
 
 
 @given(st.floats(2.5, 40), st.floats(2.5, 40), st.integers(50, 5000))
@@ -65,9 +65,9 @@ def test_the_threshold_rises_with_abs_t(t1, t2, dof):
     )
 
 
-def test_cases_to_replace_are_n_times_the_share():
-    res = impact_threshold(0.114, 0.027, n=1200, covariates=6)
-    assert res.cases_to_replace == pytest.approx(1200 * res.share_to_invalidate)
+def test_swapped_observations_are_n_times_the_share():
+    res = impact_threshold(estimate=0.114, se=0.027, n=1200, covariates=6)
+    assert res.swapped_observations == pytest.approx(1200 * res.bias_share)
 
 
 @pytest.mark.parametrize(
@@ -95,7 +95,8 @@ def test_the_command_in_every_format(run, fmt):
     if fmt == "json":
         data = json.loads(res.stdout)
         for key in ("dof", "t_critical", "correlation", "correlation_threshold", "itcv",
-                    "itcv_component", "share_to_invalidate", "cases_to_replace"):  # fmt: skip
+                    "itcv_component", "bias_share", "swapped_observations",
+                    "significant"):  # fmt: skip
             assert key in data
 
 
@@ -114,6 +115,38 @@ def test_the_command_from_data(run, tmp_path):
     assert data["dof"] == fit.df_resid
 
 
+def test_the_words_are_the_projects_own():
+    res = impact_threshold(estimate=0.114, se=0.027, n=1200, covariates=6)
+    text = " ".join(res.sentence().split())
+    assert text.startswith(
+        "In this regression (t = 4.22 on 1,192 residual degrees of freedom), the treatment's "
+        "coefficient could stop being significant at the 0.05 level only if an omitted "
+        "variable's partial correlations with the treatment and with the outcome, beyond the "
+        "covariates, multiplied to at least 0.069"
+    )
+    assert f"as if about {res.swapped_observations:,.0f} of the 1,200 observations" in text
+    shown = res.document().render("text")
+    assert "What it would take to lose significance (t = 4.22, 1,192 df)" in shown
+    assert "Observations to swap for ones with no treatment effect" in shown
+    data = res.to_dict()
+    assert data["significant"] is True
+    assert data["swapped_observations"] == pytest.approx(1200 * data["bias_share"])
+    for old in ("share_to_", "cases_to_", "direction"):
+        assert not any(k.startswith(old) for k in data)
+
+
+def test_the_options_lead_with_the_test():
+    from click.testing import CliRunner
+
+    from cli import cli
+
+    out = CliRunner().invoke(cli, ["impact", "--help"], terminal_width=200).stdout
+    names = [line.split()[0] for line in out.split("Options:")[1].splitlines() if line.strip()]
+    assert names[:6] == ["--t", "--dof", "--estimate", "--se", "--n", "--covariates"]
+    with pytest.raises(TypeError):
+        impact_threshold(0.114, 0.027, dof=100)  # keyword arguments only
+
+
 # ---------------------------------------------------------------- issue 19: true sentences
 finite_t = st.floats(0.01, 60) | st.floats(-60, -0.01)
 
@@ -122,31 +155,29 @@ finite_t = st.floats(0.01, 60) | st.floats(-60, -0.01)
 def test_the_share_needs_t_alone(t, se, dof):
     """1 - t#/|t| (or 1 - |t|/t#) from t and dof equals the share from estimate and se."""
     from_t = impact_threshold(t=t, dof=dof)
-    from_b = impact_threshold(t * se, se, dof=dof)
-    assert from_t.share_to_invalidate == pytest.approx(from_b.share_to_invalidate, rel=1e-9)
+    from_b = impact_threshold(estimate=t * se, se=se, dof=dof)
+    assert from_t.bias_share == pytest.approx(from_b.bias_share, rel=1e-9)
 
 
 @given(finite_t, st.floats(0.01, 10), st.integers(3, 10_000), st.integers(0, 50))
 def test_the_counts_and_the_growth_do_what_the_sentence_says(t, se, dof, covariates):
-    """Invalidate: replacing n x share cases (average effect b) by cases of no effect brings
-    b to d#. Sustain: b grown by `estimate_growth` is d#, and replacing n x share cases by
-    cases with effect |b| + d# brings b to d# (the mixture (1 - pi) b + pi e)."""
+    """Significant: swapping n x share observations (average effect b) for no-effect ones
+    brings b to d#. Not significant: b grown by `estimate_growth` is d#, and no swap count
+    is claimed (swapping in no-effect observations would lower it)."""
     n = dof + covariates + 2
-    res = impact_threshold(t * se, se, n=n, covariates=covariates)
+    res = impact_threshold(estimate=t * se, se=se, n=n, covariates=covariates)
     b, d = abs(res.estimate), res.estimate_threshold
-    pi = res.cases_to_replace / n
-    if res.direction == "invalidate":
-        assert (1 - pi) * b + pi * 0 == pytest.approx(d, rel=1e-9)
-        assert "cases with no effect" in res.sentence()
+    if res.significant:
+        pi = res.swapped_observations / n
+        assert (1 - pi) * b == pytest.approx(d, rel=1e-9)
     else:
         assert b * (1 + res.estimate_growth) == pytest.approx(d, rel=1e-9)
-        assert (1 - pi) * b + pi * (b + d) == pytest.approx(d, rel=1e-9)
-        assert "would have to grow by" in res.sentence()
-        assert "no effect" not in res.sentence()
+        text = " ".join(res.sentence().split())
+        assert "would have to grow by" in text and "no effect" not in text
 
 
 def test_the_issue_example_says_how_much_the_estimate_must_grow():
-    res = impact_threshold(0.05, 0.04, n=300, covariates=4)
+    res = impact_threshold(estimate=0.05, se=0.04, n=300, covariates=4)
     assert res.estimate_growth == pytest.approx(0.574, abs=5e-4)
     assert "grow by 57.4%" in " ".join(res.sentence().split())
 
@@ -156,7 +187,7 @@ def test_tiny_alpha_keeps_a_finite_critical_t(alpha, dof, t):
     """The critical t from the lower tail: finite to alpha 1e-300, no warning, no null."""
     res = impact_threshold(t=t, dof=dof, alpha=alpha)
     assert np.isfinite(res.t_critical) and res.t_critical > 0
-    assert np.isfinite(res.itcv) and np.isfinite(res.share_to_invalidate)
+    assert np.isfinite(res.itcv) and np.isfinite(res.bias_share)
     str(res)
 
 
@@ -170,10 +201,10 @@ def test_alpha_below_the_stated_limit_is_refused(alpha):
 def test_a_huge_t_is_no_overflow(t):
     res = impact_threshold(t=t, dof=196)
     assert res.correlation == pytest.approx(np.sign(t))
-    assert res.share_to_invalidate == pytest.approx(1.0)
+    assert res.bias_share == pytest.approx(1.0)
     str(res)
 
 
 def test_an_infinite_t_from_estimate_and_se_is_refused():
     with pytest.raises(InputError, match=r"`estimate` / `se` must be a finite t statistic"):
-        impact_threshold(1e300, 1e-300, dof=100)
+        impact_threshold(estimate=1e300, se=1e-300, dof=100)

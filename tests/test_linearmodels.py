@@ -32,8 +32,8 @@ def both(wage):
 
 def test_the_within_fit_equals_the_dummies_refit(both):
     fe, ref = both
-    ours = from_model(fe, "union", benchmarks=["married"], times=[1, 2])
-    theirs = from_model(ref, "union", benchmarks=["married"], times=[1, 2])
+    ours = from_model(fe, "union", benchmarks=["married", "married:2"])
+    theirs = from_model(ref, "union", benchmarks=["married", "married:2"])
     for name in ("estimate", "se", "dof", "t", "robustness_value", "robustness_value_alpha"):
         assert float(getattr(ours, name)) == pytest.approx(float(getattr(theirs, name)), rel=1e-9)
     by_name = {c.name: c for c in theirs.covariates}

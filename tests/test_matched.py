@@ -405,3 +405,31 @@ def test_pairs_from_data_in_python_equal_the_differences_and_the_command(run, tm
                                       method="normal", gamma=np.arange(1, 6.5, 0.5))  # fmt: skip
     printed, own = json.loads(cli.stdout), json.loads(json.dumps(grid.to_dict()))
     assert {k: printed[k] for k in own} == own  # the command adds its sentence
+
+
+def test_the_layout_leads_with_the_worst_case_and_where_it_stops(run):
+    # Invented counts (a scenario of our own): 30 discordant pairs, 22 with the treated event.
+    res = run("matched", "--discordant", 30, "--treated-events", 22, "--gamma", "1:2:0.5")
+    assert res.exit_code == 0, res.stderr
+    out = res.stdout
+    assert out.startswith("Gamma is how many times more likely a hidden confounder could make")
+    first = out.index("Gamma  Worst-case p  Below 0.05?")
+    assert first < out.index("The other side of the bounds") < out.index("Best-case p")
+    assert "1            0.0081          yes" in out and "1.5          0.0940           no" in out
+    flat = " ".join(out.split())
+    assert "It stops being below 0.05 at Gamma = 1.33 (solved exactly" in flat
+    assert "stays below 0.05 for every Gamma under 1.33 and reaches 0.05 at Gamma = 1.33" in flat
+    assert "Upper bound on p" not in out and "Hodges-Lehmann estimates" not in out
+    # the grid agrees with the solved Gamma: below alpha before it, at or above after
+    res = rosenbaum_bounds(discordant=30, treated_events=22, gamma=np.linspace(1, 2, 2001))
+    g = res.gamma_at_alpha
+    below = res.p_upper < 0.05
+    assert below[res.gamma < g - 1e-9].all() and not below[res.gamma > g + 1e-9].any()
+
+
+def test_json_keys_stay_as_the_contract_fixes(run):
+    data = json.loads(run("matched", "--discordant", 30, "--treated-events", 22, "--format",
+                          "json").stdout)  # fmt: skip
+    for key in ("test", "pairs", "statistic", "alpha", "rows", "gamma_at_alpha"):
+        assert key in data
+    assert {"gamma", "p_upper", "p_lower"} <= set(data["rows"][0])

@@ -28,13 +28,13 @@ def test_published_summary(case, stat):
     assert getattr(res, stat) == pytest.approx(case[stat], abs=case["tolerance"])
 
 
-def _brute_rv(t, dof, alpha=None, fraction=1.0, n=2001):
+def _brute_rv(t, dof, alpha=None, reduce_by=1.0, n=2001):
     """Least max(R2_t, R2_y) over a fine grid at which the conclusion tips."""
     g = np.linspace(0, 1, n)[:-1]
     adj = adjusted_for_confounder(
         g[:, None], g[None, :], estimate=t, se=1.0, dof=dof, alpha=alpha or 0.05
     )
-    target = (1 - fraction) * t
+    target = (1 - reduce_by) * t
     if alpha is None:
         hit = adj["estimate"] <= target
     else:
@@ -44,7 +44,7 @@ def _brute_rv(t, dof, alpha=None, fraction=1.0, n=2001):
 
 
 @pytest.mark.parametrize(
-    "t, dof, alpha, fraction",
+    "t, dof, alpha, reduce_by",
     [
         (4.18, 783, None, 1.0),
         (4.18, 783, 0.05, 1.0),
@@ -54,9 +54,9 @@ def _brute_rv(t, dof, alpha=None, fraction=1.0, n=2001):
         (60.0, 20, 0.05, 1.0),  # extreme branch, deep
     ],
 )
-def test_robustness_values_match_brute_force(t, dof, alpha, fraction):
-    rv = float(robustness_value_of_t(t, dof=dof, fraction=fraction, alpha=alpha))
-    assert rv == pytest.approx(_brute_rv(t, dof, alpha, fraction), abs=1.5e-3)
+def test_robustness_values_match_brute_force(t, dof, alpha, reduce_by):
+    rv = float(robustness_value_of_t(t, dof=dof, reduce_by=reduce_by, alpha=alpha))
+    assert rv == pytest.approx(_brute_rv(t, dof, alpha, reduce_by), abs=1.5e-3)
 
 
 def test_extreme_branch_is_taken():
@@ -142,8 +142,8 @@ def test_partial_r2_in_unit_interval_and_rv_below_one(t, dof):
             r"`alpha` must lie strictly between 0 and 1; got 0",
         ),
         (
-            {"estimate": 1.0, "se": 0.2, "dof": 10, "fraction": 0.0},
-            r"`fraction` must be positive; got 0",
+            {"estimate": 1.0, "se": 0.2, "dof": 10, "reduce_by": 0.0},
+            r"`reduce_by` must be positive; got 0",
         ),
         (
             {"estimate": 1.0, "se": 0.2, "dof": 10, "r2_treatment": 1.0, "r2_outcome": 0.1},

@@ -27,17 +27,17 @@ def wage():
 @pytest.fixture(scope="module")
 def reference(wage):
     fit = smf.ols(f"lwage ~ union + {COVARIATES} + C(nr) + C(year)", wage).fit()
-    return from_model(fit, "union", benchmarks=["married"], times=[1, 2])
+    return from_model(fit, "union", benchmarks=["married", "married:2"])
 
 
 @pytest.mark.parametrize("vcov", ["iid", "hetero", {"CRV1": "nr"}])
 def test_a_two_way_fit_equals_the_dummies_refit(wage, reference, vcov):
     fit = pf.feols(f"lwage ~ union + {COVARIATES} | nr + year", data=wage, vcov=vcov)
     if vcov == "iid":
-        res = from_model(fit, "union", benchmarks=["married"], times=[1, 2])
+        res = from_model(fit, "union", benchmarks=["married", "married:2"])
     else:
         with pytest.warns(SensitivityWarning, match="classical"):
-            res = from_model(fit, "union", benchmarks=["married"], times=[1, 2])
+            res = from_model(fit, "union", benchmarks=["married", "married:2"])
     for name in ("estimate", "se", "dof", "robustness_value", "robustness_value_alpha"):
         assert float(getattr(res, name)) == pytest.approx(float(getattr(reference, name)),
                                                           rel=1e-7)  # fmt: skip

@@ -93,7 +93,7 @@ def test_evalue_alongside_uses_outcome_sd(fair, fit):
 
 def test_benchmark_formula_for_outcome_side(fit):
     # METHODS.md section 2 (Cinelli & Hazlett 2020, section 6), evaluated by hand for k = 2.
-    res = partial_r2_from_model(fit, "rate_marriage", benchmarks=["religious"], times=[2])
+    res = partial_r2_from_model(fit, "rate_marriage", benchmarks=["religious:2"])
     cov = next(c for c in res.covariates if c.name == "C(religious)")
     rt, ry, k = cov.r2_treatment, cov.r2_outcome, 2.0
     rho2 = k * rt**2 / ((1 - k * rt) * (1 - rt))
@@ -105,7 +105,7 @@ def test_benchmark_formula_for_outcome_side(fit):
 
 
 def test_separate_multipliers(fit):
-    res = partial_r2_from_model(fit, "rate_marriage", benchmarks=["age"], times_pairs=[(1, 3)])
+    res = partial_r2_from_model(fit, "rate_marriage", benchmarks=[("age", 1, 3)])
     (sc,) = res.scenarios
     assert (sc.k_treatment, sc.k_outcome) == (1.0, 3.0)
 
@@ -154,8 +154,8 @@ def test_array_fit_uses_name_rule():
         ),
         (
             "rate_marriage",
-            {"benchmarks": ["age"], "times": [0]},
-            r"`times` must be positive; got 0",
+            {"benchmarks": ["age:0"]},
+            r"`benchmark` 'age:0': a multiple must be a positive finite number; got 0",
         ),
     ],
 )

@@ -53,7 +53,9 @@ def test_the_reports_numbers_equal_the_evalue_commands(run, report):
     alone = json.loads(
         run(
             "evalue",
+            "--scale",
             "hr",
+            "--estimate",
             1.38,
             "--ci",
             1.12,
@@ -75,7 +77,9 @@ def test_methods_and_results_are_in_our_words(report):
     data = json.loads((report / "report.json").read_text())
     assert "necessary, not sufficient" in data["methods_text"]
     assert "Across the 5 estimates, E-values ranged from" in data["results_text"]
-    assert "could move the 95% CI to include the null" in data["results_text"]
+    assert "For the 95% CI to take in the null, equal risk ratios of" in data["results_text"]
+    assert "none with both below" in data["results_text"]
+    assert "beyond the measured covariates" not in data["results_text"] + data["methods_text"]
 
 
 def test_the_latex_needs_only_booktabs(report):
@@ -123,7 +127,11 @@ def test_the_html_renders_in_a_headless_browser(report, tmp_path):
     [
         ([], "Error: Missing option '--out'"),
         (["--out", "r"], "Error: give one input"),
-        (["rr", 2, "--estimates", ESTIMATES, "--out", "r"], "Error: give one input"),
+        (
+            ["--scale", "rr", "--estimate", 2, "--estimates", ESTIMATES, "--out", "r"],
+            "Error: give one input",
+        ),
+        (["rr", 2, "--out", "r"], "Error: the form `report SCALE ESTIMATE` is retired"),
         (["--data", "x.csv", "--out", "r"], "Error: data input needs --formula"),
     ],
 )
@@ -141,7 +149,8 @@ def test_a_bad_row_stops_the_report_naming_it(run, tmp_path):
 
 
 def test_report_from_summary_and_from_data(run, tmp_path):
-    res = run("report", "or", 2.4, "--ci", 1.8, 3.2, "--outcome-frequency", "common",
+    res = run("report", "--scale", "or", "--estimate", 2.4, "--ci", 1.8, 3.2,
+              "--outcome-frequency", "common",
               "--out", tmp_path / "a")  # fmt: skip
     assert res.exit_code == 0, res.stderr
     assert "E-value 2.47" in res.stdout

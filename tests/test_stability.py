@@ -291,3 +291,46 @@ def test_from_data_in_python_equals_the_command_and_a_statsmodels_refit(run):
               "--treatment", "commute_min", "--format", "json")  # fmt: skip
     printed, own = json.loads(cli.stdout), json.loads(json.dumps(res.to_dict()))
     assert {k: printed[k] for k in own} == own  # the command adds its sentence
+
+
+def test_the_grid_agrees_with_the_result_at_its_own_cell(population):
+    # Each grid cell is a fresh coefficient_stability at that (delta, R-max): the same root
+    # rule, the same approximation (Oster 2019's formula, checked above on the population).
+    from sensitivity.stability.core import adjusted_grid
+
+    p = population
+    res = coefficient_stability(p["b0"], p["r0"], p["b1"], p["r1"], var_outcome=p["s_y2"],
+                                var_treatment=p["s_x2"], var_treatment_residual=p["tau"],
+                                r2_max=p["r_max"], delta=p["delta"])  # fmt: skip
+    deltas, maxes = np.array([0.5, p["delta"], 2.0]), np.array([p["r1"] * 1.1, p["r_max"]])
+    grid = adjusted_grid(res, deltas, maxes)
+    assert grid["exact"][1, 1] == res.bias_adjusted
+    assert grid["approx"][1, 1] == pytest.approx(res.bias_adjusted_approx, rel=1e-12)
+    for i, d in enumerate(deltas):
+        for j, m in enumerate(maxes):
+            one = coefficient_stability(
+                p["b0"],
+                p["r0"],
+                p["b1"],
+                p["r1"],
+                var_outcome=p["s_y2"],
+                var_treatment=p["s_x2"],
+                var_treatment_residual=p["tau"],
+                r2_max=m,
+                delta=d,
+            )
+            assert grid["exact"][i, j] == one.bias_adjusted
+            assert grid["approx"][i, j] == pytest.approx(one.bias_adjusted_approx, rel=1e-12)
+
+
+def test_the_layout_puts_inputs_in_a_caption_and_roots_in_a_note():
+    res = coefficient_stability(0.5, 0.1, 0.4, 0.3, r2_max=0.39)
+    out = res.document().render("text")
+    assert out.startswith("Inputs: treatment coefficient 0.5000 without the controls")
+    assert "delta \\ R-max" in out and "[0.3550]" in out  # b1 - (b0 - b1)(0.09)/(0.2)
+    assert "Coefficient: short regression (R²)" not in out and "Value" not in out
+    roots = coefficient_stability(0.5, 0.1, 0.4, 0.3, r2_max=0.39, var_outcome=1.0,
+                                  var_treatment=1.0, var_treatment_residual=0.9)  # fmt: skip
+    text = roots.document().render("text")
+    if len(roots.bias_adjusted_roots) > 1:
+        assert "Other real roots at delta 1" in text

@@ -27,7 +27,7 @@ def test_one_number_command_imports_nothing_costly():
         "import sys\n"
         "from click.testing import CliRunner\n"
         "from cli import cli\n"
-        "r = CliRunner().invoke(cli, ['evalue', 'rr', '3.9', '--ci', '1.8', '8.7'])\n"
+        "r = CliRunner().invoke(cli, ['evalue', 'RR 3.9 (95% CI 1.8-8.7)'])\n"
         "assert r.exit_code == 0, r.output\n"
         "print(sorted(m for m in ('pandas', 'statsmodels', 'scipy', 'matplotlib', 'pyarrow')"
         " if m in sys.modules))\n"
@@ -58,7 +58,7 @@ def test_internal_fault_exits_1_without_traceback(run, monkeypatch):
         raise RuntimeError("simulated fault")
 
     monkeypatch.setattr(ev, "evalue", broken)
-    res = run("evalue", "rr", 2)
+    res = run("evalue", "--scale", "rr", "--estimate", 2)
     assert res.exit_code == 1
     assert (
         res.stderr == "Error: internal error (RuntimeError: simulated fault); rerun with --debug\n"
@@ -72,7 +72,7 @@ def test_debug_shows_the_traceback(monkeypatch):
     from cli import cli
 
     monkeypatch.setattr(ev, "evalue", lambda *a, **k: 1 / 0)
-    res = CliRunner().invoke(cli, ["--debug", "evalue", "rr", "2"])
+    res = CliRunner().invoke(cli, ["--debug", "evalue", "--scale", "rr", "--estimate", "2"])
     assert isinstance(res.exception, ZeroDivisionError)
 
 

@@ -29,8 +29,15 @@ def _flat(text: str) -> str:
 def test_the_evalue_sentence_says_could_and_names_the_level():
     text = _flat(evalue("rr", 1.64, (1.21, 2.23)).summary())
     assert "(95% CI 1.21 to 2.23)" in text
-    assert "could move the 95% CI to include the null" in text
-    assert "a confounder weaker than that on both associations could not" in text
+    assert (
+        "For the 95% CI to take in the null, equal risk ratios of 1.71 or more would be "
+        "needed, and 1.71 could be enough." in text
+    )
+    assert (
+        "could explain the estimate away only if both were 2.66 or more, and none with "
+        "both below 2.66 could" in text
+    )
+    assert "weaker than that on both associations" not in text
     other = _flat(evalue("rr", 1.64, (1.1, 2.4), ci_level=0.9).sentence())
     assert "(90% CI 1.10 to 2.40)" in other and "the 90% CI" in other
 
@@ -101,14 +108,14 @@ def test_small_shares_keep_their_meaning():
 
 def test_partial_r2_layout_leads_with_the_answers(run):
     res = run("partial-r2", "--data", DEMO, "--formula", FORMULA, "--treatment", "commute_min",
-              "--benchmark", "smoker", "--times", 1, "--times", 2)  # fmt: skip
+              "--benchmark", "smoker", "--benchmark", "smoker:2")  # fmt: skip
     assert res.exit_code == 0, res.stderr
     out = res.stdout
     assert out.startswith("Coefficient of commute_min on sbp: 0.114 (se 0.027), t = 4.31 on 1,192")
     answers = out.index("To bring the estimate to zero (robustness value)")
     assert answers < out.index("Named confounders")
     assert "Partial R² of treatment with outcome" not in out
-    assert "as strong as smoker" not in out.split("Named confounders")[1].split("\n\n")[0]
+    assert "×1" in out.split("Named confounders")[1].split("\n\n")[0]
     row = next(line for line in out.splitlines() if line.startswith("2  smoker ×2"))
     assert "conclusion holds" in row.split("smoker ×2")[1][:20]
 
@@ -135,15 +142,16 @@ def test_the_bounding_colour_is_the_worst_case_bound(monkeypatch, tmp_path):
     assert not any("Bias-adjusted estimate" == label for label in labels)
 
 
-def test_a_t_contour_is_labelled_with_t(monkeypatch, tmp_path):
+def test_the_contours_draw_the_estimate_and_t_side_by_side(monkeypatch, tmp_path):
     from sensitivity.partial_r2.figures import partial_r2_contours
 
     kept = _saved(monkeypatch)
     res = partial_r2_summary(0.114, 0.027, 1192)
-    partial_r2_contours(res, tmp_path / "t.png", statistic="t")
+    partial_r2_contours(res, tmp_path / "t.png")
     axes = kept[0].axes
-    assert any(ax.get_ylabel() == "Bias-adjusted t value" for ax in axes)
-    assert "t = 4.22" in axes[0].get_title()
+    bars = [ax.get_ylabel() for ax in axes]
+    assert "Bias-adjusted estimate" in bars and "Bias-adjusted t value" in bars
+    assert "estimate 0.114" in axes[0].get_title() and "t = 4.22" in axes[1].get_title()
 
 
 def test_figures_use_percent_axes_limits_and_marks(monkeypatch, tmp_path):
@@ -155,12 +163,14 @@ def test_figures_use_percent_axes_limits_and_marks(monkeypatch, tmp_path):
     ax = kept[0].axes[0]
     assert ax.get_xlim() == (0, 0.3) and ax.get_ylim() == (0, 0.2)
     assert ax.xaxis.get_major_formatter().__class__.__name__ == "PercentFormatter"
-    assert any(h.get_label() == "Your confounder" for h in ax.get_legend().legend_handles)
+    (legend,) = kept[0].legends
+    mine = [h for h in legend.legend_handles if h.get_label() == "Your confounder"]
+    assert mine and mine[0].get_marker() == "*"  # the project's own marker
 
 
 def test_every_figure_writes_png_svg_and_pdf_with_embedded_fonts(run, tmp_path):
     paths = [tmp_path / f"f.{ext}" for ext in ("png", "svg", "pdf")]
-    res = run("evalue", "hr", 1.38, "--ci", 1.12, 1.70, "--outcome-frequency", "rare",
+    res = run("evalue", "HR 1.38 (1.12 to 1.70)", "--outcome-frequency", "rare",
               "--confounder", 1.5, 2, *sum((["--plot", p] for p in paths), []))  # fmt: skip
     assert res.exit_code == 0, res.stderr
     png, svg, pdf = (p.read_bytes() for p in paths)
@@ -189,8 +199,9 @@ def test_one_run_writes_several_outputs(run, tmp_path):
 @pytest.mark.parametrize(
     "args, message",
     [
-        (("evalue", "rr", 2, "--cii", 1, 3), "Error: No such option '--cii'. Did you mean '--ci'?"),
-        (("evalue", "rr", 2, "--plot", "x.jpg"),
+        (("evalue", "--scale", "rr", "--estimate", 2, "--cii", 1, 3),
+         "Error: No such option '--cii'. Did you mean '--ci'?"),
+        (("evalue", "--scale", "rr", "--estimate", 2, "--plot", "x.jpg"),
          "Error: `--plot` must end in .png, .svg or .pdf; got 'x.jpg'"),
         (("tipping", "--scale", "rr", "--estimate", 2, "--plot", "/no/such/x.png"),
          "Error: `--plot`: folder '/no/such' does not exist"),
@@ -202,7 +213,7 @@ def test_errors_name_the_option(run, args, message):
 
 
 def test_a_negative_estimate_still_parses(run):
-    res = run("evalue", "smd", -0.4, "--ci", -0.6, -0.2)
+    res = run("evalue", "--scale", "smd", "--estimate", -0.4, "--ci", -0.6, -0.2)
     assert res.exit_code == 0, res.stderr
 
 
@@ -263,3 +274,38 @@ def test_the_evalue_figure_zooms_on_the_evalue(monkeypatch, tmp_path, scale, est
     ax = kept[0].axes[0]
     assert top[0] < ax.get_xlim()[1] < top[1] and top[0] < ax.get_ylim()[1] < top[1]
     assert ax.get_xlim()[1] > 1.3 * float(res.evalue) - 0.3  # the E-value point well inside
+
+
+def test_the_robustness_value_sentence_is_ours_and_exact():
+    # Cinelli & Hazlett (2020) summary example: t = 4.18 on 783 dof -> RV 13.9%, RV_alpha 7.6%.
+    res = partial_r2_summary(0.5, 0.5 / 4.18, 783)
+    text = _flat(res.sentence())
+    assert text.startswith(
+        "Bringing the estimate to zero would take a hidden confounder that explains at least "
+        "13.9% of the treatment's variation left after the measured covariates, or at least "
+        "13.9% of the outcome's left after the treatment and covariates: one below 13.9% on "
+        "both could not, and one at 13.9% on both would (the robustness value)."
+    )
+    assert (
+        "For the 95% confidence interval to include zero, a confounder below 7.6% on both "
+        "could not." in text
+    )
+    assert "residual variance of both" not in text and "No hidden confounder" not in text
+
+
+def test_benchmark_values_carry_their_multiples():
+    from sensitivity.common.errors import InputError
+    from sensitivity.partial_r2.benchmarks import benchmark_spec
+
+    assert benchmark_spec("smoker") == ("smoker", 1.0, 1.0)
+    assert benchmark_spec("smoker:2") == ("smoker", 2.0, 2.0)
+    assert benchmark_spec("age:1:3") == ("age", 1.0, 3.0)
+    assert benchmark_spec("a:b") == ("a:b", 1.0, 1.0)  # an interaction term stays a name
+    assert benchmark_spec("a:b:2") == ("a:b", 2.0, 2.0)
+    assert benchmark_spec(("C(shift)", 1, 3)) == ("C(shift)", 1.0, 3.0)
+    with pytest.raises(InputError, match=r"^`benchmark` names no covariate; got ':2'"):
+        benchmark_spec(":2")
+    with pytest.raises(InputError, match=r"a multiple must be a positive finite number; got inf"):
+        benchmark_spec("age:inf")
+    with pytest.raises(InputError, match=r"^`benchmark` must be a name, \(name, multiple\)"):
+        benchmark_spec(("age", 1, 2, 3))

@@ -18,8 +18,8 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..common.checks import POSITIVE, require_scalar
 from ..common.errors import InputError, SensitivityWarning
+from ..partial_r2.benchmarks import benchmark_specs
 from ..partial_r2.core import assemble, benchmark_scenarios, check_summary, partial_r2_of_f
 from ..partial_r2.result import CovariateStrength, PartialR2Result
 
@@ -79,7 +79,7 @@ def check_names(data: Any, formula: str, treatment: str, benchmarks: Any = ()) -
             f"`treatment` {treatment!r} is a column of the data but not a term of the "
             f"formula's right side: {formula.split('~', 1)[1].strip()}"
         )
-    for given_name in benchmarks:
+    for given_name, _, _ in benchmark_specs(benchmarks):
         # C(region) as the covariate table names it, or region as the data does: both
         name = _column_of_term(given_name)
         if name not in columns and not any(name == c or name in c for c in right):
@@ -179,20 +179,6 @@ def _resolve_benchmark(name, covariates):
     )
 
 
-def _k_pairs(times, times_pairs):
-    if times is None:
-        times = () if times_pairs else (1.0,)
-    pairs = [(float(require_scalar(k, "times", POSITIVE)),) * 2 for k in times]
-    for kt, ky in times_pairs:
-        pairs.append(
-            (
-                float(require_scalar(kt, "times_pair", POSITIVE)),
-                float(require_scalar(ky, "times_pair", POSITIVE)),
-            )
-        )
-    return pairs
-
-
 def partial_r2_from_parts(
     estimate: float,
     se: float,
@@ -203,25 +189,22 @@ def partial_r2_from_parts(
     outcome: str,
     n: int,
     sd_outcome: float,
-    fraction: float = 1.0,
+    reduce_by: float = 1.0,
     alpha: float = 0.05,
-    benchmarks: Sequence[str] = (),
-    times: Sequence[float] | None = None,
-    times_pairs: Sequence[tuple[float, float]] = (),
+    benchmarks: Sequence[Any] = (),
     r2_treatment: ArrayLike | None = None,
     r2_outcome: ArrayLike | None = None,
     contrast: float = 1.0,
     notes: Sequence[str] = (),
 ) -> PartialR2Result:
     """The result from a fit's treatment coefficient and covariate strengths (any library)."""
-    est, se, dof, fraction, alpha = check_summary(estimate, se, dof, None, fraction, alpha)
+    est, se, dof, reduce_by, alpha = check_summary(estimate, se, dof, None, reduce_by, alpha)
     scenarios = []
-    k_pairs = _k_pairs(times, times_pairs)
-    for name in benchmarks:
+    for name, kt, ky in benchmark_specs(benchmarks):
         cov_strength = _resolve_benchmark(name, covariates)
-        scenarios += benchmark_scenarios(est, se, dof, cov_strength, k_pairs, alpha)
+        scenarios += benchmark_scenarios(est, se, dof, cov_strength, [(kt, ky)], alpha)
     return assemble(
-        est, se, dof, fraction=fraction, alpha=alpha, r2_treatment=r2_treatment,
+        est, se, dof, reduce_by=reduce_by, alpha=alpha, r2_treatment=r2_treatment,
         r2_outcome=r2_outcome, sd_outcome=sd_outcome, contrast=contrast,
         scenarios=scenarios, treatment=treatment, outcome=outcome, n=n,
         covariates=covariates, notes=tuple(notes),

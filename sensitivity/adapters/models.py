@@ -341,6 +341,6 @@ def impact_from_model(results: Any, treatment: str, *, alpha: float = 0.05) -> A
     cov = np.asarray(results.normalized_cov_params, float) * float(results.scale)
     n, dof = int(results.nobs), float(results.df_resid)
     return impact_threshold(
-        float(np.asarray(results.params)[j]), float(np.sqrt(cov[j, j])), n=n,
+        estimate=float(np.asarray(results.params)[j]), se=float(np.sqrt(cov[j, j])), n=n,
         covariates=int(round(n - dof - 2)), alpha=alpha,
     )  # fmt: skip

@@ -109,11 +109,9 @@ def partial_r2_from_model(
     results: Any,
     treatment: str,
     *,
-    fraction: float = 1.0,
+    reduce_by: float = 1.0,
     alpha: float = 0.05,
-    benchmarks: Sequence[str] = (),
-    times: Sequence[float] | None = None,
-    times_pairs: Sequence[tuple[float, float]] = (),
+    benchmarks: Sequence[Any] = (),
     r2_treatment: ArrayLike | None = None,
     r2_outcome: ArrayLike | None = None,
     contrast: float = 1.0,
@@ -129,15 +127,14 @@ def partial_r2_from_model(
         WLS, GLS, GLM, IV and other fits are refused (use `evalue` on their scale).
     treatment : str
         The treatment's coefficient name (or a formula term with one column).
-    fraction, alpha, r2_treatment, r2_outcome
+    reduce_by, alpha, r2_treatment, r2_outcome
         As in `partial_r2_summary`.
-    benchmarks : sequence of str
-        Observed covariates (or categorical terms, taken as one group) to benchmark against.
-    times : sequence of float, optional
-        Multiples k: a confounder k times as strong as the benchmark on both sides (default
-        1, unless `times_pairs` is given).
-    times_pairs : sequence of (k_treatment, k_outcome)
-        Separate multiples for the treatment and the outcome sides.
+    benchmarks : sequence of str or tuple
+        Observed covariates (or categorical terms, taken as one group) to benchmark against,
+        each with its multiples in one value: ``"age"`` (age's strength), ``"age:2"`` (twice
+        it on both sides), ``"age:1:3"`` (age's strength with the treatment, three times it
+        with the outcome), or the tuples ``("age", 2)``, ``("age", 1, 3)``. Give one
+        name several times for several multiples.
     contrast : float, default 1
         Treatment difference the E-value alongside refers to (per `contrast` units).
 
@@ -161,8 +158,8 @@ def partial_r2_from_model(
         float(results.df_resid), covariates, treatment=treat_name,
         outcome=str(model.endog_names), n=int(results.nobs),
         sd_outcome=float(np.std(np.asarray(model.endog, float), ddof=1)),
-        notes=tuple(notes) + tuple(fit_notes), fraction=fraction, alpha=alpha,
-        benchmarks=benchmarks, times=times, times_pairs=times_pairs,
+        notes=tuple(notes) + tuple(fit_notes), reduce_by=reduce_by, alpha=alpha,
+        benchmarks=benchmarks,
         r2_treatment=r2_treatment, r2_outcome=r2_outcome, contrast=contrast,
     )  # fmt: skip
 

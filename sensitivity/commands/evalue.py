@@ -10,7 +10,6 @@ from sensitivity.commands import COMMANDS
 
 from ._options import (
     Command,
-    Number,
     confounder_option,
     emit,
     exclusive,
@@ -18,27 +17,23 @@ from ._options import (
     model_option,
     outcome_frequency_option,
     plot_options,
+    published_options,
     show_warnings,
+    summary_route,
 )
 
 SHORT_HELP = COMMANDS["evalue"][1]
 
 
 @click.command("evalue", cls=Command, short_help=SHORT_HELP)
-@click.argument(
-    "scale",
-    type=click.Choice(["rr", "or", "hr", "smd", "md", "rd"]),
-    metavar="SCALE",
-    required=False,
-)
-@click.argument("estimate", type=Number(), required=False)
+@published_options
 @click.option(
     "--counts",
     nargs=4,
     type=int,
     default=None,
     metavar="CASES_T TOTAL_T CASES_C TOTAL_C",
-    help="rd: the 2 x 2 counts (cases and totals among the treated, then the controls).",
+    help="--scale rd: the 2 x 2 counts (cases and totals among the treated, then the controls).",
 )
 @click.option(
     "--data", type=click.Path(dir_okay=False), help="Data input: CSV, TSV, Excel or Parquet."
@@ -49,21 +44,6 @@ SHORT_HELP = COMMANDS["evalue"][1]
     "Data input: the fit, which decides the scale (cox: time on the formula's left side)."
 )
 @click.option("--event", help="Data input with --model cox: the column that is 1 for an event.")
-@click.option(
-    "--ci",
-    nargs=2,
-    type=float,
-    default=None,
-    metavar="LOWER UPPER",
-    help="Confidence limits on the same scale as ESTIMATE.",
-)
-@click.option(
-    "--ci-level",
-    type=float,
-    default=0.95,
-    show_default=True,
-    help="The level of --ci, as the sentence names it (0.9 for a 90% CI).",
-)
 @click.option("--se", type=float, default=None, help="Standard error (smd and md).")
 @click.option(
     "--sd",
@@ -101,9 +81,10 @@ SHORT_HELP = COMMANDS["evalue"][1]
 )
 @click.option(
     "--with-selection",
-    type=click.Choice(["general", "one-factor"]),
-    help="Add selection bias to a joint E-value: general (the whole population, two factors) "
-    "or one-factor (increased risk in the selected).",
+    type=click.Choice(["whole", "simplified"]),
+    help="Add selection bias to a joint E-value: whole (the whole population, two selection "
+    "factors) or simplified (one factor, under Smith & VanderWeele's simplifying assumption "
+    "about how selection relates to the outcome; check that it holds).",
 )
 @click.option(
     "--with-misclassification",
@@ -113,16 +94,17 @@ SHORT_HELP = COMMANDS["evalue"][1]
 @plot_options("a figure of the confounder strengths that could explain the result away")
 @format_options
 def evalue_cmd(
+    text: Any,
     scale: Any,
     estimate: Any,
+    ci: Any,
+    ci_level: Any,
     counts: Any,
     data: Any,
     formula: Any,
     treatment: Any,
     model_kind: Any,
     event: Any,
-    ci: Any,
-    ci_level: Any,
     se: Any,
     sd: Any,
     contrast: Any,
@@ -138,25 +120,31 @@ def evalue_cmd(
     fmt: Any,
     outputs: Any,
 ) -> None:
-    """E-value of ESTIMATE on SCALE (rr, or, hr, smd or md), or of a model fitted to data.
+    """E-value of a result as published (TEXT), of --scale/--estimate, or of a fitted model.
 
-    Give SCALE ESTIMATE and the summary options, or --data --formula --treatment --model to
-    fit the model here: the fit decides the scale, the estimate and interval come from it,
-    and the outcome's share in the data decides rare or common.
+    TEXT is the result as a paper prints it, in quotes: "HR 0.72 (95% CI 0.60-0.86)". The
+    scale and the interval's level come from the text where it names them (--scale and
+    --ci-level fill in what it does not), and the output shows what was read. Scripts can
+    name the numbers instead: --scale --estimate [--ci LOWER UPPER]. Or give --data
+    --formula --treatment --model to fit the model here: the fit decides the scale, the
+    estimate and interval come from it, and the outcome's share in the data decides rare or
+    common.
 
     \b
     Examples:
-      sensitivity evalue hr 1.38 --ci 1.12 1.70 --outcome-frequency rare
-      sensitivity evalue or 2.40 --ci 1.80 3.20 --outcome-frequency common
-      sensitivity evalue rr 0.81 --ci 0.69 0.95
-      sensitivity evalue smd 0.18 --se 0.05
-      sensitivity evalue md 0.035 --se 0.012 --sd 14 --contrast 10
-      sensitivity evalue hr 1.38 --ci 1.12 1.70 --outcome-frequency rare --confounder 1.5 2
+      sensitivity evalue "HR 1.38 (95% CI 1.12-1.70)" --outcome-frequency rare
+      sensitivity evalue "OR=2.40, 95%CI 1.80-3.20" --prevalence 0.3
+      sensitivity evalue --scale rr --estimate 0.81 --ci 0.69 0.95
+      sensitivity evalue --scale smd --estimate 0.18 --se 0.05
+      sensitivity evalue --scale md --estimate 0.035 --se 0.012 --sd 14 --contrast 10
+      sensitivity evalue --scale rd --counts 60 1000 40 1000
+      sensitivity evalue "HR 1.38 (1.12 to 1.70)" --outcome-frequency rare --confounder 1.5 2
       sensitivity evalue --data demo/harbourside_bp.csv --formula "sbp ~ commute_min + age + \\
           female + smoker + C(shift) + bmi" --treatment commute_min --model ols --contrast 10
     """
     from sensitivity.evalues.core import evalue
 
+    route, published = summary_route("evalue", text, scale, estimate, ci)
     if plot_marks:
         raise click.UsageError(
             "--plot-mark does not apply to evalue: give the confounders with --confounder"
@@ -166,8 +154,9 @@ def evalue_cmd(
     inputs = (("--data", data), ("--formula", formula), ("--treatment", treatment))
     data_given = [n for n, v in (*inputs, ("--model", model_kind)) if v]
     if data_given:
-        summary = [n for n, v in (("SCALE", scale), ("--ci", ci or None), ("--se", se),
-                                  ("--sd", sd), ("--prevalence", prevalence)) if v]  # fmt: skip
+        summary = [n for n, v in (("TEXT", published), ("--scale", scale), ("--estimate", estimate),
+                                  ("--ci", ci or None), ("--se", se), ("--sd", sd),
+                                  ("--prevalence", prevalence)) if v is not None]  # fmt: skip
         if summary:
             raise click.UsageError(
                 f"give summary numbers or data, not both: got {', '.join(summary + data_given)}"
@@ -187,16 +176,28 @@ def evalue_cmd(
     if event is not None:
         raise click.UsageError("--event applies to data input with --model cox")
     if scale == "rd" or counts:
-        if scale != "rd" or estimate is not None or not counts:
-            raise click.UsageError("the risk difference takes: evalue rd --counts A N1 C N0")
+        if scale != "rd" or route is not None or not counts:
+            raise click.UsageError(
+                "the risk difference takes: evalue --scale rd --counts A N1 C N0"
+            )
         from sensitivity.evalues.core import evalue_rd
 
-        emit(evalue_rd(tuple(counts), ci_level=ci_level), fmt, outputs)
+        emit(evalue_rd(tuple(counts), ci_level=0.95 if ci_level is None else ci_level),
+             fmt, outputs)  # fmt: skip
         return
-    if scale is None or estimate is None:
+    if route == "text":
+        from sensitivity.adapters.published import evalue_from_text
+
+        result = evalue_from_text(published, scale=scale, ci_level=ci_level, se=se, sd=sd,
+                                  contrast=contrast, outcome=outcome, prevalence=prevalence,
+                                  target=target, argument="TEXT")  # fmt: skip
+        _finish(result, confounders, fmt, outputs, plots, plot_limits,
+                with_selection, with_misclassification)  # fmt: skip
+        return
+    if route is None:
         raise click.UsageError(
-            "give SCALE and ESTIMATE (e.g. evalue rr 1.6 --ci 1.2 2.1), or --data, --formula, "
-            "--treatment and --model"
+            'give the result as published (e.g. evalue "RR 1.6 (95% CI 1.2-2.1)"), or '
+            "--scale and --estimate, or --data, --formula, --treatment and --model"
         )
 
     result = evalue(
@@ -209,7 +210,7 @@ def evalue_cmd(
         outcome=outcome,
         prevalence=prevalence,
         target=target,
-        ci_level=ci_level,
+        ci_level=0.95 if ci_level is None else ci_level,
     )
     _finish(result, confounders, fmt, outputs, plots, plot_limits,
             with_selection, with_misclassification)  # fmt: skip

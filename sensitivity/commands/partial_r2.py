@@ -36,33 +36,22 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
 @click.option("--treatment", help="Data input: the treatment's name in the formula.")
 @model_option("Data input: the fit. Partial-R² bounds need ols; the others go to `evalue`.", "ols")
 @click.option(
-    "--fraction",
+    "--reduce-by",
     type=float,
     default=1.0,
     show_default=True,
-    help="Share of the estimate the confounder must explain away.",
+    help="The share of the estimate a hidden confounder has to remove (1: all of it, to "
+    "zero; 0.5: half of it).",
 )
 @click.option("--alpha", type=float, default=0.05, show_default=True, help="Significance level.")
 @click.option(
     "--benchmark",
     "benchmarks",
     multiple=True,
-    help="Observed covariate to compare with (repeatable; data input).",
-)
-@click.option(
-    "--times",
-    multiple=True,
-    type=float,
-    help="Benchmark multiple k, both sides (repeatable; default 1).",
-)
-@click.option(
-    "--times-pair",
-    "times_pairs",
-    nargs=2,
-    type=float,
-    multiple=True,
-    metavar="K_TREATMENT K_OUTCOME",
-    help="Separate benchmark multiples for the treatment and outcome sides (repeatable).",
+    metavar="COLUMN[:K[:K_OUTCOME]]",
+    help="Data input, repeatable: a measured covariate to compare with, and how many times "
+    "its strength the confounder has (smoker, smoker:2, or smoker:1:3 for the treatment's "
+    "and the outcome's multiples; default 1).",
 )
 @click.option(
     "--r2-treatment",
@@ -84,14 +73,7 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
     show_default=True,
     help="The E-value alongside is per this many units of treatment (e.g. 10).",
 )
-@plot_options("a contour figure of the bias-adjusted estimate")
-@click.option(
-    "--plot-statistic",
-    type=click.Choice(["estimate", "t"]),
-    default="estimate",
-    show_default=True,
-    help="What the figure's contours show.",
-)
+@plot_options("a contour figure in two panels: the bias-adjusted estimate, and its t value")
 @format_options
 def partial_r2_cmd(
     estimate: Any,
@@ -102,11 +84,9 @@ def partial_r2_cmd(
     formula: Any,
     treatment: Any,
     model_kind: Any,
-    fraction: Any,
+    reduce_by: Any,
     alpha: Any,
     benchmarks: Any,
-    times: Any,
-    times_pairs: Any,
     r2_treatment: Any,
     r2_outcome: Any,
     sd: Any,
@@ -114,7 +94,6 @@ def partial_r2_cmd(
     plots: Any,
     plot_limits: Any,
     plot_marks: Any,
-    plot_statistic: Any,
     fmt: Any,
     outputs: Any,
 ) -> None:
@@ -129,12 +108,10 @@ def partial_r2_cmd(
       sensitivity partial-r2 --estimate 0.114 --se 0.027 --dof 1192
       sensitivity partial-r2 --data demo/harbourside_bp.csv \\
           --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
-          --treatment commute_min --benchmark smoker --times 1 --times 2 --plot contours.png
+          --treatment commute_min --benchmark smoker --benchmark smoker:2 --plot contours.png
     """
     show_warnings()
     exclusive(("--se", se), ("--t", t_stat))
-    if (times or times_pairs) and not benchmarks:
-        raise click.UsageError("--times and --times-pair need --benchmark (the covariate to scale)")
     summary_given = [
         n
         for n, v in (
@@ -181,11 +158,9 @@ def partial_r2_cmd(
             data,
             formula,
             treatment,
-            fraction=fraction,
+            reduce_by=reduce_by,
             alpha=alpha,
             benchmarks=benchmarks,
-            times=list(times) or None,
-            times_pairs=times_pairs,
             r2_treatment=r2t,
             r2_outcome=r2y,
             contrast=contrast,
@@ -194,8 +169,8 @@ def partial_r2_cmd(
         if sys.stderr.isatty():
             click.echo("", err=True)
     else:
-        if benchmarks or times or times_pairs:
-            raise click.UsageError("--benchmark, --times and --times-pair need data input (--data)")
+        if benchmarks:
+            raise click.UsageError("--benchmark needs data input (--data)")
         if estimate is None:
             raise click.UsageError("summary input needs --estimate")
         if dof is None:
@@ -207,7 +182,7 @@ def partial_r2_cmd(
             se,
             dof,
             t=t_stat,
-            fraction=fraction,
+            reduce_by=reduce_by,
             alpha=alpha,
             r2_treatment=r2t,
             r2_outcome=r2y,
@@ -218,9 +193,7 @@ def partial_r2_cmd(
     if plots:
         from sensitivity.partial_r2.figures import partial_r2_contours
 
-        for path in partial_r2_contours(
-            result, plots, statistic=plot_statistic, limits=plot_limits, marks=plot_marks
-        ):
+        for path in partial_r2_contours(result, plots, limits=plot_limits, marks=plot_marks):
             click.echo(f"Wrote {path}", err=True)
 
 

@@ -10,17 +10,20 @@ import click
 from sensitivity.commands import COMMANDS
 
 from . import _options
-from ._options import Command, Number, model_option, outcome_frequency_option, show_warnings
+from ._options import (
+    Command,
+    model_option,
+    outcome_frequency_option,
+    published_options,
+    show_warnings,
+    summary_route,
+)
 
 SHORT_HELP = COMMANDS["report"][1]
 
 
 @click.command("report", cls=Command, short_help=SHORT_HELP)
-@click.argument("scale", type=click.Choice(["rr", "or", "hr", "smd", "md"]), required=False,
-                metavar="[SCALE ESTIMATE]")  # fmt: skip
-@click.argument("estimate", type=Number(), required=False, metavar="")
-@click.option("--ci", nargs=2, type=float, default=None, metavar="LOWER UPPER",
-              help="Summary input: confidence limits.")  # fmt: skip
+@published_options
 @click.option("--se", type=float, help="Summary input: standard error (smd, md).")
 @click.option("--sd", type=float, help="Summary input: the outcome's SD (md).")
 @outcome_frequency_option("Summary input, or and hr: the outcome's frequency.")
@@ -41,7 +44,8 @@ SHORT_HELP = COMMANDS["report"][1]
               help="A continuous treatment: report per this many units.")  # fmt: skip
 @click.option("--out", "folder", required=True, type=click.Path(file_okay=False),
               help="The folder to write (created if missing).")  # fmt: skip
-def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: Any,
+def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se: Any,
+               sd: Any, outcome: Any,
                prevalence: Any, label: str, estimates: Any, data: Any, formula: Any,
                treatment: Any, model_kind: Any, event: Any, contrast: float,
                folder: str) -> None:  # fmt: skip
@@ -55,18 +59,22 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
 
     \b
     Examples:
-      sensitivity report hr 1.38 --ci 1.12 1.70 --outcome-frequency rare --out report
+      sensitivity report "HR 1.38 (95% CI 1.12-1.70)" --outcome-frequency rare --out report
+      sensitivity report --scale rr --estimate 1.5 --ci 1.1 2.0 --out report
       sensitivity report --estimates demo/cohort_estimates.csv --out report
     """
     from sensitivity.output.report import Reproduce, write_report
 
     show_warnings()
-    routes = [bool(scale), bool(estimates), bool(data)]
+    route, published = summary_route("report", text, scale, estimate, ci)
+    routes = [bool(route), bool(estimates), bool(data)]
     if sum(routes) != 1:
         raise click.UsageError(
-            "give one input: SCALE ESTIMATE (summary numbers), --estimates FILE, or --data "
-            "with --formula, --treatment and --model"
+            'give one input: TEXT as published ("HR 1.38 (95% CI 1.12-1.70)"), --scale and '
+            "--estimate, --estimates FILE, or --data with --formula, --treatment and --model"
         )
+    if scale == "rd":
+        raise click.UsageError("--scale rd: a report takes rr, or, hr, smd or md")
     if estimates:
         from sensitivity.reporting import results_from_table
 
@@ -88,13 +96,19 @@ def report_cmd(scale: Any, estimate: Any, ci: Any, se: Any, sd: Any, outcome: An
 
             pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast)
             items = [(label, replace(pr2, evalue=res))]
+    elif route == "text":
+        from sensitivity.adapters.published import evalue_from_text
+
+        res = evalue_from_text(published, scale=scale, ci_level=ci_level, se=se, sd=sd,
+                               outcome=outcome, prevalence=prevalence, contrast=contrast,
+                               argument="TEXT")  # fmt: skip
+        items = [(label, res)]
     else:
-        if estimate is None:
-            raise click.UsageError("summary input needs SCALE and ESTIMATE")
         from sensitivity.evalues.core import evalue
 
         res = evalue(scale, estimate, ci or None, se=se, sd=sd, outcome=outcome,
-                     prevalence=prevalence, contrast=contrast)  # fmt: skip
+                     prevalence=prevalence, contrast=contrast,
+                     ci_level=0.95 if ci_level is None else ci_level)  # fmt: skip
         items = [(label, res)]
     command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
     files = write_report(items, folder, Reproduce(command))

@@ -364,7 +364,7 @@ def benchmark_gain(full: Moments, without: Moments) -> Gain:
 def scaled_strengths(
     gain_cy2: ArrayLike, gain_cd2: ArrayLike, k_outcome: ArrayLike, k_treatment: ArrayLike
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """A confounder k times as strong as a benchmark: ``cy2 = k_outcome gain_cy2`` (capped at
+    """A confounder with k times a benchmark's strength: ``cy2 = k_outcome gain_cy2`` (capped at
     1, flagged) and ``cd2 = k_treatment gain_cd2`` (which must stay below 1)."""
     gy = np.asarray(gain_cy2, float)
     gd = np.asarray(gain_cd2, float)

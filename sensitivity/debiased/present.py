@@ -197,7 +197,7 @@ def sentence(r: DebiasedResult) -> str:
         k_min = min(max(s.k_outcome or 0, s.k_treatment or 0) for s in bench)
         at = [s for s in bench if max(s.k_outcome or 0, s.k_treatment or 0) == k_min]
         s = max(at, key=lambda s: s.bias)
-        times = "as strong as" if k_min == 1 else f"{k_min:g} times as strong as"
+        times = "matching" if k_min == 1 else f"with {k_min:g} times the strength of"
         text += (
             f" A confounder {times} {s.benchmark} (the strongest benchmark at that multiple) "
             f"would bound the effect between {_num(r, s.bound_lower)} and "

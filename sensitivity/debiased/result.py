@@ -317,8 +317,8 @@ class DebiasedFit:
                 )
                 if bool(capped):
                     notes.append(
-                        f"A confounder {ky:g} times as strong as {b.name} on the outcome side "
-                        "would explain more than all of the outcome's residual variation; cy2 "
+                        f"A confounder with {ky:g} times the strength of {b.name} on the outcome "
+                        "side would explain more than all of the outcome's residual variation; cy2 "
                         "was capped at 1."
                     )
         rv = core.robustness_value(m, target, rho)

@@ -1,7 +1,7 @@
 """What a confounder of given strength, or several biases together, could do to a result.
 
 Numbers only: `confounder_shift` moves a result's risk ratios by the bounding factor, and
-`joint_evalues` gives the joint E-value of confounding with selection bias and outcome
+`combined_evalues` gives the joint E-value of confounding with selection bias and outcome
 misclassification. `EValueResult.confounder`, `.with_confounders` and `.with_biases` build
 the results from them, so this module does not import the result (the arrow points from
 `result.py` here, one way).
@@ -76,9 +76,9 @@ BIASES = {
     ),
     "selection": (
         "selection bias: the risk ratios relating a selection factor to the outcome and to "
-        "selection, in each treatment group (Smith & VanderWeele 2019); 'general' targets the "
-        "whole population (two factors), 'one-factor' the case of increased risk in the "
-        "selected (one)"
+        "selection, in each treatment group (Smith & VanderWeele 2019); 'whole' bounds it for "
+        "the whole population with two such factors, 'simplified' with one, which needs the "
+        "simplifying assumption of that paper about how selection relates to the outcome"
     ),
     "misclassification": (
         "differential outcome misclassification: the largest ratio of sensitivities or "
@@ -87,7 +87,11 @@ BIASES = {
 }
 
 
-def multi_bias_evalue(
+#: Selection-bias factors in the bound: the whole population (two), or simplified (one).
+SELECTION_FACTORS = {None: 0, "whole": 2, "simplified": 1}
+
+
+def combined_evalue(
     rr: ArrayLike,
     *,
     confounding: bool = True,
@@ -97,21 +101,22 @@ def multi_bias_evalue(
     """The joint E-value: the common strength x of every bias parameter that could explain
     the risk ratio away, the root of (x² / (2x - 1))^(k_c + k_s) x^(k_m) = RR.
 
-    k_c = 1 with confounding, k_s = 2 for general selection bias (1 for one factor), k_m = 1
-    with differential outcome misclassification (Smith, Mathur & VanderWeele 2021). With
-    confounding alone it is the ordinary E-value; with general selection alone it is
+    k_c = 1 with confounding, k_s = 2 for selection bias in the whole population (1 when
+    simplified to one factor), k_m = 1 with differential outcome misclassification (Smith,
+    Mathur & VanderWeele 2021). With
+    confounding alone it is the ordinary E-value; with whole-population selection alone it is
     sqrt(RR) + sqrt(RR - sqrt(RR)).
 
     Examples
     --------
-    >>> round(float(multi_bias_evalue(3.9, confounding=False, selection="general")), 6)
+    >>> round(float(combined_evalue(3.9, confounding=False, selection="whole")), 6)
     3.362342
     """
     r = np.asarray(rr, float)
     r = np.where(r < 1, 1 / r, r)
-    k_s = {None: 0, "general": 2, "one-factor": 1}.get(selection)
+    k_s = SELECTION_FACTORS.get(selection)
     if k_s is None:
-        raise InputError(f"`selection` must be general or one-factor; got {selection!r}")
+        raise InputError(f"`selection` must be whole or simplified; got {selection!r}")
     k = (1 if confounding else 0) + k_s
     m = 1 if misclassification else 0
     if k + m == 0:
@@ -130,7 +135,7 @@ def multi_bias_evalue(
     return (lo + hi) / 2
 
 
-def joint_evalues(
+def combined_evalues(
     rr: float,
     rr_ci: tuple[float, float] | None,
     rr_target: float,
@@ -141,7 +146,7 @@ def joint_evalues(
     """The joint E-value of confounding and the other biases named, for the estimate and
     for the interval limit nearest the target (1 when the interval includes it)."""
     ratio = float(rr / rr_target)
-    joint = float(multi_bias_evalue(ratio, selection=selection,
+    joint = float(combined_evalue(ratio, selection=selection,
                                     misclassification=misclassification))  # fmt: skip
     joint_ci = None
     if rr_ci is not None:
@@ -152,13 +157,13 @@ def joint_evalues(
             1.0
             if covers
             else float(
-                multi_bias_evalue(near, selection=selection, misclassification=misclassification)
+                combined_evalue(near, selection=selection, misclassification=misclassification)
             )
         )
     included = ["confounding"] + (["selection"] if selection else [])
     included += ["misclassification"] if misclassification else []
     return {
-        "biases": included,
+        "included": included,
         "selection": selection,
         "evalue": joint,
         "evalue_ci": joint_ci,

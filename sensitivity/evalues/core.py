@@ -27,7 +27,7 @@ from ..common.checks import given, require_all
 from ..common.errors import InputError
 from ..common.levels import check_level
 from ..common.scales import RARE_OUTCOME_CUTOFF
-from .bounds import BIASES, multi_bias_evalue
+from .bounds import BIASES, SELECTION_FACTORS, combined_evalue
 from .formulas import bounding_factor, evalue_of_interval, evalue_of_rr
 from .result import ConfounderBound, EValueResult
 from .risk_difference import evalue_of_risk_difference, evalue_rd
@@ -57,7 +57,8 @@ __all__ = [
     "evalue_of_rr",
     "evalue_rd",
     "evalue_rows",
-    "multi_bias_evalue",
+    "combined_evalue",
+    "SELECTION_FACTORS",
     "with_biases",
     "with_confounders",
 ]

@@ -95,6 +95,39 @@ def estimate_table(result: EValueResult) -> Table:
     return Table(columns=columns, rows=tuple(rows), title=f"E-values: {name}", footnotes=foot)
 
 
+#: How many times the E-value the treatment's risk ratio is in the table of unequal pairs.
+PAIR_STEPS = (1.0, 1.25, 1.5, 2.0, 3.0, 5.0)
+
+
+def pairs_table(result: EValueResult) -> Table | None:
+    """Unequal pairs of risk ratios that could explain the estimate away (scalar results):
+    for a risk ratio with the treatment, the least one with the outcome at which the bounding
+    factor reaches the observed risk ratio (its inverse below 1), B(a, b) = ab / (a + b - 1)
+    (Ding & VanderWeele 2016); the roles of the two may be swapped."""
+    if not result.is_scalar:
+        return None
+    ratio = float(result.rr) / float(result.rr_target)
+    ratio = 1 / ratio if ratio < 1 else ratio
+    e = float(result.evalue)
+    if not np.isfinite(e) or ratio <= 1:
+        return None
+    rows = []
+    for k in PAIR_STEPS:
+        a = e * k
+        b = ratio * (a - 1) / (a - ratio)
+        rows.append((number(a), number(b), "equal (the E-value)" if k == 1 else ""))
+    aim = "explain the estimate away" if result.target_is_null else f"reach {_goal(result)}"
+    return Table(
+        ("Risk ratio with the treatment", "Least risk ratio with the outcome", ""),
+        tuple(rows),
+        title=f"Pairs of confounder strengths that could {aim}",
+        footnotes=(
+            "Each pair could, not would: it is the least the bounding factor needs. The two "
+            "columns may be swapped.",
+        ),
+    )
+
+
 def level_name(result: EValueResult) -> str:
     return f"{level_text(result.ci_level)} CI"
 
@@ -110,65 +143,77 @@ def sentence(result: EValueResult) -> str | None:
     r = _records(result.own_columns())[0]
     name = SCALES[str(result.scale)].name
     level = level_name(result)
-    ci = ""
+    inner = []
     if r["ci_lower"] is not None:
-        ci = f" ({level} {observed_value(r['ci_lower'])} to {observed_value(r['ci_upper'])})"
+        inner.append(f"{level} {observed_value(r['ci_lower'])} to {observed_value(r['ci_upper'])}")
     elif r["se"] is not None:
-        ci = f" (standard error {observed_value(r['se'])})"
-    conv = ""
+        inner.append(f"standard error {observed_value(r['se'])}")
     if result.scale != "rr" and not (result.scale in ("or", "hr") and result.outcome == "rare"):
         kind = f" for a {result.outcome} outcome" if result.scale in ("or", "hr") else ""
-        conv = f", about a risk ratio of {number(r['rr'])}{kind},"
+        inner.append(f"about a risk ratio of {number(r['rr'])}{kind}")
+    said = f" ({'; '.join(inner)})" if inner else ""
     goal = _goal(result)
-    aim = "explaining the estimate away" if result.target_is_null else f"moving it to {goal}"
+    aim = "explain the estimate away" if result.target_is_null else f"move the estimate to {goal}"
     e, e_ci = number(r["evalue"]), r["evalue_ci"]
     text = (
-        f"For the observed {name} of {observed_value(r['estimate'])}{ci}{conv or ','} {aim} "
-        f"would take an "
-        f"unmeasured confounder associated with both the treatment and the outcome, beyond "
-        f"the measured covariates, by a risk ratio of at least {e} on one of the two (the "
-        f"E-value, the least strength when the two associations are equal); a confounder "
-        f"weaker than that on both associations could not, and unequal pairs that could are "
-        f"traced in the figure."
+        f"For the observed {name} of {observed_value(r['estimate'])}{said}, the E-value is "
+        f"{e}: {strength_clause(e, aim)}"
     )
     if e_ci is None:
         return text
     if e_ci <= 1:
         return text + f" The {level} already includes {goal}."
-    return text + (
-        f" One associated with both by a risk ratio of {number(e_ci)} each could move the "
-        f"{level} to include {goal}."
+    return text + " " + interval_clause(number(e_ci), level, goal)
+
+
+def strength_clause(e: str, aim: str) -> str:
+    """What an E-value says, in the project's words: the least equal strength of the two
+    risk ratios, a necessary condition ("could"), and where the unequal pairs are."""
+    return (
+        f"a hidden confounder with equal risk ratios with the treatment and with the outcome "
+        f"(once the measured covariates are accounted for) could {aim} only if both were {e} "
+        f"or more, and none with both below {e} could (unequal pairs that could are in the "
+        f"accompanying table and figure)."
     )
 
 
-def multi_bias_table(result: EValueResult) -> Table:
-    mb = result.multi_bias or {}
+def interval_clause(e_ci: str, level: str, goal: str) -> str:
+    """The interval's E-value in the same words: enough, not certain, to reach the goal."""
+    return (
+        f"For the {level} to take in {goal}, equal risk ratios of {e_ci} or more would be "
+        f"needed, and {e_ci} could be enough."
+    )
+
+
+def several_biases_table(result: EValueResult) -> Table:
+    mb = result.several_biases or {}
     rows = [("Confounding alone", number(result.evalue),
              "-" if result.evalue_ci is None else number(result.evalue_ci))]  # fmt: skip
-    rows.append((" + ".join(b.capitalize() if i == 0 else b for i, b in enumerate(mb["biases"])),
+    rows.append((" + ".join(b.capitalize() if i == 0 else b for i, b in enumerate(mb["included"])),
                  number(mb["evalue"]), "-" if mb["evalue_ci"] is None
                  else number(mb["evalue_ci"])))  # fmt: skip
     return Table(
         ("Biases included", "E-value", f"E-value, {level_name(result)}"),
         tuple(rows),
         title="Several biases at once: the common strength of every bias parameter",
-        footnotes=tuple(f"{b.capitalize()}: {a}." for b, a in zip(mb["biases"],
+        footnotes=tuple(f"{b.capitalize()}: {a}." for b, a in zip(mb["included"],
                         mb["assumptions"], strict=True)),
     )  # fmt: skip
 
 
-def multi_bias_sentence(result: EValueResult) -> str:
-    mb = result.multi_bias or {}
-    names = ", ".join(mb["biases"][:-1]) + f" and {mb['biases'][-1]}"
-    how = "all" if len(mb["biases"]) > 2 else "both"
+def several_biases_sentence(result: EValueResult) -> str:
+    mb = result.several_biases or {}
+    names = ", ".join(mb["included"][:-1]) + f" and {mb['included'][-1]}"
+    how = "all" if len(mb["included"]) > 2 else "both"
     text = (
-        f"If {names} were {how} present, each of their bias parameters would need a risk ratio of "
-        f"at least {number(mb['evalue'])} to explain the estimate away together (the joint "
-        f"E-value); weaker biases could not"
+        f"With {names} {how} at work, and every one of their bias parameters set to the same "
+        f"risk ratio, together they could explain the estimate away only if that common risk "
+        f"ratio were {number(mb['evalue'])} or more (the joint E-value); below it, they could not"
     )
     if mb["evalue_ci"] is not None and mb["evalue_ci"] > 1:
         text += (
-            f", and {number(mb['evalue_ci'])} each could move the {level_name(result)} to the null"
+            f". A common risk ratio of {number(mb['evalue_ci'])} could be enough to bring the "
+            f"{level_name(result)} to take in the null"
         )
     return text + "."
 
@@ -271,37 +316,52 @@ def rd_document(r: Any) -> Document:
         rows,
         title=f"E-values: Risk difference ({a}/{n1} treated, {c}/{n0} controls)",
     )
+    e = number(r.evalue)
     observed = (
         f"For the observed risk difference of {r.estimate:.4f} ({level} {r.ci[0]:.4f} to "
         f"{r.ci[1]:.4f}), "
     )
     if np.isfinite(r.evalue):
-        lead = observed + (
-            "explaining it away in the whole population would take an unmeasured confounder "
-            "associated with both the treatment and the outcome by a risk ratio of at least "
-            f"{number(r.evalue)} each (the E-value); a weaker one could not. "
+        lead = (
+            observed
+            + f"the E-value for the whole population is {e}: "
+            + strength_clause(e, "explain it away")
         )
     else:
-        # no cases among the controls (in the direction of the effect): the bound stays above
-        # 0 for every finite strength
+        # no cases in the group with the lower risk: the bound stays above 0 for every finite
+        # strength (issue 19: not "a risk ratio of at least inf each")
         lead = observed + (
             "no unmeasured confounder of any finite strength could explain it away in the "
             "whole population under this bound, because there are no cases in the group with "
-            "the lower risk. "
+            "the lower risk."
         )
     if r.evalue_ci <= 1:
-        lead += "The bound's interval already includes 0."
+        lead += " The bound's interval already includes 0."
     elif np.isfinite(r.evalue_ci):
-        lead += (f"One of {number(r.evalue_ci)} each could bring the lower confidence limit of "
-                 "the bound to 0.")  # fmt: skip
+        lead += (f" For the {level} limit of the bound nearest 0 to reach 0, equal risk ratios "
+                 f"of {number(r.evalue_ci)} or more would be needed, and "
+                 f"{number(r.evalue_ci)} could be enough.")  # fmt: skip
     else:
-        lead += "No finite strength brings the lower confidence limit of the bound to 0."
+        lead += " No finite strength brings the bound's confidence limit to 0."
     blocks: tuple[Block, ...] = (
         table,
         prose(lead, role="sentence"),
         *standard_tail(r.notes, r.cautions),
     )
     return Document("E-values", blocks, references=_sources_rd())
+
+
+def reading(read: dict, scale: str, level: float) -> str:
+    """The line that shows what was read from a published text (and what was filled in)."""
+    name = SCALES[scale].name
+    named = name if read["scale"] else f"{name} (not named in the text: from --scale)"
+    interval = "no interval"
+    if read["lower"] is not None:
+        said = f"{read['level']:.0%} CI" if read["level"] is not None else (
+            f"interval, level not named (taken as {level:.0%})"
+        )  # fmt: skip
+        interval = f"{said} {read['lower']:g} to {read['upper']:g}"
+    return f"Read from {read['text']!r}: {named}; estimate {read['estimate']:g}; {interval}."
 
 
 def figures(result: Any) -> tuple[Figure, ...]:
@@ -333,14 +393,20 @@ def document(result: Any) -> Document:
             (confounder_table(result), prose(*confounder_sentences(result), role="sentence")),
         )
     lead = sentence(result)
-    blocks: list = [estimate_table(result)]
+    blocks: list = []
+    if result.as_read is not None:
+        blocks.append(prose(reading(result.as_read, str(result.scale), result.ci_level)))
+    blocks.append(estimate_table(result))
+    pairs = pairs_table(result)
+    if pairs is not None:
+        blocks.append(pairs)
     if lead:
         blocks.append(prose(lead, role="sentence"))
     if result.overlap is not None:
         blocks.append(overlap_table(result.overlap))
-    if result.multi_bias is not None:
-        blocks.append(multi_bias_table(result))
-        blocks.append(prose(multi_bias_sentence(result), role="sentence"))
+    if result.several_biases is not None:
+        blocks.append(several_biases_table(result))
+        blocks.append(prose(several_biases_sentence(result), role="sentence"))
     if result.confounders is not None:
         blocks.append(confounder_table(result.confounders))
         blocks.append(prose(*confounder_sentences(result.confounders), role="sentence"))

@@ -62,10 +62,11 @@ def supplement_table(items: Sequence[tuple[str, Any]]) -> Table:
         tuple(rows),
         title="Sensitivity of each estimate to unmeasured confounding (E-values)",
         footnotes=(
-            "E-value: the least strength, as a risk ratio with the treatment and the same risk "
-            "ratio with the outcome beyond the measured covariates, at which an unmeasured "
-            "confounder could move the estimate (or the interval limit nearest the null) to "
-            "the null; unequal pairs that could do so are in each estimate's figure.",
+            "E-value: when a hidden confounder's two risk ratios (with the treatment, and with "
+            "the outcome once the measured covariates are accounted for) are equal, the least "
+            "common value at which it could move the estimate (or the interval limit nearest "
+            "the null) to the null; one with both risk ratios below it could not. Each "
+            "estimate's figure gives the unequal pairs that could.",
         ),
     )
 
@@ -89,13 +90,14 @@ def methods_text(items: Sequence[tuple[str, Any]]) -> str:
     results = [r for _, r in items]
     conversions = sorted({str(r.conversion) for r in results if r.scale != "rr"})
     text = (
-        "We assessed how sensitive each adjusted estimate is to unmeasured confounding with "
-        "E-values (VanderWeele & Ding 2017): the least strength of association, on the risk-"
-        "ratio scale, that an unmeasured confounder would need with both the treatment and the "
-        "outcome, beyond the measured covariates, to move the estimate to the null, and the "
-        "same for the limit of its confidence interval nearest the null. E-values bound one "
-        "kind of bias under the bounding-factor argument of Ding & VanderWeele (2016); they "
-        "are necessary, not sufficient, strengths."
+        "For each adjusted estimate we computed E-values (VanderWeele & Ding 2017). A hidden "
+        "confounder is described by two risk ratios, one with the treatment and one with the "
+        "outcome once the measured covariates are accounted for; the E-value is the least "
+        "value that both would have to reach, taken equal, before the confounder could move "
+        "the estimate to the null, and a second E-value does the same for the confidence limit "
+        "nearest the null. They rest on the bounding factor of Ding & VanderWeele (2016), "
+        "bound one kind of bias only, and are necessary, not sufficient: a confounder of that "
+        "strength could move the estimate, not would."
     )
     if conversions:
         text += " Estimates on other scales were mapped to the risk-ratio scale first: " + (

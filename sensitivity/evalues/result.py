@@ -98,7 +98,8 @@ class EValueResult(Result):
     ci_level: float = 0.95
     model: dict | None = None  # from a fitted model: kind, n, outcome_share, treatment
     overlap: dict | None = None  # a binary treatment's positivity diagnostic
-    multi_bias: dict | None = None  # the joint E-value with selection / misclassification
+    several_biases: dict | None = None  # the joint E-value with selection / misclassification
+    as_read: dict | None = None  # a result given as published text: what was read from it
 
     _repr_fields = ("scale", "estimate", "ci", "evalue", "evalue_ci")
     _input_fields = ("scale", "estimate", "ci", "ci_level", "se", "sd", "contrast", "outcome",
@@ -201,21 +202,24 @@ class EValueResult(Result):
             out["model"] = plain(self.model)
         if self.overlap is not None:
             out["overlap"] = plain(self.overlap)
-        if self.multi_bias is not None:
-            out["multi_bias"] = plain(self.multi_bias)
+        if self.several_biases is not None:
+            out["several_biases"] = plain(self.several_biases)
+        if self.as_read is not None:
+            out["as_read"] = plain(self.as_read)
         return out
 
     def with_biases(self, *, selection: str | None = None,
                     misclassification: bool = False) -> EValueResult:  # fmt: skip
         """This result with the joint E-value for confounding plus the biases named."""
         from ..common.errors import InputError
-        from .bounds import joint_evalues
+        from .bounds import combined_evalues
 
         if not self.is_scalar:
             raise InputError("the joint E-value describes one result; index the inputs first")
-        info = joint_evalues(self.rr, self.rr_ci, self.rr_target, selection=selection,
-                             misclassification=misclassification)  # fmt: skip
-        return replace(self, multi_bias=info)
+        ci = None if self.rr_ci is None else (float(self.rr_ci[0]), float(self.rr_ci[1]))
+        info = combined_evalues(float(self.rr), ci, float(self.rr_target), selection=selection,
+                                misclassification=misclassification)  # fmt: skip
+        return replace(self, several_biases=info)
 
     def own_columns(self) -> dict[str, np.ndarray]:
         """The result's own columns, one row an estimate."""
@@ -254,6 +258,12 @@ class EValueResult(Result):
     def columns(self) -> dict[str, np.ndarray]:
         """Columns for CSV: one row a result, or one a hypothetical confounder when attached."""
         own = self.own_columns()
+        if self.as_read is not None:  # what was read from the text, as the screen names it
+            n = len(own["estimate"])
+            own |= {
+                f"as_read_{k}": np.full(n, np.nan if v is None else v, dtype=object)
+                for k, v in self.as_read.items()
+            }
         if self.confounders is None:
             return own
         conf = self.confounders.columns()

@@ -1,23 +1,20 @@
-"""The impact threshold of a confounding variable (Frank 2000) and the share of an estimate
-bias would have to remove to invalidate the inference (Frank et al. 2013).
+"""The impact threshold of a confounding variable (Frank 2000) and the share of a
+coefficient bias would have to account for before its significance changes (Frank et al.
+2013).
 
 Correlations are partial on the model's other covariates. With t the treatment's t statistic
 on df residual degrees of freedom and t# the two-sided critical value:
 
 - observed correlation r = t / sqrt(t² + df); threshold r# = t# / sqrt(t#² + df);
-- to invalidate (|r| > r#): impact k = (|r| - r#) / (1 - r#), each component sqrt(k) (the
-  confounder's correlation with the treatment and with the outcome, taken equal, which
-  needs the least impact: Frank 2000);
-- to sustain (|r| < r#): a suppressor, r_x = -r_y with r² = (r# - |r|) / (1 + r#), k = -r²
-  (derived in the project's methods notes; the sign convention is Frank's to confirm);
-- share of the estimate to remove: 1 - d# / |b| with d# = t# se, which is 1 - t# / |t| and
-  needs t alone; cases to replace = n x share (the robustness of inference to replacement:
-  replacing that share of cases, which carry the average effect b, by cases of no effect
-  brings the estimate to d#);
-- to sustain, the published share is 1 - |b| / d# (a share of the threshold, 1 - |t| / t#);
-  the estimate itself must grow by d# / |b| - 1 = t# / |t| - 1. Replacing n x (1 - |b| / d#)
-  cases by cases with an effect of |b| + d# (in the estimate's direction) brings the estimate
-  to d#: (1 - pi) b + pi (b + d#) = d# at pi = 1 - b / d#.
+- a significant coefficient (|r| > r#), to lose significance: impact k = (|r| - r#) /
+  (1 - r#), each component sqrt(k) (the omitted variable's partial correlation with the
+  treatment and with the outcome, taken equal, which needs the least impact: Frank 2000);
+- a coefficient short of significance (|r| < r#), to gain it: a suppressor, r_x = -r_y with
+  r² = (r# - |r|) / (1 + r#), k = -r² (derived in the project's methods notes; the sign
+  convention is Frank's to confirm);
+- the share of the coefficient bias would have to account for: 1 - d# / |b| with d# = t# se
+  (short of significance, the share missing: 1 - |b| / d#), and the observations that many
+  of n would have to be swapped for no-effect ones: n x share (Frank et al. 2013).
 
 References
 ----------
@@ -32,7 +29,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..common import levels
-from ..common.checks import POSITIVE, require_scalar
+from ..common.checks import POSITIVE, require
 from ..common.errors import InputError
 from .result import ImpactResult
 
@@ -43,38 +40,43 @@ def partial_correlation(r_xy: float, r_xc: float, r_yc: float) -> float:
 
 
 def impact_threshold(
-    estimate: float | None = None,
-    se: float | None = None,
     *,
     t: float | None = None,
+    dof: float | None = None,
+    estimate: float | None = None,
+    se: float | None = None,
     n: int | None = None,
     covariates: int | None = None,
-    dof: float | None = None,
     alpha: float = 0.05,
 ) -> ImpactResult:
-    """The impact threshold of a confounding variable and the share of the estimate to
-    invalidate (or sustain) the inference.
+    """How strong an omitted variable would have to be to change a regression coefficient's
+    significance (the impact threshold), and the share of the coefficient bias would have
+    to account for. Keyword arguments only: the regression's test first, then its size.
 
     Parameters
     ----------
+    t : float
+        The treatment coefficient's t statistic; or give `estimate` and `se` (which also
+        give the share of the coefficient).
+    dof : float
+        Residual degrees of freedom; or give `n` and `covariates`.
     estimate, se : float
-        The treatment's coefficient and standard error; or give `t` (and `estimate` for the
-        share of the estimate).
+        The treatment's coefficient and standard error (instead of `t`).
     n : int
-        The number of observations (also gives the cases to replace).
+        The number of observations (also gives the observations to swap).
     covariates : int
         The number of covariates besides the treatment; df = n - covariates - 2 (the
-        treatment and the intercept count too). Or give `dof` directly.
+        treatment and the intercept count too).
     alpha : float, default 0.05
         Two-sided level of the test.
 
     Examples
     --------
     A kindergarten-retention estimate of -9.01 with se 0.68 on a large sample (recalled
-    from Frank et al. 2013): bias would have to remove about 85% of it.
+    from Frank et al. 2013): bias would have to account for about 85% of it.
 
-    >>> res = impact_threshold(-9.01, 0.68, dof=10_000)
-    >>> round(float(res.share_to_invalidate), 2)
+    >>> res = impact_threshold(estimate=-9.01, se=0.68, dof=10_000)
+    >>> round(float(res.bias_share), 2)
     0.85
     """
     alpha = levels.check_alpha(alpha)
@@ -83,22 +85,22 @@ def impact_threshold(
     if t is not None and se is not None:
         raise InputError("give `se` or `t`, not both")
     if se is not None:
-        se = float(require_scalar(se, "se", POSITIVE))
-        estimate = float(require_scalar(estimate, "estimate"))
+        se = float(require(se, "se", POSITIVE))
+        estimate = float(require(estimate, "estimate"))
         with np.errstate(over="ignore", under="ignore"):
             t = float(np.float64(estimate) / se)
         if not np.isfinite(t):
             raise InputError(
                 f"`estimate` / `se` must be a finite t statistic; got {estimate:g} / {se:g}"
             )
-    t = float(require_scalar(t, "t"))
+    t = float(require(t, "t"))
     if dof is not None and (n is not None or covariates is not None):
         raise InputError("give `dof`, or `n` and `covariates`, not both")
     if dof is None:
         if n is None or covariates is None:
             raise InputError("give `n` and `covariates` (or `dof`)")
-        n = int(require_scalar(n, "n", POSITIVE))
-        covariates = int(require_scalar(covariates, "covariates"))
+        n = int(require(n, "n", POSITIVE))
+        covariates = int(require(covariates, "covariates"))
         if covariates < 0:
             raise InputError(f"`covariates` must be 0 or more; got {covariates}")
         if covariates + 2 >= n:
@@ -108,7 +110,7 @@ def impact_threshold(
                 f"got n = {n}"
             )
         dof = float(n - covariates - 2)
-    dof = float(require_scalar(dof, "dof", POSITIVE))
+    dof = float(require(dof, "dof", POSITIVE))
     t_crit = float(levels.t_critical(alpha, dof))
     if not np.isfinite(t_crit):
         raise InputError(
@@ -123,13 +125,13 @@ def impact_threshold(
     if size > r_crit:
         k = (size - r_crit) / (1 - r_crit)
         component = np.sqrt(k)
-        direction = "invalidate"
+        significant = True
     else:
         r2 = (r_crit - size) / (1 + r_crit)
         k = -r2
         component = np.sqrt(r2)
-        direction = "sustain"
-    # the shares need t alone: d# / |b| = t# / |t|
+        significant = False
+    # the shares need t alone: d# / |b| = t# / |t| (issue 19: from t and dof too)
     threshold = None if se is None else t_crit * se
     size_t = abs(t)
     growth = None
@@ -137,8 +139,9 @@ def impact_threshold(
         share = 1 - t_crit / size_t
     else:
         share = 1 - size_t / t_crit
+        # short of significance: the coefficient itself must grow by d#/|b| - 1 to reach d#
         growth = t_crit / size_t - 1 if size_t > 0 else None
-    cases = None if n is None else n * share
+    swapped = None if n is None else n * share
     return ImpactResult(
         estimate=estimate,
         se=se,
@@ -152,12 +155,9 @@ def impact_threshold(
         correlation_threshold=float(r_crit * sign),
         itcv=float(sign * k),
         itcv_component=float(component),
-        direction=direction,
+        significant=significant,
         estimate_threshold=threshold,
-        share_to_invalidate=share,
-        cases_to_replace=cases,
+        bias_share=share,
+        swapped_observations=swapped,
         estimate_growth=growth,
-        notes=()
-        if size_t > 0
-        else ("The estimate is zero: no growth in proportion to it can reach the threshold.",),
     )

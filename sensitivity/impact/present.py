@@ -14,83 +14,87 @@ def _dof(r: ImpactResult) -> str:
     return "as given" if r.n is None else f"n - covariates - 2 = {r.dof:,.0f}"
 
 
+def _regression(r: ImpactResult) -> str:
+    return f"t = {r.t:.2f} on {r.dof:,.0f} residual degrees of freedom"
+
+
 def table(r: ImpactResult) -> Table:
+    change = "lose" if r.significant else "gain"
     rows = [
-        ("Observed partial correlation of treatment and outcome", number(r.correlation, 3)),
-        (f"Correlation at which significance changes (alpha {r.alpha:g})",
+        ("Partial correlation of treatment and outcome, observed", number(r.correlation, 3)),
+        (f"Partial correlation at the edge of significance (alpha {r.alpha:g})",
          number(r.correlation_threshold, 3)),
-        ("Impact threshold (product of the confounder's two correlations)", number(r.itcv, 3)),
-        ("Each correlation, taken equal", number(r.itcv_component, 3)),
+        ("Impact needed: product of the omitted variable's two partial correlations",
+         number(r.itcv, 3)),
+        ("Each of the two, if equal in size", number(r.itcv_component, 3)),
     ]  # fmt: skip
-    if r.direction == "invalidate":
-        rows.append(("Share of the estimate bias would have to remove",
-                     percent(r.share_to_invalidate)))  # fmt: skip
-        if r.cases_to_replace is not None:
-            rows.append(("Cases to replace with cases of no effect",
-                         f"{r.cases_to_replace:,.0f}"))  # fmt: skip
-    else:
-        if r.estimate_growth is not None:
-            rows.append(("Growth the estimate needs to reach significance",
-                         percent(r.estimate_growth)))  # fmt: skip
-        rows.append(("Share of the threshold the estimate falls short by (1 − |t|/t crit)",
-                     percent(r.share_to_invalidate)))  # fmt: skip
-        if r.cases_to_replace is not None and r.estimate_threshold is not None:
-            effect = _replacement_effect(r)
-            rows.append((f"Cases to replace with cases of effect {effect}",
-                         f"{r.cases_to_replace:,.0f}"))  # fmt: skip
+    if r.bias_share is not None:
+        what = (
+            "Share of the coefficient bias would have to account for"
+            if r.significant
+            else "Share of the size significance needs that bias would have to be hiding"
+        )
+        rows.append((what, percent(r.bias_share)))  # fmt: skip
+    if r.estimate_growth is not None:
+        rows.append(("Growth the coefficient needs to reach significance",
+                     percent(r.estimate_growth)))  # fmt: skip
+    if r.swapped_observations is not None and r.significant:
+        rows.append(("Observations to swap for ones with no treatment effect",
+                     f"{r.swapped_observations:,.0f}"))  # fmt: skip
     return Table(
-        ("How strong a confounding variable would have to be", "Value"),
+        ("From the regression", "Value"),
         tuple(rows),
-        title=f"Impact threshold (t = {r.t:.2f} on {r.dof:,.0f} df)"
-        if abs(r.t) < 1e6
-        else f"Impact threshold (t = {r.t:.3g} on {r.dof:,.0f} df)",
+        title=f"What it would take to {change} significance (t = {_t(r.t)}, {r.dof:,.0f} df)",
         footnotes=(
             f"Degrees of freedom: {_dof(r)}; two-sided critical t {r.t_critical:.3f}. "
-            "Correlations are partial on the "
-            "model's covariates.",
+            "Correlations are partial on the model's covariates.",
         ),
     )
 
 
-def _replacement_effect(r: ImpactResult) -> str:
-    """|b| + d#, in the estimate's direction: the effect of the replacement cases that brings
-    the estimate to the threshold when the share 1 - |b|/d# of cases is replaced."""
-    sign = -1.0 if (r.estimate or 0) < 0 else 1.0
-    return number(sign * (abs(r.estimate or 0) + (r.estimate_threshold or 0)), 3)
+def _t(t: float) -> str:
+    """A t statistic as printed: two decimals, or three significant digits when huge."""
+    return f"{t:.2f}" if abs(t) < 1e6 else f"{t:.3g}"
 
 
 def sentence(r: ImpactResult) -> str:
     c = number(abs(r.itcv_component), 2)
     level = f"{r.alpha:g}"
-    if r.direction == "invalidate":
+    if r.significant:
         text = (
-            f"To make the estimate lose significance at the {level} level, an omitted variable "
-            f"would need an impact of {number(abs(r.itcv), 3)} (correlated at {c} with both the "
-            "treatment and the outcome, beyond the covariates, in the direction that weakens "
-            "the estimate); a weaker one could not"
+            f"In this regression ({_regression(r)}), the treatment's coefficient could stop "
+            f"being significant at the {level} level only if an omitted variable's partial "
+            f"correlations with the treatment and with the outcome, beyond the covariates, "
+            f"multiplied to at least {number(abs(r.itcv), 3)} in the direction that weakens it "
+            f"({c} with each, if the two are equal); a smaller product leaves it significant"
         )
-        text += f", and bias would have to remove {percent(r.share_to_invalidate)} of the estimate"
+        if r.bias_share is not None:
+            text += (
+                f". Put another way, bias would have to account for {percent(r.bias_share)} "
+                "of the coefficient"
+            )
+            if r.swapped_observations is not None:
+                text += (
+                    f", as if about {r.swapped_observations:,.0f} of the {r.n:,} observations "
+                    "were swapped for ones in which the treatment has no effect"
+                )
     else:
         text = (
-            f"The estimate is not significant at the {level} level; to make it significant, a "
-            f"suppressing variable would need correlations of {c} in size with the treatment "
-            "and the outcome, of opposite signs"
+            f"In this regression ({_regression(r)}), the treatment's coefficient is not "
+            f"significant at the {level} level. An omitted variable could make it significant "
+            f"only by suppressing it: partial correlations of about {c} in size with the "
+            "treatment and with the outcome, of opposite signs"
         )
+        if r.bias_share is not None and r.estimate_threshold is not None:
+            text += (
+                f". Put another way, bias would have to be hiding {percent(r.bias_share)} of "
+                f"the size significance needs ({number(r.estimate_threshold, 3)})"
+            )
         if r.estimate_growth is not None:
             text += (
-                f", and the estimate would have to grow by {percent(r.estimate_growth)} to "
-                "reach significance"
+                f"; the coefficient itself would have to grow by {percent(r.estimate_growth)} "
+                "to reach it"
             )
-    if r.cases_to_replace is not None and r.direction == "invalidate":
-        text += (
-            f" (about {r.cases_to_replace:,.0f} of the {r.n:,} cases replaced by cases with "
-            "no effect)"
-        )
-    elif r.cases_to_replace is not None and r.estimate_threshold is not None:
-        text += (
-            f" (as if about {r.cases_to_replace:,.0f} of the {r.n:,} cases were replaced by "
-            f"cases with an effect of {_replacement_effect(r)})"
-        )
     return text + "."
 
 
@@ -110,9 +114,11 @@ def figures(r: Any) -> tuple[Figure, ...]:
 
 
 METHODS = (
-    "We computed the impact threshold of a confounding variable (Frank 2000): the least "
-    "product of its correlations with the treatment and with the outcome, net of the "
-    "covariates, at which the coefficient would no longer be statistically significant."
+    "For each regression coefficient we asked how strongly an omitted variable would have to "
+    "correlate with the treatment and with the outcome, net of the covariates, for the "
+    "coefficient's statistical significance to change: the impact threshold of Frank (2000), "
+    "the least product of those two partial correlations that could do it, with the share "
+    "of the coefficient bias would have to account for (Frank et al. 2013)."
 )
 
 

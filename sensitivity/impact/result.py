@@ -26,15 +26,15 @@ class ImpactResult(Result):
     correlation_threshold: float  # the correlation at which significance is lost (signed)
     itcv: float  # the impact: the product of the confounder's two correlations
     itcv_component: float  # each correlation, taken equal in size
-    direction: str  # "invalidate" (a significant result) or "sustain" (a non-significant one)
+    significant: bool  # at alpha: the question is then losing significance, else gaining it
     estimate_threshold: float | None  # t_critical x se
-    share_to_invalidate: float | None
-    cases_to_replace: float | None
-    # sustain only: the proportion by which the estimate must grow to reach the threshold
+    bias_share: float | None  # the share of the coefficient bias would have to account for
+    swapped_observations: float | None  # n x bias_share: observations swapped for no-effect ones
+    # short of significance: the proportion by which the coefficient must grow to reach it
     estimate_growth: float | None = None
     cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
     notes: tuple[str, ...] = ()
-    _repr_fields = ("t", "dof", "itcv", "share_to_invalidate")
+    _repr_fields = ("t", "dof", "itcv", "bias_share")
     presenter = "sensitivity.impact.present"
 
     def to_dict(self) -> dict:
@@ -52,10 +52,10 @@ class ImpactResult(Result):
                 "correlation_threshold": self.correlation_threshold,
                 "itcv": self.itcv,
                 "itcv_component": self.itcv_component,
-                "direction": self.direction,
+                "significant": self.significant,
                 "estimate_threshold": self.estimate_threshold,
-                "share_to_invalidate": self.share_to_invalidate,
-                "cases_to_replace": self.cases_to_replace,
+                "bias_share": self.bias_share,
+                "swapped_observations": self.swapped_observations,
                 "estimate_growth": self.estimate_growth,
                 "notes": list(self.all_notes()),
             }

@@ -14,36 +14,64 @@ def _p(x: float) -> str:
     return "<0.0001" if x < 1e-4 else f"{x:.4f}"
 
 
+def _name(r: MatchedResult) -> str:
+    return "sign test" if r.test == "sign" else "Wilcoxon signed-rank test"
+
+
+def heading(r: MatchedResult) -> str:
+    """The definition first: what Gamma is, and what was tested."""
+    return (
+        f"Gamma is how many times more likely a hidden confounder could make one unit of a "
+        f"matched pair, rather than the other, the treated one (Gamma 1: no hidden bias). "
+        f"Tested: {_direction(r)}, one-sided {_name(r)} ({r.method}), {r.pairs:,} pairs, alpha "
+        f"{r.alpha:g}."
+    )
+
+
+def _stops(r: MatchedResult) -> str:
+    g = r.gamma_at_alpha
+    if g is None:
+        return f"Not below {r.alpha:g} even at Gamma 1 (no hidden bias)."
+    if g == float("inf"):
+        return f"Below {r.alpha:g} at every Gamma up to 1,000,000."
+    return (
+        f"It stops being below {r.alpha:g} at Gamma = {g:.2f} (solved exactly, not read off "
+        "the grid)."
+    )
+
+
 def table(r: MatchedResult) -> Table:
+    """The reader's question first: the worst-case p at each Gamma, and whether it holds."""
+    rows = tuple(
+        (f"{g:g}", _p(u), "yes" if u < r.alpha else "no")
+        for g, u in zip(r.gamma.tolist(), r.p_upper.tolist(), strict=True)
+    )
+    return Table(
+        ("Gamma", "Worst-case p", f"Below {r.alpha:g}?"),
+        rows,
+        title="Does the result survive hidden bias? The worst-case one-sided p at each Gamma",
+        footnotes=(_stops(r),),
+    )
+
+
+def other_table(r: MatchedResult) -> Table:
+    """The rest of the bounds: the best-case p and, for the signed-rank test, the range of
+    Hodges-Lehmann estimates that hidden bias up to Gamma allows."""
     low, high = r.estimate_low, r.estimate_high
     rows: list[tuple[str, ...]] = []
-    for k, (g, u, lo) in enumerate(zip(r.gamma.tolist(), r.p_upper.tolist(),
-                                       r.p_lower.tolist(), strict=True)):  # fmt: skip
-        row: tuple[str, ...] = (f"{g:g}", _p(u), _p(lo))
+    for k, (g, lo) in enumerate(zip(r.gamma.tolist(), r.p_lower.tolist(), strict=True)):
+        row: tuple[str, ...] = (f"{g:g}", _p(lo))
         if low is not None and high is not None:
             row += (f"{low[k]:.4g} to {high[k]:.4g}",)
         rows.append(row)
-    name = "sign test" if r.test == "sign" else "Wilcoxon signed-rank test"
-    columns: tuple[str, ...] = ("Gamma", "Upper bound on p", "Lower bound on p")
-    columns += ("Hodges-Lehmann estimates",) if low is not None else ()
-    return Table(
-        columns,
-        tuple(rows),
-        title=f"Rosenbaum bounds: {name} ({r.method}), {r.pairs:,} pairs",
-        footnotes=(
-            "Gamma: how many times more likely a hidden confounder could make one unit of a pair "
-            f"the treated one; one-sided p-values for {_direction(r)}.",
-        )
-        + (
-            (
-                "Hodges-Lehmann estimates: the range of point estimates of the treated-minus-"
-                "control effect that hidden bias up to Gamma allows (from the Walsh averages of "
-                "all differences, zeros included).",
-            )
-            if low is not None
-            else ()
-        ),
-    )
+    columns: tuple[str, ...] = ("Gamma", "Best-case p")
+    columns += ("Effect estimates allowed",) if low is not None else ()
+    foot = () if low is None else (
+        "Effect estimates allowed: the range of Hodges-Lehmann estimates of the treated-minus-"
+        "control effect under hidden bias up to Gamma (from the Walsh averages of all "
+        "differences, zeros included).",
+    )  # fmt: skip
+    return Table(columns, tuple(rows), title="The other side of the bounds", footnotes=foot)
 
 
 def _direction(r: MatchedResult) -> str:
@@ -61,13 +89,16 @@ def sentence(r: MatchedResult) -> str:
             "(Gamma 1), so there is no Gamma to report."
         )
     if r.gamma_at_alpha == float("inf"):
-        return f"The upper bound stays below {r.alpha:g} for every Gamma up to 1,000,000."
+        return (
+            f"The worst-case one-sided p-value stays below {r.alpha:g} for every Gamma up to "
+            "1,000,000."
+        )
     g = f"{r.gamma_at_alpha:.2f}"
     return (
-        f"The upper bound on the one-sided p-value reaches {r.alpha:g} at Gamma = {g}: only a "
-        f"hidden confounder that could make one unit of a pair at least {g} times as likely as "
-        "the other to be the treated one could make the result lose significance; a weaker "
-        "hidden bias could not."
+        f"The worst-case one-sided p-value stays below {r.alpha:g} for every Gamma under {g} "
+        f"and reaches {r.alpha:g} at Gamma = {g}: the result could lose significance at that "
+        f"level only if a hidden confounder made one unit of a pair at least {g} times as "
+        "likely as the other to be the treated one; a weaker hidden bias could not do it."
     )
 
 
@@ -82,7 +113,12 @@ def document(r: MatchedResult) -> Document:
     if r.missing:
         pairs = "1 pair" if r.missing == 1 else f"{r.missing} pairs"
         notes.append(f"{pairs} with a missing value left out (listed on stderr by the command).")
-    blocks: tuple[Block, ...] = (table(r), prose(lead, role="sentence"))
+    blocks: tuple[Block, ...] = (
+        prose(heading(r)),
+        table(r),
+        prose(lead, role="sentence"),
+        other_table(r),
+    )
     blocks += standard_tail(notes, r.cautions, (
         "Pairs matched on the measured covariates; a hidden confounder with bounded effect "
         f"(Gamma) on which unit is treated; a one-sided test for {_direction(r)}.",

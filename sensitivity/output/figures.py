@@ -146,12 +146,19 @@ def legend_point(marker: str, **style: Any) -> Any:
 
 
 def own_marks(ax: Any, marks: Sequence[Mark], handles: list) -> None:
-    """The user's own confounders (the reviewer's question): red diamonds."""
+    """The user's own confounders (the reviewer's question): the project's own marker, a
+    white-edged deep-teal star, apart from the numbered scenario discs."""
     if not marks:
         return
     xs, ys = zip(*marks, strict=True)
-    ax.plot(xs, ys, "D", ms=7, mfc="#d62728", mec="white", mew=0.8, zorder=6, clip_on=False)
-    handles.append(legend_point("D", mfc="#d62728", mec="white", label="Your confounder"))
+    ax.plot(xs, ys, MARK_SHAPE, ms=12, mfc=MARK_COLOUR, mec="white", mew=0.9, zorder=6,
+            clip_on=False)  # fmt: skip
+    handles.append(legend_point(MARK_SHAPE, mfc=MARK_COLOUR, mec="white", ms=12,
+                                label="Your confounder"))  # fmt: skip
+
+
+#: The marker of a confounder the user names (`--plot-mark`): a deep-teal star.
+MARK_SHAPE, MARK_COLOUR = "*", "#00696b"
 
 
 def filled_levels(

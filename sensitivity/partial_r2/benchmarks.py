@@ -1,79 +1,77 @@
-"""Strengths of a confounder k times as strong as an observed covariate (Cinelli & Hazlett
-2020, section 4.4), and the largest k that exists.
+"""A benchmark as users write it: a covariate with its multiples in one value.
 
-References
-----------
-Cinelli C, Hazlett C (2020). Making sense of sensitivity: extending omitted variable bias.
-Journal of the Royal Statistical Society, Series B 82:39-67.
+``"smoker"`` (a confounder of smoker's strength on both sides), ``"smoker:2"`` (twice its
+strength on both), ``"smoker:1:3"`` (its strength with the treatment, three times it with
+the outcome). From Python a tuple does the same: ``("smoker", 2)``, ``("smoker", 1, 3)``.
 """
 
 from __future__ import annotations
 
-import numpy as np
-from numpy.typing import ArrayLike
+from collections.abc import Iterable
 
-from ..common.checks import POSITIVE, R2_STRENGTH, require
 from ..common.errors import InputError
 
+BENCHMARK_HELP = (
+    "COLUMN[:MULTIPLE[:MULTIPLE_OUTCOME]]: a measured covariate, and how many times its "
+    "strength the confounder has (both sides, or treatment then outcome; default 1)"
+)
 
-def benchmark_strengths(
-    r2_treatment_cov: ArrayLike,
-    r2_outcome_cov: ArrayLike,
-    k_treatment: ArrayLike = 1.0,
-    k_outcome: ArrayLike | None = None,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Strengths of a confounder k times as strong as an observed covariate (or group).
 
-    Parameters
-    ----------
-    r2_treatment_cov : array_like
-        Partial R² of the covariate with the treatment, given the other covariates.
-    r2_outcome_cov : array_like
-        Partial R² of the covariate with the outcome, given treatment and other covariates.
-    k_treatment, k_outcome : array_like
-        Multipliers on the treatment and outcome sides (`k_outcome` defaults to
-        `k_treatment`).
+def _number(text: str) -> float | None:
+    try:
+        value = float(text)
+    except ValueError:
+        return None
+    return value
 
-    Returns
-    -------
-    (r2_treatment, r2_outcome, capped) : tuple of ndarray
-        `capped` flags an outcome-side bound that reached 1 and was capped there.
 
-    Notes
-    -----
-    ``R2_t = k_t r_t / (1 - r_t)``; ``rho² = k_t r_t² / ((1 - k_t r_t)(1 - r_t))``;
-    ``R2_y = ((sqrt(k_y) + sqrt(rho²)) / sqrt(1 - rho²))² r_y / (1 - r_y)``, capped at 1.
-    Assumes the confounder is orthogonal to the covariate given the other covariates.
+def benchmark_spec(value: object, argument: str = "benchmark") -> tuple[str, float, float]:
+    """(covariate, multiple with the treatment, multiple with the outcome) from one value.
 
-    References
-    ----------
-    Cinelli & Hazlett (2020), JRSS-B 82:39, section 6 (bounds from observed covariates).
+    Multiples are read from the right of the last colons, so a formula term holding a colon
+    (an interaction ``a:b``) stays a name.
+
+    >>> benchmark_spec("smoker"), benchmark_spec("smoker:2"), benchmark_spec("age:1:3")
+    (('smoker', 1.0, 1.0), ('smoker', 2.0, 2.0), ('age', 1.0, 3.0))
+    >>> benchmark_spec(("C(shift)", 2))
+    ('C(shift)', 2.0, 2.0)
     """
-    rt = require(r2_treatment_cov, "r2_treatment_cov", R2_STRENGTH)
-    ry = require(r2_outcome_cov, "r2_outcome_cov", R2_STRENGTH)
-    kt = require(k_treatment, "k_treatment", POSITIVE)
-    ky = kt if k_outcome is None else require(k_outcome, "k_outcome", POSITIVE)
-    r2t = kt * rt / (1 - rt)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        rho2 = kt * rt**2 / ((1 - kt * rt) * (1 - rt))
-    bad = (r2t >= 1) | (rho2 >= 1) | (rho2 < 0)
-    if np.any(bad):
-        kk, rr = np.broadcast_arrays(kt, rt)
-        i = np.flatnonzero(np.broadcast_to(bad, kk.shape))[0]
-        raise InputError(
-            f"`k_treatment` {kk.flat[i]:g} is impossible for a covariate with partial R² "
-            f"{rr.flat[i]:.4g} with the treatment: the confounder would explain all of the "
-            f"treatment's residual variance (k must be below {_k_max(rr.flat[i]):.4g})"
-        )
-    r2y = (np.sqrt(ky) + np.sqrt(rho2)) ** 2 / (1 - rho2) * ry / (1 - ry)
-    capped = r2y > 1
-    return r2t, np.minimum(r2y, 1.0), capped
+    if isinstance(value, (tuple, list)):
+        if not 1 <= len(value) <= 3 or not isinstance(value[0], str):
+            raise InputError(
+                f"`{argument}` must be a name, (name, multiple) or (name, multiple with the "
+                f"treatment, multiple with the outcome); got {value!r}"
+            )
+        name, numbers = value[0], [float(v) for v in value[1:]]
+    elif isinstance(value, str):
+        parts = value.split(":")
+        numbers = []
+        while len(parts) > 1 and len(numbers) < 2 and (n := _number(parts[-1])) is not None:
+            numbers.insert(0, n)
+            parts.pop()
+        name = ":".join(parts)
+    else:
+        raise InputError(f"`{argument}` must be a covariate name; got {value!r}")
+    if not name.strip():
+        raise InputError(f"`{argument}` names no covariate; got {value!r}")
+    if len(numbers) == 0:
+        numbers = [1.0]
+    kt, ky = (numbers[0], numbers[0]) if len(numbers) == 1 else (numbers[0], numbers[1])
+    for k in (kt, ky):
+        if not k > 0 or k != k or k == float("inf"):
+            raise InputError(
+                f"`{argument}` {value!r}: a multiple must be a positive finite number; got {k:g}"
+            )
+    return name.strip(), float(kt), float(ky)
 
 
-def _k_max(r):
-    """Largest k_t for which both R2_t < 1 and rho² < 1 (Cinelli & Hazlett 2020)."""
-    if r <= 0:
-        return float("inf")
-    # R2_t < 1 needs k < (1 - r) / r; rho² < 1 needs k r² < (1 - k r)(1 - r),
-    # i.e. k < (1 - r) / (r² + r (1 - r)) = (1 - r) / r as well: one bound.
-    return (1 - r) / r
+def benchmark_specs(values: Iterable[object], argument: str = "benchmark"
+                    ) -> list[tuple[str, float, float]]:  # fmt: skip
+    """`benchmark_spec` over several values (a single string, or a single (name, multiple,
+    ...) tuple, counts as one)."""
+    if isinstance(values, str) or (
+        isinstance(values, tuple) and values and isinstance(values[0], str)
+        and len(values) > 1 and not any(isinstance(v, str) for v in values[1:])
+    ):  # fmt: skip
+        values = [values]
+    return [benchmark_spec(v, argument) for v in values]

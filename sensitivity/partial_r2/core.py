@@ -23,10 +23,17 @@ from numpy.typing import ArrayLike
 
 from ..common import levels
 from ..common.checks import DOF as DOF_RULE
-from ..common.checks import POSITIVE, R2_STRENGTH, require, require_numbers, require_scalar, show
+from ..common.checks import (
+    POSITIVE,
+    R2_STRENGTH,
+    require,
+    require_numbers,
+    require_scalar,
+    show,
+)
 from ..common.errors import InputError, SensitivityWarning
-from .benchmarks import _k_max, benchmark_strengths
 from .result import CovariateStrength, PartialR2Result, Scenario
+from .strengths import _k_max, benchmark_strengths
 
 
 def t_critical(alpha: float, dof: ArrayLike) -> np.ndarray:
@@ -70,7 +77,7 @@ def partial_r2_of_f(f_stat: ArrayLike, df_num: ArrayLike, dof: ArrayLike) -> np.
 
 
 def robustness_value_of_t(
-    t: ArrayLike, *, dof: ArrayLike, fraction: ArrayLike = 1.0, alpha: float | None = None
+    t: ArrayLike, *, dof: ArrayLike, reduce_by: ArrayLike = 1.0, alpha: float | None = None
 ) -> np.ndarray:
     """Robustness value: the equal partial R² (with treatment and outcome) that suffices.
 
@@ -80,8 +87,8 @@ def robustness_value_of_t(
         t statistic of the treatment coefficient.
     dof : array_like
         Residual degrees of freedom of the OLS fit.
-    fraction : array_like, default 1
-        Share q of the estimate to explain away (1: bring it to zero).
+    reduce_by : array_like, default 1
+        Share of the estimate a confounder must remove (1: all of it, to zero).
     alpha : float, optional
         With `alpha`, the value at which the bias-adjusted interval first reaches
         ``(1 - q)`` times the estimate (loses significance, for q = 1).
@@ -115,14 +122,14 @@ def robustness_value_of_t(
     """
     t = require_numbers(t, "t")
     dof = require_numbers(dof, "dof")
-    fraction = require_numbers(fraction, "fraction")
+    reduce_by = require_numbers(reduce_by, "reduce_by")
     least = 1 if alpha is None else 2  # the interval's t has dof - 1 degrees of freedom
-    for name, values, bad in (("dof", dof, dof < least), ("fraction", fraction, fraction <= 0)):
+    for name, values, bad in (("dof", dof, dof < least), ("reduce_by", reduce_by, reduce_by <= 0)):
         if np.any(bad):  # NaN (a missing entry) passes through as NaN
             rule = f"must be at least {least}" if name == "dof" else "must be positive"
             raise InputError(f"`{name}` {rule}; got {show(values[bad].flat[0])}")
     with np.errstate(invalid="ignore"):
-        fq = fraction * np.abs(t) / np.sqrt(dof)
+        fq = reduce_by * np.abs(t) / np.sqrt(dof)
     if alpha is None:
         return _rv_curve(fq)
     alpha = levels.check_alpha(alpha)
@@ -208,9 +215,9 @@ def adjusted_for_confounder(
 
 # --------------------------------------------------------------------------- entry point
 def check_summary(
-    estimate: object, se: object, dof: object, t: object, fraction: object, alpha: object
+    estimate: object, se: object, dof: object, t: object, reduce_by: object, alpha: object
 ) -> tuple[float, float, float, float, float]:
-    """One OLS coefficient's summary, checked: (estimate, se, dof, fraction, alpha)."""
+    """One OLS coefficient's summary, checked: (estimate, se, dof, reduce_by, alpha)."""
     est = float(require_scalar(estimate, "estimate"))
     if se is not None and t is not None:
         raise InputError("give `se` or `t`, not both")
@@ -229,9 +236,9 @@ def check_summary(
         ratio = est / se
     if not np.isfinite(ratio):
         raise InputError(f"`estimate` / `se` must be a finite t statistic; got {est:g} / {se:g}")
-    fraction = float(require_scalar(fraction, "fraction", POSITIVE))
+    reduce_by = float(require_scalar(reduce_by, "reduce_by", POSITIVE))
     alpha = levels.check_alpha(alpha)
-    return est, se, dof, fraction, alpha
+    return est, se, dof, reduce_by, alpha
 
 
 def hypothetical_scenarios(
@@ -274,7 +281,7 @@ def benchmark_scenarios(
     k_pairs: Sequence[tuple[float, float]],
     alpha: float,
 ) -> list[Scenario]:
-    """Scenarios for confounders k times as strong as `covariate` (a CovariateStrength)."""
+    """Scenarios for confounders of k times the strength of `covariate` (a CovariateStrength)."""
     out = []
     k_max = _k_max(covariate.r2_treatment)
     for kt, ky in k_pairs:
@@ -323,7 +330,7 @@ def partial_r2_summary(
     dof: float | None = None,
     *,
     t: float | None = None,
-    fraction: float = 1.0,
+    reduce_by: float = 1.0,
     alpha: float = 0.05,
     r2_treatment: ArrayLike | None = None,
     r2_outcome: ArrayLike | None = None,
@@ -342,7 +349,7 @@ def partial_r2_summary(
         Residual degrees of freedom of the fit (n minus the number of coefficients).
     t : float, optional
         The t statistic, instead of `se`.
-    fraction : float, default 1
+    reduce_by : float, default 1
         Share of the estimate a confounder must explain away (1: all of it).
     alpha : float, default 0.05
         Significance level for the significance robustness value and adjusted intervals.
@@ -367,12 +374,12 @@ def partial_r2_summary(
     >>> round(res.partial_r2, 3), round(rv, 3), round(rv_alpha, 3)
     (0.022, 0.139, 0.076)
     """
-    est, se, dof, fraction, alpha = check_summary(estimate, se, dof, t, fraction, alpha)
+    est, se, dof, reduce_by, alpha = check_summary(estimate, se, dof, t, reduce_by, alpha)
     return assemble(
         est,
         se,
         dof,
-        fraction=fraction,
+        reduce_by=reduce_by,
         alpha=alpha,
         r2_treatment=r2_treatment,
         r2_outcome=r2_outcome,
@@ -386,7 +393,7 @@ def assemble(
     se: float,
     dof: float,
     *,
-    fraction: float,
+    reduce_by: float,
     alpha: float,
     r2_treatment: ArrayLike | None = None,
     r2_outcome: ArrayLike | None = None,
@@ -425,11 +432,11 @@ def assemble(
         dof=dof,
         t=t,
         partial_r2=float(partial_r2_of_t(t, dof)),
-        fraction=fraction,
+        reduce_by=reduce_by,
         alpha=alpha,
-        robustness_value=float(robustness_value_of_t(t, dof=dof, fraction=fraction)),
+        robustness_value=float(robustness_value_of_t(t, dof=dof, reduce_by=reduce_by)),
         robustness_value_alpha=float(
-            robustness_value_of_t(t, dof=dof, fraction=fraction, alpha=alpha)
+            robustness_value_of_t(t, dof=dof, reduce_by=reduce_by, alpha=alpha)
         ),
         scenarios=tuple(hyp) + tuple(scenarios),
         evalue=ev,

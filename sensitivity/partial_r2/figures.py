@@ -14,9 +14,7 @@ from ..output.figures import (
     Mark,
     figure_paths,
     filled_levels,
-    legend_below,
     legend_point,
-    new_figure,
     numbered_markers,
     own_marks,
     percent_axis,
@@ -61,17 +59,19 @@ def _beyond(result: Any, xlim: float, ylim: float) -> tuple[list[Mark], str]:
 def partial_r2_contours(
     result: Any,
     path: str | Path | Sequence[str | Path],
-    statistic: str = "estimate",
     limits: Mark | None = None,
     marks: Sequence[Mark] = (),
     size: int = 241,
 ) -> list[Path]:
-    """The bias-adjusted estimate (or t) over the two partial R² of a hidden confounder.
+    """Two panels side by side over the two partial R² of a hidden confounder: the
+    bias-adjusted estimate (left) and its t value (right).
 
-    Filled levels with a colour bar; black lines where the estimate (solid) and its interval
-    (dashed) reach the target; the scenarios numbered as in the scenario table; `marks` (the
-    user's own confounders) as red diamonds. `limits` sets the axes (partial R², 0 to 1).
+    Filled levels with a colour bar in each; black lines where the estimate (solid) and its
+    interval (dashed) reach the target; the scenarios numbered as in the scenario table;
+    `marks` (the user's own confounders) as the project's own marker (see `own_marks`).
+    `limits` sets the axes (partial R², 0 to 1).
     """
+    from ..output.figures import STYLE, pyplot
     from .core import surface, t_critical
 
     paths = figure_paths(path)
@@ -79,45 +79,51 @@ def partial_r2_contours(
     gx = np.linspace(0, min(xlim, 0.999), size)
     gy = np.linspace(0, min(ylim, 0.999), size)
     s = surface(result.estimate, result.se, result.dof, gx, gy, result.alpha)
-    target = (1 - result.fraction) * result.estimate
+    target = (1 - result.reduce_by) * result.estimate
     crit = float(t_critical(result.alpha, result.dof - 1))
     sign = np.sign(result.estimate) or 1.0
-    if statistic == "estimate":
-        value, label = s["estimate"], "Bias-adjusted estimate"
-    else:
-        value, label = s["t"], "Bias-adjusted t value"
     level = level_text(alpha=result.alpha)
-    goal = "zero" if result.fraction == 1 else f"{target:.3g}"
-    fig, ax = new_figure()
-    filled_levels(ax, gx, gy, value, label, 0.0 if statistic == "t" else target)
-    handles: list = []
+    goal = "zero" if result.reduce_by == 1 else f"{target:.3g}"
+    plt = pyplot()
+    plt.rcParams.update(STYLE)
+    fig, axes = plt.subplots(1, 2, figsize=(12.4, 6.0), layout="constrained", sharey=True)
+    panels = (
+        (s["estimate"], "Bias-adjusted estimate", target, f"estimate {result.estimate:.3g}"),
+        (s["t"], "Bias-adjusted t value", 0.0, f"t = {result.t:.2f}"),
+    )
     distance = sign * (s["estimate"] - target)
-    tip_line(ax, gx, gy, distance, 0.0, "estimate", f"Estimate reaches {goal}", handles)
-    tip_line(ax, gx, gy, distance / s["se"], crit, "ci", f"{level} CI reaches {goal}", handles)
-    # numbered as in the table; an impossible benchmark has no point (NaN is not drawn); a
-    # scenario far beyond the region where the conclusion changes sits on the edge, named
-    points, beyond = _beyond(result, xlim, ylim)
-    numbered_markers(ax, points)
-    if beyond:
-        ax.annotate(plot_label(beyond, limit=120), (0.95, 0.95), xycoords="axes fraction",
-                    ha="right", va="top", fontsize=8,
-                    bbox={"boxstyle": "round", "fc": "white", "ec": "0.6"})  # fmt: skip
-    own_marks(ax, marks, handles)
+    handles: list = []
+    for i, (ax, (value, label, center, shown)) in enumerate(zip(axes, panels, strict=True)):
+        filled_levels(ax, gx, gy, value, label, center)
+        keep: list = handles if i == 0 else []
+        tip_line(ax, gx, gy, distance, 0.0, "estimate", f"Estimate reaches {goal}", keep)
+        tip_line(ax, gx, gy, distance / s["se"], crit, "ci", f"{level} CI reaches {goal}", keep)
+        # numbered as in the table; an impossible benchmark has no point (NaN is not drawn); a
+        # scenario far beyond the region where the conclusion changes sits on the edge, named
+        points, beyond = _beyond(result, xlim, ylim)
+        numbered_markers(ax, points)
+        if beyond:
+            ax.annotate(plot_label(beyond, limit=120), (0.95, 0.95), xycoords="axes fraction",
+                        ha="right", va="top", fontsize=8,
+                        bbox={"boxstyle": "round", "fc": "white", "ec": "0.6"})  # fmt: skip
+        own_marks(ax, marks, keep)
+        ax.set_title(f"{label} (observed {shown})")
+        ax.set_xlabel("Confounder's share of the treatment's residual variance (partial R²)")
+        ax.set_xlim(0, xlim)
+        ax.set_ylim(0, ylim)
+        percent_axis(ax, "x")
+        percent_axis(ax, "y")
+    axes[0].set_ylabel("Confounder's share of the outcome's residual variance (partial R²)")
     who = f" of {plot_label(result.treatment)}" if result.treatment else ""
-    shown = f"t = {result.t:.2f}" if statistic == "t" else f"estimate {result.estimate:.3g}"
-    ax.set_title(f"Where a hidden confounder moves the coefficient{who}\n(observed {shown})")
-    ax.set_xlabel("Confounder's share of the treatment's residual variance (partial R²)")
-    ax.set_ylabel("Confounder's share of the outcome's residual variance (partial R²)")
-    ax.set_xlim(0, xlim)
-    ax.set_ylim(0, ylim)
-    percent_axis(ax, "x")
-    percent_axis(ax, "y")
+    fig.suptitle(f"Where a hidden confounder moves the coefficient{who}")
     if result.scenarios:
         handles.append(
             legend_point(
                 "o", mfc="white", mec="black", ms=9, label="Scenario (numbered as in the table)"
             )
         )
-    legend_below(ax, handles)
+    if handles:
+        fig.legend(handles=handles, loc="outside lower center", ncols=min(4, len(handles)),
+                   frameon=False)  # fmt: skip
     save_figure(fig, paths)
     return paths

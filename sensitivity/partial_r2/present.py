@@ -6,7 +6,6 @@ coefficient's own numbers in one header line, and lists named confounders verdic
 
 from __future__ import annotations
 
-import re
 from collections.abc import Sequence
 from functools import partial
 from typing import Any
@@ -20,7 +19,7 @@ from ..output.report import ReportPart
 from ..output.tables import Table, number, percent
 from .core import t_critical
 from .figures import partial_r2_contours
-from .result import CovariateStrength, PartialR2Result, Scenario
+from .result import CovariateStrength, PartialR2Result, Scenario, covariate_name
 
 
 def _per(contrast: float | np.ndarray) -> str:
@@ -42,27 +41,18 @@ def _num(r: PartialR2Result, x: float | None) -> str:
     return number(x, digits)
 
 
-def covariate_name(name: str) -> str:
-    """A formula term as a reader knows it: C(shift) is shift."""
-    match = re.fullmatch(r"C\(\s*([^,)]+?)\s*(,.*)?\)", name)
-    return match.group(1) if match else name
-
-
 def scenario_label(s: Scenario) -> str:
-    """A scenario named from its fields: "smoker ×2", "shift ×1/×3", "chosen 2% / 5%"."""
-    if s.kind == "benchmark":
-        kt, ky = s.k_treatment, s.k_outcome
-        times = f"×{kt:g}" if kt == ky else f"×{kt:g}/×{ky:g}"
-        return f"{covariate_name(s.benchmark or '')} {times}"
-    return f"chosen {percent(s.r2_treatment, 2)} / {percent(s.r2_outcome, 2)}"
+    """A scenario's one name (`Scenario.label`): "smoker ×2", "shift ×1/×3", "chosen 2.00% /
+    5.00%"."""
+    return s.label
 
 
 def _target(r: PartialR2Result) -> float:
-    return (1 - r.fraction) * r.estimate
+    return (1 - r.reduce_by) * r.estimate
 
 
 def _goal(r: PartialR2Result) -> str:
-    return "zero" if r.fraction == 1 else _num(r, _target(r))
+    return "zero" if r.reduce_by == 1 else _num(r, _target(r))
 
 
 def outcome_of(r: PartialR2Result, s: Scenario) -> str:
@@ -71,7 +61,7 @@ def outcome_of(r: PartialR2Result, s: Scenario) -> str:
     target = _target(r)
     side = np.sign(r.estimate - target)
     if side * (s.estimate - target) < 0:
-        return "reverses" if r.fraction == 1 else "passes"
+        return "reverses" if r.reduce_by == 1 else "passes"
     if s.estimate == target:
         return "reaches"
     if s.ci[0] <= target <= s.ci[1]:
@@ -187,10 +177,11 @@ def _scenario_footnote(r: PartialR2Result) -> str:
     if first is None:
         return tail
     name, k = covariate_name(first.benchmark or ""), first.k_treatment
+    strength = "matching" if k == 1 else f"with {k:g} times the strength of"
     return (
-        f"'{name} ×{k:g}': a confounder {'' if k == 1 else f'{k:g} times '}as strong as the "
-        f"measured covariate {name}, "
-        f"with the treatment and with the outcome (×a/×b when the two sides differ); {tail}"
+        f"'{name} ×{k:g}': a hidden confounder {strength} the measured covariate {name}, with "
+        f"the treatment and with the outcome (×a/×b: the treatment's multiple, then the "
+        f"outcome's); {tail}"
     )
 
 
@@ -217,19 +208,20 @@ def sentence(r: PartialR2Result) -> str:
     goal = _goal(r)
     rv, rva = percent(r.robustness_value), percent(r.robustness_value_alpha)
     text = (
-        f"No hidden confounder that accounts for less than {rv} of the residual variance of "
-        f"both the treatment and the outcome could bring the estimate to {goal} (one that "
-        f"accounts for {rv} of each would)"
+        f"Bringing the estimate to {goal} would take a hidden confounder that explains at "
+        f"least {rv} of the treatment's variation left after the measured covariates, or at "
+        f"least {rv} of the outcome's left after the treatment and covariates: one below {rv} "
+        f"on both could not, and one at {rv} on both would (the robustness value)"
     )
     if r.robustness_value_alpha == 0:
         text += (
-            f"; the {_level(r)} confidence interval already includes {goal}, so no "
-            "confounding is needed for that"
+            f". The {_level(r)} confidence interval already includes {goal}, with no "
+            "confounding at all"
         )
     else:
         text += (
-            f", and none accounting for less than {rva} of each could make the {_level(r)} "
-            f"confidence interval include {goal}"
+            f". For the {_level(r)} confidence interval to include {goal}, a confounder below "
+            f"{rva} on both could not"
         )
     bench = [s for s in r.scenarios if s.kind == "benchmark" and not s.impossible]
     if bench:
@@ -237,8 +229,11 @@ def sentence(r: PartialR2Result) -> str:
         s = max((s for s in bench if _k(s) == k_min), key=lambda s: s.bias)
         ci = f"{_level(r)} CI {_num(r, s.ci[0])} to {_num(r, s.ci[1])}"
         name = covariate_name(s.benchmark or "")
-        times = "as strong as" if k_min == 1 else f"{k_min:g} times as strong as"
-        lead = f". A confounder {times} {name} (the strongest benchmark at that multiple) would"
+        times = f"{name}'s strength" if k_min == 1 else f"{k_min:g} times {name}'s strength"
+        lead = (
+            f". A hidden confounder of {times} on both sides ({s.label}, the strongest "
+            "benchmark at that multiple) would"
+        )
         state = outcome_of(r, s)
         if state == "reverses":
             text += f"{lead} reverse the sign of the estimate, to {_num(r, s.estimate)} ({ci})"
@@ -271,10 +266,13 @@ def document(r: PartialR2Result) -> Document:
 
 
 METHODS = (
-    "For linear-regression coefficients we also report robustness values in the partial-R² "
-    "parameterisation of omitted-variable bias (Cinelli & Hazlett 2020): the least share of "
-    "the residual variance of both the treatment and the outcome a confounder would need to "
-    "explain to bring the estimate to zero, or to make its confidence interval include zero."
+    "For linear-regression coefficients we also report robustness values, from the partial-R² "
+    "form of omitted-variable bias (Cinelli & Hazlett 2020). A hidden confounder is described "
+    "by two shares: of the treatment's variation that the measured covariates leave "
+    "unexplained, the part it would explain, and the same for the outcome's variation left by "
+    "the treatment and covariates. The robustness value is the share, equal on both sides, at "
+    "which a confounder brings the estimate to zero; one below it on both sides could not. "
+    "A second value marks the same limit for the confidence interval to include zero."
 )
 
 
@@ -299,9 +297,9 @@ def supplement_table(items: Sequence[tuple[str, PartialR2Result]]) -> Table:
         tuple(rows),
         title="Regression coefficients: partial-R² robustness values",
         footnotes=(
-            "Robustness value: the least share of the residual variance of both the treatment "
-            "and the outcome a confounder would need to explain to bring the estimate (or, "
-            "for the CI column, its interval) to zero.",
+            "Robustness value: to bring the estimate (CI column: its interval) to zero, a "
+            "hidden confounder must explain at least this share, on at least one side, of "
+            "what the covariates leave unexplained of the treatment or of the outcome.",
         ),
     )
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
@@ -13,6 +14,18 @@ from ..common.results import Result, plain
 
 if TYPE_CHECKING:
     from ..evalues.result import EValueResult
+
+
+def covariate_name(name: str) -> str:
+    """A formula term as a reader knows it: C(shift) is shift."""
+    match = re.fullmatch(r"C\(\s*([^,)]+?)\s*(,.*)?\)", name)
+    return match.group(1) if match else name
+
+
+def _share(value: float) -> str:
+    """A partial R² as a percentage (three significant digits below 1%)."""
+    pct = 100 * float(value)
+    return f"{pct:.3g}%" if 0 < abs(pct) < 1 else f"{pct:.2f}%"
 
 
 @dataclass(frozen=True, eq=False)
@@ -41,17 +54,15 @@ class Scenario:
         return self.k_max is not None
 
     @property
-    def label_multiple(self) -> str:
-        """The multiples as written in a label: "2x", or "1x/3x" when the sides differ."""
-        kt, ky = self.k_treatment, self.k_outcome
-        return f"{kt:g}x" if kt == ky else f"{kt:g}x/{ky:g}x"
-
-    @property
     def label(self) -> str:
-        """A short name built from the scenario's fields."""
+        """The scenario's one name, in every view: "smoker ×2", "shift ×1/×3" (treatment /
+        outcome multiples), "chosen 2.00% / 5.00%" (partial R² given directly). The numbers
+        are also fields of their own."""
         if self.kind == "benchmark":
-            return f"{self.label_multiple} as strong as {self.benchmark}"
-        return f"R² {self.r2_treatment:.3g} / {self.r2_outcome:.3g}"
+            kt, ky = self.k_treatment, self.k_outcome
+            times = f"×{kt:g}" if kt == ky else f"×{kt:g}/×{ky:g}"
+            return f"{covariate_name(self.benchmark or '')} {times}"
+        return f"chosen {_share(self.r2_treatment)} / {_share(self.r2_outcome)}"
 
     def to_dict(self) -> dict:
         out = {
@@ -70,8 +81,8 @@ class Scenario:
         if self.kind == "benchmark":
             out |= {
                 "benchmark": self.benchmark,
-                "k_treatment": self.k_treatment,
-                "k_outcome": self.k_outcome,
+                "multiple_treatment": self.k_treatment,
+                "multiple_outcome": self.k_outcome,
                 "capped": self.capped,
             }
             if self.impossible:
@@ -108,7 +119,7 @@ class PartialR2Result(Result):
     dof: float
     t: float
     partial_r2: float
-    fraction: float
+    reduce_by: float
     alpha: float
     robustness_value: float
     robustness_value_alpha: float
@@ -130,7 +141,7 @@ class PartialR2Result(Result):
     )
     is_scalar = True
     _repr_fields = ("estimate", "se", "dof", "robustness_value", "robustness_value_alpha")
-    _input_fields = ("estimate", "se", "dof", "alpha", "fraction", "treatment")
+    _input_fields = ("estimate", "se", "dof", "alpha", "reduce_by", "treatment")
     presenter = "sensitivity.partial_r2.present"
 
     # ----------------------------------------------------------------- derived views
@@ -154,7 +165,7 @@ class PartialR2Result(Result):
             "dof": self.dof,
             "t": self.t,
             "partial_r2": self.partial_r2,
-            "fraction": self.fraction,
+            "reduce_by": self.reduce_by,
             "alpha": self.alpha,
             "robustness_value": self.robustness_value,
             "robustness_value_alpha": self.robustness_value_alpha,

@@ -2,7 +2,7 @@
 
 from .core import Options, computed_names, screen_columns
 from .result import ScreenSummary, Tally
-from .text import parse, parse_many
+from .text import parse, parse_many, read_result
 
 __all__ = [
     "Options",
@@ -11,5 +11,6 @@ __all__ = [
     "computed_names",
     "parse",
     "parse_many",
+    "read_result",
     "screen_columns",
 ]

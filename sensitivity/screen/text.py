@@ -8,6 +8,7 @@ interval cut short, two results in one cell, "NR" and blanks.
 from __future__ import annotations
 
 import re
+from typing import cast
 
 import numpy as np
 
@@ -151,3 +152,36 @@ def parse_many(texts: np.ndarray) -> dict[str, np.ndarray]:
                       "upper", "level") else object)
         for key in ("estimate", "lower", "upper", "scale", "level", "error")
     }  # fmt: skip
+
+
+def read_result(text: object, argument: str = "TEXT") -> dict[str, object]:
+    """One published result as a command or a script gives it: `parse`'s fields, plus the
+    ``text`` as given, with numbers as floats and ``scale`` / ``level`` None where the text
+    names none. Text that cannot be read for certain is an InputError naming `argument`.
+
+    >>> r = read_result("HR 0.72 (95% CI 0.60-0.86)")
+    >>> r["scale"], r["estimate"], r["lower"], r["upper"], r["level"]
+    ('hr', 0.72, 0.6, 0.86, 0.95)
+    >>> read_result("OR=2.1, 95%CI 1.2-3.6")["scale"]
+    'or'
+    """
+    from ..common.errors import InputError
+
+    cell = parse(text)
+    if cell["error"]:
+        shown = repr(str(text).strip()[:60])
+        got = "" if shown in str(cell["error"]) else f"; got {shown}"
+        raise InputError(f"`{argument}`: {cell['error']}{got}")
+
+    def number(key: str) -> float | None:
+        value = float(cast(float, cell[key]))
+        return None if np.isnan(value) else value
+
+    return {
+        "text": str(text).strip(),
+        "scale": cell["scale"] or None,
+        "estimate": number("estimate"),
+        "lower": number("lower"),
+        "upper": number("upper"),
+        "level": number("level"),
+    }

@@ -284,3 +284,24 @@ def coefficient_stability(
         complex_nearer=near,
         variances=None if roots is None else (s_y2, s_x2, tau),
     )  # fmt: skip
+
+
+def adjusted_grid(
+    result: StabilityResult, deltas: np.ndarray, r2_maxes: np.ndarray
+) -> dict[str, np.ndarray]:
+    """The bias-adjusted coefficient over a grid of delta (rows) x R-max (columns): the
+    approximation everywhere, and the exact root nearest the long estimate (as in
+    `coefficient_stability`) where the result holds the three variances (NaN without a real
+    root; NaN everywhere without the variances)."""
+    b0, b1, r0, r1 = result.estimate_short, result.estimate_long, result.r2_short, result.r2_long
+    d = np.asarray(deltas, float)[:, None]
+    m = np.asarray(r2_maxes, float)[None, :]
+    approx = b1 - d * (b0 - b1) * (m - r1) / (r1 - r0)
+    exact = np.full(approx.shape, np.nan)
+    if result.variances is not None:
+        s_y2, s_x2, tau = result.variances
+        for i, dv in enumerate(np.ravel(d)):
+            for j, mv in enumerate(np.ravel(m)):
+                roots = real_roots(float(dv), b0, b1, r0, r1, float(mv), s_y2, s_x2, tau)
+                exact[i, j] = roots[0] if roots.size else np.nan
+    return {"delta": np.ravel(d), "r2_max": np.ravel(m), "approx": approx, "exact": exact}

@@ -4,33 +4,84 @@ from __future__ import annotations
 
 from typing import Any
 
+import numpy as np
+
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table, number
 from .result import StabilityResult
 
+#: The grid's selection ratios and R-max multiples of the long R² (with the result's own).
+GRID_DELTAS = (0.5, 1.0, 2.0)
+GRID_R2_MAX = (1.1, 1.3, 1.5, 2.0)
+
+
+def caption(r: StabilityResult) -> str:
+    """The inputs in one line."""
+    variances = (
+        "given (exact roots)" if r.variances is not None else "not given (approximation only)"
+    )
+    return (
+        f"Inputs: treatment coefficient {number(r.estimate_short, 4)} without the controls "
+        f"(R² {number(r.r2_short, 3)}), {number(r.estimate_long, 4)} with them (R² "
+        f"{number(r.r2_long, 3)}); R-max {number(r.r2_max, 3)}; delta {r.delta:g}; target "
+        f"{r.target:g}; variances {variances}."
+    )
+
+
+def _axes(r: StabilityResult) -> tuple[list[float], list[float]]:
+    deltas = sorted({*GRID_DELTAS, float(r.delta)})
+    maxes = [min(1.0, k * r.r2_long) for k in GRID_R2_MAX]
+    maxes = [m for m in maxes if m > r.r2_long and abs(m - r.r2_max) > 5e-4]
+    return deltas, sorted({*maxes, float(r.r2_max)})
+
 
 def table(r: StabilityResult) -> Table:
-    short = f"{number(r.estimate_short, 4)} ({number(r.r2_short, 3)})"
-    long = f"{number(r.estimate_long, 4)} ({number(r.r2_long, 3)})"
-    rows = [
-        ("Coefficient: short regression (R²)", short),
-        ("Coefficient: with the controls (R²)", long),
-        ("R-max", number(r.r2_max, 3)),
-        (f"Bias-adjusted coefficient at delta {r.delta:g}, exact",
-         "-" if r.bias_adjusted is None else number(r.bias_adjusted, 4)),
-        (f"Bias-adjusted coefficient at delta {r.delta:g}, approximate",
-         number(r.bias_adjusted_approx, 4)),
-        (f"Delta that brings it to {r.target:g}, exact",
-         "-" if r.delta_for_target is None else number(r.delta_for_target, 3)),
-        (f"Delta that brings it to {r.target:g}, approximate",
-         number(r.delta_for_target_approx, 3)),
-    ]  # fmt: skip
-    if r.bias_adjusted_roots and len(r.bias_adjusted_roots) > 1:
-        rows.append(("Every real root (bias-adjusted)",
-                     ", ".join(number(x, 4) for x in r.bias_adjusted_roots)))  # fmt: skip
-    return Table(("Coefficient stability (Oster 2019)", "Value"), tuple(rows),
-                 title="Selection on unobservables proportional to observables")  # fmt: skip
+    """The bias-adjusted coefficient over delta x R-max; the result's own cell marked."""
+    from .core import adjusted_grid
+
+    deltas, maxes = _axes(r)
+    grid = adjusted_grid(r, np.array(deltas), np.array(maxes))
+    exact = r.variances is not None
+    rows = []
+    for i, d in enumerate(deltas):
+        cells = []
+        for j, m in enumerate(maxes):
+            value = grid["exact"][i, j] if exact else grid["approx"][i, j]
+            text = "no real root" if not np.isfinite(value) else number(float(value), 4)
+            if d == r.delta and m == r.r2_max:
+                text = f"[{text}]"
+            cells.append(text)
+        rows.append((f"{d:g}", *cells))
+    kind = "exact root nearest the estimate with the controls" if exact else "approximation"
+    foot = [
+        f"Cells: the bias-adjusted coefficient ({kind}); [ ]: delta {r.delta:g} at R-max "
+        f"{number(r.r2_max, 3)}, the values asked for.",
+    ]
+    d_exact = "-" if r.delta_for_target is None else number(r.delta_for_target, 3)
+    foot.append(
+        f"Delta that brings the coefficient to {r.target:g} at R-max {number(r.r2_max, 3)}: "
+        f"{d_exact} exact, {number(r.delta_for_target_approx, 3)} approximate. At delta "
+        f"{r.delta:g} and that R-max the approximation gives {number(r.bias_adjusted_approx, 4)}."
+    )
+    return Table(
+        ("delta \\ R-max", *(number(m, 3) for m in maxes)),
+        tuple(rows),
+        title="Bias-adjusted coefficient under proportional selection (Oster 2019)",
+        footnotes=tuple(foot),
+    )
+
+
+def root_note(r: StabilityResult) -> str | None:
+    """Extra real roots of the cubic at the result's delta and R-max, for a note."""
+    roots = r.bias_adjusted_roots or ()
+    if len(roots) < 2:
+        return None
+    return (
+        f"Other real roots at delta {r.delta:g} (bias-adjusted coefficients): "
+        + ", ".join(number(x, 4) for x in roots[1:])
+        + "."
+    )
 
 
 def sentence(r: StabilityResult) -> str:
@@ -57,8 +108,9 @@ def sentence(r: StabilityResult) -> str:
 
 def document(r: StabilityResult) -> Document:
     lead = sentence(r)
-    blocks: tuple[Block, ...] = (table(r), prose(lead, role="sentence"))
-    blocks += standard_tail(r.notes, r.cautions, (
+    notes = (*r.notes, note) if (note := root_note(r)) else r.notes
+    blocks: tuple[Block, ...] = (prose(caption(r)), table(r), prose(lead, role="sentence"))
+    blocks += standard_tail(notes, r.cautions, (
         "Proportional selection: the unobserved controls relate to the treatment in the "
         "same proportion (delta) as the observed ones, and they are orthogonal to them.",
         "Unadjusted R² throughout; the variances share one n or n - 1 convention.",
