@@ -137,8 +137,11 @@ def test_the_mistyped_evalue():
 @pytest.mark.parametrize(
     "args, expected",
     [
-        (["evalue", "rr", "2", "--ci", "1.5", "3", "--ci-level", "1.5"], "`--ci-level` must"),
-        (["evalue", "rr", "2", "--ci", "3", "1.5"], "`--ci` lower limit"),
+        (
+            ["evalue", "--scale", "rr", "--estimate", "2", "--ci", "1.5", "3", "--ci-level", "1.5"],
+            "`--ci-level` must",
+        ),
+        (["evalue", "--scale", "rr", "--estimate", "2", "--ci", "3", "1.5"], "`--ci` lower limit"),
         (["impact", "--t", "3", "--dof", "100", "--alpha", "2"], "`--alpha` must lie"),
     ],
 )

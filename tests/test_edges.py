@@ -275,7 +275,7 @@ def test_the_cli_never_exits_1_on_extremes(run, scale, value):
         data = json.loads(res.stdout)
         assert data["evalue"] is not None and data["rr"] is not None
     else:
-        assert res.stderr.startswith("Error: `estimate`") and res.stderr.count("\n") == 1
+        assert res.stderr.startswith("Error: `--estimate`") and res.stderr.count("\n") == 1
 
 
 def test_the_common_outcome_hazard_ratio_keeps_its_digits_at_extremes():

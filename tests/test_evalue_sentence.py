@@ -27,4 +27,6 @@ def test_a_pair_weaker_than_e_on_one_side_can_explain_it_away(rr):
         b = rr * (a - 1) / (a - rr)
         assert float(bounding_factor(a, b * 1.001)) >= rr
     sentence = " ".join(str(evalue("rr", rr)).split())
-    assert "on one of the two" in sentence and "least strength when the two" in sentence
+    # the sentence speaks of equal strengths only, and names the unequal pairs' table
+    assert "equal risk ratios" in sentence and "unequal pairs that could" in sentence
+    assert "each, beyond" not in sentence

@@ -31,7 +31,7 @@ CALLS = {
     "evalue": (s.evalue, ("rr", 2.0), {"ci": (1.5, 3.0)}),
     "evalue_md": (s.evalue, ("md", 0.035), {"se": 0.012, "sd": 14.0}),
     "partial_r2_summary": (s.partial_r2_summary, (0.5, 0.1, 100.0), {}),
-    "impact_threshold": (s.impact_threshold, (0.5, 0.1), {"dof": 100.0}),
+    "impact_threshold": (s.impact_threshold, (), {"estimate": 0.5, "se": 0.1, "dof": 100.0}),
     "coefficient_stability": (s.coefficient_stability, (0.5, 0.1, 0.4, 0.3),
                               {"var_outcome": 1.0, "var_treatment": 1.0,
                                "var_treatment_residual": 0.5}),

@@ -8,8 +8,9 @@ import pytest
 @pytest.mark.parametrize(
     "args",
     [
-        ("report", "smd", 1.38, "--ci", 1.12, 800),  # an infinite risk-ratio limit: axis NaN
-        ("report", "rr", 1.38, "--ci", 1.12, 1e300),  # overflow inside the log axis
+        # an infinite risk-ratio limit (axis NaN), and overflow inside the log axis
+        ("report", "--scale", "smd", "--estimate", 1.38, "--ci", 1.12, 800),
+        ("report", "--scale", "rr", "--estimate", 1.38, "--ci", 1.12, 1e300),
     ],
 )
 def test_extreme_but_legal_intervals_make_a_report_without_warnings(run, tmp_path, args):

@@ -74,12 +74,12 @@ def test_a_level_outside_the_stated_range_is_refused(bad):
 
 
 def test_evalue_prints_a_97_5_percent_interval_as_such(run):
-    res = run("evalue", "rr", 2, "--ci", 1.5, 3, "--ci-level", 0.975)
+    res = run("evalue", "--scale", "rr", "--estimate", 2, "--ci", 1.5, 3, "--ci-level", 0.975)
     assert res.exit_code == 0 and "97.5% CI" in res.stdout and "98% CI" not in res.stdout
 
 
 def test_a_risk_difference_with_no_control_cases_says_no_finite_strength(run):
-    res = run("evalue", "rd", "--counts", 10, 100, 0, 100)
+    res = run("evalue", "--scale", "rd", "--counts", 10, 100, 0, 100)
     assert res.exit_code == 0
     text = " ".join(res.stdout.split())
     assert "no unmeasured confounder of any finite strength could explain it away" in text

@@ -162,6 +162,16 @@ def require_scalar(value: object, name: str, *rules: Rule) -> float:
     return float(arr.reshape(-1)[0])
 
 
+def require_seed(value: object, name: str = "seed") -> int | None:
+    """A random seed: None, or a whole number from 0 to 2^63 - 1 (numpy refuses the rest)."""
+    if value is None:
+        return None
+    v = require_scalar(value, name)
+    if v < 0 or v != int(v) or v >= 2**63:
+        raise InputError(f"`{name}` must be a whole number from 0 to 2^63 - 1; got {v:g}")
+    return int(v)
+
+
 def check_pair(value: object, name: str = "ci") -> tuple[object, object] | None:
     """A (lower, upper) pair as given, or None; InputError for anything else (a number, a
     string, a one-element or three-element sequence)."""

@@ -29,7 +29,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..common import levels
-from ..common.checks import POSITIVE, require
+from ..common.checks import POSITIVE, require_scalar
 from ..common.errors import InputError
 from .result import ImpactResult
 
@@ -85,22 +85,22 @@ def impact_threshold(
     if t is not None and se is not None:
         raise InputError("give `se` or `t`, not both")
     if se is not None:
-        se = float(require(se, "se", POSITIVE))
-        estimate = float(require(estimate, "estimate"))
+        se = float(require_scalar(se, "se", POSITIVE))
+        estimate = float(require_scalar(estimate, "estimate"))
         with np.errstate(over="ignore", under="ignore"):
             t = float(np.float64(estimate) / se)
         if not np.isfinite(t):
             raise InputError(
                 f"`estimate` / `se` must be a finite t statistic; got {estimate:g} / {se:g}"
             )
-    t = float(require(t, "t"))
+    t = float(require_scalar(t, "t"))
     if dof is not None and (n is not None or covariates is not None):
         raise InputError("give `dof`, or `n` and `covariates`, not both")
     if dof is None:
         if n is None or covariates is None:
             raise InputError("give `n` and `covariates` (or `dof`)")
-        n = int(require(n, "n", POSITIVE))
-        covariates = int(require(covariates, "covariates"))
+        n = int(require_scalar(n, "n", POSITIVE))
+        covariates = int(require_scalar(covariates, "covariates"))
         if covariates < 0:
             raise InputError(f"`covariates` must be 0 or more; got {covariates}")
         if covariates + 2 >= n:
@@ -110,7 +110,7 @@ def impact_threshold(
                 f"got n = {n}"
             )
         dof = float(n - covariates - 2)
-    dof = float(require(dof, "dof", POSITIVE))
+    dof = float(require_scalar(dof, "dof", POSITIVE))
     t_crit = float(levels.t_critical(alpha, dof))
     if not np.isfinite(t_crit):
         raise InputError(

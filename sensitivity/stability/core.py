@@ -296,7 +296,9 @@ def adjusted_grid(
     b0, b1, r0, r1 = result.estimate_short, result.estimate_long, result.r2_short, result.r2_long
     d = np.asarray(deltas, float)[:, None]
     m = np.asarray(r2_maxes, float)[None, :]
-    approx = b1 - d * (b0 - b1) * (m - r1) / (r1 - r0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        approx = b1 - d * (b0 - b1) * (m - r1) / (r1 - r0)
+    approx = np.where(np.isfinite(approx), approx, np.nan)  # beyond a double: not shown
     exact = np.full(approx.shape, np.nan)
     if result.variances is not None:
         s_y2, s_x2, tau = result.variances
