@@ -6,7 +6,8 @@ Public API (imported lazily, so `import sensitivity` costs almost nothing):
   on any scale, vectorised over rows (scales may differ per row); `evalue_from_text`: one
   result as published ("HR 0.72 (95% CI 0.60-0.86)").
 - `partial_r2_summary`, `partial_r2_from_model`, `partial_r2_from_data`: omitted-variable
-  bias in the partial R² parameterisation for an OLS coefficient.
+  bias in the partial R² parameterisation for an OLS coefficient; `published_benchmark`,
+  `with_published_benchmarks`: benchmarks from a paper's published numbers.
 - `binary_confounder_grid`, `bounding_grid`, `partial_r2_grid`: tipping-point grids.
 - `screen_table`, `screen_batches`, `screen_frames`, `screen_summary`: many published
   results at once (a pandas, polars or Arrow table, or a stream of Arrow record batches or
@@ -38,6 +39,8 @@ _EXPORTS = {
     "partial_r2_summary": "partial_r2",
     "PartialR2Result": "partial_r2",
     "robustness_value_of_t": "partial_r2",
+    "published_benchmark": "partial_r2",
+    "with_published_benchmarks": "partial_r2",
     "partial_r2_from_model": "adapters.statsmodels",
     "partial_r2_from_data": "adapters.statsmodels",
     "binary_confounder_grid": "tipping",

@@ -83,10 +83,11 @@ def report(results: Any, folder: str | Path, *, treatment: str | None = None,
     return write_report(chosen, folder, _call(chosen))
 
 
-def results_from_table(path: str | Path) -> list[tuple[str, Any]]:
+def results_from_table(path: str | Path, *, ci_level: float = 0.95) -> list[tuple[str, Any]]:
     """Labelled results from a table of estimates (the screen's columns plus a `label`),
     strictly: a row that cannot be computed stops with its reason (a report states every
-    estimate or none). A regression row with `se` and `dof` brings its partial-R² result."""
+    estimate or none). A regression row with `se` and `dof` brings its partial-R² result.
+    `ci_level` is the level of the table's intervals (and 1 - alpha of the partial R²)."""
     from dataclasses import replace
 
     import numpy as np
@@ -119,11 +120,12 @@ def results_from_table(path: str | Path) -> list[tuple[str, Any]]:
                    for k2 in ("se", "sd", "prevalence", "contrast", "target", "dof")}  # fmt: skip
             res = evalue(scale, float(row["estimate"]), ci, se=num["se"], sd=num["sd"],
                          outcome=cell(row, "outcome"), prevalence=num["prevalence"],
-                         contrast=num["contrast"] or 1.0, target=num["target"])  # fmt: skip
+                         contrast=num["contrast"] or 1.0, target=num["target"],
+                         ci_level=ci_level)  # fmt: skip
             pr2 = None
             if scale == "md" and num["dof"] is not None and num["se"] is not None:
                 pr2 = partial_r2_summary(float(row["estimate"]), num["se"], num["dof"],
-                                         sd_outcome=num["sd"])  # fmt: skip
+                                         sd_outcome=num["sd"], alpha=1 - ci_level)  # fmt: skip
         except (InputError, ValueError, TypeError) as err:
             raise InputError(f"`estimates` row {k} ({label}): {err}") from None
         items.append((label, res if pr2 is None else replace(pr2, evalue=res)))

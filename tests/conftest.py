@@ -1,4 +1,5 @@
 import csv
+import shutil
 from pathlib import Path
 
 import pytest
@@ -38,3 +39,25 @@ def run():
         return runner.invoke(cli, [str(a) for a in args], catch_exceptions=False)
 
     return invoke
+
+
+@pytest.fixture(scope="session")
+def spark():
+    """One local Spark session (two cores) for every test that asks for it (issue 25)."""
+    if shutil.which("java") is None:
+        pytest.skip("Spark needs Java (17) on the PATH; none found")
+    pytest.importorskip("pyspark", reason="the spark extra is not installed")
+    import os
+    import sys
+
+    os.environ.setdefault("PYSPARK_PYTHON", sys.executable)
+    from pyspark.sql import SparkSession
+
+    session = (
+        SparkSession.builder.master("local[2]").appName("sensitivity-tests")
+        .config("spark.ui.enabled", "false").config("spark.ui.showConsoleProgress", "false")
+        .config("spark.sql.shuffle.partitions", "2").getOrCreate()
+    )  # fmt: skip
+    session.sparkContext.setLogLevel("ERROR")
+    yield session
+    session.stop()

@@ -216,7 +216,7 @@ def test_capped_benchmark_warns_on_one_line(run, tmp_path):
         (("partial-r2",), "Error: give --estimate, --se (or --t) and --dof, or --data"),
         (
             ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--benchmark", "age"),
-            "Error: --benchmark needs data input",
+            "Error: --benchmark needs data input (--data); from a paper's tables give",
         ),
         (
             ("partial-r2", "--estimate", 1, "--se", 0.1, "--dof", 50, "--plot", "x.jpg"),

@@ -345,3 +345,24 @@ def test_any_small_table_equals_statsmodels(n, k, levels, missing, batch, seed):
         assert mine.name == theirs.name
         assert mine.r2_outcome == pytest.approx(theirs.r2_outcome, rel=1e-7, abs=1e-12)
         assert mine.r2_treatment == pytest.approx(theirs.r2_treatment, rel=1e-7, abs=1e-12)
+
+
+@pytest.mark.parametrize("kind", ["text", "number"])
+def test_a_first_batch_whose_category_is_all_missing(kind):
+    # Found by the property above (hypothesis, n=42, batch=1): a first piece whose category
+    # cell is missing has no level yet; the row is dropped, not an internal error.
+    rng = np.random.default_rng(115)
+    frame = pd.DataFrame({"t": rng.normal(size=30), "x": rng.normal(size=30)})
+    frame["y"] = frame["t"] + rng.normal(size=30)
+    levels = np.array(["a", "b", "c"] * 10, dtype=object) if kind == "text" else np.tile(
+        [1.0, 2.0, 3.0], 10)  # fmt: skip
+    levels[0] = None if kind == "text" else np.nan
+    frame["g"] = levels
+    fit = smf.ols("y ~ t + x + C(g)", data=frame).fit()
+    batches.BATCH_ROWS, before = 1, batches.BATCH_ROWS
+    try:
+        got = partial_r2_one_pass(frame, "y ~ t + x + C(g)", "t")
+    finally:
+        batches.BATCH_ROWS = before
+    assert float(got.estimate) == pytest.approx(fit.params["t"], rel=1e-8)
+    assert float(got.se) == pytest.approx(fit.bse["t"], rel=1e-8)

@@ -10,9 +10,14 @@ def from_model(results: Any, treatment: str, **options: Any) -> Any:
     the E-value on the fit's own scale for logistic, log-binomial, Poisson, negative binomial
     and Cox fits (statsmodels, or lifelines' CoxPHFitter); partial R² for linearmodels
     PanelOLS and PooledOLS fits (absorbed entity and time effects) and pyfixest
-    `feols` fits (absorbed fixed effects)."""
+    `feols` fits (absorbed fixed effects); Spark ML GeneralizedLinearRegression (binomial
+    logit, Poisson log, Gaussian) and LinearRegression models (`sparkml.py`)."""
     from .models import evalue_from_model, model_kind
 
+    if type(results).__module__.startswith("pyspark.ml"):
+        from .sparkml import from_spark_model
+
+        return from_spark_model(results, treatment, **options)
     if type(results).__module__.startswith("linearmodels."):
         from .linearmodels import partial_r2_from_linearmodels
 

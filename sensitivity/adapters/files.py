@@ -73,12 +73,13 @@ def checked_file(path: str | Path, argument: str) -> tuple[Path, str]:
 class Share:
     """How far into a file each frame `read_frames` yields ends, from 0 to 1, in order: a
     consumer that takes one per frame it has finished knows its own progress, however far
-    ahead the reading runs."""
+    ahead the reading runs. `delimiter`: the one a text file was read with (once known)."""
 
     def __init__(self) -> None:
         from collections import deque
 
         self.ends: deque[float] = deque()
+        self.delimiter: str | None = None
 
     def add(self, end: float) -> None:
         self.ends.append(end)
@@ -88,22 +89,94 @@ class Share:
         return self.ends.popleft() if self.ends else 1.0
 
 
+DELIMITERS = {",": ",", ";": ";", "tab": "\t", "\t": "\t"}
+
+
+def sniff_delimiter(path: str | Path, fallback: str = ",") -> str:
+    """The delimiter of a text table: ';' for a European file (more ';' than ',' in the
+    header, and the same number of ';' on each of the first lines), else `fallback`."""
+    with open(path, "rb") as fh:
+        lines = [fh.readline() for _ in range(6)]
+    lines = [line.lstrip(b"\xef\xbb\xbf").rstrip(b"\r\n") for line in lines if line.strip()]
+    if not lines or lines[0].count(b'"') % 2:
+        return fallback
+    semicolons = [_outside_quotes(line, b";") for line in lines]
+    if semicolons[0] > _outside_quotes(lines[0], b",") and len(set(semicolons)) == 1:
+        return ";"
+    return fallback
+
+
+def text_delimiter(path: Path, kind: str, delimiter: str = "auto") -> str:
+    """The delimiter a text table is read with: the one given, or for "auto" the extension's
+    (',' for .csv, tab for .tsv), with a .csv file that has ';' between cells found."""
+    if delimiter != "auto":
+        return DELIMITERS[delimiter]
+    return sniff_delimiter(path) if kind == "csv" else "\t"
+
+
+def resolve_delimiter(path: str | Path, delimiter: str = "auto", argument: str = "file") -> str:
+    """For a command, before reading: the file checked, and the delimiter a text file will be
+    read with ("" for Excel and Parquet)."""
+    if delimiter != "auto" and delimiter not in DELIMITERS:
+        raise InputError(f"`delimiter` must be auto, ',', ';' or tab; got {delimiter!r}")
+    p, kind = checked_file(path, argument)
+    return text_delimiter(p, kind, delimiter) if kind in ("csv", "tsv") else ""
+
+
+def text_types(path: str | Path, delimiter: str) -> dict[str, Any]:
+    """The type of each column of a text table, inferred by polars from the whole file:
+    Int64 or Float64 where every cell is a number (a decimal comma read as one in a file with
+    ';' between cells), String otherwise. A scan: the file is read, not held."""
+    import polars as pl
+
+    scan = pl.scan_csv(path, separator=delimiter, infer_schema_length=None,
+                       decimal_comma=delimiter == ";")  # fmt: skip
+    return dict(scan.collect_schema())
+
+
+def with_types(frame: Any, types: dict[str, Any]) -> Any:
+    """Text columns of `frame` cast to `types` (blank cells missing); others as they are."""
+    import polars as pl
+
+    casts = []
+    for name, dtype in types.items():
+        if name not in frame.columns or frame.schema[name] != pl.String or dtype == pl.String:
+            continue
+        cell = pl.col(name).str.strip_chars()
+        if dtype.is_float():
+            cell = cell.str.replace(r"^([-+]?[0-9]*),([0-9]+(?:[eE][-+]?[0-9]+)?)$", r"${1}.${2}")
+        typed = pl.when(cell == "").then(None).otherwise(cell).cast(dtype, strict=False)
+        casts.append(typed.alias(name))
+    return frame.with_columns(casts) if casts else frame
+
+
+def _outside_quotes(line: bytes, mark: bytes) -> int:
+    parts = line.split(b'"')
+    return sum(part.count(mark) for part in parts[::2])
+
+
 def read_frames(path: str | Path, argument: str = "file", batch_rows: int = BATCH_ROWS,
-                share: Share | None = None) -> Any:  # fmt: skip
+                share: Share | None = None, delimiter: str = "auto") -> Any:  # fmt: skip
     """The rows of a table file as polars DataFrames, a piece of the file at a time.
 
     CSV and TSV cells are read as text, so every cell is echoed exactly as the file holds
     it; Parquet keeps its column types; Excel is read whole (its sheets are small). `share`,
-    if given, is kept up to date with the part of the file read so far (for a progress bar).
+    if given, is kept up to date with the part of the file read so far (for a progress bar)
+    and told the text file's delimiter. `delimiter`: "auto" (a .csv file with ';' between
+    cells is found by `sniff_delimiter`), ",", ";" or "tab".
     """
     import polars as pl
 
     share = share or Share()
     p, kind = checked_file(path, argument)
+    if delimiter != "auto" and delimiter not in DELIMITERS:
+        raise InputError(f"`delimiter` must be auto, ',', ';' or tab; got {delimiter!r}")
     try:
         if kind in ("csv", "tsv"):
             size = p.stat().st_size
-            for frame, end in _text_frames(p, "," if kind == "csv" else "\t", argument):
+            mark = text_delimiter(p, kind, delimiter)
+            share.delimiter = mark
+            for frame, end in _text_frames(p, mark, argument):
                 share.add(end / size)
                 yield frame
         elif kind == "parquet":
@@ -127,7 +200,10 @@ def read_frames(path: str | Path, argument: str = "file", batch_rows: int = BATC
         raise InputError(f"`{argument}`: reading {kind} needs an optional package: {err}") from None
     except Exception as err:  # noqa: BLE001 - a parser failure is the file's, not ours
         first = str(err).strip().splitlines()[0] if str(err).strip() else type(err).__name__
-        raise InputError(f"`{argument}`: could not read {path} as {kind}: {first}") from None
+        hint = ""
+        if share.delimiter not in (None, ";") and sniff_delimiter(p, "") == ";":
+            hint = " (its cells look separated by ';': try --delimiter ';')"
+        raise InputError(f"`{argument}`: could not read {path} as {kind}: {first}{hint}") from None
 
 
 def text_header(path: Path, delimiter: str, argument: str) -> list[str]:

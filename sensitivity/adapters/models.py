@@ -17,6 +17,15 @@ import numpy as np
 from ..common.errors import InputError, SensitivityWarning
 from ..evalues.core import evalue
 from ..evalues.result import EValueResult
+from .errors import (
+    check_errors,
+    cluster_groups,
+    default_errors,
+    is_binary,
+    parse_errors,
+    robust_refit,
+    used_by,
+)
 
 KINDS = ("ols", "logit", "poisson", "negbin", "cox")
 SHOWN = {"logit": "logistic", "log-binomial": "log-binomial", "poisson": "Poisson",
@@ -170,9 +179,15 @@ def evalue_from_model(
     else:
         share, n = float(np.mean(y > 0)), len(y)
     notes = []
-    cov = getattr(results, "cov_type", "nonrobust")
-    if cov != "nonrobust":
-        notes.append(f"The interval is the fit's own, from its {cov} covariance.")
+    code, words = used_by(results)
+    notes.append(f"The {1 - alpha:.0%} interval is the fit's own, from its {words}.")
+    if code == "classical" and kind == "poisson" and is_binary(y):
+        _warn(
+            f"a {SHOWN[kind]} fit of a 0/1 outcome with model-based errors: for a risk ratio "
+            "from such a fit (modified Poisson, Zou 2004) robust errors are the usual choice; "
+            "refit with cov_type='HC0' (or --errors hc0 on the data route)",
+            notes,
+        )
     freq = outcome
     prevalence = None
     if freq is None and scale in ("or", "hr"):
@@ -197,7 +212,8 @@ def evalue_from_model(
         f"From a fitted {SHOWN[kind]} model (n = {n:,}): {what} exp(b){per} = {est:.4g}; the "
         f"outcome occurs in {share:.1%} of the model's data.",
     )
-    info = {"kind": kind, "n": n, "outcome_share": share, "treatment": treatment}
+    info = {"kind": kind, "n": n, "outcome_share": share, "treatment": treatment,
+            "errors": code}  # fmt: skip
     exog = np.asarray(model.exog, float)
     others = [i for i in range(exog.shape[1]) if i != j]
     ov = overlap(exog[:, j], exog[:, others]) if others else None
@@ -239,16 +255,28 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
         f"From a fitted Cox model (lifelines, n = {len(events):,}): hazard ratio {est:.4g}; "
         f"the event occurs in {share:.1%} of the data."
     )
-    info = {"kind": "cox", "n": len(events), "outcome_share": share, "treatment": treatment}
-    return replace(res, notes=(note, *res.notes), model=info)
+    code, words = used_by(fitter)
+    errors = f"The {1 - alpha:.0%} interval is from the fit's {words}."
+    info = {"kind": "cox", "n": len(events), "outcome_share": share, "treatment": treatment,
+            "errors": code}  # fmt: skip
+    return replace(res, notes=(note, errors, *res.notes), model=info)
 
 
-def fit(data: Any, formula: str, model: str, event: str | None = None) -> Any:
+def fit(
+    data: Any, formula: str, model: str, event: str | None = None, errors: str | None = None
+) -> Any:
     """Fit `formula` on a DataFrame with the statsmodels model `model` names; InputError for
     a formula, outcome or event the fit cannot use, a model that does not converge, and
-    perfect separation."""
+    perfect separation.
+
+    `errors` (classical, hc0-hc3, cluster:COL; see `adapters.errors`) chooses the standard
+    errors; by default hc0 for a Poisson fit of a 0/1 outcome and classical otherwise.
+    """
     import statsmodels.formula.api as smf
 
+    if errors is not None:
+        kind, column = parse_errors(errors)
+        check_errors(model, kind)
     if model not in KINDS:
         raise InputError(f"`model` must be one of {', '.join(KINDS)}; got {model!r}")
     if model == "cox" and event is None:
@@ -283,7 +311,16 @@ def fit(data: Any, formula: str, model: str, event: str | None = None) -> Any:
                 f"`formula` {formula!r} could not be fitted ({model}): {text[:240]}"
             ) from None
     _converged(results)
-    return results
+    if errors is None:
+        kind, column = default_errors(model, results.model.endog), None
+    if kind == "classical":
+        return results
+    if model == "cox" and kind not in ("hc0", "cluster"):
+        raise InputError(f"`errors` {kind}: a Cox fit takes classical, hc0 or cluster:COLUMN")
+    groups = cluster_groups(data, results, column) if column else None
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # the refit starts at the first fit's estimate
+        return robust_refit(results, model, kind, groups)
 
 
 def evalue_from_data(
@@ -296,11 +333,15 @@ def evalue_from_data(
     contrast: float = 1.0,
     alpha: float = 0.05,
     outcome: str | None = None,
+    errors: str | None = None,
 ) -> EValueResult:
     """Fit `model` on `data` (a DataFrame or a file) and give the E-value of `treatment`.
 
     ``ols`` gives the E-value of the coefficient through the standardized difference (the
-    outcome's SD from the data); the others as `evalue_from_model`.
+    outcome's SD from the data); the others as `evalue_from_model`. `errors` chooses the
+    standard errors (classical, hc0, hc1, hc2, hc3 or cluster:COLUMN; hc1-hc3 for ols only;
+    by default hc0 for a Poisson fit of a 0/1 outcome, classical otherwise); the notes and
+    ``model["errors"]`` name them.
     """
     from dataclasses import replace
 
@@ -311,7 +352,7 @@ def evalue_from_data(
 
         data = read_table(data, "data")
     check_names(data, formula, treatment)
-    results = fit(data, formula, model, event)
+    results = fit(data, formula, model, event, errors)
     if model != "ols":
         return evalue_from_model(results, treatment, contrast=contrast, alpha=alpha,
                                  outcome=outcome)  # fmt: skip
@@ -320,11 +361,13 @@ def evalue_from_data(
     y = np.asarray(results.model.endog, float)
     sd = float(np.std(y, ddof=1))
     b, se = float(np.asarray(results.params)[j]), float(np.asarray(results.bse)[j])
-    res = evalue("md", b, se=se, sd=sd, contrast=contrast)
-    info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment}
+    res = evalue("md", b, se=se, sd=sd, contrast=contrast)  # its interval: the 95% one
+    code, words = used_by(results)
+    info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment,
+            "errors": code}  # fmt: skip
     note = (
         f"From a fitted OLS model (n = {int(results.nobs):,}): coefficient {b:.4g} (se "
-        f"{se:.3g}); the outcome's SD in the data is {sd:.4g}."
+        f"{se:.3g}, from {words}); the outcome's SD in the data is {sd:.4g}."
     )
     return replace(res, notes=(note, *res.notes), model=info)
 

@@ -34,9 +34,9 @@ from ..common.errors import InputError
 from ..partial_r2.result import CovariateStrength, PartialR2Result
 from .batches import BATCH_ROWS, file_source, frame_source
 from .design import check_names, find_treatment, no_interaction, partial_r2_from_parts
-from .rfactor import TriangularFactor, patsy_design, plain_design, plain_terms, r_of
+from .rfactor import Design, TriangularFactor, patsy_design, plain_design, plain_terms, r_of
 
-__all__ = ["BATCH_ROWS", "TriangularFactor", "partial_r2_one_pass"]
+__all__ = ["BATCH_ROWS", "TriangularFactor", "partial_r2_of_design", "partial_r2_one_pass"]
 
 
 # --------------------------------------------------------------------------- the regressions
@@ -92,6 +92,14 @@ def partial_r2_one_pass(data: Any, formula: str, treatment: str, **options: Any
         design = plain_design(source, *plain, progress)
     else:
         design = patsy_design(source, formula, progress)
+    return partial_r2_of_design(design, formula, treatment, **options)
+
+
+def partial_r2_of_design(design: Design, formula: str, treatment: str, **options: Any
+                         ) -> PartialR2Result:  # fmt: skip
+    """The finish of the one-pass route, from the design a pass (or a combine of partitions'
+    factors, `partials.py`) found: the rank, the treatment's coefficient and every covariate's
+    partial R². Options are those of `partial_r2_from_model`."""
     if design.used == 0:
         raise InputError("`data`: no row has a value in every column the formula uses")
     names = design.names

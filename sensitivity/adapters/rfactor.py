@@ -247,6 +247,8 @@ def _level_codes(term: Term, values: Any, kind: str) -> np.ndarray:
         present = values[~np.isnan(values)]
         seen = np.asarray(term.levels, float)
         term.levels += np.setdiff1d(np.unique(present), seen).tolist()
+        if not term.levels:  # nothing met yet, and every cell of this batch missing
+            return np.full(len(values), -1, np.int64)
         table = np.asarray(term.levels, float)
         order = np.argsort(table)
         at = np.minimum(np.searchsorted(table[order], values), len(table) - 1)
@@ -266,6 +268,8 @@ def _level_codes(term: Term, values: Any, kind: str) -> np.ndarray:
             raise InputError(f"`data`: column {term.column!r} has more than {MAX_LEVELS:,} "
                              "distinct values to code as categories")  # fmt: skip
         codes = pc.index_in(values, value_set=term.table)
+    if codes is None:  # nothing met yet, and every cell of this batch missing
+        return np.full(len(values), -1, np.int64)
     import polars as pl
 
     return pl.Series(values=codes).fill_null(-1).to_numpy().astype(np.int64)

@@ -198,13 +198,17 @@ def fit_formula(data: Any, formula: str) -> tuple[Any, list[str]]:
 def partial_r2_from_data(
     data: Any, formula: str, treatment: str, **options: Any
 ) -> PartialR2Result:
-    """Fit `formula` by OLS on `data` (a DataFrame or a file path) and analyse `treatment`.
+    """Fit `formula` by OLS on `data` and analyse `treatment`.
 
-    Categorical covariates (strings or ``C(x)``) work and benchmark as one group. Options are
-    those of `partial_r2_from_model`. The data are read once, in batches, into the R factor
-    of the design's QR decomposition (`sensitivity.adapters.onepass`): the numbers equal a
+    `data`: a DataFrame, a file path, a Parquet dataset folder, or a Spark or Dask DataFrame
+    (run on its own engine; `engine="dask"` or `"spark"` opens a Parquet path with that
+    engine). Categorical covariates (strings or ``C(x)``) work and benchmark as one group.
+    Options are those of `partial_r2_from_model`, with `progress` (called with the rows read,
+    or on Spark and Dask with the partitions done and their number). The data are read once,
+    in batches (on an engine, a partition at a time), into the R factor of the design's QR
+    decomposition (`sensitivity.adapters.onepass`, `engines`): the numbers equal a
     statsmodels fit's, in memory that does not grow with the number of rows.
     """
-    from .onepass import partial_r2_one_pass
+    from .engines import partial_r2_engine
 
-    return partial_r2_one_pass(data, formula, treatment, **options)
+    return partial_r2_engine(data, formula, treatment, **options)

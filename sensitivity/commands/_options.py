@@ -312,6 +312,34 @@ def model_option(help_text: str, default: str | None = None) -> Callable:
     )
 
 
+ERRORS_HELP = (
+    "Data input: the standard errors of the fit: classical, hc0, hc1, hc2, hc3 (hc1-hc3 for "
+    "ols only) or cluster:COLUMN. Default: hc0 for a poisson fit of a 0/1 outcome (modified "
+    "Poisson, Zou 2004), classical otherwise. The output names the choice."
+)
+
+
+def errors_option(f: Callable) -> Callable:
+    """--errors: the standard errors of a fit made from data."""
+    return click.option("--errors", metavar="TYPE", default=None, help=ERRORS_HELP)(f)
+
+
+ENGINES = ("local", "dask", "spark")
+
+
+def engine_option(what: str) -> Callable:
+    """`--engine local|dask|spark`: where a Parquet dataset folder is read."""
+    return click.option(
+        "--engine",
+        type=click.Choice(ENGINES),
+        default="local",
+        show_default=True,
+        help=f"Where {what} runs: on this machine, or on Dask or Spark (Parquet file or "
+        "dataset folder; needs the dask or spark extra). Spark runs where spark-submit "
+        "points it, else locally; Dask on DASK_SCHEDULER_ADDRESS if set, else threads here.",
+    )
+
+
 def exclusive(*options: tuple[str, object]) -> None:
     """A usage error naming both options when two that cannot go together are given."""
     given = [name for name, value in options if value is not None]

@@ -12,6 +12,7 @@ from ._options import (
     Command,
     confounder_option,
     emit,
+    errors_option,
     exclusive,
     format_options,
     model_option,
@@ -44,6 +45,7 @@ SHORT_HELP = COMMANDS["evalue"][1]
     "Data input: the fit, which decides the scale (cox: time on the formula's left side)."
 )
 @click.option("--event", help="Data input with --model cox: the column that is 1 for an event.")
+@errors_option
 @click.option("--se", type=float, default=None, help="Standard error (smd and md).")
 @click.option(
     "--sd",
@@ -105,6 +107,7 @@ def evalue_cmd(
     treatment: Any,
     model_kind: Any,
     event: Any,
+    errors: Any,
     se: Any,
     sd: Any,
     contrast: Any,
@@ -169,12 +172,15 @@ def evalue_cmd(
 
         show_warnings()
         result = evalue_from_data(data, formula, treatment, model_kind, event=event,
-                                  contrast=contrast, outcome=outcome)  # fmt: skip
+                                  contrast=contrast, outcome=outcome, errors=errors,
+                                  alpha=1 - (0.95 if ci_level is None else ci_level))  # fmt: skip
         _finish(result, confounders, fmt, outputs, plots, plot_limits,
                 with_selection, with_misclassification)  # fmt: skip
         return
     if event is not None:
         raise click.UsageError("--event applies to data input with --model cox")
+    if errors is not None:
+        raise click.UsageError("--errors applies to data input (--data ... --model)")
     if scale == "rd" or counts:
         if scale != "rd" or route is not None or not counts:
             raise click.UsageError(

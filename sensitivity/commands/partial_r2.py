@@ -12,6 +12,7 @@ from sensitivity.common.errors import InputError
 from ._options import (
     Command,
     emit,
+    engine_option,
     exclusive,
     format_options,
     model_option,
@@ -30,10 +31,13 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
     "--dof", type=float, help="Summary input: residual degrees of freedom (n - coefficients)."
 )
 @click.option(
-    "--data", type=click.Path(dir_okay=False), help="Data input: CSV, TSV, Excel or Parquet file."
+    "--data",
+    type=click.Path(),
+    help="Data input: CSV, TSV, Excel or Parquet file, or a Parquet dataset folder.",
 )
 @click.option("--formula", help='Data input: OLS formula, e.g. "y ~ t + x1 + C(region)".')
 @click.option("--treatment", help="Data input: the treatment's name in the formula.")
+@engine_option("the pass over --data")
 @model_option("Data input: the fit. Partial-R² bounds need ols; the others go to `evalue`.", "ols")
 @click.option(
     "--reduce-by",
@@ -52,6 +56,18 @@ SHORT_HELP = COMMANDS["partial-r2"][1]
     help="Data input, repeatable: a measured covariate to compare with, and how many times "
     "its strength the confounder has (smoker, smoker:2, or smoker:1:3 for the treatment's "
     "and the outcome's multiples; default 1).",
+)
+@click.option(
+    "--benchmark-r2",
+    "benchmark_r2",
+    nargs=3,
+    multiple=True,
+    metavar="NAME[:K[:K_OUTCOME]] R2_TREATMENT R2_OUTCOME",
+    help="A benchmark from a paper's published numbers (repeatable; summary or data input): "
+    "each side a partial R², or t:T:DOF, its t statistic and that model's degrees of freedom "
+    "(t:T on the outcome side uses --dof). R² = t²/(t² + dof). NAME:K sets the multiple "
+    "(NAME:1:3 the two sides'), as for --benchmark. A treatment side not published may be "
+    "written assumed:R2, and the output states the assumption.",
 )
 @click.option(
     "--r2-treatment",
@@ -83,10 +99,12 @@ def partial_r2_cmd(
     data: Any,
     formula: Any,
     treatment: Any,
+    engine: Any,
     model_kind: Any,
     reduce_by: Any,
     alpha: Any,
     benchmarks: Any,
+    benchmark_r2: Any,
     r2_treatment: Any,
     r2_outcome: Any,
     sd: Any,
@@ -109,6 +127,11 @@ def partial_r2_cmd(
       sensitivity partial-r2 --data demo/harbourside_bp.csv \\
           --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
           --treatment commute_min --benchmark smoker --benchmark smoker:2 --plot contours.png
+      sensitivity partial-r2 --estimate 0.114 --se 0.027 --dof 1192 \\
+          --benchmark-r2 smoker t:6.1:1193 t:3.9 --benchmark-r2 smoker:2 t:6.1:1193 t:3.9
+      sensitivity partial-r2 --data demo/harbourside_bp_parquet --engine dask \\
+          --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
+          --treatment commute_min
     """
     show_warnings()
     exclusive(("--se", se), ("--t", t_stat))
@@ -136,6 +159,8 @@ def partial_r2_cmd(
         raise click.UsageError(
             "give --estimate, --se (or --t) and --dof, or --data, --formula and --treatment"
         )
+    if engine != "local" and not data_given:
+        raise click.UsageError("--engine applies to data input (--data)")
     r2t = list(r2_treatment) or None
     r2y = list(r2_outcome) or None
     if data_given:
@@ -151,8 +176,11 @@ def partial_r2_cmd(
 
         from sensitivity.adapters.statsmodels import partial_r2_from_data
 
-        def progress(rows: int) -> None:
-            click.echo(f"\rread {rows:,} rows", err=True, nl=False)
+        tty = sys.stderr.isatty()
+
+        def progress(done: int, total: int | None = None) -> None:
+            text = f"read {done:,} rows" if total is None else f"{done:,} of {total:,} partitions"
+            click.echo("\r" + text if tty else text, err=True, nl=not tty)
 
         result = partial_r2_from_data(
             data,
@@ -164,13 +192,17 @@ def partial_r2_cmd(
             r2_treatment=r2t,
             r2_outcome=r2y,
             contrast=contrast,
-            progress=progress if sys.stderr.isatty() else None,
+            engine=engine,
+            progress=progress if sys.stderr.isatty() or engine != "local" else None,
         )
-        if sys.stderr.isatty():
+        if tty:
             click.echo("", err=True)
     else:
         if benchmarks:
-            raise click.UsageError("--benchmark needs data input (--data)")
+            raise click.UsageError(
+                "--benchmark needs data input (--data); from a paper's tables give the "
+                "covariate's published numbers with --benchmark-r2 NAME R2_TREATMENT R2_OUTCOME"
+            )
         if estimate is None:
             raise click.UsageError("summary input needs --estimate")
         if dof is None:
@@ -189,6 +221,10 @@ def partial_r2_cmd(
             contrast=contrast,
             sd_outcome=sd,
         )
+    if benchmark_r2:
+        from sensitivity.partial_r2.published import apply_text_benchmarks
+
+        result = apply_text_benchmarks(result, benchmark_r2)
     emit(result, fmt, outputs)
     if plots:
         from sensitivity.partial_r2.figures import partial_r2_contours

@@ -12,6 +12,8 @@ from sensitivity.commands import COMMANDS
 from . import _options
 from ._options import (
     Command,
+    confounder_option,
+    errors_option,
     model_option,
     outcome_frequency_option,
     published_options,
@@ -40,15 +42,33 @@ SHORT_HELP = COMMANDS["report"][1]
 @click.option("--treatment", help="Data input: the treatment's coefficient name.")
 @model_option("Data input: the fit.")
 @click.option("--event", help="Data input with --model cox: the event column.")
+@errors_option
 @click.option("--contrast", type=float, default=1.0, show_default=True,
               help="A continuous treatment: report per this many units.")  # fmt: skip
+@click.option("--target", type=float, default=None,
+              help="Summary input: the true value to test against (default the null).")  # fmt: skip
+@confounder_option("A confounder to set against every estimate: its risk ratios with the "
+                   "treatment and the outcome (repeatable).")  # fmt: skip
+@click.option("--benchmark", "benchmarks", multiple=True, metavar="COLUMN[:K[:K_OUTCOME]]",
+              help="Data input, --model ols: a measured covariate to compare with, and its "
+              "multiples (repeatable), as in partial-r2.")  # fmt: skip
+@click.option("--benchmark-r2", "benchmark_r2", nargs=3, multiple=True,
+              metavar="NAME[:K[:K_OUTCOME]] R2_TREATMENT R2_OUTCOME",
+              help="A benchmark from published numbers, as in partial-r2 (regression "
+              "estimates: --data with --model ols, or table rows with se and dof).")  # fmt: skip
+@click.option("--r2-treatment", multiple=True, type=float,
+              help="A hypothetical confounder of a regression coefficient: its partial R² "
+              "with the treatment (pairs with --r2-outcome; repeatable).")  # fmt: skip
+@click.option("--r2-outcome", multiple=True, type=float,
+              help="Its partial R² with the outcome.")  # fmt: skip
 @click.option("--out", "folder", required=True, type=click.Path(file_okay=False),
               help="The folder to write (created if missing).")  # fmt: skip
 def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se: Any,
                sd: Any, outcome: Any,
                prevalence: Any, label: str, estimates: Any, data: Any, formula: Any,
-               treatment: Any, model_kind: Any, event: Any, contrast: float,
-               folder: str) -> None:  # fmt: skip
+               treatment: Any, model_kind: Any, event: Any, errors: Any, contrast: float,
+               target: Any, confounders: Any, benchmarks: Any, benchmark_r2: Any,
+               r2_treatment: Any, r2_outcome: Any, folder: str) -> None:  # fmt: skip
     """Write the robustness section of a manuscript to a folder.
 
     report.md, a self-contained report.html (figures embedded, nothing fetched), tables.tex,
@@ -57,11 +77,18 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
     each estimate's tables and sentences, the assumptions, the cautions, the references and
     the command that reproduces it.
 
+    The options of the commands it gathers apply here too: --ci-level, --confounder (set
+    against every estimate), --errors (data input), and for a regression coefficient
+    --benchmark, --benchmark-r2 and their multiples.
+
     \b
     Examples:
       sensitivity report "HR 1.38 (95% CI 1.12-1.70)" --outcome-frequency rare --out report
       sensitivity report --scale rr --estimate 1.5 --ci 1.1 2.0 --out report
-      sensitivity report --estimates demo/cohort_estimates.csv --out report
+      sensitivity report --estimates demo/cohort_estimates.csv --confounder 2 2 --out report
+      sensitivity report --data demo/harbourside_bp.csv --model ols --treatment commute_min \\
+          --formula "sbp ~ commute_min + age + female + smoker + C(shift) + bmi" \\
+          --benchmark smoker --benchmark smoker:2 --errors hc1 --contrast 10 --out report
     """
     from sensitivity.output.report import Reproduce, write_report
 
@@ -75,10 +102,20 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
         )
     if scale == "rd":
         raise click.UsageError("--scale rd: a report takes rr, or, hr, smd or md")
+    if benchmarks and not (data and model_kind == "ols"):
+        raise click.UsageError(
+            "--benchmark needs data input with --model ols (a measured covariate of the fit); "
+            "from a paper's tables use --benchmark-r2"
+        )
+    if errors is not None and not data:
+        raise click.UsageError("--errors applies to data input (--data ... --model)")
+    if target is not None and route is None:
+        raise click.UsageError("--target applies to summary input (TEXT, or --scale --estimate)")
+    level = 0.95 if ci_level is None else ci_level
     if estimates:
         from sensitivity.reporting import results_from_table
 
-        items = results_from_table(estimates)
+        items = results_from_table(estimates, ci_level=level)
     elif data:
         missing = [n for n, v in (("--formula", formula), ("--treatment", treatment),
                                   ("--model", model_kind)) if not v]  # fmt: skip
@@ -87,29 +124,34 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
         from sensitivity.adapters.models import evalue_from_data
 
         res = evalue_from_data(data, formula, treatment, model_kind, event=event,
-                               contrast=contrast, outcome=outcome)  # fmt: skip
+                               contrast=contrast, outcome=outcome, alpha=1 - level,
+                               errors=errors)  # fmt: skip
         items = [(label, res)]
         if model_kind == "ols":
             from dataclasses import replace
 
             from sensitivity.adapters.statsmodels import partial_r2_from_data
 
-            pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast)
+            pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast,
+                                       alpha=1 - level, benchmarks=benchmarks)  # fmt: skip
             items = [(label, replace(pr2, evalue=res))]
     elif route == "text":
         from sensitivity.adapters.published import evalue_from_text
 
         res = evalue_from_text(published, scale=scale, ci_level=ci_level, se=se, sd=sd,
                                outcome=outcome, prevalence=prevalence, contrast=contrast,
-                               argument="TEXT")  # fmt: skip
+                               target=target, argument="TEXT")  # fmt: skip
         items = [(label, res)]
     else:
         from sensitivity.evalues.core import evalue
 
         res = evalue(scale, estimate, ci or None, se=se, sd=sd, outcome=outcome,
-                     prevalence=prevalence, contrast=contrast,
-                     ci_level=0.95 if ci_level is None else ci_level)  # fmt: skip
+                     prevalence=prevalence, contrast=contrast, ci_level=level,
+                     target=target)  # fmt: skip
         items = [(label, res)]
+    items = _with_options(items, confounders, benchmark_r2)
+    if r2_treatment or r2_outcome:
+        items = _with_strengths(items, r2_treatment, r2_outcome)
     command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
     files = write_report(items, folder, Reproduce(command))
     click.echo(f"Wrote the report to {files['folder']}/ (report.html, report.md, tables.tex, "
@@ -118,6 +160,58 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
         e = result.report_parts()[0]
         ci_e = "-" if e.evalue_ci is None else f"{float(e.evalue_ci):.2f}"
         click.echo(f"{name}: E-value {float(e.evalue):.2f} (CI: {ci_e})")
+
+
+def _with_options(items: list[tuple[str, Any]], confounders: Any,
+                  benchmark_r2: Any) -> list[tuple[str, Any]]:  # fmt: skip
+    """Confounders on every E-value; published benchmarks on every regression coefficient."""
+    from dataclasses import replace
+
+    from sensitivity.evalues.result import EValueResult
+    from sensitivity.partial_r2.result import PartialR2Result
+
+    out = []
+    for name, result in items:
+        if confounders:
+            rr_t, rr_y = zip(*confounders, strict=True)
+            if isinstance(result, EValueResult):
+                result = result.with_confounders(rr_t, rr_y)
+            elif isinstance(result, PartialR2Result) and result.evalue is not None:
+                result = replace(result, evalue=result.evalue.with_confounders(rr_t, rr_y))
+        if benchmark_r2 and isinstance(result, PartialR2Result):
+            from sensitivity.partial_r2.published import apply_text_benchmarks
+
+            result = apply_text_benchmarks(result, benchmark_r2)
+        out.append((name, result))
+    if benchmark_r2 and not any(isinstance(r, PartialR2Result) for _, r in out):
+        raise click.UsageError(
+            "--benchmark-r2 applies to a regression coefficient: data input with --model ols, "
+            "or --estimates rows with se and dof"
+        )
+    return out
+
+
+def _with_strengths(items: list[tuple[str, Any]], r2_treatment: Any,
+                    r2_outcome: Any) -> list[tuple[str, Any]]:  # fmt: skip
+    """Hypothetical confounders of chosen partial R² on every regression coefficient."""
+    from sensitivity.partial_r2.core import hypothetical_scenarios
+    from sensitivity.partial_r2.result import PartialR2Result
+
+    if len(r2_treatment) != len(r2_outcome):
+        raise click.UsageError("--r2-treatment and --r2-outcome come in pairs")
+    out = []
+    for name, r in items:
+        if isinstance(r, PartialR2Result):
+            extra = hypothetical_scenarios(r.estimate, r.se, r.dof, list(r2_treatment),
+                                           list(r2_outcome), r.alpha)  # fmt: skip
+            r = r.with_scenarios(extra)
+        out.append((name, r))
+    if not any(isinstance(r, PartialR2Result) for _, r in out):
+        raise click.UsageError(
+            "--r2-treatment and --r2-outcome apply to a regression coefficient: data input "
+            "with --model ols, or --estimates rows with se and dof"
+        )
+    return out
 
 
 command = report_cmd

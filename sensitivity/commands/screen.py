@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import sys
+from pathlib import Path
 from typing import Any
 
 import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import FORMATS, Command, confounder_option, plot_options
+from ._options import FORMATS, Command, confounder_option, engine_option, plot_options
 
 SHORT_HELP = COMMANDS["screen"][1]
 
@@ -30,7 +31,8 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
 
 
 @click.command("screen", cls=Command, short_help=SHORT_HELP)
-@click.argument("file", type=click.Path(dir_okay=False))
+@click.argument("file", type=click.Path())
+@engine_option("the screen")
 @click.option(
     "--columns",
     "column_map",
@@ -64,6 +66,20 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
     help="Write the screened table: .csv, .tsv, .parquet, .xlsx or .json.",
 )
 @click.option(
+    "--flagged",
+    type=click.Path(dir_okay=False),
+    help="Also write the flagged rows alone (with their reasons in `error`): .csv, .tsv, "
+    ".parquet, .xlsx or .json.",
+)
+@click.option(
+    "--delimiter",
+    type=click.Choice(["auto", ",", ";", "tab"]),
+    default="auto",
+    show_default=True,
+    help="Between the cells of a text file: auto detects a European file (';' between cells, "
+    "',' in decimals) from its header and first lines.",
+)
+@click.option(
     "--format",
     "fmt",
     type=click.Choice(FORMATS),
@@ -84,12 +100,15 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
 @plot_options("the distribution of E-values (estimate and interval) by scale")
 def screen_cmd(
     file: str,
+    engine: str,
     column_map: tuple[str, ...],
     from_text: str | None,
     confounders: tuple,
     threshold: float | None,
     alpha: float,
     output: str | None,
+    flagged: str | None,
+    delimiter: str,
     fmt: str,
     plots: tuple[str, ...],
     plot_limits: Any,
@@ -104,7 +123,9 @@ def screen_cmd(
     needs them se, dof, sd, outcome (rare/common), prevalence, contrast, target, and for
     risk differences cases_treated, total_treated, cases_control, total_control. Text cells
     written to CSV and Excel are defused against spreadsheet formulas. Files are read a piece
-    at a time, so memory stays flat; on a terminal, a progress bar shows on stderr.
+    at a time, so memory stays flat; on a terminal, a progress bar shows on stderr. FILE may
+    be a Parquet dataset folder, screened here or on Dask or Spark (--engine): each
+    partition is screened where it lies, its rows kept in order, and the summary added up.
 
     \b
     Examples:
@@ -112,28 +133,47 @@ def screen_cmd(
       sensitivity screen demo/published_results.csv --from-text result \\
           --confounder 2 2 --threshold 1.5 --plot evalues.png --output screened.parquet
       sensitivity screen demo/pooled_studies.csv --from-text result --pool 1.1
+      sensitivity screen demo/published_results_parquet --engine dask --output screened.csv
     """
-    from sensitivity.adapters.files import Share, read_frames
-    from sensitivity.common.overlap import read_ahead
-
     # the first pieces of the file are parsed (polars, in a second thread) while the rest of
     # the screen is imported and the options are checked
+
+    from sensitivity.adapters.files import Share, read_frames, resolve_delimiter, with_types
+    from sensitivity.common.overlap import read_ahead
+
     share = Share()
-    frames = read_ahead(read_frames(file, "file", share=share))
+    folder = Path(file).is_dir()
+    mark = None if folder or engine != "local" else resolve_delimiter(file, delimiter)
+    if engine == "local" and folder:
+        from sensitivity.screen.engines import folder_frames
+
+        frames = read_ahead(folder_frames(file))
+    elif engine == "local":
+        frames = read_ahead(read_frames(file, "file", share=share, delimiter=mark or "auto"))
 
     from sensitivity.common.errors import InputError
-    from sensitivity.screen.core import Options, computed_names
+    from sensitivity.screen.core import AS_READ_TEXT, Options, computed_names
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
     from sensitivity.screen.write import check_table_path, table_writer
 
     if plot_marks:
         raise click.UsageError("--plot-mark does not apply to screen")
-    if output is not None:
-        check_table_path(output)
+    for target in (output, flagged):
+        if target is not None:
+            check_table_path(target)
+    if (
+        flagged is not None
+        and output is not None
+        and Path(flagged).resolve() == Path(output).resolve()
+    ):
+        raise click.UsageError("--flagged and --output must be different files")
     if threshold is not None and not threshold >= 1:
         raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
     pooled = None
+    if pool_threshold is not None and (engine != "local" or Path(file).is_dir()):
+        raise click.UsageError("--pool reads a single file; screen a folder or an engine's "
+                               "data without it")  # fmt: skip
     if pool_threshold is not None:  # pooled first: a table that cannot be pooled stops here
         from sensitivity.adapters.files import read_table
         from sensitivity.pooling.data import pool_table
@@ -148,32 +188,57 @@ def screen_cmd(
         except InputError as err:  # the pool's threshold is --pool here (--threshold is ours)
             raise InputError(str(err).replace("`threshold`", "`--pool`")) from None
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
-    stream = screen_frames(
-        frames,
-        columns=_column_map(column_map),
-        from_text=from_text,
-        confounders=confounders,
-        alpha=alpha,
-        tally=tally,
-    )
+    options: dict[str, Any] = {"columns": _column_map(column_map), "from_text": from_text,
+               "confounders": confounders, "alpha": alpha}  # fmt: skip
     progress = sys.stderr.isatty()
+    if engine == "local":
+        stream = screen_frames(frames, tally=tally, decimal_comma=mark == ";", **options)
+    else:
+        from sensitivity.adapters.engines import open_with
+        from sensitivity.screen.engines import screened_frames
+
+        def partitions(done: int, total: int) -> None:
+            click.echo(f"{done:,} of {total:,} partitions screened", err=True)
+
+        data = open_with(file, engine, "file")
+        stream = screened_frames(data, engine, tally, progress=partitions, **options)
+        progress = False
     # the screen's own text columns (codes, reasons, notes, true/false) never start with a
     # formula character (tests/test_screen.py), so only the input's are defused
-    trusted = computed_names(Options(confounders=confounders))
+    trusted = set(computed_names(Options(confounders=confounders))) - set(AS_READ_TEXT)
     writer = table_writer(output, fmt, trusted)
+    flagged_writer = None if flagged is None else table_writer(flagged, "text", trusted)
+    # Parquet keeps the input's column types: those polars infers from the whole text file
+    # (a Parquet input's own types pass through as they are)
+    types = {}
+    if mark and any(str(t).lower().endswith((".parquet", ".pq")) for t in (output, flagged) if t):
+        from sensitivity.adapters.files import text_types
+
+        types = text_types(file, mark)
     try:
         for batch in stream:
+            typed = with_types(batch, types) if types else batch
             if writer is not None:
-                writer.write(batch)
+                writer.write(typed if writer.kind == "parquet" else batch)
+            if flagged_writer is not None:
+                import polars as pl
+
+                rows = typed if flagged_writer.kind == "parquet" else batch
+                flagged_writer.write(rows.filter(pl.col("error") != ""))
             if progress:
                 click.echo("\r" + _bar(share.next(), tally.rows), err=True, nl=False)
     except BaseException:
-        if writer is not None:
-            writer.abort()  # nothing half-written is left under the output's name
+        for open_writer in (writer, flagged_writer):
+            if open_writer is not None:
+                open_writer.abort()  # nothing half-written is left under the output's name
         raise
     if progress:
         click.echo("", err=True)
-    summary = tally.result(tuple(confounders), click.format_filename(file))
+    source = click.format_filename(file)
+    if mark == ";":
+        how = "detected" if delimiter == "auto" else "as --delimiter says"
+        source += f" (read as a European file, {how}: ';' between cells, ',' as decimal mark)"
+    summary = tally.result(tuple(confounders), source)
     if writer is not None:
         extra = {"summary": summary.to_dict()}
         if pooled is not None:
@@ -181,6 +246,10 @@ def screen_cmd(
         writer.close(extra if writer.kind == "json" else None)
     if output is not None:
         click.echo(f"Wrote {output}", err=True)
+    if flagged_writer is not None:
+        flagged_writer.close(None)
+        count = sum(tally.flagged.values())
+        click.echo(f"Wrote {count:,} flagged row{'s' * (count != 1)} to {flagged}", err=True)
     document = summary.document()
     if output is None and fmt not in ("csv", "json"):
         click.echo(document.render(fmt, tables_only=fmt in ("markdown", "latex")))

@@ -257,20 +257,12 @@ def hypothetical_scenarios(
             f"`r2_treatment` and `r2_outcome` must come in pairs; got {r2t.size} and {r2y.size}"
         )
     adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
-    out = []
-    for i in range(r2t.size):
-        out.append(
-            Scenario(
-                float(r2t[i]),
-                float(r2y[i]),
-                float(adj["bias"][i]),
-                float(adj["estimate"][i]),
-                float(adj["se"][i]),
-                float(adj["t"][i]),
-                (float(adj["lower"][i]), float(adj["upper"][i])),
-            )
-        )
-    return out
+    a = {k: np.asarray(v, float) for k, v in adj.items()}
+    return [
+        Scenario(float(r2t[i]), float(r2y[i]), float(a["bias"][i]), float(a["estimate"][i]),
+                 float(a["se"][i]), float(a["t"][i]), (float(a["lower"][i]), float(a["upper"][i])))
+        for i in range(r2t.size)
+    ]  # fmt: skip
 
 
 def benchmark_scenarios(
@@ -319,6 +311,7 @@ def benchmark_scenarios(
                 k_treatment=float(kt),
                 k_outcome=float(ky),
                 capped=bool(capped),
+                benchmark_source=covariate.source,
             )
         )
     return out
@@ -336,6 +329,7 @@ def partial_r2_summary(
     r2_outcome: ArrayLike | None = None,
     sd_outcome: float | None = None,
     contrast: float = 1.0,
+    benchmark_r2: Sequence[Any] = (),
 ) -> PartialR2Result:
     """Partial-R² sensitivity of an OLS coefficient from its summary numbers.
 
@@ -360,6 +354,10 @@ def partial_r2_summary(
     contrast : float, default 1
         Treatment difference the E-value alongside refers to (the coefficient is per unit;
         e.g. 10 for "per 10 minutes"). The partial-R² numbers do not depend on it.
+    benchmark_r2 : sequence, optional
+        Benchmarks from a paper's published numbers: (name, r2_treatment, r2_outcome), the
+        name with its multiples as for data ("age:2"), or `published_benchmark(...)` values
+        (see `with_published_benchmarks`).
 
     Returns
     -------
@@ -374,8 +372,10 @@ def partial_r2_summary(
     >>> round(res.partial_r2, 3), round(rv, 3), round(rv_alpha, 3)
     (0.022, 0.139, 0.076)
     """
+    from .published import with_published_benchmarks
+
     est, se, dof, reduce_by, alpha = check_summary(estimate, se, dof, t, reduce_by, alpha)
-    return assemble(
+    result = assemble(
         est,
         se,
         dof,
@@ -386,6 +386,7 @@ def partial_r2_summary(
         sd_outcome=sd_outcome,
         contrast=contrast,
     )
+    return with_published_benchmarks(result, benchmark_r2)
 
 
 def assemble(

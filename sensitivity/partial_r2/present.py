@@ -43,7 +43,7 @@ def _num(r: PartialR2Result, x: float | None) -> str:
 
 def scenario_label(s: Scenario) -> str:
     """A scenario's one name (`Scenario.label`): "smoker ×2", "shift ×1/×3", "chosen 2.00% /
-    5.00%"."""
+    5.00%", with "(published)" or "(treatment side assumed)" for a published benchmark."""
     return s.label
 
 
@@ -109,7 +109,7 @@ def table(r: PartialR2Result) -> Table:
         rows.append(
             (
                 f"E-value alongside ({_per(e.contrast).strip() or 'per unit'}; estimate / "
-                f"{_level(r)} CI)",
+                f"{e.ci_level:.0%} CI)",
                 f"{number(e.evalue)} / {number(e.evalue_ci)}",
             )
         )

@@ -44,6 +44,7 @@ class Scenario:
     k_treatment: float | None = None
     k_outcome: float | None = None
     capped: bool = False
+    benchmark_source: str | None = None  # "data", "published", or with an assumed side
     # set when the benchmark multiple is too strong to exist: the largest k_treatment that does
     # (exclusive); the numbers are then NaN (null in JSON)
     k_max: float | None = None
@@ -61,7 +62,11 @@ class Scenario:
         if self.kind == "benchmark":
             kt, ky = self.k_treatment, self.k_outcome
             times = f"×{kt:g}" if kt == ky else f"×{kt:g}/×{ky:g}"
-            return f"{covariate_name(self.benchmark or '')} {times}"
+            source = self.benchmark_source or "data"
+            mark = {"data": "", "published": " (published)"}.get(
+                source, " (treatment side assumed)"
+            )
+            return f"{covariate_name(self.benchmark or '')} {times}{mark}"
         return f"chosen {_share(self.r2_treatment)} / {_share(self.r2_outcome)}"
 
     def to_dict(self) -> dict:
@@ -84,6 +89,7 @@ class Scenario:
                 "multiple_treatment": self.k_treatment,
                 "multiple_outcome": self.k_outcome,
                 "capped": self.capped,
+                "benchmark_source": self.benchmark_source or "data",
             }
             if self.impossible:
                 out |= {"impossible": True, "k_max": self.k_max}
@@ -98,6 +104,7 @@ class CovariateStrength:
     columns: tuple[str, ...]
     r2_treatment: float
     r2_outcome: float
+    source: str = "data"  # or "published" (a paper's numbers), with an assumed treatment side
 
     def to_dict(self) -> dict:
         return plain(
@@ -133,7 +140,10 @@ class PartialR2Result(Result):
     cautions: tuple[str, ...] = standing.PARTIAL_R2
     assumptions: tuple[str, ...] = field(
         default=(
-            "OLS with classical (homoskedastic) standard errors.",
+            "OLS. The partial R², robustness value, bias and bias-adjusted estimates are "
+            "identities of the fit and do not depend on the standard errors; the robustness "
+            "value at alpha and the bias-adjusted se, t and CI use classical (homoskedastic) "
+            "standard errors.",
             "A single hidden confounder (or a linear combination of several), entering the "
             "outcome model linearly.",
             "Benchmarks: the confounder is orthogonal to the benchmark covariate given the others.",

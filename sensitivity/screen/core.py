@@ -49,11 +49,20 @@ class Options:
     confounders: tuple[tuple[float, float], ...] = ()
     alpha: float = 0.05
     from_text: str | None = None  # the input column holding free-text results
+    decimal_comma: bool = False  # number cells such as 1,32 read as 1.32 (a European file)
+
+
+#: What the screen read from each row (the columns, or the free text where it supplied them),
+#: before any conversion: so that a reader can check the parser.
+AS_READ = ("as_read_scale", "as_read_estimate", "as_read_lower", "as_read_upper",
+           "as_read_level", "as_read_outcome")  # fmt: skip
+#: The as-read columns that echo the input's text (defused like it when written).
+AS_READ_TEXT = ("as_read_scale", "as_read_outcome")
 
 
 def computed_names(options: Options) -> list[str]:
     """The computed columns, in output order (after the input's own columns)."""
-    names = ["scale_used", "rr", "rr_lower", "rr_upper", "evalue", "evalue_ci"]
+    names = [*AS_READ, "scale_used", "rr", "rr_lower", "rr_upper", "evalue", "evalue_ci"]
     names += ["partial_r2", "robustness_value", "robustness_value_alpha"]
     for i in range(1, len(options.confounders) + 1):
         names += [f"confounder_{i}_explains_estimate", f"confounder_{i}_explains_ci"]
@@ -75,6 +84,7 @@ class Numbers:
     values: np.ndarray
     bad: np.ndarray
     bad_text: tuple[str, ...]
+    decimal_comma: bool = False  # read with decimal commas: a decimal point is not guessed at
 
 
 def _numbers(values: np.ndarray | Numbers, name: str) -> tuple[np.ndarray, np.ndarray]:
@@ -86,6 +96,8 @@ def _numbers(values: np.ndarray | Numbers, name: str) -> tuple[np.ndarray, np.nd
         reasons = np.full(len(values.values), "", dtype=object)
         for i, text in zip(values.bad.tolist(), values.bad_text, strict=True):
             hint = " (a decimal comma?)" if "," in text else ""
+            if values.decimal_comma and "." in text:
+                hint = " (a decimal point where the file writes decimal commas: 1,5 or 1.500?)"
             reasons[i] = f"`{name}` is not a number: {text.strip()[:40]!r}{hint}"
         return values.values, reasons
     arr = np.asarray(values)
@@ -235,6 +247,14 @@ def screen_columns(
         scale = np.where(scale == "", parsed["scale"].astype(str), scale)
         level = parsed["level"]
         notes.add(given(level) & (level != 0.95), "interval level read from text")
+    as_read = {
+        "as_read_scale": np.asarray(scale, dtype=object),
+        "as_read_estimate": num["estimate"].copy(),
+        "as_read_lower": num["lower"].copy(),
+        "as_read_upper": num["upper"].copy(),
+        "as_read_level": parsed["level"].astype(float) if options.from_text else np.full(n, np.nan),
+        "as_read_outcome": np.asarray(outcome, dtype=object),
+    }
     code = _codes(scale)
     missing = (code != "rd") & ~given(num["estimate"])
     reasons.first(np.where(missing, "`estimate` is missing", ""), "`estimate` is missing")
@@ -289,7 +309,7 @@ def screen_columns(
     good = reasons.good
     for k in out:
         out[k] = np.where(good, out[k], np.nan)
-    result: dict[str, np.ndarray] = {"scale_used": np.where(good, code, "")}
+    result: dict[str, np.ndarray] = {**as_read, "scale_used": np.where(good, code, "")}
     # the interval limit nearest the null, oriented to be at least 1 unless it covers the null
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(out["rr"] >= 1, out["rr"], 1 / out["rr"])

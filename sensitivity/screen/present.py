@@ -19,9 +19,7 @@ def paragraph(s: ScreenSummary) -> str:
     rows = "row" if s.rows == 1 else "rows"
     text = f"Read {s.rows:,} {rows} from {s.source}: {good:,} screened, {s.n_flagged:,} flagged"
     if s.flagged:
-        top = [f"{count:,} × {reason}" for reason, count in list(s.flagged.items())[:4]]
-        more = len(s.flagged) - 4
-        text += " (" + "; ".join(top) + (f"; {more} more reasons" if more > 0 else "") + ")"
+        text += " (" + "; ".join(f"{count:,} × {why}" for why, count in s.flagged.items()) + ")"
     text += "."
     for code, e in s.per_scale.items():
         name = _NAMES.get(code, code)
@@ -72,11 +70,34 @@ def table(s: ScreenSummary) -> Table:
     )
 
 
+def flagged_table(s: ScreenSummary) -> Table | None:
+    """Each reason a row was flagged, with its count and the first rows it applies to."""
+    if not s.flagged:
+        return None
+    rows = []
+    for why, count in s.flagged.items():
+        first = s.first_rows.get(why, [])
+        more = ", ..." if count > len(first) else ""
+        rows.append((why, f"{count:,}", ", ".join(f"{r:,}" for r in first) + more))
+    return Table(
+        ("Why the row was flagged", "Rows", "First rows"),
+        tuple(rows),
+        title="Flagged rows by reason",
+        footnotes=(
+            "Row numbers count data rows from 1 (the header is not a row). Each flagged row "
+            "keeps its reason in the output's `error` column; --flagged FILE writes those rows "
+            "alone.",
+        ),
+    )
+
+
 def document(s: ScreenSummary) -> Document:
     text = paragraph(s)
+    flagged = flagged_table(s)
     blocks: tuple[Block, ...] = (
         prose(text, role="sentence"),
         table(s),
+        *((flagged,) if flagged else ()),
         *standard_tail(s.notes, s.cautions),
     )
     return Document("Screen", blocks)

@@ -9,6 +9,9 @@ import numpy as np
 from ..common import notes as standing
 from ..common.results import Result
 
+#: Rows listed for each reason a row was flagged (the first ones, by row number).
+FIRST_ROWS = 5
+
 #: log E-values are tallied on a fixed grid from 0 to 20 (E up to 4.8e8) in steps of 1e-4,
 #: for the figure, and for the medians only where the values no longer fit in memory.
 _EDGES = 200_000
@@ -28,19 +31,25 @@ class Tally:
     n_confounders: int = 0
     rows: int = 0
     flagged: dict[str, int] = field(default_factory=dict)
+    first_rows: dict[str, list[int]] = field(default_factory=dict)
     scales: dict[str, dict] = field(default_factory=dict)
 
     def add(self, scale: np.ndarray, kinds: list[str], values: dict[str, np.ndarray],
-            states: dict[str, np.ndarray]) -> None:  # fmt: skip
+            states: dict[str, np.ndarray], positions: list[int] | None = None) -> None:  # fmt: skip
         """Count one batch: each row's scale (an index into SCREEN_SCALES, -1 when flagged),
         the flagged rows' kinds of reason (the rule in words, without the row's values, as
-        given where each reason is made), the computed numbers and the confounder columns'
-        states (2 where the confounder could explain the result away)."""
+        given where each reason is made) and their positions in the batch, the computed
+        numbers and the confounder columns' states (2 where the confounder could explain the
+        result away)."""
         from .core import SCREEN_SCALES
 
+        start = self.rows
         self.rows += len(scale)
-        for kind in kinds:
+        for k, kind in enumerate(kinds):
             self.flagged[kind] = self.flagged.get(kind, 0) + 1
+            first = self.first_rows.setdefault(kind, [])
+            if positions is not None and len(first) < FIRST_ROWS:
+                first.append(start + int(positions[k]) + 1)
         # every count is one bincount over the rows, by scale (slot 0: flagged rows), with no
         # row selected by a mask: a million rows in a few milliseconds
         slot = scale.astype(np.int64) + 1
@@ -101,6 +110,34 @@ class Tally:
                 entry["explains_ci"][i] += int(ci[number])
             entry["regression"] += int(regression[number])
 
+    def merge(self, other: Tally) -> Tally:
+        """Add the counts of another tally (kept with the same threshold and confounders,
+        over other rows: a partition screened elsewhere) to this one; returns this tally.
+        The other's first flagged rows are numbered after this one's rows."""
+        for kind, rows in other.first_rows.items():
+            first = self.first_rows.setdefault(kind, [])
+            first += [self.rows + r for r in rows][: max(FIRST_ROWS - len(first), 0)]
+        self.rows += other.rows
+        for kind, count in other.flagged.items():
+            self.flagged[kind] = self.flagged.get(kind, 0) + count
+        for code, theirs in other.scales.items():
+            mine = self.scales.setdefault(code, _entry(self.n_confounders))
+            for key in ("evalue", "evalue_ci"):
+                if theirs[key].size > mine[key].size:
+                    mine[key] = np.pad(mine[key], (0, theirs[key].size - mine[key].size))
+                mine[key][: theirs[key].size] += theirs[key]
+            for key in ("rows", "evalue_n", "evalue_ci_n", "below", "regression"):
+                mine[key] += theirs[key]
+            for key in ("evalue_values", "evalue_ci_values"):  # exact medians while they fit
+                n = mine["evalue_n" if key == "evalue_values" else "evalue_ci_n"]
+                if mine[key] is None or theirs[key] is None or n > EXACT_VALUES:
+                    mine[key] = None
+                else:
+                    mine[key] = mine[key] + theirs[key]
+            for key in ("explains_estimate", "explains_ci"):
+                mine[key] = [a + b for a, b in zip(mine[key], theirs[key], strict=True)]
+        return self
+
     def result(self, confounders: tuple, source: str) -> ScreenSummary:
         per_scale = {}
         hist: dict[str, tuple[np.ndarray, np.ndarray]] = {}
@@ -138,6 +175,7 @@ class Tally:
             source=source,
             rows=self.rows,
             flagged=dict(sorted(self.flagged.items(), key=lambda kv: -kv[1])),
+            first_rows={k: list(v) for k, v in self.first_rows.items()},
             per_scale=per_scale,
             threshold=self.threshold,
             confounders=tuple(confounders),
@@ -190,6 +228,8 @@ class ScreenSummary(Result):
     confounders: tuple[tuple[float, float], ...]
     # per scale, counts of log E-values (estimate, interval) on the grid of `log_edges()`
     histograms: dict[str, tuple[np.ndarray, np.ndarray]] = field(default_factory=dict)
+    # per reason, the first rows flagged for it (1 = the first row after the header)
+    first_rows: dict[str, list[int]] = field(default_factory=dict)
     cautions: tuple[str, ...] = standing.EVALUE
     notes: tuple[str, ...] = (
         "Medians are exact (the middle value, or the mean of the two middle values for an even "
@@ -216,6 +256,7 @@ class ScreenSummary(Result):
             "rows": self.rows,
             "flagged": self.n_flagged,
             "flagged_by_reason": self.flagged,
+            "first_flagged_rows": self.first_rows,
             "threshold": self.threshold,
             "confounders": [list(c) for c in self.confounders],
             "scales": self.per_scale,

@@ -40,24 +40,35 @@ def _series(column: Any) -> Any:
     return series if series.dtype == pl.String else series.cast(pl.String)
 
 
-def text_or_numbers(column: Any) -> Any:
+#: A number written with a decimal comma (1,32; -0,5; 1,2e-3) and no other separator.
+_DECIMAL_COMMA = r"^([-+]?[0-9]*),([0-9]+(?:[eE][-+]?[0-9]+)?)$"
+
+
+def text_or_numbers(column: Any, decimal_comma: bool = False) -> Any:
     """A numeric column for the screen's core, converted in Rust: floats, with the cells that
-    are not numbers (and their text) kept aside for the reasons."""
+    are not numbers (and their text) kept aside for the reasons. With `decimal_comma`, a
+    cell such as 1,32 is read as 1.32 (a cell with both marks, 1.234,5, is not a number)."""
     import polars as pl
 
     series = pl.Series(values=column) if not isinstance(column, pl.Series) else column
     if series.dtype.is_numeric():
         return series.cast(pl.Float64).to_numpy()
     trimmed = series.cast(pl.String).fill_null("").str.strip_chars()
+    cells = trimmed
+    if decimal_comma:
+        # a decimal point in a file that writes decimal commas is not guessed at (1.500?)
+        trimmed = trimmed.str.replace(_DECIMAL_COMMA, r"${1}.${2}")
+        trimmed = pl.Series(np.where(cells.str.contains(".", literal=True).to_numpy(),
+                                     "\0", trimmed.to_numpy()), dtype=pl.String)  # fmt: skip
     # polars reads exactly the numbers _NUMBER describes (ASCII digits, inf, infinity, nan in
     # any case; checked in tests/test_screen.py), so a failed cast is a cell that is not one
     values = trimmed.cast(pl.Float64, strict=False)
     floats = values.to_numpy().astype(float)
-    bad = (values.is_null() & (trimmed != "")).to_numpy()
+    bad = (values.is_null() & (cells != "")).to_numpy()
     if not bad.any():
         return floats
     where = np.flatnonzero(bad)
-    return Numbers(floats, where, tuple(trimmed.gather(where).to_list()))
+    return Numbers(floats, where, tuple(cells.gather(where).to_list()), decimal_comma)
 
 
 def clean_text(column: Any) -> Codes:
@@ -133,8 +144,12 @@ def screen_frames(
     confounders: Sequence[tuple[float, float]] = (),
     alpha: float = 0.05,
     tally: Tally | None = None,
+    decimal_comma: bool = False,
 ) -> Iterator[Any]:
     """Screen a stream of polars DataFrames; yield each with the computed columns added.
+
+    `decimal_comma`: number cells written with a decimal comma (1,32) are read as such, as
+    in a European file (the command line detects one; `--delimiter` sets it).
 
     The one loop behind the command line, `screen_batches` and `screen_table`: hand it the
     frames of a polars pipeline. Plain ratio rows are computed in columns (`plain`); every
@@ -161,6 +176,7 @@ def screen_frames(
         confounders=tuple((float(a), float(b)) for a, b in pairs),
         alpha=check_alpha(alpha),
         from_text=None if from_text is None else "_text",
+        decimal_comma=bool(decimal_comma),
     )
     names = computed_names(options)
     mapping: dict[str, str] | None = None
@@ -196,20 +212,28 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
     route, scale, values = routes(frame, mapping) if from_text is None else no_routes(n)
     out = compute_plain(route, values)
     out |= {k: np.full(n, np.nan) for k in _CORE_ONLY}
+    plain = (route >= 0).any()
+    read = {"as_read_estimate": values[0].copy(), "as_read_lower": values[1].copy(),
+            "as_read_upper": values[2].copy(), "as_read_level": np.full(n, np.nan)}  # fmt: skip
     text = {  # each its own Series: scatter below writes in place
         # a plain row's scale cell is its code as written; every other row is overwritten below
-        "scale_used": frame[mapping["scale"]].clone()
-        if (route >= 0).any()
+        "scale_used": frame[mapping["scale"]].clone() if plain else pl.repeat("", n, eager=True),
+        "as_read_scale": frame[mapping["scale"]].clone() if plain else pl.repeat("", n, eager=True),
+        "as_read_outcome": frame[mapping["outcome"]].clone().fill_null("")
+        if plain and "outcome" in mapping
         else pl.repeat("", n, eager=True),
         "error": pl.repeat("", n, eager=True),
         "notes": _words(ROUTE_NOTES, np.maximum(route, 0)),
     }
     reasons: list[str] = []
+    positions: list[int] = []
     rest = np.flatnonzero(route < 0)
     if rest.size:
         core = _core_rows(frame, rest, mapping, options, from_text)
         for key in out:
             out[key][rest] = core[key]
+        for key in read:
+            read[key][rest] = core[key]
         for key in text:
             text[key] = text[key].scatter(rest, core[key].astype(str))
         flagged = core["error"] != ""
@@ -217,6 +241,7 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
         scale[rest] = [-1 if bad else number[c] for c, bad in
                        zip(core["scale_used"].tolist(), flagged.tolist(), strict=True)]  # fmt: skip
         reasons = core["_error_kind"][flagged].tolist()
+        positions = rest[flagged].tolist()
     states: dict[str, np.ndarray] = {}
     if options.confounders:
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -227,9 +252,9 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
             near[rest] = core["_near"]
         states = confounder_states(options, ratio, near, out["evalue"], out["evalue_ci"])
     if tally is not None:
-        tally.add(scale, reasons, out, states)
+        tally.add(scale, reasons, out, states, positions)
 
-    added = text | {k: pl.Series(values=v, nan_to_null=True) for k, v in out.items()
+    added = text | {k: pl.Series(values=v, nan_to_null=True) for k, v in (out | read).items()
                     if rest.size or k not in _CORE_ONLY}  # fmt: skip
     added |= {k: pl.repeat(None, n, dtype=pl.Float64, eager=True) for k in _CORE_ONLY
               if k not in added}  # fmt: skip
@@ -252,7 +277,11 @@ def _core_rows(frame: Any, rows: np.ndarray, mapping: dict[str, str], options: O
     part = frame[pl.Series(rows)]
     core: dict[str, Any] = {}
     for std, user in mapping.items():
-        core[std] = text_or_numbers(part[user]) if std in NUMERIC else clean_text(part[user])
+        core[std] = (
+            text_or_numbers(part[user], options.decimal_comma)
+            if std in NUMERIC
+            else clean_text(part[user])
+        )
     if from_text is not None:
         core["_text"] = np.asarray(_series(part[from_text]).to_list(), dtype=object)
     return screen_columns(core, part.height, options)
@@ -317,8 +346,16 @@ def screen_table(table: Any, **options: Any) -> Any:
     """Screen a whole table in memory (pandas, polars or pyarrow); the result is the same kind.
 
     Options are those of `screen_frames`. The summary is not returned; use `screen_summary`
-    for it.
+    for it. A Spark or Dask DataFrame gives a lazy frame of its own kind, each partition
+    screened where it lies (`screen/engines.py`).
     """
+    from ..adapters.engines import engine_of
+
+    engine = engine_of(table)
+    if engine is not None:
+        from .engines import screen_engine_table
+
+        return screen_engine_table(table, engine, **options)
     frame, kind = _as_polars(table)
     import polars as pl
 
@@ -332,7 +369,15 @@ def screen_table(table: Any, **options: Any) -> Any:
 
 def screen_summary(table: Any, source: str = "the table", threshold: float | None = None,
                    **options: Any) -> ScreenSummary:  # fmt: skip
-    """The summary of a screen of `table` (rows, flags by reason, E-values by scale)."""
+    """The summary of a screen of `table` (rows, flags by reason, E-values by scale); a
+    Spark or Dask DataFrame is screened partition by partition on its engine."""
+    from ..adapters.engines import engine_of
+
+    engine = engine_of(table)
+    if engine is not None:
+        from .engines import screen_engine_summary
+
+        return screen_engine_summary(table, engine, source, threshold, **options)
     frame, _ = _as_polars(table)
     tally = Tally(threshold=threshold, n_confounders=len(options.get("confounders", ())))
     for _ in screen_frames(_slices(frame), tally=tally, **options):

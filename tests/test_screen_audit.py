@@ -1,0 +1,196 @@
+"""A screen you can audit: what was read beside what was computed, every reason with its rows,
+the flagged rows alone, European files, and Parquet that keeps the input's types.
+
+The numbers the screen computes are checked against published examples in test_screen.py;
+here the check is that the same results written in other forms (free text, European
+spreadsheets) give the same numbers as the plain columns.
+"""
+
+import json
+
+import numpy as np
+import polars as pl
+import pytest
+
+from sensitivity.screen.result import Tally
+from sensitivity.screen.stream import screen_frames, screen_summary, screen_table
+
+PLAIN = (
+    "id,scale,estimate,lower,upper,outcome\n"
+    "1,hr,1.32,1.05,1.66,rare\n"
+    "2,rr,0.81,0.69,0.95,\n"
+    "3,or,2.4,1.8,3.2,common\n"
+)
+EUROPEAN = (
+    "id;scale;estimate;lower;upper;outcome\n"
+    "1;hr;1,32;1,05;1,66;rare\n"
+    "2;rr;0,81;0,69;0,95;\n"
+    "3;or;2,4;1,8;3,2;common\n"
+)
+COMPUTED = ("rr", "rr_lower", "rr_upper", "evalue", "evalue_ci")
+
+
+def test_as_read_columns_show_what_the_text_parser_read():
+    frame = pl.DataFrame(
+        {
+            "result": ["HR 0.72 (95% CI 0.60-0.86)", "OR=2.1, 90% CI 1.2-3.6", "nothing"],
+            "outcome": ["rare", "common", ""],
+        }
+    )
+    out = screen_table(frame, from_text="result")
+    assert out["as_read_scale"].to_list() == ["hr", "or", ""]
+    assert out["as_read_estimate"].to_list()[:2] == [0.72, 2.1]
+    assert out["as_read_lower"].to_list()[:2] == [0.60, 1.2]
+    assert out["as_read_upper"].to_list()[:2] == [0.86, 3.6]
+    assert out["as_read_level"].to_list()[:2] == [0.95, 0.9]
+    assert out["as_read_outcome"].to_list() == ["rare", "common", ""]
+    assert out["as_read_estimate"][2] is None and out["error"][2] != ""
+
+
+def test_as_read_columns_of_plain_rows_are_the_columns():
+    frame = pl.read_csv(PLAIN.encode(), infer_schema=False)
+    out = screen_table(frame)
+    assert out["as_read_estimate"].to_list() == [1.32, 0.81, 2.4]
+    assert out["as_read_scale"].to_list() == ["hr", "rr", "or"]
+    assert out["as_read_outcome"].to_list() == ["rare", "", "common"]
+    assert out["as_read_level"].null_count() == 3
+
+
+def test_every_reason_is_listed_with_its_count_and_first_rows(run, tmp_path):
+    lines = ["scale,estimate,lower,upper,se,dof"]
+    bad = [
+        ("rr", "x", "", "", "", ""),
+        ("zz", "1.2", "", "", "", ""),
+        ("", "1.2", "", "", "", ""),
+        ("rr", "", "", "", "", ""),
+        ("rr", "-1", "", "", "", ""),
+        ("rr", "1.5", "1.6", "2", "", ""),
+        ("ols", "1", "", "", "-1", "100"),
+    ]
+    for k in range(7):
+        lines += [",".join(bad[k])] * (k + 1) + ["rr,1.5,1.2,1.9,,"]
+    path = tmp_path / "many.csv"
+    path.write_text("\n".join(lines) + "\n")
+    res = run("screen", path)
+    assert res.exit_code == 0, res.stderr
+    assert "more reasons" not in res.stdout
+    assert "Flagged rows by reason" in res.stdout
+    summary = screen_summary(pl.read_csv(path, infer_schema=False))
+    assert len(summary.flagged) == 7
+    assert summary.first_rows["`estimate` is not a number"] == [1]
+    # seven rows for the last reason: the first five are listed, then "..."
+    last = next(k for k, v in summary.flagged.items() if v == 7)
+    assert len(summary.first_rows[last]) == 5
+    assert ", ..." in res.stdout
+    paragraph = " ".join(res.stdout.split())
+    for reason, count in summary.flagged.items():
+        assert f"{count} × {reason}" in paragraph
+
+
+def test_first_rows_count_across_pieces():
+    frames = [pl.DataFrame({"scale": ["rr", "rr"], "estimate": ["1.5", "x"]})] * 3
+    tally = Tally()
+    for _ in screen_frames(frames, tally=tally):
+        pass
+    assert tally.first_rows == {"`estimate` is not a number": [2, 4, 6]}
+
+
+@pytest.mark.parametrize("suffix", ["csv", "json", "parquet"])
+def test_flagged_file_holds_the_flagged_rows_alone(run, tmp_path, suffix):
+    src = tmp_path / "in.csv"
+    src.write_text(PLAIN + "4,rr,oops,,,\n5,zz,1.2,,,\n")
+    res = run("screen", src, "--output", tmp_path / "all.csv", "--flagged",
+              tmp_path / f"bad.{suffix}")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    assert f"Wrote 2 flagged rows to {tmp_path / f'bad.{suffix}'}" in res.stderr
+    if suffix == "csv":
+        bad = pl.read_csv(tmp_path / "bad.csv", infer_schema=False)
+    elif suffix == "json":
+        bad = pl.DataFrame(json.loads((tmp_path / "bad.json").read_text())["rows"])
+    else:
+        bad = pl.read_parquet(tmp_path / "bad.parquet")
+    assert [str(v) for v in bad["id"].to_list()] == ["4", "5"]
+    assert all(bad["error"].to_list())
+    every = pl.read_csv(tmp_path / "all.csv", infer_schema=False)
+    assert every.height == 5 and every.columns == bad.columns
+
+
+def test_flagged_file_without_flagged_rows_has_the_header(run, tmp_path):
+    src = tmp_path / "in.csv"
+    src.write_text(PLAIN)
+    res = run("screen", src, "--flagged", tmp_path / "bad.csv")
+    assert res.exit_code == 0 and "Wrote 0 flagged rows" in res.stderr
+    assert (tmp_path / "bad.csv").read_text().startswith("id,scale,estimate")
+
+
+def test_flagged_and_output_must_differ(run, tmp_path):
+    src = tmp_path / "in.csv"
+    src.write_text(PLAIN)
+    res = run("screen", src, "-o", tmp_path / "x.csv", "--flagged", tmp_path / "x.csv")
+    assert res.exit_code == 2 and "--flagged and --output must be different files" in res.stderr
+
+
+def test_a_european_file_is_detected_and_gives_the_same_numbers(run, tmp_path):
+    (tmp_path / "us.csv").write_text(PLAIN)
+    (tmp_path / "eu.csv").write_text(EUROPEAN)
+    out = {}
+    for name in ("us", "eu"):
+        res = run("screen", tmp_path / f"{name}.csv", "--format", "csv")
+        assert res.exit_code == 0, res.stderr
+        out[name] = pl.read_csv(res.stdout.encode(), infer_schema=False)
+    for column in COMPUTED:
+        assert out["eu"][column].to_list() == out["us"][column].to_list()
+    assert out["eu"]["estimate"].to_list() == ["1,32", "0,81", "2,4"]  # echoed as written
+    res = run("screen", tmp_path / "eu.csv")
+    assert "read as a European file, detected" in " ".join(res.stdout.split())
+
+
+def test_delimiter_option(run, tmp_path):
+    (tmp_path / "eu.csv").write_text(EUROPEAN)
+    res = run("screen", tmp_path / "eu.csv", "--delimiter", ";")
+    assert res.exit_code == 0 and "as --delimiter says" in " ".join(res.stdout.split())
+    res = run("screen", tmp_path / "eu.csv", "--delimiter", ",")
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1
+    assert "try --delimiter ';'" in res.stderr
+
+
+def test_decimal_commas_from_python():
+    frame = pl.read_csv(EUROPEAN.encode(), separator=";", infer_schema=False)
+    eu = screen_table(frame, decimal_comma=True)
+    us = screen_table(pl.read_csv(PLAIN.encode(), infer_schema=False))
+    for column in COMPUTED:
+        assert np.allclose(eu[column].to_numpy(), us[column].to_numpy())
+    flagged = screen_table(frame)  # without the option, a decimal comma is not a number
+    assert all("decimal comma" in e for e in flagged["error"].to_list())
+
+
+@pytest.mark.parametrize("source", ["PLAIN", "EUROPEAN"])
+def test_parquet_output_keeps_the_input_types(run, tmp_path, source):
+    src = tmp_path / "in.csv"
+    src.write_text(globals()[source])
+    res = run("screen", src, "--output", tmp_path / "out.parquet")
+    assert res.exit_code == 0, res.stderr
+    out = pl.read_parquet(tmp_path / "out.parquet")
+    assert out.schema["id"] == pl.Int64
+    assert out.schema["estimate"] == pl.Float64
+    assert out.schema["scale"] == pl.String
+    assert out["estimate"].to_list() == [1.32, 0.81, 2.4]
+    assert out["outcome"].to_list() == ["rare", "", "common"]  # text as written
+
+
+def test_parquet_input_types_pass_through(run, tmp_path):
+    pl.DataFrame({"id": [7, 8], "scale": ["rr", "hr"], "estimate": [1.5, 2.0],
+                  "outcome": ["", "rare"]}).write_parquet(tmp_path / "in.parquet")  # fmt: skip
+    res = run("screen", tmp_path / "in.parquet", "--output", tmp_path / "out.parquet")
+    assert res.exit_code == 0, res.stderr
+    out = pl.read_parquet(tmp_path / "out.parquet")
+    assert out.schema["id"] == pl.Int64 and out["id"].to_list() == [7, 8]
+
+
+def test_a_decimal_point_in_a_european_file_is_flagged_not_guessed(run, tmp_path):
+    path = tmp_path / "eu.csv"
+    path.write_text(EUROPEAN + "4;rr;1.500;1,2;1,9;\n")
+    res = run("screen", path, "--format", "csv")
+    out = pl.read_csv(res.stdout.encode(), infer_schema=False)
+    assert "a decimal point where the file writes decimal commas" in out["error"][3]
+    assert out["error"].to_list()[:3] == ["", "", ""]
