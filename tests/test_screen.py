@@ -926,3 +926,27 @@ def test_a_tsv_named_csv_says_so_plainly(run, tmp_path):
     assert res.exit_code == 2 and res.stderr.count("\n") == 1
     assert "read as one column, whose name holds tabs: 'scale' | 'estimate'" in res.stderr
     assert "rename it .tsv" in res.stderr
+
+
+def test_partitions_merged_keep_the_exact_median():
+    """Issue 19 with the engines: tallies of partitions merged give numpy's median of all."""
+    import polars as pl
+
+    from sensitivity.evalues.core import evalue_of_rr
+    from sensitivity.screen.result import Tally
+    from sensitivity.screen.stream import screen_frames
+
+    parts = [[2.0, 3.0, 5.0], [1.5, 4.0]]
+    tallies = []
+    for values in parts:
+        tally = Tally()
+        frame = pl.DataFrame({"scale": ["rr"] * len(values),
+                              "estimate": [repr(v) for v in values]})  # fmt: skip
+        for _ in screen_frames([frame], tally=tally):
+            pass
+        tallies.append(tally)
+    merged = tallies[0].merge(tallies[1]).result((), "parts")
+    everything = np.array([v for p in parts for v in p])
+    assert merged.per_scale["rr"]["median_evalue"] == pytest.approx(
+        float(np.median(evalue_of_rr(everything))), rel=1e-12
+    )
