@@ -27,6 +27,18 @@ class _Cli(click.Group):
             return None
         return import_module(f"sensitivity.commands.{COMMANDS[name][0]}").command
 
+    def resolve_command(self, ctx: click.Context, args: list[str]) -> tuple:
+        name = args[0] if args else ""
+        if name and name not in COMMANDS and not name.startswith("-"):
+            from difflib import get_close_matches
+
+            near = get_close_matches(name, list(COMMANDS), n=1, cutoff=0.5)
+            hint = f" Did you mean {near[0]!r}?" if near else ""
+            raise click.UsageError(
+                f"No such command {name!r}.{hint} Commands: {', '.join(COMMANDS)}.", ctx
+            )
+        return super().resolve_command(ctx, args)
+
     def format_commands(self, ctx: click.Context, formatter: click.HelpFormatter) -> None:
         # Short help from the table, so `--help` imports no command module.
         rows = [(name, help_text) for name, (_, help_text) in COMMANDS.items()]

@@ -100,7 +100,7 @@ def test_evalue_rd_from_counts(run):
     [
         (
             ("--scale", "rd", "--counts", 60, 1000, 70, 50),
-            "Error: `counts`: cases must not exceed totals",
+            "Error: `--counts`: cases must not exceed totals",
         ),
         (
             ("rd", "0.02"),

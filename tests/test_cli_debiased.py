@@ -37,22 +37,21 @@ def data_csv(tmp_path_factory):
 
 
 def args(path, *extra):
-    return (
-        "debiased",
-        "--data",
-        path,
-        "--treatment",
-        "d",
-        "--outcome",
-        "y",
-        "--covariates",
-        "x1,x2,site",
-        "--learner",
-        "linear",
-        "--folds",
-        "2",
-        *extra,
-    )
+    """The base invocation with `extra`; an option already in the base gets the extra value
+    (a single-value option given twice is refused, issue 19)."""
+    base = [
+        "debiased", "--data", path, "--treatment", "d", "--outcome", "y",
+        "--covariates", "x1,x2,site", "--learner", "linear", "--folds", "2",
+    ]  # fmt: skip
+    extra = list(extra)
+    i = 0
+    while i < len(extra):
+        if str(extra[i]).startswith("--") and extra[i] in base and i + 1 < len(extra):
+            base[base.index(extra[i]) + 1] = extra[i + 1]
+            del extra[i : i + 2]
+        else:
+            i += 1
+    return (*base, *extra)
 
 
 def test_text(run, data_csv):
@@ -125,16 +124,16 @@ def test_plot_writes_the_contour_figure(run, data_csv, tmp_path):
 @pytest.mark.parametrize(
     ("extra", "match"),
     [
-        (("--treatment", "flat"), "`treatment` 'flat' is constant"),
-        (("--folds", "40"), "`folds` 40 leaves 7 rows per fold (300 rows); each fold needs"),
-        (("--covariates", "x1,nope"), "`covariates` 'nope' is not a column of the data"),
+        (("--treatment", "flat"), "`--treatment` 'flat' is constant"),
+        (("--folds", "40"), "`--folds` 40 leaves 7 rows per fold (300 rows); each fold needs"),
+        (("--covariates", "x1,nope"), "`--covariates` 'nope' is not a column of the data"),
         (("--strength", "1.2", "0.1"), "`cy2` must lie in [0, 1); got 1.2"),
-        (("--rho", "1.5"), "`rho` must lie in (0, 1]; got 1.5"),
+        (("--rho", "1.5"), "`--rho` must lie in (0, 1]; got 1.5"),
         (("--multiple", "2"), "--multiple needs --benchmark"),
-        (("--benchmark", "x9"), "`benchmark` 'x9' is not one of the covariates"),
+        (("--benchmark", "x9"), "`--benchmark` 'x9' is not one of the covariates"),
         (("--target-effect", "average", "--treatment", "dose"), "must be coded 0/1"),
         (("--learner", "svm"), "Invalid value for '--learner'"),
-        (("--plot", "figure.gif"), "`plot` must end in .png, .svg or .pdf"),
+        (("--plot", "figure.gif"), "`--plot` must end in .png, .svg or .pdf"),
         (("--data", "missing.csv"), "file not found"),
     ],
 )

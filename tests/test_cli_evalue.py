@@ -118,11 +118,11 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
 @pytest.mark.parametrize(
     "args, message",
     [
-        (("--scale", "rr", "--estimate", 0), "Error: `estimate` must be positive; got 0"),
-        (("--scale", "rr", "--estimate", -1.5), "Error: `estimate` must be positive; got -1.5"),
+        (("--scale", "rr", "--estimate", 0), "Error: `--estimate` must be positive; got 0"),
+        (("--scale", "rr", "--estimate", -1.5), "Error: `--estimate` must be positive; got -1.5"),
         (
             ("--scale", "rr", "--estimate", "inf"),
-            "Error: `estimate` must be a finite number; got inf",
+            "Error: Invalid value for '--estimate': must be a finite number; got inf",
         ),
         (
             ("--scale", "rr", "--estimate", "abc"),
@@ -130,11 +130,11 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         ),
         (
             ("--scale", "rr", "--estimate", 3.9, "--ci", 4, 8.7),
-            "Error: `estimate` must lie within `ci`",
+            "Error: `--estimate` must lie within `--ci`",
         ),
         (
             ("--scale", "rr", "--estimate", 3.9, "--ci", 8.7, 1.8),
-            "Error: `ci` lower limit must not exceed the upper",
+            "Error: `--ci` lower limit must not exceed the upper",
         ),
         (
             ("--scale", "or", "--estimate", 2),
@@ -142,12 +142,12 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         ),
         (
             ("--scale", "hr", "--estimate", 2, "--prevalence", 2),
-            "Error: `prevalence` must lie in [0, 1]; got 2",
+            "Error: `--prevalence` must lie in [0, 1]; got 2",
         ),
-        (("--scale", "md", "--estimate", 2, "--se", 1), "Error: `sd` is required for scale md"),
+        (("--scale", "md", "--estimate", 2, "--se", 1), "Error: `--sd` is required for scale md"),
         (
             ("--scale", "rr", "--estimate", 2, "--target", 0),
-            "Error: `target` must be positive; got 0",
+            "Error: `--target` must be positive; got 0",
         ),
         (
             ("--scale", "rr", "--estimate", 2, "--confounder", 0.5, 2),
@@ -164,8 +164,8 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         (("1.5", "2"), "Error: TEXT is one argument: quote the published result"),
         (("HR 1.4 (1.1-",), "Error: `TEXT`: the interval is incomplete; got 'HR 1.4 (1.1-'"),
         (("1.4 (1.1-1.8)",), "Error: `TEXT` names no scale"),
-        (("HR 1.4 (1.1-1.8)", "--scale", "or"), "Error: `scale` 'or' differs from the scale"),
-        (("RR 1.4 (90% CI 1.1-1.8)", "--ci-level", 0.95), "Error: `ci_level` 0.95 differs"),
+        (("HR 1.4 (1.1-1.8)", "--scale", "or"), "Error: `--scale` 'or' differs from the scale"),
+        (("RR 1.4 (90% CI 1.1-1.8)", "--ci-level", 0.95), "Error: `--ci-level` 0.95 differs"),
         (("RR 1.4 (1.1-1.8)", "--estimate", 1.4), "Error: TEXT and --estimate cannot be used"),
         (("RR 1.4", "--ci", 1.1, 1.8), "Error: TEXT and --ci cannot be used together"),
         (

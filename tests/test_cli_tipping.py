@@ -229,23 +229,23 @@ def test_plot_every_view(run, tmp_path, args):
     [
         (
             EXAMPLE + ("--prevalence-treated", "0:1.5:0.1"),
-            "Error: `prevalence_treated` must lie in [0, 1]; got 1.1",
+            "Error: `--prevalence-treated` must lie in [0, 1]; got 1.1",
         ),
         (
             EXAMPLE + ("--outcome-effect", "0:3:0.5"),
-            "Error: `outcome_effect` must be positive; got 0",
+            "Error: `--outcome-effect` must be positive; got 0",
         ),
         (
             EXAMPLE + ("--outcome-effect", "3:1:0.5"),
-            "Error: `outcome_effect` is backwards or empty",
+            "Error: `--outcome-effect` is backwards or empty",
         ),
         (
             EXAMPLE + ("--outcome-effect", "1:3:0"),
-            "Error: `outcome_effect` step must be positive; got 0",
+            "Error: `--outcome-effect` step must be positive; got 0",
         ),
         (
             EXAMPLE + ("--outcome-effect", "1:3"),
-            "Error: `outcome_effect` must be a number or START:STOP:STEP",
+            "Error: `--outcome-effect` must be a number or START:STOP:STEP",
         ),
         (
             (
@@ -283,7 +283,7 @@ def test_plot_every_view(run, tmp_path, args):
         (("tipping", "--scale", "rr"), "Error: --estimate is required"),
         (
             ("tipping", "--scale", "rr", "--estimate", 0),
-            "Error: `estimate` must be positive; got 0",
+            "Error: `--estimate` must be positive; got 0",
         ),
         (
             ("tipping", "--kind", "partial-r2", "--estimate", 1),
@@ -291,7 +291,7 @@ def test_plot_every_view(run, tmp_path, args):
         ),
         (
             ("tipping", "--kind", "bounding", "--scale", "md", "--estimate", 1),
-            "Error: `scale` must be one of rr, or, hr for the bounding view",
+            "Error: `--scale` must be one of rr, or, hr for the bounding view",
         ),
         (
             ("tipping", "--scale", "rr", "--estimate", 2, "--rr-treatment", 2),
@@ -299,11 +299,11 @@ def test_plot_every_view(run, tmp_path, args):
         ),
         (
             EXAMPLE + ("--plot", "t.gif"),
-            "Error: `plot` must end in .png, .svg or .pdf; got 't.gif'",
+            "Error: `--plot` must end in .png, .svg or .pdf; got 't.gif'",
         ),
         (
             ("tipping", "--scale", "rr", "--estimate", 1.8, "--plot", "x.png"),
-            "Error: `plot` needs one or two varying parameters; got 3",
+            "Error: `--plot` needs one or two varying parameters; got 3",
         ),
     ],
 )

@@ -101,19 +101,19 @@ def test_no_seed_reports_the_one_drawn(run, clinics):
 @pytest.mark.parametrize(
     ("change", "message"),
     [
-        ({"--treatment": "district"}, "`treatment` column 'district' must be numeric"),
-        ({"--treatment": "age", "--propensity": "age ~ distance"}, "`treatment` must be binary"),
-        ({"--treatment": "visits", "--propensity": "visits ~ age"}, "`outcome` must be another"),
-        ({"--outcome": "label"}, "`outcome` column 'label' must be numeric"),
-        ({"--lambda": "0.5:2:0.5"}, "`lambda` must be at least 1; got 0.5"),
+        ({"--treatment": "district"}, "`--treatment` column 'district' must be numeric"),
+        ({"--treatment": "age", "--propensity": "age ~ distance"}, "`--treatment` must be binary"),
+        ({"--treatment": "visits", "--propensity": "visits ~ age"}, "`--outcome` must be another"),
+        ({"--outcome": "label"}, "`--outcome` column 'label' must be numeric"),
+        ({"--lambda": "0.5:2:0.5"}, "`--lambda` must be at least 1; got 0.5"),
         (
             {"--propensity": None, "--propensity-column": "followed"},
             "`propensity` must lie strictly between 0 and 1; got 0",
         ),
-        ({"--resamples": 5}, "`resamples` must be at least 50"),
-        ({"--outcome": "nothing"}, "`outcome` 'nothing' is not a column"),
+        ({"--resamples": 5}, "`--resamples` must be at least 50"),
+        ({"--outcome": "nothing"}, "`--outcome` 'nothing' is not a column"),
         ({"--propensity": "outreach ~ age + height"}, "uses column 'height'"),
-        ({"--plot": "bounds.gif"}, "`plot` must end in .png, .svg or .pdf"),
+        ({"--plot": "bounds.gif"}, "`--plot` must end in .png, .svg or .pdf"),
     ],
 )
 def test_bad_input_exits_2_with_one_line(run, clinics, change, message):

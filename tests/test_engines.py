@@ -327,7 +327,7 @@ def test_cli_engine_errors(run):
     assert res.exit_code == 2 and "--engine applies to data input (--data)" in res.stderr
     res = run("partial-r2", "--data", "nowhere/", "--engine", "dask", "--formula", "y ~ t",
               "--treatment", "t")  # fmt: skip
-    assert res.exit_code == 2 and "`data`: not found: nowhere/" in res.stderr
+    assert res.exit_code == 2 and "`--data`: not found: nowhere/" in res.stderr
     res = run("partial-r2", "--data", "nowhere.parquet", "--engine", "spark", "--formula",
               "y ~ t + np.log(x)", "--treatment", "t")  # fmt: skip
     assert res.exit_code == 2

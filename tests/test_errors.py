@@ -161,7 +161,7 @@ def test_cli_errors_option(run, fair, tmp_path):
     assert res.exit_code == 0 and "cluster-robust standard errors (6 clusters)" in res.stdout
     res = run(*base, "--model", "logit", "--errors", "hc2")
     assert res.exit_code == 2 and res.stderr.count("\n") == 1
-    assert "`errors` hc2 is computed for OLS fits only" in res.stderr
+    assert "`--errors` hc2 is computed for OLS fits only" in res.stderr
     res = run("evalue", "--scale", "rr", "--estimate", 1.5, "--errors", "hc1")
     assert res.exit_code == 2 and "--errors applies to data input" in res.stderr
 

@@ -145,3 +145,66 @@ def test_the_options_lead_with_the_test():
     assert names[:6] == ["--t", "--dof", "--estimate", "--se", "--n", "--covariates"]
     with pytest.raises(TypeError):
         impact_threshold(0.114, 0.027, dof=100)  # keyword arguments only
+
+
+# ---------------------------------------------------------------- issue 19: true sentences
+finite_t = st.floats(0.01, 60) | st.floats(-60, -0.01)
+
+
+@given(finite_t, st.floats(0.01, 10), st.integers(3, 10_000))
+def test_the_share_needs_t_alone(t, se, dof):
+    """1 - t#/|t| (or 1 - |t|/t#) from t and dof equals the share from estimate and se."""
+    from_t = impact_threshold(t=t, dof=dof)
+    from_b = impact_threshold(estimate=t * se, se=se, dof=dof)
+    assert from_t.bias_share == pytest.approx(from_b.bias_share, rel=1e-9)
+
+
+@given(finite_t, st.floats(0.01, 10), st.integers(3, 10_000), st.integers(0, 50))
+def test_the_counts_and_the_growth_do_what_the_sentence_says(t, se, dof, covariates):
+    """Significant: swapping n x share observations (average effect b) for no-effect ones
+    brings b to d#. Not significant: b grown by `estimate_growth` is d#, and no swap count
+    is claimed (swapping in no-effect observations would lower it)."""
+    n = dof + covariates + 2
+    res = impact_threshold(estimate=t * se, se=se, n=n, covariates=covariates)
+    b, d = abs(res.estimate), res.estimate_threshold
+    if res.significant:
+        pi = res.swapped_observations / n
+        assert (1 - pi) * b == pytest.approx(d, rel=1e-9)
+    else:
+        assert b * (1 + res.estimate_growth) == pytest.approx(d, rel=1e-9)
+        text = " ".join(res.sentence().split())
+        assert "would have to grow by" in text and "no effect" not in text
+
+
+def test_the_issue_example_says_how_much_the_estimate_must_grow():
+    res = impact_threshold(estimate=0.05, se=0.04, n=300, covariates=4)
+    assert res.estimate_growth == pytest.approx(0.574, abs=5e-4)
+    assert "grow by 57.4%" in " ".join(res.sentence().split())
+
+
+@given(st.floats(1e-300, 0.5), st.integers(1, 100_000), finite_t)
+def test_tiny_alpha_keeps_a_finite_critical_t(alpha, dof, t):
+    """The critical t from the lower tail: finite to alpha 1e-300, no warning, no null."""
+    res = impact_threshold(t=t, dof=dof, alpha=alpha)
+    assert np.isfinite(res.t_critical) and res.t_critical > 0
+    assert np.isfinite(res.itcv) and np.isfinite(res.bias_share)
+    str(res)
+
+
+@pytest.mark.parametrize("alpha", [1e-301, 5e-324])
+def test_alpha_below_the_stated_limit_is_refused(alpha):
+    with pytest.raises(InputError, match=r"`alpha` must be at least 1e-300"):
+        impact_threshold(t=3, dof=100, alpha=alpha)
+
+
+@pytest.mark.parametrize("t", [1e155, -1e300])
+def test_a_huge_t_is_no_overflow(t):
+    res = impact_threshold(t=t, dof=196)
+    assert res.correlation == pytest.approx(np.sign(t))
+    assert res.bias_share == pytest.approx(1.0)
+    str(res)
+
+
+def test_an_infinite_t_from_estimate_and_se_is_refused():
+    with pytest.raises(InputError, match=r"`estimate` / `se` must be a finite t statistic"):
+        impact_threshold(estimate=1e300, se=1e-300, dof=100)

@@ -336,6 +336,56 @@ def test_too_many_pairs_for_the_exact_bound(monkeypatch):
     assert rosenbaum_bounds(differences=d, method="normal").pairs == 30
 
 
+# ---------------------------------------------------------------- issue 19
+@given(st.integers(2, 5000), st.data(), st.floats(1, 50))
+def test_normal_bounds_are_upper_tails_without_cancellation(d, data, gamma):
+    """The normal bounds equal scipy.stats.norm.sf of the standardised statistic (the reference
+    survival function), so a bound of 1e-19 is 1e-19, not 1 - 1 = 0."""
+    from scipy.stats import norm
+
+    k = data.draw(st.integers(1, d))
+    upper, lower = sign_test_bounds(d, k, gamma, method="normal")
+    hi, lo = gamma / (1 + gamma), 1 / (1 + gamma)
+    sd = np.sqrt(d * hi * lo)
+    np.testing.assert_allclose(upper, norm.sf((k - d * hi) / sd), rtol=1e-9, atol=0)
+    np.testing.assert_allclose(lower, norm.sf((k - d * lo) / sd), rtol=1e-9, atol=0)
+
+
+def test_the_issue_example_has_a_nonzero_bound():
+    res = rosenbaum_bounds(discordant=122, treated_events=110, gamma=[1, 2], method="normal")
+    assert res.p_upper[0] == pytest.approx(3.576e-19, rel=1e-3)
+    assert np.all(res.p_lower > 0)
+
+
+@pytest.mark.parametrize(
+    "kwargs, message",
+    [
+        ({"discordant": 2.5, "treated_events": 1}, r"`discordant` must be a whole number"),
+        ({"discordant": 10**20, "treated_events": 5}, r"`discordant` must be at most 2\^53"),
+        ({"discordant": 10, "treated_events": 5, "missing": -np.inf},
+         r"`missing` must be a finite number; got -inf"),
+        ({"discordant": 10, "treated_events": 5, "alpha": 1e-320}, r"`alpha` must be at least"),
+    ],
+)  # fmt: skip
+def test_counts_are_whole_and_finite(kwargs, message):
+    with pytest.raises(InputError, match=message):
+        rosenbaum_bounds(**kwargs)
+
+
+def test_a_gamma_near_the_top_of_the_beta_is_no_division_by_zero():
+    res = rosenbaum_bounds(discordant=2**52, treated_events=5, gamma=[1])
+    assert res.gamma_at_alpha is None or res.gamma_at_alpha > 0
+
+
+def test_above_the_hodges_lehmann_limit_a_note_says_why_it_is_missing():
+    from sensitivity.matched.core import MAX_HL_PAIRS
+
+    d = np.random.default_rng(3).normal(0.3, 1, MAX_HL_PAIRS + 1)
+    res = rosenbaum_bounds(differences=d, gamma=[1, 2], method="normal")
+    assert res.estimate_low is None
+    assert any("Hodges-Lehmann range is not given above 20,000 pairs" in n for n in res.notes)
+
+
 def test_pairs_from_data_in_python_equal_the_differences_and_the_command(run, tmp_path):
     import pandas as pd
 

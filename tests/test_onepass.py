@@ -299,13 +299,14 @@ def test_bad_files(tmp_path, run):
     res = run("partial-r2", "--data", one, "--formula", "y ~ t + x", "--treatment", "t")
     assert res.exit_code == 2
     assert (
-        res.stderr == "Error: `data`: the fit has 0 residual degrees of freedom; need at least 2\n"
+        res.stderr
+        == "Error: `--data`: the fit has 0 residual degrees of freedom; need at least 2\n"
     )
     broken = tmp_path / "broken.csv"
     broken.write_text('y,t,x\n1,2,3\n2,"3,4\n')
     res = run("partial-r2", "--data", broken, "--formula", "y ~ t + x", "--treatment", "t")
     assert res.exit_code == 2 and res.stderr.count("\n") == 1
-    assert res.stderr.startswith(f"Error: `data`: could not read {broken}: could not parse")
+    assert res.stderr.startswith(f"Error: `--data`: could not read {broken}: could not parse")
 
 
 @settings(max_examples=40, deadline=None)

@@ -3,9 +3,10 @@
 import numpy as np
 import pytest
 from conftest import load_cases
-from hypothesis import given
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from sensitivity.common.errors import InputError
 from sensitivity.partial_r2 import (
     adjusted_for_confounder,
     benchmark_strengths,
@@ -178,3 +179,52 @@ def test_partial_r2_in_unit_interval_and_rv_below_one(t, dof):
 def test_bad_summary_input(kwargs, message):
     with pytest.raises(ValueError, match=message):
         partial_r2_summary(**kwargs)
+
+
+# ---------------------------------------------------------------- issue 19: tiny alpha
+@settings(max_examples=200, deadline=None)
+@given(st.floats(1e-300, 0.5), st.integers(3, 100_000), st.floats(0.01, 100))
+def test_tiny_alpha_keeps_every_number_finite(alpha, dof, t):
+    """The critical t comes from the lower tail: finite to alpha 1e-300 (the forward tail by
+    scipy's incomplete beta as the reference: scipy's t.isf is -inf at dof 3, alpha 1e-300),
+    no warning, and the level printed from alpha, never "100% CI"."""
+    from scipy.special import betainc
+
+    res = partial_r2_summary(t, 1.0, dof, alpha=alpha)
+    crit = float(t_critical(alpha, dof - 1))
+    w = np.sqrt(dof - 1) / crit  # P(|T| > crit) = I_x((dof-1)/2, 1/2), x = w² / (1 + w²)
+    assert float(betainc((dof - 1) / 2, 0.5, w * w / (1 + w * w))) == pytest.approx(alpha, rel=1e-6)
+    assert np.isfinite(res.robustness_value_alpha)
+    text = str(res)
+    assert "100% CI" not in text and "nan" not in text
+
+
+@pytest.mark.parametrize("alpha", [1e-301, 5e-324])
+def test_alpha_below_the_limit_is_refused(alpha):
+    with pytest.raises(InputError, match=r"`alpha` must be at least 1e-300"):
+        partial_r2_summary(3.0, 1.0, 100, alpha=alpha)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.floats(0.05, 0.95), st.floats(0.01, 0.5), st.lists(st.floats(0.1, 20), min_size=1,
+                                                             max_size=4))  # fmt: skip
+def test_an_impossible_benchmark_is_a_row_and_the_rest_are_computed(r2t, r2y, ks):
+    """Issue 19: k at or above (1 - R²)/R² cannot exist (Cinelli & Hazlett 2020); that row says
+    so with the bound, and every other row equals the row computed alone."""
+    import warnings
+
+    from sensitivity.common.errors import SensitivityWarning
+    from sensitivity.partial_r2.core import benchmark_scenarios
+    from sensitivity.partial_r2.result import CovariateStrength
+
+    warnings.simplefilter("ignore", SensitivityWarning)  # a capped outcome side is said apart
+    cov = CovariateStrength("C(region)", ("region",), r2t, r2y)
+    rows = benchmark_scenarios(0.5, 0.1, 500, cov, [(k, k) for k in ks], 0.05)
+    bound = (1 - r2t) / r2t
+    for k, row in zip(ks, rows, strict=True):
+        assert row.impossible == (k >= bound)
+        if row.impossible:
+            assert row.k_max == pytest.approx(bound) and np.isnan(row.estimate)
+        else:
+            alone = benchmark_scenarios(0.5, 0.1, 500, cov, [(k, k)], 0.05)[0]
+            assert row.estimate == alone.estimate and not np.isnan(row.estimate)

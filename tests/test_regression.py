@@ -157,11 +157,6 @@ def test_array_fit_uses_name_rule():
             {"benchmarks": ["age:0"]},
             r"`benchmark` 'age:0': a multiple must be a positive finite number; got 0",
         ),
-        (
-            "rate_marriage",
-            {"benchmarks": [("C(religious)", 200)]},
-            r"`k_treatment` 200 is impossible",
-        ),
     ],
 )
 def test_model_input_errors(fit, treatment, kwargs, message):

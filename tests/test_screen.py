@@ -384,17 +384,17 @@ def test_columns_are_mapped_and_text_is_read(run, tmp_path):
 @pytest.mark.parametrize(
     "args, message",
     [
-        (["--columns", "estimate=nope"], "`columns`: 'nope' (for estimate) is not a column"),
-        (["--columns", "size=estimate"], "`columns`: 'size' is not a column the screen reads"),
+        (["--columns", "estimate=nope"], "`--columns`: 'nope' (for estimate) is not a column"),
+        (["--columns", "size=estimate"], "`--columns`: 'size' is not a column the screen reads"),
         (["--columns", "estimate"], "Invalid value for --columns: 'estimate' must be NAME=COLUMN"),
-        (["--from-text", "nope"], "`from_text`: 'nope' is not a column of the table"),
-        (["--output", "x.docx"], "`output`: cannot tell the format of 'x.docx'"),
-        (["--threshold", "0.5"], "`threshold` must be at least 1"),
-        (["--plot", "x.jpg"], "`plot` must end in .png, .svg or .pdf"),
+        (["--from-text", "nope"], "`--from-text`: 'nope' is not a column of the table"),
+        (["--output", "x.docx"], "`--output`: cannot tell the format of 'x.docx'"),
+        (["--threshold", "0.5"], "`--threshold` must be at least 1"),
+        (["--plot", "x.jpg"], "`--plot` must end in .png, .svg or .pdf"),
         # a confounder weaker than none, or not a number, would flag every row "false"
         (["--confounder", "0.5", "2"], "`rr_treatment` must be at least 1; got 0.5"),
-        (["--confounder", "2", "nan"], "`rr_outcome` must be a finite number; got nan"),
-        (["--alpha", "2"], "`alpha` must lie strictly between 0 and 1; got 2"),
+        (["--confounder", "2", "nan"], "Invalid value for '--confounder': must be a finite"),
+        (["--alpha", "2"], "`--alpha` must lie strictly between 0 and 1; got 2"),
     ],
 )
 def test_bad_options_exit_2_with_one_line(run, tmp_path, args, message):
@@ -802,3 +802,154 @@ def test_a_table_with_no_rows_comes_back_with_the_computed_columns():
     out = screen_table(empty)
     assert out.height == 0 and out.columns[-2:] == ["error", "notes"]
     assert screen_summary(empty).rows == 0
+
+
+# ---------------------------------------------------------------- issue 19: exact medians
+ratios = st.lists(st.floats(1.01, 50), min_size=1, max_size=40)
+
+
+@settings(max_examples=60, deadline=None)
+@given(ratios, ratios)
+def test_the_summary_median_is_the_exact_midpoint_median(estimates, limits):
+    """numpy's median (the midpoint rule for an even count) of the rows' own E-values."""
+    import polars as pl
+
+    from sensitivity.evalues.core import evalue_of_rr
+
+    n = min(len(estimates), len(limits))
+    est = np.maximum(estimates[:n], limits[:n])
+    low = np.minimum(estimates[:n], limits[:n])
+    frame = pl.DataFrame({"scale": ["rr"] * n, "estimate": [repr(float(x)) for x in est],
+                          "lower": [repr(float(x)) for x in low],
+                          "upper": [repr(float(x) * 2) for x in est]})  # fmt: skip
+    summary = screen_summary(frame)
+    entry = summary.per_scale["rr"]
+    assert entry["median_evalue"] == pytest.approx(float(np.median(evalue_of_rr(est))), rel=1e-12)
+    assert entry["median_evalue_ci"] == pytest.approx(
+        float(np.median(evalue_of_rr(low))), rel=1e-12
+    )
+
+
+def test_the_issue_example_median_of_two():
+    import polars as pl
+
+    summary = screen_summary(pl.DataFrame({"scale": ["rr", "rr"], "estimate": ["2", "3"]}))
+    assert summary.per_scale["rr"]["median_evalue"] == pytest.approx(4.43, abs=5e-3)
+    assert "Medians are exact" in summary.notes[0]
+
+
+@settings(max_examples=20, deadline=None)
+@given(st.lists(st.floats(1.01, 1e4), min_size=2, max_size=60))
+def test_beyond_memory_the_grid_median_is_within_its_stated_bound(estimates):
+    """Past EXACT_VALUES the median comes from the grid: within GRID_ERROR of the exact one,
+    and the note says so."""
+    import polars as pl
+
+    from sensitivity.evalues.core import evalue_of_rr
+    from sensitivity.screen import result as screen_result
+
+    frame = pl.DataFrame({"scale": ["rr"] * len(estimates),
+                          "estimate": [repr(x) for x in estimates]})  # fmt: skip
+    saved = screen_result.EXACT_VALUES
+    screen_result.EXACT_VALUES = 1
+    try:
+        summary = screen_summary(frame)
+    finally:
+        screen_result.EXACT_VALUES = saved
+    exact = float(np.median(evalue_of_rr(np.array(estimates))))
+    got = summary.per_scale["rr"]["median_evalue"]
+    assert abs(got / exact - 1) <= screen_result.GRID_ERROR * (1 + 1e-9)
+    assert "read from a grid of log E-values, within" in summary.notes[0]
+
+
+# ---------------------------------------------------------------- issue 19: journal styles
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("HR, 0.72; 95% CI, 0.60-0.86", ("hr", 0.72, 0.60, 0.86)),
+        ("hazard ratio [HR] 0.72, 95% CI 0.60 to 0.86", ("hr", 0.72, 0.60, 0.86)),
+        ("23% lower risk (95% CI 10% to 34%)", ("rr", 0.77, 0.66, 0.90)),
+        ("15% higher odds (95% CI 2% to 30%)", ("or", 1.15, 1.02, 1.30)),
+    ],
+)
+def test_common_journal_styles_are_read(text, expected):
+    got = parse(text)
+    assert got["error"] == ""
+    assert (got["scale"], got["estimate"], got["lower"], got["upper"]) == expected
+    assert got["level"] == 0.95
+
+
+two_decimals = st.integers(1, 999).map(lambda k: k / 100)
+
+
+@given(two_decimals, two_decimals, two_decimals, st.sampled_from(["HR", "OR", "RR"]))
+def test_the_comma_style_reads_what_it_says(a, b, c, word):
+    lo, est, hi = sorted((a, b, c))
+    got = parse(f"{word}, {est:.2f}; 95% CI, {lo:.2f}-{hi:.2f}")
+    assert (got["estimate"], got["lower"], got["upper"]) == (est, lo, hi)
+    assert got["scale"] == word.lower()
+
+
+@given(st.integers(1, 99), st.integers(1, 99), st.integers(1, 99),
+       st.sampled_from(["lower", "higher"]))  # fmt: skip
+def test_a_relative_change_in_percent_is_its_ratio(a, b, c, direction):
+    lo, est, hi = sorted((a, b, c))
+    got = parse(f"{est}% {direction} risk (95% CI {lo}% to {hi}%)")
+    sign = -1 if direction == "lower" else 1
+    assert got["estimate"] == pytest.approx(1 + sign * est / 100, abs=1e-12)
+    limits = sorted((1 + sign * lo / 100, 1 + sign * hi / 100))
+    assert (got["lower"], got["upper"]) == pytest.approx(tuple(limits), abs=1e-12)
+    assert got["lower"] <= got["estimate"] <= got["upper"]
+
+
+def test_two_results_in_one_cell_are_still_refused():
+    assert parse("HR 0.72 (95% CI 0.60-0.86); OR 2 (1-3)")["error"] == "two results in one cell"
+
+
+def test_rows_with_their_own_numbers_ignore_a_blank_text_alike(run, tmp_path):
+    """Issue 19: an rd row with its four counts and a blank text is computed, as an md row
+    with its estimate is; an rd row without counts says the counts are needed."""
+    src = tmp_path / "rd.csv"
+    src.write_text(
+        "scale,result,cases_treated,total_treated,cases_control,total_control,estimate,se,dof,sd\n"
+        "rd,,10,100,5,100,,,,\nmd,,,,,,0.5,0.1,100,2\nrd,0.05 (0.01-0.09),,,,,,,,\n"
+    )
+    res = run("screen", src, "--from-text", "result", "--format", "csv")
+    assert res.exit_code == 0, res.stderr
+    rows = list(csv.DictReader(io.StringIO(res.stdout)))
+    assert rows[0]["error"] == "" and rows[0]["evalue"] != ""
+    assert rows[1]["error"] == "" and rows[1]["evalue"] != ""
+    assert rows[2]["error"].startswith("a risk-difference row needs its four counts")
+
+
+def test_a_tsv_named_csv_says_so_plainly(run, tmp_path):
+    src = tmp_path / "tab.csv"
+    src.write_text("scale\testimate\tlower\tupper\nrr\t2\t1.5\t3\n")
+    res = run("screen", src)
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1
+    assert "read as one column, whose name holds tabs: 'scale' | 'estimate'" in res.stderr
+    assert "rename it .tsv" in res.stderr
+
+
+def test_partitions_merged_keep_the_exact_median():
+    """Issue 19 with the engines: tallies of partitions merged give numpy's median of all."""
+    import polars as pl
+
+    from sensitivity.evalues.core import evalue_of_rr
+    from sensitivity.screen.result import Tally
+    from sensitivity.screen.stream import screen_frames
+
+    parts = [[2.0, 3.0, 5.0], [1.5, 4.0]]
+    tallies = []
+    for values in parts:
+        tally = Tally()
+        frame = pl.DataFrame({"scale": ["rr"] * len(values),
+                              "estimate": [repr(v) for v in values]})  # fmt: skip
+        for _ in screen_frames([frame], tally=tally):
+            pass
+        tallies.append(tally)
+    merged = tallies[0].merge(tallies[1]).result((), "parts")
+    everything = np.array([v for p in parts for v in p])
+    assert merged.per_scale["rr"]["median_evalue"] == pytest.approx(
+        float(np.median(evalue_of_rr(everything))), rel=1e-12
+    )

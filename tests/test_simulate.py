@@ -7,6 +7,8 @@ import json
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from sensitivity.common.errors import InputError
 from sensitivity.simulate import parse_prior, simulate
@@ -218,3 +220,30 @@ def test_every_scale(scale):
                    outcome_effect="fixed:2" if ratio else "fixed:0.2", draws=100, seed=1,
                    outcome="common" if scale in ("or", "hr") else None)  # fmt: skip
     assert np.isfinite(res.median)
+
+
+@settings(max_examples=20, deadline=None)
+@given(st.floats(0.3, 3), st.floats(0.05, 0.6), st.integers(0, 2**31))
+def test_each_interval_has_its_own_share_beyond_the_null(estimate, width, seed):
+    """Issue 19: the share printed beside the total-error interval was the systematic one.
+    Each share is the mean of its own draws (all kept: fewer than 200,000)."""
+    lo, hi = estimate * np.exp(-width), estimate * np.exp(width)
+    res = simulate("rr", estimate, (lo, hi), prevalence_treated="uniform:0.2:0.4",
+                   prevalence_control="uniform:0.1:0.3", outcome_effect="lognormal:0.5:0.2",
+                   draws=5000, seed=seed)  # fmt: skip
+    side = 1 if estimate >= 1 else -1
+    assert res.share_beyond_target == np.mean(side * (res.sample - 1) <= 0)
+    assert res.share_beyond_target_total == np.mean(side * (res.sample_total - 1) <= 0)
+    text = " ".join(res.sentence().split())
+    assert f"with random error added, {res.share_beyond_target_total:.1%} of draws" in text
+
+
+def test_a_level_is_printed_as_given_and_refused_at_the_limit():
+    res = simulate("rr", 1.8, (1.2, 2.7), prevalence_treated="fixed:0.5",
+                   prevalence_control="fixed:0.2", outcome_effect="fixed:3", draws=100, seed=1,
+                   ci_level=0.975)  # fmt: skip
+    assert "97.5% CI" in str(res)
+    with pytest.raises(InputError, match=r"`ci_level` must be at least 1e-300"):
+        simulate("rr", 1.8, (1.2, 2.7), prevalence_treated="fixed:0.5",
+                 prevalence_control="fixed:0.2", outcome_effect="fixed:3",
+                 ci_level=5e-324)  # fmt: skip

@@ -8,7 +8,7 @@ import json
 import numpy as np
 import pytest
 import statsmodels.api as sm
-from hypothesis import given
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from sensitivity.common.errors import InputError
@@ -75,6 +75,146 @@ def test_with_delta_one_the_root_has_the_sign_of_the_movement(population):
                                 r2_max=p["r_max"], delta=1.0)  # fmt: skip
     nu = p["b1"] - res.bias_adjusted
     assert np.sign(nu) == np.sign(p["b0"] - p["b1"])
+
+
+def _brute_nearest(args):
+    """The real root nu nearest 0 by a sign-change search on a fine two-sided log grid
+    (independent of np.roots): bisection in the first bracketing cell on either side."""
+    from sensitivity.stability.core import _cubic
+
+    coeffs = np.array(_cubic(*args), float)
+    b0, b1 = args[1], args[2]
+    s = max(abs(b0), abs(b1), abs(b0 - b1))
+    grid = s * np.logspace(-9, 9, 60_001)
+    best = None
+    for sign in (1.0, -1.0):
+        x = np.concatenate([[0.0], sign * grid])
+        v = np.polyval(coeffs, x)
+        if v[0] == 0:
+            return 0.0
+        cells = np.flatnonzero(np.sign(v[:-1]) * np.sign(v[1:]) <= 0)
+        if not cells.size:
+            continue
+        lo, hi = x[cells[0]], x[cells[0] + 1]
+        for _ in range(200):
+            mid = (lo + hi) / 2
+            if np.sign(np.polyval(coeffs, mid)) == np.sign(np.polyval(coeffs, lo)):
+                lo = mid
+            else:
+                hi = mid
+        root = (lo + hi) / 2
+        if best is None or abs(root) < abs(best):
+            best = root
+    return best
+
+
+cases = st.tuples(
+    st.floats(-2, 2),
+    st.floats(-2, 2),  # b0, b1
+    st.floats(0, 0.8),
+    st.floats(0.01, 0.15),
+    st.floats(0, 1),  # r0, r1 - r0, share to 1
+    st.floats(0.1, 5),
+    st.floats(0.1, 3),
+    st.floats(0.02, 0.98),  # s_y2, s_x2, tau / s_x2
+    st.one_of(st.just(1.0), st.floats(0, 4)),  # delta, 1 (the default) often
+).filter(lambda c: abs(c[0] - c[1]) > 1e-3)
+
+
+def _args(c):
+    b0, b1, r0, dr, share, s_y2, s_x2, frac, delta = c
+    r1 = r0 + dr
+    return (delta, b0, b1, r0, r1, r1 + share * (1 - r1), s_y2, s_x2, frac * s_x2)
+
+
+def _stability(args):
+    delta, b0, b1, r0, r1, r_max, s_y2, s_x2, tau = args
+    return coefficient_stability(b0, r0, b1, r1, var_outcome=s_y2, var_treatment=s_x2,
+                                 var_treatment_residual=tau, r2_max=r_max, delta=delta)  # fmt: skip
+
+
+@settings(max_examples=300, deadline=None)
+@given(cases)
+def test_the_reported_root_is_the_real_root_nearest_the_long_estimate(c):
+    """Issue 19: at delta = 1 the sign rule picked a far root in ~40% of two-root cases.
+    Independent check: a sign-change search for the real root nearest nu = 0."""
+    args = _args(c)
+    res = _stability(args)
+    brute = _brute_nearest(args)
+    b1 = args[2]
+    if brute is None:
+        assert res.bias_adjusted is None
+        return
+    assert res.bias_adjusted is not None
+    scale = max(abs(args[1]), abs(b1), abs(args[1] - b1))
+    assert b1 - res.bias_adjusted == pytest.approx(brute, rel=1e-6, abs=1e-9 * scale)
+
+
+@settings(max_examples=100, deadline=None)
+@given(cases)
+def test_the_root_moves_continuously_through_delta_one(c):
+    """One rule at every delta: delta 1 -+ 1e-7 give (nearly) the root at delta 1, unless the
+    near pair is complex or touching (then the result says so)."""
+    base = _args(c)[1:]
+    at = [_stability((d, *base)) for d in (1 - 1e-7, 1.0, 1 + 1e-7)]
+    if any(r.bias_adjusted is None or any("complex" in n for n in r.notes) for r in at):
+        return
+    roots = np.array(at[1].bias_adjusted_roots)
+    if roots.size > 1 and abs(abs(roots[1] - base[1]) - abs(roots[0] - base[1])) < 1e-3:
+        return  # two roots nearly equidistant from the long estimate: either may lead
+    for r in (at[0], at[2]):
+        assert r.bias_adjusted == pytest.approx(at[1].bias_adjusted, rel=1e-4, abs=1e-6)
+
+
+@settings(max_examples=100, deadline=None)
+@given(cases, st.sampled_from([1e-7, 1e-3, 1e4]))
+def test_the_roots_do_not_depend_on_the_units(c, k):
+    """Outcome measured in other units (b x k, var_outcome x k²): the same roots x k, the
+    same count of real roots (the root test is scale-free)."""
+    delta, b0, b1, r0, r1, r_max, s_y2, s_x2, tau = _args(c)
+    one = _stability((delta, b0, b1, r0, r1, r_max, s_y2, s_x2, tau))
+    other = _stability((delta, k * b0, k * b1, r0, r1, r_max, k * k * s_y2, s_x2, tau))
+    assert len(other.bias_adjusted_roots) == len(one.bias_adjusted_roots)
+    np.testing.assert_allclose(np.array(other.bias_adjusted_roots) / k,
+                               one.bias_adjusted_roots, rtol=1e-6, atol=1e-9)  # fmt: skip
+
+
+def test_the_issue_examples():
+    # issue 19: reported 35.01 while the root nearest the long estimate is 0.458
+    res = coefficient_stability(0.499, 0.394, 0.597, 0.497, var_outcome=2.801,
+                                var_treatment=1.004, var_treatment_residual=0.235,
+                                r2_max=0.8975)  # fmt: skip
+    assert res.bias_adjusted == pytest.approx(0.4583, abs=1e-4)
+    assert "nearest the long estimate is reported at every delta" in " ".join(res.notes)
+    # delta 1 jumped to -46.56 where delta 1 -+ 1e-6 give 0.5127
+    for delta in (0.999999, 1.0, 1.000001):
+        res = coefficient_stability(
+            0.5, 0.30, 0.45, 0.31, var_outcome=1, var_treatment=1,
+            var_treatment_residual=0.2, r2_max=0.9, delta=delta,
+        )  # fmt: skip
+        assert res.bias_adjusted == pytest.approx(0.5127, abs=1e-4)
+
+
+def test_r_max_at_the_long_r2_leaves_the_long_estimate():
+    res = coefficient_stability(0.5, 0.1, 0.4, 0.3, var_outcome=1, var_treatment=1,
+                                var_treatment_residual=0.5, r2_max=0.3)  # fmt: skip
+    assert res.bias_adjusted == 0.4
+
+
+def test_a_complex_near_pair_is_said():
+    res = coefficient_stability(-0.4222, 0.7759, 0.2136, 0.8706, var_outcome=3.1037,
+                                var_treatment=1.9081, var_treatment_residual=1.4863,
+                                r2_max=0.8856, delta=3.669)  # fmt: skip
+    assert res.bias_adjusted_roots == pytest.approx((-2.015,), abs=1e-3)
+    assert "are a complex pair" in " ".join(res.notes)
+    assert "the only real root is a far one" in " ".join(str(res).split())
+    assert "far from the long estimate" in res.document().sentences[0]
+
+
+def test_a_far_target_gives_the_limit_not_an_overflow():
+    res = coefficient_stability(0.5, 0.1, 0.4, 0.3, var_outcome=1, var_treatment=1,
+                                var_treatment_residual=0.5, r2_max=0.39, target=1e308)  # fmt: skip
+    assert res.delta_for_target == pytest.approx(1.0)
 
 
 @given(st.floats(0.1, 0.9), st.floats(0.1, 0.9))

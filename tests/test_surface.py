@@ -85,7 +85,7 @@ def test_malformed_files_exit_2(run, tmp_path, name, content):
     path.write_bytes(content)
     res = run("partial-r2", "--data", path, "--formula", "y ~ t", "--treatment", "t")
     assert res.exit_code == 2
-    assert res.stderr.startswith(f"Error: `data`: could not read {path} as ")
+    assert res.stderr.startswith(f"Error: `--data`: could not read {path} as ")
     assert res.stderr.count("\n") == 1
 
 

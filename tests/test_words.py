@@ -202,9 +202,9 @@ def test_one_run_writes_several_outputs(run, tmp_path):
         (("evalue", "--scale", "rr", "--estimate", 2, "--cii", 1, 3),
          "Error: No such option '--cii'. Did you mean '--ci'?"),
         (("evalue", "--scale", "rr", "--estimate", 2, "--plot", "x.jpg"),
-         "Error: `plot` must end in .png, .svg or .pdf; got 'x.jpg'"),
+         "Error: `--plot` must end in .png, .svg or .pdf; got 'x.jpg'"),
         (("tipping", "--scale", "rr", "--estimate", 2, "--plot", "/no/such/x.png"),
-         "Error: `plot`: folder '/no/such' does not exist"),
+         "Error: `--plot`: folder '/no/such' does not exist"),
     ],
 )  # fmt: skip
 def test_errors_name_the_option(run, args, message):
@@ -226,18 +226,18 @@ def test_plot_problems_are_reported_before_any_work(run, monkeypatch):
     monkeypatch.setattr(adapter, "fit_formula", never)
     res = run("partial-r2", "--data", DEMO, "--formula", FORMULA, "--treatment", "commute_min",
               "--plot", "x.gif")  # fmt: skip
-    assert res.exit_code == 2 and "`plot` must end in .png" in res.stderr
+    assert res.exit_code == 2 and "`--plot` must end in .png" in res.stderr
 
 
 @pytest.mark.parametrize(
     "formula, treatment, benchmark, message",
     [
         ("sbp ~ commute_min + ag", "commute_min", None,
-         "`formula` uses column 'ag', which is not in the data"),
-        (FORMULA, "commute", None, "`treatment` 'commute' is not a column of the data"),
-        (FORMULA, "commute_min", "smokr", "`benchmark` 'smokr' is not a column of the data"),
+         "`--formula` uses column 'ag', which is not in the data"),
+        (FORMULA, "commute", None, "`--treatment` 'commute' is not a column of the data"),
+        (FORMULA, "commute_min", "smokr", "`--benchmark` 'smokr' is not a column of the data"),
         ("sbp ~ commute_min + age", "commute_min", "smoker",
-         "`benchmark` 'smoker' is not in the formula"),
+         "`--benchmark` 'smoker' is not in the formula"),
     ],
 )  # fmt: skip
 def test_names_are_checked_against_the_data_before_the_fit(

@@ -79,7 +79,9 @@ def check_names(data: Any, formula: str, treatment: str, benchmarks: Any = ()) -
             f"`treatment` {treatment!r} is a column of the data but not a term of the "
             f"formula's right side: {formula.split('~', 1)[1].strip()}"
         )
-    for name, _, _ in benchmark_specs(benchmarks):
+    for given_name, _, _ in benchmark_specs(benchmarks):
+        # C(region) as the covariate table names it, or region as the data does: both
+        name = _column_of_term(given_name)
         if name not in columns and not any(name == c or name in c for c in right):
             raise InputError(f"`benchmark` {name!r} is not a column of the data; columns: {shown}")
         if name in columns and name not in right:
@@ -87,6 +89,12 @@ def check_names(data: Any, formula: str, treatment: str, benchmarks: Any = ()) -
                 f"`benchmark` {name!r} is not in the formula: a benchmark must be a measured "
                 "covariate of the model"
             )
+
+
+def _column_of_term(name: str) -> str:
+    """`region` for a categorical term written C(region) (or C(region, Treatment(...)))."""
+    m = re.fullmatch(r"\s*C\(\s*([^,()]+?)\s*(,.*)?\)\s*", str(name))
+    return m.group(1) if m else str(name)
 
 
 def find_treatment(treatment: str, names: Sequence[str], groups: dict[str, list[int]]) -> int:
@@ -156,6 +164,7 @@ def _resolve_benchmark(name, covariates):
     by_name = {c.name: c for c in covariates}
     if name in by_name:
         return by_name[name]
+    name = _column_of_term(name)  # C(region) as written by us, when the term is spelled otherwise
     # A data column used inside a term: `region` for C(region), or a single dummy column.
     hits = [
         c

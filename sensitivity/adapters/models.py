@@ -250,7 +250,7 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
     se = float(summary.loc[treatment, "se(coef)"])
     from scipy.special import ndtri
 
-    z = float(ndtri(1 - alpha / 2))
+    z = float(-ndtri(alpha / 2))
     events = np.asarray(fitter.event_observed, float)
     share = float(events.mean())
     est = float(np.exp(b * contrast))

@@ -57,14 +57,117 @@ class Command(click.Command):
             elif _NEGATIVE.match(token):
                 token = _MARK + token
             out.append(token)
+        from sensitivity.common.errors import InputError
+
+        _refuse_repeats(self, args)
+        ctx.meta["typed"] = {a.split("=", 1)[0] for a in args if a.startswith("--")}
         try:
-            return super().parse_args(ctx, out)
+            rest = super().parse_args(ctx, out)
+        except InputError as err:  # from an option's callback (a --plot path, say)
+            raise type(err)(as_typed(self, str(err), ctx.meta["typed"])) from err.__cause__
         except click.NoSuchOption as err:
             if err.option_name in RENAMED:
                 raise click.UsageError(
                     f"No such option {err.option_name!r}; use {RENAMED[err.option_name]}"
                 ) from None
             raise
+        _refuse_non_finite(self, ctx)
+        return rest
+
+    def invoke(self, ctx: click.Context) -> Any:
+        from sensitivity.common.errors import InputError
+
+        try:
+            return super().invoke(ctx)
+        except InputError as err:
+            # the library names its Python argument (`ci_level`); the user typed --ci-level
+            typed = ctx.meta.get("typed")
+            raise type(err)(as_typed(self, str(err), typed)) from err.__cause__
+
+
+def _option_name(param: click.Parameter) -> str:
+    """The option as a user types it: the first long name (--ci), else the first."""
+    names = [n for n in param.opts if n.startswith("--")] or list(param.opts)
+    return names[0]
+
+
+def as_typed(command: click.Command, message: str, typed: set[str] | None = None) -> str:
+    """`message` with each `argument` that is one of the command's options as typed: `ci_level`
+    becomes `--ci-level` where the command has --ci-level (but not where the user gave a longer
+    option it begins, `typed`: a value from --propensity-column is not --propensity's). Only
+    literal matches (`outcome` is
+    not --outcome-frequency), and in a message about a row of a file only the leading name
+    (the rest name the file's columns)."""
+    typed = typed or set()
+    options = {
+        opt.removeprefix("--").replace("-", "_"): opt
+        for param in command.params
+        if isinstance(param, click.Option)
+        for opt in param.opts
+        if opt.startswith("--")
+        # not --propensity when the user gave --propensity-column (whose values the message
+        # is about), unless --propensity itself was given
+        and (opt in typed or not any(t.startswith(opt + "-") for t in typed))
+    }
+    pattern = re.compile(r"`([A-Za-z_][\w-]*)`")
+    count = 1 if re.search(r"\brow \d", message) else 0
+
+    def swap(m: re.Match) -> str:
+        name = m.group(1)
+        return f"`{options.get(name.replace('-', '_'), name)}`"
+
+    return pattern.sub(swap, message, count=count)
+
+
+def _refuse_repeats(command: click.Command, args: list[str]) -> None:
+    """A single-value option given twice is an error, not a silent last-one-wins."""
+    options = {}
+    for param in command.params:
+        if isinstance(param, click.Option):
+            for name in param.opts + param.secondary_opts:
+                options[name] = param
+    seen: set[str] = set()
+    skip = 0
+    for token in args:
+        if skip:
+            skip -= 1
+            continue
+        if token == "--":
+            break
+        name, inline = token.split("=", 1)[0], "=" in token and token.startswith("--")
+        param = options.get(name if inline else token)
+        if param is None:
+            continue
+        skip = 0 if param.is_flag or param.count or inline else param.nargs
+        if param.multiple or param.count:
+            continue
+        if param.name in seen:
+            raise click.UsageError(f"{_option_name(param)} was given more than once; give it once")
+        seen.add(param.name)  # type: ignore[arg-type]
+
+
+def _refuse_non_finite(command: click.Command, ctx: click.Context) -> None:
+    """Every number an option takes is finite: nan or inf is an error naming the option.
+    (Positional numbers are checked by the library, whose message names them.)"""
+    import math
+
+    for param in command.params:
+        if not isinstance(param, click.Option):
+            continue
+        value = ctx.params.get(param.name) if param.name else None
+        if value is None:
+            continue
+        flat = []
+        stack = [value]
+        while stack:
+            v = stack.pop()
+            if isinstance(v, (tuple, list)):
+                stack.extend(v)
+            else:
+                flat.append(v)
+        for v in flat:
+            if isinstance(v, float) and not math.isfinite(v):
+                raise click.BadParameter(f"must be a finite number; got {v}", ctx, param)
 
 
 #: Above this many rows JSON is written compact and streamed (people do not read it).
@@ -316,7 +419,9 @@ def emit(result: Any, fmt: str, outputs: tuple[str, ...] | str | None) -> None:
         formats.append(fmt)
     for path in outputs or ():
         chosen = EXTENSIONS.get(Path(path).suffix.lower(), fmt)
-        with open(path, "wb") as sink:
+        from sensitivity.output.atomic import replacing
+
+        with replacing(path) as sink:  # whole or not at all
             _write(result, chosen, sink)
         click.echo(f"Wrote {path}", err=True)
         formats.append(chosen)

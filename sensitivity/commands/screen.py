@@ -178,12 +178,15 @@ def screen_cmd(
         from sensitivity.adapters.files import read_table
         from sensitivity.pooling.data import pool_table
 
-        pooled = pool_table(
-            read_table(file, "file"),
-            threshold=pool_threshold,
-            columns=_column_map(column_map) or None,
-            from_text=from_text,
-        )
+        try:
+            pooled = pool_table(
+                read_table(file, "file"),
+                threshold=pool_threshold,
+                columns=_column_map(column_map) or None,
+                from_text=from_text,
+            )
+        except InputError as err:  # the pool's threshold is --pool here (--threshold is ours)
+            raise InputError(str(err).replace("`threshold`", "`--pool`")) from None
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
     options: dict[str, Any] = {"columns": _column_map(column_map), "from_text": from_text,
                "confounders": confounders, "alpha": alpha}  # fmt: skip
@@ -212,17 +215,23 @@ def screen_cmd(
         from sensitivity.adapters.files import text_types
 
         types = text_types(file, mark)
-    for batch in stream:
-        typed = with_types(batch, types) if types else batch
-        if writer is not None:
-            writer.write(typed if writer.kind == "parquet" else batch)
-        if flagged_writer is not None:
-            import polars as pl
+    try:
+        for batch in stream:
+            typed = with_types(batch, types) if types else batch
+            if writer is not None:
+                writer.write(typed if writer.kind == "parquet" else batch)
+            if flagged_writer is not None:
+                import polars as pl
 
-            rows = typed if flagged_writer.kind == "parquet" else batch
-            flagged_writer.write(rows.filter(pl.col("error") != ""))
-        if progress:
-            click.echo("\r" + _bar(share.next(), tally.rows), err=True, nl=False)
+                rows = typed if flagged_writer.kind == "parquet" else batch
+                flagged_writer.write(rows.filter(pl.col("error") != ""))
+            if progress:
+                click.echo("\r" + _bar(share.next(), tally.rows), err=True, nl=False)
+    except BaseException:
+        for open_writer in (writer, flagged_writer):
+            if open_writer is not None:
+                open_writer.abort()  # nothing half-written is left under the output's name
+        raise
     if progress:
         click.echo("", err=True)
     source = click.format_filename(file)

@@ -130,8 +130,17 @@ def as_array(value: object, name: str) -> np.ndarray:
     """`value` as a float array (0-d for a scalar); InputTypeError names `name` if not numeric."""
     try:
         return np.asarray(value, dtype=float)
-    except (TypeError, ValueError):
-        raise InputTypeError(f"`{name}` must be numeric; got {value!r}") from None
+    except OverflowError:  # an int beyond the float range (10**400)
+        raise InputError(f"`{name}` must be a finite number; got one beyond 1.8e308") from None
+    except (TypeError, ValueError, ArithmeticError):  # also pd.NA, Decimal('sNaN')
+        shown = repr(value) if len(repr(value)) <= 60 else repr(value)[:57] + "..."
+        raise InputTypeError(f"`{name}` must be numeric; got {shown}") from None
+
+
+def require_numbers(value: object, name: str) -> np.ndarray:
+    """`value` as a float array in which NaN stands for a missing entry (batch helpers);
+    InputError for what is not a number at all."""
+    return as_array(value, name)
 
 
 def require(value: object, name: str, *rules: Rule) -> np.ndarray:
@@ -143,6 +152,36 @@ def require(value: object, name: str, *rules: Rule) -> np.ndarray:
             first = arr[bad].flat[0] if arr.ndim else float(arr)
             raise InputError(f"`{name}` {rule.text}; got {show(first)}")
     return arr
+
+
+def require_scalar(value: object, name: str, *rules: Rule) -> float:
+    """`require` for one number: InputError when `value` holds none or several."""
+    arr = require(value, name, *rules)
+    if arr.size != 1:
+        raise InputError(f"`{name}` must be a single number; got {arr.size} values")
+    return float(arr.reshape(-1)[0])
+
+
+def require_seed(value: object, name: str = "seed") -> int | None:
+    """A random seed: None, or a whole number from 0 to 2^63 - 1 (numpy refuses the rest)."""
+    if value is None:
+        return None
+    v = require_scalar(value, name)
+    if v < 0 or v != int(v) or v >= 2**63:
+        raise InputError(f"`{name}` must be a whole number from 0 to 2^63 - 1; got {v:g}")
+    return int(v)
+
+
+def check_pair(value: object, name: str = "ci") -> tuple[object, object] | None:
+    """A (lower, upper) pair as given, or None; InputError for anything else (a number, a
+    string, a one-element or three-element sequence)."""
+    if value is None:
+        return None
+    if isinstance(value, (str, bytes)) or not hasattr(value, "__len__"):
+        raise InputTypeError(f"`{name}` must be a pair (lower, upper); got {value!r}")
+    if len(value) != 2:  # type: ignore[arg-type]
+        raise InputError(f"`{name}` must be a pair (lower, upper); got {len(value)} values")  # type: ignore[arg-type]
+    return value[0], value[1]  # type: ignore[index]
 
 
 def require_all(

@@ -67,8 +67,13 @@ def as_text(values: object) -> np.ndarray:
     if arr.dtype.kind == "U":
         return arr
     if arr.dtype.kind == "O":
-        with np.errstate(invalid="ignore"):
-            missing = (arr == None) | (arr != arr)  # noqa: E711 - elementwise; NaN != itself
+        try:
+            with np.errstate(invalid="ignore"):
+                missing = (arr == None) | (arr != arr)  # noqa: E711 - elementwise; NaN != itself
+        except ArithmeticError:  # Decimal('sNaN') refuses even to be compared
+            missing = np.vectorize(
+                lambda v: v is None or (isinstance(v, float) and v != v), otypes=[bool]
+            )(arr)
         return np.where(missing, "", arr).astype(str)
     return arr.astype(str)
 

@@ -256,6 +256,8 @@ def debiased_fit(
     folds = int(folds)
     if seed is not None and (isinstance(seed, bool) or not isinstance(seed, (int, np.integer))):
         raise InputError(f"`seed` must be a whole number; got {seed!r}")
+    if seed is not None and not 0 <= seed < 2**32:  # scikit-learn's random_state range
+        raise InputError(f"`seed` must be a whole number from 0 to 2^32 - 1; got {seed}")
     trim = float(require(trim, "trim", OPEN_UNIT))
     if trim >= 0.5:
         raise InputError(f"`trim` must be below 0.5; got {trim:g}")

@@ -23,8 +23,9 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from ..common.checks import OPEN_UNIT, given, require, require_all
+from ..common.checks import given, require_all
 from ..common.errors import InputError
+from ..common.levels import check_level
 from ..common.scales import RARE_OUTCOME_CUTOFF
 from .bounds import BIASES, SELECTION_FACTORS, combined_evalue
 from .formulas import bounding_factor, evalue_of_interval, evalue_of_rr
@@ -135,7 +136,7 @@ def evalue(
     >>> round(float(res.evalue), 2), round(float(res.evalue_ci), 2)
     (7.26, 3.0)
     """
-    level = float(require(ci_level, "ci_level", OPEN_UNIT))
+    level = check_level(ci_level)
     if se is not None and level != 0.95:
         raise InputError(
             "`ci_level` applies to a `ci` you give; the interval from `se` is the 95% one "
@@ -159,7 +160,7 @@ def evalue(
     if np.any(beyond != ""):
         i = np.flatnonzero(beyond != "")[0]
         name = str(beyond.flat[i])
-        field_of = {"estimate": "estimate", "ci": "lower", "target": "target"}[name]
+        field_of = {"estimate": "estimate", "ci": "lower", "target": "target", "se": "se"}[name]
         value = np.broadcast_to(values[field_of], beyond.shape).flat[i]
         code = np.broadcast_to(values["scale"], beyond.shape).flat[i]
         raise InputError(overflow_message(name, value, str(code)))

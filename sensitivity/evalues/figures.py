@@ -10,6 +10,7 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
+from ..common.levels import level_text
 from ..output.figures import (
     LINE,
     Mark,
@@ -62,7 +63,7 @@ def evalue_figure(
     handles: list = []
     grid = np.linspace(1, xlim, 400)
     goal = "the null" if result.target_is_null else f"{float(result.target_value):g}"
-    level = f"{result.ci_level:.0%} CI"
+    level = f"{level_text(result.ci_level)} CI"
     for key, r, e in curves:
         a = grid[grid > r * (1 + 1e-9)]
         b = r * (a - 1) / (a - r)
@@ -116,6 +117,9 @@ def evalue_figure(
     return paths
 
 
+_FLOOR, _CEILING = 1e-12, 1e12
+
+
 def forest_figure(items: Sequence[tuple[str, Any]], paths: Sequence[str | Path]) -> list[Path]:
     """Every estimate on the risk-ratio scale with its interval, and its E-values beside.
 
@@ -126,26 +130,36 @@ def forest_figure(items: Sequence[tuple[str, Any]], paths: Sequence[str | Path])
     plt = pyplot()
     plt.rcParams.update(STYLE)
     n = len(items)
-    levels = {f"{r.ci_level:.0%} CI" for _, r in items if r.rr_ci is not None}
+    levels = {f"{level_text(r.ci_level)} CI" for _, r in items if r.rr_ci is not None}
     shared = levels.pop() if len(levels) == 1 else None
     fig, ax = plt.subplots(figsize=(8.6, 1.3 + 0.42 * n), layout="constrained")
     y = np.arange(n)[::-1]
     names = []
+    # the axis spans at most 1e-12 to 1e12 (a limit of 1e300 or an infinite one, from an SMD
+    # of 800, would break the log axis): what lies beyond is drawn to the edge with an arrow
+    limits = [float(v) for _, e in items
+              for v in ([e.rr] if e.rr_ci is None else [e.rr_ci[0], e.rr_ci[1]])]  # fmt: skip
+    low = max(min(limits + [1.0]) / 1.1, _FLOOR)
+    high = min(max(limits + [1.0]) * 1.1, _CEILING)
     for yi, (label, e) in zip(y, items, strict=True):
-        rr = float(e.rr)
+        rr = float(np.clip(float(e.rr), low, high))
         if e.rr_ci is not None:
-            ax.plot([float(e.rr_ci[0]), float(e.rr_ci[1])], [yi, yi], color="black", lw=1.4)
+            ends = [float(e.rr_ci[0]), float(e.rr_ci[1])]
+            shown = [float(np.clip(v, low, high)) for v in ends]
+            ax.plot(shown, [yi, yi], color="black", lw=1.4)
+            if ends[1] > high:
+                ax.plot([high], [yi], ">", color="black", ms=6, clip_on=False)
+            if ends[0] < low:
+                ax.plot([low], [yi], "<", color="black", ms=6, clip_on=False)
         ax.plot([rr], [yi], "s", color="black", ms=6)
         ci = "-" if e.evalue_ci is None else f"{float(e.evalue_ci):.2f}"
         ax.annotate(f"{float(e.evalue):.2f}   {ci}", (1.02, yi),
                     xycoords=("axes fraction", "data"), va="center", fontsize=8.5)  # fmt: skip
-        own = "" if shared or e.rr_ci is None else f" ({e.ci_level:.0%} CI)"
+        own = "" if shared or e.rr_ci is None else f" ({level_text(e.ci_level)} CI)"
         names.append(plot_label(label) + own)
     ax.axvline(1.0, color="#d62728", lw=1, ls=":")
     ax.set_yticks(y, names)
-    limits = [float(v) for _, e in items
-              for v in ([e.rr] if e.rr_ci is None else [e.rr_ci[0], e.rr_ci[1]])]  # fmt: skip
-    log_ticks(ax, min(limits + [1.0]) / 1.1, max(limits + [1.0]) * 1.1)
+    log_ticks(ax, low, high)
     level = f" ({shared})" if shared else " (each with its own interval level)"
     ax.set_xlabel(f"Estimate on the risk-ratio scale{level}, log axis")
     ax.annotate("E-value  (CI)", (1.02, n - 0.4), xycoords=("axes fraction", "data"),

@@ -13,6 +13,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..common.checks import require_numbers, show
+from ..common.errors import InputError
+
 
 def evalue_of_rr(rr: object) -> np.ndarray:
     """E-value of a risk ratio: the strength both confounder associations need to explain it.
@@ -42,10 +45,13 @@ def evalue_of_rr(rr: object) -> np.ndarray:
     >>> round(float(evalue_of_rr(3.9)), 2)
     7.26
     """
-    rr = np.asarray(rr, dtype=float)
-    with np.errstate(divide="ignore", over="ignore"):
+    rr = require_numbers(rr, "rr")
+    bad = rr <= 0  # NaN (a missing value in a batch) passes through as NaN
+    if np.any(bad):
+        raise InputError(f"`rr` must be positive; got {show(rr[bad].flat[0])}")
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
         r = np.where(rr < 1, 1 / rr, rr)
-    return r + np.sqrt(r) * np.sqrt(r - 1)  # not sqrt(r (r - 1)): no overflow below 1e308
+        return r + np.sqrt(r) * np.sqrt(r - 1)  # not sqrt(r (r - 1)): no overflow below 1e308
 
 
 def evalue_of_interval(lower: object, upper: object, target: object = 1.0) -> np.ndarray:

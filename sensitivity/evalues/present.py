@@ -6,6 +6,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..common.results import plain
 from ..common.scales import SCALES
 from ..output.document import Block, Document, Figure, prose, standard_tail
@@ -128,7 +129,7 @@ def pairs_table(result: EValueResult) -> Table | None:
 
 
 def level_name(result: EValueResult) -> str:
-    return f"{result.ci_level:.0%} CI"
+    return f"{level_text(result.ci_level)} CI"
 
 
 def sentence(result: EValueResult) -> str | None:
@@ -302,7 +303,7 @@ def confounder_sentences(bound: ConfounderBound) -> list[str]:
 
 def rd_document(r: Any) -> Document:
     """A risk difference's E-values."""
-    level = f"{r.ci_level:.0%} CI"
+    level = f"{level_text(r.ci_level)} CI"
     rows = (
         ("Estimate", f"{r.estimate:.4f} ({level} {r.ci[0]:.4f} to {r.ci[1]:.4f})",
          number(r.bounding_factor, 3), number(r.evalue)),
@@ -316,15 +317,32 @@ def rd_document(r: Any) -> Document:
         title=f"E-values: Risk difference ({a}/{n1} treated, {c}/{n0} controls)",
     )
     e = number(r.evalue)
-    lead = (
+    observed = (
         f"For the observed risk difference of {r.estimate:.4f} ({level} {r.ci[0]:.4f} to "
-        f"{r.ci[1]:.4f}), the E-value for the whole population is {e}: "
-        + strength_clause(e, "explain it away")
-        + " "
-        + (f"For the {level} limit of the bound nearest 0 to reach 0, equal risk ratios of "
-           f"{number(r.evalue_ci)} or more would be needed, and {number(r.evalue_ci)} could be "
-           "enough." if r.evalue_ci > 1 else "The bound's interval already includes 0.")
-    )  # fmt: skip
+        f"{r.ci[1]:.4f}), "
+    )
+    if np.isfinite(r.evalue):
+        lead = (
+            observed
+            + f"the E-value for the whole population is {e}: "
+            + strength_clause(e, "explain it away")
+        )
+    else:
+        # no cases in the group with the lower risk: the bound stays above 0 for every finite
+        # strength (issue 19: not "a risk ratio of at least inf each")
+        lead = observed + (
+            "no unmeasured confounder of any finite strength could explain it away in the "
+            "whole population under this bound, because there are no cases in the group with "
+            "the lower risk."
+        )
+    if r.evalue_ci <= 1:
+        lead += " The bound's interval already includes 0."
+    elif np.isfinite(r.evalue_ci):
+        lead += (f" For the {level} limit of the bound nearest 0 to reach 0, equal risk ratios "
+                 f"of {number(r.evalue_ci)} or more would be needed, and "
+                 f"{number(r.evalue_ci)} could be enough.")  # fmt: skip
+    else:
+        lead += " No finite strength brings the bound's confidence limit to 0."
     blocks: tuple[Block, ...] = (
         table,
         prose(lead, role="sentence"),

@@ -11,8 +11,9 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..common.checks import OPEN_UNIT, require
+from ..common.checks import require_scalar
 from ..common.errors import InputError
+from ..common.levels import check_level
 from .formulas import evalue_of_rr
 from .result import RiskDifferenceResult
 
@@ -85,7 +86,7 @@ def evalue_of_risk_difference(
         root = (b + np.sqrt(b**2 + 4 * f * (1 - f) * p0 * p1)) / (2 * f * p0)
         root = np.where(p0 > 0, root, np.inf)
         root = np.where(p1 == p0, 1.0, np.maximum(root, 1.0))
-        z = float(ndtri(1 - alpha / 2))
+        z = float(-ndtri(alpha / 2))
 
         def lower(bf: np.ndarray) -> np.ndarray:
             var = (f + (1 - f) / bf) ** 2 * p1 * (1 - p1) / n1 + (f * bf + 1 - f) ** 2 * p0 * (
@@ -117,7 +118,7 @@ def evalue_rd(counts: tuple[int, int, int, int], *, ci_level: float = 0.95) -> R
 
     if len(counts) != 4:
         raise InputError(f"`counts` must be four numbers; got {len(counts)}")
-    a, n1, c, n0 = (float(require(v, "counts")) for v in counts)
+    a, n1, c, n0 = (float(require_scalar(v, "counts")) for v in counts)
     for value in (a, n1, c, n0):
         if value < 0 or value != round(value):
             raise InputError(f"`counts` must be whole numbers, 0 or more; got {value:g}")
@@ -126,10 +127,10 @@ def evalue_rd(counts: tuple[int, int, int, int], *, ci_level: float = 0.95) -> R
             "`counts`: cases must not exceed totals, and totals must be positive; got "
             f"{a:g} of {n1:g} and {c:g} of {n0:g}"
         )
-    level = float(require(ci_level, "ci_level", OPEN_UNIT))
+    level = check_level(ci_level)
     out = evalue_of_risk_difference(a, n1, c, n0, alpha=1 - level)
     p1, p0 = a / n1, c / n0
-    half = float(ndtri(1 - (1 - level) / 2)) * np.sqrt(p1 * (1 - p1) / n1 + p0 * (1 - p0) / n0)
+    half = float(-ndtri((1 - level) / 2)) * np.sqrt(p1 * (1 - p1) / n1 + p0 * (1 - p0) / n0)
     notes = (
         "E-value of the risk difference in the whole population from the 2 x 2 counts: B* "
         "brings the bound (p1 - p0 B) f + (p1/B - p0)(1 - f) to 0, E = B* + sqrt(B* (B* - 1)) "

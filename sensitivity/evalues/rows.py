@@ -18,6 +18,7 @@ from ..common.checks import (
     PROBABILITY,
     Check,
     as_array,
+    check_pair,
     field,
     flag_kinds,
     given,
@@ -111,6 +112,7 @@ CHECKS: tuple[Check, ...] = (
         lambda s, sd: scale_in(s, "md") & ~given(sd),
         lambda s, sd: "`sd` is required for scale md: the outcome's standard deviation",
     ),
+    field("sd", FINITE, given, ("sd",)),
     field("sd", POSITIVE, given, ("sd",)),
     field("contrast", FINITE),
     field("contrast", POSITIVE),
@@ -119,12 +121,15 @@ CHECKS: tuple[Check, ...] = (
         lambda s, se, lo: given(se) & given(lo),
         lambda s, se, lo: f"give `se` or `ci` for scale {s}, not both",
     ),
+    field("se", FINITE, given, ("se",)),
     field("se", POSITIVE, given, ("se",)),
     Check(
         ("lower", "upper"),
         lambda lo, up: given(lo) != given(up),
         lambda lo, up: "`ci` needs both limits, lower and upper",
     ),
+    field("lower", FINITE, given, ("lower",)),
+    field("upper", FINITE, given, ("upper",)),
     field("lower", POSITIVE, lambda s, lo: ratio_scale(s) & given(lo), ("scale", "lower")),
     field("upper", POSITIVE, lambda s, up: ratio_scale(s) & given(up), ("scale", "upper")),
     interval_order(),
@@ -186,11 +191,22 @@ def beyond_double(values: dict[str, np.ndarray], out: dict[str, np.ndarray]) -> 
     est_bad = ~np.isfinite(out["evalue"]) | ~np.isfinite(out["rr"]) | ~(out["rr"] > 0)
     ci_bad = given(values["lower"]) & ~np.isfinite(out["evalue_ci"])
     target_bad = ~np.isfinite(out["rr_target"]) | ~(out["rr_target"] > 0)
-    return np.select([est_bad, ci_bad, target_bad], ["estimate", "ci", "target"], "").astype(object)
+    # an interval made from a huge se: exp(0.91 d -/+ 1.78 se) leaves the doubles
+    with np.errstate(invalid="ignore"):
+        se_bad = given(values["se"]) & (
+            ~np.isfinite(out["rr_upper"]) | ~(out["rr_lower"] > 0) | ~np.isfinite(out["evalue_ci"])
+        )
+    return np.select([est_bad, ci_bad, target_bad, se_bad], ["estimate", "ci", "target", "se"],
+                     "").astype(object)  # fmt: skip
 
 
 def overflow_message(name: str, value: float, scale: str) -> str:
     """The reason given for an input beyond double precision on the risk-ratio scale."""
+    if name == "se":
+        return (
+            f"`se` {show(value)} on the {scale} scale gives an interval beyond double precision "
+            "on the risk-ratio scale (about 1e-308 to 1e308), so its E-value cannot be computed"
+        )
     return (
         f"`{name}` {show(value)} on the {scale} scale maps to a risk ratio beyond double "
         "precision (about 1e-308 to 1e308), so its E-value cannot be computed"
@@ -221,12 +237,16 @@ def single_inputs(
 ) -> dict[str, np.ndarray]:
     """The arguments of `evalue` as arrays under the names the rules use (NaN or "" where
     not given; the interval as ``lower`` and ``upper``)."""
+    ci = check_pair(ci, "ci")
     if ci is not None:
-        if len(ci) != 2:
-            raise InputError(f"`ci` must be a pair (lower, upper); got {len(ci)} values")
         lower, upper = as_array(ci[0], "ci"), as_array(ci[1], "ci")
     else:
         lower = upper = np.asarray(np.nan)
+    supplied = {"scale": scale, "estimate": estimate, "se": se, "sd": sd, "contrast": contrast,
+                "prevalence": prevalence, "target": target}  # fmt: skip
+    for name, value in supplied.items():
+        if value is not None and np.asarray(value, object).size == 0:
+            raise InputError(f"`{name}` must hold at least one value; got none")
     scale_arr = _text(scale)
     values = {
         "scale": scale_arr,
@@ -305,7 +325,9 @@ def evalue_row_kinds(
     )
     beyond = np.where(good, beyond_double(safe, out), "")
     for i in np.flatnonzero(beyond != ""):
-        field_of = {"estimate": "estimate", "ci": "lower", "target": "target"}[beyond[i]]
+        field_of = {"estimate": "estimate", "ci": "lower", "target": "target", "se": "se"}[
+            beyond[i]
+        ]
         reasons[i] = overflow_message(beyond[i], values[field_of][i], values["scale"][i])
         kinds[i] = reasons[i]  # names no value that varies by rule: its own kind
     good = reasons == ""

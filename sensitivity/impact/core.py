@@ -28,7 +28,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..common.checks import OPEN_UNIT, POSITIVE, require
+from ..common import levels
+from ..common.checks import POSITIVE, require_scalar
 from ..common.errors import InputError
 from .result import ImpactResult
 
@@ -78,25 +79,28 @@ def impact_threshold(
     >>> round(float(res.bias_share), 2)
     0.85
     """
-    from scipy.special import stdtrit
-
-    alpha = float(require(alpha, "alpha", OPEN_UNIT))
+    alpha = levels.check_alpha(alpha)
     if t is None and (estimate is None or se is None):
         raise InputError("give `estimate` and `se`, or `t`")
     if t is not None and se is not None:
         raise InputError("give `se` or `t`, not both")
     if se is not None:
-        se = float(require(se, "se", POSITIVE))
-        estimate = float(require(estimate, "estimate"))
-        t = estimate / se
-    t = float(require(t, "t"))
+        se = float(require_scalar(se, "se", POSITIVE))
+        estimate = float(require_scalar(estimate, "estimate"))
+        with np.errstate(over="ignore", under="ignore"):
+            t = float(np.float64(estimate) / se)
+        if not np.isfinite(t):
+            raise InputError(
+                f"`estimate` / `se` must be a finite t statistic; got {estimate:g} / {se:g}"
+            )
+    t = float(require_scalar(t, "t"))
     if dof is not None and (n is not None or covariates is not None):
         raise InputError("give `dof`, or `n` and `covariates`, not both")
     if dof is None:
         if n is None or covariates is None:
             raise InputError("give `n` and `covariates` (or `dof`)")
-        n = int(require(n, "n", POSITIVE))
-        covariates = int(require(covariates, "covariates"))
+        n = int(require_scalar(n, "n", POSITIVE))
+        covariates = int(require_scalar(covariates, "covariates"))
         if covariates < 0:
             raise InputError(f"`covariates` must be 0 or more; got {covariates}")
         if covariates + 2 >= n:
@@ -106,10 +110,16 @@ def impact_threshold(
                 f"got n = {n}"
             )
         dof = float(n - covariates - 2)
-    dof = float(require(dof, "dof", POSITIVE))
-    t_crit = float(stdtrit(dof, 1 - alpha / 2))
-    r = t / np.sqrt(t**2 + dof)
-    r_crit = t_crit / np.sqrt(t_crit**2 + dof)
+    dof = float(require_scalar(dof, "dof", POSITIVE))
+    t_crit = float(levels.t_critical(alpha, dof))
+    if not np.isfinite(t_crit):
+        raise InputError(
+            f"`alpha` {alpha:g} has no finite critical t on {dof:g} degrees of freedom; give a "
+            "larger alpha"
+        )
+    # t / sqrt(t² + dof) through hypot: no overflow at t = 1e155
+    r = t / float(np.hypot(t, np.sqrt(dof)))
+    r_crit = t_crit / float(np.hypot(t_crit, np.sqrt(dof)))
     sign = 1.0 if r >= 0 else -1.0
     size = abs(r)
     if size > r_crit:
@@ -121,13 +131,17 @@ def impact_threshold(
         k = -r2
         component = np.sqrt(r2)
         significant = False
-    share = None
-    threshold = None
-    if se is not None and estimate is not None:
-        threshold = t_crit * se
-        b = abs(estimate)
-        share = 1 - threshold / b if b > threshold else 1 - b / threshold if threshold else 0.0
-    swapped = None if share is None or n is None else n * share
+    # the shares need t alone: d# / |b| = t# / |t| (issue 19: from t and dof too)
+    threshold = None if se is None else t_crit * se
+    size_t = abs(t)
+    growth = None
+    if size_t > t_crit:
+        share = 1 - t_crit / size_t
+    else:
+        share = 1 - size_t / t_crit
+        # short of significance: the coefficient itself must grow by d#/|b| - 1 to reach d#
+        growth = t_crit / size_t - 1 if size_t > 0 else None
+    swapped = None if n is None else n * share
     return ImpactResult(
         estimate=estimate,
         se=se,
@@ -145,4 +159,5 @@ def impact_threshold(
         estimate_threshold=threshold,
         bias_share=share,
         swapped_observations=swapped,
+        estimate_growth=growth,
     )

@@ -35,18 +35,26 @@ def table(r: ImpactResult) -> Table:
             else "Share of the size significance needs that bias would have to be hiding"
         )
         rows.append((what, percent(r.bias_share)))  # fmt: skip
+    if r.estimate_growth is not None:
+        rows.append(("Growth the coefficient needs to reach significance",
+                     percent(r.estimate_growth)))  # fmt: skip
     if r.swapped_observations is not None and r.significant:
         rows.append(("Observations to swap for ones with no treatment effect",
                      f"{r.swapped_observations:,.0f}"))  # fmt: skip
     return Table(
         ("From the regression", "Value"),
         tuple(rows),
-        title=f"What it would take to {change} significance (t = {r.t:.2f}, {r.dof:,.0f} df)",
+        title=f"What it would take to {change} significance (t = {_t(r.t)}, {r.dof:,.0f} df)",
         footnotes=(
             f"Degrees of freedom: {_dof(r)}; two-sided critical t {r.t_critical:.3f}. "
             "Correlations are partial on the model's covariates.",
         ),
     )
+
+
+def _t(t: float) -> str:
+    """A t statistic as printed: two decimals, or three significant digits when huge."""
+    return f"{t:.2f}" if abs(t) < 1e6 else f"{t:.3g}"
 
 
 def sentence(r: ImpactResult) -> str:
@@ -81,6 +89,11 @@ def sentence(r: ImpactResult) -> str:
             text += (
                 f". Put another way, bias would have to be hiding {percent(r.bias_share)} of "
                 f"the size significance needs ({number(r.estimate_threshold, 3)})"
+            )
+        if r.estimate_growth is not None:
+            text += (
+                f"; the coefficient itself would have to grow by {percent(r.estimate_growth)} "
+                "to reach it"
             )
     return text + "."
 

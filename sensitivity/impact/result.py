@@ -30,6 +30,8 @@ class ImpactResult(Result):
     estimate_threshold: float | None  # t_critical x se
     bias_share: float | None  # the share of the coefficient bias would have to account for
     swapped_observations: float | None  # n x bias_share: observations swapped for no-effect ones
+    # short of significance: the proportion by which the coefficient must grow to reach it
+    estimate_growth: float | None = None
     cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
     notes: tuple[str, ...] = ()
     _repr_fields = ("t", "dof", "itcv", "bias_share")
@@ -54,6 +56,7 @@ class ImpactResult(Result):
                 "estimate_threshold": self.estimate_threshold,
                 "bias_share": self.bias_share,
                 "swapped_observations": self.swapped_observations,
+                "estimate_growth": self.estimate_growth,
                 "notes": list(self.all_notes()),
             }
         )

@@ -27,8 +27,9 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..common.checks import OPEN_UNIT, require
+from ..common.checks import require, require_scalar
 from ..common.errors import InputError
+from ..common.levels import check_alpha
 from .result import MatchedResult
 
 #: Up to this many operations (pairs x doubled-rank total, about 400 pairs) the exact
@@ -64,8 +65,9 @@ def sign_test_bounds(discordant: int, treated_events: int, gamma: ArrayLike, *,
         lower = betainc(k, d - k + 1, lo) if k > 0 else np.ones_like(g)
         return np.asarray(upper), np.asarray(lower)
     kc = k - 0.5 if continuity else k
-    upper = 1 - ndtr((kc - d * hi) / np.sqrt(d * hi * lo))
-    lower = 1 - ndtr((kc - d * lo) / np.sqrt(d * hi * lo))
+    # the upper tail as ndtr(-z), not 1 - ndtr(z): a bound of 3.6e-19 does not underflow to 0
+    upper = ndtr(-(kc - d * hi) / np.sqrt(d * hi * lo))
+    lower = ndtr(-(kc - d * lo) / np.sqrt(d * hi * lo))
     return np.asarray(upper), np.asarray(lower)
 
 
@@ -77,7 +79,12 @@ def sign_test_gamma(discordant: int, treated_events: int, alpha: float) -> float
     if k == 0 or sign_test_bounds(d, k, 1.0)[0][0] >= alpha:
         return None
     p = float(betaincinv(k, d - k + 1, alpha))
-    return p / (1 - p)
+    if p <= 0.5:
+        return p / (1 - p)
+    # near p = 1 take 1 - p from the mirrored inverse, I_p(a, b) = 1 - I_(1-p)(b, a): no
+    # division by a 1 - p that rounded to 0
+    q = float(betaincinv(d - k + 1, k, 1 - alpha))
+    return (1 - q) / q if q > 0 else float("inf")
 
 
 def ranks(differences: ArrayLike, zeros: str = "pratt") -> tuple[np.ndarray, np.ndarray]:
@@ -261,7 +268,7 @@ def _signed_rank_tail(q: np.ndarray, t: float, p: np.ndarray, method: str) -> np
     if method == "exact":
         return _tail_exact(q, t, p)
     s1, s2 = q.sum(), np.square(q).sum()
-    return np.asarray(1 - ndtr((t - p * s1) / np.sqrt(p * (1 - p) * s2)))
+    return np.asarray(ndtr(-(t - p * s1) / np.sqrt(p * (1 - p) * s2)))  # upper tail, no 1 -
 
 
 def signed_rank_bounds(differences: ArrayLike, gamma: ArrayLike, *, method: str = "exact",
@@ -404,6 +411,16 @@ def _gamma_at(alpha: float, upper_at: object) -> float | None:
     return float(np.exp(root))
 
 
+def _whole(value: object, name: str) -> int:
+    """A count: a finite whole number, 0 or more (a Decimal or numpy integer too)."""
+    v = float(require_scalar(value, name))
+    if v < 0 or v != int(v):
+        raise InputError(f"`{name}` must be a whole number, 0 or more; got {value!r}")
+    if v > 2**53:  # beyond it a count is no longer held exactly
+        raise InputError(f"`{name}` must be at most 2^53 (9.0e15); got {v:g}")
+    return int(v)
+
+
 def rosenbaum_bounds(
     *,
     differences: ArrayLike | None = None,
@@ -434,7 +451,8 @@ def rosenbaum_bounds(
     >>> 5 < res.gamma_at_alpha < 6
     True
     """
-    alpha = float(require(alpha, "alpha", OPEN_UNIT))
+    alpha = check_alpha(alpha)
+    missing = _whole(missing, "missing")
     if method not in ("exact", "normal"):
         raise InputError(f"`method` must be exact or normal; got {method!r}")
     if zeros not in ("pratt", "drop"):
@@ -462,15 +480,21 @@ def rosenbaum_bounds(
             return float(_signed_rank_tail(q, t, np.array([x / (1 + x)]), method)[0])
 
         hl = hodges_lehmann_range(d, g) if d.size <= MAX_HL_PAIRS else (None, None)
+        hl_note = () if d.size <= MAX_HL_PAIRS else (
+            f"The Hodges-Lehmann range is not given above {MAX_HL_PAIRS:,} pairs (its pairwise "
+            f"averages grow as the square of the pairs); this test has {d.size:,}.",
+        )  # fmt: skip
         return MatchedResult(
             test="signed-rank", pairs=int(d.size), statistic=t, alpha=alpha, method=method,
             zeros=zeros, gamma=g, p_upper=upper, p_lower=lower,
             gamma_at_alpha=_gamma_at(alpha, at), zero_pairs=int(np.sum(d == 0)),
             missing=missing, estimate_low=hl[0], estimate_high=hl[1], alternative=alternative,
+            notes=hl_note,
         )  # fmt: skip
     if discordant is None or treated_events is None:
         raise InputError("give `differences`, or `discordant` and `treated_events`")
-    dd, k = int(discordant), int(treated_events)
+    dd, k = (_whole(v, name) for v, name in ((discordant, "discordant"),
+                                               (treated_events, "treated_events")))  # fmt: skip
     if dd < 2:
         raise InputError(f"`discordant` must be at least 2 pairs; got {dd}")
     if not 0 <= k <= dd:

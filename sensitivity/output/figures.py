@@ -88,12 +88,23 @@ def figure_paths(path: str | Path | Sequence[str | Path], argument: str = "plot"
 
 
 def save_figure(fig: Any, paths: Sequence[str | Path]) -> list[Path]:
-    """Write `fig` to every path (format by extension) and close it."""
-    for path in paths:
-        fig.savefig(
-            path, metadata={"Creator": "sensitivity"} if str(path).endswith(".pdf") else None
-        )
-    pyplot().close(fig)
+    """Write `fig` to every path (format by extension), each whole or not at all, and close it."""
+    from .atomic import commit, discard, temporary_beside
+
+    try:
+        for path in paths:
+            temporary = temporary_beside(path)
+            try:
+                fig.savefig(
+                    temporary, format=Path(path).suffix.lstrip(".").lower() or None,
+                    metadata={"Creator": "sensitivity"} if str(path).endswith(".pdf") else None,
+                )  # fmt: skip
+                commit(temporary, path)
+            except BaseException:
+                discard(temporary)
+                raise
+    finally:
+        pyplot().close(fig)
     return [Path(p) for p in paths]
 
 
@@ -120,8 +131,11 @@ def legend_below(ax: Any, handles: list) -> None:
 
 
 def numbered_markers(ax: Any, points: Sequence[Mark], start: int = 1) -> None:
-    """Numbered markers: white discs with the row number of the table they belong to."""
+    """Numbered markers: white discs with the row number of the table they belong to (a
+    point that is not a number, such as an impossible benchmark, is skipped; its number too)."""
     for i, (x, y) in enumerate(points, start):
+        if not (np.isfinite(x) and np.isfinite(y)):
+            continue
         ax.plot([x], [y], "o", ms=13, mfc="white", mec="black", mew=1.0, zorder=5, clip_on=False)
         ax.annotate(str(i), (x, y), ha="center", va="center", fontsize=7.5, zorder=6)
 
@@ -190,9 +204,23 @@ def log_ticks(ax: Any, low: float, high: float) -> None:
     from matplotlib.ticker import FixedLocator, FuncFormatter, NullFormatter, NullLocator
 
     nice = [0.1, 0.2, 0.3, 0.5, 0.67, 0.8, 1, 1.25, 1.5, 2, 3, 5, 10, 20, 50, 100, 1e3, 1e4]
+    if not (np.isfinite(low) and np.isfinite(high) and 0 < low < high):
+        raise ValueError(f"log_ticks needs 0 < low < high, both finite; got {low}, {high}")
+    if high / low > 1e5:  # powers of ten where the nice values would crowd or run out
+        nice = [10.0**k for k in range(int(np.floor(np.log10(low))),
+                                       int(np.ceil(np.log10(high))) + 1, 2)]  # fmt: skip
     ax.set_xscale("log")
     ax.set_xlim(low, high)
-    ax.xaxis.set_major_locator(FixedLocator([v for v in nice if low <= v <= high]))
+    # keep ticks far enough apart that their labels cannot run together ("1.251.5" on a
+    # narrow panel): about 0.45 inch of axis between neighbours
+    box = ax.get_position()
+    width = max(box.width * ax.figure.get_figwidth(), 0.5)
+    gap = 0.45 / width * (np.log10(high) - np.log10(low))
+    ticks: list[float] = []
+    for v in (v for v in nice if low <= v <= high):
+        if not ticks or np.log10(v) - np.log10(ticks[-1]) >= gap:
+            ticks.append(v)
+    ax.xaxis.set_major_locator(FixedLocator(ticks))
     ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
     ax.xaxis.set_minor_locator(NullLocator())
     ax.xaxis.set_minor_formatter(NullFormatter())

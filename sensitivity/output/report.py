@@ -222,17 +222,9 @@ def write_report(
 
 def _write_text(path: Path, text: str) -> None:
     """Write whole or not at all: a temporary file beside the target, renamed into place."""
-    import os
-    import tempfile
+    from .atomic import write_text
 
-    handle, temporary = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
-    try:
-        with os.fdopen(handle, "w", encoding="utf-8") as sink:
-            sink.write(text)
-        os.replace(temporary, path)
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise
+    write_text(path, text)
 
 
 def simple_part(

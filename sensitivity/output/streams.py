@@ -23,6 +23,8 @@ TABLE_FORMATS = {
 #: practice); text cells written for them get a leading apostrophe. A cell that reads as a
 #: number ("-0.4") is left alone.
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+_EXCEL_ILLEGAL = __import__("re").compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
+_NUMBER = __import__("re").compile(r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
 
 
 def defuse(values: Any) -> Any:
@@ -43,6 +45,29 @@ def defuse(values: Any) -> Any:
     quote = pa.scalar("'", type=values.type)
     empty = pa.scalar("", type=values.type)
     return pc.if_else(fix, pc.binary_join_element_wise(quote, values, empty), values)
+
+
+def safe_name(name: str) -> str:
+    """A column name safe as a spreadsheet header cell: a formula-looking name gets "'"."""
+    text = str(name)
+    if text.startswith(FORMULA_STARTS) and not _NUMBER.match(text):
+        return "'" + text
+    return text
+
+
+def defuse_header(frame: Any) -> Any:
+    """A polars frame whose column names are safe header cells (the body is `defuse_frame`'s)."""
+    names = {n: safe_name(n) for n in frame.columns}
+    changed = {n: v for n, v in names.items() if v != n}
+    if not changed:
+        return frame
+    taken = set(frame.columns)
+    for old, new in changed.items():  # a defused name never collides with another column
+        while new in taken:
+            new = "'" + new
+        taken.add(new)
+        changed[old] = new
+    return frame.rename(changed)
 
 
 def defuse_frame(frame: Any, trusted: Collection[str] = ()) -> Any:
@@ -89,13 +114,24 @@ class TableWriter:
                 f"`{argument}`: cannot tell the format of {self.path.name!r} from its "
                 f"extension; use one of {', '.join(sorted(TABLE_FORMATS))}"
             )
+        if kind == "excel":
+            from importlib.util import find_spec
+
+            if find_spec("openpyxl") is None:
+                raise InputError(
+                    f"`{argument}`: writing {self.path.name!r} (Excel) needs openpyxl; install "
+                    "it (pip install openpyxl) or write .csv or .parquet"
+                )
         self.kind = kind
+        # every byte goes to a temporary file beside the target, renamed into place by close()
+        self._tmp: Any = None
         self._writer: Any = None
         self._sink: Any = None
         self._frames: list = []
         self._rows = 0
         self._behind: Any = None
         self._disk: Any = None
+        self._any_rows = False
         self._trusted = frozenset(trusted)
 
     def write(self, table: Any) -> None:
@@ -113,7 +149,7 @@ class TableWriter:
 
             if self._behind is None:
                 if self.kind != "parquet":
-                    self._sink = open(self.path, "wb")  # noqa: SIM115 - closed in close()
+                    self._sink = open(self._temporary(), "wb")  # noqa: SIM115 - closed in close()
                 if self.kind == "json":
                     self._sink.write(b'{"rows":[')
                 self._behind = WriteBehind(self._write_piece)
@@ -133,11 +169,12 @@ class TableWriter:
 
             arrow = frame.to_arrow()
             if self._writer is None:
-                self._writer = pq.ParquetWriter(str(self.path), arrow.schema)
+                self._writer = pq.ParquetWriter(str(self._temporary()), arrow.schema)
             self._writer.write_table(arrow.cast(self._writer.schema))
             return
         if self.kind != "json":
             separator = "," if self.kind == "csv" else "\t"
+            frame = defuse_header(frame)
             defuse_frame(frame, self._trusted).write_csv(
                 self._sink, include_header=first, separator=separator
             )
@@ -155,22 +192,60 @@ class TableWriter:
             from ..common.overlap import WriteBehind
 
             self._disk = WriteBehind(self._sink.write)
-        if not first:
+        if not self._any_rows:
+            self._any_rows = True
+        else:
             self._disk.put(b",")
         self._disk.put(rows)
 
     def close(self, extra: dict | None = None) -> None:
-        """Finish the file; for JSON, `extra` (plain data) follows the rows."""
-        import orjson
+        """Finish the file and rename it into place; for JSON, `extra` (plain data) follows the
+        rows. On an error nothing is left under the target's name."""
+        try:
+            if self._behind is not None:
+                self._behind.close()
+                self._behind = None
+            if self._disk is not None:
+                self._disk.close()
+                self._disk = None
+            self._finish(extra)
+        except BaseException:
+            self.abort()
+            raise
+        from .atomic import commit
 
-        if self._behind is not None:
-            self._behind.close()
-        if self._disk is not None:
-            self._disk.close()
+        if self._tmp is not None:
+            commit(self._tmp, self.path)
+            self._tmp = None
+
+    def _temporary(self) -> Any:
+        from .atomic import temporary_beside
+
+        if self._tmp is None:
+            self._tmp = temporary_beside(self.path)
+        return self._tmp
+
+    def abort(self) -> None:
+        """Stop without writing the target: close what is open and remove the temporary file
+        (the target, if it existed, is left as it was)."""
+        from .atomic import discard
+
+        for closer in (self._behind, self._disk, self._writer, self._sink):
+            try:
+                if closer is not None:
+                    closer.close()
+            except Exception:  # noqa: BLE001, S110 - the first error is the one to report
+                pass
+        self._behind = self._disk = self._writer = self._sink = None
+        discard(self._tmp)
+        self._tmp = None
+
+    def _finish(self, extra: dict | None) -> None:
+        import orjson
 
         if self.kind == "json":
             if self._sink is None:
-                self._sink = open(self.path, "wb")  # noqa: SIM115
+                self._sink = open(self._temporary(), "wb")  # noqa: SIM115
                 self._sink.write(b'{"rows":[')
             self._sink.write(b"]")
             for key, value in (extra or {}).items():
@@ -182,9 +257,17 @@ class TableWriter:
             import pyarrow as pa
 
             if self._frames:
-                table = pl.concat(self._frames).to_arrow()
+                frame = pl.concat(self._frames)
+                # control characters cannot be held in a worksheet (openpyxl refuses them):
+                # shown as U+FFFD, in the header and in text cells alike
+                frame = frame.rename({n: _EXCEL_ILLEGAL.sub("\ufffd", n) for n in frame.columns})
+                frame = frame.with_columns(
+                    pl.col(n).str.replace_all(_EXCEL_ILLEGAL.pattern, "\ufffd")
+                    for n, t in frame.schema.items() if t == pl.String
+                )  # fmt: skip
+                table = defuse_header(frame).to_arrow()
                 table = pa.table({n: defuse(table.column(n)) for n in table.column_names})
-                table.to_pandas().to_excel(self.path, index=False)
+                table.to_pandas().to_excel(self._temporary(), index=False)
         elif self._writer is not None:
             self._writer.close()
         elif self._sink is not None:

@@ -21,17 +21,27 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike
 
+from ..common import levels
 from ..common.checks import DOF as DOF_RULE
-from ..common.checks import OPEN_UNIT, POSITIVE, R2_STRENGTH, require
+from ..common.checks import (
+    POSITIVE,
+    R2_STRENGTH,
+    require,
+    require_numbers,
+    require_scalar,
+    show,
+)
 from ..common.errors import InputError, SensitivityWarning
 from .result import CovariateStrength, PartialR2Result, Scenario
+from .strengths import _k_max, benchmark_strengths
 
 
 def t_critical(alpha: float, dof: ArrayLike) -> np.ndarray:
-    """Two-sided Student-t critical value at level `alpha` on `dof` degrees of freedom."""
-    from scipy.special import stdtrit
+    """Two-sided Student-t critical value at level `alpha` on `dof` degrees of freedom.
 
-    return stdtrit(np.asarray(dof, float), 1 - np.asarray(alpha, float) / 2)
+    From the lower tail (finite for alpha down to 1e-300; see `common.levels`).
+    """
+    return levels.t_critical(alpha, dof)
 
 
 # --------------------------------------------------------------------------- formulas
@@ -110,11 +120,19 @@ def robustness_value_of_t(
     >>> round(float(robustness_value_of_t(4.18, dof=783, alpha=0.05)), 3)
     0.076
     """
-    t = np.asarray(t, float)
-    dof = np.asarray(dof, float)
-    fq = np.asarray(reduce_by, float) * np.abs(t) / np.sqrt(dof)
+    t = require_numbers(t, "t")
+    dof = require_numbers(dof, "dof")
+    reduce_by = require_numbers(reduce_by, "reduce_by")
+    least = 1 if alpha is None else 2  # the interval's t has dof - 1 degrees of freedom
+    for name, values, bad in (("dof", dof, dof < least), ("reduce_by", reduce_by, reduce_by <= 0)):
+        if np.any(bad):  # NaN (a missing entry) passes through as NaN
+            rule = f"must be at least {least}" if name == "dof" else "must be positive"
+            raise InputError(f"`{name}` {rule}; got {show(values[bad].flat[0])}")
+    with np.errstate(invalid="ignore"):
+        fq = reduce_by * np.abs(t) / np.sqrt(dof)
     if alpha is None:
         return _rv_curve(fq)
+    alpha = levels.check_alpha(alpha)
     fstar = t_critical(alpha, dof - 1) / np.sqrt(dof - 1)
     fa = fq - fstar
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
@@ -145,7 +163,8 @@ def bias_of_confounder(
     """
     r2t = np.asarray(r2_treatment, float)
     r2y = np.asarray(r2_outcome, float)
-    return np.asarray(se, float) * np.sqrt(dof) * np.sqrt(r2y * r2t / (1 - r2t))
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        return np.asarray(se, float) * np.sqrt(dof) * np.sqrt(r2y * r2t / (1 - r2t))
 
 
 def se_of_confounder(
@@ -182,80 +201,16 @@ def adjusted_for_confounder(
         ``bias``, ``estimate``, ``se``, ``t``, ``lower``, ``upper``.
     """
     est = np.asarray(estimate, float)
-    b = bias_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
-    adj = est - np.sign(est) * b
-    s = se_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
-    crit = t_critical(alpha, np.asarray(dof, float) - 1)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    # values beyond a double (an se of 1e308) come out as inf, which the callers refuse
+    # (tipping's finite_cells) or report as null; no raw warning
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        b = bias_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
+        adj = est - np.sign(est) * b
+        s = se_of_confounder(r2_treatment, r2_outcome, se=se, dof=dof)
+        crit = t_critical(alpha, np.asarray(dof, float) - 1)
         t = adj / s
-    return {
-        "bias": b,
-        "estimate": adj,
-        "se": s,
-        "t": t,
-        "lower": adj - crit * s,
-        "upper": adj + crit * s,
-    }
-
-
-def benchmark_strengths(
-    r2_treatment_cov: ArrayLike,
-    r2_outcome_cov: ArrayLike,
-    k_treatment: ArrayLike = 1.0,
-    k_outcome: ArrayLike | None = None,
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Strengths of a confounder with k times an observed covariate's (or group's) strength.
-
-    Parameters
-    ----------
-    r2_treatment_cov : array_like
-        Partial R² of the covariate with the treatment, given the other covariates.
-    r2_outcome_cov : array_like
-        Partial R² of the covariate with the outcome, given treatment and other covariates.
-    k_treatment, k_outcome : array_like
-        Multipliers on the treatment and outcome sides (`k_outcome` defaults to
-        `k_treatment`).
-
-    Returns
-    -------
-    (r2_treatment, r2_outcome, capped) : tuple of ndarray
-        `capped` flags an outcome-side bound that reached 1 and was capped there.
-
-    Notes
-    -----
-    ``R2_t = k_t r_t / (1 - r_t)``; ``rho² = k_t r_t² / ((1 - k_t r_t)(1 - r_t))``;
-    ``R2_y = ((sqrt(k_y) + sqrt(rho²)) / sqrt(1 - rho²))² r_y / (1 - r_y)``, capped at 1.
-    Assumes the confounder is orthogonal to the covariate given the other covariates.
-
-    References
-    ----------
-    Cinelli & Hazlett (2020), JRSS-B 82:39, section 6 (bounds from observed covariates).
-    """
-    rt = require(r2_treatment_cov, "r2_treatment_cov", R2_STRENGTH)
-    ry = require(r2_outcome_cov, "r2_outcome_cov", R2_STRENGTH)
-    kt = require(k_treatment, "k_treatment", POSITIVE)
-    ky = kt if k_outcome is None else require(k_outcome, "k_outcome", POSITIVE)
-    r2t = kt * rt / (1 - rt)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        rho2 = kt * rt**2 / ((1 - kt * rt) * (1 - rt))
-    bad = (r2t >= 1) | (rho2 >= 1) | (rho2 < 0)
-    if np.any(bad):
-        kk, rr = np.broadcast_arrays(kt, rt)
-        i = np.flatnonzero(np.broadcast_to(bad, kk.shape))[0]
-        raise InputError(
-            f"`k_treatment` {kk.flat[i]:g} is impossible for a covariate with partial R² "
-            f"{rr.flat[i]:.4g} with the treatment: the confounder would explain all of the "
-            f"treatment's residual variance (k must be below {_k_max(rr.flat[i]):.4g})"
-        )
-    r2y = (np.sqrt(ky) + np.sqrt(rho2)) ** 2 / (1 - rho2) * ry / (1 - ry)
-    capped = r2y > 1
-    return r2t, np.minimum(r2y, 1.0), capped
-
-
-def _k_max(r):
-    """Largest k_t for which both R2_t < 1 and rho² < 1 (Cinelli & Hazlett 2020)."""
-    # R2_t < 1 needs k < (1 - r) / r; rho² < 1 needs k r² < (1 - k r)(1 - r): the same bound.
-    return float("inf") if r <= 0 else (1 - r) / r
+        lower, upper = adj - crit * s, adj + crit * s
+    return {"bias": b, "estimate": adj, "se": s, "t": t, "lower": lower, "upper": upper}
 
 
 # --------------------------------------------------------------------------- entry point
@@ -263,22 +218,26 @@ def check_summary(
     estimate: object, se: object, dof: object, t: object, reduce_by: object, alpha: object
 ) -> tuple[float, float, float, float, float]:
     """One OLS coefficient's summary, checked: (estimate, se, dof, reduce_by, alpha)."""
-    est = float(require(estimate, "estimate"))
+    est = float(require_scalar(estimate, "estimate"))
     if se is not None and t is not None:
         raise InputError("give `se` or `t`, not both")
     if se is None and t is None:
         raise InputError("`se` (or the t statistic `t`) is required")
-    dof = float(require(dof, "dof", DOF_RULE))
+    dof = float(require_scalar(dof, "dof", DOF_RULE))
     if t is not None:
-        t = float(require(t, "t"))
+        t = float(require_scalar(t, "t"))
         if t == 0 or est == 0:
             raise InputError(f"`t` must be non-zero with a non-zero estimate; got t = {t:g}")
         if np.sign(t) != np.sign(est):
             raise InputError(f"`t` must have the sign of `estimate`; got {t:g} for {est:g}")
         se = est / t
-    se = float(require(se, "se", POSITIVE))
-    reduce_by = float(require(reduce_by, "reduce_by", POSITIVE))
-    alpha = float(require(alpha, "alpha", OPEN_UNIT))
+    se = float(require_scalar(se, "se", POSITIVE))
+    with np.errstate(over="ignore"):
+        ratio = est / se
+    if not np.isfinite(ratio):
+        raise InputError(f"`estimate` / `se` must be a finite t statistic; got {est:g} / {se:g}")
+    reduce_by = float(require_scalar(reduce_by, "reduce_by", POSITIVE))
+    alpha = levels.check_alpha(alpha)
     return est, se, dof, reduce_by, alpha
 
 
@@ -316,7 +275,17 @@ def benchmark_scenarios(
 ) -> list[Scenario]:
     """Scenarios for confounders of k times the strength of `covariate` (a CovariateStrength)."""
     out = []
+    k_max = _k_max(covariate.r2_treatment)
     for kt, ky in k_pairs:
+        if kt >= k_max:
+            # too strong to exist: the confounder would explain all of the treatment's
+            # residual variance. The row says so, with the largest k that exists; the
+            # other rows are computed.
+            nan = float("nan")
+            out.append(Scenario(nan, nan, nan, nan, nan, nan, (nan, nan), kind="benchmark",
+                                benchmark=covariate.name, k_treatment=float(kt),
+                                k_outcome=float(ky), k_max=float(k_max)))  # fmt: skip
+            continue
         r2t, r2y, capped = benchmark_strengths(covariate.r2_treatment, covariate.r2_outcome, kt, ky)
         adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
         k = f"×{kt:g}" if kt == ky else f"×{kt:g}/×{ky:g}"
@@ -448,7 +417,7 @@ def assemble(
     if sd_outcome is not None:
         from ..evalues.core import evalue
 
-        sd = float(require(sd_outcome, "sd_outcome", POSITIVE))
+        sd = float(require_scalar(sd_outcome, "sd_outcome", POSITIVE))
         ev = evalue("md", est, se=se, sd=sd, contrast=contrast)
     notes = list(context.pop("notes", ()))
     if ev is not None:

@@ -9,6 +9,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..output.figures import (
     Mark,
     figure_paths,
@@ -22,16 +23,37 @@ from ..output.figures import (
     tip_line,
 )
 
+#: Scenarios farther out than this many times the region where the conclusion changes do not
+#: widen the default axes (they would squeeze that region into a corner): they are drawn on
+#: the axes' edge and named beyond it.
+FAR = 3.0
+
 
 def _r2_limits(result: Any, limits: Mark | None) -> Mark:
     """The default zoom: where the conclusion changes (twice the larger robustness value)
-    and every scenario, with room around them."""
+    and every scenario within FAR times that, with room around them."""
     if limits is not None:
         return float(limits[0]), float(limits[1])
-    pts = [2 * result.robustness_value, 0.05]
-    pts += [max(s.r2_treatment, s.r2_outcome) * 1.2 for s in result.scenarios]
+    region = max(2 * result.robustness_value, 0.05)
+    pts = [region]
+    pts += [m for s in result.scenarios if not s.impossible
+            and (m := max(s.r2_treatment, s.r2_outcome) * 1.2) <= FAR * region]  # fmt: skip
     lim = float(min(0.99, max(pts)))
     return lim, lim
+
+
+def _beyond(result: Any, xlim: float, ylim: float) -> tuple[list[Mark], str]:
+    """Scenario points clipped to the axes, and a line naming those beyond them."""
+    points: list[Mark] = []
+    far = []
+    for i, sc in enumerate(result.scenarios, 1):
+        x, y = sc.r2_treatment, sc.r2_outcome
+        if np.isfinite(x) and np.isfinite(y) and (x > xlim or y > ylim):
+            far.append(f"{i} ({x:.0%}, {y:.0%})")
+            x, y = min(x, xlim), min(y, ylim)
+        points.append((x, y))
+    text = "" if not far else "Beyond the axes, drawn on their edge: " + "; ".join(far)
+    return points, text
 
 
 def partial_r2_contours(
@@ -60,7 +82,7 @@ def partial_r2_contours(
     target = (1 - result.reduce_by) * result.estimate
     crit = float(t_critical(result.alpha, result.dof - 1))
     sign = np.sign(result.estimate) or 1.0
-    level = f"{1 - result.alpha:.0%}"
+    level = level_text(alpha=result.alpha)
     goal = "zero" if result.reduce_by == 1 else f"{target:.3g}"
     plt = pyplot()
     plt.rcParams.update(STYLE)
@@ -76,7 +98,14 @@ def partial_r2_contours(
         keep: list = handles if i == 0 else []
         tip_line(ax, gx, gy, distance, 0.0, "estimate", f"Estimate reaches {goal}", keep)
         tip_line(ax, gx, gy, distance / s["se"], crit, "ci", f"{level} CI reaches {goal}", keep)
-        numbered_markers(ax, [(sc.r2_treatment, sc.r2_outcome) for sc in result.scenarios])
+        # numbered as in the table; an impossible benchmark has no point (NaN is not drawn); a
+        # scenario far beyond the region where the conclusion changes sits on the edge, named
+        points, beyond = _beyond(result, xlim, ylim)
+        numbered_markers(ax, points)
+        if beyond:
+            ax.annotate(plot_label(beyond, limit=120), (0.95, 0.95), xycoords="axes fraction",
+                        ha="right", va="top", fontsize=8,
+                        bbox={"boxstyle": "round", "fc": "white", "ec": "0.6"})  # fmt: skip
         own_marks(ax, marks, keep)
         ax.set_title(f"{label} (observed {shown})")
         ax.set_xlabel("Confounder's share of the treatment's residual variance (partial R²)")

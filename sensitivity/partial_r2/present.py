@@ -12,6 +12,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.report import ReportPart
@@ -31,7 +32,7 @@ def _k(s: Scenario) -> float:
 
 
 def _level(r: PartialR2Result) -> str:
-    return f"{1 - r.alpha:.0%}"
+    return level_text(alpha=r.alpha)
 
 
 def _num(r: PartialR2Result, x: float | None) -> str:
@@ -129,6 +130,12 @@ def scenario_table(r: PartialR2Result) -> Table | None:
     rows = []
     for i, s in enumerate(r.scenarios, 1):
         cap = " (capped)" if s.capped else ""
+        if s.impossible:
+            rows.append((str(i), scenario_label(s),
+                         f"impossible: ×{s.k_treatment:g} of this covariate would explain all "
+                         f"of the treatment's residual variance (k must be below "
+                         f"{s.k_max:.4g})", *(["-"] * 7)))  # fmt: skip
+            continue
         rows.append(
             (
                 str(i),
@@ -166,7 +173,7 @@ def scenario_table(r: PartialR2Result) -> Table | None:
 def _scenario_footnote(r: PartialR2Result) -> str:
     """How to read the scenario names, shown on this result's own first benchmark."""
     tail = "'chosen': strengths given directly. The bias is taken toward zero."
-    first = next((s for s in r.scenarios if s.kind == "benchmark"), None)
+    first = next((s for s in r.scenarios if s.kind == "benchmark" and not s.impossible), None)
     if first is None:
         return tail
     name, k = covariate_name(first.benchmark or ""), first.k_treatment
@@ -216,7 +223,7 @@ def sentence(r: PartialR2Result) -> str:
             f". For the {_level(r)} confidence interval to include {goal}, a confounder below "
             f"{rva} on both could not"
         )
-    bench = [s for s in r.scenarios if s.kind == "benchmark"]
+    bench = [s for s in r.scenarios if s.kind == "benchmark" and not s.impossible]
     if bench:
         k_min = min(_k(s) for s in bench)
         s = max((s for s in bench if _k(s) == k_min), key=lambda s: s.bias)

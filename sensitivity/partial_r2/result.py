@@ -45,6 +45,14 @@ class Scenario:
     k_outcome: float | None = None
     capped: bool = False
     benchmark_source: str | None = None  # "data", "published", or with an assumed side
+    # set when the benchmark multiple is too strong to exist: the largest k_treatment that does
+    # (exclusive); the numbers are then NaN (null in JSON)
+    k_max: float | None = None
+
+    @property
+    def impossible(self) -> bool:
+        """True for a benchmark multiple no confounder can have."""
+        return self.k_max is not None
 
     @property
     def label(self) -> str:
@@ -83,6 +91,8 @@ class Scenario:
                 "capped": self.capped,
                 "benchmark_source": self.benchmark_source or "data",
             }
+            if self.impossible:
+                out |= {"impossible": True, "k_max": self.k_max}
         return plain(out)
 
 
@@ -214,4 +224,5 @@ class PartialR2Result(Result):
     def columns(self) -> dict[str, np.ndarray]:
         """One row a scenario (or one row with no scenarios), for CSV."""
         rows = self.records()
-        return {k: np.asarray([r[k] for r in rows], dtype=object) for k in rows[0]}
+        keys = list(dict.fromkeys(k for r in rows for k in r))  # every row's keys, in order
+        return {k: np.asarray([r.get(k) for r in rows], dtype=object) for k in keys}

@@ -154,7 +154,14 @@ def bias_to_reduce(
     s = _sign(direction)
     r = require(r, "share", OPEN_UNIT)
     spread = _spread(tau, bias_sd)
-    return np.exp(s * (np.asarray(mu, float) - np.asarray(q, float)) + ndtri(1 - r) * spread)
+    with np.errstate(over="ignore"):
+        out = np.exp(s * (np.asarray(mu, float) - np.asarray(q, float)) - ndtri(r) * spread)
+    if np.any(~np.isfinite(out) | (out > 1e100)):
+        raise InputError(
+            "`threshold` is so far from the pooled estimate that the bias needed leaves the "
+            "range this analysis can show; give a threshold on the estimates' scale"
+        )
+    return out
 
 
 def bias_to_reduce_se(
@@ -168,7 +175,7 @@ def bias_to_reduce_se(
     t = np.asarray(threshold_bias, float)
     tau = np.asarray(tau, float)
     spread = _spread(tau, bias_sd)
-    zr = ndtri(1 - require(r, "share", OPEN_UNIT))
+    zr = -ndtri(require(r, "share", OPEN_UNIT))
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(spread > 0, tau / np.where(spread > 0, spread, 1.0), 1.0)
     return t * np.sqrt(np.asarray(var_mu, float) + zr**2 * ratio**2 * np.asarray(var_tau, float))

@@ -14,8 +14,16 @@ from typing import Any
 
 import numpy as np
 
-from ..common.checks import AT_LEAST_ONE, OPEN_UNIT, POSITIVE, require, require_choice
+from ..common.checks import (
+    AT_LEAST_ONE,
+    OPEN_UNIT,
+    POSITIVE,
+    require,
+    require_choice,
+    require_scalar,
+)
 from ..common.errors import InputError
+from ..common.levels import check_alpha, z_critical
 from . import core
 from .result import PoolResult
 
@@ -162,10 +170,10 @@ def pool_estimates(
     (1.236, 1.253)
     """
     y, s = core.check_studies(log_estimates, se)
-    q_ratio = float(require(threshold, "threshold", POSITIVE))
-    r = float(require(share, "share", OPEN_UNIT))
-    a = float(require(alpha, "alpha", OPEN_UNIT))
-    sd = float(require(bias_sd, "bias_sd"))
+    q_ratio = float(require_scalar(threshold, "threshold", POSITIVE))
+    r = float(require_scalar(share, "share", OPEN_UNIT))
+    a = check_alpha(alpha)
+    sd = float(require_scalar(bias_sd, "bias_sd"))
     if sd < 0:
         raise InputError(f"`bias_sd` must be 0 or more; got {sd:g}")
     fit = fit_random_effects(y, s, method)
@@ -182,9 +190,7 @@ def pool_estimates(
     grid = _bias_grid(bias, t_bias)
     shares = core.share_beyond(fit.mu, tau, q, grid, direction, sd)
     shares_se = core.share_se(fit.mu, tau, var_mu, var_tau, q, grid, direction, sd)
-    from scipy.special import ndtri
-
-    z = float(ndtri(1 - a / 2))
+    z = float(z_critical(a))
     from ..evalues.core import evalue_of_interval, evalue_of_rr
 
     lo, hi = np.exp(fit.mu - z * fit.se_mu), np.exp(fit.mu + z * fit.se_mu)
@@ -341,7 +347,7 @@ def read_studies(
     from ..screen.stream import _as_polars, screen_table
 
     frame, _ = _as_polars(table)
-    level = float(require(level, "level", OPEN_UNIT))
+    level = float(require_scalar(level, "level", OPEN_UNIT))
     mapping = dict(columns or {})
     header = list(frame.columns)
     label_col = mapping.pop("label", None) or next((c for c in LABEL_COLUMNS if c in header), None)
@@ -414,7 +420,7 @@ def read_studies(
     levels = np.where(from_se, 0.95, levels)
     from scipy.special import ndtri
 
-    z = ndtri(0.5 + levels / 2)
+    z = -ndtri((1 - levels) / 2)
     with np.errstate(divide="ignore", invalid="ignore"):
         s = (np.log(hi) - np.log(lo)) / (2 * z)
         y = np.log(rr)

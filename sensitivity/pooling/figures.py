@@ -10,6 +10,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..output.figures import (
     figure_paths,
     legend_below,
@@ -68,7 +69,7 @@ def forest(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
     right.set_ylabel("E-value (of the interval)")
     ax.set_xlabel("Risk ratio (log scale)")
     ax.set_title(
-        f"{n} studies pooled: {r.pooled_estimate:.2f} ({r.level:.0%} CI {lo_p:.2f} to "
+        f"{n} studies pooled: {r.pooled_estimate:.2f} ({level_text(r.level)} CI {lo_p:.2f} to "
         f"{hi_p:.2f}), tau² {r.tau2:.3g}"
     )
     handles = [
@@ -94,14 +95,14 @@ def share_curve(result: Any, paths: str | Path | Sequence[str | Path]) -> list[P
     q = np.log(r.threshold)
     args = (r.log_estimate, r.tau, q, grid, r.direction, r.bias_sd)
     p = share_beyond(*args)
-    z = float(ndtri(1 - r.alpha / 2))
+    z = float(-ndtri(r.alpha / 2))
     if r.tau > 0:
         var_tau = r.tau_se**2
         se = share_se(r.log_estimate, r.tau, r.log_se**2, var_tau, q, grid, r.direction,
                       r.bias_sd)  # fmt: skip
         ax.fill_between(grid, np.clip(p - z * se, 0, 1), np.clip(p + z * se, 0, 1),
                         color="#b2abd2", alpha=0.6, lw=0,
-                        label=f"Pointwise {r.level:.0%} band (delta method)")  # fmt: skip
+                        label=f"Pointwise {level_text(r.level)} band (delta method)")  # fmt: skip
     ax.plot(grid, p, color="black", lw=2, label=f"Share {r.direction} {r.threshold:g}")
     ax.axhline(r.share, color="#e66101", lw=1.2, ls=":", label=f"R = {r.share:.0%}")
     if r.bias_to_reduce_raw > 1:

@@ -6,6 +6,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table, number, percent
 from .result import PoolResult
@@ -26,7 +27,7 @@ def _beyond(r: PoolResult) -> str:
 
 
 def _ci(r: PoolResult) -> str:
-    return f"{r.level:.0%} CI {number(r.ci[0])} to {number(r.ci[1])}"
+    return f"{level_text(r.level)} CI {number(r.ci[0])} to {number(r.ci[1])}"
 
 
 def pooled_table(r: PoolResult) -> Table:
@@ -38,13 +39,14 @@ def pooled_table(r: PoolResult) -> Table:
         ("I²", percent(r.i2)),
         ("Cochran's Q", f"{number(r.q_statistic)} on {r.k - 1} df"),
         ("E-value of the pooled estimate", number(r.evalue)),
-        (f"E-value of its {r.level:.0%} CI", number(r.evalue_ci)),
+        (f"E-value of its {level_text(r.level)} CI", number(r.evalue_ci)),
     )
     return Table(
         ("Random-effects model", "Value"),
         rows,
         title=f"Pooled estimate ({r.method_name} heterogeneity)",
-        footnotes=(f"The {r.level:.0%} CI is a Wald interval on the log scale (normal, without "
+        footnotes=(f"The {level_text(r.level)} CI is a Wald interval on the log scale (normal, "
+                   "without "
                    "a Hartung-Knapp adjustment). The E-values are those of the pooled estimate "
                    "alone (VanderWeele & Ding 2017), shown beside the share below.",),
     )  # fmt: skip

@@ -219,7 +219,9 @@ def screen_columns(
         parsed = parse_many(np.asarray(columns[options.from_text], dtype=object))
         # The text supplies what the columns leave blank; where a row's columns give the
         # estimate the text is only checked against them, and its own problems do not count.
-        from_columns = given(num["estimate"])
+        # (a risk-difference row's four counts are its columns too: such a row is read from
+        # them, as a row with an estimate column is, whatever its text says)
+        from_columns = given(num["estimate"]) | np.all([given(num[k]) for k in COUNTS], axis=0)
         # a text's reason names the text's own problem, and counts as its own kind
         text_error = np.where(from_columns, "", parsed["error"])
         reasons.first(text_error, text_error)
@@ -383,6 +385,12 @@ def _risk_differences(num, rows, reasons, out, alpha):
     counts = {k: num[k][idx] for k in COUNTS}
     why = np.full(len(idx), "", dtype=object)
     kinds = np.full(len(idx), "", dtype=object)
+    none = np.all([np.isnan(counts[k]) for k in COUNTS], axis=0)
+    for i in np.flatnonzero(none):
+        kinds[i] = why[i] = (
+            "a risk-difference row needs its four counts (cases_treated, total_treated, "
+            "cases_control, total_control): its E-value is computed from them"
+        )
     for name in COUNTS:
         v = counts[name]
         bad = ~np.isfinite(v) | (v < 0) | (v != np.round(v))

@@ -12,10 +12,15 @@ from ..common.results import Result
 #: Rows listed for each reason a row was flagged (the first ones, by row number).
 FIRST_ROWS = 5
 
-#: log E-values are tallied on a fixed grid from 0 to 20 (E up to 4.8e8) in steps of 1e-4:
-#: medians to four significant digits without keeping the values.
+#: log E-values are tallied on a fixed grid from 0 to 20 (E up to 4.8e8) in steps of 1e-4,
+#: for the figure, and for the medians only where the values no longer fit in memory.
 _EDGES = 200_000
 _TOP = 20.0
+#: Values kept per scale (and per estimate or interval) for exact medians: 16 MB each.
+EXACT_VALUES = 2_000_000
+#: A median read from the grid lies within this relative distance of the exact one (half a
+#: bin of 1e-4 in log E, below the grid's top).
+GRID_ERROR = float(np.expm1(0.5 * _TOP / _EDGES))
 
 
 @dataclass(eq=False)
@@ -75,6 +80,13 @@ class Tally:
             for i in range(1, self.n_confounders + 1)
         ]  # fmt: skip
         regression = per_scale(np.isfinite(values["robustness_value"]))
+        kept = {}
+        for key in ("evalue", "evalue_ci"):  # the finite values, grouped by scale
+            v = values[key]
+            good = np.flatnonzero(np.isfinite(v) & (slot > 0))
+            order = good[np.argsort(slot[good], kind="stable")]
+            cuts = np.cumsum(np.bincount(slot[order], minlength=width))
+            kept[key] = np.split(np.asarray(v, float)[order], cuts[:-1])
         for number, code in enumerate(SCREEN_SCALES, 1):
             if not rows[number]:
                 continue
@@ -86,6 +98,11 @@ class Tally:
                     entry[key] = np.pad(entry[key], (0, used.size - entry[key].size))
                 entry[key][: used.size] += used
                 entry[f"{key}_n"] += int(bins[f"{key}_n"][number])
+                store = entry[f"{key}_values"]
+                if store is not None:
+                    store.append(kept[key][number])
+                    if entry[f"{key}_n"] > EXACT_VALUES:  # no longer kept: read from the grid
+                        entry[f"{key}_values"] = None
             if self.threshold is not None:
                 entry["below"] += int(bins["below"][number])
             for i, (est, ci) in enumerate(explains):
@@ -111,6 +128,12 @@ class Tally:
                 mine[key][: theirs[key].size] += theirs[key]
             for key in ("rows", "evalue_n", "evalue_ci_n", "below", "regression"):
                 mine[key] += theirs[key]
+            for key in ("evalue_values", "evalue_ci_values"):  # exact medians while they fit
+                n = mine["evalue_n" if key == "evalue_values" else "evalue_ci_n"]
+                if mine[key] is None or theirs[key] is None or n > EXACT_VALUES:
+                    mine[key] = None
+                else:
+                    mine[key] = mine[key] + theirs[key]
             for key in ("explains_estimate", "explains_ci"):
                 mine[key] = [a + b for a, b in zip(mine[key], theirs[key], strict=True)]
         return self
@@ -121,8 +144,10 @@ class Tally:
         for code, e in sorted(self.scales.items()):
             per_scale[code] = {
                 "rows": e["rows"],
-                "median_evalue": _median(e["evalue"], e["evalue_n"]),
-                "median_evalue_ci": _median(e["evalue_ci"], e["evalue_ci_n"]),
+                "median_evalue": _median(e["evalue"], e["evalue_n"], e["evalue_values"]),
+                "median_evalue_ci": _median(
+                    e["evalue_ci"], e["evalue_ci_n"], e["evalue_ci_values"]
+                ),  # fmt: skip
                 "with_interval": e["evalue_ci_n"],
                 "below_threshold": e["below"] if self.threshold is not None else None,
                 "explains_estimate": list(e["explains_estimate"]),
@@ -131,7 +156,22 @@ class Tally:
             }
             est, ci = (np.pad(e[k], (0, _EDGES + 1 - e[k].size)) for k in ("evalue", "evalue_ci"))
             hist[code] = (est, ci)
+        gridded = [code for code, e in sorted(self.scales.items())
+                   if e["evalue_values"] is None or e["evalue_ci_values"] is None]  # fmt: skip
+        if gridded:
+            how = (
+                f"Medians are exact (the middle value, or the mean of the two middle values) "
+                f"except for {', '.join(gridded)}, with more than {EXACT_VALUES:,} values: "
+                f"read from a grid of log E-values, within {GRID_ERROR:.1e} (relative) of the "
+                "exact median below E = 4.8e8."
+            )
+        else:
+            how = (
+                "Medians are exact (the middle value, or the mean of the two middle values for "
+                "an even count)."
+            )
         return ScreenSummary(
+            notes=(how, ScreenSummary.notes[-1]),
             source=source,
             rows=self.rows,
             flagged=dict(sorted(self.flagged.items(), key=lambda kv: -kv[1])),
@@ -150,6 +190,8 @@ def _entry(k: int) -> dict:
         "evalue_ci": np.zeros(0, np.int64),
         "evalue_n": 0,
         "evalue_ci_n": 0,
+        "evalue_values": [],  # the values themselves while they fit (None after)
+        "evalue_ci_values": [],
         "below": 0,
         "explains_estimate": [0] * k,
         "explains_ci": [0] * k,
@@ -157,14 +199,21 @@ def _entry(k: int) -> dict:
     }
 
 
-def _median(counts: np.ndarray, n: int) -> float | None:
+def _median(counts: np.ndarray, n: int, values: list | None = None) -> float | None:
+    """The median by the midpoint rule: exact from `values` when kept, else from the grid
+    (the mean of the two middle bins' centres for an even count)."""
     if n == 0:
         return None
+    if values is not None:
+        return float(np.median(np.concatenate(values)))
     cum = np.cumsum(counts)
-    i = int(np.searchsorted(cum, (n + 1) / 2))
-    if i >= _EDGES:
-        return float(np.exp(_TOP))
-    return float(np.exp((i + 0.5) / _EDGES * _TOP))
+
+    def at(rank: int) -> float:  # the value of rank `rank` (1-based), as its bin's centre
+        i = int(np.searchsorted(cum, rank))
+        return _TOP if i >= _EDGES else (i + 0.5) / _EDGES * _TOP
+
+    low, high = at((n + 1) // 2), at(n // 2 + 1)
+    return float((np.exp(low) + np.exp(high)) / 2)  # each within GRID_ERROR, so their mean
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -183,7 +232,8 @@ class ScreenSummary(Result):
     first_rows: dict[str, list[int]] = field(default_factory=dict)
     cautions: tuple[str, ...] = standing.EVALUE
     notes: tuple[str, ...] = (
-        "Medians are read from a fine grid of log E-values (to about four significant digits).",
+        "Medians are exact (the middle value, or the mean of the two middle values for an even "
+        "count).",
         "Interval E-values are of each row's own interval as published (95% unless the row "
         "says otherwise; 95% for an interval computed from an se).",
     )

@@ -15,6 +15,7 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
+from ..common.levels import check_alpha
 from ..common.overlap import read_ahead
 from .core import (
     FLAG_WORDS,
@@ -107,12 +108,34 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
     if from_text is None:
         for need in ("estimate", "scale"):
             if need not in mapping:
+                _one_column_of_many(header)
                 raise InputError(
                     f"the table has no {need!r} column: map one with `columns` "
                     f"({need}=YOUR_COLUMN) or read results from text with `from_text`; "
                     "columns: " + ", ".join(header[:30])
                 )
     return mapping
+
+
+def _one_column_of_many(header: list[str]) -> None:
+    """A table read as one column whose name holds tabs, semicolons or commas: the file's
+    delimiter is not the one its extension promises (a TSV named .csv)."""
+    if len(header) != 1:
+        return
+    name = header[0]
+    for mark, shown in (("\t", "tabs"), (";", "semicolons"), (",", "commas"), ("|", "bars")):
+        if name.count(mark) >= 1:
+            parts = [p.strip() for p in name.split(mark)]
+            raise InputError(
+                f"the table was read as one column, whose name holds {shown}: "
+                f"{' | '.join(repr(p) for p in parts[:8])}; the file's cells are separated by "
+                f"{shown}, not what its extension says"
+                + (
+                    " (a TSV named .csv?): rename it .tsv"
+                    if mark == "\t"
+                    else ": save it with commas as .csv, or with tabs as .tsv"
+                )
+            )
 
 
 def screen_frames(
@@ -145,7 +168,7 @@ def screen_frames(
     >>> out["evalue"].round(2).to_list(), out["error"].to_list()
     ([2.26, None], ['', '`estimate` is missing'])
     """
-    from ..common.checks import AT_LEAST_ONE, OPEN_UNIT, require
+    from ..common.checks import AT_LEAST_ONE, require
 
     if any(len(pair) != 2 for pair in confounders):
         raise InputError("`confounders` must be pairs (rr_treatment, rr_outcome)")
@@ -153,7 +176,7 @@ def screen_frames(
              for a, b in confounders]  # fmt: skip
     options = Options(
         confounders=tuple((float(a), float(b)) for a, b in pairs),
-        alpha=float(require(alpha, "alpha", OPEN_UNIT)),
+        alpha=check_alpha(alpha),
         from_text=None if from_text is None else "_text",
         decimal_comma=bool(decimal_comma),
     )

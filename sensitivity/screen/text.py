@@ -27,14 +27,34 @@ _NUM = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
 _SCALE = r"(?P<scale>" + "|".join(re.escape(w) for w in _WORDS) + r")"
 _LEVEL = r"(?:(?P<level>\d{2}(?:\.\d+)?)\s*%\s*)?(?:ci|confidence interval|cl|cri|ui)?"
 _SEP = r"\s*(?:to|,|;|-|–|—|\.\.)\s*"
+# a scale word may carry its abbreviation in brackets ("hazard ratio [HR] 0.72") and be set
+# off by a comma ("HR, 0.72; 95% CI, 0.60-0.86"), as journal styles print them
+_ABBREVIATION = r"(?:\s*[(\[]\s*[A-Za-z]{1,5}\s*[)\]])?"
 PATTERN = re.compile(
-    r"^\s*(?:" + _SCALE + r"\b\s*[:=]?\s*)?"
+    r"^\s*(?:" + _SCALE + r"\b" + _ABBREVIATION + r"\s*[:=,]?\s*)?"
     r"(?P<estimate>" + _NUM + r")\s*"
     r"(?:[(\[]?\s*[;,]?\s*" + _LEVEL + r"\s*[:=,]?\s*"
     r"(?P<lower>" + _NUM + r")" + _SEP + r"(?P<upper>" + _NUM + r")\s*[)\]]?)?"
     r"\s*[.;,]?\s*$",
     re.IGNORECASE,
 )
+#: "23% lower risk (95% CI 10% to 34%)": a relative change in percent, read as the ratio
+#: 1 - 0.23 (lower) or 1 + 0.23 (higher); the interval's limits likewise (and in order).
+PERCENT = re.compile(
+    r"^\s*(?P<pct>" + _NUM + r")\s*%\s*(?P<dir>lower|higher|reduced|increased|reduction in|"
+    r"increase in|decrease in|less|greater)\s+(?P<what>risk|odds|hazard|rate)s?\b\s*"
+    r"(?:[(\[]\s*"
+    + _LEVEL
+    + r"\s*[:=,]?\s*(?P<lower>"
+    + _NUM
+    + r")\s*%?"
+    + _SEP
+    + r"(?P<upper>"
+    + _NUM
+    + r")\s*%?\s*[)\]])?\s*[.;,]?\s*$",
+    re.IGNORECASE,
+)
+_PERCENT_SCALE = {"risk": "rr", "rate": "rr", "odds": "or", "hazard": "hr"}
 MISSING = re.compile(
     r"^\s*(?:nr|n\.r\.|na|n/a|n\.a\.|not reported|not available|-|–|—|\.|)\s*$", re.I
 )
@@ -70,6 +90,9 @@ def parse(text: object) -> dict[str, object]:
     if re.search(r"\d,\d", cell) and "." not in cell:
         out["error"] = "decimal commas: the numbers cannot be read for certain (write 1.45)"
         return out
+    relative = PERCENT.match(cell)
+    if relative is not None:
+        return _relative_change(relative, out)
     if len(re.findall(r"[(\[]", cell)) > 1 or cell.count(";") > 1 and len(numbers) > 3:
         out["error"] = "two results in one cell"
         return out
@@ -88,6 +111,34 @@ def parse(text: object) -> dict[str, object]:
         out["lower"], out["upper"] = float(match["lower"]), float(match["upper"])
     if match["scale"]:
         out["scale"] = SCALE_WORDS[match["scale"].lower()]
+    if match["level"]:
+        out["level"] = float(match["level"]) / 100
+    return out
+
+
+def _relative_change(match: re.Match, out: dict[str, object]) -> dict[str, object]:
+    """A ratio from "23% lower risk (95% CI 10% to 34%)": 0.77 (0.66 to 0.90)."""
+    down = match["dir"].lower() in ("lower", "reduced", "reduction in", "decrease in", "less")
+    sign = -1.0 if down else 1.0
+
+    def ratio(pct: str) -> float:  # in decimal, so 34% lower is 0.66, not 0.6599999999999999
+        from decimal import Decimal
+
+        return float(1 + Decimal(int(sign)) * Decimal(pct) / 100)
+
+    estimate = ratio(match["pct"])
+    if estimate <= 0:
+        out["error"] = f"a {match['pct']}% reduction leaves no positive ratio"
+        return out
+    out["estimate"] = estimate
+    if match["lower"] is not None:
+        limits = sorted((ratio(match["lower"]), ratio(match["upper"])))
+        if limits[0] <= 0:
+            out["error"] = "a reduction of 100% or more in the interval leaves no positive ratio"
+            out["estimate"] = np.nan
+            return out
+        out["lower"], out["upper"] = limits
+    out["scale"] = _PERCENT_SCALE[match["what"].lower()]
     if match["level"]:
         out["level"] = float(match["level"]) / 100
     return out

@@ -58,6 +58,10 @@ class StdoutTable:
     def write(self, batch: Any) -> None:
         self._writer.write(batch)
 
+    def abort(self) -> None:
+        self._writer.abort()
+        Path(self._tmp.name).unlink(missing_ok=True)
+
     def close(self, extra: dict | None = None) -> None:
         import os
         import shutil

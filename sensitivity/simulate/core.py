@@ -25,8 +25,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..common.checks import OPEN_UNIT, POSITIVE, require
+from ..common.checks import POSITIVE, require_scalar
 from ..common.errors import InputError
+from ..common.levels import check_level, z_critical
 from ..common.scales import RATIO_SCALES, from_risk_ratio, to_risk_ratio
 from .result import SimulationResult
 
@@ -155,7 +156,7 @@ def simulate(
     >>> round(res.median, 4)
     1.26
     """
-    from scipy.special import ndtr, ndtri
+    from scipy.special import ndtr
 
     from ..tipping.grid import SCALES, check_effect, check_frequency
 
@@ -165,11 +166,11 @@ def simulate(
     if pair is None:
         raise InputError("`ci` is needed: the total-error interval draws from it")
     freq = check_frequency(scale, outcome)
-    level = float(require(ci_level, "ci_level", OPEN_UNIT))
-    n = int(require(draws, "draws", POSITIVE))
+    level = check_level(ci_level)
+    n = int(require_scalar(draws, "draws", POSITIVE))
     if n > 20_000_000:
         raise InputError(f"`draws` must be at most 20,000,000; got {n:,}")
-    rho = float(require(correlation, "correlation"))
+    rho = float(require_scalar(correlation, "correlation"))
     if not -1 < rho < 1:
         raise InputError(f"`correlation` must lie strictly between -1 and 1; got {rho:g}")
     priors = {}
@@ -183,6 +184,11 @@ def simulate(
     if ratio:
         _support(priors["outcome_effect"], 1e-300, np.inf, "outcome_effect")
     drawn_seed = seed is None
+    if seed is not None:
+        seed = require_scalar(seed, "seed")
+        if seed < 0 or seed != int(seed) or seed >= 2**63:
+            raise InputError(f"`seed` must be a whole number from 0 to 2^63 - 1; got {seed:g}")
+        seed = int(seed)
     if seed is None:
         seed = int(np.random.SeedSequence().generate_state(1)[0])
     rng = np.random.default_rng(int(seed))
@@ -202,25 +208,33 @@ def simulate(
     discarded = int(n - ok.sum())
     p1, p0, g = p1[ok], p0[ok], g[ok]
     z_random = rng.standard_normal(p1.size)
-    crit = float(ndtri(1 - (1 - level) / 2))
-    if ratio:
-        conv = {"outcome": freq}
-        obs = float(to_risk_ratio(scale, est, **conv))
-        lo, up = (float(to_risk_ratio(scale, v, **conv)) for v in pair)
-        se = (np.log(up) - np.log(lo)) / (2 * crit)
-        bias = (1 + (g - 1) * p1) / (1 + (g - 1) * p0)
-        systematic_rr = np.exp(np.log(obs) - np.log(bias))
-        total_rr = np.exp(np.log(systematic_rr) - z_random * se)
-        systematic = from_risk_ratio(scale, systematic_rr, **conv)
-        total = from_risk_ratio(scale, total_rr, **conv)
-    else:
-        se = (pair[1] - pair[0]) / (2 * crit)
-        systematic = est - g * (p1 - p0)
-        total = systematic - z_random * se
+    crit = float(z_critical(1 - level))
+    with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
+        if ratio:
+            conv = {"outcome": freq}
+            obs = float(to_risk_ratio(scale, est, **conv))
+            lo, up = (float(to_risk_ratio(scale, v, **conv)) for v in pair)
+            se = (np.log(up) - np.log(lo)) / (2 * crit)
+            bias = (1 + (g - 1) * p1) / (1 + (g - 1) * p0)
+            systematic_rr = np.exp(np.log(obs) - np.log(bias))
+            total_rr = np.exp(np.log(systematic_rr) - z_random * se)
+            systematic = from_risk_ratio(scale, systematic_rr, **conv)
+            total = from_risk_ratio(scale, total_rr, **conv)
+        else:
+            se = (pair[1] - pair[0]) / (2 * crit)
+            systematic = est - g * (p1 - p0)
+            total = systematic - z_random * se
+    for name, drawn in (("systematic", systematic), ("total", total)):
+        if not np.all(np.isfinite(drawn)):
+            raise InputError(
+                f"the {name}-error draws leave double precision: the estimate, `ci` or "
+                "`outcome_effect` prior is too extreme for this scale"
+            )
     if systematic.size == 0:
         raise InputError("every draw was impossible (a prevalence outside [0, 1]); check priors")
     side = 1 if est >= tgt else -1
     beyond = float(np.mean(side * (systematic - tgt) <= 0))
+    beyond_total = float(np.mean(side * (total - tgt) <= 0))
     notes = [f"Seed {seed}{' (drawn; give --seed to repeat this run)' if drawn_seed else ''}."]
     if discarded:
         notes.append(f"{discarded:,} of {n:,} draws were impossible and discarded.")
@@ -235,6 +249,7 @@ def simulate(
         interval_total=tuple(float(x) for x in np.percentile(total, [2.5, 97.5])),  # type: ignore[arg-type]
         share_beyond_target=beyond, priors={k: v.text for k, v in priors.items()},
         correlation=rho, ci_level=level, notes=tuple(notes),
+        share_beyond_target_total=beyond_total,
         sample=systematic[: min(200_000, systematic.size)].copy(),
         sample_total=total[: min(200_000, total.size)].copy(),
     )  # fmt: skip

@@ -8,6 +8,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..common.scales import RATIO_SCALES
 from ..output.figures import figure_paths, legend_below, new_figure, save_figure
 
@@ -29,7 +30,7 @@ def simulation_figure(result: Any, path: str | Path | Sequence[str | Path]) -> l
     f = np.log if ratio else (lambda v: v)
     ax.axvline(f(result.estimate), color="black", lw=1.2, ls="--", label="Observed estimate")
     ax.axvspan(f(result.ci[0]), f(result.ci[1]), color="#4c72b0", alpha=0.12,
-               label=f"Observed {result.ci_level:.0%} CI")  # fmt: skip
+               label=f"Observed {level_text(result.ci_level)} CI")  # fmt: skip
     ax.axvline(
         f(result.target), color="#d62728", lw=1.2, ls=":", label=f"Target ({result.target:g})"
     )

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..common.scales import SCALES
 from ..output.document import Block, Document, Figure, prose, standard_tail
@@ -15,17 +16,22 @@ def table(r: SimulationResult) -> Table:
     def span(pair: tuple[float, float]) -> str:
         return f"{number(pair[0])} to {number(pair[1])}"
 
-    rows = (
-        ("Observed", f"{number(r.estimate)} ({r.ci_level:.0%} CI {span(r.ci)})"),
+    target = f"{r.target:g}"
+    rows = [
+        ("Observed", f"{number(r.estimate)} ({level_text(r.ci_level)} CI {span(r.ci)})"),
         ("Bias-adjusted median, systematic error only", number(r.median)),
         ("95% interval, systematic error only", span(r.interval)),
+        (f"Share of draws at or beyond {target}, systematic error only",
+         f"{r.share_beyond_target:.1%}"),
         ("Bias-adjusted median, systematic and random error", number(r.median_total)),
         ("95% simulation interval, systematic and random error", span(r.interval_total)),
-        (f"Share of draws at or beyond {r.target:g}", f"{r.share_beyond_target:.1%}"),
-    )
+    ]  # fmt: skip
+    if r.share_beyond_target_total is not None:
+        rows.append((f"Share of draws at or beyond {target}, systematic and random error",
+                     f"{r.share_beyond_target_total:.1%}"))  # fmt: skip
     return Table(
         ("Probabilistic bias analysis", "Value"),
-        rows,
+        tuple(rows),
         title=f"A hidden binary confounder: {r.draws - r.discarded:,} draws",
         footnotes=tuple(f"Prior on {k.replace('_', ' ')}: {v}." for k, v in r.priors.items()),
     )
@@ -36,10 +42,13 @@ def sentence(r: SimulationResult) -> str:
     return (
         f"Under the stated priors for a hidden binary confounder, the bias-adjusted {name} had "
         f"a median of {number(r.median)} (95% interval {number(r.interval[0])} to "
-        f"{number(r.interval[1])} for systematic error, and {number(r.interval_total[0])} to "
-        f"{number(r.interval_total[1])} with random error added); {r.share_beyond_target:.1%} "
-        f"of draws reached {r.target:g} or beyond."
-    )
+        f"{number(r.interval[1])} for systematic error, {r.share_beyond_target:.1%} of draws "
+        f"at {r.target:g} or beyond; {number(r.interval_total[0])} to "
+        f"{number(r.interval_total[1])} with random error added"
+        + (f", {r.share_beyond_target_total:.1%} of draws at {r.target:g} or beyond"
+           if r.share_beyond_target_total is not None else "")
+        + ")."
+    )  # fmt: skip
 
 
 def document(r: SimulationResult) -> Document:

@@ -29,6 +29,7 @@ class SimulationResult(Result):
     priors: dict[str, str]
     correlation: float = 0.0
     ci_level: float = 0.95
+    share_beyond_target_total: float | None = None  # the same share, random error added
     notes: tuple[str, ...] = ()
     sample: np.ndarray = field(default_factory=lambda: np.empty(0))  # for the figure
     sample_total: np.ndarray = field(default_factory=lambda: np.empty(0))
@@ -56,6 +57,7 @@ class SimulationResult(Result):
                 "median_total": self.median_total,
                 "interval_total": list(self.interval_total),
                 "share_beyond_target": self.share_beyond_target,
+                "share_beyond_target_total": self.share_beyond_target_total,
                 "priors": self.priors,
                 "correlation": self.correlation,
                 "notes": list(self.all_notes()),

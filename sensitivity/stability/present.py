@@ -96,7 +96,13 @@ def sentence(r: StabilityResult) -> str:
     if d is not None and d < 0:
         text += "; a negative delta means selection in the opposite direction"
     value = r.bias_adjusted if r.bias_adjusted is not None else r.bias_adjusted_approx
-    text += f". At delta {r.delta:g} the bias-adjusted coefficient is {number(value, 4)}."
+    text += f". At delta {r.delta:g} the bias-adjusted coefficient is {number(value, 4)}"
+    if r.complex_nearer is not None:
+        text += (
+            " (a root far from the long estimate: the two roots nearest it are complex at "
+            "this delta)"
+        )
+    text += "."
     return text
 
 

@@ -28,6 +28,9 @@ class StabilityResult(Result):
     delta_for_target_approx: float
     notes: tuple[str, ...] = ()
     variances: tuple[float, float, float] | None = None
+    # the root nearer the long estimate than every real root, when it is complex (then the
+    # reported bias-adjusted coefficient is a far root)
+    complex_nearer: complex | None = None
     cautions: tuple[str, ...] = (standing.ONE_BIAS, standing.COMPARE_KNOWN, standing.DEFER)
     _repr_fields = ("delta", "r2_max", "bias_adjusted", "delta_for_target")
     presenter = "sensitivity.stability.present"

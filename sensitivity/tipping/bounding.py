@@ -9,8 +9,9 @@ from __future__ import annotations
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..common.checks import AT_LEAST_ONE, OPEN_UNIT, require
+from ..common.checks import AT_LEAST_ONE
 from ..common.errors import InputError
+from ..common.levels import check_level
 from ..common.scales import RATIO_SCALES, from_risk_ratio
 from .exact import monotone_set, reaches
 from .grid import grid_axes, shifted_cells, side_of, with_exact
@@ -96,7 +97,7 @@ def bounding_grid(
             "evalue_ci": None if ev.evalue_ci is None else float(ev.evalue_ci),
             "outcome": ev.outcome,
         },
-        ci_level=float(require(ci_level, "ci_level", OPEN_UNIT)),
+        ci_level=check_level(ci_level),
     )
 
     def exact_of(value_rr: float) -> dict[str, np.ndarray]:

@@ -28,7 +28,8 @@ from collections.abc import Callable
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..common.checks import OPEN_UNIT, POSITIVE, PROBABILITY, require
+from ..common.checks import POSITIVE, PROBABILITY
+from ..common.levels import check_level
 from ..common.scales import RATIO_SCALES, conversion_text, from_risk_ratio, to_risk_ratio
 from .bounding import bounding_grid
 from .exact import (
@@ -184,7 +185,7 @@ def binary_confounder_grid(
         exact={},
         notes=tuple(notes),
         extra={"outcome": freq} if freq else {},
-        ci_level=float(require(ci_level, "ci_level", OPEN_UNIT)),
+        ci_level=check_level(ci_level),
     )
     return with_exact(
         result,
@@ -351,7 +352,7 @@ def continuous_confounder_grid(
         cells=moved["cells"], reach_estimate=moved["reach_estimate"],
         reach_ci=moved["reach_ci"], exact={}, notes=tuple(notes),
         extra={"outcome": freq} if freq else {},
-        ci_level=float(require(ci_level, "ci_level", OPEN_UNIT)),
+        ci_level=check_level(ci_level),
     )  # fmt: skip
 
     def exact_of(value: float) -> dict[str, np.ndarray]:

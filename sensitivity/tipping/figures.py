@@ -9,6 +9,7 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
+from ..common.levels import level_text
 from ..output.figures import (
     Mark,
     figure_paths,
@@ -51,7 +52,7 @@ def tipping_figure(
             "them a single value)"
         )
     goal = "the null" if result.target_is_null else f"{result.target:g}"
-    level = f"{result.ci_level:.0%} CI"
+    level = f"{level_text(result.ci_level)} CI"
     est = np.squeeze(result.cells["bias_adjusted_estimate"])
     near_key = (
         "bias_adjusted_ci_lower" if result.estimate >= result.target else "bias_adjusted_ci_upper"
@@ -59,7 +60,8 @@ def tipping_figure(
     near = np.squeeze(result.cells[near_key]) if near_key in result.cells else None
     colour = "Bias-adjusted estimate"
     if result.kind == "bounding":
-        colour = "Worst-case bound on the estimate (bounding factor)"
+        code = str(result.scale)
+        colour = f"Worst-case bound on the {code.upper()} (after the bounding factor)"
     fig, ax = new_figure()
     handles: list = []
     if len(varying) == 1:

@@ -16,11 +16,13 @@ import numpy as np
 from ..common.checks import (
     POSITIVE,
     Rule,
+    check_pair,
     inside_interval,
     interval_order,
     require,
     require_all,
     require_choice,
+    require_scalar,
 )
 from ..common.errors import InputError
 from ..common.scales import OUTCOME_FREQUENCIES, RATIO_SCALES
@@ -41,13 +43,14 @@ def check_effect(
     scale = require_choice(scale, "scale", SCALES)
     ratio = scale in RATIO_SCALES
     rules = (POSITIVE,) if ratio else ()
-    est = float(require(estimate, "estimate", *rules))
+    est = float(require_scalar(estimate, "estimate", *rules))
     null = 1.0 if ratio else 0.0
-    tgt = float(require(null if target is None else target, "target", *rules))
+    tgt = float(require_scalar(null if target is None else target, "target", *rules))
     pair = None
+    ci = check_pair(ci, "ci")
     if ci is not None:
-        lo = float(require(ci[0], "ci", *rules))
-        up = float(require(ci[1], "ci", *rules))
+        lo = float(require_scalar(ci[0], "ci", *rules))
+        up = float(require_scalar(ci[1], "ci", *rules))
         values = {"estimate": np.asarray(est), "lower": np.asarray(lo), "upper": np.asarray(up)}
         require_all(values, (interval_order(), inside_interval()))
         pair = (lo, up)
@@ -85,6 +88,9 @@ def grid_axes(
         )
         for name, value in given.items()
     )
+    for name, values in axes:
+        if values.size == 0:
+            raise InputError(f"`{name}` must hold at least one value; got none")
     cells = int(np.prod([len(v) for _, v in axes]))
     if cells > MAX_CELLS:
         sizes = " x ".join(str(len(v)) for _, v in axes)
@@ -124,16 +130,19 @@ def shifted_cells(
     """
     side = side_of(observed, target)
     slack = slack_for(observed, target)
-    adjusted = shift(observed)
-    cells = dict(first or {})
-    cells["bias_adjusted_estimate"] = back(adjusted)
-    reach_ci = near = None
-    if ci is not None:
-        cells["bias_adjusted_ci_lower"] = back(shift(ci[0]))
-        cells["bias_adjusted_ci_upper"] = back(shift(ci[1]))
-        near = ci[0] if side > 0 else ci[1]
-        reach_ci = reaches(shift(near), target, side, slack)
-    finite_cells(cells, "`estimate`")
+    # values moved beyond a double become inf here and are refused by finite_cells, with
+    # the input named, instead of a raw overflow warning
+    with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
+        adjusted = shift(observed)
+        cells = dict(first or {})
+        cells["bias_adjusted_estimate"] = back(adjusted)
+        reach_ci = near = None
+        if ci is not None:
+            cells["bias_adjusted_ci_lower"] = back(shift(ci[0]))
+            cells["bias_adjusted_ci_upper"] = back(shift(ci[1]))
+            near = ci[0] if side > 0 else ci[1]
+            reach_ci = reaches(shift(near), target, side, slack)
+    finite_cells(cells, "`estimate` or `ci`")
     return {
         "cells": cells,
         "reach_estimate": reaches(adjusted, target, side, slack),

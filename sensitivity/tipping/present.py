@@ -6,6 +6,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..common.scales import SCALES
 from ..output.document import Document, Figure, prose, standard_tail
@@ -39,12 +40,41 @@ def _first_row(g: TippingGrid) -> dict:
     return rows_of_layout(cols, g.row_layout())[0]
 
 
-def _fmt(g: TippingGrid, name: str, value: float | None) -> str:
+def _fmt(g: TippingGrid, name: str, value: float | None, outward: int = 0) -> str:
+    """A parameter value as printed; `outward` +1 rounds up, -1 down (at the printed digits),
+    so that an exact set's printed end never overstates it: a crossing at 3.0003 prints as
+    "≥ 3.001", not "≥ 3", when 3 itself does not tip."""
     if value is None or (isinstance(value, float) and np.isnan(value)):
         return "not reached"
-    if name.startswith(("prevalence", "r2_")):
-        return f"{value:.3g}" if value >= 0.001 or value == 0 else f"{value:.2e}"
-    return f"{value:.4g}"
+    value = float(value)
+    small = name.startswith(("prevalence", "r2_")) and 0 < abs(value) < 0.001
+    digits = 3 if name.startswith(("prevalence", "r2_")) else 4
+    if outward and value != 0 and np.isfinite(value):
+        value = round_outward(value, digits, outward)
+    if small:
+        return f"{value:.2e}"
+    return f"{value:.{digits}g}"
+
+
+def round_outward(value: float, digits: int, direction: int) -> float:
+    """`value` rounded to `digits` significant digits up (+1) or down (-1); a value within
+    1e-9 (relative) of a printed number is that number (0.37499999999 is 0.375).
+
+    >>> round_outward(3.0003, 4, 1), round_outward(0.3749999999977, 3, 1)
+    (3.001, 0.375)
+    >>> round_outward(2.9996, 4, -1)
+    2.999
+    """
+    import math
+
+    exponent = math.floor(math.log10(abs(value))) - digits + 1
+    scaled = value / 10.0**exponent
+    near = round(scaled)
+    if abs(scaled - near) <= 1e-9 * max(abs(scaled), 1.0):
+        scaled = near
+    else:
+        scaled = math.ceil(scaled) if direction > 0 else math.floor(scaled)
+    return float(f"{scaled}e{exponent}")
 
 
 def _exact(g: TippingGrid, name: str, tp: dict, key: str) -> str:
@@ -56,10 +86,10 @@ def _exact(g: TippingGrid, name: str, tp: dict, key: str) -> str:
     if kind == "always":
         return "all values"
     if kind == "from":
-        return "≥ " + _fmt(g, name, low)
+        return "≥ " + _fmt(g, name, low, +1)
     if kind == "up_to":
-        return "≤ " + _fmt(g, name, high)
-    return f"{_fmt(g, name, low)} to {_fmt(g, name, high)}"
+        return "≤ " + _fmt(g, name, high, -1)
+    return f"{_fmt(g, name, low, +1)} to {_fmt(g, name, high, -1)}"
 
 
 def table(g: TippingGrid) -> Table:
@@ -70,7 +100,7 @@ def table(g: TippingGrid) -> Table:
         ci = "" if adj["ci"] is None else f"{adj['ci'][0]:.4g} to {adj['ci'][1]:.4g}"
         single = [(NAMES[n], _fmt(g, n, float(v[0]))) for n, v in g.axes]
         single.append(("Bias-adjusted estimate", f"{adj['estimate']:.4g}"))
-        level = f"{g.ci_level:.0%} CI"
+        level = f"{level_text(g.ci_level)} CI"
         if ci:
             single.append((f"Bias-adjusted {level}", ci))
         single.append((f"Estimate reaches {_goal(g)}", "yes" if r["reaches_target"] else "no"))
@@ -84,7 +114,7 @@ def table(g: TippingGrid) -> Table:
     head = tuple(NAMES[o] for o in others)
     cols = head + (f"Estimate reaches {_goal(g)} at", "(exact)")
     if g.reach_ci is not None:
-        cols += (f"{g.ci_level:.0%} CI reaches it at", "(exact)")
+        cols += (f"{level_text(g.ci_level)} CI reaches it at", "(exact)")
     exact_note = (
         "'(exact)': from the closed-form formula, every value that reaches the target (which "
         "may lie outside the grid): at least (≥) or at most (≤) the crossing, between two "
@@ -150,7 +180,7 @@ def sentence(g: TippingGrid) -> str:
         "continuous": "a hidden normal confounder",
     }[g.kind]
     goal = _goal(g)
-    level = f"{g.ci_level:.0%} CI"
+    level = f"{level_text(g.ci_level)} CI"
     j = g.solved
     if j is None:
         r = _first_row(g)
@@ -180,7 +210,7 @@ def sentence(g: TippingGrid) -> str:
 
 
 def document(g: TippingGrid) -> Document:
-    ci = "" if g.ci is None else f" ({g.ci_level:.0%} CI {g.ci[0]:g} to {g.ci[1]:g})"
+    ci = "" if g.ci is None else f" ({level_text(g.ci_level)} CI {g.ci[0]:g} to {g.ci[1]:g})"
     label = "OLS coefficient" if g.kind == "partial-r2" else SCALES[g.scale].name
     cells = int(np.prod(g.shape))
     head = (

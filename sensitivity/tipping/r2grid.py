@@ -12,7 +12,7 @@ from dataclasses import replace
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..common.checks import R2_STRENGTH, require
+from ..common.checks import R2_STRENGTH, require_scalar
 from .exact import monotone_set, r2_outcome_ci_set, reaches, slack_for
 from .grid import finite_cells, grid_axes, side_of
 from .ranges import default_ranges
@@ -50,7 +50,7 @@ def partial_r2_grid(
     )
 
     est, se, dof, _, alpha = check_summary(estimate, se, dof, None, 1.0, alpha)
-    tgt = float(require(0.0 if target is None else target, "target"))
+    tgt = float(require_scalar(0.0 if target is None else target, "target"))
     default = default_ranges(
         "partial-r2", robustness_value=float(robustness_value_of_t(est / se, dof=dof))
     )

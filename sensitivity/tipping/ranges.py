@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..common.checks import require
+from ..common.checks import require_scalar
 from ..common.errors import InputError
 from ..common.scales import RATIO_SCALES
 
@@ -46,11 +46,11 @@ def value_range(
     >>> value_range(1, 2, 0.3).tolist()
     [1.0, 1.3, 1.6, 1.9]
     """
-    start = float(require(start, name))
+    start = float(require_scalar(start, name))
     if stop is None and step is None:
         return np.array([start])
-    stop = float(require(stop, name))
-    step = float(require(step, name))
+    stop = float(require_scalar(stop, name))
+    step = float(require_scalar(step, name))
     if step <= 0:
         raise InputError(f"`{name}` step must be positive; got {step:g}")
     if stop < start:

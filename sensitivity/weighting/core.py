@@ -59,7 +59,7 @@ from collections.abc import Callable
 
 import numpy as np
 
-from ..common.checks import AT_LEAST_ONE, require
+from ..common.checks import AT_LEAST_ONE, require, require_seed
 from ..common.errors import InputError
 from .models import _bandwidth, _expit, logistic_fit
 from .resample import (
@@ -366,6 +366,7 @@ def _bounds(
         starts.update(_outcome_starts(s, kept))
 
     # the bootstrap
+    seed = require_seed(seed)
     drawn_seed = seed is None
     if seed is None:
         seed = int(np.random.SeedSequence().generate_state(1)[0])

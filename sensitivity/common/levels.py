@@ -1,0 +1,99 @@
+"""Two-sided critical values from the lower tail, and a level as a sentence names it.
+
+Upper-tail quantiles are taken as minus the lower-tail quantile at alpha/2 (the normal and t
+distributions are symmetric), never from ``1 - alpha/2``: ``1 - 1e-20`` is 1 in floating point
+and its quantile is infinite, while the lower tail stays finite down to alpha = 1e-300, the
+stated limit below which the package refuses a level.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import ArrayLike
+
+from .errors import InputError
+
+#: The least alpha (1 - level) the package accepts: its tail quantiles are finite numbers.
+ALPHA_FLOOR = 1e-300
+
+
+def check_alpha(alpha: float, name: str = "alpha") -> float:
+    """`alpha` as a float in [ALPHA_FLOOR, 1), or InputError naming `name` and the limit."""
+    try:
+        value = float(alpha)
+    except (TypeError, ValueError, OverflowError):
+        raise InputError(f"`{name}` must be a number; got {alpha!r}") from None
+    if not (0 < value < 1):
+        raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}")
+    if value < ALPHA_FLOOR:
+        raise InputError(
+            f"`{name}` must be at least {ALPHA_FLOOR:g} (smaller levels have no finite critical "
+            f"value in double precision); got {value:g}"
+        )
+    return value
+
+
+def check_level(level: float, name: str = "ci_level") -> float:
+    """A confidence level in (0, 1 - ALPHA_FLOOR], or InputError naming `name`."""
+    try:
+        value = float(level)
+    except (TypeError, ValueError, OverflowError):
+        raise InputError(f"`{name}` must be a number; got {level!r}") from None
+    if not (0 < value < 1):
+        raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}")
+    if value < ALPHA_FLOOR or 1 - value < ALPHA_FLOOR:
+        raise InputError(
+            f"`{name}` must be at least {ALPHA_FLOOR:g} and leave at least that to 1; got {value:g}"
+        )
+    return value
+
+
+def z_critical(alpha: ArrayLike) -> np.ndarray:
+    """The two-sided standard normal critical value at `alpha`: finite for alpha >= 1e-300.
+
+    >>> round(float(z_critical(0.05)), 4)
+    1.96
+    >>> bool(np.isfinite(z_critical(1e-300)))
+    True
+    """
+    from scipy.special import ndtri
+
+    return -ndtri(np.asarray(alpha, float) / 2)
+
+
+def t_critical(alpha: ArrayLike, dof: ArrayLike) -> np.ndarray:
+    """The two-sided Student-t critical value at `alpha` on `dof` degrees of freedom.
+
+    >>> round(float(t_critical(0.05, 10)), 4)
+    2.2281
+    >>> round(float(t_critical(1e-20, 1192)), 2)
+    9.51
+    """
+    from scipy.special import betaincinv, stdtrit
+
+    dof = np.asarray(dof, float)
+    half = np.asarray(alpha, float) / 2
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        crit = -stdtrit(dof, half)
+        # stdtrit fails in the far tail of few dof (dof 3, alpha 1e-300 gives -inf): there the
+        # tail is the incomplete beta, P(|T| > t) = I_x(dof/2, 1/2) with x = dof/(dof + t²)
+        bad = ~(np.isfinite(crit) & (crit > 0))
+        if np.any(bad):
+            x = betaincinv(dof / 2, 0.5, 2 * half)
+            crit = np.where(bad, np.sqrt(dof) * np.sqrt(1 / x - 1), crit)
+    return crit
+
+
+def level_text(level: float | None = None, *, alpha: float | None = None) -> str:
+    """A confidence level as a percentage that a sentence can print truly.
+
+    From `alpha` when given (1 - 1e-20 cannot be held as a float); as many digits as the
+    level has (97.5%, not 98%); a level within 1e-4 of 1 as "(100 − x)%".
+
+    >>> level_text(0.95), level_text(0.975), level_text(alpha=1e-20), level_text(0.5)
+    ('95%', '97.5%', '(100 − 1e-18)%', '50%')
+    """
+    complement = float(alpha) if alpha is not None else 1 - float(level)  # type: ignore[arg-type]
+    if complement < 1e-4:
+        return f"(100 − {100 * complement:.3g})%"
+    return f"{100 * (1 - complement):.6g}%"

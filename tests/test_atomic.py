@@ -1,0 +1,118 @@
+"""Issue 19: outputs are whole or absent (a temporary file beside the target, renamed into
+place), and a header cell cannot become a spreadsheet formula."""
+
+from __future__ import annotations
+
+import csv
+import io
+import threading
+
+import polars as pl
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from sensitivity.output.atomic import replacing, write_text
+from sensitivity.output.streams import FORMULA_STARTS, TableWriter, safe_name
+
+
+def _leftovers(folder):
+    return sorted(p.name for p in folder.iterdir() if p.name.startswith("."))
+
+
+def test_a_failure_part_way_leaves_the_old_file_and_no_temporary(tmp_path):
+    target = tmp_path / "out.txt"
+    target.write_text("old and whole")
+    with pytest.raises(RuntimeError), replacing(target, "w") as sink:
+        sink.write("half")
+        raise RuntimeError("disk full")
+    assert target.read_text() == "old and whole"
+    assert _leftovers(tmp_path) == []
+
+
+def test_a_new_file_gets_the_usual_permissions(tmp_path):
+    import os
+
+    write_text(tmp_path / "new.txt", "x")
+    mask = os.umask(0)
+    os.umask(mask)
+    assert (tmp_path / "new.txt").stat().st_mode & 0o777 == 0o666 & ~mask
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".tsv", ".json", ".parquet", ".xlsx"])
+def test_the_table_writer_aborted_leaves_nothing(tmp_path, suffix):
+    writer = TableWriter(tmp_path / f"t{suffix}")
+    writer.write(pl.DataFrame({"a": ["1", "2"]}))
+    writer.abort()
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_a_command_that_fails_while_writing_leaves_no_output(run, tmp_path, monkeypatch):
+    from sensitivity.output import streams
+
+    src = tmp_path / "in.csv"
+    src.write_text("scale,estimate,lower,upper\n" + "rr,2,1.5,3\n" * 10)
+    out = tmp_path / "out.csv"
+
+    def broken(self, piece):
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(streams.TableWriter, "_write_text", broken)
+    res = run("screen", src, "-o", out)
+    assert res.exit_code == 1 and "No space left" in res.stderr
+    assert not out.exists() and _leftovers(tmp_path) == []
+
+
+def test_two_writers_of_one_path_leave_one_whole_table(tmp_path):
+    target = tmp_path / "same.csv"
+    tables = {k: pl.DataFrame({"who": [k] * 50_000, "n": [str(i) for i in range(50_000)]})
+              for k in ("a", "b")}  # fmt: skip
+
+    def write(k):
+        writer = TableWriter(target)
+        for part in tables[k].iter_slices(5_000):
+            writer.write(part)
+        writer.close()
+
+    threads = [threading.Thread(target=write, args=(k,)) for k in tables]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    rows = list(csv.DictReader(io.StringIO(target.read_text())))
+    assert len(rows) == 50_000 and len({r["who"] for r in rows}) == 1
+    assert _leftovers(tmp_path) == []
+
+
+names = st.tuples(st.sampled_from(FORMULA_STARTS), st.text(min_size=1, max_size=12)).map("".join)
+
+
+@settings(max_examples=30, deadline=None)
+@given(name=names)
+def test_a_formula_looking_column_name_is_defused_in_csv_tsv_and_excel(name, tmp_path_factory):
+    import openpyxl
+
+    from sensitivity.output.streams import _NUMBER
+
+    if _NUMBER.match(name):
+        return  # a number ("+0") is not a formula and is left as written
+    folder = tmp_path_factory.mktemp("h")
+    frame = pl.DataFrame({name: ["=1+1"], "b": ["x"]})
+    for suffix in (".csv", ".tsv"):
+        writer = TableWriter(folder / f"t{suffix}")
+        writer.write(frame)
+        writer.close()
+        sep = "," if suffix == ".csv" else "\t"
+        with open(folder / f"t{suffix}", newline="", encoding="utf-8") as fh:
+            header = next(csv.reader(fh, delimiter=sep))
+        assert header[0].startswith("'") and header[0] == safe_name(name)
+    writer = TableWriter(folder / "t.xlsx")
+    writer.write(frame)
+    writer.close()
+    sheet = openpyxl.load_workbook(folder / "t.xlsx").active
+    for cell in sheet[1] + sheet[2]:
+        assert cell.data_type != "f", cell.value
+
+
+def test_a_numeric_looking_header_is_left_alone():
+    assert safe_name("-0.5") == "-0.5" and safe_name("=cmd") == "'=cmd"

@@ -1,0 +1,158 @@
+"""Issue 19, the fuzz classes as properties: over the public API and every command, bad or
+extreme input is a ValueError (InputError) or a result that prints; never another exception,
+a raw warning (pytest runs with warnings as errors), NaN or inf passed through silently, or a
+partial output; on the command line, exit 0 or 2, never 1."""
+
+from __future__ import annotations
+
+import decimal
+import math
+import shlex
+from importlib import import_module
+
+import click
+import numpy as np
+from click.testing import CliRunner
+from conftest import ROOT
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+import sensitivity as s
+from cli import cli
+from sensitivity.commands import COMMANDS
+
+NASTY = [
+    float("nan"), float("inf"), float("-inf"), 0.0, -1.0, 1e308, -1e308, 5e-324, 1e-300,
+    10**400, 2**63, 1 + 2j, None, "x", "", [], [1.0], (), True, decimal.Decimal("2"),
+    decimal.Decimal("NaN"), decimal.Decimal("sNaN"), np.float32(2), np.array([]),
+]  # fmt: skip
+
+CALLS = {
+    "evalue": (s.evalue, ("rr", 2.0), {"ci": (1.5, 3.0)}),
+    "evalue_md": (s.evalue, ("md", 0.035), {"se": 0.012, "sd": 14.0}),
+    "partial_r2_summary": (s.partial_r2_summary, (0.5, 0.1, 100.0), {}),
+    "impact_threshold": (s.impact_threshold, (), {"estimate": 0.5, "se": 0.1, "dof": 100.0}),
+    "coefficient_stability": (s.coefficient_stability, (0.5, 0.1, 0.4, 0.3),
+                              {"var_outcome": 1.0, "var_treatment": 1.0,
+                               "var_treatment_residual": 0.5}),
+    "rosenbaum_bounds": (s.rosenbaum_bounds, (), {"discordant": 20, "treated_events": 15}),
+    "binary_confounder_grid": (s.binary_confounder_grid, ("rr", 2.0), {
+        "ci": (1.5, 3.0), "prevalence_treated": 0.5, "prevalence_control": 0.2,
+        "outcome_effect": 2.0}),
+    "bounding_grid": (s.bounding_grid, ("rr", 2.0), {"ci": (1.5, 3.0)}),
+    "partial_r2_grid": (s.partial_r2_grid, (0.5, 0.1, 100.0), {}),
+    "simulate": (s.simulate, ("rr", 2.0, (1.5, 3.0)), {
+        "prevalence_treated": "fixed:0.5", "prevalence_control": "fixed:0.2",
+        "outcome_effect": "fixed:2", "draws": 200, "seed": 1}),
+    "evalue_of_rr": (s.evalue_of_rr, (2.0,), {}),
+    "robustness_value_of_t": (s.robustness_value_of_t, (3.0,), {"dof": 100.0}),
+}  # fmt: skip
+
+
+def _slots(name):
+    _, args, kwargs = CALLS[name]
+    return [("arg", i) for i in range(len(args))] + [("kw", k) for k in kwargs]
+
+
+SLOTS = [(name, slot) for name in CALLS for slot in _slots(name)]
+
+
+def _finite_numbers(result):
+    """Every number a result reports is finite or a stated null, never a silent NaN: the
+    JSON form (to_dict) holds None where a value is missing, so NaN must not appear."""
+
+    def walk(v):
+        if isinstance(v, float):
+            assert not math.isnan(v), "a NaN in to_dict()"
+        elif isinstance(v, dict):
+            for x in v.values():
+                walk(x)
+        elif isinstance(v, (list, tuple)):
+            for x in v:
+                walk(x)
+
+    walk(result.to_dict())
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.sampled_from(SLOTS), st.sampled_from(NASTY))
+def test_the_public_api_raises_value_errors_or_returns_a_printable_result(slot, value):
+    name, (kind, where) = slot
+    func, args, kwargs = CALLS[name]
+    args, kwargs = list(args), dict(kwargs)
+    if kind == "arg":
+        args[where] = value
+    else:
+        kwargs[where] = value
+    try:
+        result = func(*args, **kwargs)
+    except ValueError:
+        return  # InputError is a ValueError (InputTypeError is both)
+    if isinstance(result, (np.ndarray, np.generic, float)):
+        assert not np.any(np.isnan(result)) or value is None or _is_nan(value)
+        return
+    str(result)
+    _finite_numbers(result)
+
+
+def _is_nan(value):
+    try:
+        return math.isnan(float(value))
+    except (TypeError, ValueError, OverflowError, decimal.InvalidOperation):
+        return False
+
+
+# ------------------------------------------------------------------ every command
+def _first_example(command):
+    text = CliRunner().invoke(cli, [command, "--help"], terminal_width=200).stdout
+    current = ""
+    for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
+        line = raw.strip()
+        if not line:
+            continue
+        current = f"{current} {line}".strip()
+        if current.endswith("\\"):
+            current = current[:-1].strip()
+            continue
+        return shlex.split(current)[1:]
+    raise AssertionError(command)
+
+
+EXAMPLES = {name: _first_example(name) for name in COMMANDS}
+TEXT_VALUES = ["nan", "inf", "-inf", "0", "-1", "1e308", "5e-324", "1e400", "x", "",
+               "99999999999999999999", "1e-300", "0.5", "2"]  # fmt: skip
+
+
+def _values_of(command):
+    """(position, option) for each option value in the command's first example."""
+    args = EXAMPLES[command]
+    cmd = import_module(f"sensitivity.commands.{COMMANDS[command][0]}").command
+    takes = {o: p.nargs for p in cmd.params if isinstance(p, click.Option) and not p.is_flag
+             for o in p.opts}  # fmt: skip
+    spots = []
+    for i, a in enumerate(args):
+        if a in takes and a not in ("--output", "-o", "--out", "--plot", "--data"):
+            spots += [(i + k + 1, a) for k in range(takes[a])]
+    return spots
+
+
+SPOTS = [(c, spot) for c in COMMANDS for spot in _values_of(c)]
+
+
+SLOW = [HealthCheck.too_slow, HealthCheck.function_scoped_fixture]
+
+
+@settings(max_examples=120, deadline=None, suppress_health_check=SLOW)
+@given(spot=st.sampled_from(SPOTS), value=st.sampled_from(TEXT_VALUES))
+def test_every_command_exits_0_or_2_without_raw_warnings(spot, value, tmp_path, monkeypatch):
+    command, (i, option) = spot
+    monkeypatch.chdir(ROOT)
+    args = list(EXAMPLES[command])
+    args[i] = value
+    if command == "report":
+        args = [a if a != "report_out" else str(tmp_path / "r") for a in args]
+    res = CliRunner().invoke(cli, args, catch_exceptions=False)
+    assert res.exit_code in (0, 2), (args, res.stderr)
+    assert "RuntimeWarning" not in res.stderr and "internal error" not in res.stderr
+    if res.exit_code == 2:
+        assert res.stderr.startswith("Error: ") and res.stderr.count("\n") == 1, res.stderr
