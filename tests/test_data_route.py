@@ -86,7 +86,7 @@ def test_the_report_command_from_data_writes_the_same_numbers(run, tmp_path):
     res = run("report", "--data", data, "--formula", formula, "--treatment", "commute_min",
               "--model", "ols", "--event", "smoker", "--out", tmp_path / "e")  # fmt: skip
     assert res.exit_code == 2
-    assert res.stderr == "Error: `event` applies to model cox only; got model ols\n"
+    assert res.stderr == "Error: `--event` applies to model cox only; got model ols\n"
 
 
 # --------------------------------------------------------------------------- GLMs in passes

@@ -275,9 +275,9 @@ def test_walsh_order_statistics_by_counting_equal_sorting(seed, distinct, monkey
     # The routes used above 4,000 pairs, counting (untied data) and listing the averages of
     # distinct values with their multiplicities (tied data), against all Walsh averages
     # sorted, on data with heavy ties, zeros and negative values.
-    import sensitivity.matched.core as core
+    import sensitivity.matched.walsh as walsh_module
 
-    monkeypatch.setattr(core, "WALSH_DISTINCT", distinct)
+    monkeypatch.setattr(walsh_module, "WALSH_DISTINCT", distinct)
 
     rng = np.random.default_rng(seed)
     n = int(rng.integers(2, 600))
@@ -285,8 +285,8 @@ def test_walsh_order_statistics_by_counting_equal_sorting(seed, distinct, monkey
     i, j = np.triu_indices(n)
     walsh = np.sort((np.sort(d)[i] + np.sort(d)[j]) / 2)
     index = np.unique(rng.integers(0, walsh.size, 20))
-    monkeypatch.setattr(core, "WALSH_IN_MEMORY", 1)
-    assert np.array_equal(core._walsh_order_statistics(d, index), walsh[index])
+    monkeypatch.setattr(walsh_module, "WALSH_IN_MEMORY", 1)
+    assert np.array_equal(walsh_module._walsh_order_statistics(d, index), walsh[index])
 
 
 def test_a_protective_effect_is_tested_in_its_own_direction():
