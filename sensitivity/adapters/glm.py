@@ -207,10 +207,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         # the rank, from the first step's weighted design (every weight positive)
         first.widen(max(design.slots, default=0) + 1)
         kept = _kept(first.of(design.slots), design.used)
-        notes: list[str] = []
-        if design.read > design.used:
-            notes.append(f"{design.read - design.used} of {design.read} rows had missing values "
-                         "in the model's columns and were left out of the fit.")  # fmt: skip
+        notes: list[str] = []  # what the E-value carries, as the in-memory fit's does
         if j not in kept:
             raise InputError(f"`treatment` {names[j]!r} is a linear combination of the "
                              "covariates in these data: its coefficient is not "
@@ -365,13 +362,10 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     """The E-value of `treatment` in a logistic or Poisson fit of `formula` on `data`, fitted
     in passes over pieces (`glm_one_pass`): the result `models.evalue_from_data` gives from
     statsmodels' fit (numbers to 1e-8, the same words), in memory flat in the rows."""
-    from dataclasses import replace
-
     from scipy.special import ndtri
 
-    from ..evalues.core import evalue
     from .errors import WORDS
-    from .models import SHOWN, _warn, model_kind_scale
+    from .models import evalue_of_fit, model_kind_scale
 
     fit = glm_one_pass(data, formula, treatment, model, errors=errors, progress=progress)
     from .design import find_treatment
@@ -382,48 +376,9 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     se = float(np.sqrt(fit.cov[j, j]))
     z = float(ndtri(1 - alpha / 2))
     ci = np.array([b - z * se, b + z * se])
-    n, share = fit.n, fit.share
-    notes = [note for note in fit.notes if note.startswith("Left out")]
     code = {"nonrobust": "classical", "HC0": "hc0"}.get(fit.cov_type, fit.cov_type)
     words = WORDS.get(code, f"cluster-robust standard errors ({fit.clusters:,} clusters)")
-    notes.append(f"The {1 - alpha:.0%} interval is the fit's own, from its {words}.")
-    if code == "classical" and model == "poisson" and fit.binary:
-        _warn(
-            f"a {SHOWN[model]} fit of a 0/1 outcome with model-based errors: for a risk ratio "
-            "from such a fit (modified Poisson, Zou 2004) robust errors are the usual choice; "
-            "refit with cov_type='HC0' (or --errors hc0 on the data route)",
-            notes,
-        )
-    prevalence = share if outcome is None and scale in ("or", "hr") else None
-    est = float(np.exp(b * contrast))
-    interval: tuple[float, float] | None = None
-    if np.isfinite(ci).all():
-        lo, up = (float(v) for v in np.exp(np.sort(ci * contrast)))
-        interval = (lo, up)
-    else:
-        _warn(
-            f"the fit gives no finite standard error for {treatment!r} (the model's Hessian "
-            "could not be inverted: a parameter at its boundary, such as a negative binomial "
-            "dispersion near 0, or separation), so only the estimate's E-value is reported",
-            notes,
-        )
-    res = evalue(scale, est, interval, outcome=outcome, prevalence=prevalence,
-                 ci_level=1 - alpha)  # fmt: skip
-    what = {"or": "odds ratio", "rr": "risk or rate ratio", "hr": "hazard ratio"}[scale]
-    per = f" per {contrast:g} units" if contrast != 1 else ""
-    notes.insert(
-        0,
-        f"From a fitted {SHOWN[model]} model (n = {n:,}): {what} exp(b){per} = {est:.4g}; the "
-        f"outcome occurs in {share:.1%} of the model's data.",
-    )
-    info = {"kind": model, "n": n, "outcome_share": share, "treatment": treatment,
-            "errors": code}  # fmt: skip
-    ov = fit.overlap
-    if ov is not None and ov["poor"]:
-        _warn(
-            f"poor overlap: {ov['share_outside']:.1%} of units lie outside the common support "
-            "of the fitted treatment probabilities; the sensitivity analysis assumes the "
-            "adjusted estimate itself is sound",
-            notes,
-        )
-    return replace(res, notes=tuple(notes) + res.notes, model=info, overlap=ov)
+    return evalue_of_fit(model, scale, b, ci, treatment=treatment, n=fit.n, share=fit.share,
+                         binary=fit.binary, errors=(code, words), contrast=contrast,
+                         alpha=alpha, outcome=outcome, overlap=fit.overlap,
+                         notes=fit.notes)  # fmt: skip

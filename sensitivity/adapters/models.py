@@ -10,6 +10,7 @@ confidence limits; the outcome's event share in the model's data decides rare or
 from __future__ import annotations
 
 import warnings
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -122,9 +123,10 @@ def overlap(treatment: np.ndarray, covariates: np.ndarray) -> dict[str, Any] | N
     }
 
 
-def _warn(message: str, notes: list[str]) -> None:
-    """A SensitivityWarning to the caller of `evalue_from_model`, kept as a note as well."""
-    warnings.warn(message, SensitivityWarning, stacklevel=3)
+def _warn(message: str, notes: list[str], depth: int = 3) -> None:
+    """A SensitivityWarning to the caller of `evalue_from_model`, kept as a note as well
+    (`depth`: the frames between here and that caller, plus one)."""
+    warnings.warn(message, SensitivityWarning, stacklevel=depth)
     notes.append(message[0].upper() + message[1:] + ".")
 
 
@@ -184,20 +186,49 @@ def evalue_from_model(
         share, n = float(np.mean(y > 0)), len(y)
     else:
         share, n = float(np.mean(y > 0)), len(y)
-    notes = []
     code, words = used_by(results)
+    exog = np.asarray(model.exog, float)
+    others = [i for i in range(exog.shape[1]) if i != j]
+    ov = overlap(exog[:, j], exog[:, others]) if others else None
+    return evalue_of_fit(kind, scale, b, ci, treatment=treatment, n=n, share=share,
+                         binary=is_binary(y), errors=(code, words), contrast=contrast,
+                         alpha=alpha, outcome=outcome, overlap=ov)  # fmt: skip
+
+
+def evalue_of_fit(
+    kind: str,
+    scale: str,
+    b: float,
+    ci: np.ndarray,
+    *,
+    treatment: str,
+    n: int,
+    share: float,
+    binary: bool,
+    errors: tuple[str, str],
+    contrast: float,
+    alpha: float,
+    outcome: str | None,
+    overlap: dict | None,
+    notes: Sequence[str] = (),
+) -> EValueResult:
+    """The E-value of a log-scale coefficient `b` with its interval `ci`, from a fit made in
+    memory (statsmodels) or in passes (`glm.evalue_one_pass`): the same notes, warnings and
+    model record either way. `errors` is the code and the words of the fit's errors."""
+    from dataclasses import replace
+
+    code, words = errors
+    notes = list(notes)
     notes.append(f"The {1 - alpha:.0%} interval is the fit's own, from its {words}.")
-    if code == "classical" and kind == "poisson" and is_binary(y):
+    if code == "classical" and kind == "poisson" and binary:
         _warn(
             f"a {SHOWN[kind]} fit of a 0/1 outcome with model-based errors: for a risk ratio "
             "from such a fit (modified Poisson, Zou 2004) robust errors are the usual choice; "
             "refit with cov_type='HC0' (or --errors hc0 on the data route)",
             notes,
+            depth=4,
         )
-    freq = outcome
-    prevalence = None
-    if freq is None and scale in ("or", "hr"):
-        prevalence = share
+    prevalence = share if outcome is None and scale in ("or", "hr") else None
     est = float(np.exp(b * contrast))
     interval: tuple[float, float] | None = None
     if np.isfinite(ci).all():
@@ -209,8 +240,10 @@ def evalue_from_model(
             "could not be inverted: a parameter at its boundary, such as a negative binomial "
             "dispersion near 0, or separation), so only the estimate's E-value is reported",
             notes,
+            depth=4,
         )
-    res = evalue(scale, est, interval, outcome=freq, prevalence=prevalence, ci_level=1 - alpha)
+    res = evalue(scale, est, interval, outcome=outcome, prevalence=prevalence,
+                 ci_level=1 - alpha)  # fmt: skip
     what = {"or": "odds ratio", "rr": "risk or rate ratio", "hr": "hazard ratio"}[scale]
     per = f" per {contrast:g} units" if contrast != 1 else ""
     notes.insert(
@@ -220,19 +253,15 @@ def evalue_from_model(
     )
     info = {"kind": kind, "n": n, "outcome_share": share, "treatment": treatment,
             "errors": code}  # fmt: skip
-    exog = np.asarray(model.exog, float)
-    others = [i for i in range(exog.shape[1]) if i != j]
-    ov = overlap(exog[:, j], exog[:, others]) if others else None
-    if ov is not None and ov["poor"]:
+    if overlap is not None and overlap["poor"]:
         _warn(
-            f"poor overlap: {ov['share_outside']:.1%} of units lie outside the common support "
-            "of the fitted treatment probabilities; the sensitivity analysis assumes the "
-            "adjusted estimate itself is sound",
+            f"poor overlap: {overlap['share_outside']:.1%} of units lie outside the common "
+            "support of the fitted treatment probabilities; the sensitivity analysis assumes "
+            "the adjusted estimate itself is sound",
             notes,
+            depth=4,
         )
-    from dataclasses import replace
-
-    return replace(res, notes=tuple(notes) + res.notes, model=info, overlap=ov)
+    return replace(res, notes=tuple(notes) + res.notes, model=info, overlap=overlap)
 
 
 def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
