@@ -56,6 +56,7 @@ Journal of Econometrics 232:367-388.
 from __future__ import annotations
 
 from collections.abc import Callable
+from typing import Any
 
 import numpy as np
 
@@ -150,18 +151,23 @@ def overlap_summary(e: np.ndarray, treated: np.ndarray) -> dict:
     }
 
 
-def _one_thread():
-    """BLAS held to one thread: the products here are small, and a threaded BLAS on a busy
-    machine spins (a dot product of 10^5 took 15 ms instead of 0.03 ms, measured here)."""
-    try:
+def _on_one_thread(func: Callable) -> Callable:
+    """Run `func` with BLAS held to one thread: the products here are small, and a threaded
+    BLAS on a busy machine spins (a dot product of 10^5 took 15 ms instead of 0.03 ms,
+    measured here)."""
+    from functools import wraps
+
+    @wraps(func)
+    def run(*args: Any, **kwargs: Any) -> Any:
         from threadpoolctl import threadpool_limits
-    except ImportError:  # pragma: no cover - an optional helper
-        from contextlib import nullcontext
 
-        return nullcontext()
-    return threadpool_limits(1, "blas")
+        with threadpool_limits(1, "blas"):
+            return func(*args, **kwargs)
+
+    return run
 
 
+@_on_one_thread
 def weighting_bounds(
     outcome: object,
     treatment: object,
@@ -223,31 +229,6 @@ def weighting_bounds(
     >>> bool(abs(res.lower[0] - res.estimate) < 1e-12 and res.lower[1] < res.estimate)
     True
     """
-    options = dict(locals())
-    with _one_thread():
-        return _bounds(**options)
-
-
-def _bounds(
-    outcome: object,
-    treatment: object,
-    *,
-    covariates: object = None,
-    propensity: object = None,
-    estimand: str = "ate",
-    lam: object = (1.0, 1.25, 1.5, 2.0, 3.0),
-    resamples: int = 200,
-    seed: int | None = None,
-    alpha: float = 0.05,
-    target: float = 0.0,
-    extreme: str = "none",
-    cut: float = 0.01,
-    methods: tuple[str, ...] = METHODS,
-    names: tuple[str, str] = ("treatment", "outcome"),
-    covariate_names: tuple[str, ...] = (),
-    progress: Callable[[int, int], None] | None = None,
-    notes: tuple[str, ...] = (),
-) -> WeightingResult:
     from ..common.checks import OPEN_UNIT
 
     if estimand not in ESTIMANDS:
