@@ -30,13 +30,21 @@ def matched_differences(
 
         frame = read_table(data, "data")
     if differences and (treated or control):
-        raise InputError("give `differences`, or `treated` and `control`, not both")
+        raise InputError(
+            "give `differences`, or `treated` and `control`, not both",
+            ("differences", "treated", "control"),
+        )
     cols = [differences] if differences else [treated, control]
     if not all(cols):
-        raise InputError("`data` needs `treated` and `control`, or `differences`")
+        raise InputError(
+            "`data` needs `treated` and `control`, or `differences`",
+            ("data", "treated", "control", "differences"),
+        )
     for col in cols:
         if col not in frame.columns:
-            raise InputError(f"`data`: no column {col!r}; columns: {', '.join(frame.columns)}")
+            raise InputError(
+                f"`data`: no column {col!r}; columns: {', '.join(frame.columns)}", "data"
+            )
     import pandas as pd
 
     values = frame[cols].apply(lambda c: pd.to_numeric(c, errors="coerce"))

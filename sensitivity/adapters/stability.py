@@ -34,9 +34,14 @@ def stability_inputs_from_data(
     fit_short, _ = fit_formula(frame, formula_short)
     fit_long, _ = fit_formula(frame, formula_long)
     if int(fit_short.nobs) != int(fit_long.nobs):
-        raise InputError("`formula_short` and `formula_long` must be fitted on the same rows")
+        raise InputError(
+            "`formula_short` and `formula_long` must be fitted on the same rows",
+            ("formula_short", "formula_long"),
+        )
     if treatment not in fit_long.params.index:
-        raise InputError(f"`treatment` {treatment!r} is not a coefficient of the long model")
+        raise InputError(
+            f"`treatment` {treatment!r} is not a coefficient of the long model", "treatment"
+        )
     terms = [t.strip() for t in formula_long.split("~", 1)[1].split("+")]
     controls = " + ".join(t for t in terms if t != treatment) or "1"
     rows = fit_long.model.data.row_labels

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import re
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -35,7 +35,18 @@ class Number(click.ParamType):
 
 class Command(click.Command):
     """A command whose positional arguments may be negative numbers (an SMD of -0.4) while
-    an unknown or misspelt option is still an error that names it."""
+    an unknown or misspelt option is still an error that names it.
+
+    Bad input names the option as the user typed it: an `InputError` carries the Python
+    argument it is about (`ci_level`), and the command renders it as its option (`--ci-level`,
+    or `-o` where the user typed the short alias). `names` maps a Python argument that is not
+    its option's name: to an option (``{"lam": "--lambda"}``) or to one value of a
+    multi-value option (``{"cd2": ("--strength", 2)}``, "the second value of `--strength`");
+    a command adds names that depend on its input with `name_arguments`."""
+
+    def __init__(self, *args: Any, names: Mapping[str, Named] | None = None, **kwargs: Any):
+        super().__init__(*args, **kwargs)
+        self.names: dict[str, Named] = dict(names or {})
 
     def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
         takes = {}
@@ -60,11 +71,15 @@ class Command(click.Command):
         from sensitivity.common.errors import InputError
 
         _refuse_repeats(self, args)
-        ctx.meta["typed"] = {a.split("=", 1)[0] for a in args if a.startswith("--")}
+        ctx.meta["typed"] = _typed(self, args)
         try:
             rest = super().parse_args(ctx, out)
         except InputError as err:  # from an option's callback (a --plot path, say)
-            raise type(err)(as_typed(self, str(err), ctx.meta["typed"])) from err.__cause__
+            raise type(err)(err.render(namer(self, ctx))) from err.__cause__
+        except click.BadParameter as err:  # click's own: name the option as typed
+            if err.param is not None and err.param.name in ctx.meta["typed"]:
+                err.param_hint = repr(ctx.meta["typed"][err.param.name])
+            raise
         except click.NoSuchOption as err:
             if err.option_name in RENAMED:
                 raise click.UsageError(
@@ -81,8 +96,21 @@ class Command(click.Command):
             return super().invoke(ctx)
         except InputError as err:
             # the library names its Python argument (`ci_level`); the user typed --ci-level
-            typed = ctx.meta.get("typed")
-            raise type(err)(as_typed(self, str(err), typed)) from err.__cause__
+            raise type(err)(err.render(namer(self, ctx))) from err.__cause__
+
+
+#: How a command names a Python argument: an option ("--lambda"), or one value of a
+#: multi-value option (("--strength", 2): its second value).
+Named = str | tuple[str, int]
+_ORDINALS = ("first", "second", "third", "fourth")
+
+
+def name_arguments(**names: Named) -> None:
+    """Name Python arguments by options for the rest of the running command, where the name
+    depends on the input: with --propensity-column, the library's `propensity` holds that
+    column's values (``name_arguments(propensity="--propensity-column")``)."""
+    ctx = click.get_current_context()
+    ctx.meta.setdefault("names", {}).update(names)
 
 
 def _option_name(param: click.Parameter) -> str:
@@ -91,32 +119,49 @@ def _option_name(param: click.Parameter) -> str:
     return names[0]
 
 
-def as_typed(command: click.Command, message: str, typed: set[str] | None = None) -> str:
-    """`message` with each `argument` that is one of the command's options as typed: `ci_level`
-    becomes `--ci-level` where the command has --ci-level (but not where the user gave a longer
-    option it begins, `typed`: a value from --propensity-column is not --propensity's). Only
-    literal matches (`outcome` is
-    not --outcome-frequency), and in a message about a row of a file only the leading name
-    (the rest name the file's columns)."""
-    typed = typed or set()
-    options = {
-        opt.removeprefix("--").replace("-", "_"): opt
-        for param in command.params
-        if isinstance(param, click.Option)
-        for opt in param.opts
-        if opt.startswith("--")
-        # not --propensity when the user gave --propensity-column (whose values the message
-        # is about), unless --propensity itself was given
-        and (opt in typed or not any(t.startswith(opt + "-") for t in typed))
-    }
-    pattern = re.compile(r"`([A-Za-z_][\w-]*)`")
-    count = 1 if re.search(r"\brow \d", message) else 0
+def _typed(command: click.Command, args: list[str]) -> dict[str, str]:
+    """Each option the user gave, as they spelt it (`-o` or `--output`): param name -> text."""
+    spelt = {}
+    for param in command.params:
+        if isinstance(param, click.Option):
+            for name in param.opts + param.secondary_opts:
+                spelt[name] = param
+    typed: dict[str, str] = {}
+    for token in args:
+        if token == "--":
+            break
+        name = token.split("=", 1)[0] if token.startswith("--") else token
+        param = spelt.get(name)
+        if param is not None and param.name:
+            typed.setdefault(param.name, name)
+    return typed
 
-    def swap(m: re.Match) -> str:
-        name = m.group(1)
-        return f"`{options.get(name.replace('-', '_'), name)}`"
 
-    return pattern.sub(swap, message, count=count)
+def namer(command: click.Command, ctx: click.Context) -> Callable[[str], str]:
+    """How the command line names a Python argument in a message: the option as typed
+    (`--ci-level`), one value of a multi-value option ("the second value of `--strength`"),
+    a positional argument by its metavar (`FILE`); any other keeps its Python name."""
+    typed = ctx.meta.get("typed") or {}
+    options = [p for p in command.params if isinstance(p, click.Option)]
+    by_option = {o: p for p in options for o in p.opts if o.startswith("--")}
+    by_name = {p.name: p for p in command.params}
+    names = {**getattr(command, "names", {}), **ctx.meta.get("names", {})}
+
+    def spelt(param: click.Parameter) -> str:
+        if isinstance(param, click.Argument):
+            return param.human_readable_name  # FILE, TEXT
+        return typed.get(param.name or "", _option_name(param))
+
+    def name(argument: str) -> str:
+        spec = names.get(argument)
+        if spec is not None:
+            option, place = (spec, 0) if isinstance(spec, str) else spec
+            shown = f"`{spelt(by_option[option])}`"
+            return f"the {_ORDINALS[place - 1]} value of {shown}" if place else shown
+        param = by_option.get("--" + argument.replace("_", "-")) or by_name.get(argument)
+        return f"`{spelt(param)}`" if param is not None else f"`{argument}`"
+
+    return name
 
 
 def _refuse_repeats(command: click.Command, args: list[str]) -> None:
@@ -142,32 +187,34 @@ def _refuse_repeats(command: click.Command, args: list[str]) -> None:
         if param.multiple or param.count:
             continue
         if param.name in seen:
-            raise click.UsageError(f"{_option_name(param)} was given more than once; give it once")
+            raise click.UsageError(
+                f"{name if inline else token} was given more than once; give it once"
+            )
         seen.add(param.name)  # type: ignore[arg-type]
 
 
 def _refuse_non_finite(command: click.Command, ctx: click.Context) -> None:
-    """Every number an option takes is finite: nan or inf is an error naming the option.
-    (Positional numbers are checked by the library, whose message names them.)"""
+    """Every number an option takes is finite: nan or inf is an error naming the option as
+    typed (and which of its values, for an option of several). (Positional numbers are
+    checked by the library, whose message names them.)"""
     import math
 
+    typed = ctx.meta.get("typed") or {}
     for param in command.params:
         if not isinstance(param, click.Option):
             continue
         value = ctx.params.get(param.name) if param.name else None
         if value is None:
             continue
-        flat = []
-        stack = [value]
-        while stack:
-            v = stack.pop()
-            if isinstance(v, (tuple, list)):
-                stack.extend(v)
-            else:
-                flat.append(v)
-        for v in flat:
-            if isinstance(v, float) and not math.isfinite(v):
-                raise click.BadParameter(f"must be a finite number; got {v}", ctx, param)
+        groups = value if param.multiple else (value,)
+        for group in groups:
+            values = group if isinstance(group, (tuple, list)) else (group,)
+            for place, v in enumerate(values):
+                if isinstance(v, float) and not math.isfinite(v):
+                    shown = f"`{typed.get(param.name, _option_name(param))}`"
+                    if param.nargs > 1:
+                        shown = f"the {_ORDINALS[place]} value of {shown}"
+                    raise click.UsageError(f"{shown} must be a finite number; got {v}", ctx)
 
 
 #: Above this many rows JSON is written compact and streamed (people do not read it).

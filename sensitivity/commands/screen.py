@@ -169,7 +169,9 @@ def screen_cmd(
     ):
         raise click.UsageError("--flagged and --output must be different files")
     if threshold is not None and not threshold >= 1:
-        raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
+        raise InputError(
+            f"`threshold` must be at least 1 (an E-value); got {threshold:g}", "threshold"
+        )
     pooled = None
     if pool_threshold is not None and (engine != "local" or Path(file).is_dir()):
         raise click.UsageError("--pool reads a single file; screen a folder or an engine's "
@@ -186,7 +188,7 @@ def screen_cmd(
                 from_text=from_text,
             )
         except InputError as err:  # the pool's threshold is --pool here (--threshold is ours)
-            raise InputError(str(err).replace("`threshold`", "`--pool`")) from None
+            raise err.renamed({"threshold": "pool"}) from None
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
     options: dict[str, Any] = {"columns": _column_map(column_map), "from_text": from_text,
                "confounders": confounders, "alpha": alpha}  # fmt: skip

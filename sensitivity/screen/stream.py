@@ -92,7 +92,7 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
         if std not in (*NUMERIC, *TEXT):
             known = ", ".join((*TEXT, *NUMERIC))
             raise InputError(
-                f"`columns`: {std!r} is not a column the screen reads; it reads {known}"
+                f"`columns`: {std!r} is not a column the screen reads; it reads {known}", "columns"
             )
         if user not in header:
             raise InputError(
@@ -171,7 +171,7 @@ def screen_frames(
     from ..common.checks import AT_LEAST_ONE, require
 
     if any(len(pair) != 2 for pair in confounders):
-        raise InputError("`confounders` must be pairs (rr_treatment, rr_outcome)")
+        raise InputError("`confounders` must be pairs (rr_treatment, rr_outcome)", "confounders")
     pairs = [(require(a, "rr_treatment", AT_LEAST_ONE), require(b, "rr_outcome", AT_LEAST_ONE))
              for a, b in confounders]  # fmt: skip
     options = Options(
@@ -206,7 +206,9 @@ def screen_frames(
 
 def _check_frame(frame: Any) -> None:
     if not hasattr(frame, "columns") or not hasattr(frame, "with_columns"):
-        raise InputError(f"`frames` must yield polars DataFrames; got {type(frame).__name__}")
+        raise InputError(
+            f"`frames` must yield polars DataFrames; got {type(frame).__name__}", "frames"
+        )
 
 
 def _routed(frames: Iterable[Any], mapping: dict[str, str], from_text: str | None
@@ -358,7 +360,7 @@ def _as_polars(table: Any) -> tuple[Any, str]:
     if kind == "pyarrow" and hasattr(table, "schema") and hasattr(table, "num_rows"):
         return pl.from_arrow(table), kind
     raise InputError(
-        f"`table` must be a pandas, polars or pyarrow table; got {type(table).__name__}"
+        f"`table` must be a pandas, polars or pyarrow table; got {type(table).__name__}", "table"
     )
 
 

@@ -62,11 +62,13 @@ def check_frequency(scale: str, outcome: str | None) -> str | None:
     if scale in ("or", "hr"):
         if outcome is None:
             raise InputError(
-                f"`outcome` frequency is needed on the {scale} scale: say rare or common"
+                f"`outcome` frequency is needed on the {scale} scale: say rare or common", "outcome"
             )
         return require_choice(outcome, "outcome", OUTCOME_FREQUENCIES)
     if outcome is not None:
-        raise InputError(f"`outcome` frequency applies to the or and hr scales only; got {scale}")
+        raise InputError(
+            f"`outcome` frequency applies to the or and hr scales only; got {scale}", "outcome"
+        )
     return None
 
 
@@ -90,7 +92,7 @@ def grid_axes(
     )
     for name, values in axes:
         if values.size == 0:
-            raise InputError(f"`{name}` must hold at least one value; got none")
+            raise InputError(f"`{name}` must hold at least one value; got none", name)
     cells = int(np.prod([len(v) for _, v in axes]))
     if cells > MAX_CELLS:
         sizes = " x ".join(str(len(v)) for _, v in axes)
