@@ -121,7 +121,8 @@ def find_treatment(treatment: str, names: Sequence[str], groups: dict[str, list[
         )
     raise InputError(
         f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-        + ", ".join(names)
+        + ", ".join(names),
+        "treatment",
     )
 
 
@@ -184,7 +185,8 @@ def _resolve_benchmark(name, covariates):
         return hits[0]
     raise InputError(
         f"`benchmark` {name!r} is not an observed covariate of the model; covariates: "
-        + ", ".join(by_name)
+        + ", ".join(by_name),
+        "benchmark",
     )
 
 

@@ -78,7 +78,8 @@ def partial_r2_from_linearmodels(
     if treatment not in names:
         raise InputError(
             f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-            + ", ".join(names)
+            + ", ".join(names),
+            "treatment",
         )
     no_interaction(treatment, names)
     j = names.index(treatment)

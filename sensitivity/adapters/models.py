@@ -92,7 +92,8 @@ def _treatment_index(names: list[str], treatment: str) -> int:
         return names.index(treatment)
     raise InputError(
         f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-        + ", ".join(map(str, names))
+        + ", ".join(map(str, names)),
+        "treatment",
     )
 
 
@@ -279,7 +280,8 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
     if treatment not in summary.index:
         raise InputError(
             f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-            + ", ".join(map(str, summary.index))
+            + ", ".join(map(str, summary.index)),
+            "treatment",
         )
     b = float(summary.loc[treatment, "coef"])
     se = float(summary.loc[treatment, "se(coef)"])

@@ -79,7 +79,8 @@ def partial_r2_from_pyfixest(
     if treatment not in names:
         raise InputError(
             f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-            + ", ".join(names)
+            + ", ".join(names),
+            "treatment",
         )
     no_interaction(treatment, names)
     fit_notes = []

@@ -89,7 +89,7 @@ def _parts(model: Any, treatment: str) -> dict[str, Any]:
     names = feature_names(model, summary)
     if treatment not in names:
         raise InputError(f"`treatment` {treatment!r} is not a coefficient of the model; "
-                         "coefficients: " + ", ".join(names))  # fmt: skip
+                         "coefficients: " + ", ".join(names), "treatment")  # fmt: skip
     j = names.index(treatment)
     try:
         errors = list(summary.coefficientStandardErrors)

@@ -140,16 +140,14 @@ def _typed(command: click.Command, args: list[str]) -> dict[str, str]:
 def namer(command: click.Command, ctx: click.Context) -> Callable[[str], str]:
     """How the command line names a Python argument in a message: the option as typed
     (`--ci-level`), one value of a multi-value option ("the second value of `--strength`"),
-    a positional argument by its metavar (`FILE`); any other keeps its Python name."""
+    any other (a positional argument, `file`) keeps its Python name."""
     typed = ctx.meta.get("typed") or {}
     options = [p for p in command.params if isinstance(p, click.Option)]
     by_option = {o: p for p in options for o in p.opts if o.startswith("--")}
-    by_name = {p.name: p for p in command.params}
+    by_name = {p.name: p for p in options}
     names = {**getattr(command, "names", {}), **ctx.meta.get("names", {})}
 
     def spelt(param: click.Parameter) -> str:
-        if isinstance(param, click.Argument):
-            return param.human_readable_name  # FILE, TEXT
         return typed.get(param.name or "", _option_name(param))
 
     def name(argument: str) -> str:
@@ -211,10 +209,13 @@ def _refuse_non_finite(command: click.Command, ctx: click.Context) -> None:
             values = group if isinstance(group, (tuple, list)) else (group,)
             for place, v in enumerate(values):
                 if isinstance(v, float) and not math.isfinite(v):
-                    shown = f"`{typed.get(param.name, _option_name(param))}`"
-                    if param.nargs > 1:
-                        shown = f"the {_ORDINALS[place]} value of {shown}"
-                    raise click.UsageError(f"{shown} must be a finite number; got {v}", ctx)
+                    which = f" as its {_ORDINALS[place]} value" if param.nargs > 1 else ""
+                    raise click.BadParameter(
+                        f"must be a finite number; got {v}{which}",
+                        ctx,
+                        param,
+                        param_hint=repr(typed.get(param.name, _option_name(param))),
+                    )
 
 
 #: Above this many rows JSON is written compact and streamed (people do not read it).

@@ -86,8 +86,8 @@ CHECKS: tuple[Check, ...] = (
         ("scale", "outcome", "prevalence"),
         lambda s, o, p: scale_in(s, "or", "hr") & ~given(o) & ~given(p),
         lambda s, o, p: (
-            f"`outcome` frequency is needed on the {s} scale: say rare or common, or give "
-            "the outcome's `prevalence`"
+            f"the outcome's frequency (`outcome`) is needed on the {s} scale: say rare or "
+            "common, or give the outcome's `prevalence`"
         ),
         names=("outcome", "prevalence"),
     ),

@@ -414,7 +414,9 @@ def assemble(
         given, missing = (
             ("r2_treatment", "r2_outcome") if r2_outcome is None else ("r2_outcome", "r2_treatment")
         )
-        raise InputError(f"`{given}` needs `{missing}`: a hypothetical confounder has both", given)
+        raise InputError(
+            f"`{given}` needs `{missing}`: a hypothetical confounder has both", (given, missing)
+        )
     t = est / se
     hyp = []
     if r2_treatment is not None:

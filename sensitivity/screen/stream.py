@@ -97,13 +97,15 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
         if user not in header:
             raise InputError(
                 f"`columns`: {user!r} (for {std}) is not a column of the table; columns: "
-                + ", ".join(header[:30])
+                + ", ".join(header[:30]),
+                "columns",
             )
         mapping[std] = user
     if from_text is not None and from_text not in header:
         raise InputError(
             f"`from_text`: {from_text!r} is not a column of the table; columns: "
-            + ", ".join(header[:30])
+            + ", ".join(header[:30]),
+            "from_text",
         )
     if from_text is None:
         for need in ("estimate", "scale"):
@@ -112,7 +114,8 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
                 raise InputError(
                     f"the table has no {need!r} column: map one with `columns` "
                     f"({need}=YOUR_COLUMN) or read results from text with `from_text`; "
-                    "columns: " + ", ".join(header[:30])
+                    "columns: " + ", ".join(header[:30]),
+                    ("columns", "from_text"),
                 )
     return mapping
 

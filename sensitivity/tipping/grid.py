@@ -62,12 +62,16 @@ def check_frequency(scale: str, outcome: str | None) -> str | None:
     if scale in ("or", "hr"):
         if outcome is None:
             raise InputError(
-                f"`outcome` frequency is needed on the {scale} scale: say rare or common", "outcome"
+                f"the outcome's frequency (`outcome`) is needed on the {scale} scale: say rare "
+                "or common",
+                "outcome",
             )
         return require_choice(outcome, "outcome", OUTCOME_FREQUENCIES)
     if outcome is not None:
         raise InputError(
-            f"`outcome` frequency applies to the or and hr scales only; got {scale}", "outcome"
+            f"the outcome's frequency (`outcome`) applies to the or and hr scales only; "
+            f"got {scale}",
+            "outcome",
         )
     return None
 
