@@ -40,10 +40,12 @@ def matched_differences(
             "`data` needs `treated` and `control`, or `differences`",
             ("data", "treated", "control", "differences"),
         )
-    for col in cols:
+    named = ("differences",) if differences else ("treated", "control")
+    for col, argument in zip(cols, named, strict=True):
         if col not in frame.columns:
             raise InputError(
-                f"`data`: no column {col!r}; columns: {', '.join(frame.columns)}", "data"
+                f"`{argument}`: `data` has no column {col!r}; columns: {', '.join(frame.columns)}",
+                (argument, "data"),
             )
     import pandas as pd
 

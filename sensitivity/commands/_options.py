@@ -103,6 +103,16 @@ class Command(click.Command):
 #: multi-value option (("--strength", 2): its second value).
 Named = str | tuple[str, int]
 _ORDINALS = ("first", "second", "third", "fourth")
+#: Python arguments that shared options fill, in every command that has the option (and no
+#: option of the argument's own name): a figure's `limits`, a `--confounder` pair's risk
+#: ratios, the two sides of a `--benchmark-r2` NAME RT RY.
+SHARED_NAMES: dict[str, Named] = {
+    "limits": "--plot-limits",
+    "rr_treatment": ("--confounder", 1),
+    "rr_outcome": ("--confounder", 2),
+    "benchmark_r2[1]": ("--benchmark-r2", 2),
+    "benchmark_r2[2]": ("--benchmark-r2", 3),
+}
 
 
 def name_arguments(**names: Named) -> None:
@@ -145,7 +155,10 @@ def namer(command: click.Command, ctx: click.Context) -> Callable[[str], str]:
     options = [p for p in command.params if isinstance(p, click.Option)]
     by_option = {o: p for p in options for o in p.opts if o.startswith("--")}
     by_name = {p.name: p for p in options}
-    names = {**getattr(command, "names", {}), **ctx.meta.get("names", {})}
+    names = {a: spec for a, spec in SHARED_NAMES.items()
+             if (spec if isinstance(spec, str) else spec[0]) in by_option
+             and "--" + a.replace("_", "-") not in by_option}  # fmt: skip
+    names.update({**getattr(command, "names", {}), **ctx.meta.get("names", {})})
 
     def spelt(param: click.Parameter) -> str:
         return typed.get(param.name or "", _option_name(param))

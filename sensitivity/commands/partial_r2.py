@@ -23,7 +23,7 @@ from ._options import (
 SHORT_HELP = COMMANDS["partial-r2"][1]
 
 
-@click.command("partial-r2", cls=Command, short_help=SHORT_HELP)
+@click.command("partial-r2", cls=Command, short_help=SHORT_HELP, names={"sd_outcome": "--sd"})
 @click.option("--estimate", type=float, help="Summary input: the treatment's OLS coefficient.")
 @click.option("--se", type=float, help="Summary input: its classical standard error.")
 @click.option("--t", "t_stat", type=float, help="Summary input: its t statistic (instead of --se).")

@@ -159,9 +159,15 @@ def screen_cmd(
 
     if plot_marks:
         raise click.UsageError("--plot-mark does not apply to screen")
-    for target in (output, flagged):
+    for target, argument in ((output, "output"), (flagged, "flagged")):
         if target is not None:
-            check_table_path(target)
+            try:
+                check_table_path(target)
+            except InputError as err:  # the writer's check knows one `output`
+                raise err.renamed({"output": argument}) from None
+    if plot_limits is not None and not plot_limits[0] > 1:  # the E-value axis starts at 1
+        raise InputError(f"`limits`: the E-value axis must end above 1; got {plot_limits[0]:g}",
+                         "limits")  # fmt: skip
     if (
         flagged is not None
         and output is not None

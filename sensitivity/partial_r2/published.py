@@ -202,7 +202,13 @@ def apply_text_benchmarks(
     items: list[object] = []
     for spec, treatment, outcome in benchmark_r2:
         name, kt, ky = benchmark_spec(spec, "benchmark_r2")
-        items.append((benchmark_from_text(name, treatment, outcome, dof=result.dof), kt, ky))
+        try:
+            benchmark = benchmark_from_text(name, treatment, outcome, dof=result.dof)
+        except InputError as err:  # each side is an entry of the item: RT [1], RY [2]
+            sides = {f"{k}_{side}": f"benchmark_r2[{i}]" for i, side in ((1, "treatment"),
+                     (2, "outcome")) for k in ("r2", "t", "dof", "assumed_r2")}  # fmt: skip
+            raise err.renamed(sides) from None
+        items.append((benchmark, kt, ky))
     return with_published_benchmarks(result, items)
 
 

@@ -104,13 +104,16 @@ def grid_axes(
     return axes
 
 
-def finite_cells(cells: Mapping[str, np.ndarray], what: str) -> None:
-    """Refuse input whose bias-adjusted values leave the range of a double."""
+def finite_cells(cells: Mapping[str, np.ndarray], *arguments: str) -> None:
+    """Refuse input whose bias-adjusted values leave the range of a double (`arguments`: the
+    inputs to blame)."""
+    what = " or ".join(f"`{a}`" for a in arguments)
     for name, values in cells.items():
         if not np.all(np.isfinite(values)):
             raise InputError(
                 f"{what}: the bias-adjusted values overflow double precision ({name}); use "
-                "inputs between about 1e-300 and 1e300"
+                "inputs between about 1e-300 and 1e300",
+                arguments,
             )
 
 
@@ -148,7 +151,7 @@ def shifted_cells(
             cells["bias_adjusted_ci_upper"] = back(shift(ci[1]))
             near = ci[0] if side > 0 else ci[1]
             reach_ci = reaches(shift(near), target, side, slack)
-    finite_cells(cells, "`estimate` or `ci`")
+    finite_cells(cells, "estimate", "ci")
     return {
         "cells": cells,
         "reach_estimate": reaches(adjusted, target, side, slack),
