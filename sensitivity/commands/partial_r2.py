@@ -134,6 +134,10 @@ def partial_r2_cmd(
           --treatment commute_min
     """
     show_warnings()
+    if plot_limits is not None:  # refused before any work, with or without --plot
+        from sensitivity.partial_r2.figures import check_limits
+
+        check_limits(plot_limits)
     exclusive(("--se", se), ("--t", t_stat))
     summary_given = [
         n
