@@ -118,9 +118,9 @@ def impact_threshold(
     t_crit = float(levels.t_critical(alpha, dof))
     if not np.isfinite(t_crit):
         raise InputError(
-            f"`alpha` {alpha:g} has no finite critical t on {dof:g} degrees of freedom; give a "
-            "larger alpha",
-            "alpha",
+            f"`alpha` {alpha:g} has no finite critical t on {dof:g} degrees of freedom (`dof`); "
+            "give a larger alpha or more degrees of freedom",
+            ("alpha", "dof"),
         )
     # t / sqrt(t² + dof) through hypot: no overflow at t = 1e155
     r = t / float(np.hypot(t, np.sqrt(dof)))
