@@ -440,7 +440,7 @@ class _Fitter:
         try:
             return core.moments(scores), preds, trimmed
         except InputError as err:
-            if "Riesz" not in str(err):
+            if err.argument != "learner":  # the Riesz variance, not an outcome predicted exactly
                 raise
             raise InputError(
                 f"{str(err).split(':')[0]}: {trimmed} propensities reached the trim limits "
