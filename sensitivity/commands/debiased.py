@@ -27,7 +27,13 @@ def _progress() -> tuple[Any, bool]:
     "debiased",
     cls=Command,
     short_help=SHORT_HELP,
-    names={"cy2": ("--strength", 1), "cd2": ("--strength", 2)},  # --strength CY2 CD2
+    # --strength CY2 CD2; --multiple K is k on both sides
+    names={
+        "cy2": ("--strength", 1),
+        "cd2": ("--strength", 2),
+        "k_outcome": "--multiple",
+        "k_treatment": "--multiple",
+    },  # fmt: skip
 )
 @click.option(
     "--data",
