@@ -33,7 +33,7 @@ def _progress() -> tuple[Any, bool]:
         "cd2": ("--strength", 2),
         "k_outcome": "--multiple",
         "k_treatment": "--multiple",
-    },  # fmt: skip
+    },
 )
 @click.option(
     "--data",
