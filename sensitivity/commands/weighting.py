@@ -15,9 +15,9 @@ from ._options import (
     emit,
     exclusive,
     format_options,
-    name_arguments,
     show_warnings,
 )
+from ._typed import name_arguments
 
 SHORT_HELP = COMMANDS["weighting"][1]
 

@@ -242,9 +242,8 @@ def _plain_studies(y: np.ndarray, s: np.ndarray, labels: Sequence[str] | None
     else:
         names = np.asarray([str(v) for v in labels], dtype=object)
         if names.size != n:
-            raise InputError(
-                f"`labels` must name each study; got {names.size} for {n} studies", "labels"
-            )
+            raise InputError(f"`labels` must name each study; got {names.size} for {n} "
+                             "studies", "labels")  # fmt: skip
     return _study_columns(names, y, s, np.full(n, "", dtype=object), np.full(n, "", dtype=object))
 
 
@@ -355,9 +354,8 @@ def read_studies(
     header = list(frame.columns)
     label_col = mapping.pop("label", None) or next((c for c in LABEL_COLUMNS if c in header), None)
     if label_col is not None and label_col not in header:
-        raise InputError(
-            f"`columns`: {label_col!r} (for label) is not a column of the table", "columns"
-        )
+        raise InputError(f"`columns`: {label_col!r} (for label) is not a column of the "
+                         "table", "columns")  # fmt: skip
     n = frame.height
     if n == 0:
         raise InputError("the table of studies has no rows")
@@ -372,11 +370,8 @@ def read_studies(
     if from_text is None and log_col in header:
         se_col = mapping.pop("se", "se")
         if se_col not in header:
-            raise InputError(
-                f"the table has {log_col!r} but no standard error column {se_col!r}: "
-                "map one with `columns` (se=YOUR_COLUMN)",
-                "columns",
-            )
+            raise InputError(f"the table has {log_col!r} but no standard error column {se_col!r}: "
+                             "map one with `columns` (se=YOUR_COLUMN)", "columns")  # fmt: skip
         from ..screen.stream import text_or_numbers
 
         reasons = np.full(n, "", dtype=object)
