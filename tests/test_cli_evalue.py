@@ -151,7 +151,7 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         ),
         (
             ("--scale", "rr", "--estimate", 2, "--confounder", 0.5, 2),
-            "Error: `rr_treatment` must be at least 1; got 0.5",
+            "Error: the first value of `--confounder` must be at least 1; got 0.5",
         ),
         (("--scale", "zz", "--estimate", 2), "Error: Invalid value for '--scale'"),
         (("--scale", "rr"), "Error: give the result as published"),

@@ -128,7 +128,7 @@ def robustness_value_of_t(
         if np.any(bad):  # NaN (a missing entry) passes through as NaN
             rule = f"must be at least {least}" if name == "dof" else "must be positive"
             raise InputError(f"`{name}` {rule}; got {show(values[bad].flat[0])}", name)
-    with np.errstate(invalid="ignore"):
+    with np.errstate(invalid="ignore", over="ignore"):  # fq = inf is a robustness value of 1
         fq = reduce_by * np.abs(t) / np.sqrt(dof)
     if alpha is None:
         return _rv_curve(fq)
