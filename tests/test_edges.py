@@ -141,7 +141,7 @@ def _agree(grid, key="estimate"):
         scale = max(abs(limit - grid.target), abs(grid.target), 1e-300)
     within = np.abs(value - grid.target) <= 1e-8 * scale
     missed = inside & ~moved & ~near_end
-    assert not missed.any(), f"{name}: inside the exact set, not on the grid: {np.argwhere(missed)[:3]}"
+    assert not missed.any(), f"{name}: in the exact set, not on the grid: {np.argwhere(missed)[:3]}"
     extra = moved & ~inside & ~near_end & ~within
     assert not extra.any(), f"{name}: tips on the grid outside the set: {np.argwhere(extra)[:3]}"
 

@@ -72,6 +72,8 @@ def round_outward(value: float, digits: int, direction: int) -> float:
     return float(exact.quantize(Decimal(1).scaleb(exact.adjusted() - digits + 1), mode))
 
 
+TOLERANCE_TEXT = f"1e{round(np.log10(TOLERANCE))}"  # 1e-9, as the methods write it
+
 #: Per kind, the ends that start a reached piece (printed rounded up unless the printed
 #: value itself tips on the grid) and the ends that stop one (rounded down likewise).
 _STARTS = {"from": "low", "between": "low", "outside": "high"}
@@ -161,7 +163,7 @@ def table(g: TippingGrid) -> Table:
         "parameter grows without bound, or nears 0 or 1 where those are excluded, never "
         "reaches it). Crossings are rounded so as not to overstate: a printed end that is "
         "not inside the set still tips on the grid's rule, which counts a value within "
-        f"{TOLERANCE:g} (relative) of the target as reaching it."
+        f"{TOLERANCE_TEXT} (relative) of the target as reaching it."
     )
     rows: list[tuple[str, ...]] = []
     keys = ("estimate", "ci") if g.reach_ci is not None else ("estimate",)
