@@ -157,13 +157,13 @@ def table(g: TippingGrid) -> Table:
     if g.reach_ci is not None:
         cols += (f"{level_text(g.ci_level)} CI reaches it at", "(exact)")
     exact_note = (
-        "'(exact)': from the closed-form formula, every value that reaches the target (which "
-        "may lie outside the grid): at least (≥) or at most (≤) the crossing, between two "
-        "values, all values, or never (a curve that only tends to the target as the "
-        "parameter grows without bound, or nears 0 or 1 where those are excluded, never "
-        "reaches it). Crossings are rounded so as not to overstate: a printed end that is "
-        "not inside the set still tips on the grid's rule, which counts a value within "
-        f"{TOLERANCE_TEXT} (relative) of the target as reaching it."
+        "'(exact)': from the closed-form formula, every value that reaches the target, in or "
+        "beyond the grid: at least (≥) or at most (≤) the crossing, between two values, on "
+        "either side of a gap (≤ a or ≥ b), all values, or never. A curve that only tends "
+        "to the target (as the parameter grows without bound, or nears an excluded 0 or 1) "
+        "never reaches it. Each printed end lies in the exact set or tips by the grid's own "
+        f"rule, which counts a value within {TOLERANCE_TEXT} (relative) of the target as "
+        "reaching it."
     )
     rows: list[tuple[str, ...]] = []
     keys = ("estimate", "ci") if g.reach_ci is not None else ("estimate",)
@@ -280,7 +280,9 @@ def document(g: TippingGrid) -> Document:
             )
         )
     blocks += standard_tail(g.notes, g.cautions)
-    return Document("Tipping points", tuple(blocks), figures=figures(g), references=references())
+    return Document(
+        "Tipping points", tuple(blocks), figures=figures(g), references=references(g.kind)
+    )
 
 
 def figures(g: Any) -> tuple[Figure, ...]:
@@ -307,12 +309,14 @@ def report_part(items: Any) -> Any:
     """The family's section of a manuscript report, from each result's own Document."""
     from ..output.report import simple_part
 
-    return simple_part("tipping", items, METHODS, references=references())
+    kinds = sorted({getattr(result, "kind", "binary") for _, result in items})
+    sources = dict.fromkeys(r for kind in kinds for r in references(kind))
+    return simple_part("tipping", items, METHODS, references=tuple(sources))
 
 
-def references() -> tuple[str, ...]:
-    """The method's sources (shown under every view and in a report)."""
-    return (
-        REFERENCES["lin-psaty-kronmal-1998"],
-        REFERENCES["vanderweele-arah-2011"],
-    )
+def references(kind: str = "binary") -> tuple[str, ...]:
+    """The method's sources (shown under every view and in a report): the view's own formula
+    (the bounding factor, the partial-R² bias) after the hidden-confounder bias formulas."""
+    own = {"bounding": ("ding-vanderweele-2016",), "partial-r2": ("cinelli-hazlett-2020",)}
+    keys = ("lin-psaty-kronmal-1998", "vanderweele-arah-2011") + own.get(kind, ())
+    return tuple(REFERENCES[k] for k in keys)
