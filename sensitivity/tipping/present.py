@@ -156,14 +156,17 @@ def table(g: TippingGrid) -> Table:
     cols = head + (f"Estimate reaches {_goal(g)} at", "(exact)")
     if g.reach_ci is not None:
         cols += (f"{level_text(g.ci_level)} CI reaches it at", "(exact)")
+    # between two values, and either side of a gap, arise in the partial-R² view only
+    shapes = ""
+    if g.kind == "partial-r2":
+        shapes = "between two values, on either side of a gap (≤ a or ≥ b), "
     exact_note = (
         "'(exact)': from the closed-form formula, every value that reaches the target, in or "
-        "beyond the grid: at least (≥) or at most (≤) the crossing, between two values, on "
-        "either side of a gap (≤ a or ≥ b), all values, or never. A curve that only tends "
-        "to the target (as the parameter grows without bound, or nears an excluded 0 or 1) "
-        "never reaches it. Each printed end lies in the exact set or tips by the grid's own "
-        f"rule, which counts a value within {TOLERANCE_TEXT} (relative) of the target as "
-        "reaching it."
+        f"beyond the grid: at least (≥) or at most (≤) the crossing, {shapes}all values, or "
+        "never. A curve that only tends to the target (as the parameter grows without bound, "
+        "or nears an excluded 0 or 1) never reaches it. Each printed end lies in the exact "
+        "set or tips by the grid's own rule, which counts a value within "
+        f"{TOLERANCE_TEXT} (relative) of the target as reaching it."
     )
     rows: list[tuple[str, ...]] = []
     keys = ("estimate", "ci") if g.reach_ci is not None else ("estimate",)
