@@ -102,6 +102,7 @@ def bounding_grid(
 
     def exact_of(value_rr: float) -> tuple[dict[str, np.ndarray], Condition]:
         j = result.solved
+        assert j is not None  # with_exact asks only when a parameter varies
         other = a if j == 1 else b
         ratio = (value_rr / t) ** side  # at least 1 unless the value already covers the target
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):

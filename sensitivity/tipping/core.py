@@ -366,6 +366,7 @@ def continuous_confounder_grid(
 
     def exact_of(value: float) -> tuple[dict[str, np.ndarray], Condition]:
         j = result.solved
+        assert j is not None  # with_exact asks only when a parameter varies
         other = g if j == 0 else delta
         shape = result.reduced_shape(j)
         v = on_rr(value)
