@@ -137,6 +137,7 @@ def test_binary_exact_sets_against_brute_force(ratio, est, p1, p0, g, solved, ta
 
 
 # ------------------------------------------------------------------ asymptotes: never
+@settings(deadline=None)  # brute force over many points: no per-example deadline
 @given(
     st.integers(1, 60).map(lambda i: i / 128),  # p0, exact in binary
     st.sampled_from([2.0, 4.0, 0.5, 0.25]),  # obs / target, exact
@@ -161,6 +162,7 @@ def test_a_ratio_curve_that_tends_to_the_target_never_reaches_it(p0, k, target):
     assert "never" in grid.summary()
 
 
+@settings(deadline=None)  # brute force over many points: no per-example deadline
 @given(st.floats(1.05, 50), st.sampled_from([1.0, 0.5, 2.0]))
 def test_a_bounding_curve_that_tends_to_the_target_never_reaches_it(a, target):
     # B(a, b) = a b / (a + b - 1) tends to a as b grows: with a = RR / target never reached.
@@ -173,6 +175,7 @@ def test_a_bounding_curve_that_tends_to_the_target_never_reaches_it(a, target):
     assert not (obs / (a * b / (a + b - 1)) < target).any()
 
 
+@settings(deadline=None)  # brute force over many points: no per-example deadline
 @given(st.integers(1, 40), st.sampled_from([0.25, 0.5, 0.75]))
 def test_a_partial_r2_curve_that_tends_to_the_target_only_at_one_never_reaches_it(k, r2t):
     # With r2_treatment fixed, the bias tends to se sqrt(dof r2t / (1 - r2t)) as r2_outcome
