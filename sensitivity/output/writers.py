@@ -80,10 +80,11 @@ def json_rows(
     pair. A pair whose first column is absent is written as null. Yields comma-separated
     chunks of bytes (no brackets), so memory stays flat whatever the number of rows.
 
-    Numbers and booleans are written by polars as struct rows, in Rust: the same bytes as
-    orjson gives for the same values (shortest round-trip floats, NaN and infinities as null;
-    compared over millions of values, tests/test_output.py). Other columns (text) go through
-    `_tokens`, value by value.
+    Every value is orjson's own text (shortest round-trip floats, NaN and infinities as
+    null; text through the standard library's string encoder), the bytes the value-by-value
+    route gives (`_rows_in_python`, compared in tests/test_writers.py). The rows are put
+    together from whole columns (`_rows_in_pieces`): no Python object is made per row, and
+    neither polars nor pyarrow is imported.
 
     Examples
     --------
@@ -92,119 +93,154 @@ def json_rows(
     b'{"a":1.5,"in":{"b":true}},{"a":null,"in":{"b":false}}'
     """
     arrays = {k: np.asarray(v) for k, v in columns.items()}
-    used = _used(arrays, layout)
-    if used and all(_rust_ready(arrays, spec) for spec in layout):
-        return _rows_in_rust(arrays, layout, used)  # started at once, in other threads
-    return _rows_in_python(arrays, layout)
-
-
-def _used(columns: Mapping[str, np.ndarray], spec: Sequence[tuple[str, Any]]) -> list[str]:
-    """The columns a layout reads, in order."""
-    out: list[str] = []
-    for _, what in spec:
-        if isinstance(what, str):
-            out.append(what)
-        elif isinstance(what, tuple):
-            out.extend(what if what[0] in columns else ())
-        else:
-            out.extend(_used(columns, what))
-    return out
-
-
-def _rust_ready(columns: Mapping[str, np.ndarray], spec: tuple[str, Any]) -> bool:
-    """Whether polars writes this part of a row as orjson would: float64, integer and boolean
-    columns (a pair of one kind, so that neither is widened to the other's type)."""
-    _, what = spec
-    if isinstance(what, str):
-        return columns[what].dtype.kind in "iub" or columns[what].dtype == np.float64
-    if isinstance(what, tuple):
-        if what[0] not in columns:
-            return True
-        first, second = columns[what[0]].dtype, columns[what[1]].dtype
-        return first == second and (first.kind in "iub" or first == np.float64)
-    return all(_rust_ready(columns, part) for part in what)
+    return _rows_in_pieces(arrays, layout)
 
 
 def _template(columns: Mapping[str, np.ndarray], spec: Sequence[tuple[str, Any]],
-              pieces: list[str]) -> None:  # fmt: skip
-    """The fixed text of a row: `pieces[i]` comes before the i-th value read, the last after
-    all of them (the caller starts `pieces` with one empty string)."""
+              pieces: list[str], slots: list[tuple[str, ...]]) -> None:  # fmt: skip
+    """The fixed text of a row around its values: `pieces[i]` comes before `slots[i]` (a
+    column's name, or a pair's two names), the last piece after all of them (the caller
+    starts `pieces` with one string)."""
     pieces[-1] += "{"
     for i, (key, what) in enumerate(spec):
         pieces[-1] += ("," if i else "") + '"' + key + '":'
         if isinstance(what, str):
+            slots.append((what,))
             pieces.append("")
         elif isinstance(what, tuple):
             if what[0] in columns:
                 pieces[-1] += "["
-                pieces.extend([",", "]"])
+                if _same_numbers(columns[what[0]], columns[what[1]]):
+                    slots.append(tuple(what))  # both written at once, as a 2-column array
+                    pieces.append("]")
+                else:
+                    slots.extend([(what[0],), (what[1],)])
+                    pieces.extend([",", "]"])
             else:
                 pieces[-1] += "null"
         else:
-            _template(columns, what, pieces)
+            _template(columns, what, pieces, slots)
     pieces[-1] += "}"
 
 
-#: Batches of rows built at once in Rust, while the caller writes the one before.
-AHEAD = 2
+def _same_numbers(first: np.ndarray, second: np.ndarray) -> bool:
+    return first.dtype == second.dtype and first.dtype.kind in "fiu"
 
 
-def _rows_in_rust(columns: Mapping[str, np.ndarray], layout: Sequence[tuple[str, Any]],
-                  used: list[str]) -> Iterator[bytes]:  # fmt: skip
-    """Rows as polars concatenates them: each value cast to text in Rust (polars' shortest
-    round-trip floats, the same bytes as orjson's) between the row's fixed pieces. Batches
-    are built AHEAD at a time in worker threads (polars runs without the GIL), in order."""
-    from collections import deque
-    from concurrent.futures import ThreadPoolExecutor
-    from itertools import islice
+#: A column whose values in a batch repeat (a grid's axes, constants, flags) has its few
+#: distinct texts written once and repeated; neighbouring ones are joined into one text
+#: (with the fixed text between them) while their combinations stay at most this many.
+DISTINCT_TEXTS = 4_096
+#: Rows joined at once (a join of many short pieces is fastest in blocks of about this many).
+JOIN_ROWS = 2_048
 
-    import polars as pl
 
+def _rows_in_pieces(columns: Mapping[str, np.ndarray], layout: Sequence[tuple[str, Any]]
+                    ) -> Iterator[bytes]:  # fmt: skip
+    """Rows put together a batch at a time from whole columns. Each row is its fixed pieces
+    with, between them, each column's value as text: a column of repeating values (`_codes`)
+    becomes a short list of texts and an index into it, merged with its neighbours; the rest
+    become one list of texts each, from orjson's text of the whole batch cut at the commas.
+    The row's parts are laid into one list by slices and joined."""
     pieces = [","]  # every row opens with the comma after the row before
-    _template(columns, layout, pieces)
-    names = list(dict.fromkeys(used))
-    frame = pl.DataFrame({name: columns[name] for name in names})
-
-    def batch(start: int) -> bytes:
-        stop = min(frame.height, start + BATCH_ROWS)
-        parts = []
-        for piece, name in zip(pieces, used, strict=False):
-            value = pl.col(name).cast(pl.String)
-            if columns[name].dtype.kind == "f" and not np.isfinite(columns[name][start:stop]).all():
-                # NaN and infinities are null, as orjson writes them
-                value = pl.when(pl.col(name).is_finite()).then(value).otherwise(pl.lit("null"))
-            parts += [pl.lit(piece), value]
-        parts.append(pl.lit(pieces[-1]))
-        rows = frame.slice(start, stop - start).select(pl.concat_str(parts)).to_series()
-        return _text_of(rows, skip=0 if start else 1)  # the first row has no comma before
-
-    starts = iter(range(0, frame.height, BATCH_ROWS))
-    pool = ThreadPoolExecutor(AHEAD)
-    pending = deque(pool.submit(batch, start) for start in islice(starts, AHEAD))
-
-    def drain() -> Iterator[bytes]:
-        try:
-            while pending:
-                done = pending.popleft().result()
-                pending.extend(pool.submit(batch, start) for start in islice(starts, 1))
-                yield done
-        finally:
-            pool.shutdown(cancel_futures=True)
-
-    return drain()
+    slots: list[tuple[str, ...]] = []
+    _template(columns, layout, pieces, slots)
+    n = len(columns[slots[0][0]]) if slots else 0
+    texts = [p.encode() for p in pieces]
+    for start in range(0, n, BATCH_ROWS):
+        stop = min(n, start + BATCH_ROWS)
+        size = stop - start
+        # a row's parts in order: each (texts, codes) for repeating text (codes None: one text
+        # in every row), or a list of one text a row
+        parts: list[Any] = [([texts[0]], None)]
+        for slot, after in zip(slots, texts[1:], strict=True):
+            parts.append(_slot_part([columns[name][start:stop] for name in slot]))
+            parts.append(([after], None))
+        merged = _merge(parts)
+        width = len(merged)
+        flat: list[Any] = [None] * (size * width)
+        for i, part in enumerate(merged):
+            if isinstance(part, list):
+                flat[i::width] = part
+            elif part[1] is None:
+                flat[i::width] = part[0] * size
+            else:
+                flat[i::width] = np.array(part[0], dtype=object)[part[1]].tolist()
+        if not start:
+            flat[0] = flat[0][1:]  # the first row has no comma before it
+        step = JOIN_ROWS * width
+        yield b"".join([b"".join(flat[i : i + step]) for i in range(0, len(flat), step)])
 
 
-def _text_of(rows: Any, skip: int = 0) -> bytes:
-    """A polars String series' values run together, as bytes (from its Arrow data buffer),
-    less the first `skip` bytes."""
-    import pyarrow as pa
+def _slot_part(values: list[np.ndarray]) -> Any:
+    """One slot's text in a batch: (texts, codes) when its values repeat, else a list."""
+    if len(values) == 2:  # a pair of numbers: "low,high" from orjson's text of both at once
+        text = orjson_numbers(np.column_stack(values))
+        return text[2:-2].split(b"],[") if len(values[0]) else []
+    column = values[0]
+    if column.dtype.kind == "b":
+        return ([b"false", b"true"], column.view(np.uint8))
+    coded = _codes(column)
+    if coded is not None:
+        distinct, codes = coded
+        return (_tokens(distinct), codes)
+    return _tokens(column)
 
-    text = rows.to_arrow()
-    buffers = text.buffers()
-    wide = pa.types.is_large_string(text.type)
-    offsets = np.frombuffer(buffers[1], np.int64 if wide else np.int32)
-    offsets = offsets[text.offset : text.offset + len(text) + 1]
-    return buffers[2][int(offsets[0]) + skip : int(offsets[-1])].to_pybytes()
+
+def orjson_numbers(values: np.ndarray) -> bytes:
+    """orjson's text of a numeric array (NaN and infinities as null)."""
+    import orjson
+
+    return orjson.dumps(np.ascontiguousarray(values), option=orjson.OPT_SERIALIZE_NUMPY)
+
+
+def _codes(column: np.ndarray) -> tuple[np.ndarray, np.ndarray | None] | None:
+    """A numeric column's distinct values and each row's index into them (None for the codes
+    when there is one value), when there are few; None otherwise. Values are told apart by
+    their bits, so 0.0 and -0.0 (whose texts differ) stay apart."""
+    if column.dtype.kind not in "fiu" or column.dtype.itemsize != 8 or not len(column):
+        return None
+    bits = column.view(np.int64)
+    ends = np.flatnonzero(bits[1:] != bits[:-1])  # where a run of equal values ends
+    if not len(ends):
+        return column[:1], None
+    if len(ends) < len(column) // 16:  # long runs: a grid's slower axes
+        starts = np.concatenate([[0], ends + 1])
+        lengths = np.diff(np.append(starts, len(column)))
+        return column[starts], np.repeat(np.arange(len(starts)), lengths)
+    again = np.flatnonzero(bits[1 : len(bits) // 8 + 1] == bits[0])
+    if len(again):  # values that come round again in the same order: a grid's fastest axis
+        period = int(again[0]) + 1
+        if np.array_equal(bits[period:], bits[:-period]):
+            return column[:period], np.arange(len(column)) % period
+    sample = bits[:: max(1, len(bits) // 1024)]
+    if len(np.unique(sample)) > len(sample) // 4:  # mostly distinct
+        return None
+    distinct, codes = np.unique(bits, return_inverse=True)
+    if len(distinct) > len(column) // 8:
+        return None
+    return distinct.view(column.dtype), codes
+
+
+def _merge(parts: list[Any]) -> list[Any]:
+    """Neighbouring repeating parts joined into one: texts of every combination (at most
+    DISTINCT_TEXTS), codes combined; a list of one text a row stays as it is."""
+    out: list[Any] = []
+    for part in parts:
+        if isinstance(part, tuple) and out and isinstance(out[-1], tuple):
+            (left, lc), (right, rc) = out[-1], part
+            if len(left) * len(right) <= DISTINCT_TEXTS:
+                texts = [a + b for a in left for b in right]
+                if lc is None:
+                    codes = rc
+                elif rc is None:
+                    codes = lc
+                else:
+                    codes = lc.astype(np.intp) * len(right) + rc
+                out[-1] = (texts, codes)
+                continue
+        out.append(part)
+    return out
 
 
 def _rows_in_python(
