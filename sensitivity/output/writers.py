@@ -169,7 +169,8 @@ def _rows_in_pieces(columns: Mapping[str, np.ndarray], layout: Sequence[tuple[st
         if not start:
             flat[0] = flat[0][1:]  # the first row has no comma before it
         step = JOIN_ROWS * width
-        yield b"".join([b"".join(flat[i : i + step]) for i in range(0, len(flat), step)])
+        for i in range(0, len(flat), step):  # pieces of a size the allocator reuses
+            yield b"".join(flat[i : i + step])
 
 
 def _slot_part(values: list[np.ndarray]) -> Any:
@@ -213,13 +214,19 @@ def _codes(column: np.ndarray) -> tuple[np.ndarray, np.ndarray | None] | None:
         period = int(again[0]) + 1
         if np.array_equal(bits[period:], bits[:-period]):
             return column[:period], np.arange(len(column)) % period
-    sample = bits[:: max(1, len(bits) // 1024)]
-    if len(np.unique(sample)) > len(sample) // 4:  # mostly distinct
+    # (sorted by hand: np.unique would import numpy.ma, a cost at every start)
+    sample = np.sort(bits[:: max(1, len(bits) // 1024)])
+    if np.count_nonzero(sample[1:] != sample[:-1]) >= len(sample) // 4:  # mostly distinct
         return None
-    distinct, codes = np.unique(bits, return_inverse=True)
-    if len(distinct) > len(column) // 8:
+    order = np.argsort(bits, kind="stable")
+    ordered = bits[order]
+    new = np.empty(len(bits), dtype=bool)
+    new[0], new[1:] = True, ordered[1:] != ordered[:-1]
+    if np.count_nonzero(new) > len(column) // 8:
         return None
-    return distinct.view(column.dtype), codes
+    codes = np.empty(len(bits), dtype=np.intp)
+    codes[order] = np.cumsum(new) - 1
+    return ordered[new].view(column.dtype), codes
 
 
 def _merge(parts: list[Any]) -> list[Any]:
@@ -292,8 +299,15 @@ def write_json(items: Sequence[tuple[str, Any]], sink: Any, *, indent: bool) -> 
         sink.write((b"," if i else b"") + orjson.dumps(key) + b":")
         if _is_stream(value):
             sink.write(b"[")
-            for chunk in value:
-                sink.write(chunk)
+            # a second thread puts each chunk on disk while the next is made
+            from ..common.overlap import WriteBehind
+
+            behind = WriteBehind(sink.write, depth=2)
+            try:
+                for chunk in value:
+                    behind.put(chunk)
+            finally:
+                behind.close()
             sink.write(b"]")
         else:
             sink.write(orjson.dumps(value))
