@@ -97,34 +97,26 @@ def json_rows(
 
 
 def _template(columns: Mapping[str, np.ndarray], spec: Sequence[tuple[str, Any]],
-              pieces: list[str], slots: list[tuple[str, ...]]) -> None:  # fmt: skip
-    """The fixed text of a row around its values: `pieces[i]` comes before `slots[i]` (a
-    column's name, or a pair's two names), the last piece after all of them (the caller
-    starts `pieces` with one string)."""
+              pieces: list[str], slots: list[str]) -> None:  # fmt: skip
+    """The fixed text of a row around its values: `pieces[i]` comes before the column
+    `slots[i]`, the last piece after all of them (the caller starts `pieces` with one
+    string)."""
     pieces[-1] += "{"
     for i, (key, what) in enumerate(spec):
         pieces[-1] += ("," if i else "") + '"' + key + '":'
         if isinstance(what, str):
-            slots.append((what,))
+            slots.append(what)
             pieces.append("")
         elif isinstance(what, tuple):
             if what[0] in columns:
                 pieces[-1] += "["
-                if _same_numbers(columns[what[0]], columns[what[1]]):
-                    slots.append(tuple(what))  # both written at once, as a 2-column array
-                    pieces.append("]")
-                else:
-                    slots.extend([(what[0],), (what[1],)])
-                    pieces.extend([",", "]"])
+                slots.extend(what)
+                pieces.extend([",", "]"])
             else:
                 pieces[-1] += "null"
         else:
             _template(columns, what, pieces, slots)
     pieces[-1] += "}"
-
-
-def _same_numbers(first: np.ndarray, second: np.ndarray) -> bool:
-    return first.dtype == second.dtype and first.dtype.kind in "fiu"
 
 
 #: A column whose values in a batch repeat (a grid's axes, constants, flags) has its few
@@ -133,29 +125,46 @@ def _same_numbers(first: np.ndarray, second: np.ndarray) -> bool:
 DISTINCT_TEXTS = 4_096
 #: Rows joined at once (a join of many short pieces is fastest in blocks of about this many).
 JOIN_ROWS = 2_048
+#: At most this many neighbouring number columns are written as one text a row (`_run`).
+RUN = 30
 
 
 def _rows_in_pieces(columns: Mapping[str, np.ndarray], layout: Sequence[tuple[str, Any]]
                     ) -> Iterator[bytes]:  # fmt: skip
     """Rows put together a batch at a time from whole columns. Each row is its fixed pieces
     with, between them, each column's value as text: a column of repeating values (`_codes`)
-    becomes a short list of texts and an index into it, merged with its neighbours; the rest
-    become one list of texts each, from orjson's text of the whole batch cut at the commas.
+    becomes a short list of texts and an index into it, merged with its neighbours; other
+    number columns side by side become one text a row (`_run`), text columns one a value.
     The row's parts are laid into one list by slices and joined."""
     pieces = [","]  # every row opens with the comma after the row before
-    slots: list[tuple[str, ...]] = []
+    slots: list[str] = []
     _template(columns, layout, pieces, slots)
-    n = len(columns[slots[0][0]]) if slots else 0
+    n = len(columns[slots[0]]) if slots else 0
     texts = [p.encode() for p in pieces]
     for start in range(0, n, BATCH_ROWS):
         stop = min(n, start + BATCH_ROWS)
         size = stop - start
+        values = [columns[name][start:stop] for name in slots]
+        coded = [_repeating(v) for v in values]
         # a row's parts in order: each (texts, codes) for repeating text (codes None: one text
         # in every row), or a list of one text a row
         parts: list[Any] = [([texts[0]], None)]
-        for slot, after in zip(slots, texts[1:], strict=True):
-            parts.append(_slot_part([columns[name][start:stop] for name in slot]))
-            parts.append(([after], None))
+        i = 0
+        while i < len(slots):
+            if coded[i] is not None:
+                parts.append(coded[i])
+                i += 1
+            elif values[i].dtype.kind in "fiu":
+                j = i + 1
+                while (j < len(slots) and j - i < RUN and coded[j] is None
+                       and values[j].dtype == values[i].dtype):  # fmt: skip
+                    j += 1
+                parts.append(_run(values[i:j], texts[i + 1 : j]))
+                i = j
+            else:
+                parts.append(_tokens(values[i]))
+                i += 1
+            parts.append(([texts[i]], None))
         merged = _merge(parts)
         width = len(merged)
         flat: list[Any] = [None] * (size * width)
@@ -171,21 +180,49 @@ def _rows_in_pieces(columns: Mapping[str, np.ndarray], layout: Sequence[tuple[st
         step = JOIN_ROWS * width
         for i in range(0, len(flat), step):  # pieces of a size the allocator reuses
             yield b"".join(flat[i : i + step])
+        del values, coded, parts, merged, flat  # freed before the next batch reuses the memory
 
 
-def _slot_part(values: list[np.ndarray]) -> Any:
-    """One slot's text in a batch: (texts, codes) when its values repeat, else a list."""
-    if len(values) == 2:  # a pair of numbers: "low,high" from orjson's text of both at once
-        text = orjson_numbers(np.column_stack(values))
-        return text[2:-2].split(b"],[") if len(values[0]) else []
-    column = values[0]
+def _repeating(column: np.ndarray) -> tuple[list[bytes], np.ndarray | None] | None:
+    """A column's text as (distinct texts, each row's index) when its values repeat (flags,
+    a grid's axes; None for the index when there is one value); None otherwise."""
     if column.dtype.kind == "b":
         return ([b"false", b"true"], column.view(np.uint8))
     coded = _codes(column)
-    if coded is not None:
-        distinct, codes = coded
-        return (_tokens(distinct), codes)
-    return _tokens(column)
+    if coded is None:
+        return None
+    distinct, codes = coded
+    return (_tokens(distinct), codes)
+
+
+def _run(values: list[np.ndarray], between: list[bytes]) -> list[bytes]:
+    """Neighbouring number columns of one type as one text a row: their values, with
+    `between[j]` between the j-th and the next. orjson writes them interleaved as one list;
+    its commas are then marked where the row's text differs from a comma (between rows with
+    a zero byte), the marks replaced and the text cut between rows."""
+    size, width = len(values[0]), len(values)
+    if not size:
+        return []
+    if width == 1:
+        return orjson_numbers(values[0])[1:-1].split(b",")
+    table = np.empty((size, width), dtype=values[0].dtype)
+    for j, column in enumerate(values):
+        table[:, j] = column
+    raw = np.frombuffer(bytearray(orjson_numbers(table.ravel())), dtype=np.uint8)
+    commas = np.flatnonzero(raw == ord(","))  # numbers and null hold none
+    at = np.empty(size * width, dtype=np.intp)
+    at[:-1] = commas
+    at = at.reshape(size, width)
+    raw[at[:-1, -1]] = 0
+    marks = {}
+    for j, text in enumerate(between):
+        if text != b",":
+            raw[at[:, j]] = j + 1
+            marks[bytes([j + 1])] = text
+    out = raw[1:-1].tobytes()
+    for mark, text in marks.items():
+        out = out.replace(mark, text)
+    return out.split(b"\0")
 
 
 def orjson_numbers(values: np.ndarray) -> bytes:
