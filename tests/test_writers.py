@@ -37,7 +37,8 @@ def _bits(rng, size):
 
 @pytest.mark.parametrize("seed", [0, 1])
 def test_rows_from_columns_are_the_bytes_of_the_value_by_value_rows(seed, monkeypatch):
-    monkeypatch.setattr(writers, "BATCH_ROWS", 7_000)  # several batches, a short last one
+    monkeypatch.setattr(writers, "JSON_ROWS", 7_000)  # several batches, a short last one
+    monkeypatch.setattr(writers, "BATCH_ROWS", 6_000)
     rng = np.random.default_rng(seed)
     size = 30_001
     cols = _columns(
@@ -105,7 +106,7 @@ def test_repeating_columns_keep_every_value_apart(monkeypatch):
     # Columns written as a few distinct texts and an index: a grid's slow axis (long runs),
     # its fast axis (a period), a constant, flags; 0.0 and -0.0 print apart, as do NaN with
     # different bits (both null) and ints beside floats in a pair
-    monkeypatch.setattr(writers, "BATCH_ROWS", 4_000)  # a period cut at a batch's edge
+    monkeypatch.setattr(writers, "JSON_ROWS", 4_000)  # a period cut at a batch's edge
     monkeypatch.setattr(writers, "JOIN_ROWS", 333)
     slow, fast = np.meshgrid(np.array([0.5, -0.0, 0.0, np.nan, 1e-300]), np.arange(2_001) * 0.1,
                              indexing="ij")  # fmt: skip
@@ -158,12 +159,12 @@ def test_any_columns_give_the_bytes_orjson_gives_for_the_rows(size, pool, free, 
     }  # fmt: skip
     layout = [("a", "a"), ("x", [("b", "b"), ("ci", ("c", "d")), ("e", "e")]), ("d", "d"),
               ("f", "f")]  # fmt: skip
-    writers_batch = writers.BATCH_ROWS
+    writers_batch = writers.JSON_ROWS
     try:
-        writers.BATCH_ROWS = batch
+        writers.JSON_ROWS = batch
         out = b"".join(json_rows(cols, layout))
     finally:
-        writers.BATCH_ROWS = writers_batch
+        writers.JSON_ROWS = writers_batch
     assert out == _orjson_rows(cols, layout)
 
 
