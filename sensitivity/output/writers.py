@@ -213,9 +213,8 @@ def _run(values: list[np.ndarray], between: list[bytes]) -> list[bytes]:
         table[:, j] = column
     raw = np.frombuffer(bytearray(orjson_numbers(table.ravel())), dtype=np.uint8)
     commas = np.flatnonzero(raw == ord(","))  # numbers and null hold none
-    at = np.empty(size * width, dtype=np.intp)
-    at[:-1] = commas
-    at = at.reshape(size, width)
+    at = np.empty((size, width), dtype=np.intp)  # the last row has no comma after it
+    at.reshape(-1)[:-1] = commas
     raw[at[:-1, -1]] = 0
     marks = {}
     for j, text in enumerate(between):
