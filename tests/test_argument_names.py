@@ -368,3 +368,34 @@ def test_the_screen_names_its_pool_threshold_as_pool(monkeypatch):
     res = _invoke(["screen", "demo/published_results.csv", "--pool", "0"])
     assert res.exit_code == 2 and "`--pool` must be positive; got 0" in res.stderr
     assert "--threshold" not in res.stderr
+
+
+# ------------------------------------------------------------------ overflow names its cause
+@settings(max_examples=60, deadline=None)
+@given(
+    rr=st.floats(1.01, 1e6),
+    tiny=st.floats(5e-324, 1e-309),  # rr / tiny > 1e309: beyond the doubles
+)
+def test_an_overflowing_ratio_to_the_target_names_the_target(rr, tiny):
+    """The estimate is an ordinary risk ratio; a target so small that rr / target leaves the
+    doubles is the target's doing (it named the estimate before)."""
+    with pytest.raises(InputError) as err:
+        s.evalue("rr", rr, target=tiny)
+    assert err.value.argument == "target" and "`target`" in str(err.value)
+
+
+@settings(max_examples=60, deadline=None)
+@given(estimate=st.floats(0.01, 1e3), sd=st.floats(5e-324, 1e-306))
+def test_a_tiny_sd_names_the_sd(estimate, sd):
+    """A mean difference over a tiny SD is an infinite standardized difference: `sd` is named."""
+    with pytest.raises(InputError) as err:
+        s.evalue("md", estimate, sd=sd)
+    assert err.value.argument == "sd"
+
+
+def test_on_the_command_line_the_overflow_names_the_option():
+    res = _invoke(["evalue", "--scale", "rr", "--estimate", "1.5", "--target", "5e-324"])
+    assert res.exit_code == 2 and "`--target`" in res.stderr, res.stderr
+    res = _invoke(["partial-r2", "--estimate", "2", "--se", "0.5", "--dof", "100", "--sd",
+                   "5e-324"])  # fmt: skip
+    assert res.exit_code == 2 and "`--sd`" in res.stderr, res.stderr

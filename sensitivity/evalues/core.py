@@ -34,6 +34,8 @@ from .risk_difference import evalue_of_risk_difference, evalue_rd
 from .rows import (
     CHECKS,
     EVALUE_SCALES,
+    FIELD_OF,
+    OVERFLOW_ARGUMENTS,
     beyond_double,
     compute,
     evalue_rows,
@@ -161,10 +163,12 @@ def evalue(
     if np.any(beyond != ""):
         i = np.flatnonzero(beyond != "")[0]
         name = str(beyond.flat[i])
-        field_of = {"estimate": "estimate", "ci": "lower", "target": "target", "se": "se"}[name]
+        field_of = FIELD_OF[name]
         value = np.broadcast_to(values[field_of], beyond.shape).flat[i]
         code = np.broadcast_to(values["scale"], beyond.shape).flat[i]
-        raise InputError(overflow_message(name, value, str(code)), name)
+        raise InputError(
+            overflow_message(name, value, str(code)), OVERFLOW_ARGUMENTS.get(name, name)
+        )
     notes = _notes(values, freq, out, target is None)
     scalar_scale = values["scale"].ndim == 0
     return EValueResult(
