@@ -399,3 +399,27 @@ def test_on_the_command_line_the_overflow_names_the_option():
     res = _invoke(["partial-r2", "--estimate", "2", "--se", "0.5", "--dof", "100", "--sd",
                    "5e-324"])  # fmt: skip
     assert res.exit_code == 2 and "`--sd`" in res.stderr, res.stderr
+
+
+def test_a_level_whose_critical_value_is_zero_is_refused():
+    """Below about 1.1e-16 the two-sided normal critical value rounds to 0 (scipy's ndtri
+    at (1 - level) / 2 = 0.5): the pool read every study's se as -inf from a zero-width
+    interval. The level is refused, naming the option."""
+    from scipy.special import ndtri
+
+    assert -ndtri((1 - 5e-17) / 2) == 0 < -ndtri((1 - 1e-15) / 2)
+    res = _invoke(["pool", str(ROOT / "demo/pooled_studies.csv"), "--from-text", "result",
+                   "--threshold", "1.1", "--level", "5e-324"])  # fmt: skip
+    assert res.exit_code == 2 and "`--level`" in res.stderr, res.stderr
+    with pytest.raises(InputError) as err:
+        s.evalue("rr", 2.0, ci=(1.5, 3.0), ci_level=1e-16)
+    assert err.value.argument == "ci_level"
+
+
+def test_a_lambda_beyond_the_limit_is_refused():
+    from sensitivity.weighting.core import MAX_LAMBDA, _lambda_grid
+
+    assert _lambda_grid([1, MAX_LAMBDA]).max() == MAX_LAMBDA
+    with pytest.raises(InputError) as err:
+        _lambda_grid([1, 1e308])
+    assert err.value.argument == "lambda"

@@ -34,18 +34,28 @@ def check_alpha(alpha: float, name: str = "alpha") -> float:
     return value
 
 
+#: The least confidence level the package accepts: below about 1.1e-16 the two-sided critical
+#: value rounds to 0 and an interval (or an se read from one) is degenerate.
+LEVEL_FLOOR = 1e-15
+
+
 def check_level(level: float, name: str = "ci_level") -> float:
-    """A confidence level in (0, 1 - ALPHA_FLOOR], or InputError naming `name`."""
+    """A confidence level in [LEVEL_FLOOR, 1 - ALPHA_FLOOR], or InputError naming `name`."""
     try:
         value = float(level)
     except (TypeError, ValueError, OverflowError):
         raise InputError(f"`{name}` must be a number; got {level!r}", name) from None
     if not (0 < value < 1):
         raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}", name)
-    if value < ALPHA_FLOOR or 1 - value < ALPHA_FLOOR:
+    if value < LEVEL_FLOOR:
         raise InputError(
-            f"`{name}` must be at least {ALPHA_FLOOR:g} and leave at least that to 1; "
-            f"got {value:g}",
+            f"`{name}` must be at least {LEVEL_FLOOR:g} (below it the critical value is 0 in "
+            f"double precision: the interval has no width); got {value:g}",
+            name,
+        )
+    if 1 - value < ALPHA_FLOOR:
+        raise InputError(
+            f"`{name}` must leave at least {ALPHA_FLOOR:g} to 1; got {value:g}",
             name,
         )
     return value

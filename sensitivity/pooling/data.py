@@ -23,7 +23,7 @@ from ..common.checks import (
     require_scalar,
 )
 from ..common.errors import InputError
-from ..common.levels import check_alpha, z_critical
+from ..common.levels import check_alpha, check_level, z_critical
 from . import core
 from .result import PoolResult
 
@@ -348,7 +348,7 @@ def read_studies(
     from ..screen.stream import _as_polars, screen_table
 
     frame, _ = _as_polars(table)
-    level = float(require_scalar(level, "level", OPEN_UNIT))
+    level = check_level(level, "level")
     mapping = dict(columns or {})
     header = list(frame.columns)
     label_col = mapping.pop("label", None) or next((c for c in LABEL_COLUMNS if c in header), None)

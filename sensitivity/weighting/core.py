@@ -81,12 +81,16 @@ EXTREMES = ("none", "clip", "trim")
 METHODS = ("sharp", "percentile")
 MIN_ARM = 10  # this project's floor: fewer units in an arm cannot carry a bootstrap
 MIN_RESAMPLES = 50
+MAX_LAMBDA = 1e12  # the bounds still solve here; at 1e150 the weights overflow
 
 
 def _lambda_grid(values: object) -> np.ndarray:
     lam = np.atleast_1d(require(values, "lambda", AT_LEAST_ONE)).astype(float)
     if lam.ndim != 1 or lam.size == 0:
         raise InputError("`lambda` must be one value or a list of values", "lambda")
+    if lam.max() > MAX_LAMBDA:
+        raise InputError(f"`lambda` must be at most {MAX_LAMBDA:g} (this package's limit, "
+                         f"well inside double precision); got {lam.max():g}", "lambda")  # fmt: skip
     return np.unique(lam)
 
 
