@@ -64,10 +64,10 @@ def estimate_table(result: EValueResult) -> Table:
         lower_nearer = rec["rr"] >= rec["rr_target"]
         observed = rec["ci_lower"] if lower_nearer else rec["ci_upper"]
         if observed is None:  # interval from `se`: show its limit on the observed scale
-            from ..common.scales import from_risk_ratio
+            from ..common.scales import convert_from_rr
 
             observed = float(
-                from_risk_ratio(
+                convert_from_rr(
                     rec["scale"],
                     lo_rr if lower_nearer else up_rr,
                     outcome=rec["outcome"],

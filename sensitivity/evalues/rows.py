@@ -32,10 +32,10 @@ from ..common.scales import (
     SMD_INTERVAL,
     SMD_SLOPE,
     as_text,
+    convert_to_rr,
     frequency_of_prevalence,
     is_ratio,
     null_of,
-    to_risk_ratio,
 )
 from .formulas import evalue_of_interval, evalue_of_rr
 
@@ -159,7 +159,7 @@ def compute(
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         # one pass over the routes for all four (each row's map decided once)
         stacked = np.stack(np.broadcast_arrays(estimate, target, lower, upper))
-        rr, rr_target, rr_lower, rr_upper = to_risk_ratio(
+        rr, rr_target, rr_lower, rr_upper = convert_to_rr(
             scale, stacked, outcome=outcome, sd=sd, contrast=contrast
         )
         # An interval from `se` (smd, md): exp(0.91 d -/+ 1.78 se_d) (VanderWeele & Ding 2017).

@@ -28,7 +28,7 @@ import numpy as np
 from ..common.checks import POSITIVE, require_scalar
 from ..common.errors import InputError
 from ..common.levels import check_level, z_critical
-from ..common.scales import RATIO_SCALES, from_risk_ratio, to_risk_ratio
+from ..common.scales import RATIO_SCALES, convert_from_rr, convert_to_rr
 from .result import SimulationResult
 
 KINDS = {"fixed": 1, "uniform": 2, "triangular": 3, "trapezoidal": 4, "beta": 2, "lognormal": 2}
@@ -212,14 +212,14 @@ def simulate(
     with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
         if ratio:
             conv = {"outcome": freq}
-            obs = float(to_risk_ratio(scale, est, **conv))
-            lo, up = (float(to_risk_ratio(scale, v, **conv)) for v in pair)
+            obs = float(convert_to_rr(scale, est, **conv))
+            lo, up = (float(convert_to_rr(scale, v, **conv)) for v in pair)
             se = (np.log(up) - np.log(lo)) / (2 * crit)
             bias = (1 + (g - 1) * p1) / (1 + (g - 1) * p0)
             systematic_rr = np.exp(np.log(obs) - np.log(bias))
             total_rr = np.exp(np.log(systematic_rr) - z_random * se)
-            systematic = from_risk_ratio(scale, systematic_rr, **conv)
-            total = from_risk_ratio(scale, total_rr, **conv)
+            systematic = convert_from_rr(scale, systematic_rr, **conv)
+            total = convert_from_rr(scale, total_rr, **conv)
         else:
             se = (pair[1] - pair[0]) / (2 * crit)
             systematic = est - g * (p1 - p0)
