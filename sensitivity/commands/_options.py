@@ -364,9 +364,11 @@ def show_warnings() -> None:
     import warnings
 
     from sensitivity.common.errors import SensitivityWarning
+    from sensitivity.output.tables import safe_text
 
     def show(message, category, filename, lineno, file=None, line=None):
-        click.echo(f"Warning: {message}", err=True)
+        # one line with nothing a terminal acts on: a warning may name a covariate or label
+        click.echo(f"Warning: {' '.join(safe_text(str(message)).split())}", err=True)
 
     warnings.showwarning = show
     warnings.simplefilter("always", SensitivityWarning)
