@@ -1,0 +1,57 @@
+"""Issue 19, second re-check: sentences that were not exactly true at some inputs.
+
+- The E-value sentence sent the reader to "the accompanying table and figure" of unequal
+  pairs where a view has none (a risk difference; an estimate at the null, E = 1).
+- The line showing what was read from a published text rounded a 97.5% CI to "98% CI".
+- A risk of 0 or 1 in a group gives a Wald interval of zero width (0/100 against 0/100 was
+  "95% CI 0.0000 to 0.0000") with no word that it understates the uncertainty.
+Invented numbers throughout (a scenario of our own).
+"""
+
+from __future__ import annotations
+
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from sensitivity import evalue, evalue_from_text
+from sensitivity.evalues.risk_difference import evalue_rd
+
+PAIRS = "Pairs of confounder strengths"
+POINTER = "accompanying table"
+
+
+def _views(result) -> list[str]:
+    doc = result.document()
+    return [" ".join(doc.render(f).split()) for f in ("text", "markdown", "html")]
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    estimate=st.one_of(st.just(1.0), st.floats(0.2, 5)),
+    width=st.floats(1.01, 3),
+)
+def test_the_pointer_to_unequal_pairs_only_where_they_are_shown(estimate, width):
+    res = evalue("rr", estimate, (estimate / width, estimate * width))
+    for text in _views(res):
+        assert (POINTER in text) <= (PAIRS in text), text[:200]
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(1, 60), st.integers(1, 60), st.data())
+def test_a_risk_difference_never_points_to_a_table_it_lacks(n1, n0, data):
+    a = data.draw(st.integers(0, n1))
+    c = data.draw(st.integers(0, n0))
+    r = evalue_rd((a, n1, c, n0))
+    edge = a in (0, n1) or c in (0, n0)
+    for text in _views(r):
+        assert POINTER not in text and PAIRS not in text
+        assert ("Wald variance is 0" in text) == edge
+        assert "is inf" not in text
+
+
+@settings(max_examples=40, deadline=None)
+@given(level=st.sampled_from(["90", "95", "97.5", "99", "99.9", "80"]))
+def test_the_level_read_from_a_text_is_shown_as_written(level):
+    res = evalue_from_text(f"RR 1.8 ({level}% CI 1.2-2.7)")
+    said = " ".join(res.summary().split())
+    assert f"{level}% CI 1.2 to 2.7." in said
