@@ -46,7 +46,7 @@ class _Cli(click.Group):
             formatter.write_dl(rows)
 
     def main(self, args=None, prog_name=None, **extra):  # type: ignore[override]
-        from sensitivity.common.errors import InputError
+        from sensitivity.common.errors import InputError, one_line
 
         args = list(sys.argv[1:] if args is None else args)
         debug = "--debug" in args
@@ -64,37 +64,29 @@ class _Cli(click.Group):
             click.echo("Error: aborted", err=True)
             sys.exit(1)
         except click.ClickException as err:
-            click.echo(f"Error: {_one_line(err.format_message())}", err=True)
+            click.echo(f"Error: {one_line(err.format_message())}", err=True)
             sys.exit(2)
         except InputError as err:
             if debug:
                 raise
-            click.echo(f"Error: {_one_line(str(err))}", err=True)
+            click.echo(f"Error: {one_line(str(err))}", err=True)
             sys.exit(2)
         except OSError as err:
             if debug:
                 raise
             text = f"{err.strerror or err}: {err.filename or ''}".rstrip(": ")
-            click.echo(f"Error: {_one_line(text)}", err=True)
+            click.echo(f"Error: {one_line(text)}", err=True)
             sys.exit(1)
         except Exception as err:  # noqa: BLE001 - the contract: no traceback without --debug
             if debug:
                 raise
-            text = _one_line(str(err))[:300]
+            text = one_line(str(err))[:300]
             click.echo(
                 f"Error: internal error ({type(err).__name__}: {text}); rerun with --debug",
                 err=True,
             )
             sys.exit(1)
         sys.exit(0)
-
-
-def _one_line(text: str) -> str:
-    """A message as one line with nothing a terminal acts on: a column name or a label in it
-    may hold a bell, an escape sequence or a carriage return (issue 19)."""
-    from sensitivity.output.tables import safe_text
-
-    return " ".join(safe_text(text).split())
 
 
 @click.group(cls=_Cli, context_settings={"help_option_names": ["-h", "--help"]})

@@ -55,3 +55,23 @@ def test_the_level_read_from_a_text_is_shown_as_written(level):
     res = evalue_from_text(f"RR 1.8 ({level}% CI 1.2-2.7)")
     said = " ".join(res.summary().split())
     assert f"{level}% CI 1.2 to 2.7." in said
+
+
+def test_a_level_that_is_not_a_whole_percent_is_printed_as_it_is():
+    """97.5% was printed "98%" wherever a level went through a whole-percent format: the
+    weighting views and a published text whose level is filled in."""
+    import numpy as np
+
+    from sensitivity import weighting_bounds
+
+    rng = np.random.default_rng(3)
+    x = rng.normal(size=(200, 1))
+    a = (rng.uniform(size=200) < 0.5).astype(float)
+    y = x[:, 0] + 0.5 * a + rng.normal(size=200)
+    w = weighting_bounds(y, a, covariates=np.c_[np.ones(200), x], lam=[1, 1.5], resamples=50,
+                         seed=1, alpha=0.025)  # fmt: skip
+    text = " ".join(w.summary().split())
+    assert "97.5%" in text and "98%" not in text
+    read = evalue_from_text("RR 2 (1.5-2.7)", ci_level=0.975)
+    said = " ".join(read.summary().split())
+    assert "read as 97.5%" in said and "98%" not in said

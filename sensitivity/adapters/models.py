@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError, SensitivityWarning
+from ..common.levels import level_text
 from ..evalues.core import evalue
 from ..evalues.result import EValueResult
 from .errors import (
@@ -219,7 +220,7 @@ def evalue_of_fit(
 
     code, words = errors
     notes = list(notes)
-    notes.append(f"The {1 - alpha:.0%} interval is the fit's own, from its {words}.")
+    notes.append(f"The {level_text(alpha=alpha)} interval is the fit's own, from its {words}.")
     if code == "classical" and kind == "poisson" and binary:
         _warn(
             f"a {SHOWN[kind]} fit of a 0/1 outcome with model-based errors: for a risk ratio "
@@ -291,7 +292,7 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
         f"the event occurs in {share:.1%} of the data."
     )
     code, words = used_by(fitter)
-    errors = f"The {1 - alpha:.0%} interval is from the fit's {words}."
+    errors = f"The {level_text(alpha=alpha)} interval is from the fit's {words}."
     info = {"kind": "cox", "n": len(events), "outcome_share": share, "treatment": treatment,
             "errors": code}  # fmt: skip
     return replace(res, notes=(note, errors, *res.notes), model=info)

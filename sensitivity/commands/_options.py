@@ -363,12 +363,10 @@ def show_warnings() -> None:
     """Package warnings as one `Warning:` line each on stderr (never a traceback)."""
     import warnings
 
-    from sensitivity.common.errors import SensitivityWarning
-    from sensitivity.output.tables import safe_text
+    from sensitivity.common.errors import SensitivityWarning, one_line
 
     def show(message, category, filename, lineno, file=None, line=None):
-        # one line with nothing a terminal acts on: a warning may name a covariate or label
-        click.echo(f"Warning: {' '.join(safe_text(str(message)).split())}", err=True)
+        click.echo(f"Warning: {one_line(message)}", err=True)  # it may name a label
 
     warnings.showwarning = show
     warnings.simplefilter("always", SensitivityWarning)

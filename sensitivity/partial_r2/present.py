@@ -109,7 +109,7 @@ def table(r: PartialR2Result) -> Table:
         rows.append(
             (
                 f"E-value alongside ({_per(e.contrast).strip() or 'per unit'}; estimate / "
-                f"{e.ci_level:.0%} CI)",
+                f"{level_text(e.ci_level)} CI)",
                 f"{number(e.evalue)} / {number(e.evalue_ci)}",
             )
         )
