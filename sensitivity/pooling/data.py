@@ -246,7 +246,8 @@ def _plain_studies(y: np.ndarray, s: np.ndarray, labels: Sequence[str] | None
     return _study_columns(names, y, s, np.full(n, "", dtype=object), np.full(n, "", dtype=object))
 
 
-def _study_columns(labels, y, s, errors, notes, level=0.95) -> dict[str, np.ndarray]:
+def _study_columns(labels: Any, y: np.ndarray, s: np.ndarray, errors: np.ndarray,
+                   notes: np.ndarray, level: float = 0.95) -> dict[str, np.ndarray]:  # fmt: skip
     from scipy.special import ndtri
 
     from ..evalues.core import evalue_of_interval, evalue_of_rr
