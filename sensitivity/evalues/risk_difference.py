@@ -131,7 +131,7 @@ def evalue_rd(counts: tuple[int, int, int, int], *, ci_level: float = 0.95) -> R
     out = evalue_of_risk_difference(a, n1, c, n0, alpha=1 - level)
     p1, p0 = a / n1, c / n0
     half = float(-ndtri((1 - level) / 2)) * np.sqrt(p1 * (1 - p1) / n1 + p0 * (1 - p0) / n0)
-    notes = (
+    notes: tuple[str, ...] = (
         "E-value of the risk difference in the whole population from the 2 x 2 counts: B* "
         "brings the bound (p1 - p0 B) f + (p1/B - p0)(1 - f) to 0, E = B* + sqrt(B* (B* - 1)) "
         "(Ding & VanderWeele 2016); the interval's from the bound's lower confidence limit "

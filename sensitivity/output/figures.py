@@ -69,7 +69,7 @@ def _glyphs() -> frozenset[int]:
     """The code points the figures' font draws (its character map)."""
     from matplotlib import font_manager
 
-    path = font_manager.findfont(font_manager.FontProperties(family=STYLE["font.family"]))
+    path = font_manager.findfont(font_manager.FontProperties(family=str(STYLE["font.family"])))
     return frozenset(font_manager.get_font(path).get_charmap())
 
 
