@@ -75,3 +75,25 @@ def test_a_level_that_is_not_a_whole_percent_is_printed_as_it_is():
     read = evalue_from_text("RR 2 (1.5-2.7)", ci_level=0.975)
     said = " ".join(read.summary().split())
     assert "read as 97.5%" in said and "98%" not in said
+
+
+def test_from_model_says_what_it_got_instead_of_a_fit():
+    """It said "got NoneType" for a data frame, a string and an unfitted model alike."""
+    import numpy as np
+    import pandas as pd
+    import pytest
+    import statsmodels.api as sm
+
+    from sensitivity import InputError, from_model
+
+    cases = [
+        (pd.DataFrame({"a": [1.0, 2.0]}), "got pandas DataFrame (data, not a fitted model)"),
+        ("y ~ a", "got a string ('y ~ a')"),
+        (sm.OLS(np.arange(3.0), np.ones(3)), "got an unfitted OLS model (call .fit()"),
+        (None, "got None"),
+        (3.0, "got a float (3.0)"),
+    ]
+    for value, said in cases:
+        with pytest.raises(InputError, match=r"must be a fitted OLS.*") as err:
+            from_model(value, "a")
+        assert said in str(err.value), str(err.value)

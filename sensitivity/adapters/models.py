@@ -73,8 +73,28 @@ def model_kind(results: Any) -> tuple[str, str]:
         )
     raise InputError(
         f"`results` must be a fitted OLS, logistic, log-binomial, Poisson, negative binomial "
-        f"or Cox model; got {name or type(results).__name__}"
+        f"or Cox model; got {what_it_is(results)}"
     )
+
+
+def what_it_is(value: Any) -> str:
+    """What was passed instead of a fitted model, in words a user can act on (a data frame,
+    a model not yet fitted, a string: each said plainly, not "NoneType")."""
+    kind = type(value)
+    if value is None:
+        return "None"
+    if isinstance(value, str):
+        return f"a string ({value[:40]!r})"
+    if hasattr(value, "fit") and hasattr(value, "endog") and not hasattr(value, "params"):
+        return f"an unfitted {kind.__name__} model (call .fit() and pass what it returns)"
+    if kind.__module__.split(".")[0] in ("pandas", "polars", "pyarrow", "numpy"):
+        return f"{kind.__module__.split('.')[0]} {kind.__name__} (data, not a fitted model)"
+    model = getattr(value, "model", None)
+    if model is not None:
+        return f"a fit of a {type(model).__name__} model"
+    if kind.__module__ == "builtins":
+        return f"a {kind.__name__} ({repr(value)[:40]})"
+    return f"{kind.__module__}.{kind.__name__}"
 
 
 def _converged(results: Any) -> None:
