@@ -97,3 +97,23 @@ def test_from_model_says_what_it_got_instead_of_a_fit():
         with pytest.raises(InputError, match=r"must be a fitted OLS.*") as err:
             from_model(value, "a")
         assert said in str(err.value), str(err.value)
+
+
+@settings(max_examples=30, deadline=None)
+@given(draws=st.one_of(st.integers(1, 120), st.floats(40.1, 99.9)))
+def test_a_simulation_interval_always_has_draws_beyond_both_tails(draws):
+    """`--draws 1` printed a "95% interval 0.81 to 0.81" from one draw; 40.5 was cut to 40."""
+    import pytest
+
+    from sensitivity import InputError, simulate
+
+    priors = {"prevalence_treated": "uniform:0.2:0.4", "prevalence_control": "fixed:0.3",
+              "outcome_effect": "fixed:2"}  # fmt: skip
+    if draws < 40 or draws != int(draws):
+        rule = r"at least 40" if draws < 40 else r"a whole number"
+        with pytest.raises(InputError, match=rf"`draws` must be {rule}"):
+            simulate("rr", 0.81, (0.69, 0.95), draws=draws, seed=1, **priors)
+        return
+    r = simulate("rr", 0.81, (0.69, 0.95), draws=draws, seed=1, **priors)
+    kept = r.draws - r.discarded
+    assert kept >= 40 and 0.025 * kept >= 1

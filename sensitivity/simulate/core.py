@@ -31,6 +31,9 @@ from ..common.levels import check_level, z_critical
 from ..common.scales import RATIO_SCALES, convert_from_rr, convert_to_rr
 from .result import SimulationResult
 
+#: The fewest draws that give each tail of a 95% percentile interval a draw beyond it
+#: (0.025 x 40 = 1); the default is 100,000.
+LEAST_DRAWS = 40
 KINDS = {"fixed": 1, "uniform": 2, "triangular": 3, "trapezoidal": 4, "beta": 2, "lognormal": 2}
 
 
@@ -167,9 +170,17 @@ def simulate(
         raise InputError("`ci` is needed: the total-error interval draws from it")
     freq = check_frequency(scale, outcome)
     level = check_level(ci_level)
-    n = int(require_scalar(draws, "draws", POSITIVE))
+    given = require_scalar(draws, "draws", POSITIVE)
+    if given != int(given):
+        raise InputError(f"`draws` must be a whole number; got {given:g}")
+    n = int(given)
     if n > 20_000_000:
         raise InputError(f"`draws` must be at most 20,000,000; got {n:,}")
+    if n < LEAST_DRAWS:
+        raise InputError(
+            f"`draws` must be at least {LEAST_DRAWS}: the 95% intervals are the 2.5th and "
+            f"97.5th percentiles, and each tail needs a draw beyond it; got {n:,}"
+        )
     rho = float(require_scalar(correlation, "correlation"))
     if not -1 < rho < 1:
         raise InputError(f"`correlation` must lie strictly between -1 and 1; got {rho:g}")
@@ -230,8 +241,11 @@ def simulate(
                 f"the {name}-error draws leave double precision: the estimate, `ci` or "
                 "`outcome_effect` prior is too extreme for this scale"
             )
-    if systematic.size == 0:
-        raise InputError("every draw was impossible (a prevalence outside [0, 1]); check priors")
+    if systematic.size < LEAST_DRAWS:
+        raise InputError(
+            f"{discarded:,} of {n:,} draws were impossible (a prevalence outside [0, 1]): "
+            f"fewer than {LEAST_DRAWS} are left for the 95% intervals; check the priors"
+        )
     side = 1 if est >= tgt else -1
     beyond = float(np.mean(side * (systematic - tgt) <= 0))
     beyond_total = float(np.mean(side * (total - tgt) <= 0))
