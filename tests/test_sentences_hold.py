@@ -117,3 +117,16 @@ def test_a_simulation_interval_always_has_draws_beyond_both_tails(draws):
     r = simulate("rr", 0.81, (0.69, 0.95), draws=draws, seed=1, **priors)
     kept = r.draws - r.discarded
     assert kept >= 40 and 0.025 * kept >= 1
+
+
+@given(st.text(alphabet=st.sampled_from(list("ab $~\\*_`[]|<&")), max_size=40))
+def test_a_markdown_cell_leaves_no_mathematics_or_strikeout_live(text):
+    """A label "a $\\frac{1}{ b$" rendered as TeX in report.md (pandoc, GitHub): every "$"
+    and "~" is escaped, i.e. preceded by an odd number of backslashes."""
+    import re
+
+    from sensitivity.output.tables import markdown_cell
+
+    out = markdown_cell(text)
+    for m in re.finditer(r"(\\*)[$~]", out):
+        assert len(m.group(1)) % 2 == 1, out

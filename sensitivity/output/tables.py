@@ -152,7 +152,7 @@ def markdown_cell(text: str) -> str:
     import re
 
     out = safe_text(text)
-    for ch in "\\`*_[]|":
+    for ch in "\\`*_[]|$~":  # $ opens mathematics and ~ strikes out in common renderers
         out = out.replace(ch, "\\" + ch)
     out = re.sub(r"&(?=#?\w+;)", "&amp;", out)
     return re.sub(r"<(?=[A-Za-z/!?])", "&lt;", out)
