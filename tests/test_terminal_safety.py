@@ -57,3 +57,16 @@ def test_an_error_naming_a_hostile_column_is_one_safe_line(name, tmp_path):
     assert res.exit_code == 2, res.stderr
     assert res.stderr.startswith("Error: ") and res.stderr.count("\n") == 1, res.stderr
     _no_controls(res.stderr)
+
+
+@settings(max_examples=10, deadline=None, suppress_health_check=SLOW)
+@given(name=HOSTILE.filter(lambda x: "/" not in x and "\x00" not in x and x not in (".", "..")))
+def test_the_screen_sentence_names_a_hostile_file_as_one_safe_line(name, tmp_path_factory):
+    """The summary sentence on stderr names the file read; its name may hold escapes."""
+    folder = tmp_path_factory.mktemp("f")
+    path = folder / ("f" + name[:60] + ".csv")
+    path.write_text("scale,estimate\nrr,2\n")
+    for args in (["--format", "markdown"], ["-o", str(folder / "out.csv")]):
+        res = CliRunner().invoke(cli, ["screen", str(path), *args])
+        assert res.exit_code == 0, res.stderr
+        _no_controls(res.stderr)

@@ -9,6 +9,8 @@ from typing import Any
 
 import click
 
+from sensitivity.common.errors import SensitivityWarning, one_line
+
 FORMATS = ("text", "json", "csv", "markdown", "latex")
 #: The arguments of the running command line (set by cli.py), for a report to quote.
 INVOCATION: list[str] = []
@@ -363,8 +365,6 @@ def show_warnings() -> None:
     """Package warnings as one `Warning:` line each on stderr (never a traceback)."""
     import warnings
 
-    from sensitivity.common.errors import SensitivityWarning, one_line
-
     def show(message, category, filename, lineno, file=None, line=None):
         click.echo(f"Warning: {one_line(message)}", err=True)  # it may name a label
 
@@ -423,12 +423,12 @@ def emit(result: Any, fmt: str, outputs: tuple[str, ...] | str | None) -> None:
 
         with replacing(path) as sink:  # whole or not at all
             _write(result, chosen, sink)
-        click.echo(f"Wrote {path}", err=True)
+        click.echo(f"Wrote {one_line(path)}", err=True)
         formats.append(chosen)
     if "text" not in formats and any(f in ("csv", "markdown", "latex") for f in formats):
         document = result.document()
         for line in document.sentences + [f"Note: {n}" for n in result.all_notes()]:
-            click.echo(line, err=True)
+            click.echo(one_line(line), err=True)
 
 
 #: The scales a summary input names (`--scale`); rd needs `--counts` in `evalue`.
