@@ -77,3 +77,23 @@ def test_the_stability_sentence_never_says_inf_and_shows_delta_as_given(b0, targ
     shown = re.search(r"At delta (\S+) the bias", r.document().render("text").replace(
         "\n", " "))  # fmt: skip
     assert shown and float(shown.group(1)) == float(f"{delta:.12g}")
+
+
+@settings(max_examples=40, deadline=None)
+@given(t=MAGNITUDE, dof=st.floats(1, 1e6), alpha=st.floats(1e-300, 0.5))
+def test_the_impact_critical_t_prints_as_a_number_a_reader_can_take_in(t, dof, alpha):
+    """`impact --dof 1e-12` printed a critical t of forty digits; a dof below 1 is now
+    refused, and a huge critical t (tiny alpha on 1 df) is shown in scientific form."""
+    try:
+        r = s.impact_threshold(t=t, dof=dof, alpha=alpha)
+    except s.InputError:
+        return  # no finite critical t at this alpha and dof: refused, naming alpha
+    text = _views(r)
+    assert not LONG_NUMBER.search(text), LONG_NUMBER.search(text).group()[:60]
+
+
+def test_a_regression_has_at_least_one_residual_degree_of_freedom():
+    import pytest
+
+    with pytest.raises(s.InputError, match=r"`dof` must be at least 1; got 1e-12"):
+        s.impact_threshold(t=3.0, dof=1e-12)

@@ -46,7 +46,7 @@ def table(r: ImpactResult) -> Table:
         tuple(rows),
         title=f"What it would take to {change} significance (t = {_t(r.t)}, {count(r.dof)} df)",
         footnotes=(
-            f"Degrees of freedom: {_dof(r)}; two-sided critical t {r.t_critical:.3f}. "
+            f"Degrees of freedom: {_dof(r)}; two-sided critical t {number(r.t_critical, 3)}. "
             "Correlations are partial on the model's covariates.",
         ),
     )
