@@ -44,7 +44,7 @@ def test_the_partial_r2_summary_prints_no_endless_number(se, dof):
 
 @given(st.floats(allow_nan=False, allow_infinity=False))
 def test_a_share_and_a_count_have_few_digits(value):
-    assert len(percent(value)) <= 12
+    assert len(percent(value)) <= 12 and "inf" not in percent(value)
     assert len(count(abs(value))) <= 24
 
 

@@ -58,6 +58,11 @@ def percent(value: float | np.ndarray | None, digits: int = 1) -> str:
     if value is None or math.isnan(float(value)):
         return "-"
     pct = 100 * float(value)
+    if math.isinf(pct) and math.isfinite(float(value)):  # 100 x 1e307 is beyond a double
+        from decimal import Decimal
+
+        mantissa, power = format(Decimal(repr(float(value))) * 100, ".3g").lower().split("e")
+        return f"{mantissa.rstrip('0').rstrip('.')}e{power}%"
     if 0 < abs(pct) < 1 or abs(pct) >= 1e6:
         return f"{pct:.3g}%"
     return f"{pct:.{digits}f}%"
