@@ -99,6 +99,17 @@ def evalue_of_interval(lower: object, upper: object, target: object = 1.0) -> np
     return evalue_of_rr(ratio)
 
 
+def evalue_of_limits(lower: np.ndarray, upper: np.ndarray, target: object = 1.0) -> np.ndarray:
+    """`evalue_of_interval` without its checks, for rows already checked (the screen and
+    `evalue_rows`, where the checks cost a third of the call on a million rows): positive
+    limits in order; a row with no interval is masked by the caller."""
+    lower, upper, target = np.broadcast_arrays(
+        *(np.asarray(a, float) for a in (lower, upper, target))
+    )
+    nearest = np.where(lower > target, lower, np.where(upper < target, upper, target))
+    return evalue_of_rr(nearest / target)
+
+
 def bounding_factor(rr_treatment: object, rr_outcome: object) -> np.ndarray:
     """Joint bounding factor of a confounder with the given two risk ratios.
 

@@ -37,7 +37,7 @@ from ..common.scales import (
     is_ratio,
     null_of,
 )
-from .formulas import evalue_of_interval, evalue_of_rr
+from .formulas import evalue_of_limits, evalue_of_rr
 
 #: Scales `evalue` takes (rd needs the 2 x 2 counts and has its own route).
 EVALUE_SCALES = ("rr", "or", "hr", "smd", "md")
@@ -171,7 +171,7 @@ def compute(
             rr_lower = np.where(from_se, np.exp(SMD_SLOPE * d - SMD_INTERVAL * se_d), rr_lower)
             rr_upper = np.where(from_se, np.exp(SMD_SLOPE * d + SMD_INTERVAL * se_d), rr_upper)
         e = evalue_of_rr(rr / rr_target)
-        e_ci = np.where(given(rr_lower), evalue_of_interval(rr_lower, rr_upper, rr_target), np.nan)
+        e_ci = np.where(given(rr_lower), evalue_of_limits(rr_lower, rr_upper, rr_target), np.nan)
     return {
         "rr": rr,
         "rr_lower": rr_lower,
