@@ -46,7 +46,7 @@ class _Cli(click.Group):
             formatter.write_dl(rows)
 
     def main(self, args=None, prog_name=None, **extra):  # type: ignore[override]
-        from sensitivity.common.errors import InputError
+        from sensitivity.common.errors import InputError, one_line
 
         args = list(sys.argv[1:] if args is None else args)
         debug = "--debug" in args
@@ -64,22 +64,23 @@ class _Cli(click.Group):
             click.echo("Error: aborted", err=True)
             sys.exit(1)
         except click.ClickException as err:
-            click.echo(f"Error: {' '.join(err.format_message().split())}", err=True)
+            click.echo(f"Error: {one_line(err.format_message())}", err=True)
             sys.exit(2)
         except InputError as err:
             if debug:
                 raise
-            click.echo(f"Error: {' '.join(str(err).split())}", err=True)
+            click.echo(f"Error: {one_line(str(err))}", err=True)
             sys.exit(2)
         except OSError as err:
             if debug:
                 raise
-            click.echo(f"Error: {err.strerror or err}: {err.filename or ''}".rstrip(": "), err=True)
+            text = f"{err.strerror or err}: {err.filename or ''}".rstrip(": ")
+            click.echo(f"Error: {one_line(text)}", err=True)
             sys.exit(1)
         except Exception as err:  # noqa: BLE001 - the contract: no traceback without --debug
             if debug:
                 raise
-            text = " ".join(str(err).split())[:300]
+            text = one_line(str(err))[:300]
             click.echo(
                 f"Error: internal error ({type(err).__name__}: {text}); rerun with --debug",
                 err=True,

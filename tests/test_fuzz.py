@@ -13,6 +13,7 @@ from pathlib import Path
 
 import click
 import numpy as np
+import pytest
 from click.testing import CliRunner
 from conftest import ROOT
 from hypothesis import HealthCheck, given, settings
@@ -47,6 +48,13 @@ CALLS = {
         "outcome_effect": "fixed:2", "draws": 200, "seed": 1}),
     "evalue_of_rr": (s.evalue_of_rr, (2.0,), {}),
     "robustness_value_of_t": (s.robustness_value_of_t, (3.0,), {"dof": 100.0}),
+    # the low-level helpers the second round found unguarded (issue 19): to_risk_ratio("or",
+    # -1) gave -1, evalue_of_interval(-1, 2) gave 1, bounding_factor(-1, 2) a raw warning
+    "to_risk_ratio": (s.to_risk_ratio, ("or", 2.0), {"outcome": "common"}),
+    "to_risk_ratio_md": (s.to_risk_ratio, ("md", 0.5), {"sd": 2.0, "contrast": 10.0}),
+    "from_risk_ratio": (s.from_risk_ratio, ("hr", 2.0), {"outcome": "common"}),
+    "evalue_of_interval": (s.evalue_of_interval, (1.5, 3.0), {"target": 1.0}),
+    "bounding_factor": (s.bounding_factor, (2.0, 3.0), {}),
 }  # fmt: skip
 
 
@@ -94,6 +102,54 @@ def test_the_public_api_raises_value_errors_or_returns_a_printable_result(slot, 
         return
     str(result)
     _finite_numbers(result)
+
+
+HELPERS = ("to_risk_ratio", "to_risk_ratio_md", "from_risk_ratio", "evalue_of_interval",
+           "bounding_factor", "evalue_of_rr", "robustness_value_of_t")  # fmt: skip
+
+
+@pytest.mark.parametrize("slot", [x for x in SLOTS if x[0] in HELPERS], ids=str)
+@pytest.mark.parametrize("value", NASTY, ids=repr)
+def test_every_low_level_helper_raises_or_gives_a_number_at_every_nasty_value(slot, value):
+    """Each helper's every argument at every nasty value, exhaustively (the sampled property
+    above may miss a slot): InputError, or numbers that are NaN only where NaN was given."""
+    name, (kind, where) = slot
+    func, args, kwargs = CALLS[name]
+    args, kwargs = list(args), dict(kwargs)
+    if kind == "arg":
+        args[where] = value
+    else:
+        kwargs[where] = value
+    try:
+        result = func(*args, **kwargs)
+    except ValueError:
+        return
+    assert not np.any(np.isnan(result)) or value is None or _is_nan(value), (name, value)
+
+
+@settings(max_examples=400, deadline=None)
+@given(
+    scale=st.sampled_from(["rr", "or", "hr", "smd", "md", "rd", "x", ""]),
+    value=st.floats(allow_nan=True, allow_infinity=True),
+    outcome=st.sampled_from([None, "rare", "common", "often"]),
+    sd=st.one_of(st.none(), st.floats(allow_nan=True, allow_infinity=True)),
+    forward=st.booleans(),
+)
+def test_a_conversion_is_an_input_error_or_a_finite_number(scale, value, outcome, sd, forward):
+    """to_risk_ratio and from_risk_ratio: an InputError naming the argument, or a finite
+    number (positive on the risk-ratio side); NaN only for NaN given (a missing entry)."""
+    func = s.to_risk_ratio if forward else s.from_risk_ratio
+    try:
+        out = float(func(scale, value, outcome=outcome, sd=sd))
+    except s.InputError as err:
+        assert str(err).startswith("`"), err
+        return
+    if math.isnan(value):
+        assert math.isnan(out)
+        return
+    assert math.isfinite(out)
+    if forward:
+        assert out > 0
 
 
 def _is_nan(value):

@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError, SensitivityWarning
+from ..common.levels import level_text
 from ..evalues.core import evalue
 from ..evalues.result import EValueResult
 from .errors import (
@@ -73,9 +74,29 @@ def model_kind(results: Any) -> tuple[str, str]:
         )
     raise InputError(
         f"`results` must be a fitted OLS, logistic, log-binomial, Poisson, negative binomial "
-        f"or Cox model; got {name or type(results).__name__}",
+        f"or Cox model; got {what_it_is(results)}",
         "results",
     )
+
+
+def what_it_is(value: Any) -> str:
+    """What was passed instead of a fitted model, in words a user can act on (a data frame,
+    a model not yet fitted, a string: each said plainly, not "NoneType")."""
+    kind = type(value)
+    if value is None:
+        return "None"
+    if isinstance(value, str):
+        return f"a string ({value[:40]!r})"
+    if hasattr(value, "fit") and hasattr(value, "endog") and not hasattr(value, "params"):
+        return f"an unfitted {kind.__name__} model (call .fit() and pass what it returns)"
+    if kind.__module__.split(".")[0] in ("pandas", "polars", "pyarrow", "numpy"):
+        return f"{kind.__module__.split('.')[0]} {kind.__name__} (data, not a fitted model)"
+    model = getattr(value, "model", None)
+    if model is not None:
+        return f"a fit of a {type(model).__name__} model"
+    if kind.__module__ == "builtins":
+        return f"a {kind.__name__} ({repr(value)[:40]})"
+    return f"{kind.__module__}.{kind.__name__}"
 
 
 def _converged(results: Any) -> None:
@@ -226,7 +247,7 @@ def evalue_of_fit(
 
     code, words = errors
     notes = list(notes)
-    notes.append(f"The {1 - alpha:.0%} interval is the fit's own, from its {words}.")
+    notes.append(f"The {level_text(alpha=alpha)} interval is the fit's own, from its {words}.")
     if code == "classical" and kind == "poisson" and binary:
         _warn(
             f"a {SHOWN[kind]} fit of a 0/1 outcome with model-based errors: for a risk ratio "
@@ -299,7 +320,7 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
         f"the event occurs in {share:.1%} of the data."
     )
     code, words = used_by(fitter)
-    errors = f"The {1 - alpha:.0%} interval is from the fit's {words}."
+    errors = f"The {level_text(alpha=alpha)} interval is from the fit's {words}."
     info = {"kind": "cox", "n": len(events), "outcome_share": share, "treatment": treatment,
             "errors": code}  # fmt: skip
     return replace(res, notes=(note, errors, *res.notes), model=info)

@@ -10,6 +10,7 @@ from __future__ import annotations
 from dataclasses import replace
 
 from ..common.errors import InputError
+from ..common.levels import level_text
 from ..evalues.result import EValueResult
 
 
@@ -108,7 +109,7 @@ def attach_reading(result: EValueResult, read: dict[str, object]) -> EValueResul
     notes = result.notes
     if read["lower"] is not None and read["level"] is None:
         notes += (
-            f"The text names no level for its interval: read as {float(read['use_level']):.0%}"  # type: ignore[arg-type]
-            " (give the level to change it).",
+            "The text names no level for its interval: read as "
+            f"{level_text(float(read['use_level']))} (give the level to change it).",  # type: ignore[arg-type]
         )
     return replace(result, as_read=as_read, notes=notes)

@@ -9,6 +9,8 @@ from typing import Any
 
 import click
 
+from sensitivity.common.errors import SensitivityWarning, one_line
+
 from ._typed import Named, _refuse_non_finite, _refuse_repeats, _typed, namer
 
 FORMATS = ("text", "json", "csv", "markdown", "latex")
@@ -294,10 +296,8 @@ def show_warnings() -> None:
     """Package warnings as one `Warning:` line each on stderr (never a traceback)."""
     import warnings
 
-    from sensitivity.common.errors import SensitivityWarning
-
     def show(message, category, filename, lineno, file=None, line=None):
-        click.echo(f"Warning: {message}", err=True)
+        click.echo(f"Warning: {one_line(message)}", err=True)  # it may name a label
 
     warnings.showwarning = show
     warnings.simplefilter("always", SensitivityWarning)
@@ -354,12 +354,12 @@ def emit(result: Any, fmt: str, outputs: tuple[str, ...] | str | None) -> None:
 
         with replacing(path) as sink:  # whole or not at all
             _write(result, chosen, sink)
-        click.echo(f"Wrote {path}", err=True)
+        click.echo(f"Wrote {one_line(path)}", err=True)
         formats.append(chosen)
     if "text" not in formats and any(f in ("csv", "markdown", "latex") for f in formats):
         document = result.document()
         for line in document.sentences + [f"Note: {n}" for n in result.all_notes()]:
-            click.echo(line, err=True)
+            click.echo(one_line(line), err=True)
 
 
 #: The scales a summary input names (`--scale`); rd needs `--counts` in `evalue`.

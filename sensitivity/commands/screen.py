@@ -151,7 +151,7 @@ def screen_cmd(
     elif engine == "local":
         frames = read_ahead(read_frames(file, "file", share=share, delimiter=mark or "auto"))
 
-    from sensitivity.common.errors import InputError
+    from sensitivity.common.errors import InputError, one_line
     from sensitivity.screen.core import AS_READ_TEXT, Options, computed_names
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
@@ -253,7 +253,7 @@ def screen_cmd(
             extra["pool"] = pooled.to_dict()
         writer.close(extra if writer.kind == "json" else None)
     if output is not None:
-        click.echo(f"Wrote {output}", err=True)
+        click.echo(f"Wrote {one_line(output)}", err=True)
     if flagged_writer is not None:
         flagged_writer.close(None)
         count = sum(tally.flagged.values())
@@ -262,15 +262,15 @@ def screen_cmd(
     if output is None and fmt not in ("csv", "json"):
         click.echo(document.render(fmt, tables_only=fmt in ("markdown", "latex")))
         if fmt != "text":
-            click.echo(document.sentence, err=True)
+            click.echo(one_line(document.sentence), err=True)
     else:
-        click.echo(document.sentence, err=True)
+        click.echo(one_line(document.sentence), err=True)
     if pooled is not None:
         shown = output is None and fmt not in ("csv", "json")
         if shown:
             click.echo("\n" + pooled.document().render(fmt, tables_only=fmt != "text"))
         if not shown or fmt != "text":
-            click.echo(pooled.sentence(), err=True)
+            click.echo(one_line(pooled.sentence()), err=True)
     if plots:
         from sensitivity.screen.figures import screen_figure
 

@@ -3,10 +3,17 @@ busy: polars parses and writes with the GIL released while numpy works on the pi
 
 Each holds at most `depth` items in hand, so memory stays bounded by the pieces; an error in
 the second thread is raised in the caller's, where it would have been raised without it.
+
+No second thread outlives the program's own work: at exit (an error on the command line
+leaves a reader parsing the next piece) every worker still running is told to stop and
+waited for, before the interpreter shuts down. A daemon thread that comes back from native
+code (polars, pyarrow) after shutdown has begun is ended by the interpreter from inside that
+code, which native frames do not survive: a crash at exit (issue 19, a segfault seen once).
 """
 
 from __future__ import annotations
 
+import atexit
 import queue
 import threading
 from collections.abc import Callable, Iterable, Iterator
@@ -15,6 +22,34 @@ from typing import Any, TypeVar
 T = TypeVar("T")
 _END = object()
 _WAIT = 0.05  # seconds between looks at the stop flag while a queue is full
+#: The longest wait at exit for one worker to finish its piece (a piece parses in well under
+#: a second; a worker blocked on an empty queue is not in native code and is left).
+EXIT_WAIT = 30.0
+_LIVE: dict[threading.Thread, Callable[[], None]] = {}
+_LIVE_LOCK = threading.Lock()
+
+
+def _started(worker: threading.Thread, stop: Callable[[], None]) -> None:
+    """Start `worker`, known to the exit guard until it ends (`stop` asks it to)."""
+    with _LIVE_LOCK:
+        _LIVE[worker] = stop
+    worker.start()
+
+
+def _ended(worker: threading.Thread) -> None:
+    with _LIVE_LOCK:
+        _LIVE.pop(worker, None)
+
+
+@atexit.register
+def stop_workers(wait: float = EXIT_WAIT) -> None:
+    """Ask every running worker to stop, and wait for each to leave native code."""
+    with _LIVE_LOCK:
+        live = list(_LIVE.items())
+    for _, stop in live:
+        stop()
+    for worker, _ in live:
+        worker.join(wait)
 
 
 def _put(q: queue.Queue, item: Any, stop: threading.Event) -> bool:
@@ -45,7 +80,7 @@ class read_ahead(Iterator[T]):  # noqa: N801 - used as a function that starts wo
         self._done = False
         worker = threading.Thread(target=self._produce, args=(items,), name="read-ahead",
                                   daemon=True)  # fmt: skip
-        worker.start()
+        _started(worker, self._stop.set)
 
     def _produce(self, items: Iterable[T]) -> None:
         try:
@@ -55,11 +90,20 @@ class read_ahead(Iterator[T]):  # noqa: N801 - used as a function that starts wo
             _put(self._queue, (True, _END), self._stop)
         except BaseException as err:  # noqa: BLE001 - handed to the caller's thread
             _put(self._queue, (False, err), self._stop)
+        finally:
+            _ended(threading.current_thread())
 
     def __next__(self) -> T:
         if self._done:
             raise StopIteration
-        ok, item = self._queue.get()
+        while True:
+            try:
+                ok, item = self._queue.get(timeout=_WAIT)
+                break
+            except queue.Empty:
+                if self._stop.is_set():  # stopped at exit: its reader may be another worker
+                    self._done = True
+                    raise StopIteration from None
         if not ok or item is _END:
             self.close()
             if not ok:
@@ -86,19 +130,25 @@ class WriteBehind:
         self._stop = threading.Event()
         self._error: BaseException | None = None
         self._worker = threading.Thread(target=self._consume, name="write-behind", daemon=True)
-        self._worker.start()
+        _started(self._worker, self._stop.set)
 
     def _consume(self) -> None:
-        while True:
-            item = self._queue.get()
-            if item is _END:
-                return
-            try:
-                self._write(item)
-            except BaseException as err:  # noqa: BLE001 - handed to the caller's thread
-                self._error = err
-                self._stop.set()
-                return
+        try:
+            while not self._stop.is_set():
+                try:
+                    item = self._queue.get(timeout=_WAIT)
+                except queue.Empty:
+                    continue
+                if item is _END:
+                    return
+                try:
+                    self._write(item)
+                except BaseException as err:  # noqa: BLE001 - handed to the caller's thread
+                    self._error = err
+                    self._stop.set()
+                    return
+        finally:
+            _ended(threading.current_thread())
 
     def _raise(self) -> None:
         if self._error is not None:

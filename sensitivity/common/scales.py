@@ -21,6 +21,8 @@ from typing import Any
 
 import numpy as np
 
+from .errors import InputError
+
 
 @dataclass(frozen=True)
 class Scale:
@@ -189,6 +191,101 @@ def convert_by_route(
     return out if shape else out[()]
 
 
+def convert_to_rr(
+    scale: object,
+    values: object,
+    *,
+    outcome: object = None,
+    sd: object = None,
+    contrast: object = 1.0,
+) -> np.ndarray:
+    """`to_risk_ratio` without its checks, for code that has checked its rows already: a row
+    with no route (an unknown scale) or a missing value gives NaN, and a value outside a
+    scale's range gives what the formula gives."""
+    return convert_by_route(route_of(scale, outcome), values, sd, contrast, forward=True)
+
+
+def convert_from_rr(
+    scale: object, rr: object, *, outcome: object = None, sd: object = None, contrast: object = 1.0
+) -> np.ndarray:
+    """`from_risk_ratio` without its checks (see `convert_to_rr`)."""
+    return convert_by_route(route_of(scale, outcome), rr, sd, contrast, forward=False)
+
+
+def _check_conversion(
+    scale: object, values: object, name: str, outcome: object, sd: object, contrast: object,
+    forward: bool,
+) -> None:  # fmt: skip
+    """InputError for what the conversions cannot map (the library's promise: never NaN with
+    a warning from a public function). NaN in `values` marks a missing entry and gives NaN."""
+    from .checks import FINITE, require, require_numbers, show
+
+    codes = as_text(scale)
+    convertible = tuple(c for c in SCALES if c != "rd")
+    unknown = ~np.isin(codes, convertible)
+    if np.any(unknown):
+        raise InputError(
+            f"`scale` must be one of {', '.join(convertible)} (a risk difference needs its "
+            f"2 x 2 counts: see `evalue`); got {str(codes[unknown].flat[0])!r}",
+            "scale",
+        )
+    x = require_numbers(values, name)
+    shape = np.broadcast_shapes(codes.shape, x.shape, as_text(outcome).shape)
+    codes_b, x_b = np.broadcast_to(codes, shape), np.broadcast_to(x, shape)
+    present = ~np.isnan(x_b)
+    if np.any(np.isinf(x_b)):
+        raise InputError(
+            f"`{name}` must be a finite number; got {show(x_b[np.isinf(x_b)].flat[0])}", name
+        )
+    positive = np.isin(codes_b, RATIO_SCALES) if forward else np.ones(shape, bool)
+    bad = positive & present & ~(x_b > 0)
+    if np.any(bad):
+        what = "a ratio" if forward else "a risk ratio"
+        raise InputError(f"`{name}` must be positive ({what}); got {show(x_b[bad].flat[0])}", name)
+    needs_outcome = np.isin(codes_b, ("or", "hr"))
+    if np.any(needs_outcome):
+        freq = np.broadcast_to(as_text(outcome), shape)[needs_outcome]
+        wrong = ~np.isin(freq, OUTCOME_FREQUENCIES)
+        if np.any(wrong):
+            got = str(freq[wrong].flat[0])
+            raise InputError(
+                "`outcome` must be 'rare' or 'common' for an odds or hazard ratio (it decides "
+                f"the conversion); got {repr(got) if got else 'none'}",
+                "outcome",
+            )
+    if np.any(codes_b == "md"):
+        if sd is None:
+            raise InputError("`sd` (the outcome's SD) is needed to convert a mean difference", "sd")
+        sd_arr = require_numbers(sd, "sd")
+        full = np.broadcast_shapes(shape, sd_arr.shape)
+        sd_md = np.broadcast_to(sd_arr, full)[np.broadcast_to(codes_b, full) == "md"]
+        bad_sd = ~(np.isfinite(sd_md) & (sd_md > 0))
+        if np.any(bad_sd):
+            raise InputError(
+                f"`sd` must be a positive finite number for a mean difference; got "
+                f"{show(sd_md[bad_sd].flat[0])}",
+                "sd",
+            )
+    c = require(contrast, "contrast", FINITE)
+    if np.any(c == 0):
+        raise InputError("`contrast` must not be 0; got 0", "contrast")
+
+
+def _check_result(out: np.ndarray, values: object, name: str, positive: bool) -> np.ndarray:
+    """InputError when a finite input maps beyond double precision (exp(0.91 d) for d = 1000,
+    or 0 for d = -1000 where a risk ratio must be positive)."""
+    x = np.asarray(values, float)
+    with np.errstate(invalid="ignore"):
+        beyond = ~np.isfinite(out) | ((out == 0) if positive else False)
+        beyond &= np.broadcast_to(~np.isnan(x), np.shape(out))
+    if np.any(beyond):
+        raise InputError(
+            f"`{name}` maps beyond double precision on the risk-ratio scale (or back); got "
+            f"{float(np.broadcast_to(x, np.shape(out))[beyond].flat[0]):g}"
+        )
+    return out
+
+
 def to_risk_ratio(
     scale: object,
     values: object,
@@ -202,21 +299,30 @@ def to_risk_ratio(
     ``or`` rare: RR = OR; common: RR = sqrt(OR) (VanderWeele 2017).
     ``hr`` rare: RR = HR; common: RR = (1 - 0.5^sqrt(HR)) / (1 - 0.5^sqrt(1/HR))
     (VanderWeele 2020). ``smd``: RR = exp(0.91 d). ``md``: d = value * contrast / sd, then as
-    ``smd`` (VanderWeele & Ding 2017). Every argument may be per row.
+    ``smd`` (VanderWeele & Ding 2017). Every argument may be per row. A ratio must be
+    positive; an odds or hazard ratio needs `outcome` ('rare' or 'common'), a mean difference
+    a positive `sd`; NaN marks a missing entry and gives NaN; anything else raises InputError.
 
     Examples
     --------
     >>> to_risk_ratio(["rr", "or", "smd"], [2.0, 4.0, 0.0], outcome=["", "common", ""]).tolist()
     [2.0, 2.0, 1.0]
     """
-    return convert_by_route(route_of(scale, outcome), values, sd, contrast, forward=True)
+    _check_conversion(scale, values, "values", outcome, sd, contrast, forward=True)
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        out = convert_to_rr(scale, values, outcome=outcome, sd=sd, contrast=contrast)
+    return _check_result(out, values, "values", positive=True)
 
 
 def from_risk_ratio(
     scale: object, rr: object, *, outcome: object = None, sd: object = None, contrast: object = 1.0
 ) -> np.ndarray:
-    """Inverse of `to_risk_ratio`: a risk-ratio-scale value back on `scale`."""
-    return convert_by_route(route_of(scale, outcome), rr, sd, contrast, forward=False)
+    """Inverse of `to_risk_ratio`: a risk-ratio-scale value back on `scale` (`rr` positive;
+    the same checks)."""
+    _check_conversion(scale, rr, "rr", outcome, sd, contrast, forward=False)
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
+        out = convert_from_rr(scale, rr, outcome=outcome, sd=sd, contrast=contrast)
+    return _check_result(out, rr, "rr", positive=False)
 
 
 def conversion_text(scale: str, outcome: str | None = None, contrast: float = 1.0) -> str:

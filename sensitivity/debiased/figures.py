@@ -9,6 +9,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..output.figures import (
     figure_paths,
     filled_levels,
@@ -42,7 +43,7 @@ def contours(result: Any, path: str | Path | Sequence[str | Path], size: int = 2
     s = surface(result.moments, grid, grid, result.rho, result.alpha)
     side = 1.0 if result.estimate >= result.target else -1.0
     near, conf = ("bound_lower", "ci_lower") if side > 0 else ("bound_upper", "ci_upper")
-    level = f"{1 - result.alpha:.0%}"
+    level = level_text(alpha=result.alpha)
     goal = "zero" if result.target == 0 else f"{result.target:.3g}"
     fig, ax = new_figure()
     edge = "lower" if side > 0 else "upper"

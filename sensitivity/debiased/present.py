@@ -13,6 +13,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.report import ReportPart
@@ -35,7 +36,7 @@ def _num(r: DebiasedResult, x: float | None) -> str:
 
 
 def level(r: DebiasedResult) -> str:
-    return f"{1 - r.alpha:.0%}"
+    return level_text(alpha=r.alpha)
 
 
 def _goal(r: DebiasedResult) -> str:

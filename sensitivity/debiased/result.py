@@ -16,6 +16,7 @@ import numpy as np
 
 from ..common import notes as standing
 from ..common.errors import InputError
+from ..common.levels import level_text
 from ..common.results import Result, plain
 from . import core
 
@@ -325,9 +326,9 @@ class DebiasedFit:
         rva, reached = core.robustness_value_alpha(m, target, rho, alpha)
         if not reached:
             notes.append(
-                f"The one-sided {1 - alpha:.0%} confidence bound does not reach {target:g} for "
-                "any equal strength below 1 (S is estimated too imprecisely); the robustness "
-                "value with sampling error is reported as 1."
+                f"The one-sided {level_text(alpha=alpha)} confidence bound does not reach "
+                f"{target:g} for any equal strength below 1 (S is estimated too imprecisely); "
+                "the robustness value with sampling error is reported as 1."
             )
         from scipy.special import ndtri
 

@@ -14,7 +14,7 @@ from numpy.typing import ArrayLike
 
 from ..common.checks import AT_LEAST_ONE, require
 from ..common.errors import InputError
-from ..common.scales import from_risk_ratio
+from ..common.scales import convert_from_rr
 from .formulas import bounding_factor
 
 
@@ -53,14 +53,14 @@ def confounder_shift(
         nearest = np.where(above, lo, up)
         rr_lim = toward_target(nearest)
         reach_ci = np.where(above, rr_lim <= t, rr_lim >= t)
-        lim = from_risk_ratio(scale, rr_lim, **conversion)
+        lim = convert_from_rr(scale, rr_lim, **conversion)
     return {
         "rr_treatment": rr_t,
         "rr_outcome": rr_y,
         "bounding_factor": b,
         "rr": moved,
         "rr_ci_limit": rr_lim,
-        "estimate": from_risk_ratio(scale, moved, **conversion),
+        "estimate": convert_from_rr(scale, moved, **conversion),
         "ci_limit": lim,
         "explains_estimate": reach_est,
         "explains_ci": reach_ci,

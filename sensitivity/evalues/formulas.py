@@ -23,7 +23,8 @@ def evalue_of_rr(rr: object) -> np.ndarray:
     Parameters
     ----------
     rr : array_like
-        Risk ratio(s), positive. A ratio below 1 is inverted first.
+        Risk ratio(s), positive. A ratio below 1 is inverted first. NaN marks a missing entry
+        (a batch's row) and gives NaN; anything else not positive raises InputError.
 
     Returns
     -------
@@ -65,6 +66,47 @@ def evalue_of_interval(lower: object, upper: object, target: object = 1.0) -> np
     1.0
     """
     lower, upper, target = np.broadcast_arrays(
+        *(
+            require_numbers(a, n)
+            for a, n in ((lower, "lower"), (upper, "upper"), (target, "target"))
+        )
+    )
+    for name, values in (("lower", lower), ("upper", upper), ("target", target)):
+        bad = ~(values > 0) & ~np.isnan(values)  # NaN marks a missing entry: NaN out
+        if name == "target":  # a limit may be infinite (beyond double on the RR scale)
+            bad |= np.isinf(values)
+        if np.any(bad):
+            raise InputError(
+                f"`{name}` must be a positive{' finite' if name == 'target' else ''} risk ratio; "
+                f"got {show(values[bad].flat[0])}",
+                name,
+            )
+    disorder = lower > upper
+    if np.any(disorder):
+        i = np.flatnonzero(disorder)[0]
+        raise InputError(
+            f"`lower` must not exceed `upper`; got {show(lower.flat[i])} > {show(upper.flat[i])}",
+            ("lower", "upper"),
+        )
+    nearest = np.where(lower > target, lower, np.where(upper < target, upper, target))
+    nearest = np.where(np.isnan(lower) | np.isnan(upper), np.nan, nearest)  # a limit missing
+    with np.errstate(over="ignore", under="ignore"):
+        ratio = nearest / target
+    beyond = np.isinf(ratio) & np.isfinite(nearest)
+    if np.any(beyond):
+        raise InputError(
+            "`target` is so far from the interval that their ratio is beyond double precision; "
+            f"got {show(np.broadcast_to(target, ratio.shape)[beyond].flat[0])}",
+            "target",
+        )
+    return evalue_of_rr(ratio)
+
+
+def evalue_of_limits(lower: np.ndarray, upper: np.ndarray, target: object = 1.0) -> np.ndarray:
+    """`evalue_of_interval` without its checks, for rows already checked (the screen and
+    `evalue_rows`, where the checks cost a third of the call on a million rows): positive
+    limits in order; a row with no interval is masked by the caller."""
+    lower, upper, target = np.broadcast_arrays(
         *(np.asarray(a, float) for a in (lower, upper, target))
     )
     nearest = np.where(lower > target, lower, np.where(upper < target, upper, target))
@@ -101,6 +143,16 @@ def bounding_factor(rr_treatment: object, rr_outcome: object) -> np.ndarray:
     >>> round(float(bounding_factor(7.26, 7.26)), 2)  # B(E, E) = RR
     3.9
     """
-    a = np.asarray(rr_treatment, dtype=float)
-    b = np.asarray(rr_outcome, dtype=float)
+    a = require_numbers(rr_treatment, "rr_treatment")
+    b = require_numbers(rr_outcome, "rr_outcome")
+    for name, values in (("rr_treatment", a), ("rr_outcome", b)):
+        bad = ~(values >= 1) & ~np.isnan(values)  # NaN marks a missing entry: NaN out
+        if np.any(bad):
+            raise InputError(
+                f"`{name}` must be at least 1 (the larger of a risk ratio and its inverse); "
+                f"got {show(values[bad].flat[0])}"
+            )
+    if np.isinf(a).any():  # the limit as rr_treatment grows: B -> rr_outcome (no inf/inf)
+        with np.errstate(invalid="ignore"):
+            return np.where(np.isinf(a), b, a / (1 + (a - 1) / b))
     return a / (1 + (a - 1) / b)

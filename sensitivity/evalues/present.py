@@ -64,10 +64,10 @@ def estimate_table(result: EValueResult) -> Table:
         lower_nearer = rec["rr"] >= rec["rr_target"]
         observed = rec["ci_lower"] if lower_nearer else rec["ci_upper"]
         if observed is None:  # interval from `se`: show its limit on the observed scale
-            from ..common.scales import from_risk_ratio
+            from ..common.scales import convert_from_rr
 
             observed = float(
-                from_risk_ratio(
+                convert_from_rr(
                     rec["scale"],
                     lo_rr if lower_nearer else up_rr,
                     outcome=rec["outcome"],
@@ -155,10 +155,11 @@ def sentence(result: EValueResult) -> str | None:
     goal = _goal(result)
     aim = "explain the estimate away" if result.target_is_null else f"move the estimate to {goal}"
     e, e_ci = number(r["evalue"]), r["evalue_ci"]
-    text = (
-        f"For the observed {name} of {observed_value(r['estimate'])}{said}, the E-value is "
-        f"{e}: {strength_clause(e, aim)}"
-    )
+    text = f"For the observed {name} of {observed_value(r['estimate'])}{said}, the E-value is "
+    if pairs_table(result) is None:  # the estimate is at the goal: nothing to explain away
+        text += f"1: the estimate already equals {goal}, so no confounding is needed to reach it."
+    else:
+        text += f"{e}: {strength_clause(e, aim)}"
     if e_ci is None:
         return text
     if e_ci <= 1:
@@ -166,14 +167,15 @@ def sentence(result: EValueResult) -> str | None:
     return text + " " + interval_clause(number(e_ci), level, goal)
 
 
-def strength_clause(e: str, aim: str) -> str:
+def strength_clause(e: str, aim: str, pairs: bool = True) -> str:
     """What an E-value says, in the project's words: the least equal strength of the two
-    risk ratios, a necessary condition ("could"), and where the unequal pairs are."""
+    risk ratios, a necessary condition ("could"), and where the unequal pairs are (`pairs`:
+    only where the view has a table of them; a risk difference's has none)."""
+    where = " (unequal pairs that could are in the accompanying table and figure)" if pairs else ""
     return (
         f"a hidden confounder with equal risk ratios with the treatment and with the outcome "
         f"(once the measured covariates are accounted for) could {aim} only if both were {e} "
-        f"or more, and none with both below {e} could (unequal pairs that could are in the "
-        f"accompanying table and figure)."
+        f"or more, and none with both below {e} could{where}."
     )
 
 
@@ -321,11 +323,13 @@ def rd_document(r: Any) -> Document:
         f"For the observed risk difference of {r.estimate:.4f} ({level} {r.ci[0]:.4f} to "
         f"{r.ci[1]:.4f}), "
     )
-    if np.isfinite(r.evalue):
+    if r.evalue == 1:  # no difference to explain away
+        lead = observed + "the E-value is 1: the risks are equal, so no confounding is needed."
+    elif np.isfinite(r.evalue):
         lead = (
             observed
             + f"the E-value for the whole population is {e}: "
-            + strength_clause(e, "explain it away")
+            + strength_clause(e, "explain it away", pairs=False)
         )
     else:
         # no cases in the group with the lower risk: the bound stays above 0 for every finite
@@ -357,8 +361,8 @@ def reading(read: dict, scale: str, level: float) -> str:
     named = name if read["scale"] else f"{name} (not named in the text: from --scale)"
     interval = "no interval"
     if read["lower"] is not None:
-        said = f"{read['level']:.0%} CI" if read["level"] is not None else (
-            f"interval, level not named (taken as {level:.0%})"
+        said = f"{level_text(read['level'])} CI" if read["level"] is not None else (
+            f"interval, level not named (taken as {level_text(level)})"
         )  # fmt: skip
         interval = f"{said} {read['lower']:g} to {read['upper']:g}"
     return f"Read from {read['text']!r}: {named}; estimate {read['estimate']:g}; {interval}."

@@ -8,7 +8,7 @@ from functools import partial
 from typing import Any
 
 from ..common.notes import REFERENCES
-from ..common.scales import SCALES, from_risk_ratio
+from ..common.scales import SCALES, convert_from_rr
 from ..output.document import Figure
 from ..output.report import ReportPart
 from ..output.tables import Table, number
@@ -31,7 +31,7 @@ def _interval(result: Any) -> tuple[float, float] | None:
     contrast = float(result.contrast)
     back = [
         float(
-            from_risk_ratio(
+            convert_from_rr(
                 str(result.scale), float(v), outcome=result.outcome, sd=result.sd, contrast=contrast
             )
         )  # fmt: skip

@@ -13,7 +13,7 @@ from numpy.typing import ArrayLike
 
 from ..common.checks import require_scalar
 from ..common.errors import InputError
-from ..common.levels import check_level
+from ..common.levels import check_level, level_text
 from .formulas import evalue_of_rr
 from .result import RiskDifferenceResult
 
@@ -132,12 +132,21 @@ def evalue_rd(counts: tuple[int, int, int, int], *, ci_level: float = 0.95) -> R
     out = evalue_of_risk_difference(a, n1, c, n0, alpha=1 - level)
     p1, p0 = a / n1, c / n0
     half = float(-ndtri((1 - level) / 2)) * np.sqrt(p1 * (1 - p1) / n1 + p0 * (1 - p0) / n0)
-    notes = (
+    notes: tuple[str, ...] = (
         "E-value of the risk difference in the whole population from the 2 x 2 counts: B* "
         "brings the bound (p1 - p0 B) f + (p1/B - p0)(1 - f) to 0, E = B* + sqrt(B* (B* - 1)) "
         "(Ding & VanderWeele 2016); the interval's from the bound's lower confidence limit "
         "(delta method, the share treated fixed).",
     )
+    edge = [name for name, k, n in (("treated", a, n1), ("controls", c, n0)) if k in (0, n)]
+    if edge:
+        # a proportion of 0 or 1 has Wald variance 0: the interval is narrower than the data
+        # allow (common practice: a score or exact interval is wider; not computed here)
+        notes += (
+            f"Among the {' and the '.join(edge)} the risk is 0 or 1, whose Wald variance is 0: "
+            f"the {level_text(level)} CI and the E-value of the bound's limit understate the "
+            "uncertainty (an exact or score interval would be wider).",
+        )
     return RiskDifferenceResult(
         counts=(int(a), int(n1), int(c), int(n0)), estimate=p1 - p0,
         ci=(p1 - p0 - half, p1 - p0 + half), ci_level=level,

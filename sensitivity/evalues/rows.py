@@ -32,12 +32,12 @@ from ..common.scales import (
     SMD_INTERVAL,
     SMD_SLOPE,
     as_text,
+    convert_to_rr,
     frequency_of_prevalence,
     is_ratio,
     null_of,
-    to_risk_ratio,
 )
-from .formulas import evalue_of_interval, evalue_of_rr
+from .formulas import evalue_of_limits, evalue_of_rr
 
 #: Scales `evalue` takes (rd needs the 2 x 2 counts and has its own route).
 EVALUE_SCALES = ("rr", "or", "hr", "smd", "md")
@@ -167,7 +167,7 @@ def compute(
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         # one pass over the routes for all four (each row's map decided once)
         stacked = np.stack(np.broadcast_arrays(estimate, target, lower, upper))
-        rr, rr_target, rr_lower, rr_upper = to_risk_ratio(
+        rr, rr_target, rr_lower, rr_upper = convert_to_rr(
             scale, stacked, outcome=outcome, sd=sd, contrast=contrast
         )
         # An interval from `se` (smd, md): exp(0.91 d -/+ 1.78 se_d) (VanderWeele & Ding 2017).
@@ -179,7 +179,7 @@ def compute(
             rr_lower = np.where(from_se, np.exp(SMD_SLOPE * d - SMD_INTERVAL * se_d), rr_lower)
             rr_upper = np.where(from_se, np.exp(SMD_SLOPE * d + SMD_INTERVAL * se_d), rr_upper)
         e = evalue_of_rr(rr / rr_target)
-        e_ci = np.where(given(rr_lower), evalue_of_interval(rr_lower, rr_upper, rr_target), np.nan)
+        e_ci = np.where(given(rr_lower), evalue_of_limits(rr_lower, rr_upper, rr_target), np.nan)
     return {
         "rr": rr,
         "rr_lower": rr_lower,

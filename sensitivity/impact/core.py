@@ -29,7 +29,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..common import levels
-from ..common.checks import POSITIVE, require_scalar
+from ..common.checks import AT_LEAST_ONE, POSITIVE, require_scalar
 from ..common.errors import InputError
 from .result import ImpactResult
 
@@ -114,7 +114,7 @@ def impact_threshold(
                 "covariates",
             )
         dof = float(n - covariates - 2)
-    dof = float(require_scalar(dof, "dof", POSITIVE))
+    dof = float(require_scalar(dof, "dof", AT_LEAST_ONE))  # a regression has a residual df
     t_crit = float(levels.t_critical(alpha, dof))
     if not np.isfinite(t_crit):
         raise InputError(

@@ -6,16 +6,16 @@ from typing import Any
 
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
-from ..output.tables import Table, number, percent
+from ..output.tables import Table, count, number, percent
 from .result import ImpactResult
 
 
 def _dof(r: ImpactResult) -> str:
-    return "as given" if r.n is None else f"n - covariates - 2 = {r.dof:,.0f}"
+    return "as given" if r.n is None else f"n - covariates - 2 = {count(r.dof)}"
 
 
 def _regression(r: ImpactResult) -> str:
-    return f"t = {r.t:.2f} on {r.dof:,.0f} residual degrees of freedom"
+    return f"t = {_t(r.t)} on {count(r.dof)} residual degrees of freedom"
 
 
 def table(r: ImpactResult) -> Table:
@@ -44,9 +44,9 @@ def table(r: ImpactResult) -> Table:
     return Table(
         ("From the regression", "Value"),
         tuple(rows),
-        title=f"What it would take to {change} significance (t = {_t(r.t)}, {r.dof:,.0f} df)",
+        title=f"What it would take to {change} significance (t = {_t(r.t)}, {count(r.dof)} df)",
         footnotes=(
-            f"Degrees of freedom: {_dof(r)}; two-sided critical t {r.t_critical:.3f}. "
+            f"Degrees of freedom: {_dof(r)}; two-sided critical t {number(r.t_critical, 3)}. "
             "Correlations are partial on the model's covariates.",
         ),
     )

@@ -114,7 +114,7 @@ def document(r: MatchedResult) -> Document:
         pairs = "1 pair" if r.missing == 1 else f"{r.missing} pairs"
         notes.append(f"{pairs} with a missing value left out (listed on stderr by the command).")
     blocks: tuple[Block, ...] = (
-        prose(heading(r)),
+        prose(heading(r), role="key"),  # in Markdown and LaTeX tables: their first footnote
         table(r),
         prose(lead, role="sentence"),
         other_table(r),

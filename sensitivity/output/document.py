@@ -13,7 +13,7 @@ from __future__ import annotations
 import base64
 import html
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -26,6 +26,9 @@ class Prose:
 
     ``role="sentence"`` marks paste-ready sentences for a manuscript: every view shows them,
     and the machine formats carry them too (JSON `sentences`, stderr beside CSV or tables).
+    ``role="key"`` marks what the next table cannot be read without (a definition of its
+    terms): the full views show it as prose above the table, and a view of the tables only
+    (Markdown and LaTeX on stdout) gives it as the table's first footnote.
     """
 
     lines: tuple[str, ...]
@@ -87,6 +90,18 @@ class Document:
     def tables(self) -> list[Table]:
         return [b for b in self.blocks if isinstance(b, Table)]
 
+    def tables_with_keys(self) -> list[Table]:
+        """The tables, each with the `key` prose just before it as its first footnotes."""
+        out: list[Table] = []
+        key: tuple[str, ...] = ()
+        for b in self.blocks:
+            if isinstance(b, Prose) and b.role == "key":
+                key += b.lines
+            elif isinstance(b, Table):
+                out.append(replace(b, footnotes=(*key, *b.footnotes)) if key else b)
+                key = ()
+        return out
+
     @property
     def sentences(self) -> list[str]:
         """Every paste-ready sentence, in reading order."""
@@ -107,7 +122,7 @@ class Document:
         """The document as text, markdown, latex or html (`tables_only`: just the tables;
         `embed`: HTML images inline as data, so the page is one self-contained file)."""
         blocks: list[Any] = (
-            list(self.tables) if tables_only else [b for b in self.blocks if _nonempty(b)]
+            self.tables_with_keys() if tables_only else [b for b in self.blocks if _nonempty(b)]
         )
         if self.references and not tables_only:
             blocks.append(Bullets("References", self.references))

@@ -16,6 +16,7 @@ fonts: TrueType in PDF (fonttype 42), glyphs as paths in SVG.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
@@ -44,14 +45,32 @@ Mark = tuple[float, float]
 
 
 def plot_label(text: str, limit: int = 60) -> str:
-    """A user's label as a figure can show it: one line, no control characters, no
-    character the figure's font lacks (an emoji), and at most `limit` characters (a label of
-    100,000 characters would take matplotlib seconds to lay out and fill the page)."""
+    """A user's label as a figure can show it, exactly as text: one line, no control
+    characters, at most `limit` characters (a label of 100,000 characters would take
+    matplotlib seconds to lay out and fill the page), every character one the figure's font
+    has (an emoji or a CJK character would be a missing-glyph warning and an empty box: it
+    becomes U+FFFD), and every dollar sign escaped (matplotlib reads the text between two
+    as mathematics: "$5 to $10" lost its dollars, and "$\\frac{$" stopped the command)."""
     from .tables import safe_text
 
-    kept = "".join(ch for ch in safe_text(str(text)) if ord(ch) <= 0xFFFF)
-    kept = " ".join(kept.split())
-    return kept if len(kept) <= limit else kept[: limit - 1].rstrip() + "…"
+    kept = " ".join(safe_text(str(text)).split())
+    if len(kept) > limit:
+        kept = kept[: limit - 1].rstrip() + "…"
+    has = _glyphs()
+    kept = "".join(ch if ord(ch) in has else _MISSING for ch in kept)
+    return kept.replace("$", r"\$")
+
+
+_MISSING = "\ufffd"
+
+
+@functools.lru_cache(maxsize=1)
+def _glyphs() -> frozenset[int]:
+    """The code points the figures' font draws (its character map)."""
+    from matplotlib import font_manager
+
+    path = font_manager.findfont(font_manager.FontProperties(family=str(STYLE["font.family"])))
+    return frozenset(font_manager.get_font(path).get_charmap())
 
 
 def check_plot_path(path: str | Path, argument: str = "plot") -> Path:

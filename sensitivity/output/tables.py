@@ -53,13 +53,31 @@ def number(value: float | np.ndarray | None, digits: int = 2) -> str:
 
 def percent(value: float | np.ndarray | None, digits: int = 1) -> str:
     """A share as a percentage; below 1% three significant digits keep its meaning (0.133%,
-    not 0.1%)."""
+    not 0.1%); from a million percent up, three significant digits in scientific form (a
+    share of 3e300 is not printed as three hundred digits)."""
     if value is None or math.isnan(float(value)):
         return "-"
     pct = 100 * float(value)
-    if 0 < abs(pct) < 1:
+    if math.isinf(pct) and math.isfinite(float(value)):  # 100 x 1e307 is beyond a double
+        from decimal import Decimal
+
+        mantissa, power = format(Decimal(repr(float(value))) * 100, ".3g").lower().split("e")
+        return f"{mantissa.rstrip('0').rstrip('.')}e{power}%"
+    if 0 < abs(pct) < 1 or abs(pct) >= 1e6:
         return f"{pct:.3g}%"
     return f"{pct:.{digits}f}%"
+
+
+def count(value: float | int) -> str:
+    """A count such as degrees of freedom: whole numbers with thousands separators (1,192),
+    a fraction kept (1,192.5), and from 1e15 up (where a double no longer holds every whole
+    number) three significant digits (1e+300), never three hundred digits."""
+    value = float(value)
+    if not math.isfinite(value) or abs(value) >= 1e15:
+        return f"{value:.3g}"
+    if value == int(value):
+        return f"{value:,.0f}"
+    return f"{value:,.6g}" if abs(value) < 1e5 else f"{value:,.1f}"
 
 
 WIDTH = 92
@@ -139,7 +157,7 @@ def markdown_cell(text: str) -> str:
     import re
 
     out = safe_text(text)
-    for ch in "\\`*_[]|":
+    for ch in "\\`*_[]|$~":  # $ opens mathematics and ~ strikes out in common renderers
         out = out.replace(ch, "\\" + ch)
     out = re.sub(r"&(?=#?\w+;)", "&amp;", out)
     return re.sub(r"<(?=[A-Za-z/!?])", "&lt;", out)

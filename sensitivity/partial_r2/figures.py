@@ -23,6 +23,7 @@ from ..output.figures import (
     save_figure,
     tip_line,
 )
+from ..output.tables import number
 
 #: Scenarios farther out than this many times the region where the conclusion changes do not
 #: widen the default axes (they would squeeze that region into a corner): they are drawn on
@@ -100,7 +101,7 @@ def partial_r2_contours(
     fig, axes = plt.subplots(1, 2, figsize=(12.4, 6.0), layout="constrained", sharey=True)
     panels = (
         (s["estimate"], "Bias-adjusted estimate", target, f"estimate {result.estimate:.3g}"),
-        (s["t"], "Bias-adjusted t value", 0.0, f"t = {result.t:.2f}"),
+        (s["t"], "Bias-adjusted t value", 0.0, f"t = {number(result.t, 2)}"),
     )
     distance = sign * (s["estimate"] - target)
     handles: list = []

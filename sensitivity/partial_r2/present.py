@@ -16,7 +16,7 @@ from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.report import ReportPart
-from ..output.tables import Table, number, percent
+from ..output.tables import Table, count, number, percent
 from .core import t_critical
 from .figures import partial_r2_contours
 from .result import CovariateStrength, PartialR2Result, Scenario, covariate_name
@@ -87,7 +87,7 @@ def header(r: PartialR2Result) -> str:
     n = f"; n = {r.n:,}" if r.n is not None else ""
     return (
         f"{who}{on}: {_num(r, r.estimate)} (se {_num(r, r.se)}), t = {number(r.t, 2)} on "
-        f"{r.dof:,.0f} residual degrees of freedom{n}."
+        f"{count(r.dof)} residual degrees of freedom{n}."
     )
 
 
@@ -109,7 +109,7 @@ def table(r: PartialR2Result) -> Table:
         rows.append(
             (
                 f"E-value alongside ({_per(e.contrast).strip() or 'per unit'}; estimate / "
-                f"{e.ci_level:.0%} CI)",
+                f"{level_text(e.ci_level)} CI)",
                 f"{number(e.evalue)} / {number(e.evalue_ci)}",
             )
         )
@@ -282,7 +282,7 @@ def supplement_table(items: Sequence[tuple[str, PartialR2Result]]) -> Table:
         half = float(t_critical(r.alpha, r.dof)) * r.se
         lo, up = r.estimate - half, r.estimate + half
         rows.append((label, f"{_num(r, r.estimate)} ({_level(r)} CI {_num(r, lo)} to "
-                     f"{_num(r, up)})", f"{r.t:.2f}", f"{r.dof:,}", percent(r.partial_r2),
+                     f"{_num(r, up)})", number(r.t, 2), count(r.dof), percent(r.partial_r2),
                      percent(r.robustness_value), percent(r.robustness_value_alpha)))  # fmt: skip
     return Table(
         (

@@ -4,7 +4,7 @@ Most published results are plain: a risk, odds or hazard ratio with its interval
 odds or hazard ratio, whether the outcome is rare or common. For those rows the only work is
 a conversion and two E-values, so polars decides each row's route from the raw cells (no
 trimming, no Python strings) and numpy computes the numbers with the very functions the
-screen's core calls (`convert_by_route`, `evalue_of_rr`, `evalue_of_interval`), so a plain
+screen's core calls (`convert_by_route`, `evalue_of_rr`, `evalue_of_limits`), so a plain
 row's numbers are those of `screen_columns` bit for bit.
 
 Every other row (any cell the core would trim, read or question: blanks where a value is
@@ -20,7 +20,7 @@ import numpy as np
 
 from ..common.checks import given
 from ..common.scales import convert_by_route
-from ..evalues.core import evalue_of_interval, evalue_of_rr
+from ..evalues.formulas import evalue_of_limits, evalue_of_rr
 from .core import COUNTS, NOTE_COMMON_HR, NOTE_COMMON_OR, NUMERIC, SCREEN_SCALES
 
 #: Scales a plain row may have, numbered as in SCREEN_SCALES.
@@ -117,5 +117,5 @@ def compute_plain(route: np.ndarray, values: np.ndarray) -> dict[str, np.ndarray
             "rr_lower": rr_lower,
             "rr_upper": rr_upper,
             "evalue": evalue_of_rr(rr),
-            "evalue_ci": np.where(given(rr_lower), evalue_of_interval(rr_lower, rr_upper), np.nan),
+            "evalue_ci": np.where(given(rr_lower), evalue_of_limits(rr_lower, rr_upper), np.nan),
         }

@@ -28,9 +28,12 @@ import numpy as np
 from ..common.checks import POSITIVE, require_scalar
 from ..common.errors import InputError
 from ..common.levels import check_level, z_critical
-from ..common.scales import RATIO_SCALES, from_risk_ratio, to_risk_ratio
+from ..common.scales import RATIO_SCALES, convert_from_rr, convert_to_rr
 from .result import SimulationResult
 
+#: The fewest draws that give each tail of a 95% percentile interval a draw beyond it
+#: (0.025 x 40 = 1); the default is 100,000.
+LEAST_DRAWS = 40
 KINDS = {"fixed": 1, "uniform": 2, "triangular": 3, "trapezoidal": 4, "beta": 2, "lognormal": 2}
 
 
@@ -168,9 +171,18 @@ def simulate(
         raise InputError("`ci` is needed: the total-error interval draws from it", "ci")
     freq = check_frequency(scale, outcome)
     level = check_level(ci_level)
-    n = int(require_scalar(draws, "draws", POSITIVE))
+    given = require_scalar(draws, "draws", POSITIVE)
+    if given != int(given):
+        raise InputError(f"`draws` must be a whole number; got {given:g}", "draws")
+    n = int(given)
     if n > 20_000_000:
         raise InputError(f"`draws` must be at most 20,000,000; got {n:,}", "draws")
+    if n < LEAST_DRAWS:
+        raise InputError(
+            f"`draws` must be at least {LEAST_DRAWS}: the 95% intervals are the 2.5th and "
+            f"97.5th percentiles, and each tail needs a draw beyond it; got {n:,}",
+            "draws",
+        )
     rho = float(require_scalar(correlation, "correlation"))
     if not -1 < rho < 1:
         raise InputError(
@@ -217,14 +229,14 @@ def simulate(
     with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
         if ratio:
             conv = {"outcome": freq}
-            obs = float(to_risk_ratio(scale, est, **conv))
-            lo, up = (float(to_risk_ratio(scale, v, **conv)) for v in pair)
+            obs = float(convert_to_rr(scale, est, **conv))
+            lo, up = (float(convert_to_rr(scale, v, **conv)) for v in pair)
             se = (np.log(up) - np.log(lo)) / (2 * crit)
             bias = (1 + (g - 1) * p1) / (1 + (g - 1) * p0)
             systematic_rr = np.exp(np.log(obs) - np.log(bias))
             total_rr = np.exp(np.log(systematic_rr) - z_random * se)
-            systematic = from_risk_ratio(scale, systematic_rr, **conv)
-            total = from_risk_ratio(scale, total_rr, **conv)
+            systematic = convert_from_rr(scale, systematic_rr, **conv)
+            total = convert_from_rr(scale, total_rr, **conv)
         else:
             se = (pair[1] - pair[0]) / (2 * crit)
             systematic = est - g * (p1 - p0)
@@ -236,8 +248,11 @@ def simulate(
                 "`outcome_effect` prior is too extreme for this scale",
                 ("ci", "outcome_effect"),
             )
-    if systematic.size == 0:
-        raise InputError("every draw was impossible (a prevalence outside [0, 1]); check priors")
+    if systematic.size < LEAST_DRAWS:
+        raise InputError(
+            f"{discarded:,} of {n:,} draws were impossible (a prevalence outside [0, 1]): "
+            f"fewer than {LEAST_DRAWS} are left for the 95% intervals; check the priors"
+        )
     side = 1 if est >= tgt else -1
     beyond = float(np.mean(side * (systematic - tgt) <= 0))
     beyond_total = float(np.mean(side * (total - tgt) <= 0))

@@ -24,8 +24,8 @@ def caption(r: StabilityResult) -> str:
     return (
         f"Inputs: treatment coefficient {number(r.estimate_short, 4)} without the controls "
         f"(R² {number(r.r2_short, 3)}), {number(r.estimate_long, 4)} with them (R² "
-        f"{number(r.r2_long, 3)}); R-max {number(r.r2_max, 3)}; delta {r.delta:g}; target "
-        f"{r.target:g}; variances {variances}."
+        f"{number(r.r2_long, 3)}); R-max {number(r.r2_max, 3)}; delta {_given(r.delta)}; target "
+        f"{_given(r.target)}; variances {variances}."
     )
 
 
@@ -52,17 +52,26 @@ def table(r: StabilityResult) -> Table:
             if d == r.delta and m == r.r2_max:
                 text = f"[{text}]"
             cells.append(text)
-        rows.append((f"{d:g}", *cells))
+        rows.append((_given(d), *cells))
     kind = "exact root nearest the estimate with the controls" if exact else "approximation"
     foot = [
-        f"Cells: the bias-adjusted coefficient ({kind}); [ ]: delta {r.delta:g} at R-max "
+        f"Cells: the bias-adjusted coefficient ({kind}); [ ]: delta {_given(r.delta)} at R-max "
         f"{number(r.r2_max, 3)}, the values asked for.",
     ]
-    d_exact = "-" if r.delta_for_target is None else number(r.delta_for_target, 3)
+    d_approx = r.delta_for_target_approx
+    if not np.isfinite(d_approx):
+        approx = "none" if r.estimate_short == r.estimate_long else "beyond double precision"
+    else:
+        approx = number(d_approx, 3)
+    if r.variances is None:
+        found = f"{approx} approximate (the exact value needs the three variances)"
+    else:
+        exact_d = "none" if r.delta_for_target is None else number(r.delta_for_target, 3)
+        found = f"{exact_d} exact, {approx} approximate"
     foot.append(
-        f"Delta that brings the coefficient to {r.target:g} at R-max {number(r.r2_max, 3)}: "
-        f"{d_exact} exact, {number(r.delta_for_target_approx, 3)} approximate. At delta "
-        f"{r.delta:g} and that R-max the approximation gives {number(r.bias_adjusted_approx, 4)}."
+        f"Delta that brings the coefficient to {_given(r.target)} at R-max "
+        f"{number(r.r2_max, 3)}: {found}. At delta {_given(r.delta)} and that R-max the "
+        f"approximation gives {number(r.bias_adjusted_approx, 4)}."
     )
     return Table(
         ("delta \\ R-max", *(number(m, 3) for m in maxes)),
@@ -78,25 +87,51 @@ def root_note(r: StabilityResult) -> str | None:
     if len(roots) < 2:
         return None
     return (
-        f"Other real roots at delta {r.delta:g} (bias-adjusted coefficients): "
+        f"Other real roots at delta {_given(r.delta)} (bias-adjusted coefficients): "
         + ", ".join(number(x, 4) for x in roots[1:])
         + "."
     )
 
 
-def sentence(r: StabilityResult) -> str:
-    exact = r.delta_for_target is not None
-    d = float(r.delta_for_target if r.delta_for_target is not None else r.delta_for_target_approx)
+def _given(x: float) -> str:
+    """A value the user chose (delta, target) as given: 1.000001 is not shown as 1."""
+    return f"{float(x):.12g}"
+
+
+def _delta_words(r: StabilityResult) -> str:
+    """The delta that brings the coefficient to the target, in words; where none does (the
+    coefficient does not move with the controls, or the cubic has no such root) or the
+    value is beyond double precision, say so instead of printing inf (issue 19)."""
+    exact = r.variances is not None
+    d = r.delta_for_target if exact else r.delta_for_target_approx
+    lead = f"With R-max {number(r.r2_max, 3)}, "
+    if d is None or not np.isfinite(d):
+        target = _given(r.target)
+        if exact:
+            why = "the exact solution has none under these inputs"
+        elif r.estimate_short == r.estimate_long:
+            why = "the coefficient does not move when the controls are added"
+        else:
+            return (
+                f"{lead}the approximate delta that would bring the coefficient to {target} "
+                "lies beyond double precision"
+            )
+        return f"{lead}no delta brings the coefficient to {target} ({why})"
     kind = "" if exact else " (approximate; give the three variances for the exact value)"
     text = (
-        f"With R-max {number(r.r2_max, 3)}, the unobserved controls would have to be "
-        f"{number(abs(d), 2)} times as strongly related to the treatment as the observed ones "
-        f"(delta) to bring the coefficient to {r.target:g}{kind}"
+        f"{lead}the unobserved controls would have to be {number(abs(d), 2)} times as strongly "
+        f"related to the treatment as the observed ones (delta) to bring the coefficient to "
+        f"{_given(r.target)}{kind}"
     )
-    if d is not None and d < 0:
+    if d < 0:
         text += "; a negative delta means selection in the opposite direction"
+    return text
+
+
+def sentence(r: StabilityResult) -> str:
+    text = _delta_words(r)
     value = r.bias_adjusted if r.bias_adjusted is not None else r.bias_adjusted_approx
-    text += f". At delta {r.delta:g} the bias-adjusted coefficient is {number(value, 4)}"
+    text += f". At delta {_given(r.delta)} the bias-adjusted coefficient is {number(value, 4)}"
     if r.complex_nearer is not None:
         text += (
             " (a root far from the long estimate: the two roots nearest it are complex at "

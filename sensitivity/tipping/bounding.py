@@ -12,7 +12,7 @@ from numpy.typing import ArrayLike
 from ..common.checks import AT_LEAST_ONE
 from ..common.errors import InputError
 from ..common.levels import check_level
-from ..common.scales import RATIO_SCALES, from_risk_ratio
+from ..common.scales import RATIO_SCALES, convert_from_rr
 from .exact import Condition, monotone_set, reaches
 from .grid import grid_axes, shifted_cells, side_of, with_exact
 from .ranges import default_ranges
@@ -72,7 +72,7 @@ def bounding_grid(
         rr_ci,
         t,
         lambda v: moved(v, B),
-        lambda v: from_risk_ratio(scale, v, **back),
+        lambda v: convert_from_rr(scale, v, **back),
         first={"bounding_factor": B},
     )
     slack = shifted["slack"]

@@ -31,7 +31,7 @@ from numpy.typing import ArrayLike
 
 from ..common.checks import POSITIVE, PROBABILITY
 from ..common.levels import check_level
-from ..common.scales import RATIO_SCALES, conversion_text, from_risk_ratio, to_risk_ratio
+from ..common.scales import RATIO_SCALES, conversion_text, convert_from_rr, convert_to_rr
 from .bounding import bounding_grid
 from .exact import (
     ALWAYS,
@@ -207,10 +207,10 @@ def _on_risk_ratio(
     conv = {"outcome": outcome}
 
     def on_rr(v: float) -> float:
-        return float(to_risk_ratio(scale, v, **conv)) if ratio else v
+        return float(convert_to_rr(scale, v, **conv)) if ratio else v
 
     def back(v: np.ndarray) -> np.ndarray:
-        return from_risk_ratio(scale, v, **conv) if ratio else v
+        return convert_from_rr(scale, v, **conv) if ratio else v
 
     return on_rr, back
 

@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.levels import level_text
 from ..output.figures import figure_paths, legend_below, new_figure, save_figure
 
 COLOURS = {"sharp": "#5e3c99", "percentile": "#e66101"}  # the ends of the diverging fill
@@ -25,7 +26,7 @@ def draw(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
     out = figure_paths(paths)
     fig, ax = new_figure(figsize=(6.4, 4.8))
     lam = np.asarray(result.lam, float)
-    level = f"{result.ci_level:.0%}"
+    level = level_text(result.ci_level)
     handles = []
     for method, alpha in (("percentile", 0.18), ("sharp", 0.32)):
         if method not in result.methods:

@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from typing import Any
 
+from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.tables import Table, number
@@ -24,7 +25,7 @@ def effect_name(r: WeightingResult) -> str:
 
 
 def _level(r: WeightingResult) -> str:
-    return f"{r.ci_level:.0%}"
+    return level_text(r.ci_level)
 
 
 def _span(a: float | None, b: float | None) -> str:
