@@ -87,11 +87,34 @@ def figure_paths(path: str | Path | Sequence[str | Path], argument: str = "plot"
     return [check_plot_path(p, argument) for p in many]
 
 
+def lay_out(fig: Any) -> None:
+    """Place the axes once, as saving at the raster resolution would, and keep them there.
+
+    matplotlib's `savefig` with a layout engine draws the figure twice (once unseen to lay it
+    out, once for real) in every format; laid out here, each format draws once, and every
+    format shows the same layout."""
+    engine = fig.get_layout_engine()
+    if engine is None or not hasattr(fig.canvas, "get_renderer"):
+        return
+    plt = pyplot()
+    shown, saved = fig.dpi, plt.rcParams["savefig.dpi"]
+    fig.dpi = shown if saved == "figure" else saved
+    try:
+        engine.execute(fig)
+    finally:
+        fig.dpi = shown
+    # no engine at all (not matplotlib's placeholder "none", with which savefig still draws
+    # the figure unseen first)
+    with plt.rc_context({"figure.autolayout": False, "figure.constrained_layout.use": False}):
+        fig.set_layout_engine(None)
+
+
 def save_figure(fig: Any, paths: Sequence[str | Path]) -> list[Path]:
     """Write `fig` to every path (format by extension), each whole or not at all, and close it."""
     from .atomic import commit, discard, temporary_beside
 
     try:
+        lay_out(fig)
         for path in paths:
             temporary = temporary_beside(path)
             try:
