@@ -94,6 +94,18 @@ def versions() -> dict[str, str]:
     return found
 
 
+def preload() -> None:
+    """What writing a report loads on first use: the figures' libraries and the versions of
+    the libraries it names (for a second thread while data are read)."""
+    from . import atomic, latex  # noqa: F401
+    from .figures import preload as figures
+
+    figures()
+    for name in LIBRARIES:
+        _installed(name)
+    _own_version()
+
+
 @functools.cache
 def _installed(distribution: str) -> str | None:
     """An installed distribution's version (read once a process: each look-up parses the
