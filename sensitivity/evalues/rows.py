@@ -73,6 +73,7 @@ CHECKS: tuple[Check, ...] = (
         ("prevalence", "outcome"),
         lambda p, o: given(p) & given(o),
         lambda p, o: "give `outcome` or `prevalence`, not both",
+        names=("outcome", "prevalence"),
     ),
     field("prevalence", PROBABILITY, given, ("prevalence",)),
     Check(
@@ -85,32 +86,37 @@ CHECKS: tuple[Check, ...] = (
         ("scale", "outcome", "prevalence"),
         lambda s, o, p: scale_in(s, "or", "hr") & ~given(o) & ~given(p),
         lambda s, o, p: (
-            f"`outcome` frequency is needed on the {s} scale: say rare or common, or give "
-            "the outcome's `prevalence`"
+            f"the outcome's frequency (`outcome`) is needed on the {s} scale: say rare or "
+            "common, or give the outcome's `prevalence`"
         ),
+        names=("outcome", "prevalence"),
     ),
     Check(
         ("scale", "se"),
         lambda s, se: ratio_scale(s) & given(se),
         lambda s, se: f"`se` applies to scales smd and md only; got {s}",
         "`se` applies to scales smd and md only",
+        names=("se",),
     ),
     Check(
         ("scale", "sd"),
         lambda s, sd: ~scale_in(s, "md") & given(sd),
         lambda s, sd: f"`sd` applies to scale md only; got {s}",
         "`sd` applies to scale md only",
+        names=("sd",),
     ),
     Check(
         ("scale", "contrast"),
         lambda s, c: ~scale_in(s, "md") & (c != 1),
         lambda s, c: f"`contrast` applies to scale md only; got {s}",
         "`contrast` applies to scale md only",
+        names=("contrast",),
     ),
     Check(
         ("scale", "sd"),
         lambda s, sd: scale_in(s, "md") & ~given(sd),
         lambda s, sd: "`sd` is required for scale md: the outcome's standard deviation",
+        names=("sd",),
     ),
     field("sd", FINITE, given, ("sd",)),
     field("sd", POSITIVE, given, ("sd",)),
@@ -120,6 +126,7 @@ CHECKS: tuple[Check, ...] = (
         ("scale", "se", "lower"),
         lambda s, se, lo: given(se) & given(lo),
         lambda s, se, lo: f"give `se` or `ci` for scale {s}, not both",
+        names=("se", "ci"),
     ),
     field("se", FINITE, given, ("se",)),
     field("se", POSITIVE, given, ("se",)),
@@ -127,6 +134,7 @@ CHECKS: tuple[Check, ...] = (
         ("lower", "upper"),
         lambda lo, up: given(lo) != given(up),
         lambda lo, up: "`ci` needs both limits, lower and upper",
+        names=("ci",),
     ),
     field("lower", FINITE, given, ("lower",)),
     field("upper", FINITE, given, ("upper",)),
@@ -246,7 +254,7 @@ def single_inputs(
                 "prevalence": prevalence, "target": target}  # fmt: skip
     for name, value in supplied.items():
         if value is not None and np.asarray(value, object).size == 0:
-            raise InputError(f"`{name}` must hold at least one value; got none")
+            raise InputError(f"`{name}` must hold at least one value; got none", name)
     scale_arr = _text(scale)
     values = {
         "scale": scale_arr,
