@@ -124,10 +124,10 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
         import threading
 
         from sensitivity.adapters.models import evalue_from_data, ols_report_from_data
-        from sensitivity.output.figures import pyplot
+        from sensitivity.output.report import preload
 
         # matplotlib loads in a second thread while the data are read (the figures come after)
-        loading = threading.Thread(target=pyplot, name="load-matplotlib", daemon=True)
+        loading = threading.Thread(target=preload, name="load-matplotlib", daemon=True)
         loading.start()
         try:
             if model_kind == "ols" and errors in (None, "classical"):  # one pass, both parts

@@ -92,6 +92,18 @@ def pyplot() -> Any:
     return plt
 
 
+def preload() -> None:
+    """Import what drawing and saving a figure loads on first use (matplotlib, its Agg and SVG
+    writers, contour lines, PNG compression): for a second thread while data are read."""
+    pyplot()
+    import contourpy  # noqa: F401
+    import matplotlib.backends.backend_agg  # noqa: F401
+    import matplotlib.backends.backend_svg  # noqa: F401
+    from PIL import Image
+
+    Image.preinit()  # the image formats Pillow loads on its first save
+
+
 def new_figure(figsize: tuple[float, float] = (6.4, 5.6)) -> tuple[Any, Any]:
     """A figure and axes in the project's style (constrained layout)."""
     plt = pyplot()
@@ -106,25 +118,115 @@ def figure_paths(path: str | Path | Sequence[str | Path], argument: str = "plot"
     return [check_plot_path(p, argument) for p in many]
 
 
+def lay_out(fig: Any) -> None:
+    """Place the axes once, as saving at the raster resolution would, and keep them there.
+
+    matplotlib's `savefig` with a layout engine draws the figure twice (once unseen to lay it
+    out, once for real) in every format; laid out here, each format draws once, and every
+    format shows the same layout."""
+    engine = fig.get_layout_engine()
+    if engine is None or not hasattr(fig.canvas, "get_renderer"):
+        return
+    plt = pyplot()
+    shown, saved = fig.dpi, plt.rcParams["savefig.dpi"]
+    fig.dpi = shown if saved == "figure" else saved
+    try:
+        engine.execute(fig)
+    finally:
+        fig.dpi = shown
+    # no engine at all (not matplotlib's placeholder "none", with which savefig still draws
+    # the figure unseen first)
+    with plt.rc_context({"figure.autolayout": False, "figure.constrained_layout.use": False}):
+        fig.set_layout_engine(None)
+
+
 def save_figure(fig: Any, paths: Sequence[str | Path]) -> list[Path]:
-    """Write `fig` to every path (format by extension), each whole or not at all, and close it."""
+    """Write `fig` to every path (format by extension), each whole or not at all, and close it.
+
+    A PNG followed by other formats is compressed and written in a second thread while they
+    draw (compression leaves Python's lock free); its bytes are those `savefig` writes."""
+    pending: list[Any] = []
+    try:
+        lay_out(fig)
+        for k, path in enumerate(paths):
+            kind = Path(path).suffix.lstrip(".").lower() or None
+            if kind == "png" and k < len(paths) - 1:
+                pending.append(_png_in_background(fig, path))
+            else:
+                _save_whole(fig, path, kind)
+    finally:
+        try:
+            for job in pending:
+                job.result()
+        finally:
+            pyplot().close(fig)
+    return [Path(p) for p in paths]
+
+
+def _save_whole(fig: Any, path: str | Path, kind: str | None) -> None:
     from .atomic import commit, discard, temporary_beside
 
+    temporary = temporary_beside(path)
     try:
-        for path in paths:
-            temporary = temporary_beside(path)
-            try:
-                fig.savefig(
-                    temporary, format=Path(path).suffix.lstrip(".").lower() or None,
-                    metadata={"Creator": "sensitivity"} if str(path).endswith(".pdf") else None,
-                )  # fmt: skip
-                commit(temporary, path)
-            except BaseException:
-                discard(temporary)
-                raise
-    finally:
-        pyplot().close(fig)
-    return [Path(p) for p in paths]
+        fig.savefig(temporary, format=kind,
+                    metadata={"Creator": "sensitivity"} if kind == "pdf" else None)  # fmt: skip
+        commit(temporary, path)
+    except BaseException:
+        discard(temporary)
+        raise
+
+
+def _png_in_background(fig: Any, path: str | Path) -> Any:
+    """Draw `fig` now as `savefig` draws a PNG (matplotlib's Agg at savefig.dpi); compress and
+    write it whole in a second thread. Returns a future: `.result()` waits and raises what
+    the writing raised."""
+    import io
+    from concurrent.futures import Future
+
+    import matplotlib
+
+    dpi = pyplot().rcParams["savefig.dpi"]
+    dpi = fig.dpi if dpi == "figure" else dpi
+    pixels = io.BytesIO()
+    fig.savefig(pixels, format="rgba", dpi=dpi)  # the same drawing as format="png"
+    width, height = (int(v * dpi) for v in fig.get_size_inches())
+    software = f"Matplotlib version{matplotlib.__version__}, https://matplotlib.org/"
+    done: Future = Future()
+    if width * height * 4 != pixels.getbuffer().nbytes:  # not expected: Agg sizes it so
+        _save_whole(fig, path, "png")
+        done.set_result(None)
+        return done
+    import threading
+
+    def write() -> None:
+        try:
+            _write_png(pixels.getbuffer(), (width, height), dpi, software, path)
+        except BaseException as err:  # raised again by .result(), in the drawing thread
+            done.set_exception(err)
+        else:
+            done.set_result(None)
+
+    threading.Thread(target=write, name="write-png", daemon=True).start()
+    return done
+
+
+def _write_png(pixels: Any, size: tuple[int, int], dpi: float, software: str,
+               path: str | Path) -> None:  # fmt: skip
+    """RGBA pixels to a PNG file as matplotlib's `imsave` writes them, whole or not at all."""
+    from PIL import Image, PngImagePlugin
+
+    from .atomic import commit, discard, temporary_beside
+
+    image = Image.frombuffer("RGBA", size, pixels, "raw", "RGBA", 0, 1)
+    info = PngImagePlugin.PngInfo()
+    info.add_text("Software", software)
+    temporary = temporary_beside(path)
+    try:
+        image.save(temporary, format="png", pnginfo=info, dpi=(dpi, dpi))
+        commit(temporary, path)
+    except BaseException:
+        discard(temporary)
+        raise
 
 
 def percent_axis(ax: Any, which: str) -> None:

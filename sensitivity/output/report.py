@@ -11,6 +11,7 @@ package and the libraries that computed it.
 
 from __future__ import annotations
 
+import functools
 import json
 import sys
 from collections.abc import Sequence
@@ -84,18 +85,40 @@ class Reproduce:
 
 def versions() -> dict[str, str]:
     """The package's version and those of the libraries loaded to compute the report."""
-    from importlib.metadata import PackageNotFoundError, version
-
     found = {"sensitivity": _own_version(), "python": sys.version.split()[0]}
     for name in LIBRARIES + FITTING:
         if name in sys.modules or name in LIBRARIES[:4]:
-            try:
-                found[name] = version(_DISTRIBUTIONS.get(name, name))
-            except PackageNotFoundError:
-                continue
+            number = _installed(_DISTRIBUTIONS.get(name, name))
+            if number is not None:
+                found[name] = number
     return found
 
 
+def preload() -> None:
+    """What writing a report loads on first use: the figures' libraries and the versions of
+    the libraries it names (for a second thread while data are read)."""
+    from . import atomic, latex  # noqa: F401
+    from .figures import preload as figures
+
+    figures()
+    for name in LIBRARIES:
+        _installed(name)
+    _own_version()
+
+
+@functools.cache
+def _installed(distribution: str) -> str | None:
+    """An installed distribution's version (read once a process: each look-up parses the
+    package's metadata file), or None."""
+    from importlib.metadata import PackageNotFoundError, version
+
+    try:
+        return version(distribution)
+    except PackageNotFoundError:
+        return None
+
+
+@functools.cache
 def _own_version() -> str:
     from importlib.metadata import PackageNotFoundError, version
 
