@@ -331,3 +331,15 @@ def test_cli_engine_errors(run):
     res = run("partial-r2", "--data", "nowhere.parquet", "--engine", "spark", "--formula",
               "y ~ t + np.log(x)", "--treatment", "t")  # fmt: skip
     assert res.exit_code == 2
+
+
+def test_a_partition_where_a_text_column_is_all_missing():
+    """Found by the partitioning property above: a one-row partition whose category is
+    missing reaches Arrow as a null column (read as number), which was refused as a type
+    change. It says nothing of the column's type; the answer equals the one-machine route."""
+    frame = invented(seed=0)
+    frame.loc[frame.index[7], "g"] = None
+    reference = partial_r2_one_pass(frame, FORMULA, "t", **OPTIONS)
+    parts = [dask_partition(p, FORMULA) for p in pieces(frame, [1, 3, 3, 1])]
+    assert any(not q.kinds.get("C(g)") for q in parts)  # the all-missing piece knows no kind
+    same(reference, finish(tree(parts, combine_all), FORMULA, "t", **OPTIONS))

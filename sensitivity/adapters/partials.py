@@ -113,8 +113,10 @@ def partition_factor(batches: Iterable[Batch], formula: str) -> Partial:
             columns.append((("1",), np.ones(y.size)))
         for term in terms:
             kind, values = batch[term.column]
+            # a piece where the column is all missing (Arrow's null type) says nothing of it
+            met = "" if kind == "number" and np.isnan(values).all() else kind
             term.kind = part.kinds[term.name] = _kind(term.name, term.column,
-                                                      part.kinds[term.name], kind)  # fmt: skip
+                                                      part.kinds[term.name], met)  # fmt: skip
             if not term.categorical:
                 columns.append((("x", term.name), values))
                 keep &= ~np.isnan(values)
