@@ -138,10 +138,17 @@ def with_types(frame: Any, types: dict[str, Any]) -> Any:
     """Text columns of `frame` cast to `types` (blank cells missing); others as they are."""
     import polars as pl
 
-    casts = []
-    for name, dtype in types.items():
-        if name not in frame.columns or frame.schema[name] != pl.String or dtype == pl.String:
-            continue
+    names = [name for name, dtype in types.items() if name in frame.columns
+             and frame.schema[name] == pl.String and dtype != pl.String]  # fmt: skip
+    if not names:
+        return frame
+    # Nearly every cell reads as it is (no spaces around it, no decimal comma): cast directly,
+    # and take the long way below only for a column where some filled cell did not
+    direct = frame.select(pl.col(name).cast(types[name], strict=False) for name in names)
+    missed = {name: bool((direct[name].is_null() & (frame[name] != "")).any()) for name in names}
+    casts = [direct[name] for name in names if not missed[name]]
+    for name in (name for name in names if missed[name]):
+        dtype = types[name]
         cell = pl.col(name).str.strip_chars()
         if dtype.is_float():
             cell = cell.str.replace(r"^([-+]?[0-9]*),([0-9]+(?:[eE][-+]?[0-9]+)?)$", r"${1}.${2}")
