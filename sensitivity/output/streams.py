@@ -94,6 +94,8 @@ def defuse_frame(frame: Any, trusted: Collection[str] = ()) -> Any:
     )
 
 
+#: Rows turned into JSON text at a time.
+JSON_ROWS = 8192
 #: The first bytes a formula starts with (all ASCII), as a lookup table over byte values.
 _RISKY_BYTE = __import__("numpy").zeros(256, bool)
 _RISKY_BYTE[[ord(c) for c in FORMULA_STARTS]] = True
@@ -232,13 +234,16 @@ class TableWriter:
         import polars as pl
 
         objects = pl.concat_str(pl.lit(","), pl.struct(pl.all()).struct.json_encode())
-        rows = _joined(frame.select(objects).to_series(), skip=0 if self._any_rows else 1)
-        self._any_rows = True
         if self._disk is None:  # a third thread puts the text on disk while the next is made
             from ..common.overlap import WriteBehind
 
             self._disk = WriteBehind(self._sink.write)
-        self._disk.put(rows)
+        # a slice at a time: its text (a few MB) reuses memory already in hand, where a whole
+        # piece's (50 MB) would be fresh pages each time (measured: a third of the system time)
+        for start in range(0, frame.height, JSON_ROWS):
+            rows = frame.slice(start, JSON_ROWS).select(objects).to_series()
+            self._disk.put(_joined(rows, skip=0 if self._any_rows else 1))
+            self._any_rows = True
 
     def close(self, extra: dict | None = None) -> None:
         """Finish the file and rename it into place; for JSON, `extra` (plain data) follows the
