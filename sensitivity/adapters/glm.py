@@ -161,8 +161,8 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     scratch, codes_scratch = Scratch(), Scratch()
     first = TriangularFactor()
     table: dict[Any, int] = {}
-    seen = {"positive": 0, "low": np.zeros(0), "high": np.zeros(0),
-            "binary": np.zeros(0, bool)}  # fmt: skip
+    seen: dict[str, Any] = {"positive": 0, "low": np.zeros(0), "high": np.zeros(0),
+                            "binary": np.zeros(0, bool)}  # fmt: skip
 
     def sink(rows: np.ndarray, extras: dict[str, tuple[str, Any]]) -> None:
         y = rows[:, 0]
@@ -256,16 +256,17 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
                 for i, m in enumerate(active):
                     m.steps = [res[i] for res in results]
                     m.update(_stacked(m.steps))
-        if outcome.failed or not outcome.done:
+        if outcome.failed or not outcome.done or outcome.beta is None:
             raise InputError(f"`data`: the {model} fit did not converge: a covariate or the "
                              "treatment predicts the outcome (nearly) exactly (perfect "
                              "separation), so the estimate is not defined")  # fmt: skip
+        beta = outcome.beta
         cov, cov_type = _covariance(outcome, kind, design.used, len(kept), clusters)
         ov = None if treated is None else _overlap(scratch, width, treated, t_slot)
     finally:
         scratch.close()
         codes_scratch.close()
-    return Fit([names[i] for i in kept], outcome.beta, cov, design.used,
+    return Fit([names[i] for i in kept], beta, cov, design.used,
                seen["positive"] / design.used, cov_type, notes, ov, binary, clusters)  # fmt: skip
 
 
@@ -287,12 +288,22 @@ def _covariance(m: _Model, kind: str, n: int, k: int, clusters: int) -> tuple[np
     if kind == "classical":
         return bread, "nonrobust"
     if kind == "hc0":
-        meat = sum(s.meat for s in m.steps)
+        meat = _total([s.meat for s in m.steps])
         return bread @ meat @ bread, "HC0"
-    scores = sum(s.scores for s in m.steps)
+    scores = _total([s.scores for s in m.steps])
     meat = scores.T @ scores
     scale = clusters / (clusters - 1) * (n - 1) / (n - k) if clusters > 1 else 1.0
     return scale * bread @ meat @ bread, "cluster"
+
+
+def _total(parts: list[np.ndarray | None]) -> np.ndarray:
+    """The pieces' sums added in order (each piece computed them: `sums` was on)."""
+    total = np.zeros(0)
+    for i, part in enumerate(parts):
+        if part is None:
+            raise AssertionError("a piece's step was taken without its sums")
+        total = part if i == 0 else total + part
+    return total
 
 
 def _overlap(scratch: Scratch, width: int, m: _Model, t_slot: int) -> dict[str, Any]:

@@ -90,7 +90,7 @@ class Scratch:
 
     def add(self, rows: np.ndarray) -> None:
         data = np.asfortranarray(rows, dtype=float).T  # column after column, as it is held
-        self.file.write(data)
+        self.file.write(data.data)  # C-contiguous: written without a copy
         self.pieces.append((self.end, data.shape[1], data.shape[0]))
         self.end += data.nbytes
 

@@ -429,6 +429,8 @@ def ols_report_from_data(data: Any, formula: str, treatment: str, *, contrast: f
         raise InputError("`event` applies to model cox only; got model ols")
     pr2 = partial_r2_one_pass(data, formula, treatment, contrast=contrast, **options)
     ev = pr2.evalue
+    if ev is None or ev.sd is None or pr2.n is None:  # a fit from data has all three
+        raise AssertionError("the one-pass OLS fit gave no E-value")
     b, se, sd, n = float(pr2.estimate), float(pr2.se), float(ev.sd), int(pr2.n)
     info = {"kind": "ols", "n": n, "outcome_share": None, "treatment": treatment,
             "errors": "classical"}  # fmt: skip

@@ -106,7 +106,9 @@ class Document:
     def render(self, fmt: str, *, tables_only: bool = False, embed: bool = True) -> str:
         """The document as text, markdown, latex or html (`tables_only`: just the tables;
         `embed`: HTML images inline as data, so the page is one self-contained file)."""
-        blocks = self.tables if tables_only else [b for b in self.blocks if _nonempty(b)]
+        blocks: list[Any] = (
+            list(self.tables) if tables_only else [b for b in self.blocks if _nonempty(b)]
+        )
         if self.references and not tables_only:
             blocks.append(Bullets("References", self.references))
         if fmt == "html":

@@ -246,7 +246,7 @@ def _plain_studies(y: np.ndarray, s: np.ndarray, labels: Sequence[str] | None
     return _study_columns(names, y, s, np.full(n, "", dtype=object), np.full(n, "", dtype=object))
 
 
-def _study_columns(labels, y, s, errors, notes, level=0.95) -> dict[str, np.ndarray]:
+def _study_columns(labels: Any, y: Any, s: Any, errors: Any, notes: Any) -> dict[str, Any]:
     from scipy.special import ndtri
 
     from ..evalues.core import evalue_of_interval, evalue_of_rr
@@ -266,7 +266,7 @@ def _study_columns(labels, y, s, errors, notes, level=0.95) -> dict[str, np.ndar
         "rr_upper": hi,
         "evalue": ev,
         "evalue_ci": ev_ci,
-        "level": np.full(y.size, float(level)),
+        "level": np.full(y.size, 0.95),  # each study's interval: z from 0.975 above
         "used": errors == "",
         "error": errors,
         "notes": notes,

@@ -13,7 +13,7 @@ from ..common.checks import AT_LEAST_ONE
 from ..common.errors import InputError
 from ..common.levels import check_level
 from ..common.scales import RATIO_SCALES, from_risk_ratio
-from .exact import monotone_set, reaches
+from .exact import Condition, monotone_set, reaches
 from .grid import grid_axes, shifted_cells, side_of, with_exact
 from .ranges import default_ranges
 from .result import TippingGrid
@@ -100,17 +100,24 @@ def bounding_grid(
         ci_level=check_level(ci_level),
     )
 
-    def exact_of(value_rr: float) -> dict[str, np.ndarray]:
+    def exact_of(value_rr: float) -> tuple[dict[str, np.ndarray], Condition]:
         j = result.solved
+        assert j is not None  # with_exact asks only when a parameter varies
         other = a if j == 1 else b
         ratio = (value_rr / t) ** side  # at least 1 unless the value already covers the target
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             root = np.where(other > ratio, ratio * (other - 1) / (other - ratio), np.nan)
 
-        def reached(x: np.ndarray) -> np.ndarray:
-            pair = (x, other) if j == 0 else (other, x)
-            return reaches(moved(value_rr, bounding_factor(*pair)), t, side, slack)
+        def condition(allow: float) -> Condition:
+            def reached(x: np.ndarray) -> np.ndarray:
+                pair = (x, other) if j == 0 else (other, x)
+                return reaches(moved(value_rr, bounding_factor(*pair)), t, side, allow)
 
-        return monotone_set(reached, root, 1.0, np.inf, result.reduced_shape(j))
+            return reached
+
+        # B(a, b) tends to the other ratio as one grows without bound: a curve that only
+        # tends to the target is never reached (the range [1, inf) is open above)
+        exact = monotone_set(condition(0.0), root, 1.0, np.inf, result.reduced_shape(j))
+        return exact, condition(slack)
 
     return with_exact(result, exact_of, obs, shifted["near"])

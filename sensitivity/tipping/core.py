@@ -16,9 +16,10 @@ Each returns a `TippingGrid`: the long-format rows, and the tipping points: for 
 the other varying parameters, the least grid value of the last varying one at which the
 estimate (and, separately, the interval limit nearest the target) reaches the target, with
 the exact set of values that reach it beside it (`exact.py`: "from a", "up to b", "a to b",
-every value, or none). "Reaches" allows `TOLERANCE`, on the grid and in the exact sets
-alike, so the two never contradict each other. The grid's shared steps are in `grid.py`,
-the ranges and default grids in `ranges.py`.
+every value, or none). On the grid "reaches" allows `TOLERANCE`; the exact sets allow
+none: their ends are the closed-form crossings, and a curve that only tends to the target
+as a parameter runs to an open end never reaches it. The grid's shared steps are in
+`grid.py`, the ranges and default grids in `ranges.py`.
 """
 
 from __future__ import annotations
@@ -37,12 +38,13 @@ from .exact import (
     BETWEEN,
     FROM,
     NEVER,
+    OUTSIDE,
     TOLERANCE,
     UP_TO,
+    Condition,
     monotone_set,
     reaches,
     set_contains,
-    two_sided_set,
 )
 from .grid import (
     SCALES,
@@ -63,6 +65,7 @@ __all__ = [
     "FROM",
     "MAX_CELLS",
     "NEVER",
+    "OUTSIDE",
     "SCALES",
     "TOLERANCE",
     "UP_TO",
@@ -128,7 +131,8 @@ def binary_confounder_grid(
     -----
     Difference scale: ``adjusted = observed - gamma (p1 - p0)``; ratio scale (on the risk
     ratio): ``adjusted = observed (1 + (G - 1) p0) / (1 + (G - 1) p1)``, with no
-    U-by-treatment interaction. The tipping points use `TOLERANCE`.
+    U-by-treatment interaction. The grid's cells reach the target within `TOLERANCE`; the
+    exact sets from the closed form, with none.
 
     References
     ----------
@@ -253,9 +257,10 @@ def _binary_notes(scale: str, outcome: str | None) -> tuple[str, ...]:
 
 def _binary_exact(
     result: TippingGrid, obs: float, t: float, side: int, slack: float
-) -> dict[str, np.ndarray]:
+) -> tuple[dict[str, np.ndarray], Condition]:
     """The exact set of values of the solved parameter at which `obs` is moved onto the
-    target, from the closed-form crossing and the condition at the parameter's ends."""
+    target (from the closed-form crossing, with no tolerance), and the grid's own condition
+    (with its tolerance) for the printed ends."""
     j = result.solved
     assert j is not None
     args = reduced_axes(result.axes, j)
@@ -263,30 +268,34 @@ def _binary_exact(
     shape = result.reduced_shape(j)
     p1, p0, g = args
     root: np.ndarray
-    # The crossing of the condition itself: the moved value meets the target plus the slack.
-    edge = t + side * slack
+    # The crossing: the moved value equals the target.
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if ratio:
-            r = obs / edge  # reached when factor = (1 + (G-1) p1) / (1 + (G-1) p0) hits r
+            r = obs / t  # reached when factor = (1 + (G-1) p1) / (1 + (G-1) p0) hits r
             root = [
                 lambda: (r * (1 + (g - 1) * p0) - 1) / (g - 1),
                 lambda: ((1 + (g - 1) * p1) / r - 1) / (g - 1),
                 lambda: 1 + (r - 1) / (p1 - r * p0),
             ][j]()
         else:
-            d = obs - edge
+            d = obs - t
             root = [lambda: p0 + d / g, lambda: p1 - d / g, lambda: d / (p1 - p0)][j]()
 
-    def reached(x: np.ndarray) -> np.ndarray:
-        full = list(args)
-        full[j] = x
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            bias = _binary_factor(full[0], full[1], full[2], ratio)
-            shifted = obs / bias if ratio else obs - bias
-        return reaches(shifted, t, side, slack)
+    def condition(allow: float) -> Condition:
+        def reached(x: np.ndarray) -> np.ndarray:
+            full = list(args)
+            full[j] = x
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                bias = _binary_factor(full[0], full[1], full[2], ratio)
+                shifted = obs / bias if ratio else obs - bias
+            return reaches(shifted, t, side, allow)
 
+        return reached
+
+    # prevalences in [0, 1]; a ratio effect in (0, inf); a difference effect on the real line
     lo, hi = (0.0, 1.0) if j < 2 else ((0.0, np.inf) if ratio else (-np.inf, np.inf))
-    return monotone_set(reached, root, lo, hi, shape)
+    exact = monotone_set(condition(0.0), root, lo, hi, shape, open_ends=(j == 2, j == 2))
+    return exact, condition(slack)
 
 
 # --------------------------------------------------------------------------- normal U
@@ -355,8 +364,9 @@ def continuous_confounder_grid(
         ci_level=check_level(ci_level),
     )  # fmt: skip
 
-    def exact_of(value: float) -> dict[str, np.ndarray]:
+    def exact_of(value: float) -> tuple[dict[str, np.ndarray], Condition]:
         j = result.solved
+        assert j is not None  # with_exact asks only when a parameter varies
         other = g if j == 0 else delta
         shape = result.reduced_shape(j)
         v = on_rr(value)
@@ -367,13 +377,17 @@ def continuous_confounder_grid(
             else:
                 root = (v - t) / other
 
-        def reached(x: np.ndarray) -> np.ndarray:
-            pair = (x, other) if j == 0 else (other, x)
-            return reaches(shift(v, *pair), t, side, slack)
+        def condition(allow: float) -> Condition:
+            def reached(x: np.ndarray) -> np.ndarray:
+                pair = (x, other) if j == 0 else (other, x)
+                return reaches(shift(v, *pair), t, side, allow)
 
-        lo, hi = (-np.inf, np.inf) if j == 0 or not ratio else (0.0, np.inf)
-        if j == 0 or not ratio:
-            return two_sided_set(reached, root, shape)
-        return monotone_set(reached, root, lo, hi, shape)
+            return reached
+
+        # the difference on the real line; a ratio effect in (0, inf), a difference effect
+        # on the real line
+        lo = 0.0 if j == 1 and ratio else -np.inf
+        exact = monotone_set(condition(0.0), root, lo, np.inf, shape, open_ends=(True, True))
+        return exact, condition(slack)
 
     return with_exact(result, exact_of, est, _near_limit(est, ci, tgt))

@@ -155,18 +155,20 @@ def shifted_cells(
 
 def with_exact(
     result: TippingGrid,
-    exact_of: Callable[[float], dict],
+    exact_of: Callable[[float], tuple[dict, Callable[[np.ndarray], np.ndarray]]],
     estimate: float,
     near: float | None,
 ) -> TippingGrid:
     """Attach the exact sets of the solved axis for the estimate and the interval limit
-    nearest the target (`near`, None without an interval)."""
+    nearest the target (`near`, None without an interval); `exact_of(value)` gives the set
+    and the grid's own condition (with its tolerance), kept for the printed ends."""
     if result.solved is None:
         return result
-    exact = {"estimate": exact_of(estimate)}
+    exact, tips = {}, {}
+    exact["estimate"], tips["estimate"] = exact_of(estimate)
     if near is not None:
-        exact["ci"] = exact_of(near)
-    return replace(result, exact=exact)
+        exact["ci"], tips["ci"] = exact_of(near)
+    return replace(result, exact=exact, tips=tips)
 
 
 def reduced_axes(axes: Axes, j: int) -> list[np.ndarray]:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from decimal import ROUND_CEILING, ROUND_FLOOR, ROUND_HALF_EVEN, Decimal
 from typing import Any
 
 import numpy as np
@@ -11,7 +12,8 @@ from ..common.notes import REFERENCES
 from ..common.scales import SCALES
 from ..output.document import Document, Figure, prose, standard_tail
 from ..output.tables import Table, number
-from .result import TippingGrid
+from .exact import TOLERANCE
+from .result import KIND_NAMES, TippingGrid
 
 NAMES = {
     "prevalence_treated": "Prevalence of U among the treated",
@@ -40,56 +42,95 @@ def _first_row(g: TippingGrid) -> dict:
     return rows_of_layout(cols, g.row_layout())[0]
 
 
-def _fmt(g: TippingGrid, name: str, value: float | None, outward: int = 0) -> str:
-    """A parameter value as printed; `outward` +1 rounds up, -1 down (at the printed digits),
-    so that an exact set's printed end never overstates it: a crossing at 3.0003 prints as
-    "≥ 3.001", not "≥ 3", when 3 itself does not tip."""
+def _digits(name: str) -> int:
+    """Significant digits a parameter prints with: 3 for shares, 4 otherwise."""
+    return 3 if name.startswith(("prevalence", "r2_")) else 4
+
+
+def _fmt(g: TippingGrid, name: str, value: float | None) -> str:
+    """A parameter value as printed (3 significant digits for shares, 4 otherwise)."""
     if value is None or (isinstance(value, float) and np.isnan(value)):
         return "not reached"
     value = float(value)
-    small = name.startswith(("prevalence", "r2_")) and 0 < abs(value) < 0.001
-    digits = 3 if name.startswith(("prevalence", "r2_")) else 4
-    if outward and value != 0 and np.isfinite(value):
-        value = round_outward(value, digits, outward)
-    if small:
-        return f"{value:.2e}"
+    digits = _digits(name)
+    if name.startswith(("prevalence", "r2_")) and 0 < abs(value) < 0.001:
+        return f"{value:.{digits - 1}e}"
     return f"{value:.{digits}g}"
 
 
 def round_outward(value: float, digits: int, direction: int) -> float:
-    """`value` rounded to `digits` significant digits up (+1) or down (-1); a value within
-    1e-9 (relative) of a printed number is that number (0.37499999999 is 0.375).
+    """`value` rounded to `digits` significant digits up (+1), down (-1) or to the nearest
+    (0), in exact decimal arithmetic on the double: a value that prints exactly stays.
 
-    >>> round_outward(3.0003, 4, 1), round_outward(0.3749999999977, 3, 1)
-    (3.001, 0.375)
-    >>> round_outward(2.9996, 4, -1)
-    2.999
+    >>> round_outward(3.0003, 4, 1), round_outward(0.375, 3, 1), round_outward(2.9996, 4, -1)
+    (3.001, 0.375, 2.999)
     """
-    import math
-
-    exponent = math.floor(math.log10(abs(value))) - digits + 1
-    scaled = value / 10.0**exponent
-    near = round(scaled)
-    if abs(scaled - near) <= 1e-9 * max(abs(scaled), 1.0):
-        scaled = near
-    else:
-        scaled = math.ceil(scaled) if direction > 0 else math.floor(scaled)
-    return float(f"{scaled}e{exponent}")
+    if value == 0 or not np.isfinite(value):
+        return value
+    exact = Decimal(value)
+    mode = {1: ROUND_CEILING, -1: ROUND_FLOOR, 0: ROUND_HALF_EVEN}[direction]
+    return float(exact.quantize(Decimal(1).scaleb(exact.adjusted() - digits + 1), mode))
 
 
-def _exact(g: TippingGrid, name: str, tp: dict, key: str) -> str:
-    """The exact set in a few characters: "≥ 2.1", "≤ 0.3", "0.1 to 0.6", "all", "never"."""
-    exact = tp[f"{key}_exact"]
-    kind, low, high = exact["reached"], exact["low"], exact["high"]
+TOLERANCE_TEXT = f"1e{round(np.log10(TOLERANCE))}"  # 1e-9, as the methods write it
+
+#: Per kind, the ends that start a reached piece (printed rounded up unless the printed
+#: value itself tips on the grid) and the ends that stop one (rounded down likewise).
+_STARTS = {"from": "low", "between": "low", "outside": "high"}
+_STOPS = {"up_to": "high", "between": "high", "outside": "low"}
+
+
+def shown_ends(g: TippingGrid, key: str) -> list[dict[str, float]]:
+    """The printed ends of each row's exact set, so that the table never overstates it.
+
+    An end is printed at the parameter's digits: to the nearest printed number when that
+    number lies inside the set, or tips by the grid's own rule (the grid's tolerance), and
+    otherwise outward (a start rounded up, a stop down): a crossing at 3.0003 prints as
+    "≥ 3.001", not "≥ 3", when the grid value 3 does not tip; a crossing of 0.375 prints
+    as 0.375.
+    """
+    j = g.solved
+    assert j is not None
+    name = g.axes[j][0]
+    digits = _digits(name)
+    exact = g.exact[key]
+    kinds = [KIND_NAMES[int(k)] for k in np.ravel(exact["kind"])]
+    ends = {"low": np.ravel(exact["low"]), "high": np.ravel(exact["high"])}
+    shape = np.shape(exact["kind"])
+    tips = g.tips.get(key)
+    out: list[dict[str, float]] = [{} for _ in kinds]
+    for table, direction in ((_STARTS, 1), (_STOPS, -1)):
+        which = [table.get(k) for k in kinds]
+        value = np.array([ends[w][i] if w else np.nan for i, w in enumerate(which)])
+        near = np.array([round_outward(v, digits, 0) if w else np.nan
+                         for v, w in zip(value, which, strict=True)])  # fmt: skip
+        with np.errstate(invalid="ignore"):
+            inside = direction * (near - value) >= 0
+        if tips is not None:
+            with np.errstate(all="ignore"):
+                inside |= np.ravel(np.broadcast_to(tips(near.reshape(shape)), shape))
+        for i, w in enumerate(which):
+            if w:
+                v = near[i] if inside[i] else round_outward(value[i], digits, direction)
+                out[i][w] = float(v)
+    return out
+
+
+def _exact(g: TippingGrid, name: str, kind: str, ends: dict[str, float]) -> str:
+    """The exact set in a few characters: "≥ 2.1", "≤ 0.3", "0.1 to 0.6", "≤ 0.1 or ≥ 0.7",
+    "all values", "never"."""
     if kind == "never":
         return "never"
     if kind == "always":
         return "all values"
+    low, high = (_fmt(g, name, ends.get(k)) for k in ("low", "high"))
     if kind == "from":
-        return "≥ " + _fmt(g, name, low, +1)
+        return "≥ " + low
     if kind == "up_to":
-        return "≤ " + _fmt(g, name, high, -1)
-    return f"{_fmt(g, name, low, +1)} to {_fmt(g, name, high, -1)}"
+        return "≤ " + high
+    if kind == "outside":
+        return f"≤ {low} or ≥ {high}"
+    return f"{low} to {high}"
 
 
 def table(g: TippingGrid) -> Table:
@@ -115,17 +156,26 @@ def table(g: TippingGrid) -> Table:
     cols = head + (f"Estimate reaches {_goal(g)} at", "(exact)")
     if g.reach_ci is not None:
         cols += (f"{level_text(g.ci_level)} CI reaches it at", "(exact)")
+    # between two values, and either side of a gap, arise in the partial-R² view only
+    shapes = ""
+    if g.kind == "partial-r2":
+        shapes = "between two values, on either side of a gap (≤ a or ≥ b), "
     exact_note = (
-        "'(exact)': from the closed-form formula, every value that reaches the target (which "
-        "may lie outside the grid): at least (≥) or at most (≤) the crossing, between two "
-        "values, all values, or never."
+        "'(exact)': from the closed-form formula, every value that reaches the target, in or "
+        f"beyond the grid: at least (≥) or at most (≤) the crossing, {shapes}all values, or "
+        "never. A curve that only tends to the target (as the parameter grows without bound, "
+        "or nears an excluded 0 or 1) never reaches it. Each printed end lies in the exact "
+        "set or tips by the grid's own rule, which counts a value within "
+        f"{TOLERANCE_TEXT} (relative) of the target as reaching it."
     )
     rows: list[tuple[str, ...]] = []
-    for tp in g.tipping_points():
+    keys = ("estimate", "ci") if g.reach_ci is not None else ("estimate",)
+    shown = {key: shown_ends(g, key) for key in keys}
+    for i, tp in enumerate(g.tipping_points()):
         row = tuple(_fmt(g, o, tp[o]) for o in others)
-        row += (_fmt(g, solved, tp["estimate"]), _exact(g, solved, tp, "estimate"))
-        if g.reach_ci is not None:
-            row += (_fmt(g, solved, tp["ci"]), _exact(g, solved, tp, "ci"))
+        for key in keys:
+            kind = tp[f"{key}_exact"]["reached"]
+            row += (_fmt(g, solved, tp[key]), _exact(g, solved, kind, shown[key][i]))
         rows.append(row)
     if not others:
         cols = ("",) + cols
@@ -233,7 +283,9 @@ def document(g: TippingGrid) -> Document:
             )
         )
     blocks += standard_tail(g.notes, g.cautions)
-    return Document("Tipping points", tuple(blocks), figures=figures(g), references=references())
+    return Document(
+        "Tipping points", tuple(blocks), figures=figures(g), references=references(g.kind)
+    )
 
 
 def figures(g: Any) -> tuple[Figure, ...]:
@@ -260,12 +312,14 @@ def report_part(items: Any) -> Any:
     """The family's section of a manuscript report, from each result's own Document."""
     from ..output.report import simple_part
 
-    return simple_part("tipping", items, METHODS, references=references())
+    kinds = sorted({getattr(result, "kind", "binary") for _, result in items})
+    sources = dict.fromkeys(r for kind in kinds for r in references(kind))
+    return simple_part("tipping", items, METHODS, references=tuple(sources))
 
 
-def references() -> tuple[str, ...]:
-    """The method's sources (shown under every view and in a report)."""
-    return (
-        REFERENCES["lin-psaty-kronmal-1998"],
-        REFERENCES["vanderweele-arah-2011"],
-    )
+def references(kind: str = "binary") -> tuple[str, ...]:
+    """The method's sources (shown under every view and in a report): the view's own formula
+    (the bounding factor, the partial-R² bias) after the hidden-confounder bias formulas."""
+    own = {"bounding": ("ding-vanderweele-2016",), "partial-r2": ("cinelli-hazlett-2020",)}
+    keys = ("lin-psaty-kronmal-1998", "vanderweele-arah-2011") + own.get(kind, ())
+    return tuple(REFERENCES[k] for k in keys)

@@ -13,7 +13,13 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from ..common.checks import R2_STRENGTH, require_scalar
-from .exact import monotone_set, r2_outcome_ci_set, reaches, slack_for
+from .exact import (
+    monotone_set,
+    r2_outcome_ci_set,
+    r2_treatment_ci_away_set,
+    reaches,
+    slack_for,
+)
 from .grid import finite_cells, grid_axes, side_of
 from .ranges import default_ranges
 from .result import TippingGrid
@@ -39,7 +45,8 @@ def partial_r2_grid(
     and ``C = t_crit se sqrt(dof / ((dof - 1)(1 - r2_t)))``: an interval of θ, so of
     r2_outcome, that may be bounded on both sides (a stronger confounder on the outcome side
     also shrinks the standard error). On the r2_treatment axis both bias and standard error
-    grow, and the set is one-sided.
+    grow, and the set is one-sided. A partial R² of 1 is not in the range: a curve that
+    only tends to the target there never reaches it.
     """
     from ..partial_r2.core import (
         adjusted_for_confounder,
@@ -96,38 +103,57 @@ def partial_r2_grid(
     j = result.solved
     other = r2t if j == 1 else r2y
     shape = result.reduced_shape(j)
-    # Distance the bias must cover: it shrinks |estimate|, so a target beyond the estimate
-    # (away from zero) is never reached by the estimate itself.
-    toward = np.sign(est - tgt) == np.sign(est) or est == tgt
-    d = np.float64(abs(est - tgt) if toward else np.nan)
+    # The bias shrinks |estimate|: it moves the estimate toward the target (toward = +1),
+    # away from it (-1), or not at all (an estimate of 0). Reached: toward bias >= d for the
+    # estimate, toward bias + t_crit se_adjusted >= d for the interval limit nearest it.
+    toward = float(side * np.sign(est))
+    d = np.float64(abs(est - tgt))
     se, dof = np.float64(se), np.float64(dof)  # numpy arithmetic: overflow gives inf, not an error
     crit = float(t_critical(alpha, dof - 1))
 
-    def reached_at(key: str) -> Callable[[np.ndarray], np.ndarray]:
+    def condition(key: str, allow: float) -> Callable[[np.ndarray], np.ndarray]:
         def reached(x: np.ndarray) -> np.ndarray:
             pair = (x, other) if j == 0 else (other, x)
             adj = adjusted_for_confounder(*pair, estimate=est, se=se, dof=dof, alpha=alpha)
-            return reaches(adj[key], tgt, side, slack)
+            return reaches(adj[key], tgt, side, allow)
 
         return reached
 
-    top = 1 - 1e-12  # partial R² lies in [0, 1); the open end is evaluated just below 1
+    # partial R² lies in [0, 1): a curve that only tends to the target as one of them tends
+    # to 1 never reaches it
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        if j == 1:
+        if j == 1:  # the bias equals d
             root = d**2 * (1 - other) / (se**2 * dof * other)
         else:
             k = d**2 / (se**2 * dof * other)
             root = k / (1 + k)
-    est_set = monotone_set(reached_at("estimate"), root, 0.0, 1.0, shape, probe_hi=top)
+    est_set = monotone_set(condition("estimate", 0.0), root, 0.0, 1.0, shape, (False, True))
     if j == 0:
-        # r2_treatment for each r2_outcome: with x = sqrt(r2_t), w = sqrt(1 - r2_t) the limit
-        # reaches the target when P x + Q >= d w, increasing in the angle of (x, w).
+        # r2_treatment for each r2_outcome: with x = sin α = sqrt(r2_t), w = cos α the limit
+        # reaches the target when toward P x + Q >= d w. For toward >= 0 this is
+        # H sin(α - β) >= -Q with H = hypot(P, d), β = atan2(d, P): increasing in α, from
+        # α = β - asin(Q / H). A target beyond the estimate (toward = -1) may be reached on
+        # two pieces (exact.r2_treatment_ci_away_set).
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             P = se * np.sqrt(dof * other)
             Q = crit * se * np.sqrt(dof / (dof - 1) * (1 - other))
-            angle = np.arctan2(d, P) - np.arcsin(np.clip(Q / np.hypot(P, d), -1, 1))
-            ci_root = np.sin(np.clip(angle, 0, np.pi / 2)) ** 2
-        ci_set = monotone_set(reached_at(near), ci_root, 0.0, 1.0, shape, probe_hi=top)
+        if toward < 0:
+            ci_set = r2_treatment_ci_away_set(P, Q, d, shape)
+        else:
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                angle = np.arctan2(d, P) - np.arcsin(Q / np.hypot(P, d))
+                # an angle outside [0, π/2] is no crossing in the range: a root outside it
+                ci_root = np.where(
+                    angle < 0, -1.0, np.where(angle > np.pi / 2, 2.0, np.sin(angle) ** 2)
+                )
+            ci_set = monotone_set(condition(near, 0.0), ci_root, 0.0, 1.0, shape, (False, True))
     else:
-        ci_set = r2_outcome_ci_set(reached_at(near), est, se, dof, other, d, crit, shape)
-    return replace(result, exact={"estimate": est_set, "ci": ci_set})
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            A = se * np.sqrt(dof * other / (1 - other))
+            C = crit * se * np.sqrt(dof / ((dof - 1) * (1 - other)))
+        ci_set = r2_outcome_ci_set(toward, A, C, d, shape)
+    return replace(
+        result,
+        exact={"estimate": est_set, "ci": ci_set},
+        tips={"estimate": condition("estimate", slack), "ci": condition(near, slack)},
+    )

@@ -11,8 +11,8 @@ from ..common import notes as standing
 from ..common.results import Result, plain, rows_of_layout
 from ..common.scales import RATIO_SCALES
 
-#: The exact set's kinds, by code (see `tipping.core.monotone_set`).
-KIND_NAMES = {0: "never", 1: "always", 2: "from", 3: "up_to", 4: "between"}
+#: The exact set's kinds, by code (see `tipping.exact.monotone_set`).
+KIND_NAMES = {0: "never", 1: "always", 2: "from", 3: "up_to", 4: "between", 5: "outside"}
 
 
 @dataclass(frozen=True, eq=False, repr=False)
@@ -34,6 +34,9 @@ class TippingGrid(Result):
     notes: tuple[str, ...] = ()
     cautions: tuple[str, ...] = standing.TIPPING
     extra: dict = field(default_factory=dict)  # e.g. the E-values of the bounding view
+    # "estimate"/"ci" -> the grid's own condition (with its tolerance) at values of the solved
+    # parameter, an array over the other cells: decides how an exact set's ends are printed
+    tips: dict = field(default_factory=dict)
     ci_level: float = 0.95
     is_scalar = False
     _repr_fields = ("kind", "scale", "estimate", "ci", "shape")
