@@ -108,7 +108,7 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
     if from_text is None:
         for need in ("estimate", "scale"):
             if need not in mapping:
-                _one_column_of_many(header)
+                _one_column_of_many(list(header))
                 raise InputError(
                     f"the table has no {need!r} column: map one with `columns` "
                     f"({need}=YOUR_COLUMN) or read results from text with `from_text`; "
