@@ -295,3 +295,19 @@ def test_typed_columns_cast_directly_where_that_reads_every_cell(cells, kind):
     got = with_types(frame, {"a": dtype, "b": pl.String, "absent": pl.Int64})
     assert got.schema == long_way.schema
     assert got.equals(long_way)
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".tsv", ".json"])
+def test_a_column_of_raw_bytes_is_refused_in_one_line_for_text_files(suffix, tmp_path):
+    # Neither polars' CSV nor its JSON writer can hold raw bytes (a Parquet input's binary
+    # column): the writer says so by name, before any row, and leaves no file behind.
+    import polars as pl
+
+    from sensitivity.common.errors import InputError
+    from sensitivity.output.streams import TableWriter
+
+    writer = TableWriter(tmp_path / f"out{suffix}")
+    with pytest.raises(InputError, match="`output`: column 'blob' holds raw bytes"):
+        writer.write(pl.DataFrame({"x": [1.0], "blob": [b"\x00a"]}))
+    writer.abort()
+    assert list(tmp_path.iterdir()) == []

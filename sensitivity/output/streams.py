@@ -169,6 +169,7 @@ class TableWriter:
                     "it (pip install openpyxl) or write .csv or .parquet"
                 )
         self.kind = kind
+        self._argument = argument
         # every byte goes to a temporary file beside the target, renamed into place by close()
         self._tmp: Any = None
         self._writer: Any = None
@@ -186,6 +187,13 @@ class TableWriter:
 
         frame: Any = table if isinstance(table, pl.DataFrame) else pl.from_arrow(table)
         first = self._rows == 0
+        if first and self.kind in ("csv", "tsv", "json"):
+            raw = [name for name, dtype in frame.schema.items() if dtype == pl.Binary]
+            if raw:
+                raise InputError(
+                    f"`{self._argument}`: column {raw[0]!r} holds raw bytes, which a "
+                    f"{self.kind.upper()} file cannot hold; write .parquet, or leave the column out"
+                )
         self._rows += frame.height
         if self.kind in ("csv", "tsv", "json", "parquet"):
             # polars writes CSV three to five times faster than pyarrow here, and JSON rows
