@@ -105,21 +105,25 @@ def _may_start_a_formula(column: Any) -> bool:
     """Whether any cell of a polars String column may start with a formula character: read
     from the column's Arrow string views, each of which holds its string's first bytes (the
     Arrow format: a 4-byte length, then the string itself up to 12 bytes or its first 4), so
-    no cell is visited as text. True when that layout is not at hand (the full check runs)."""
+    no cell is visited as text. Chunk by chunk, so that no views are copied together. True
+    when that layout is not at hand (the full check runs)."""
     import numpy as np
     import polars as pl
 
-    try:
-        views = column.to_arrow(compat_level=pl.CompatLevel.newest())
-        buffer = views.buffers()[1] if str(views.type) == "string_view" else None
-    except Exception:  # noqa: BLE001 - any other layout: the exact check decides
-        buffer = None
-    if buffer is None:
-        return True
-    cells = np.frombuffer(buffer, np.uint8).reshape(-1, 16)
-    cells = cells[views.offset : views.offset + len(views)]
-    filled = cells[:, :4].view("<i4")[:, 0] > 0
-    return bool((_RISKY_BYTE[cells[:, 4]] & filled).any())
+    for chunk in column.get_chunks():
+        try:
+            views = chunk.to_arrow(compat_level=pl.CompatLevel.newest())
+            buffer = views.buffers()[1] if str(views.type) == "string_view" else None
+        except Exception:  # noqa: BLE001 - any other layout: the exact check decides
+            buffer = None
+        if buffer is None:
+            return True
+        cells = np.frombuffer(buffer, np.uint8).reshape(-1, 16)
+        cells = cells[views.offset : views.offset + len(views)]
+        filled = cells[:, :4].view("<i4")[:, 0] > 0
+        if (_RISKY_BYTE[cells[:, 4]] & filled).any():
+            return True
+    return False
 
 
 def _joined(rows: Any, skip: int = 0) -> Any:
