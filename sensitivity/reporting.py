@@ -18,17 +18,22 @@ def _result(label: str, thing: Any, treatment: str | None) -> Result:
     """A result of any family as it is; a fitted model read by `from_model`."""
     if isinstance(thing, Result) and thing.presenter:
         if not hasattr(thing.presenting_module(), "report_part"):
-            raise InputError(f"`results` {label!r}: a {type(thing).__name__} has no report section")
+            raise InputError(
+                f"`results` {label!r}: a {type(thing).__name__} has no report section", "results"
+            )
         return thing
     if hasattr(thing, "params") or hasattr(thing, "summary") or hasattr(thing, "coef"):
         if treatment is None:
-            raise InputError(f"`treatment` is needed to read the fitted model {label!r}")
+            raise InputError(
+                f"`treatment` is needed to read the fitted model {label!r}", "treatment"
+            )
         from .adapters import from_model
 
         return _result(label, from_model(thing, treatment), None)
     raise InputTypeError(
         f"`results` {label!r} must be a result of this package or a fitted model; "
-        f"got {type(thing).__name__}"
+        f"got {type(thing).__name__}",
+        "results",
     )
 
 
@@ -75,10 +80,10 @@ def report(results: Any, folder: str | Path, *, treatment: str | None = None,
         names = list(labels) if labels is not None else [f"Estimate {k}" for k in
                                                           range(1, len(things) + 1)]  # fmt: skip
         if len(names) != len(things):
-            raise InputError(f"`labels` has {len(names)} names for {len(things)} results")
+            raise InputError(f"`labels` has {len(names)} names for {len(things)} results", "labels")
         pairs = list(zip(names, things, strict=True))
     if not pairs:
-        raise InputError("`results` is empty: give at least one result or fitted model")
+        raise InputError("`results` is empty: give at least one result or fitted model", "results")
     chosen = [(label, _result(label, thing, treatment)) for label, thing in pairs]
     return write_report(chosen, folder, _call(chosen))
 
@@ -99,7 +104,7 @@ def results_from_table(path: str | Path, *, ci_level: float = 0.95) -> list[tupl
     frame = read_table(path, "estimates")
     for need in ("scale", "estimate"):
         if need not in frame.columns:
-            raise InputError(f"`estimates`: the table has no {need!r} column")
+            raise InputError(f"`estimates`: the table has no {need!r} column", "estimates")
 
     def cell(row: Any, name: str) -> Any:
         value = row.get(name) if name in row else None
@@ -127,8 +132,8 @@ def results_from_table(path: str | Path, *, ci_level: float = 0.95) -> list[tupl
                 pr2 = partial_r2_summary(float(row["estimate"]), num["se"], num["dof"],
                                          sd_outcome=num["sd"], alpha=1 - ci_level)  # fmt: skip
         except (InputError, ValueError, TypeError) as err:
-            raise InputError(f"`estimates` row {k} ({label}): {err}") from None
+            raise InputError(f"`estimates` row {k} ({label}): {err}", "estimates") from None
         items.append((label, res if pr2 is None else replace(pr2, evalue=res)))
     if not items:
-        raise InputError(f"`estimates`: {path} has no rows")
+        raise InputError(f"`estimates`: {path} has no rows", "estimates")
     return items

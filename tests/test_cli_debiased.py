@@ -127,7 +127,10 @@ def test_plot_writes_the_contour_figure(run, data_csv, tmp_path):
         (("--treatment", "flat"), "`--treatment` 'flat' is constant"),
         (("--folds", "40"), "`--folds` 40 leaves 7 rows per fold (300 rows); each fold needs"),
         (("--covariates", "x1,nope"), "`--covariates` 'nope' is not a column of the data"),
-        (("--strength", "1.2", "0.1"), "`cy2` must lie in [0, 1); got 1.2"),
+        (
+            ("--strength", "1.2", "0.1"),
+            "the first value of `--strength` must lie in [0, 1); got 1.2",
+        ),
         (("--rho", "1.5"), "`--rho` must lie in (0, 1]; got 1.5"),
         (("--multiple", "2"), "--multiple needs --benchmark"),
         (("--benchmark", "x9"), "`--benchmark` 'x9' is not one of the covariates"),

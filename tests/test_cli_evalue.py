@@ -138,7 +138,7 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         ),
         (
             ("--scale", "or", "--estimate", 2),
-            "Error: `outcome` frequency is needed on the or scale",
+            "Error: the outcome's frequency (`--outcome-frequency`) is needed on the or scale",
         ),
         (
             ("--scale", "hr", "--estimate", 2, "--prevalence", 2),
@@ -151,7 +151,7 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         ),
         (
             ("--scale", "rr", "--estimate", 2, "--confounder", 0.5, 2),
-            "Error: `rr_treatment` must be at least 1; got 0.5",
+            "Error: the first value of `--confounder` must be at least 1; got 0.5",
         ),
         (("--scale", "zz", "--estimate", 2), "Error: Invalid value for '--scale'"),
         (("--scale", "rr"), "Error: give the result as published"),
@@ -170,7 +170,7 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         (("RR 1.4", "--ci", 1.1, 1.8), "Error: TEXT and --ci cannot be used together"),
         (
             ("rr", 2, "--output", "/no/such/folder/e.txt"),
-            "Error: Invalid value for '--output' / '-o': folder '/no/such/folder' does not exist",
+            "Error: Invalid value for '--output': folder '/no/such/folder' does not exist",
         ),
     ],
 )

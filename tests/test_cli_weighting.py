@@ -108,7 +108,7 @@ def test_no_seed_reports_the_one_drawn(run, clinics):
         ({"--lambda": "0.5:2:0.5"}, "`--lambda` must be at least 1; got 0.5"),
         (
             {"--propensity": None, "--propensity-column": "followed"},
-            "`propensity` must lie strictly between 0 and 1; got 0",
+            "`--propensity-column` must lie strictly between 0 and 1; got 0",
         ),
         ({"--resamples": 5}, "`--resamples` must be at least 50"),
         ({"--outcome": "nothing"}, "`--outcome` 'nothing' is not a column"),

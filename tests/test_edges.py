@@ -424,7 +424,9 @@ def test_the_binary_view_takes_the_outcome_frequency_from_the_command_line(run):
     assert res.exit_code == 0, res.stderr
     assert "converted to the risk-ratio scale" in " ".join(res.stdout.split())
     missing = run("tipping", "--scale", "or", "--estimate", 2.2)
-    assert missing.exit_code == 2 and "`outcome` frequency is needed" in missing.stderr
+    assert (
+        missing.exit_code == 2 and "frequency (`--outcome-frequency`) is needed" in missing.stderr
+    )
 
 
 def test_the_exact_set_keeps_no_tolerance_at_a_tiny_prevalence_difference():

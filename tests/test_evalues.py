@@ -154,8 +154,8 @@ def test_vectorised_equals_scalar_loop(rows):
         ),
         (("rr", 3.9, (8.7, 1.8)), {}, r"`ci` lower limit must not exceed the upper; got 8.7 > 1.8"),
         (("rr", 3.9, (0.0, 8.7)), {}, r"`ci` must be positive; got 0"),
-        (("or", 2.0), {}, r"`outcome` frequency is needed on the or scale"),
-        (("hr", 2.0), {}, r"`outcome` frequency is needed on the hr scale"),
+        (("or", 2.0), {}, r"the outcome's frequency \(`outcome`\) is needed on the or scale"),
+        (("hr", 2.0), {}, r"the outcome's frequency \(`outcome`\) is needed on the hr scale"),
         (("or", 2.0), {"prevalence": 1.5}, r"`prevalence` must lie in \[0, 1\]; got 1.5"),
         (
             ("or", 2.0),

@@ -145,7 +145,9 @@ def test_a_bad_row_stops_the_report_naming_it(run, tmp_path):
     bad.write_text("label,scale,estimate,lower,upper\nA,rr,2,1.5,2.5\nB,or,2,1.5,2.5\n")
     res = run("report", "--estimates", bad, "--out", tmp_path / "r")
     assert res.exit_code == 2
-    assert res.stderr.startswith("Error: `--estimates` row 2 (B): `outcome` frequency is needed")
+    assert res.stderr.startswith(
+        "Error: `--estimates` row 2 (B): the outcome's frequency (`outcome`) is needed"
+    )
 
 
 def test_report_from_summary_and_from_data(run, tmp_path):

@@ -198,7 +198,8 @@ def test_computed_columns_equal_the_single_result_functions(rows):
         ({"scale": "rr", "estimate": "1,5"},
          "`estimate` is not a number: '1,5' (a decimal comma?)"),
         ({"scale": "rr", "estimate": ""}, "`estimate` is missing"),
-        ({"scale": "or", "estimate": "2"}, "`outcome` frequency is needed on the or scale"),
+        ({"scale": "or", "estimate": "2"},
+         "the outcome's frequency (`outcome`) is needed on the or scale"),
         ({"scale": "rr", "estimate": "2", "lower": "3", "upper": "4"},
          "`estimate` must lie within `ci`; got 2 outside [3, 4]"),
         ({"scale": "rr", "estimate": "2", "lower": "1.5"}, "`ci` needs both limits"),
@@ -392,7 +393,10 @@ def test_columns_are_mapped_and_text_is_read(run, tmp_path):
         (["--threshold", "0.5"], "`--threshold` must be at least 1"),
         (["--plot", "x.jpg"], "`--plot` must end in .png, .svg or .pdf"),
         # a confounder weaker than none, or not a number, would flag every row "false"
-        (["--confounder", "0.5", "2"], "`rr_treatment` must be at least 1; got 0.5"),
+        (
+            ["--confounder", "0.5", "2"],
+            "the first value of `--confounder` must be at least 1; got 0.5",
+        ),
         (["--confounder", "2", "nan"], "Invalid value for '--confounder': must be a finite"),
         (["--alpha", "2"], "`--alpha` must lie strictly between 0 and 1; got 2"),
     ],

@@ -81,7 +81,9 @@ def file_source(path: str | Path, argument: str = "data") -> Source:
             names = list(pq.ParquetFile(p).schema_arrow.names)
         except Exception as err:  # noqa: BLE001 - the file's problem
             first = str(err).strip().splitlines()[0] if str(err).strip() else type(err).__name__
-            raise InputError(f"`{argument}`: could not read {path} as parquet: {first}") from None
+            raise InputError(
+                f"`{argument}`: could not read {path} as parquet: {first}", argument
+            ) from None
 
         def parquet(wanted: list[str], forced: dict[str, str]) -> Iterator[Batch]:
             for batch in pq.ParquetFile(p).iter_batches(batch_size=BATCH_ROWS, columns=wanted):
@@ -108,7 +110,7 @@ def _csv_header(path: Path, delimiter: str, argument: str) -> list[str]:
         rows = csv.reader(fh, delimiter=delimiter)
         next(rows, None)
         if next((row for row in rows if any(cell.strip() for cell in row)), None) is None:
-            raise InputError(f"`{argument}`: {path} has no data rows")
+            raise InputError(f"`{argument}`: {path} has no data rows", argument)
     return header
 
 
@@ -145,7 +147,7 @@ def _csv_batches(path: Path, delimiter: str, header: list[str], wanted: list[str
             # the parser's first paragraph, on one line (a cell's own newline shown as \n)
             text = " ".join(str(err).strip().split("\n\n")[0].replace("\n`", "\\n`").split())
             text = text or type(err).__name__
-            raise InputError(f"`{argument}`: could not read {path}: {text}") from None
+            raise InputError(f"`{argument}`: could not read {path}: {text}", argument) from None
         if first:
             dtypes = {name: frame.schema[name] for name in wanted} | dtypes
             first = False
@@ -203,7 +205,7 @@ def frame_source(frame: Any) -> Source:
     if not hasattr(frame, "iloc"):
         frame = frame.to_pandas()
     if frame.shape[0] == 0:
-        raise InputError("`data` has no rows")
+        raise InputError("`data` has no rows", "data")
 
     def slices(wanted: list[str], forced: dict[str, str]) -> Iterator[Batch]:
         for start in range(0, len(frame), BATCH_ROWS):
@@ -239,5 +241,7 @@ def restarting(build: Callable[[dict[str, str]], T]) -> T:
             return build(forced)
         except ColumnTypeChange as change:
             if forced.get(change.column) == change.kind:
-                raise InputError(f"`data`: column {change.column!r} could not be read") from None
+                raise InputError(
+                    f"`data`: column {change.column!r} could not be read", "data"
+                ) from None
             forced[change.column] = change.kind

@@ -34,7 +34,7 @@ def formula_columns(formula: str) -> tuple[list[str], list[str]]:
     import ast
 
     if not isinstance(formula, str) or "~" not in formula:
-        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
+        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}", "formula")
     sides = formula.split("~", 1)
     found: list[list[str]] = [[], []]
     for side, text in enumerate(sides):
@@ -70,24 +70,31 @@ def check_names(data: Any, formula: str, treatment: str, benchmarks: Any = ()) -
     for name in left + right:
         if name not in columns:
             raise InputError(
-                f"`formula` uses column {name!r}, which is not in the data; columns: {shown}"
+                f"`formula` uses column {name!r}, which is not in the data; columns: {shown}",
+                "formula",
             )
     if treatment not in columns and not re.search(r"[\[\](]", treatment):
-        raise InputError(f"`treatment` {treatment!r} is not a column of the data; columns: {shown}")
+        raise InputError(
+            f"`treatment` {treatment!r} is not a column of the data; columns: {shown}", "treatment"
+        )
     if treatment in columns and treatment not in right:
         raise InputError(
             f"`treatment` {treatment!r} is a column of the data but not a term of the "
-            f"formula's right side: {formula.split('~', 1)[1].strip()}"
+            f"formula's right side: {formula.split('~', 1)[1].strip()}",
+            "treatment",
         )
     for given_name, _, _ in benchmark_specs(benchmarks):
         # C(region) as the covariate table names it, or region as the data does: both
         name = _column_of_term(given_name)
         if name not in columns and not any(name == c or name in c for c in right):
-            raise InputError(f"`benchmark` {name!r} is not a column of the data; columns: {shown}")
+            raise InputError(
+                f"`benchmark` {name!r} is not a column of the data; columns: {shown}", "benchmark"
+            )
         if name in columns and name not in right:
             raise InputError(
                 f"`benchmark` {name!r} is not in the formula: a benchmark must be a measured "
-                "covariate of the model"
+                "covariate of the model",
+                "benchmark",
             )
 
 
@@ -109,11 +116,13 @@ def find_treatment(treatment: str, names: Sequence[str], groups: dict[str, list[
         raise InputError(
             f"`treatment` {treatment!r} spans {len(cols)} columns "
             f"({', '.join(names[i] for i in cols)}); name one of them, or code the "
-            "treatment as a single 0/1 or numeric column"
+            "treatment as a single 0/1 or numeric column",
+            "treatment",
         )
     raise InputError(
         f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-        + ", ".join(names)
+        + ", ".join(names),
+        "treatment",
     )
 
 
@@ -125,7 +134,8 @@ def no_interaction(treatment: str, names: Sequence[str]) -> None:
             raise InputError(
                 f"`treatment` {treatment!r} also enters the interaction {name!r}; partial-R² "
                 "bounds need a single treatment coefficient (fit the model without the "
-                "interaction, or analyse an effect at a fixed covariate value)"
+                "interaction, or analyse an effect at a fixed covariate value)",
+                "treatment",
             )
 
 
@@ -175,7 +185,8 @@ def _resolve_benchmark(name, covariates):
         return hits[0]
     raise InputError(
         f"`benchmark` {name!r} is not an observed covariate of the model; covariates: "
-        + ", ".join(by_name)
+        + ", ".join(by_name),
+        "benchmark",
     )
 
 

@@ -49,13 +49,14 @@ def needs(engine: str) -> None:
         if importlib.util.find_spec(name) is None:
             raise InputError(
                 f"`engine` {engine} needs {name}, which is not installed: "
-                f"pip install 'sensitivity[{EXTRAS[engine]}]'"
+                f"pip install 'sensitivity[{EXTRAS[engine]}]'",
+                "engine",
             )
 
 
 def check_engine(engine: Any) -> str:
     if engine not in ENGINES:
-        raise InputError(f"`engine` must be one of {', '.join(ENGINES)}; got {engine!r}")
+        raise InputError(f"`engine` must be one of {', '.join(ENGINES)}; got {engine!r}", "engine")
     return engine
 
 
@@ -68,11 +69,12 @@ def open_with(path: str | Path, engine: str, argument: str = "data") -> Any:
     """A Parquet file or dataset folder opened by Dask or Spark (lazily)."""
     p = Path(path)
     if not p.exists():
-        raise InputError(f"`{argument}`: not found: {path}")
+        raise InputError(f"`{argument}`: not found: {path}", argument)
     if p.is_file() and p.suffix.lower() not in (".parquet", ".pq"):
         raise InputError(
             f"`{argument}`: --engine {engine} reads Parquet (a file or a dataset folder); "
-            f"got {p.name!r}"
+            f"got {p.name!r}",
+            argument,
         )
     needs(engine)
     if engine == "dask":
@@ -107,8 +109,8 @@ def spark_session() -> Any:
         )
     except Exception as err:  # noqa: BLE001 - Java missing or misconfigured
         text = " ".join(str(err).split())[:200] or type(err).__name__
-        raise InputError(f"`engine` spark could not start Spark (it needs Java 17): {text}"
-                         ) from None  # fmt: skip
+        raise InputError(f"`engine` spark could not start Spark (it needs Java 17): {text}",
+                         "engine") from None  # fmt: skip
     session.sparkContext.setLogLevel("ERROR")
     return session
 
@@ -130,7 +132,7 @@ def partial_r2_engine(data: Any, formula: str, treatment: str, *, engine: str | 
         check_engine(engine)
         if kind is not None and engine != kind:
             raise InputError(f"`engine` {engine}: the data are a {kind} DataFrame; "
-                             f"use engine={kind!r} or leave it out")  # fmt: skip
+                             f"use engine={kind!r} or leave it out", "engine")  # fmt: skip
     if kind is None and engine in ("dask", "spark"):
         data, kind = open_with(data, engine), engine
     if kind is None:
@@ -153,7 +155,7 @@ def finish(total: Partial, formula: str, treatment: str, **options: Any) -> Part
     from .onepass import partial_r2_of_design
 
     if total.used == 0:
-        raise InputError("`data`: no row has a value in every column the formula uses")
+        raise InputError("`data`: no row has a value in every column the formula uses", "data")
     return partial_r2_of_design(design_of(total, formula), formula, treatment, **options)
 
 
@@ -191,7 +193,7 @@ def dask_partition(frame: Any, formula: str) -> Partial:
     except (pa.ArrowInvalid, pa.ArrowTypeError) as err:  # a column of mixed types
         text = " ".join(str(err).split())[:200]
         raise InputError(f"`data`: a column the formula uses mixes types ({text}); give it "
-                         "one type") from None  # fmt: skip
+                         "one type", "data") from None  # fmt: skip
     return partition_factor(arrow_batches(table.to_batches(BATCH_ROWS), wanted), formula)
 
 
@@ -361,10 +363,10 @@ def dataset_batches(path: str | Path, argument: str = "data") -> tuple[list[str]
         dataset = ds.dataset(str(path), format="parquet", partitioning="hive")
     except Exception as err:  # noqa: BLE001 - the folder's problem
         first = str(err).strip().splitlines()[0] if str(err).strip() else type(err).__name__
-        raise InputError(f"`{argument}`: could not read {path} as a Parquet dataset: {first}"
-                         ) from None  # fmt: skip
+        raise InputError(f"`{argument}`: could not read {path} as a Parquet dataset: {first}",
+                         argument) from None  # fmt: skip
     if not dataset.files:
-        raise InputError(f"`{argument}`: {path} holds no Parquet files")
+        raise InputError(f"`{argument}`: {path} holds no Parquet files", argument)
 
     def batches(columns: list[str] | None = None) -> Iterator[Any]:
         for fragment in dataset.get_fragments():
@@ -396,7 +398,7 @@ def partial_r2_dataset(path: str | Path, formula: str, treatment: str, **options
     from .rfactor import patsy_design, plain_design, plain_terms
 
     if not isinstance(formula, str) or "~" not in formula:
-        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
+        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}", "formula")
     source = dataset_source(path)
     check_names(_Header(source.columns), formula, treatment, options.get("benchmarks", ()))
     progress = options.pop("progress", None) or (lambda rows: None)

@@ -32,7 +32,9 @@ WORDS = {
 def parse_errors(errors: object) -> tuple[str, str | None]:
     """("classical"|"hc0".."hc3"|"cluster", cluster column or None) from `errors` text."""
     if not isinstance(errors, str):
-        raise InputError(f"`errors` must be text such as 'hc0' or 'cluster:site'; got {errors!r}")
+        raise InputError(
+            f"`errors` must be text such as 'hc0' or 'cluster:site'; got {errors!r}", "errors"
+        )
     text = errors.strip()
     low = text.lower()
     if low in CHOICES:
@@ -40,7 +42,8 @@ def parse_errors(errors: object) -> tuple[str, str | None]:
     if low.startswith("cluster:") and text.split(":", 1)[1].strip():
         return "cluster", text.split(":", 1)[1].strip()
     raise InputError(
-        f"`errors` must be classical, hc0, hc1, hc2, hc3 or cluster:COLUMN; got {errors!r}"
+        f"`errors` must be classical, hc0, hc1, hc2, hc3 or cluster:COLUMN; got {errors!r}",
+        "errors",
     )
 
 
@@ -60,7 +63,8 @@ def check_errors(model: str, kind: str) -> None:
     if kind in ("hc1", "hc2", "hc3") and model != "ols":
         raise InputError(
             f"`errors` {kind} is computed for OLS fits only; for a {model} fit statsmodels "
-            "gives the HC0 sandwich under every HC name, so use hc0 (or cluster:COLUMN)"
+            "gives the HC0 sandwich under every HC name, so use hc0 (or cluster:COLUMN)",
+            "errors",
         )
 
 
@@ -82,16 +86,19 @@ def robust_refit(results: Any, model: str, kind: str, groups: Any = None) -> Any
 def cluster_groups(data: Any, results: Any, column: str) -> np.ndarray:
     """The cluster labels of the rows the fit used (rows with missing values left out)."""
     if column not in data.columns:
-        raise InputError(f"`errors` cluster:{column}: {column!r} is not a column of the data")
+        raise InputError(
+            f"`errors` cluster:{column}: {column!r} is not a column of the data", "errors"
+        )
     labels = getattr(getattr(results.model, "data", None), "row_labels", None)
     values = data[column] if labels is None else data.loc[labels, column]
     if values.isna().any():
         raise InputError(
-            f"`errors` cluster:{column}: the column has missing values in rows the fit uses"
+            f"`errors` cluster:{column}: the column has missing values in rows the fit uses",
+            "errors",
         )
     codes = np.unique(values.astype(str).to_numpy(), return_inverse=True)[1]
     if np.unique(codes).size < 2:
-        raise InputError(f"`errors` cluster:{column}: need at least 2 clusters; got 1")
+        raise InputError(f"`errors` cluster:{column}: need at least 2 clusters; got 1", "errors")
     return codes
 
 

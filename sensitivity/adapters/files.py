@@ -34,12 +34,16 @@ def read_table(path: str | Path, argument: str = "data") -> Any:
         else:
             frame = pd.read_parquet(p)
     except ImportError as err:
-        raise InputError(f"`{argument}`: reading {kind} needs an optional package: {err}") from None
+        raise InputError(
+            f"`{argument}`: reading {kind} needs an optional package: {err}", argument
+        ) from None
     except Exception as err:  # noqa: BLE001 - any parser failure is the file's, not ours
         first = str(err).strip().splitlines()[0] if str(err).strip() else type(err).__name__
-        raise InputError(f"`{argument}`: could not read {path} as {kind}: {first}") from None
+        raise InputError(
+            f"`{argument}`: could not read {path} as {kind}: {first}", argument
+        ) from None
     if frame.shape[0] == 0 or frame.shape[1] == 0:
-        raise InputError(f"`{argument}`: {path} has no data rows")
+        raise InputError(f"`{argument}`: {path} has no data rows", argument)
     return frame
 
 
@@ -54,7 +58,8 @@ def file_kind(path: str | Path, argument: str = "file") -> str:
     if kind is None:
         raise InputError(
             f"`{argument}`: cannot tell the format of {p.name!r} from its extension; use one "
-            f"of {', '.join(sorted(READERS))}"
+            f"of {', '.join(sorted(READERS))}",
+            argument,
         )
     return kind
 
@@ -64,9 +69,9 @@ def checked_file(path: str | Path, argument: str) -> tuple[Path, str]:
     p = Path(path)
     kind = file_kind(p, argument)
     if not p.is_file():
-        raise InputError(f"`{argument}`: file not found: {path}")
+        raise InputError(f"`{argument}`: file not found: {path}", argument)
     if p.stat().st_size == 0:
-        raise InputError(f"`{argument}`: {path} is empty")
+        raise InputError(f"`{argument}`: {path} is empty", argument)
     return p, kind
 
 
@@ -118,7 +123,9 @@ def resolve_delimiter(path: str | Path, delimiter: str = "auto", argument: str =
     """For a command, before reading: the file checked, and the delimiter a text file will be
     read with ("" for Excel and Parquet)."""
     if delimiter != "auto" and delimiter not in DELIMITERS:
-        raise InputError(f"`delimiter` must be auto, ',', ';' or tab; got {delimiter!r}")
+        raise InputError(
+            f"`delimiter` must be auto, ',', ';' or tab; got {delimiter!r}", "delimiter"
+        )
     p, kind = checked_file(path, argument)
     return text_delimiter(p, kind, delimiter) if kind in ("csv", "tsv") else ""
 
@@ -177,7 +184,9 @@ def read_frames(path: str | Path, argument: str = "file", batch_rows: int = BATC
     share = share or Share()
     p, kind = checked_file(path, argument)
     if delimiter != "auto" and delimiter not in DELIMITERS:
-        raise InputError(f"`delimiter` must be auto, ',', ';' or tab; got {delimiter!r}")
+        raise InputError(
+            f"`delimiter` must be auto, ',', ';' or tab; got {delimiter!r}", "delimiter"
+        )
     try:
         if kind in ("csv", "tsv"):
             size = p.stat().st_size
@@ -204,13 +213,17 @@ def read_frames(path: str | Path, argument: str = "file", batch_rows: int = BATC
     except InputError:
         raise
     except ImportError as err:
-        raise InputError(f"`{argument}`: reading {kind} needs an optional package: {err}") from None
+        raise InputError(
+            f"`{argument}`: reading {kind} needs an optional package: {err}", argument
+        ) from None
     except Exception as err:  # noqa: BLE001 - a parser failure is the file's, not ours
         first = str(err).strip().splitlines()[0] if str(err).strip() else type(err).__name__
         hint = ""
         if share.delimiter not in (None, ";") and sniff_delimiter(p, "") == ";":
             hint = " (its cells look separated by ';': try --delimiter ';')"
-        raise InputError(f"`{argument}`: could not read {path} as {kind}: {first}{hint}") from None
+        raise InputError(
+            f"`{argument}`: could not read {path} as {kind}: {first}{hint}", argument
+        ) from None
 
 
 def text_header(path: Path, delimiter: str, argument: str) -> list[str]:
@@ -220,10 +233,12 @@ def text_header(path: Path, delimiter: str, argument: str) -> list[str]:
     with open(path, newline="", encoding="utf-8-sig") as fh:
         header = next(csv.reader(fh, delimiter=delimiter), None)
     if not header:
-        raise InputError(f"`{argument}`: {path} has no header row")
+        raise InputError(f"`{argument}`: {path} has no header row", argument)
     if len(set(header)) != len(header):
         twice = sorted({h for h in header if header.count(h) > 1})
-        raise InputError(f"`{argument}`: {path} has columns named twice: {', '.join(twice)}")
+        raise InputError(
+            f"`{argument}`: {path} has columns named twice: {', '.join(twice)}", argument
+        )
     return header
 
 
@@ -251,7 +266,7 @@ def _text_frames(path: Path, delimiter: str, argument: str) -> Any:
         rows += frame.height
         yield frame, end
     if not rows:
-        raise InputError(f"`{argument}`: {path} has no data rows")
+        raise InputError(f"`{argument}`: {path} has no data rows", argument)
 
 
 #: The size of the pieces `read_frames` parses: smaller than the data route's, as each piece

@@ -113,7 +113,8 @@ def parse_errors(errors: str | None) -> tuple[str, str | None]:
     if kind in ("classical", "hc0", "hc1", "hc2", "hc3") and not column:
         return kind, None
     raise InputError(
-        f"`errors` must be classical, hc0, hc1, hc2, hc3 or cluster:COLUMN; got {errors!r}"
+        f"`errors` must be classical, hc0, hc1, hc2, hc3 or cluster:COLUMN; got {errors!r}",
+        "errors",
     )
 
 
@@ -143,21 +144,24 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     from .rfactor import TriangularFactor, one_blas_thread, plain_design, plain_terms
 
     if model not in MODELS:
-        raise InputError(f"`model` must be one of {', '.join(MODELS)} here; got {model!r}")
+        raise InputError(f"`model` must be one of {', '.join(MODELS)} here; got {model!r}", "model")
     kind, cluster = parse_errors(errors)
     if kind not in ERRORS:
         raise InputError(
             f"`errors` {kind} is computed for OLS fits only; for a {model} fit statsmodels "
-            "gives the HC0 sandwich under every HC name, so use hc0 (or cluster:COLUMN)"
+            "gives the HC0 sandwich under every HC name, so use hc0 (or cluster:COLUMN)",
+            "errors",
         )
     plain = plain_terms(formula) if isinstance(formula, str) else None
     if plain is None:
         raise InputError(f"`formula` {formula!r}: this route takes columns and C(col) joined "
-                         "by '+'")  # fmt: skip
+                         "by '+'", "formula")  # fmt: skip
     source = frame_source(data) if hasattr(data, "columns") else file_source(data, "data")
     check_names(_Header(source.columns), formula, treatment)
     if cluster is not None and cluster not in source.columns:
-        raise InputError(f"`errors` cluster:{cluster}: {cluster!r} is not a column of the data")
+        raise InputError(
+            f"`errors` cluster:{cluster}: {cluster!r} is not a column of the data", "errors"
+        )
     scratch, codes_scratch = Scratch(), Scratch()
     first = TriangularFactor()
     table: dict[Any, int] = {}
@@ -168,10 +172,10 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         y = rows[:, 0]
         if model == "logit" and ((y < 0) | (y > 1)).any():
             raise InputError(f"`formula` {formula!r} could not be fitted (logit): endog must "
-                             "be in the unit interval.")  # fmt: skip
+                             "be in the unit interval.", "formula")  # fmt: skip
         if model == "poisson" and (y < 0).any():
             raise InputError(f"`formula` {formula!r} could not be fitted (poisson): the "
-                             "outcome must not be negative")  # fmt: skip
+                             "outcome must not be negative", "formula")  # fmt: skip
         scratch.add(rows)
         seen["positive"] += int(np.count_nonzero(y > 0))
         if rows.shape[0]:
@@ -186,7 +190,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
             codes = _cluster_codes(*extras[cluster], table)
             if (codes < 0).any():
                 raise InputError(f"`errors` cluster:{cluster}: the column has missing values in "
-                                 "rows the fit uses")  # fmt: skip
+                                 "rows the fit uses", "errors")  # fmt: skip
             codes_scratch.add(codes[:, None].astype(float))
         z, root, _ = working(rows[:, 1:], y, None, model)
         weighted = np.multiply(rows, root[:, None], order="F")
@@ -200,7 +204,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         scratch.done()
         codes_scratch.done()
         if design.used == 0:
-            raise InputError("`data`: no row has a value in every column the formula uses")
+            raise InputError("`data`: no row has a value in every column the formula uses", "data")
         names = design.names
         j = find_treatment(treatment, names, design.groups)
         no_interaction(names[j], names)
@@ -211,13 +215,13 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         if j not in kept:
             raise InputError(f"`treatment` {names[j]!r} is a linear combination of the "
                              "covariates in these data: its coefficient is not "
-                             "identified")  # fmt: skip
+                             "identified", "treatment")  # fmt: skip
         if len(kept) < len(names):
             left = ", ".join(n for i, n in enumerate(names) if i not in kept)
             notes.append(f"Left out as linear combinations of the columns before them: {left}.")
         if design.used - len(kept) < 1:
             raise InputError(f"`data`: the fit has {design.used - len(kept)} residual degrees "
-                             "of freedom; need at least 1")  # fmt: skip
+                             "of freedom; need at least 1", "data")  # fmt: skip
         width = first.r.shape[1]
         slots = [design.slots[i] for i in kept]
         outcome = _Model(model, 0, slots)
@@ -234,7 +238,9 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
             models.append(treated)
         clusters = len(table)
         if cluster is not None and clusters < 2:
-            raise InputError(f"`errors` cluster:{cluster}: need at least 2 clusters; got 1")
+            raise InputError(
+                f"`errors` cluster:{cluster}: need at least 2 clusters; got 1", "errors"
+            )
         binary = bool(low[0] == 0 and high[0] == 1 and seen["binary"][0])
         if errors is None and model == "poisson" and binary:
             kind = "hc0"  # modified Poisson (Zou 2004): robust errors by default
@@ -259,7 +265,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         if outcome.failed or not outcome.done or outcome.beta is None:
             raise InputError(f"`data`: the {model} fit did not converge: a covariate or the "
                              "treatment predicts the outcome (nearly) exactly (perfect "
-                             "separation), so the estimate is not defined")  # fmt: skip
+                             "separation), so the estimate is not defined", "data")  # fmt: skip
         beta = outcome.beta
         cov, cov_type = _covariance(outcome, kind, design.used, len(kept), clusters)
         ov = None if treated is None else _overlap(scratch, width, treated, t_slot)

@@ -39,9 +39,13 @@ def _model(results: Any) -> tuple[Any, list[str]]:
         )
     weights = getattr(model, "weights", None)
     if weights is not None and not np.allclose(np.asarray(weights.values2d, float), 1.0):
-        raise InputError("`results` is a weighted fit; partial-R² bounds need unweighted OLS")
+        raise InputError(
+            "`results` is a weighted fit; partial-R² bounds need unweighted OLS", "results"
+        )
     if getattr(model, "other_effects", False):
-        raise InputError("`results` absorbs other effects; only entity and time effects are read")
+        raise InputError(
+            "`results` absorbs other effects; only entity and time effects are read", "results"
+        )
     notes = []
     if str(results._cov_type) != "Unadjusted":
         notes += classical_errors_used(str(results._cov_type))
@@ -74,7 +78,8 @@ def partial_r2_from_linearmodels(
     if treatment not in names:
         raise InputError(
             f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-            + ", ".join(names)
+            + ", ".join(names),
+            "treatment",
         )
     no_interaction(treatment, names)
     j = names.index(treatment)

@@ -30,13 +30,23 @@ def matched_differences(
 
         frame = read_table(data, "data")
     if differences and (treated or control):
-        raise InputError("give `differences`, or `treated` and `control`, not both")
+        raise InputError(
+            "give `differences`, or `treated` and `control`, not both",
+            ("differences", "treated", "control"),
+        )
     cols = [differences] if differences else [treated, control]
     if not all(cols):
-        raise InputError("`data` needs `treated` and `control`, or `differences`")
-    for col in cols:
+        raise InputError(
+            "`data` needs `treated` and `control`, or `differences`",
+            ("data", "treated", "control", "differences"),
+        )
+    named = ("differences",) if differences else ("treated", "control")
+    for col, argument in zip(cols, named, strict=True):
         if col not in frame.columns:
-            raise InputError(f"`data`: no column {col!r}; columns: {', '.join(frame.columns)}")
+            raise InputError(
+                f"`{argument}`: `data` has no column {col!r}; columns: {', '.join(frame.columns)}",
+                (argument, "data"),
+            )
     import pandas as pd
 
     values = frame[cols].apply(lambda c: pd.to_numeric(c, errors="coerce"))

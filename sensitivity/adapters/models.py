@@ -68,11 +68,13 @@ def model_kind(results: Any) -> tuple[str, str]:
             return "negbin", "rr"
         raise InputError(
             f"`results`: a GLM with family {family} and link {link} has no E-value route; "
-            "use a logit or log link (binomial), or a log link (Poisson, negative binomial)"
+            "use a logit or log link (binomial), or a log link (Poisson, negative binomial)",
+            "results",
         )
     raise InputError(
         f"`results` must be a fitted OLS, logistic, log-binomial, Poisson, negative binomial "
-        f"or Cox model; got {name or type(results).__name__}"
+        f"or Cox model; got {name or type(results).__name__}",
+        "results",
     )
 
 
@@ -80,7 +82,9 @@ def _converged(results: Any) -> None:
     retvals = getattr(results, "mle_retvals", None)
     converged = getattr(results, "converged", None)
     if retvals is not None and retvals.get("converged") is False or converged is False:
-        raise InputError("`results`: the model did not converge; its estimate cannot be used")
+        raise InputError(
+            "`results`: the model did not converge; its estimate cannot be used", "results"
+        )
 
 
 def _treatment_index(names: list[str], treatment: str) -> int:
@@ -88,7 +92,8 @@ def _treatment_index(names: list[str], treatment: str) -> int:
         return names.index(treatment)
     raise InputError(
         f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-        + ", ".join(map(str, names))
+        + ", ".join(map(str, names)),
+        "treatment",
     )
 
 
@@ -168,7 +173,9 @@ def evalue_from_model(
     """
     kind, scale = model_kind(results)
     if kind == "ols":
-        raise InputError("`results` is an OLS fit: use the partial-R² route (from_model)")
+        raise InputError(
+            "`results` is an OLS fit: use the partial-R² route (from_model)", "results"
+        )
     if kind == "cox" and type(getattr(results, "model", None)).__name__ != "PHReg":
         return _lifelines(results, treatment, contrast=contrast, alpha=alpha, outcome=outcome)
     _converged(results)
@@ -273,7 +280,8 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
     if treatment not in summary.index:
         raise InputError(
             f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-            + ", ".join(map(str, summary.index))
+            + ", ".join(map(str, summary.index)),
+            "treatment",
         )
     b = float(summary.loc[treatment, "coef"])
     se = float(summary.loc[treatment, "se(coef)"])
@@ -313,13 +321,15 @@ def fit(
         kind, column = parse_errors(errors)
         check_errors(model, kind)
     if model not in KINDS:
-        raise InputError(f"`model` must be one of {', '.join(KINDS)}; got {model!r}")
+        raise InputError(f"`model` must be one of {', '.join(KINDS)}; got {model!r}", "model")
     if model == "cox" and event is None:
-        raise InputError("`event` is needed with model cox: the column that is 1 for an event")
+        raise InputError(
+            "`event` is needed with model cox: the column that is 1 for an event", "event"
+        )
     if model != "cox" and event is not None:
-        raise InputError(f"`event` applies to model cox only; got model {model}")
+        raise InputError(f"`event` applies to model cox only; got model {model}", "event")
     if event is not None and event not in data.columns:
-        raise InputError(f"`event` {event!r} is not a column of the data")
+        raise InputError(f"`event` {event!r} is not a column of the data", "event")
     fitters = {
         "ols": lambda: smf.ols(formula, data).fit(),
         "logit": lambda: smf.logit(formula, data).fit(disp=0),
@@ -336,14 +346,15 @@ def fit(
             if "separation" in text.lower():
                 raise InputError(
                     f"`data`: perfect separation in the {model} fit: a covariate or the "
-                    "treatment predicts the outcome exactly, so the estimate is not defined"
+                    "treatment predicts the outcome exactly, so the estimate is not defined",
+                    "data",
                 ) from None
             if "converge" in text.lower():
                 raise InputError(
-                    f"`data`: the {model} fit did not converge ({text[:120]})"
+                    f"`data`: the {model} fit did not converge ({text[:120]})", "data"
                 ) from None
             raise InputError(
-                f"`formula` {formula!r} could not be fitted ({model}): {text[:240]}"
+                f"`formula` {formula!r} could not be fitted ({model}): {text[:240]}", "formula"
             ) from None
     _converged(results)
     if errors is None:
@@ -351,7 +362,9 @@ def fit(
     if kind == "classical":
         return results
     if model == "cox" and kind not in ("hc0", "cluster"):
-        raise InputError(f"`errors` {kind}: a Cox fit takes classical, hc0 or cluster:COLUMN")
+        raise InputError(
+            f"`errors` {kind}: a Cox fit takes classical, hc0 or cluster:COLUMN", "errors"
+        )
     groups = cluster_groups(data, results, column) if column else None
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # the refit starts at the first fit's estimate
@@ -384,7 +397,7 @@ def evalue_from_data(
     from .glm import evalue_one_pass, supports
 
     if event is not None and model != "cox" and model in KINDS:
-        raise InputError(f"`event` applies to model cox only; got model {model}")
+        raise InputError(f"`event` applies to model cox only; got model {model}", "event")
     if supports(formula, model, errors):  # logit and Poisson: fitted in passes over pieces
         return evalue_one_pass(data, formula, treatment, model, contrast=contrast, alpha=alpha,
                                outcome=outcome, errors=errors)  # fmt: skip
@@ -426,7 +439,7 @@ def ols_report_from_data(data: Any, formula: str, treatment: str, *, contrast: f
     from .onepass import partial_r2_one_pass
 
     if event is not None:
-        raise InputError("`event` applies to model cox only; got model ols")
+        raise InputError("`event` applies to model cox only; got model ols", "event")
     pr2 = partial_r2_one_pass(data, formula, treatment, contrast=contrast, **options)
     ev = pr2.evalue
     if ev is None or ev.sd is None or pr2.n is None:  # a fit from data has all three

@@ -91,7 +91,7 @@ def partial_r2_one_pass(data: Any, formula: str, treatment: str, **options: Any
     function called with the number of rows read after each batch.
     """
     if not isinstance(formula, str) or "~" not in formula:
-        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
+        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}", "formula")
     source = frame_source(data) if hasattr(data, "columns") else file_source(data, "data")
     check_names(_Header(source.columns), formula, treatment, options.get("benchmarks", ()))
     progress = options.pop("progress", None) or (lambda rows: None)
@@ -110,7 +110,7 @@ def partial_r2_of_design(design: Design, formula: str, treatment: str, **options
     factors, `partials.py`) found: the rank, the treatment's coefficient and every covariate's
     partial R². Options are those of `partial_r2_from_model`."""
     if design.used == 0:
-        raise InputError("`data`: no row has a value in every column the formula uses")
+        raise InputError("`data`: no row has a value in every column the formula uses", "data")
     names = design.names
     j = find_treatment(treatment, names, design.groups)
     no_interaction(names[j], names)
@@ -119,14 +119,15 @@ def partial_r2_of_design(design: Design, formula: str, treatment: str, **options
     kept = _kept(r[:, :-1], design.used)
     if design.used - len(kept) < 2:  # too few rows: say so before any rank problem
         raise InputError(f"`data`: the fit has {design.used - len(kept)} residual degrees of "
-                         "freedom; need at least 2")  # fmt: skip
+                         "freedom; need at least 2", "data")  # fmt: skip
     notes: list[str] = []
     if design.read > design.used:
         notes.append(f"{design.read - design.used} of {design.read} rows had missing values in "
                      "the model's columns and were left out of the fit.")  # fmt: skip
     if len(rest) not in kept:
         raise InputError(f"`treatment` {names[j]!r} is a linear combination of the covariates "
-                         "in these data: its coefficient is not identified")  # fmt: skip
+                         "in these data: its coefficient is not identified",
+                         "treatment")  # fmt: skip
     dropped = [names[rest[i]] for i in range(len(rest)) if i not in kept]
     if dropped:
         notes.append("Left out as linear combinations of the columns before them: "

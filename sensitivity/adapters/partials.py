@@ -37,12 +37,13 @@ __all__ = ["Partial", "arrow_batches", "combine", "design_of", "partition_factor
 def plain_only(formula: str) -> tuple[str, list, bool]:
     """(outcome, terms, intercept) of a formula the engines can split; InputError otherwise."""
     if not isinstance(formula, str) or "~" not in formula:
-        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
+        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}", "formula")
     plain = plain_terms(formula)
     if plain is None:
         raise InputError(
             f"`formula` {formula!r}: on Spark or Dask a formula may hold only columns and "
-            "C(column) terms joined by '+' (transform a column in the engine first)"
+            "C(column) terms joined by '+' (transform a column in the engine first)",
+            "formula",
         )
     return plain
 
@@ -69,7 +70,8 @@ def _kind(term: str, column: str, had: str, kind: str) -> str:
         return "number"
     raise InputError(
         f"`data`: column {column!r} is read as {had} in one partition and as {kind} in "
-        "another; give it one type in every partition"
+        "another; give it one type in every partition",
+        "data",
     )
 
 
@@ -102,7 +104,9 @@ def partition_factor(batches: Iterable[Batch], formula: str) -> Partial:
     for batch in batches:
         kind, y = batch[outcome]
         if kind not in NUMERIC:
-            raise InputError(f"`formula`: the outcome column {outcome!r} must be numeric")
+            raise InputError(
+                f"`formula`: the outcome column {outcome!r} must be numeric", "formula"
+            )
         keep = ~np.isnan(y)
         columns: list[tuple[tuple, np.ndarray]] = [(("y",), y)]
         if intercept:
@@ -125,7 +129,7 @@ def partition_factor(batches: Iterable[Batch], formula: str) -> Partial:
                     if len(part.levels[term.name]) > MAX_LEVELS:
                         raise InputError(f"`data`: column {term.column!r} has more than "
                                          f"{MAX_LEVELS:,} distinct values to code as "
-                                         "categories")  # fmt: skip
+                                         "categories", "data")  # fmt: skip
                 columns.append((("level", term.name, level), (codes == i).astype(float)))
         kept = int(keep.sum())
         for key, _ in columns:

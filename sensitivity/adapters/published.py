@@ -32,23 +32,27 @@ def read_summary(
     named = read["scale"]
     if scale is not None and named is not None and scale != named:
         raise InputError(
-            f"`scale` {scale!r} differs from the scale the text names ({named!r}); give one"
+            f"`scale` {scale!r} differs from the scale the text names ({named!r}); give one",
+            "scale",
         )
     use_scale = scale or named
     if use_scale is None:
         raise InputError(
             f"`{argument}` names no scale (write e.g. 'HR 0.72 (95% CI 0.60-0.86)'), or give "
-            "the scale beside it"
+            "the scale beside it",
+            argument,
         )
     if use_scale == "rd":
         raise InputError(
             f"`{argument}` is a risk difference: its E-value needs the 2 x 2 counts (scale rd "
-            "with counts)"
+            "with counts)",
+            argument,
         )
     level = read["level"]
     if ci_level is not None and level is not None and abs(float(ci_level) - float(level)) > 1e-12:  # type: ignore[arg-type]
         raise InputError(
-            f"`ci_level` {ci_level:g} differs from the level the text names ({level:g}); give one"
+            f"`ci_level` {ci_level:g} differs from the level the text names ({level:g}); give one",
+            "ci_level",
         )
     use_level = float(level if level is not None else ci_level if ci_level is not None else 0.95)  # type: ignore[arg-type]
     return {**read, "use_scale": use_scale, "use_level": use_level}

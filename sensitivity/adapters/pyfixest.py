@@ -45,7 +45,8 @@ def absorbed_levels(codes: Any) -> int:
     if frame.shape[1] > 2:
         raise InputError(
             "`results` absorbs more than two fixed effects; their rank is not read here. "
-            "Refit with at most two absorbed effects and the rest as dummy covariates"
+            "Refit with at most two absorbed effects and the rest as dummy covariates",
+            "results",
         )
     levels = [np.unique(frame[:, c], return_inverse=True)[1] for c in range(frame.shape[1])]
     sizes = [int(lv.max()) + 1 for lv in levels]
@@ -71,12 +72,15 @@ def partial_r2_from_pyfixest(
             " (for IV, Poisson and other fits use the E-value route on their scale)"
         )
     if getattr(results, "_has_weights", False):
-        raise InputError("`results` is a weighted fit; partial-R² bounds need unweighted OLS")
+        raise InputError(
+            "`results` is a weighted fit; partial-R² bounds need unweighted OLS", "results"
+        )
     names = [str(c) for c in results._coefnames]
     if treatment not in names:
         raise InputError(
             f"`treatment` {treatment!r} is not a coefficient of the model; coefficients: "
-            + ", ".join(names)
+            + ", ".join(names),
+            "treatment",
         )
     no_interaction(treatment, names)
     fit_notes = []

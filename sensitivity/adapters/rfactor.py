@@ -236,7 +236,9 @@ def plain_design(source: Source, outcome: str, terms: list[Term], intercept: boo
             for batch in batches:
                 kind, y = batch[outcome]
                 if kind not in NUMERIC:
-                    raise InputError(f"`formula`: the outcome column {outcome!r} must be numeric")
+                    raise InputError(
+                        f"`formula`: the outcome column {outcome!r} must be numeric", "formula"
+                    )
                 rows = y.size
                 keep = ~np.isnan(y)
                 parts: list[tuple[int, np.ndarray]] = [(0, y)]
@@ -330,7 +332,7 @@ def _level_codes(term: Term, values: Any, kind: str) -> np.ndarray:
         term.levels += new.to_pylist()
         if len(term.levels) > MAX_LEVELS:
             raise InputError(f"`data`: column {term.column!r} has more than {MAX_LEVELS:,} "
-                             "distinct values to code as categories")  # fmt: skip
+                             "distinct values to code as categories", "data")  # fmt: skip
         codes = pc.index_in(values, value_set=term.table)
     if codes is None:  # nothing met yet, and every cell of this batch missing
         return np.full(len(values), -1, np.int64)
@@ -404,9 +406,11 @@ def patsy_design(source: Source, formula: str, progress: Callable[[int], None]) 
             raise
         except Exception as err:  # noqa: BLE001 - patsy's errors are the user's formula
             text = " ".join(str(err).split()) or type(err).__name__
-            raise InputError(f"`formula` {formula!r} could not be fitted: {text[:300]}") from None
+            raise InputError(
+                f"`formula` {formula!r} could not be fitted: {text[:300]}", "formula"
+            ) from None
         if len(y_info.column_names) != 1:
-            raise InputError("`formula`: the outcome must be a single numeric column")
+            raise InputError("`formula`: the outcome must be a single numeric column", "formula")
         names = list(x_info.column_names)
         factor, moments, read, used = TriangularFactor(len(names) + 1), Moments(), 0, 0
         shift: dict[int, float] = {}

@@ -40,7 +40,7 @@ def spark_kind(model: Any) -> tuple[str, str]:
         return "ols", "md"
     if name != "GeneralizedLinearRegressionModel":
         raise InputError(f"`results` must be a fitted Spark GeneralizedLinearRegression or "
-                         f"LinearRegression model; got {name}")  # fmt: skip
+                         f"LinearRegression model; got {name}", "results")  # fmt: skip
     family = model.getFamily().lower()
     link = (model.getLink() if model.isSet("link") else "") or DEFAULT_LINK.get(family, "")
     if family == "binomial" and link == "logit":
@@ -52,7 +52,8 @@ def spark_kind(model: Any) -> tuple[str, str]:
     raise InputError(
         f"`results`: a Spark GLM with family {family} and link {link} has no E-value route; "
         "use binomial with the logit link, Poisson with the log link, or Gaussian with the "
-        "identity link"
+        "identity link",
+        "results",
     )
 
 
@@ -68,7 +69,8 @@ def feature_names(model: Any, summary: Any) -> list[str]:
     if len(found) != width:
         raise InputError(
             f"`results`: the features column {column!r} carries no names for its {width} "
-            "columns; assemble it with VectorAssembler or RFormula so the treatment can be named"
+            "columns; assemble it with VectorAssembler or RFormula so the treatment can be named",
+            "results",
         )
     return [found[i] for i in range(width)]
 
@@ -77,22 +79,24 @@ def _parts(model: Any, treatment: str) -> dict[str, Any]:
     """The treatment's coefficient and standard error, and the fit's sizes."""
     if model.getOrDefault("regParam") > 0:
         raise InputError("`results`: the model was fitted with regParam > 0; a penalised "
-                         "fit's standard errors are not those of the estimate")  # fmt: skip
+                         "fit's standard errors are not those of the estimate",
+                         "results")  # fmt: skip
     if not model.hasSummary:
         raise InputError("`results`: the model has no training summary (a loaded model "
-                         "keeps none); refit it, or use the estimate and interval")  # fmt: skip
+                         "keeps none); refit it, or use the estimate and interval",
+                         "results")  # fmt: skip
     summary = model.summary
     names = feature_names(model, summary)
     if treatment not in names:
         raise InputError(f"`treatment` {treatment!r} is not a coefficient of the model; "
-                         "coefficients: " + ", ".join(names))  # fmt: skip
+                         "coefficients: " + ", ".join(names), "treatment")  # fmt: skip
     j = names.index(treatment)
     try:
         errors = list(summary.coefficientStandardErrors)
     except Exception as err:  # noqa: BLE001 - Spark's own refusal (solver l-bfgs)
         text = " ".join(str(err).split())[:160]
         raise InputError(f"`results`: the summary has no standard errors ({text}); fit "
-                         "with solver='normal'") from None  # fmt: skip
+                         "with solver='normal'", "results") from None  # fmt: skip
     label = model.getLabelCol()
     frame = summary.predictions
     from pyspark.sql import functions as F
@@ -137,7 +141,9 @@ def from_spark_model(model: Any, treatment: str, *, contrast: float = 1.0, alpha
             sd_outcome=p["sd"], alpha=alpha, contrast=contrast, notes=(note,), **options,
         )  # fmt: skip
     if options:
-        raise InputError(f"`{next(iter(options))}` applies to a linear model only")
+        raise InputError(
+            f"`{next(iter(options))}` applies to a linear model only", next(iter(options))
+        )
     from scipy.special import ndtri
 
     z = float(ndtri(1 - alpha / 2))

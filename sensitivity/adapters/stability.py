@@ -21,7 +21,6 @@ def stability_inputs_from_data(
 
     from ..common.errors import InputError
     from .design import check_names
-    from .statsmodels import fit_formula
 
     if hasattr(data, "columns"):
         frame = data
@@ -29,14 +28,22 @@ def stability_inputs_from_data(
         from .files import read_table
 
         frame = read_table(data, "data")
-    check_names(frame, formula_short, treatment)
-    check_names(frame, formula_long, treatment)
-    fit_short, _ = fit_formula(frame, formula_short)
-    fit_long, _ = fit_formula(frame, formula_long)
+    for argument, formula in (("formula_short", formula_short), ("formula_long", formula_long)):
+        try:
+            check_names(frame, formula, treatment)
+        except InputError as err:  # the shared check knows one `formula`
+            raise err.renamed({"formula": argument}) from None
+    fit_short, _ = _fitted(frame, formula_short, "formula_short")
+    fit_long, _ = _fitted(frame, formula_long, "formula_long")
     if int(fit_short.nobs) != int(fit_long.nobs):
-        raise InputError("`formula_short` and `formula_long` must be fitted on the same rows")
+        raise InputError(
+            "`formula_short` and `formula_long` must be fitted on the same rows",
+            ("formula_short", "formula_long"),
+        )
     if treatment not in fit_long.params.index:
-        raise InputError(f"`treatment` {treatment!r} is not a coefficient of the long model")
+        raise InputError(
+            f"`treatment` {treatment!r} is not a coefficient of the long model", "treatment"
+        )
     terms = [t.strip() for t in formula_long.split("~", 1)[1].split("+")]
     controls = " + ".join(t for t in terms if t != treatment) or "1"
     rows = fit_long.model.data.row_labels
@@ -85,3 +92,14 @@ def coefficient_stability_from_data(
 
     numbers = stability_inputs_from_data(data, formula_short, formula_long, treatment)
     return coefficient_stability(**numbers, r2_max=r2_max, delta=delta, target=target)
+
+
+def _fitted(frame: Any, formula: str, argument: str) -> Any:
+    """`fit_formula`, its errors naming the formula as `argument`."""
+    from ..common.errors import InputError
+    from .statsmodels import fit_formula
+
+    try:
+        return fit_formula(frame, formula)
+    except InputError as err:
+        raise err.renamed({"formula": argument}) from None

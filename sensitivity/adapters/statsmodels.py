@@ -57,7 +57,7 @@ def check_ols(results: Any) -> tuple[Any, list[str]]:
     model = getattr(results, "model", None)
     if model is None or not hasattr(results, "params"):
         raise InputTypeError(
-            f"`results` must be a fitted statsmodels model; got {type(results).__name__}"
+            f"`results` must be a fitted statsmodels model; got {type(results).__name__}", "results"
         )
     if not isinstance(model, OLS) or not hasattr(results, "normalized_cov_params"):
         raise InputError(NOT_OLS.format(kind=type(model).__name__))
@@ -170,17 +170,21 @@ def fit_formula(data: Any, formula: str) -> tuple[Any, list[str]]:
     from pandas.api.types import is_numeric_dtype
 
     if not isinstance(formula, str) or "~" not in formula:
-        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}")
+        raise InputError(f"`formula` must look like 'y ~ t + x1 + x2'; got {formula!r}", "formula")
     outcome = formula.split("~", 1)[0].strip()
     if outcome in data.columns and not is_numeric_dtype(data[outcome]):
-        raise InputError(f"`formula`: the outcome column {outcome!r} must be numeric")
+        raise InputError(f"`formula`: the outcome column {outcome!r} must be numeric", "formula")
     try:
         results = smf.ols(formula, data=data).fit()
     except Exception as err:  # noqa: BLE001 - patsy/formulaic errors are the user's formula
         text = " ".join(str(err).split()) or type(err).__name__
-        raise InputError(f"`formula` {formula!r} could not be fitted: {text[:300]}") from None
+        raise InputError(
+            f"`formula` {formula!r} could not be fitted: {text[:300]}", "formula"
+        ) from None
     if results.model.endog.ndim > 1 and results.model.endog.shape[1] > 1:
-        raise InputError(f"`formula`: the outcome {outcome!r} must be a single numeric column")
+        raise InputError(
+            f"`formula`: the outcome {outcome!r} must be a single numeric column", "formula"
+        )
     dropped = len(data) - int(results.nobs)
     notes = []
     if dropped:
@@ -190,7 +194,9 @@ def fit_formula(data: Any, formula: str) -> tuple[Any, list[str]]:
         )
     if results.df_resid < 2:
         raise InputError(
-            f"`data`: the fit has {results.df_resid:g} residual degrees of freedom; need at least 2"
+            f"`data`: the fit has {results.df_resid:g} residual degrees of freedom; "
+            "need at least 2",
+            "data",
         )
     return results, notes
 

@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import re
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
 
 import click
+
+from ._typed import Named, _refuse_non_finite, _refuse_repeats, _typed, namer
 
 FORMATS = ("text", "json", "csv", "markdown", "latex")
 #: The arguments of the running command line (set by cli.py), for a report to quote.
@@ -35,7 +37,18 @@ class Number(click.ParamType):
 
 class Command(click.Command):
     """A command whose positional arguments may be negative numbers (an SMD of -0.4) while
-    an unknown or misspelt option is still an error that names it."""
+    an unknown or misspelt option is still an error that names it.
+
+    Bad input names the option as the user typed it: an `InputError` carries the Python
+    argument it is about (`ci_level`), and the command renders it as its option (`--ci-level`,
+    or `-o` where the user typed the short alias). `names` maps a Python argument that is not
+    its option's name: to an option (``{"lam": "--lambda"}``) or to one value of a
+    multi-value option (``{"cd2": ("--strength", 2)}``, "the second value of `--strength`");
+    a command adds names that depend on its input with `name_arguments`."""
+
+    def __init__(self, *args: Any, names: Mapping[str, Named] | None = None, **kwargs: Any):
+        super().__init__(*args, **kwargs)
+        self.names: dict[str, Named] = dict(names or {})
 
     def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
         takes = {}
@@ -60,11 +73,15 @@ class Command(click.Command):
         from sensitivity.common.errors import InputError
 
         _refuse_repeats(self, args)
-        ctx.meta["typed"] = {a.split("=", 1)[0] for a in args if a.startswith("--")}
+        ctx.meta["typed"] = _typed(self, args)
         try:
             rest = super().parse_args(ctx, out)
         except InputError as err:  # from an option's callback (a --plot path, say)
-            raise type(err)(as_typed(self, str(err), ctx.meta["typed"])) from err.__cause__
+            raise type(err)(err.render(namer(self, ctx))) from err.__cause__
+        except click.BadParameter as err:  # click's own: name the option as typed
+            if err.param is not None and err.param.name in ctx.meta["typed"]:
+                err.param_hint = repr(ctx.meta["typed"][err.param.name])
+            raise
         except click.NoSuchOption as err:
             if err.option_name in RENAMED:
                 raise click.UsageError(
@@ -81,93 +98,7 @@ class Command(click.Command):
             return super().invoke(ctx)
         except InputError as err:
             # the library names its Python argument (`ci_level`); the user typed --ci-level
-            typed = ctx.meta.get("typed")
-            raise type(err)(as_typed(self, str(err), typed)) from err.__cause__
-
-
-def _option_name(param: click.Parameter) -> str:
-    """The option as a user types it: the first long name (--ci), else the first."""
-    names = [n for n in param.opts if n.startswith("--")] or list(param.opts)
-    return names[0]
-
-
-def as_typed(command: click.Command, message: str, typed: set[str] | None = None) -> str:
-    """`message` with each `argument` that is one of the command's options as typed: `ci_level`
-    becomes `--ci-level` where the command has --ci-level (but not where the user gave a longer
-    option it begins, `typed`: a value from --propensity-column is not --propensity's). Only
-    literal matches (`outcome` is
-    not --outcome-frequency), and in a message about a row of a file only the leading name
-    (the rest name the file's columns)."""
-    typed = typed or set()
-    options = {
-        opt.removeprefix("--").replace("-", "_"): opt
-        for param in command.params
-        if isinstance(param, click.Option)
-        for opt in param.opts
-        if opt.startswith("--")
-        # not --propensity when the user gave --propensity-column (whose values the message
-        # is about), unless --propensity itself was given
-        and (opt in typed or not any(t.startswith(opt + "-") for t in typed))
-    }
-    pattern = re.compile(r"`([A-Za-z_][\w-]*)`")
-    count = 1 if re.search(r"\brow \d", message) else 0
-
-    def swap(m: re.Match) -> str:
-        name = m.group(1)
-        return f"`{options.get(name.replace('-', '_'), name)}`"
-
-    return pattern.sub(swap, message, count=count)
-
-
-def _refuse_repeats(command: click.Command, args: list[str]) -> None:
-    """A single-value option given twice is an error, not a silent last-one-wins."""
-    options = {}
-    for param in command.params:
-        if isinstance(param, click.Option):
-            for name in param.opts + param.secondary_opts:
-                options[name] = param
-    seen: set[str] = set()
-    skip = 0
-    for token in args:
-        if skip:
-            skip -= 1
-            continue
-        if token == "--":
-            break
-        name, inline = token.split("=", 1)[0], "=" in token and token.startswith("--")
-        param = options.get(name if inline else token)
-        if param is None:
-            continue
-        skip = 0 if param.is_flag or param.count or inline else param.nargs
-        if param.multiple or param.count:
-            continue
-        if param.name in seen:
-            raise click.UsageError(f"{_option_name(param)} was given more than once; give it once")
-        seen.add(param.name)  # type: ignore[arg-type]
-
-
-def _refuse_non_finite(command: click.Command, ctx: click.Context) -> None:
-    """Every number an option takes is finite: nan or inf is an error naming the option.
-    (Positional numbers are checked by the library, whose message names them.)"""
-    import math
-
-    for param in command.params:
-        if not isinstance(param, click.Option):
-            continue
-        value = ctx.params.get(param.name) if param.name else None
-        if value is None:
-            continue
-        flat = []
-        stack = [value]
-        while stack:
-            v = stack.pop()
-            if isinstance(v, (tuple, list)):
-                stack.extend(v)
-            else:
-                flat.append(v)
-        for v in flat:
-            if isinstance(v, float) and not math.isfinite(v):
-                raise click.BadParameter(f"must be a finite number; got {v}", ctx, param)
+            raise type(err)(err.render(namer(self, ctx))) from err.__cause__
 
 
 #: Above this many rows JSON is written compact and streamed (people do not read it).

@@ -23,7 +23,18 @@ def _progress() -> tuple[Any, bool]:
     return (lambda line: click.echo(line, err=True)), False
 
 
-@click.command("debiased", cls=Command, short_help=SHORT_HELP)
+@click.command(
+    "debiased",
+    cls=Command,
+    short_help=SHORT_HELP,
+    # --strength CY2 CD2; --multiple K is k on both sides
+    names={
+        "cy2": ("--strength", 1),
+        "cd2": ("--strength", 2),
+        "k_outcome": "--multiple",
+        "k_treatment": "--multiple",
+    },
+)
 @click.option(
     "--data",
     required=True,
@@ -172,10 +183,10 @@ def debiased_cmd(
         check_strengths(cy2, cd2, rho)
     check_strengths(0.0, 0.0, rho)
     if not 0 < alpha < 1:
-        raise InputError(f"`alpha` must lie strictly between 0 and 1; got {alpha:g}")
+        raise InputError(f"`alpha` must lie strictly between 0 and 1; got {alpha:g}", "alpha")
     for k in multiples:
         if not k > 0:
-            raise InputError(f"`multiple` must be positive; got {k:g}")
+            raise InputError(f"`multiple` must be positive; got {k:g}", "multiple")
     from sensitivity.debiased.fit import debiased_fit
 
     say, in_place = _progress()

@@ -23,7 +23,7 @@ from ._options import (
 SHORT_HELP = COMMANDS["partial-r2"][1]
 
 
-@click.command("partial-r2", cls=Command, short_help=SHORT_HELP)
+@click.command("partial-r2", cls=Command, short_help=SHORT_HELP, names={"sd_outcome": "--sd"})
 @click.option("--estimate", type=float, help="Summary input: the treatment's OLS coefficient.")
 @click.option("--se", type=float, help="Summary input: its classical standard error.")
 @click.option("--t", "t_stat", type=float, help="Summary input: its t statistic (instead of --se).")
@@ -134,6 +134,10 @@ def partial_r2_cmd(
           --treatment commute_min
     """
     show_warnings()
+    if plot_limits is not None:  # refused before any work, with or without --plot
+        from sensitivity.partial_r2.figures import check_limits
+
+        check_limits(plot_limits)
     exclusive(("--se", se), ("--t", t_stat))
     summary_given = [
         n

@@ -166,9 +166,15 @@ def screen_cmd(
 
     if plot_marks:
         raise click.UsageError("--plot-mark does not apply to screen")
-    for target in (output, flagged):
+    for target, argument in ((output, "output"), (flagged, "flagged")):
         if target is not None:
-            check_table_path(target)
+            try:
+                check_table_path(target)
+            except InputError as err:  # the writer's check knows one `output`
+                raise err.renamed({"output": argument}) from None
+    if plot_limits is not None and not plot_limits[0] > 1:  # the E-value axis starts at 1
+        raise InputError(f"`limits`: the E-value axis must end above 1; got {plot_limits[0]:g}",
+                         "limits")  # fmt: skip
     if (
         flagged is not None
         and output is not None
@@ -176,7 +182,9 @@ def screen_cmd(
     ):
         raise click.UsageError("--flagged and --output must be different files")
     if threshold is not None and not threshold >= 1:
-        raise InputError(f"`threshold` must be at least 1 (an E-value); got {threshold:g}")
+        raise InputError(
+            f"`threshold` must be at least 1 (an E-value); got {threshold:g}", "threshold"
+        )
     pooled = None
     if pool_threshold is not None and (engine != "local" or Path(file).is_dir()):
         raise click.UsageError("--pool reads a single file; screen a folder or an engine's "
@@ -193,7 +201,7 @@ def screen_cmd(
                 from_text=from_text,
             )
         except InputError as err:  # the pool's threshold is --pool here (--threshold is ours)
-            raise InputError(str(err).replace("`threshold`", "`--pool`")) from None
+            raise err.renamed({"threshold": "pool"}) from None
     tally = Tally(threshold=threshold, n_confounders=len(confounders))
     options: dict[str, Any] = {"columns": _column_map(column_map), "from_text": from_text,
                "confounders": confounders, "alpha": alpha}  # fmt: skip

@@ -9,7 +9,15 @@ import click
 from sensitivity.commands import COMMANDS
 from sensitivity.common.errors import InputError
 
-from ._options import RANGE_HELP, Command, emit, exclusive, format_options, show_warnings
+from ._options import (
+    RANGE_HELP,
+    Command,
+    emit,
+    exclusive,
+    format_options,
+    show_warnings,
+)
+from ._typed import name_arguments
 
 SHORT_HELP = COMMANDS["weighting"][1]
 
@@ -21,7 +29,7 @@ def parse_lambda(text: str) -> list[float]:
             return [float(p) for p in str(text).split(",")]
         except ValueError:
             raise InputError(
-                f"`lambda` must be numbers separated by commas; got {text!r}"
+                f"`lambda` must be numbers separated by commas; got {text!r}", "lambda"
             ) from None
     from sensitivity.tipping.core import parse_range
 
@@ -135,6 +143,8 @@ def weighting_cmd(
     exclusive(("--propensity", propensity), ("--propensity-column", propensity_column))
     if propensity is None and propensity_column is None:
         raise click.UsageError("give --propensity (a formula) or --propensity-column")
+    if propensity_column is not None:  # the library's `propensity` holds this column's values
+        name_arguments(propensity="--propensity-column")
     if plots:
         from sensitivity.output.figures import check_plot_path
 

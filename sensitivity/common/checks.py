@@ -55,13 +55,16 @@ class Check:
     message: Callable[..., str]
     kind: str = ""
     rule: Rule | None = None  # a one-field rule, so a caller may name the field its own way
+    names: tuple[str, ...] = ()  # the arguments the message names (default: the first field)
 
-    def message_as(self, values: Sequence[object], called: Mapping[str, str]) -> str:
-        """The message, naming the field as the caller knows it (`called`: field -> name)."""
+    def error(self, values: Sequence[object], called: Mapping[str, str]) -> InputError:
+        """The InputError for one bad entry, naming the field as the caller knows it
+        (`called`: field -> argument, a single result's `lower` being its `ci`)."""
         name = self.fields[0]
         if self.rule is None or name not in called:
-            return self.message(*values)
-        return f"`{called[name]}` {self.rule.text}; got {show(float(values[0]))}"  # type: ignore[arg-type]
+            return InputError(self.message(*values), self.names or (name,))
+        text = f"`{called[name]}` {self.rule.text}; got {show(float(values[0]))}"  # type: ignore[arg-type]
+        return InputError(text, called[name])
 
 
 def field(
@@ -108,6 +111,7 @@ def interval_order(lower: str = "lower", upper: str = "upper", label: str = "ci"
             f"`{label}` lower limit must not exceed the upper; got {show(lo)} > {show(up)}"
         ),
         f"`{label}` lower limit must not exceed the upper",
+        names=(label,),
     )
 
 
@@ -123,6 +127,7 @@ def inside_interval(
             f"[{show(lo)}, {show(up)}]"
         ),
         f"`{estimate}` must lie within `{label}`",
+        names=(estimate, label),
     )
 
 
@@ -131,10 +136,12 @@ def as_array(value: object, name: str) -> np.ndarray:
     try:
         return np.asarray(value, dtype=float)
     except OverflowError:  # an int beyond the float range (10**400)
-        raise InputError(f"`{name}` must be a finite number; got one beyond 1.8e308") from None
+        raise InputError(
+            f"`{name}` must be a finite number; got one beyond 1.8e308", name
+        ) from None
     except (TypeError, ValueError, ArithmeticError):  # also pd.NA, Decimal('sNaN')
         shown = repr(value) if len(repr(value)) <= 60 else repr(value)[:57] + "..."
-        raise InputTypeError(f"`{name}` must be numeric; got {shown}") from None
+        raise InputTypeError(f"`{name}` must be numeric; got {shown}", name) from None
 
 
 def require_numbers(value: object, name: str) -> np.ndarray:
@@ -150,7 +157,7 @@ def require(value: object, name: str, *rules: Rule) -> np.ndarray:
         bad = rule.bad(arr)
         if np.any(bad):
             first = arr[bad].flat[0] if arr.ndim else float(arr)
-            raise InputError(f"`{name}` {rule.text}; got {show(first)}")
+            raise InputError(f"`{name}` {rule.text}; got {show(first)}", name)
     return arr
 
 
@@ -158,7 +165,7 @@ def require_scalar(value: object, name: str, *rules: Rule) -> float:
     """`require` for one number: InputError when `value` holds none or several."""
     arr = require(value, name, *rules)
     if arr.size != 1:
-        raise InputError(f"`{name}` must be a single number; got {arr.size} values")
+        raise InputError(f"`{name}` must be a single number; got {arr.size} values", name)
     return float(arr.reshape(-1)[0])
 
 
@@ -168,7 +175,7 @@ def require_seed(value: object, name: str = "seed") -> int | None:
         return None
     v = require_scalar(value, name)
     if v < 0 or v != int(v) or v >= 2**63:
-        raise InputError(f"`{name}` must be a whole number from 0 to 2^63 - 1; got {v:g}")
+        raise InputError(f"`{name}` must be a whole number from 0 to 2^63 - 1; got {v:g}", name)
     return int(v)
 
 
@@ -178,9 +185,9 @@ def check_pair(value: object, name: str = "ci") -> tuple[object, object] | None:
     if value is None:
         return None
     if isinstance(value, (str, bytes)) or not hasattr(value, "__len__"):
-        raise InputTypeError(f"`{name}` must be a pair (lower, upper); got {value!r}")
+        raise InputTypeError(f"`{name}` must be a pair (lower, upper); got {value!r}", name)
     if len(value) != 2:  # type: ignore[arg-type]
-        raise InputError(f"`{name}` must be a pair (lower, upper); got {len(value)} values")  # type: ignore[arg-type]
+        raise InputError(f"`{name}` must be a pair (lower, upper); got {len(value)} values", name)  # type: ignore[arg-type]
     return value[0], value[1]  # type: ignore[index]
 
 
@@ -201,7 +208,7 @@ def require_all(
         if np.any(bad):
             i = np.flatnonzero(bad)[0]
             picked = [np.broadcast_to(a, shape).flat[i] for a in arrays]
-            raise InputError(check.message_as(picked, called or {}))
+            raise check.error(picked, called or {})
 
 
 def flags(
@@ -245,7 +252,7 @@ def flag_kinds(
 def require_choice(value: str, name: str, choices: Sequence[str]) -> str:
     """`value` if it is one of `choices`; otherwise InputError listing them."""
     if value not in choices:
-        raise InputError(f"`{name}` must be one of {', '.join(choices)}; got {value!r}")
+        raise InputError(f"`{name}` must be one of {', '.join(choices)}; got {value!r}", name)
     return value
 
 

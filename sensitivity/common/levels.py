@@ -22,13 +22,14 @@ def check_alpha(alpha: float, name: str = "alpha") -> float:
     try:
         value = float(alpha)
     except (TypeError, ValueError, OverflowError):
-        raise InputError(f"`{name}` must be a number; got {alpha!r}") from None
+        raise InputError(f"`{name}` must be a number; got {alpha!r}", name) from None
     if not (0 < value < 1):
-        raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}")
+        raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}", name)
     if value < ALPHA_FLOOR:
         raise InputError(
             f"`{name}` must be at least {ALPHA_FLOOR:g} (smaller levels have no finite critical "
-            f"value in double precision); got {value:g}"
+            f"value in double precision); got {value:g}",
+            name,
         )
     return value
 
@@ -38,12 +39,14 @@ def check_level(level: float, name: str = "ci_level") -> float:
     try:
         value = float(level)
     except (TypeError, ValueError, OverflowError):
-        raise InputError(f"`{name}` must be a number; got {level!r}") from None
+        raise InputError(f"`{name}` must be a number; got {level!r}", name) from None
     if not (0 < value < 1):
-        raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}")
+        raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}", name)
     if value < ALPHA_FLOOR or 1 - value < ALPHA_FLOOR:
         raise InputError(
-            f"`{name}` must be at least {ALPHA_FLOOR:g} and leave at least that to 1; got {value:g}"
+            f"`{name}` must be at least {ALPHA_FLOOR:g} and leave at least that to 1; "
+            f"got {value:g}",
+            name,
         )
     return value
 

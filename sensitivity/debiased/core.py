@@ -74,7 +74,8 @@ def partial_linear_scores(y: ArrayLike, d: ArrayLike, y_hat: ArrayLike, d_hat: A
     if not j > 0:
         raise InputError(
             "`treatment` has no variation left once the covariates predict it (the learner "
-            "reproduces it exactly); the effect is not identified"
+            "reproduces it exactly); the effect is not identified",
+            "treatment",
         )
     theta = float(np.mean(ry * rd)) / j
     residual = ry - theta * rd
@@ -94,7 +95,9 @@ def average_effect_scores(
     mu0, mu1 = np.asarray(mu0, float), np.asarray(mu1, float)
     pi = np.asarray(propensity, float)
     if np.any(~((pi > 0) & (pi < 1))):
-        raise InputError("`propensity` must lie strictly between 0 and 1 in every row")
+        raise InputError(
+            "`propensity` must lie strictly between 0 and 1 in every row", "propensity"
+        )
     g = np.where(d == 1, mu1, mu0)
     riesz = d / pi - (1 - d) / (1 - pi)
     residual = y - g
@@ -148,11 +151,14 @@ def moments(scores: Scores) -> Moments:
     sigma2 = float(np.mean(e2))
     nu2 = float(np.mean(scores.riesz_moment))
     if not sigma2 > 0:
-        raise InputError("`outcome` is predicted exactly (no residual variation); nothing to bound")
+        raise InputError(
+            "`outcome` is predicted exactly (no residual variation); nothing to bound", "outcome"
+        )
     if not nu2 > 0:
         raise InputError(
             f"the Riesz representer's variance estimate is not positive (nu2 = {nu2:.4g}): "
-            "propensities too near 0 or 1; trim more, or choose another `learner`"
+            "propensities too near 0 or 1; trim more, or choose another `learner`",
+            "learner",
         )
     s = np.sqrt(sigma2 * nu2)
     phi = (nu2 * (e2 - sigma2) + sigma2 * (scores.riesz_moment - nu2)) / (2 * s)
@@ -377,7 +383,8 @@ def scaled_strengths(
         raise InputError(
             f"`k_treatment` {kk.flat[i]:g} is impossible for a benchmark with cd2 "
             f"{gg.flat[i]:.4g}: the confounder would explain all of the Riesz representer's "
-            f"variation (k must be below {1 / gg.flat[i]:.4g})"
+            f"variation (k must be below {1 / gg.flat[i]:.4g})",
+            "k_treatment",
         )
     cy2 = ky * gy
     capped = cy2 > 1

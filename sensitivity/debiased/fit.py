@@ -48,7 +48,7 @@ def _design(frame: Any, covariates: Sequence[str]) -> tuple[np.ndarray, dict[str
         else:
             block = pd.get_dummies(col.astype("category"), drop_first=True).to_numpy(float)
             if block.shape[1] == 0:
-                raise InputError(f"`covariates`: column {name!r} has a single value")
+                raise InputError(f"`covariates`: column {name!r} has a single value", "covariates")
         groups[name] = list(range(at, at + block.shape[1]))
         at += block.shape[1]
         blocks.append(block)
@@ -63,27 +63,31 @@ def _columns(
         from ..adapters.statsmodels import formula_columns
 
         if covariates is not None:
-            raise InputError("give `covariates` or `formula`, not both")
+            raise InputError("give `covariates` or `formula`, not both", ("covariates", "formula"))
         left, right = formula_columns(formula)
         if len(left) != 1:
-            raise InputError(f"`formula` must have one outcome on its left side; got {formula!r}")
+            raise InputError(
+                f"`formula` must have one outcome on its left side; got {formula!r}", "formula"
+            )
         if outcome is not None and outcome != left[0]:
-            raise InputError(f"`outcome` {outcome!r} differs from the formula's {left[0]!r}")
+            raise InputError(
+                f"`outcome` {outcome!r} differs from the formula's {left[0]!r}", "outcome"
+            )
         outcome = left[0]
         if treatment not in right:
-            raise InputError(f"`treatment` {treatment!r} is not a term of the formula")
+            raise InputError(f"`treatment` {treatment!r} is not a term of the formula", "treatment")
         covariates = [c for c in dict.fromkeys(right) if c != treatment]
     if treatment is None:
-        raise InputError("`treatment` is required")
+        raise InputError("`treatment` is required", "treatment")
     if outcome is None:
-        raise InputError("`outcome` is required")
+        raise InputError("`outcome` is required", "outcome")
     if covariates is None:
-        raise InputError("`covariates` (or a `formula`) is required")
+        raise InputError("`covariates` (or a `formula`) is required", ("covariates", "formula"))
     if isinstance(covariates, str):
         covariates = [c.strip() for c in covariates.split(",") if c.strip()]
     covariates = list(dict.fromkeys(str(c) for c in covariates))
     if not covariates:
-        raise InputError("`covariates` must name at least one column")
+        raise InputError("`covariates` must name at least one column", "covariates")
     columns = [str(c) for c in data.columns]
     shown = ", ".join(columns[:30]) + (", ..." if len(columns) > 30 else "")
     for arg, names in (
@@ -93,12 +97,17 @@ def _columns(
     ):
         for name in names:
             if name not in columns:
-                raise InputError(f"`{arg}` {name!r} is not a column of the data; columns: {shown}")
+                raise InputError(
+                    f"`{arg}` {name!r} is not a column of the data; columns: {shown}", arg
+                )
     for arg, name in (("treatment", treatment), ("outcome", outcome)):
         if name in covariates:
-            raise InputError(f"`covariates` must not include the {arg} {name!r}")
+            raise InputError(f"`covariates` must not include the {arg} {name!r}", "covariates")
     if treatment == outcome:
-        raise InputError(f"`treatment` and `outcome` must differ; both are {treatment!r}")
+        raise InputError(
+            f"`treatment` and `outcome` must differ; both are {treatment!r}",
+            ("treatment", "outcome"),
+        )
     return str(treatment), str(outcome), covariates
 
 
@@ -110,11 +119,13 @@ def _benchmark_groups(benchmarks: Any, covariates: Sequence[str]) -> list[tuple[
         for name in names:
             if name not in covariates:
                 raise InputError(
-                    f"`benchmark` {name!r} is not one of the covariates: {', '.join(covariates)}"
+                    f"`benchmark` {name!r} is not one of the covariates: {', '.join(covariates)}",
+                    "benchmark",
                 )
         if len(names) == len(covariates):
             raise InputError(
-                f"`benchmark` {'+'.join(names)!r} takes away every covariate; leave at least one"
+                f"`benchmark` {'+'.join(names)!r} takes away every covariate; leave at least one",
+                "benchmark",
             )
         out.append(("+".join(names), names))
     return out
@@ -125,7 +136,7 @@ def _numeric(frame: Any, name: str, argument: str) -> np.ndarray:
 
     col = frame[name]
     if not (is_numeric_dtype(col) or is_bool_dtype(col)):
-        raise InputError(f"`{argument}` column {name!r} must be numeric; got {col.dtype}")
+        raise InputError(f"`{argument}` column {name!r} must be numeric; got {col.dtype}", argument)
     return col.to_numpy(dtype=float)
 
 
@@ -249,18 +260,18 @@ def debiased_fit(
         data = read_table(data)
     if not hasattr(data, "columns"):
         raise InputError(
-            f"`data` must be a pandas DataFrame or a file path; got {type(data).__name__}"
+            f"`data` must be a pandas DataFrame or a file path; got {type(data).__name__}", "data"
         )
     if isinstance(folds, bool) or not isinstance(folds, (int, np.integer)) or folds < 1:
-        raise InputError(f"`folds` must be a whole number of at least 1; got {folds!r}")
+        raise InputError(f"`folds` must be a whole number of at least 1; got {folds!r}", "folds")
     folds = int(folds)
     if seed is not None and (isinstance(seed, bool) or not isinstance(seed, (int, np.integer))):
-        raise InputError(f"`seed` must be a whole number; got {seed!r}")
+        raise InputError(f"`seed` must be a whole number; got {seed!r}", "seed")
     if seed is not None and not 0 <= seed < 2**32:  # scikit-learn's random_state range
-        raise InputError(f"`seed` must be a whole number from 0 to 2^32 - 1; got {seed}")
+        raise InputError(f"`seed` must be a whole number from 0 to 2^32 - 1; got {seed}", "seed")
     trim = float(require(trim, "trim", OPEN_UNIT))
     if trim >= 0.5:
-        raise InputError(f"`trim` must be below 0.5; got {trim:g}")
+        raise InputError(f"`trim` must be below 0.5; got {trim:g}", "trim")
     treatment, outcome, covariates = _columns(data, treatment, outcome, covariates, formula)
     groups = _benchmark_groups(benchmarks, covariates)
 
@@ -277,25 +288,31 @@ def debiased_fit(
     y = _numeric(frame, outcome, "outcome")
     d = _numeric(frame, treatment, "treatment")
     if n == 0:
-        raise InputError("`data` has no complete rows in the treatment, outcome and covariates")
+        raise InputError(
+            "`data` has no complete rows in the treatment, outcome and covariates", "data"
+        )
     if np.all(d == d[0]):
         raise InputError(
-            f"`treatment` {treatment!r} is constant (every row {d[0]:g}); it must vary"
+            f"`treatment` {treatment!r} is constant (every row {d[0]:g}); it must vary", "treatment"
         )
     if np.all(y == y[0]):
-        raise InputError(f"`outcome` {outcome!r} is constant (every row {y[0]:g}); it must vary")
+        raise InputError(
+            f"`outcome` {outcome!r} is constant (every row {y[0]:g}); it must vary", "outcome"
+        )
     if target_effect == "average":
         values = np.unique(d)
         if not np.array_equal(values, [0.0, 1.0]):
             shown = ", ".join(f"{v:g}" for v in values[:5])
             raise InputError(
                 f"`treatment` {treatment!r} must be coded 0/1 for the average effect; got "
-                f"values {shown}{', ...' if values.size > 5 else ''}"
+                f"values {shown}{', ...' if values.size > 5 else ''}",
+                "treatment",
             )
     if n < MIN_FOLD_ROWS * folds:
         raise InputError(
             f"`folds` {folds} leaves {n // folds} rows per fold ({n} rows); each fold needs at "
-            f"least {MIN_FOLD_ROWS}"
+            f"least {MIN_FOLD_ROWS}",
+            "folds",
         )
     if target_effect == "average":
         for arm, label in ((1.0, "treated"), (0.0, "untreated")):
@@ -303,7 +320,8 @@ def debiased_fit(
             if count < 2 * max(folds, 1):
                 raise InputError(
                     f"`treatment` {treatment!r} has {count} {label} rows; with `folds` {folds} "
-                    f"each fold needs at least 2 (at least {2 * folds} in all)"
+                    f"each fold needs at least 2 (at least {2 * folds} in all)",
+                    ("treatment", "folds"),
                 )
 
     x, owned = _design(frame, covariates)
@@ -422,12 +440,13 @@ class _Fitter:
         try:
             return core.moments(scores), preds, trimmed
         except InputError as err:
-            if "Riesz" not in str(err):
+            if err.argument != "learner":  # the Riesz variance, not an outcome predicted exactly
                 raise
             raise InputError(
                 f"{str(err).split(':')[0]}: {trimmed} propensities reached the trim limits "
                 f"[{trim:g}, {1 - trim:g}]; raise `trim`, or choose another `learner` (the "
-                "treatment may be too predictable from the covariates: poor overlap)"
+                "treatment may be too predictable from the covariates: poor overlap)",
+                ("trim", "learner"),
             ) from None
 
 

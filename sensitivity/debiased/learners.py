@@ -38,7 +38,7 @@ def make_learner(name: str, kind: str, seed: int | None = 0) -> Any:
     from sklearn.preprocessing import StandardScaler
 
     if name not in LEARNERS:
-        raise InputError(f"`learner` must be one of {', '.join(LEARNERS)}; got {name!r}")
+        raise InputError(f"`learner` must be one of {', '.join(LEARNERS)}; got {name!r}", "learner")
     reg = kind == "regressor"
     if name == "linear":
         from sklearn.linear_model import LinearRegression, LogisticRegression
@@ -93,7 +93,8 @@ def check_learner(learner: Any, argument: str, kind: str) -> None:
     if missing:
         raise InputError(
             f"`{argument}` must be a scikit-learn style {kind} with "
-            f"{' and '.join(need)} methods; {type(learner).__name__} lacks {', '.join(missing)}"
+            f"{' and '.join(need)} methods; {type(learner).__name__} lacks {', '.join(missing)}",
+            argument,
         )
 
 

@@ -289,7 +289,7 @@ class DebiasedFit:
         pairs = [tuple(p) for p in strengths]
         for p in pairs:
             if len(p) != 2:
-                raise InputError(f"`strengths` must be (cy2, cd2) pairs; got {p!r}")
+                raise InputError(f"`strengths` must be (cy2, cd2) pairs; got {p!r}", "strengths")
         if pairs:
             cy2, cd2, _ = core.check_strengths([p[0] for p in pairs], [p[1] for p in pairs], rho)
             out = core.bounds(m, cy2, cd2, rho, alpha)
@@ -365,7 +365,9 @@ def _multiple(k: Any) -> tuple[float, float]:
     if arr.ndim == 0:
         return float(arr), float(arr)
     if arr.shape != (2,):
-        raise InputError(f"`multiples` must be k or (k_outcome, k_treatment) pairs; got {k!r}")
+        raise InputError(
+            f"`multiples` must be k or (k_outcome, k_treatment) pairs; got {k!r}", "multiples"
+        )
     return float(arr[0]), float(arr[1])
 
 

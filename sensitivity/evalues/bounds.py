@@ -116,7 +116,7 @@ def combined_evalue(
     r = np.where(r < 1, 1 / r, r)
     k_s = SELECTION_FACTORS.get(selection)
     if k_s is None:
-        raise InputError(f"`selection` must be whole or simplified; got {selection!r}")
+        raise InputError(f"`selection` must be whole or simplified; got {selection!r}", "selection")
     k = (1 if confounding else 0) + k_s
     m = 1 if misclassification else 0
     if k + m == 0:

@@ -34,6 +34,8 @@ from .risk_difference import evalue_of_risk_difference, evalue_rd
 from .rows import (
     CHECKS,
     EVALUE_SCALES,
+    FIELD_OF,
+    OVERFLOW_ARGUMENTS,
     beyond_double,
     compute,
     evalue_rows,
@@ -140,7 +142,8 @@ def evalue(
     if se is not None and level != 0.95:
         raise InputError(
             "`ci_level` applies to a `ci` you give; the interval from `se` is the 95% one "
-            "(exp(0.91 d -/+ 1.78 se))"
+            "(exp(0.91 d -/+ 1.78 se))",
+            ("ci_level", "ci", "se"),
         )
     values = single_inputs(scale, estimate, ci, se, sd, contrast, outcome, prevalence, target)
     require_all(values, CHECKS, called={"lower": "ci", "upper": "ci"})
@@ -160,10 +163,12 @@ def evalue(
     if np.any(beyond != ""):
         i = np.flatnonzero(beyond != "")[0]
         name = str(beyond.flat[i])
-        field_of = {"estimate": "estimate", "ci": "lower", "target": "target", "se": "se"}[name]
+        field_of = FIELD_OF[name]
         value = np.broadcast_to(values[field_of], beyond.shape).flat[i]
         code = np.broadcast_to(values["scale"], beyond.shape).flat[i]
-        raise InputError(overflow_message(name, value, str(code)))
+        raise InputError(
+            overflow_message(name, value, str(code)), OVERFLOW_ARGUMENTS.get(name, name)
+        )
     notes = _notes(values, freq, out, target is None)
     scalar_scale = values["scale"].ndim == 0
     return EValueResult(

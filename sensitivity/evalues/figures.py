@@ -33,7 +33,7 @@ def evalue_figure(
     the confounder table."""
     paths = figure_paths(path)
     if not result.is_scalar:
-        raise InputError("`plot` draws one E-value result; give one estimate")
+        raise InputError("`plot` draws one E-value result; give one estimate", "plot")
     plt = pyplot()
     ratio = float(result.rr / result.rr_target)
     r_est = max(ratio, 1 / ratio)

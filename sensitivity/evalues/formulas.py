@@ -48,7 +48,7 @@ def evalue_of_rr(rr: object) -> np.ndarray:
     rr = require_numbers(rr, "rr")
     bad = rr <= 0  # NaN (a missing value in a batch) passes through as NaN
     if np.any(bad):
-        raise InputError(f"`rr` must be positive; got {show(rr[bad].flat[0])}")
+        raise InputError(f"`rr` must be positive; got {show(rr[bad].flat[0])}", "rr")
     with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
         r = np.where(rr < 1, 1 / rr, rr)
         return r + np.sqrt(r) * np.sqrt(r - 1)  # not sqrt(r (r - 1)): no overflow below 1e308

@@ -144,7 +144,9 @@ def report_part(items: Sequence[Any]) -> ReportPart:
         if not r.is_scalar:
             from ..common.errors import InputError
 
-            raise InputError(f"`results` {label!r}: a report takes one estimate a result")
+            raise InputError(
+                f"`results` {label!r}: a report takes one estimate a result", "results"
+            )
     figures = [Figure("forest", "All estimates and their E-values", partial(forest_figure, pairs))]
     figures += [
         Figure(

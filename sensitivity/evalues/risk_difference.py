@@ -117,15 +117,16 @@ def evalue_rd(counts: tuple[int, int, int, int], *, ci_level: float = 0.95) -> R
     from scipy.special import ndtri
 
     if len(counts) != 4:
-        raise InputError(f"`counts` must be four numbers; got {len(counts)}")
+        raise InputError(f"`counts` must be four numbers; got {len(counts)}", "counts")
     a, n1, c, n0 = (float(require_scalar(v, "counts")) for v in counts)
     for value in (a, n1, c, n0):
         if value < 0 or value != round(value):
-            raise InputError(f"`counts` must be whole numbers, 0 or more; got {value:g}")
+            raise InputError(f"`counts` must be whole numbers, 0 or more; got {value:g}", "counts")
     if n1 <= 0 or n0 <= 0 or a > n1 or c > n0:
         raise InputError(
             "`counts`: cases must not exceed totals, and totals must be positive; got "
-            f"{a:g} of {n1:g} and {c:g} of {n0:g}"
+            f"{a:g} of {n1:g} and {c:g} of {n0:g}",
+            "counts",
         )
     level = check_level(ci_level)
     out = evalue_of_risk_difference(a, n1, c, n0, alpha=1 - level)

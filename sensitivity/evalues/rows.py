@@ -73,6 +73,7 @@ CHECKS: tuple[Check, ...] = (
         ("prevalence", "outcome"),
         lambda p, o: given(p) & given(o),
         lambda p, o: "give `outcome` or `prevalence`, not both",
+        names=("outcome", "prevalence"),
     ),
     field("prevalence", PROBABILITY, given, ("prevalence",)),
     Check(
@@ -85,32 +86,37 @@ CHECKS: tuple[Check, ...] = (
         ("scale", "outcome", "prevalence"),
         lambda s, o, p: scale_in(s, "or", "hr") & ~given(o) & ~given(p),
         lambda s, o, p: (
-            f"`outcome` frequency is needed on the {s} scale: say rare or common, or give "
-            "the outcome's `prevalence`"
+            f"the outcome's frequency (`outcome`) is needed on the {s} scale: say rare or "
+            "common, or give the outcome's `prevalence`"
         ),
+        names=("outcome", "prevalence"),
     ),
     Check(
         ("scale", "se"),
         lambda s, se: ratio_scale(s) & given(se),
         lambda s, se: f"`se` applies to scales smd and md only; got {s}",
         "`se` applies to scales smd and md only",
+        names=("se",),
     ),
     Check(
         ("scale", "sd"),
         lambda s, sd: ~scale_in(s, "md") & given(sd),
         lambda s, sd: f"`sd` applies to scale md only; got {s}",
         "`sd` applies to scale md only",
+        names=("sd",),
     ),
     Check(
         ("scale", "contrast"),
         lambda s, c: ~scale_in(s, "md") & (c != 1),
         lambda s, c: f"`contrast` applies to scale md only; got {s}",
         "`contrast` applies to scale md only",
+        names=("contrast",),
     ),
     Check(
         ("scale", "sd"),
         lambda s, sd: scale_in(s, "md") & ~given(sd),
         lambda s, sd: "`sd` is required for scale md: the outcome's standard deviation",
+        names=("sd",),
     ),
     field("sd", FINITE, given, ("sd",)),
     field("sd", POSITIVE, given, ("sd",)),
@@ -120,6 +126,7 @@ CHECKS: tuple[Check, ...] = (
         ("scale", "se", "lower"),
         lambda s, se, lo: given(se) & given(lo),
         lambda s, se, lo: f"give `se` or `ci` for scale {s}, not both",
+        names=("se", "ci"),
     ),
     field("se", FINITE, given, ("se",)),
     field("se", POSITIVE, given, ("se",)),
@@ -127,6 +134,7 @@ CHECKS: tuple[Check, ...] = (
         ("lower", "upper"),
         lambda lo, up: given(lo) != given(up),
         lambda lo, up: "`ci` needs both limits, lower and upper",
+        names=("ci",),
     ),
     field("lower", FINITE, given, ("lower",)),
     field("upper", FINITE, given, ("upper",)),
@@ -188,20 +196,45 @@ def beyond_double(values: dict[str, np.ndarray], out: dict[str, np.ndarray]) -> 
     An SMD of 800 maps to exp(0.91 * 800), beyond 1e308; a risk ratio of 1e-320 is below the
     smallest double. Such rows are refused rather than given an infinite E-value.
     """
-    est_bad = ~np.isfinite(out["evalue"]) | ~np.isfinite(out["rr"]) | ~(out["rr"] > 0)
+    rr_ok = np.isfinite(out["rr"]) & (out["rr"] > 0)
+    target_ok = np.isfinite(out["rr_target"]) & (out["rr_target"] > 0)
+    moved = target_ok & (out["rr_target"] != 1)  # a target away from the null
+    lost = ~np.isfinite(out["evalue"])
+    # a mean difference leaves the doubles through estimate / sd: both are named
+    sd_bad = scale_in(values["scale"], "md") & given(values["sd"]) & ~rr_ok
+    est_bad = ~rr_ok | (lost & ~moved)
+    target_bad = ~target_ok | (lost & moved)  # the estimate's ratio to the target overflows
     ci_bad = given(values["lower"]) & ~np.isfinite(out["evalue_ci"])
-    target_bad = ~np.isfinite(out["rr_target"]) | ~(out["rr_target"] > 0)
     # an interval made from a huge se: exp(0.91 d -/+ 1.78 se) leaves the doubles
     with np.errstate(invalid="ignore"):
         se_bad = given(values["se"]) & (
             ~np.isfinite(out["rr_upper"]) | ~(out["rr_lower"] > 0) | ~np.isfinite(out["evalue_ci"])
         )
-    return np.select([est_bad, ci_bad, target_bad, se_bad], ["estimate", "ci", "target", "se"],
-                     "").astype(object)  # fmt: skip
+    return np.select([sd_bad, est_bad, target_bad, ci_bad, se_bad],
+                     ["sd", "estimate", "target", "ci", "se"], "").astype(object)  # fmt: skip
+
+
+#: The arguments an overflow of each kind names, first the one it is about.
+OVERFLOW_ARGUMENTS = {"sd": ("sd", "estimate")}
+
+#: The input each `beyond_double` name stands for.
+FIELD_OF = {"estimate": "estimate", "ci": "lower", "target": "target", "se": "se", "sd": "sd"}
 
 
 def overflow_message(name: str, value: float, scale: str) -> str:
     """The reason given for an input beyond double precision on the risk-ratio scale."""
+    if name == "sd":
+        return (
+            f"`estimate` over `sd` {show(value)} on the {scale} scale is a standardized "
+            "difference whose risk ratio is beyond double precision (about 1e-308 to 1e308), "
+            "so its E-value cannot be computed"
+        )
+    if name == "target":
+        return (
+            f"`target` {show(value)} on the {scale} scale is too far from the estimate: their "
+            "ratio on the risk-ratio scale is beyond double precision (about 1e-308 to 1e308), "
+            "so its E-value cannot be computed"
+        )
     if name == "se":
         return (
             f"`se` {show(value)} on the {scale} scale gives an interval beyond double precision "
@@ -246,7 +279,7 @@ def single_inputs(
                 "prevalence": prevalence, "target": target}  # fmt: skip
     for name, value in supplied.items():
         if value is not None and np.asarray(value, object).size == 0:
-            raise InputError(f"`{name}` must hold at least one value; got none")
+            raise InputError(f"`{name}` must hold at least one value; got none", name)
     scale_arr = _text(scale)
     values = {
         "scale": scale_arr,
@@ -325,9 +358,7 @@ def evalue_row_kinds(
     )
     beyond = np.where(good, beyond_double(safe, out), "")
     for i in np.flatnonzero(beyond != ""):
-        field_of = {"estimate": "estimate", "ci": "lower", "target": "target", "se": "se"}[
-            beyond[i]
-        ]
+        field_of = FIELD_OF[beyond[i]]
         reasons[i] = overflow_message(beyond[i], values[field_of][i], values["scale"][i])
         kinds[i] = reasons[i]  # names no value that varies by rule: its own kind
     good = reasons == ""

@@ -81,9 +81,9 @@ def impact_threshold(
     """
     alpha = levels.check_alpha(alpha)
     if t is None and (estimate is None or se is None):
-        raise InputError("give `estimate` and `se`, or `t`")
+        raise InputError("give `estimate` and `se`, or `t`", ("estimate", "se", "t"))
     if t is not None and se is not None:
-        raise InputError("give `se` or `t`, not both")
+        raise InputError("give `se` or `t`, not both", ("se", "t"))
     if se is not None:
         se = float(require_scalar(se, "se", POSITIVE))
         estimate = float(require_scalar(estimate, "estimate"))
@@ -91,31 +91,36 @@ def impact_threshold(
             t = float(np.float64(estimate) / se)
         if not np.isfinite(t):
             raise InputError(
-                f"`estimate` / `se` must be a finite t statistic; got {estimate:g} / {se:g}"
+                f"`estimate` / `se` must be a finite t statistic; got {estimate:g} / {se:g}",
+                ("estimate", "se"),
             )
     t = float(require_scalar(t, "t"))
     if dof is not None and (n is not None or covariates is not None):
-        raise InputError("give `dof`, or `n` and `covariates`, not both")
+        raise InputError(
+            "give `dof`, or `n` and `covariates`, not both", ("dof", "n", "covariates")
+        )
     if dof is None:
         if n is None or covariates is None:
-            raise InputError("give `n` and `covariates` (or `dof`)")
+            raise InputError("give `n` and `covariates` (or `dof`)", ("n", "covariates", "dof"))
         n = int(require_scalar(n, "n", POSITIVE))
         covariates = int(require_scalar(covariates, "covariates"))
         if covariates < 0:
-            raise InputError(f"`covariates` must be 0 or more; got {covariates}")
+            raise InputError(f"`covariates` must be 0 or more; got {covariates}", "covariates")
         if covariates + 2 >= n:
             raise InputError(
                 f"`covariates` must leave residual degrees of freedom: {covariates} covariates, "
                 f"the treatment and an intercept need more than {covariates + 2} observations; "
-                f"got n = {n}"
+                f"got n = {n}",
+                "covariates",
             )
         dof = float(n - covariates - 2)
     dof = float(require_scalar(dof, "dof", POSITIVE))
     t_crit = float(levels.t_critical(alpha, dof))
     if not np.isfinite(t_crit):
         raise InputError(
-            f"`alpha` {alpha:g} has no finite critical t on {dof:g} degrees of freedom; give a "
-            "larger alpha"
+            f"`alpha` {alpha:g} has no finite critical t on {dof:g} degrees of freedom (`dof`); "
+            "give a larger alpha or more degrees of freedom",
+            ("alpha", "dof"),
         )
     # t / sqrt(t² + dof) through hypot: no overflow at t = 1e155
     r = t / float(np.hypot(t, np.sqrt(dof)))

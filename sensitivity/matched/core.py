@@ -294,9 +294,9 @@ def _whole(value: object, name: str) -> int:
     """A count: a finite whole number, 0 or more (a Decimal or numpy integer too)."""
     v = float(require_scalar(value, name))
     if v < 0 or v != int(v):
-        raise InputError(f"`{name}` must be a whole number, 0 or more; got {value!r}")
+        raise InputError(f"`{name}` must be a whole number, 0 or more; got {value!r}", name)
     if v > 2**53:  # beyond it a count is no longer held exactly
-        raise InputError(f"`{name}` must be at most 2^53 (9.0e15); got {v:g}")
+        raise InputError(f"`{name}` must be at most 2^53 (9.0e15); got {v:g}", name)
     return int(v)
 
 
@@ -333,20 +333,29 @@ def rosenbaum_bounds(
     alpha = check_alpha(alpha)
     missing = _whole(missing, "missing")
     if method not in ("exact", "normal"):
-        raise InputError(f"`method` must be exact or normal; got {method!r}")
+        raise InputError(f"`method` must be exact or normal; got {method!r}", "method")
     if zeros not in ("pratt", "drop"):
-        raise InputError(f"`zeros` must be pratt or drop; got {zeros!r}")
+        raise InputError(f"`zeros` must be pratt or drop; got {zeros!r}", "zeros")
     if alternative not in ("auto", "greater", "less"):
-        raise InputError(f"`alternative` must be auto, greater or less; got {alternative!r}")
+        raise InputError(
+            f"`alternative` must be auto, greater or less; got {alternative!r}", "alternative"
+        )
     g = gamma_values(gamma)
     if differences is not None:
         if discordant is not None or treated_events is not None:
-            raise InputError("give `differences`, or `discordant` and `treated_events`, not both")
+            raise InputError(
+                "give `differences`, or `discordant` and `treated_events`, not both",
+                ("differences", "discordant", "treated_events"),
+            )
         d = np.asarray(require(differences, "differences"), float).ravel()
         if d.size < 2:
-            raise InputError(f"`differences` must hold at least two pairs; got {d.size}")
+            raise InputError(
+                f"`differences` must hold at least two pairs; got {d.size}", "differences"
+            )
         if not np.any(d != 0):
-            raise InputError("`differences` are all zero: the test has nothing to rank")
+            raise InputError(
+                "`differences` are all zero: the test has nothing to rank", "differences"
+            )
         q, sign = ranks(d, zeros)
         if alternative == "auto":
             alternative = "less" if q[sign > 0].sum() < q.sum() / 2 else "greater"
@@ -371,13 +380,19 @@ def rosenbaum_bounds(
             notes=hl_note,
         )  # fmt: skip
     if discordant is None or treated_events is None:
-        raise InputError("give `differences`, or `discordant` and `treated_events`")
+        raise InputError(
+            "give `differences`, or `discordant` and `treated_events`",
+            ("differences", "discordant", "treated_events"),
+        )
     dd, k = (_whole(v, name) for v, name in ((discordant, "discordant"),
                                                (treated_events, "treated_events")))  # fmt: skip
     if dd < 2:
-        raise InputError(f"`discordant` must be at least 2 pairs; got {dd}")
+        raise InputError(f"`discordant` must be at least 2 pairs; got {dd}", "discordant")
     if not 0 <= k <= dd:
-        raise InputError(f"`treated_events` must lie between 0 and `discordant` ({dd}); got {k}")
+        raise InputError(
+            f"`treated_events` must lie between 0 and `discordant` ({dd}); got {k}",
+            ("treated_events", "discordant"),
+        )
     if alternative == "auto":
         alternative = "less" if k < dd / 2 else "greater"
     if alternative == "less":  # the control unit's events are then the statistic

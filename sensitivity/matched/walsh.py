@@ -14,7 +14,7 @@ def gamma_values(gamma: ArrayLike) -> np.ndarray:
     """Gamma values, each at least 1."""
     g = np.atleast_1d(require(gamma, "gamma")).astype(float)
     if np.any(g < 1):
-        raise InputError(f"`gamma` must be at least 1; got {float(g[g < 1][0]):g}")
+        raise InputError(f"`gamma` must be at least 1; got {float(g[g < 1][0]):g}", "gamma")
     return g
 
 

@@ -58,9 +58,9 @@ def check_plot_path(path: str | Path, argument: str = "plot") -> Path:
     """Refuse an unsupported extension or a missing folder before any work is done."""
     p = Path(path)
     if p.suffix.lower() not in PLOT_FORMATS:
-        raise InputError(f"`{argument}` must end in .png, .svg or .pdf; got {p.name!r}")
+        raise InputError(f"`{argument}` must end in .png, .svg or .pdf; got {p.name!r}", argument)
     if not p.parent.exists():
-        raise InputError(f"`{argument}`: folder {str(p.parent)!r} does not exist")
+        raise InputError(f"`{argument}`: folder {str(p.parent)!r} does not exist", argument)
     return p
 
 

@@ -162,7 +162,8 @@ class TableWriter:
         if kind is None:
             raise InputError(
                 f"`{argument}`: cannot tell the format of {self.path.name!r} from its "
-                f"extension; use one of {', '.join(sorted(TABLE_FORMATS))}"
+                f"extension; use one of {', '.join(sorted(TABLE_FORMATS))}",
+                argument,
             )
         if kind == "excel":
             from importlib.util import find_spec
@@ -170,7 +171,8 @@ class TableWriter:
             if find_spec("openpyxl") is None:
                 raise InputError(
                     f"`{argument}`: writing {self.path.name!r} (Excel) needs openpyxl; install "
-                    "it (pip install openpyxl) or write .csv or .parquet"
+                    "it (pip install openpyxl) or write .csv or .parquet",
+                    argument,
                 )
         self.kind = kind
         self._argument = argument
@@ -216,7 +218,8 @@ class TableWriter:
         if self._rows > 1_048_575:
             raise InputError(
                 f"`{self.path.name}`: an Excel sheet holds at most 1,048,575 rows; write "
-                "CSV or Parquet instead"
+                "CSV or Parquet instead",
+                self.path.name,
             )
         self._frames.append(frame)
 

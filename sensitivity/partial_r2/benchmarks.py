@@ -40,7 +40,8 @@ def benchmark_spec(value: object, argument: str = "benchmark") -> tuple[str, flo
         if not 1 <= len(value) <= 3 or not isinstance(value[0], str):
             raise InputError(
                 f"`{argument}` must be a name, (name, multiple) or (name, multiple with the "
-                f"treatment, multiple with the outcome); got {value!r}"
+                f"treatment, multiple with the outcome); got {value!r}",
+                argument,
             )
         name, numbers = value[0], [float(v) for v in value[1:]]
     elif isinstance(value, str):
@@ -51,16 +52,17 @@ def benchmark_spec(value: object, argument: str = "benchmark") -> tuple[str, flo
             parts.pop()
         name = ":".join(parts)
     else:
-        raise InputError(f"`{argument}` must be a covariate name; got {value!r}")
+        raise InputError(f"`{argument}` must be a covariate name; got {value!r}", argument)
     if not name.strip():
-        raise InputError(f"`{argument}` names no covariate; got {value!r}")
+        raise InputError(f"`{argument}` names no covariate; got {value!r}", argument)
     if len(numbers) == 0:
         numbers = [1.0]
     kt, ky = (numbers[0], numbers[0]) if len(numbers) == 1 else (numbers[0], numbers[1])
     for k in (kt, ky):
         if not k > 0 or k != k or k == float("inf"):
             raise InputError(
-                f"`{argument}` {value!r}: a multiple must be a positive finite number; got {k:g}"
+                f"`{argument}` {value!r}: a multiple must be a positive finite number; got {k:g}",
+                argument,
             )
     return name.strip(), float(kt), float(ky)
 

@@ -127,8 +127,8 @@ def robustness_value_of_t(
     for name, values, bad in (("dof", dof, dof < least), ("reduce_by", reduce_by, reduce_by <= 0)):
         if np.any(bad):  # NaN (a missing entry) passes through as NaN
             rule = f"must be at least {least}" if name == "dof" else "must be positive"
-            raise InputError(f"`{name}` {rule}; got {show(values[bad].flat[0])}")
-    with np.errstate(invalid="ignore"):
+            raise InputError(f"`{name}` {rule}; got {show(values[bad].flat[0])}", name)
+    with np.errstate(invalid="ignore", over="ignore"):  # fq = inf is a robustness value of 1
         fq = reduce_by * np.abs(t) / np.sqrt(dof)
     if alpha is None:
         return _rv_curve(fq)
@@ -220,22 +220,27 @@ def check_summary(
     """One OLS coefficient's summary, checked: (estimate, se, dof, reduce_by, alpha)."""
     est = float(require_scalar(estimate, "estimate"))
     if se is not None and t is not None:
-        raise InputError("give `se` or `t`, not both")
+        raise InputError("give `se` or `t`, not both", ("se", "t"))
     if se is None and t is None:
-        raise InputError("`se` (or the t statistic `t`) is required")
+        raise InputError("`se` (or the t statistic `t`) is required", ("se", "t"))
     dof = float(require_scalar(dof, "dof", DOF_RULE))
     if t is not None:
         t = float(require_scalar(t, "t"))
         if t == 0 or est == 0:
-            raise InputError(f"`t` must be non-zero with a non-zero estimate; got t = {t:g}")
+            raise InputError(f"`t` must be non-zero with a non-zero estimate; got t = {t:g}", "t")
         if np.sign(t) != np.sign(est):
-            raise InputError(f"`t` must have the sign of `estimate`; got {t:g} for {est:g}")
+            raise InputError(
+                f"`t` must have the sign of `estimate`; got {t:g} for {est:g}", ("t", "estimate")
+            )
         se = est / t
     se = float(require_scalar(se, "se", POSITIVE))
     with np.errstate(over="ignore"):
         ratio = est / se
     if not np.isfinite(ratio):
-        raise InputError(f"`estimate` / `se` must be a finite t statistic; got {est:g} / {se:g}")
+        raise InputError(
+            f"`estimate` / `se` must be a finite t statistic; got {est:g} / {se:g}",
+            ("estimate", "se"),
+        )
     reduce_by = float(require_scalar(reduce_by, "reduce_by", POSITIVE))
     alpha = levels.check_alpha(alpha)
     return est, se, dof, reduce_by, alpha
@@ -254,7 +259,8 @@ def hypothetical_scenarios(
     r2y = np.atleast_1d(require(r2_outcome, "r2_outcome", R2_STRENGTH))
     if r2t.shape != r2y.shape:
         raise InputError(
-            f"`r2_treatment` and `r2_outcome` must come in pairs; got {r2t.size} and {r2y.size}"
+            f"`r2_treatment` and `r2_outcome` must come in pairs; got {r2t.size} and {r2y.size}",
+            ("r2_treatment", "r2_outcome"),
         )
     adj = adjusted_for_confounder(r2t, r2y, estimate=estimate, se=se, dof=dof, alpha=alpha)
     a = {k: np.asarray(v, float) for k, v in adj.items()}
@@ -408,7 +414,9 @@ def assemble(
         given, missing = (
             ("r2_treatment", "r2_outcome") if r2_outcome is None else ("r2_outcome", "r2_treatment")
         )
-        raise InputError(f"`{given}` needs `{missing}`: a hypothetical confounder has both")
+        raise InputError(
+            f"`{given}` needs `{missing}`: a hypothetical confounder has both", (given, missing)
+        )
     t = est / se
     hyp = []
     if r2_treatment is not None:

@@ -9,6 +9,7 @@ from typing import Any
 
 import numpy as np
 
+from ..common.errors import InputError
 from ..common.levels import level_text
 from ..output.figures import (
     Mark,
@@ -29,10 +30,20 @@ from ..output.figures import (
 FAR = 3.0
 
 
+def check_limits(limits: Sequence[float] | None) -> None:
+    """The axes' upper limits are partial R²: each in (0, 1]."""
+    for value in limits or ():
+        if not 0 < value <= 1:
+            raise InputError(
+                f"`limits` are partial R² axes: each must lie in (0, 1]; got {value:g}", "limits"
+            )
+
+
 def _r2_limits(result: Any, limits: Mark | None) -> Mark:
     """The default zoom: where the conclusion changes (twice the larger robustness value)
     and every scenario within FAR times that, with room around them."""
     if limits is not None:
+        check_limits(limits)
         return float(limits[0]), float(limits[1])
     region = max(2 * result.robustness_value, 0.05)
     pts = [region]

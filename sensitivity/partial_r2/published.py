@@ -87,18 +87,26 @@ def published_benchmark(
     (0.0389, 0.01)
     """
     if not isinstance(name, str) or not name.strip():
-        raise InputError(f"`name` of a published benchmark must be non-empty text; got {name!r}")
+        raise InputError(
+            f"`name` of a published benchmark must be non-empty text; got {name!r}", "name"
+        )
     if r2_outcome is not None and t_outcome is not None:
-        raise InputError(f"benchmark {name!r}: give `r2_outcome` or `t_outcome`, not both")
+        raise InputError(
+            f"benchmark {name!r}: give `r2_outcome` or `t_outcome`, not both",
+            ("r2_outcome", "t_outcome"),
+        )
     if r2_outcome is None and t_outcome is None:
         raise InputError(
             f"benchmark {name!r}: its outcome side is required (`r2_outcome`, or `t_outcome` "
-            "with `dof_outcome`)"
+            "with `dof_outcome`)",
+            ("r2_outcome", "t_outcome", "dof_outcome"),
         )
     ry = _r2(r2_outcome, "r2_outcome") if t_outcome is None else None
     if ry is None:
         if dof_outcome is None:
-            raise InputError(f"benchmark {name!r}: `t_outcome` needs `dof_outcome`")
+            raise InputError(
+                f"benchmark {name!r}: `t_outcome` needs `dof_outcome`", ("t_outcome", "dof_outcome")
+            )
         ry = _from_t(t_outcome, dof_outcome, "outcome")
     sides = {
         "r2_treatment": r2_treatment,
@@ -117,7 +125,10 @@ def published_benchmark(
         rt = _r2(r2_treatment, "r2_treatment")
     elif t_treatment is not None:
         if dof_treatment is None:
-            raise InputError(f"benchmark {name!r}: `t_treatment` needs `dof_treatment`")
+            raise InputError(
+                f"benchmark {name!r}: `t_treatment` needs `dof_treatment`",
+                ("t_treatment", "dof_treatment"),
+            )
         rt = _from_t(t_treatment, dof_treatment, "treatment")
     else:
         rt = _r2(assumed_r2_treatment, "assumed_r2_treatment")
@@ -191,7 +202,13 @@ def apply_text_benchmarks(
     items: list[object] = []
     for spec, treatment, outcome in benchmark_r2:
         name, kt, ky = benchmark_spec(spec, "benchmark_r2")
-        items.append((benchmark_from_text(name, treatment, outcome, dof=result.dof), kt, ky))
+        try:
+            benchmark = benchmark_from_text(name, treatment, outcome, dof=result.dof)
+        except InputError as err:  # each side is an entry of the item: RT [1], RY [2]
+            sides = {f"{k}_{side}": f"benchmark_r2[{i}]" for i, side in ((1, "treatment"),
+                     (2, "outcome")) for k in ("r2", "t", "dof", "assumed_r2")}  # fmt: skip
+            raise err.renamed(sides) from None
+        items.append((benchmark, kt, ky))
     return with_published_benchmarks(result, items)
 
 
@@ -210,7 +227,8 @@ def as_benchmark(item: object) -> tuple[CovariateStrength, float, float]:
         return published_benchmark(name, item[1], item[2]), kt, ky
     raise InputError(
         "`benchmark_r2` items must be (name, r2_treatment, r2_outcome), a "
-        f"`published_benchmark(...)` value, or that value with its multiples; got {item!r}"
+        f"`published_benchmark(...)` value, or that value with its multiples; got {item!r}",
+        "benchmark_r2",
     )
 
 

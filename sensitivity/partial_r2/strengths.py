@@ -63,7 +63,8 @@ def benchmark_strengths(
         raise InputError(
             f"`k_treatment` {kk.flat[i]:g} is impossible for a covariate with partial R² "
             f"{rr.flat[i]:.4g} with the treatment: the confounder would explain all of the "
-            f"treatment's residual variance (k must be below {_k_max(rr.flat[i]):.4g})"
+            f"treatment's residual variance (k must be below {_k_max(rr.flat[i]):.4g})",
+            "k_treatment",
         )
     r2y = (np.sqrt(ky) + np.sqrt(rho2)) ** 2 / (1 - rho2) * ry / (1 - ry)
     capped = r2y > 1

@@ -49,7 +49,9 @@ def direction_of(mu: float) -> str:
 
 def _sign(direction: str) -> float:
     if direction not in DIRECTIONS:
-        raise InputError(f"`direction` must be one of {', '.join(DIRECTIONS)}; got {direction!r}")
+        raise InputError(
+            f"`direction` must be one of {', '.join(DIRECTIONS)}; got {direction!r}", "direction"
+        )
     return 1.0 if direction == CAUSATIVE else -1.0
 
 
@@ -58,11 +60,14 @@ def _spread(tau: object, bias_sd: object) -> np.ndarray:
     tau = np.asarray(tau, float)
     sd = np.asarray(bias_sd, float)
     if np.any(sd < 0) or np.any(~np.isfinite(sd)):
-        raise InputError(f"`bias_sd` must be a finite number, 0 or more; got {float(np.max(sd)):g}")
+        raise InputError(
+            f"`bias_sd` must be a finite number, 0 or more; got {float(np.max(sd)):g}", "bias_sd"
+        )
     if np.any((sd > 0) & (sd >= tau)):
         raise InputError(
             f"`bias_sd` must be less than the estimated spread of the effects tau "
-            f"({float(np.min(tau)):.4g} on the log scale); got {float(np.max(sd)):g}"
+            f"({float(np.min(tau)):.4g} on the log scale); got {float(np.max(sd)):g}",
+            "bias_sd",
         )
     return np.sqrt(np.maximum(tau * tau - sd * sd, 0.0))
 
@@ -159,7 +164,8 @@ def bias_to_reduce(
     if np.any(~np.isfinite(out) | (out > 1e100)):
         raise InputError(
             "`threshold` is so far from the pooled estimate that the bias needed leaves the "
-            "range this analysis can show; give a threshold on the estimates' scale"
+            "range this analysis can show; give a threshold on the estimates' scale",
+            "threshold",
         )
     return out
 
@@ -227,7 +233,7 @@ def tau2_variance(var: object, tau2: float, method: str) -> float:
         w = 1 / (v + tau2)
         s1, s2 = w.sum(), (w**2).sum()
         return float(2 * (k - 1) / (s1 - s2 / s1) ** 2)
-    raise InputError(f"`method` must be one of dl, pm; got {method!r}")
+    raise InputError(f"`method` must be one of dl, pm; got {method!r}", "method")
 
 
 def tau_variance(tau2: float, var_tau2: float) -> float:
@@ -241,7 +247,7 @@ def check_studies(log_estimates: object, se: object) -> tuple[np.ndarray, np.nda
     s = np.atleast_1d(require(se, "se", POSITIVE)).astype(float).ravel()
     if y.size != s.size:
         raise InputError(
-            f"`se` must have one value per study; got {s.size} for {y.size} log estimates"
+            f"`se` must have one value per study; got {s.size} for {y.size} log estimates", "se"
         )
     if y.size < 2:
         raise InputError(f"pooling needs at least 2 studies; got {y.size}")

@@ -175,7 +175,7 @@ def pool_estimates(
     a = check_alpha(alpha)
     sd = float(require_scalar(bias_sd, "bias_sd"))
     if sd < 0:
-        raise InputError(f"`bias_sd` must be 0 or more; got {sd:g}")
+        raise InputError(f"`bias_sd` must be 0 or more; got {sd:g}", "bias_sd")
     fit = fit_random_effects(y, s, method)
     q = float(np.log(q_ratio))
     direction = core.direction_of(fit.mu)
@@ -242,7 +242,8 @@ def _plain_studies(y: np.ndarray, s: np.ndarray, labels: Sequence[str] | None
     else:
         names = np.asarray([str(v) for v in labels], dtype=object)
         if names.size != n:
-            raise InputError(f"`labels` must name each study; got {names.size} for {n} studies")
+            raise InputError(f"`labels` must name each study; got {names.size} for {n} "
+                             "studies", "labels")  # fmt: skip
     return _study_columns(names, y, s, np.full(n, "", dtype=object), np.full(n, "", dtype=object))
 
 
@@ -352,7 +353,8 @@ def read_studies(
     header = list(frame.columns)
     label_col = mapping.pop("label", None) or next((c for c in LABEL_COLUMNS if c in header), None)
     if label_col is not None and label_col not in header:
-        raise InputError(f"`columns`: {label_col!r} (for label) is not a column of the table")
+        raise InputError(f"`columns`: {label_col!r} (for label) is not a column of the "
+                         "table", "columns")  # fmt: skip
     n = frame.height
     if n == 0:
         raise InputError("the table of studies has no rows")
@@ -367,10 +369,8 @@ def read_studies(
     if from_text is None and log_col in header:
         se_col = mapping.pop("se", "se")
         if se_col not in header:
-            raise InputError(
-                f"the table has {log_col!r} but no standard error column {se_col!r}: "
-                "map one with `columns` (se=YOUR_COLUMN)"
-            )
+            raise InputError(f"the table has {log_col!r} but no standard error column {se_col!r}: "
+                             "map one with `columns` (se=YOUR_COLUMN)", "columns")  # fmt: skip
         from ..screen.stream import text_or_numbers
 
         reasons = np.full(n, "", dtype=object)

@@ -31,7 +31,9 @@ def screen_figure(
     paths = figure_paths(path)
     codes = [c for c, (h, _) in summary.histograms.items() if h.sum() > 0]
     if not codes:
-        raise InputError("`plot`: no row could be screened, so there is no distribution to draw")
+        raise InputError(
+            "`plot`: no row could be screened, so there is no distribution to draw", "plot"
+        )
     plt = pyplot()
     plt.rcParams.update(STYLE)
     cols = min(3, len(codes))

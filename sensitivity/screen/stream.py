@@ -92,18 +92,20 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
         if std not in (*NUMERIC, *TEXT):
             known = ", ".join((*TEXT, *NUMERIC))
             raise InputError(
-                f"`columns`: {std!r} is not a column the screen reads; it reads {known}"
+                f"`columns`: {std!r} is not a column the screen reads; it reads {known}", "columns"
             )
         if user not in header:
             raise InputError(
                 f"`columns`: {user!r} (for {std}) is not a column of the table; columns: "
-                + ", ".join(header[:30])
+                + ", ".join(header[:30]),
+                "columns",
             )
         mapping[std] = user
     if from_text is not None and from_text not in header:
         raise InputError(
             f"`from_text`: {from_text!r} is not a column of the table; columns: "
-            + ", ".join(header[:30])
+            + ", ".join(header[:30]),
+            "from_text",
         )
     if from_text is None:
         for need in ("estimate", "scale"):
@@ -112,7 +114,8 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
                 raise InputError(
                     f"the table has no {need!r} column: map one with `columns` "
                     f"({need}=YOUR_COLUMN) or read results from text with `from_text`; "
-                    "columns: " + ", ".join(header[:30])
+                    "columns: " + ", ".join(header[:30]),
+                    ("columns", "from_text"),
                 )
     return mapping
 
@@ -171,7 +174,7 @@ def screen_frames(
     from ..common.checks import AT_LEAST_ONE, require
 
     if any(len(pair) != 2 for pair in confounders):
-        raise InputError("`confounders` must be pairs (rr_treatment, rr_outcome)")
+        raise InputError("`confounders` must be pairs (rr_treatment, rr_outcome)", "confounders")
     pairs = [(require(a, "rr_treatment", AT_LEAST_ONE), require(b, "rr_outcome", AT_LEAST_ONE))
              for a, b in confounders]  # fmt: skip
     options = Options(
@@ -206,7 +209,9 @@ def screen_frames(
 
 def _check_frame(frame: Any) -> None:
     if not hasattr(frame, "columns") or not hasattr(frame, "with_columns"):
-        raise InputError(f"`frames` must yield polars DataFrames; got {type(frame).__name__}")
+        raise InputError(
+            f"`frames` must yield polars DataFrames; got {type(frame).__name__}", "frames"
+        )
 
 
 def _routed(frames: Iterable[Any], mapping: dict[str, str], from_text: str | None
@@ -361,7 +366,7 @@ def _as_polars(table: Any) -> tuple[Any, str]:
     if kind == "pyarrow" and hasattr(table, "schema") and hasattr(table, "num_rows"):
         return pl.from_arrow(table), kind
     raise InputError(
-        f"`table` must be a pandas, polars or pyarrow table; got {type(table).__name__}"
+        f"`table` must be a pandas, polars or pyarrow table; got {type(table).__name__}", "table"
     )
 
 

@@ -171,7 +171,7 @@ def read_result(text: object, argument: str = "TEXT") -> dict[str, object]:
     if cell["error"]:
         shown = repr(str(text).strip()[:60])
         got = "" if shown in str(cell["error"]) else f"; got {shown}"
-        raise InputError(f"`{argument}`: {cell['error']}{got}")
+        raise InputError(f"`{argument}`: {cell['error']}{got}", argument)
 
     def number(key: str) -> float | None:
         value = float(cast(float, cell[key]))

@@ -17,7 +17,7 @@ def check_table_path(output: str | Path) -> None:
 
     TableWriter(output)  # checks the extension; opens nothing until the first write
     if not Path(output).parent.is_dir():
-        raise InputError(f"`output`: folder {str(Path(output).parent)!r} does not exist")
+        raise InputError(f"`output`: folder {str(Path(output).parent)!r} does not exist", "output")
 
 
 def table_writer(output: str | Path | None, fmt: str, trusted: Collection[str] = ()) -> Any:

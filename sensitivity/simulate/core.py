@@ -99,16 +99,17 @@ def parse_prior(text: str, name: str) -> Prior:
     kind = parts[0].strip().lower()
     if kind not in KINDS:
         raise InputError(
-            f"`{name}` must be KIND:PARAMETERS with KIND one of {', '.join(KINDS)}; got {text!r}"
+            f"`{name}` must be KIND:PARAMETERS with KIND one of {', '.join(KINDS)}; got {text!r}",
+            name,
         )
     try:
         values = tuple(float(p) for p in parts[1:])
     except ValueError:
-        raise InputError(f"`{name}`: the parameters of {text!r} must be numbers") from None
+        raise InputError(f"`{name}`: the parameters of {text!r} must be numbers", name) from None
     if len(values) != KINDS[kind]:
-        raise InputError(f"`{name}`: {kind} takes {KINDS[kind]} numbers; got {len(values)}")
+        raise InputError(f"`{name}`: {kind} takes {KINDS[kind]} numbers; got {len(values)}", name)
     if not all(np.isfinite(values)):
-        raise InputError(f"`{name}`: the parameters of {text!r} must be finite")
+        raise InputError(f"`{name}`: the parameters of {text!r} must be finite", name)
     bad = {
         "uniform": lambda v: v[0] > v[1],
         "triangular": lambda v: not v[0] <= v[1] <= v[2] or v[0] == v[2],
@@ -117,7 +118,7 @@ def parse_prior(text: str, name: str) -> Prior:
         "lognormal": lambda v: v[1] < 0,
     }.get(kind)
     if bad is not None and bad(values):
-        raise InputError(f"`{name}`: {text!r} is not a valid {kind} distribution")
+        raise InputError(f"`{name}`: {text!r} is not a valid {kind} distribution", name)
     return Prior(kind, values)
 
 
@@ -126,7 +127,7 @@ def _support(prior: Prior, low: float, high: float, name: str) -> None:
     u = np.linspace(0.001, 0.999, 999)
     x = prior.quantile(u)
     if np.all((x < low) | (x > high)):
-        raise InputError(f"`{name}`: the prior {prior.text} lies outside [{low:g}, {high:g}]")
+        raise InputError(f"`{name}`: the prior {prior.text} lies outside [{low:g}, {high:g}]", name)
 
 
 def simulate(
@@ -161,18 +162,20 @@ def simulate(
     from ..tipping.grid import SCALES, check_effect, check_frequency
 
     if scale not in SCALES:
-        raise InputError(f"`scale` must be one of {', '.join(SCALES)}; got {scale!r}")
+        raise InputError(f"`scale` must be one of {', '.join(SCALES)}; got {scale!r}", "scale")
     scale, est, pair, tgt = check_effect(scale, estimate, ci, target)
     if pair is None:
-        raise InputError("`ci` is needed: the total-error interval draws from it")
+        raise InputError("`ci` is needed: the total-error interval draws from it", "ci")
     freq = check_frequency(scale, outcome)
     level = check_level(ci_level)
     n = int(require_scalar(draws, "draws", POSITIVE))
     if n > 20_000_000:
-        raise InputError(f"`draws` must be at most 20,000,000; got {n:,}")
+        raise InputError(f"`draws` must be at most 20,000,000; got {n:,}", "draws")
     rho = float(require_scalar(correlation, "correlation"))
     if not -1 < rho < 1:
-        raise InputError(f"`correlation` must lie strictly between -1 and 1; got {rho:g}")
+        raise InputError(
+            f"`correlation` must lie strictly between -1 and 1; got {rho:g}", "correlation"
+        )
     priors = {}
     for name, value in (("prevalence_treated", prevalence_treated),
                         ("prevalence_control", prevalence_control),
@@ -187,7 +190,9 @@ def simulate(
     if seed is not None:
         seed = require_scalar(seed, "seed")
         if seed < 0 or seed != int(seed) or seed >= 2**63:
-            raise InputError(f"`seed` must be a whole number from 0 to 2^63 - 1; got {seed:g}")
+            raise InputError(
+                f"`seed` must be a whole number from 0 to 2^63 - 1; got {seed:g}", "seed"
+            )
         seed = int(seed)
     if seed is None:
         seed = int(np.random.SeedSequence().generate_state(1)[0])
@@ -228,7 +233,8 @@ def simulate(
         if not np.all(np.isfinite(drawn)):
             raise InputError(
                 f"the {name}-error draws leave double precision: the estimate, `ci` or "
-                "`outcome_effect` prior is too extreme for this scale"
+                "`outcome_effect` prior is too extreme for this scale",
+                ("ci", "outcome_effect"),
             )
     if systematic.size == 0:
         raise InputError("every draw was impossible (a prevalence outside [0, 1]); check priors")

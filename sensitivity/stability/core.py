@@ -148,7 +148,9 @@ def delta_for_target(
     with np.errstate(over="ignore", under="ignore", invalid="ignore"):
         nu = b1 - target
         if not np.isfinite(nu):
-            raise InputError(f"`target` is too far from the long estimate; got {float(target):g}")
+            raise InputError(
+                f"`target` is too far from the long estimate; got {float(target):g}", "target"
+            )
         if abs(nu) <= 1:
             top = sum(c * nu**k for k, c in enumerate(num))
             bottom = sum(c * nu**k for k, c in enumerate(den))
@@ -158,7 +160,8 @@ def delta_for_target(
             bottom = sum(c * w ** (3 - k) for k, c in enumerate(den))
     if bottom == 0 or not np.isfinite(bottom) or not np.isfinite(top):
         raise InputError(
-            f"no delta brings the coefficient to `target` {float(target):g} under these inputs"
+            f"no delta brings the coefficient to `target` {float(target):g} under these inputs",
+            "target",
         )
     return float(top / bottom)
 
@@ -210,11 +213,12 @@ def coefficient_stability(
     r1 = float(require_scalar(r2_long, "r2_long"))
     for name, value in (("r2_short", r0), ("r2_long", r1)):
         if not 0 <= value < 1:
-            raise InputError(f"`{name}` must lie in [0, 1); got {value:g}")
+            raise InputError(f"`{name}` must lie in [0, 1); got {value:g}", name)
     if r1 <= r0:
         raise InputError(
             f"`r2_long` must exceed `r2_short` (the controls explain something); got {r1:g} "
-            f"and {r0:g}"
+            f"and {r0:g}",
+            ("r2_long", "r2_short"),
         )
     notes = []
     if r2_max is None:
@@ -225,14 +229,17 @@ def coefficient_stability(
     else:
         r_max = float(require_scalar(r2_max, "r2_max"))
         if r_max > 1 or r_max < r1:
-            raise InputError(f"`r2_max` must lie between the long R² ({r1:g}) and 1; got {r_max:g}")
+            raise InputError(
+                f"`r2_max` must lie between the long R² ({r1:g}) and 1; got {r_max:g}", "r2_max"
+            )
     delta = float(require_scalar(delta, "delta"))
     target = float(require_scalar(target, "target"))
     approx = b1 - delta * (b0 - b1) * (r_max - r1) / (r1 - r0)
     if not np.isfinite(approx):
         raise InputError(
             "`estimate_short`, `estimate_long` and `delta` give a bias-adjusted coefficient "
-            "beyond double precision; rescale the outcome or the treatment"
+            "beyond double precision; rescale the outcome or the treatment",
+            ("estimate_short", "estimate_long", "delta"),
         )
     denominator = (b0 - b1) * (r_max - r1)
     delta_approx = (b1 - target) * (r1 - r0) / denominator if denominator else float("inf")
@@ -242,14 +249,16 @@ def coefficient_stability(
         if any(v is None for v in variances):
             raise InputError(
                 "the exact solution needs all three of `var_outcome`, `var_treatment` and "
-                "`var_treatment_residual`"
+                "`var_treatment_residual`",
+                ("var_outcome", "var_treatment", "var_treatment_residual"),
             )
         s_y2 = float(require_scalar(var_outcome, "var_outcome", POSITIVE))
         s_x2 = float(require_scalar(var_treatment, "var_treatment", POSITIVE))
         tau = float(require_scalar(var_treatment_residual, "var_treatment_residual", POSITIVE))
         if tau > s_x2:
             raise InputError(
-                f"`var_treatment_residual` ({tau:g}) cannot exceed `var_treatment` ({s_x2:g})"
+                f"`var_treatment_residual` ({tau:g}) cannot exceed `var_treatment` ({s_x2:g})",
+                ("var_treatment_residual", "var_treatment"),
             )
         args = (delta, b0, b1, r0, r1, r_max, s_y2, s_x2, tau)
         roots = real_roots(*args)

@@ -48,7 +48,9 @@ def bounding_grid(
     from ..evalues.core import bounding_factor, evalue
 
     if scale not in RATIO_SCALES:
-        raise InputError(f"`scale` must be one of rr, or, hr for the bounding view; got {scale!r}")
+        raise InputError(
+            f"`scale` must be one of rr, or, hr for the bounding view; got {scale!r}", "scale"
+        )
     ev = evalue(scale, estimate, ci, outcome=outcome, target=target)
     axes = grid_axes(
         {"rr_treatment": rr_treatment, "rr_outcome": rr_outcome},

@@ -49,7 +49,8 @@ def tipping_figure(
     if len(varying) not in (1, 2):
         raise InputError(
             f"`plot` needs one or two varying parameters; got {len(varying)} (give one of "
-            "them a single value)"
+            "them a single value)",
+            "plot",
         )
     goal = "the null" if result.target_is_null else f"{result.target:g}"
     level = f"{level_text(result.ci_level)} CI"

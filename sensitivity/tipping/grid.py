@@ -62,11 +62,17 @@ def check_frequency(scale: str, outcome: str | None) -> str | None:
     if scale in ("or", "hr"):
         if outcome is None:
             raise InputError(
-                f"`outcome` frequency is needed on the {scale} scale: say rare or common"
+                f"the outcome's frequency (`outcome`) is needed on the {scale} scale: say rare "
+                "or common",
+                "outcome",
             )
         return require_choice(outcome, "outcome", OUTCOME_FREQUENCIES)
     if outcome is not None:
-        raise InputError(f"`outcome` frequency applies to the or and hr scales only; got {scale}")
+        raise InputError(
+            f"the outcome's frequency (`outcome`) applies to the or and hr scales only; "
+            f"got {scale}",
+            "outcome",
+        )
     return None
 
 
@@ -90,7 +96,7 @@ def grid_axes(
     )
     for name, values in axes:
         if values.size == 0:
-            raise InputError(f"`{name}` must hold at least one value; got none")
+            raise InputError(f"`{name}` must hold at least one value; got none", name)
     cells = int(np.prod([len(v) for _, v in axes]))
     if cells > MAX_CELLS:
         sizes = " x ".join(str(len(v)) for _, v in axes)
@@ -98,13 +104,16 @@ def grid_axes(
     return axes
 
 
-def finite_cells(cells: Mapping[str, np.ndarray], what: str) -> None:
-    """Refuse input whose bias-adjusted values leave the range of a double."""
+def finite_cells(cells: Mapping[str, np.ndarray], *arguments: str) -> None:
+    """Refuse input whose bias-adjusted values leave the range of a double (`arguments`: the
+    inputs to blame)."""
+    what = " or ".join(f"`{a}`" for a in arguments)
     for name, values in cells.items():
         if not np.all(np.isfinite(values)):
             raise InputError(
                 f"{what}: the bias-adjusted values overflow double precision ({name}); use "
-                "inputs between about 1e-300 and 1e300"
+                "inputs between about 1e-300 and 1e300",
+                arguments,
             )
 
 
@@ -142,7 +151,7 @@ def shifted_cells(
             cells["bias_adjusted_ci_upper"] = back(shift(ci[1]))
             near = ci[0] if side > 0 else ci[1]
             reach_ci = reaches(shift(near), target, side, slack)
-    finite_cells(cells, "`estimate` or `ci`")
+    finite_cells(cells, "estimate", "ci")
     return {
         "cells": cells,
         "reach_estimate": reaches(adjusted, target, side, slack),

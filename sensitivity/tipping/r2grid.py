@@ -78,7 +78,7 @@ def partial_r2_grid(
         "bias_adjusted_ci_lower": s["lower"],
         "bias_adjusted_ci_upper": s["upper"],
     }
-    finite_cells({k: v for k, v in cells.items() if k != "bias_adjusted_t"}, "`estimate`")
+    finite_cells({k: v for k, v in cells.items() if k != "bias_adjusted_t"}, "estimate")
     near = "lower" if side > 0 else "upper"
     result = TippingGrid(
         kind="partial-r2",

@@ -52,15 +52,18 @@ def value_range(
     stop = float(require_scalar(stop, name))
     step = float(require_scalar(step, name))
     if step <= 0:
-        raise InputError(f"`{name}` step must be positive; got {step:g}")
+        raise InputError(f"`{name}` step must be positive; got {step:g}", name)
     if stop < start:
-        raise InputError(f"`{name}` is backwards or empty: stop {stop:g} is below start {start:g}")
+        raise InputError(
+            f"`{name}` is backwards or empty: stop {stop:g} is below start {start:g}", name
+        )
     with np.errstate(over="ignore"):
         span = (stop - start) / step
     if not np.isfinite(span) or span >= MAX_CELLS:
         raise InputError(
             f"`{name}` has more than {MAX_CELLS:,} values ({start:g} to {stop:g} by {step:g}); "
-            f"the grid limit is {MAX_CELLS:,} cells"
+            f"the grid limit is {MAX_CELLS:,} cells",
+            name,
         )
     places = [_decimals(start), _decimals(step), _decimals(stop)]
     k = None if None in places else max(p for p in places if p is not None)
@@ -77,11 +80,13 @@ def parse_range(text: str, name: str) -> np.ndarray:
     """'START:STOP:STEP' or a single number, as grid values (used by the CLI)."""
     parts = str(text).split(":")
     if len(parts) not in (1, 3):
-        raise InputError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}")
+        raise InputError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}", name)
     try:
         numbers = [float(p) for p in parts]
     except ValueError:
-        raise InputError(f"`{name}` must be a number or START:STOP:STEP; got {text!r}") from None
+        raise InputError(
+            f"`{name}` must be a number or START:STOP:STEP; got {text!r}", name
+        ) from None
     if len(numbers) == 1:
         return value_range(numbers[0], name=name)
     return value_range(numbers[0], numbers[1], numbers[2], name=name)

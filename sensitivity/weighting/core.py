@@ -86,7 +86,7 @@ MIN_RESAMPLES = 50
 def _lambda_grid(values: object) -> np.ndarray:
     lam = np.atleast_1d(require(values, "lambda", AT_LEAST_ONE)).astype(float)
     if lam.ndim != 1 or lam.size == 0:
-        raise InputError("`lambda` must be one value or a list of values")
+        raise InputError("`lambda` must be one value or a list of values", "lambda")
     return np.unique(lam)
 
 
@@ -96,41 +96,49 @@ def _check_inputs(
     try:
         y = np.asarray(outcome, dtype=float)
     except (TypeError, ValueError):
-        raise InputError("`outcome` must be numeric") from None
+        raise InputError("`outcome` must be numeric", "outcome") from None
     if y.ndim != 1 or y.size == 0:
-        raise InputError("`outcome` must be a non-empty 1-d array")
+        raise InputError("`outcome` must be a non-empty 1-d array", "outcome")
     if not np.all(np.isfinite(y)):
-        raise InputError("`outcome` must be finite (no missing values)")
+        raise InputError("`outcome` must be finite (no missing values)", "outcome")
     try:
         t = np.asarray(treatment, dtype=float)
     except (TypeError, ValueError):
-        raise InputError("`treatment` must be binary, coded 0 and 1") from None
+        raise InputError("`treatment` must be binary, coded 0 and 1", "treatment") from None
     if t.shape != y.shape:
-        raise InputError(f"`treatment` must have one entry per unit ({y.size}); got {t.size}")
+        raise InputError(
+            f"`treatment` must have one entry per unit ({y.size}); got {t.size}", "treatment"
+        )
     values = np.unique(t[np.isfinite(t)])
     if not np.all(np.isfinite(t)) or not np.all(np.isin(values, [0.0, 1.0])):
         shown = ", ".join(f"{v:g}" for v in values[:6])
-        raise InputError(f"`treatment` must be binary, coded 0 and 1; got values {shown}")
+        raise InputError(
+            f"`treatment` must be binary, coded 0 and 1; got values {shown}", "treatment"
+        )
     treated = t == 1
     for name, count in (("treated", int(treated.sum())), ("control", int((~treated).sum()))):
         if count < MIN_ARM:
             raise InputError(
-                f"`treatment`: the {name} arm has {count} units; need at least {MIN_ARM}"
+                f"`treatment`: the {name} arm has {count} units; need at least {MIN_ARM}",
+                "treatment",
             )
     e = None
     if propensity is not None:
         try:
             e = np.asarray(propensity, dtype=float)
         except (TypeError, ValueError):
-            raise InputError("`propensity` must be numeric") from None
+            raise InputError("`propensity` must be numeric", "propensity") from None
         if e.shape != y.shape:
-            raise InputError(f"`propensity` must have one entry per unit ({y.size}); got {e.size}")
+            raise InputError(
+                f"`propensity` must have one entry per unit ({y.size}); got {e.size}", "propensity"
+            )
         bad = ~((e > 0) & (e < 1))
         if np.any(bad):
             first = e[bad][0]
             raise InputError(
                 f"`propensity` must lie strictly between 0 and 1; got {first:g} "
-                f"({int(bad.sum())} unit{'s' if bad.sum() != 1 else ''})"
+                f"({int(bad.sum())} unit{'s' if bad.sum() != 1 else ''})",
+                "propensity",
             )
     return y, treated, e
 
@@ -232,36 +240,45 @@ def weighting_bounds(
     from ..common.checks import OPEN_UNIT
 
     if estimand not in ESTIMANDS:
-        raise InputError(f"`estimand` must be one of {', '.join(ESTIMANDS)}; got {estimand!r}")
+        raise InputError(
+            f"`estimand` must be one of {', '.join(ESTIMANDS)}; got {estimand!r}", "estimand"
+        )
     if extreme not in EXTREMES:
-        raise InputError(f"`extreme` must be one of {', '.join(EXTREMES)}; got {extreme!r}")
+        raise InputError(
+            f"`extreme` must be one of {', '.join(EXTREMES)}; got {extreme!r}", "extreme"
+        )
     grid = _lambda_grid(lam)
     if isinstance(methods, str):
         methods = (methods,)
     chosen = tuple(m for m in METHODS if m in methods)
     if not chosen or len(chosen) != len(set(methods)):
-        raise InputError(f"`methods` must be among sharp, percentile; got {methods!r}")
+        raise InputError(f"`methods` must be among sharp, percentile; got {methods!r}", "methods")
     level_alpha = float(require(alpha, "alpha", OPEN_UNIT))
     if level_alpha >= 0.5:
-        raise InputError(f"`alpha` must be below 0.5; got {level_alpha:g}")
+        raise InputError(f"`alpha` must be below 0.5; got {level_alpha:g}", "alpha")
     cut = float(require(cut, "cut", OPEN_UNIT))
     if cut >= 0.5:
-        raise InputError(f"`cut` must be below 0.5; got {cut:g}")
+        raise InputError(f"`cut` must be below 0.5; got {cut:g}", "cut")
     try:
         n_boot = int(resamples)
     except (TypeError, ValueError):
-        raise InputError(f"`resamples` must be a whole number; got {resamples!r}") from None
+        raise InputError(
+            f"`resamples` must be a whole number; got {resamples!r}", "resamples"
+        ) from None
     if n_boot < MIN_RESAMPLES:
-        raise InputError(f"`resamples` must be at least {MIN_RESAMPLES}; got {n_boot}")
+        raise InputError(f"`resamples` must be at least {MIN_RESAMPLES}; got {n_boot}", "resamples")
     tgt = float(require(target, "target"))
     if (covariates is None) == (propensity is None):
-        raise InputError("give `covariates` (to fit the propensity model) or `propensity`")
+        raise InputError(
+            "give `covariates` (to fit the propensity model) or `propensity`",
+            ("covariates", "propensity"),
+        )
     y, treated, given = _check_inputs(outcome, treatment, propensity, None)
     n = y.size
     levels = np.unique(y)
     binary = bool(levels.size == 2 and np.all(levels == [0.0, 1.0]))
     if levels.size < 2:
-        raise InputError(f"`outcome` takes one value ({levels[0]:g}); it must vary")
+        raise InputError(f"`outcome` takes one value ({levels[0]:g}); it must vary", "outcome")
     out_notes = list(notes)
 
     # the propensity model
@@ -270,18 +287,20 @@ def weighting_bounds(
         if design.ndim == 1:
             design = design[:, None]
         if design.shape[0] != n or not np.all(np.isfinite(design)):
-            raise InputError(f"`covariates` must be finite, one row per unit ({n})")
+            raise InputError(f"`covariates` must be finite, one row per unit ({n})", "covariates")
         if not np.allclose(design[:, 0], 1):
             design = np.column_stack([np.ones(n), design])
         if np.linalg.matrix_rank(design) < design.shape[1]:
             raise InputError("`covariates`: the propensity design is rank deficient (a "
-                             "covariate repeats another, or is constant)")  # fmt: skip
+                             "covariate repeats another, or is constant)",
+                             "covariates")  # fmt: skip
         beta0, ok = logistic_fit(design, treated.astype(float))
         e0 = _expit(design @ beta0)
         if not ok or e0.min() < 1e-10 or e0.max() > 1 - 1e-10:
             raise InputError(
                 "`propensity`: the logistic model separates the arms (fitted probabilities "
-                "of 0 or 1); positivity fails, so no weighted estimate exists"
+                "of 0 or 1); positivity fails, so no weighted estimate exists",
+                "propensity",
             )
         qx = design
     else:
@@ -314,7 +333,9 @@ def weighting_bounds(
     for j, name in enumerate(("treated", "control")):
         left = int(kept[arms[j].rows].sum())
         if left < MIN_ARM:
-            raise InputError(f"`cut`: trimming leaves {left} {name} units; need at least {MIN_ARM}")
+            raise InputError(
+                f"`cut`: trimming leaves {left} {name} units; need at least {MIN_ARM}", "cut"
+            )
     if extreme == "trim" and not kept.all():
         out_notes.append(
             f"{int((~kept).sum())} of {n} units with propensities outside [{cut:g}, {1 - cut:g}] "

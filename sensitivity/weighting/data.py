@@ -21,7 +21,8 @@ def _columns_shown(frame: Any) -> str:
 def _column(frame: Any, name: str, argument: str) -> None:
     if name not in frame.columns:
         raise InputError(
-            f"`{argument}` {name!r} is not a column of the data; columns: {_columns_shown(frame)}"
+            f"`{argument}` {name!r} is not a column of the data; columns: {_columns_shown(frame)}",
+            argument,
         )
 
 
@@ -59,7 +60,10 @@ def weighted_sensitivity(
     from .core import weighting_bounds
 
     if (propensity is None) == (propensity_column is None):
-        raise InputError("give `propensity` (a formula) or `propensity_column`, one of them")
+        raise InputError(
+            "give `propensity` (a formula) or `propensity_column`, one of them",
+            ("propensity", "propensity_column"),
+        )
     if isinstance(data, (str, Path)):
         from ..adapters.files import read_table
 
@@ -68,11 +72,12 @@ def weighted_sensitivity(
         frame = data
     else:
         raise InputError(
-            f"`data` must be a pandas DataFrame or a file path; got {type(data).__name__}"
+            f"`data` must be a pandas DataFrame or a file path; got {type(data).__name__}", "data"
         )
     if treatment == outcome:
         raise InputError(
-            f"`outcome` must be another column than `treatment`; got {outcome!r} twice"
+            f"`outcome` must be another column than `treatment`; got {outcome!r} twice",
+            ("outcome", "treatment"),
         )
     _column(frame, treatment, "treatment")
     _column(frame, outcome, "outcome")
@@ -83,14 +88,17 @@ def weighted_sensitivity(
                 f"`{argument}` column {name!r} must be numeric; got values like "
                 f"{col.dropna().astype(str).iloc[0]!r}"
                 if col.notna().any()
-                else f"`{argument}` column {name!r} must be numeric"
+                else f"`{argument}` column {name!r} must be numeric",
+                argument,
             )
     used = [treatment, outcome]
     notes: list[str] = []
     if propensity_column is not None:
         _column(frame, propensity_column, "propensity_column")
         if not is_numeric_dtype(frame[propensity_column]):
-            raise InputError(f"`propensity_column` {propensity_column!r} must be numeric")
+            raise InputError(
+                f"`propensity_column` {propensity_column!r} must be numeric", "propensity_column"
+            )
         used.append(propensity_column)
         sub = frame[used].dropna()
         _dropped(len(frame), len(sub), notes)
@@ -126,28 +134,38 @@ def _design(frame: Any, formula: str, treatment: str, outcome: str) -> tuple:
     from ..adapters.design import formula_columns
 
     if "~" not in formula:
-        raise InputError(f"`propensity` must look like 'T ~ x1 + x2'; got {formula!r}")
+        raise InputError(
+            f"`propensity` must look like 'T ~ x1 + x2'; got {formula!r}", "propensity"
+        )
     left, right = formula_columns(formula)
     for name in left + right:
         if name not in frame.columns:
             raise InputError(
                 f"`propensity` uses column {name!r}, which is not in the data; columns: "
-                f"{_columns_shown(frame)}"
+                f"{_columns_shown(frame)}",
+                "propensity",
             )
     if left and left != [treatment]:
         raise InputError(
             f"`propensity`: the formula's left side must be the treatment {treatment!r}; "
-            f"got {formula.split('~', 1)[0].strip()!r}"
+            f"got {formula.split('~', 1)[0].strip()!r}",
+            "propensity",
         )
     if outcome in right:
-        raise InputError(f"`propensity` must not use the outcome {outcome!r} as a covariate")
+        raise InputError(
+            f"`propensity` must not use the outcome {outcome!r} as a covariate", "propensity"
+        )
     rhs = formula.split("~", 1)[1]
     try:
         matrix = patsy.dmatrix(rhs, frame, NA_action="drop", return_type="dataframe")
     except Exception as err:  # noqa: BLE001 - patsy's errors are the user's formula
         text = " ".join(str(err).split()) or type(err).__name__
-        raise InputError(f"`propensity` {formula!r} could not be built: {text[:300]}") from None
+        raise InputError(
+            f"`propensity` {formula!r} could not be built: {text[:300]}", "propensity"
+        ) from None
     names = [str(c) for c in matrix.columns]
     if "Intercept" not in names:
-        raise InputError("`propensity` must keep its intercept (drop the '- 1' or '+ 0')")
+        raise InputError(
+            "`propensity` must keep its intercept (drop the '- 1' or '+ 0')", "propensity"
+        )
     return matrix.to_numpy(float), names, matrix.index
