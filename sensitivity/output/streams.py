@@ -198,7 +198,9 @@ class TableWriter:
             if raw:
                 raise InputError(
                     f"`{self._argument}`: column {raw[0]!r} holds raw bytes, which a "
-                    f"{self.kind.upper()} file cannot hold; write .parquet, or leave the column out"
+                    f"{self.kind.upper()} file cannot hold; write .parquet, or leave the "
+                    "column out",
+                    self._argument,
                 )
         self._rows += frame.height
         if self.kind in ("csv", "tsv", "json", "parquet"):
