@@ -193,3 +193,121 @@ def test_a_large_tipping_grid_streams_the_rows_its_python_result_holds(run, monk
     streamed = json.loads(res.stdout)
     assert {k: v for k, v in streamed.items() if k not in ("sentence", "sentences")} == whole
     assert len(streamed["rows"]) == result.n_rows > 100
+
+
+# --------------------------------------------------------------------------- issue 26: the
+# screen's writers near the floor. Each fast path is checked against the long way it stands for
+# (the exact defusing check, polars' own NDJSON writer, the stripped and comma-read casts).
+_CELLS = st.one_of(
+    st.none(),
+    st.text(alphabet=st.sampled_from(list("=+-@\t\r 'x1.,é\n\"\\")), max_size=20),
+    st.text(max_size=30),
+)
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(_CELLS, max_size=40), st.integers(0, 5), st.booleans())
+def test_the_formula_prefilter_never_misses_a_risky_cell(cells, cut, pieces):
+    # Read from the Arrow string views (first bytes inline or as a prefix, Arrow's columnar
+    # format): a column the prefilter passes holds no cell starting with a formula character.
+    import polars as pl
+
+    from sensitivity.output.streams import FORMULA_STARTS, _may_start_a_formula
+
+    column = pl.Series(cells, dtype=pl.String)
+    if pieces:  # several chunks, then a slice of them
+        column = pl.concat([column, pl.Series(["=x" * 9, "ok"], dtype=pl.String)], rechunk=False)
+    column = column.slice(min(cut, len(column)), None)
+    risky = any(c is not None and c[:1] in FORMULA_STARTS for c in column.to_list())
+    assert _may_start_a_formula(column) or not risky
+
+
+def test_a_column_without_risky_cells_is_left_alone_and_one_with_is_defused():
+    import polars as pl
+
+    from sensitivity.output.streams import _may_start_a_formula, defuse_frame
+
+    safe = pl.DataFrame({"s": ["ok", None, "", "x" * 30, "-0.5"]})
+    assert not _may_start_a_formula(pl.Series(["ok", None, "", "x" * 30, "a=b"]))
+    assert defuse_frame(safe).equals(safe)
+    risky = pl.DataFrame({"s": ["ok", "=1+1", "-0.5", "@" + "y" * 20]})
+    assert defuse_frame(risky)["s"].to_list() == ["ok", "'=1+1", "-0.5", "'@" + "y" * 20]
+
+
+_JSON_FRAME_COLUMNS = {
+    "text": st.lists(_CELLS, min_size=3, max_size=3),
+    "number": st.lists(
+        st.one_of(st.none(), st.floats(allow_nan=True, allow_infinity=True)),
+        min_size=3,
+        max_size=3,
+    ),
+    "whole": st.lists(
+        st.one_of(st.none(), st.integers(-(2**63), 2**63 - 1)), min_size=3, max_size=3
+    ),  # fmt: skip
+    "flag": st.lists(st.one_of(st.none(), st.booleans()), min_size=3, max_size=3),
+}
+
+
+@settings(max_examples=100, deadline=None)
+@given(columns=st.fixed_dictionaries(_JSON_FRAME_COLUMNS), split=st.integers(0, 3))
+def test_json_rows_are_the_bytes_of_polars_ndjson_writer(columns, split, tmp_path_factory):
+    # The JSON table's rows come from polars' JSON serializer row by row (struct.json_encode),
+    # joined by commas: the same bytes as write_ndjson's lines joined by commas (the writer
+    # used before, and polars' documented NDJSON), for text with quotes, control characters
+    # and non-ASCII, floats (NaN and infinities as null), 64-bit integers and booleans.
+    import polars as pl
+
+    from sensitivity.output.streams import TableWriter
+
+    frame = pl.DataFrame(columns, schema={"text": pl.String, "number": pl.Float64,
+                                          "whole": pl.Int64, "flag": pl.Boolean})  # fmt: skip
+    frame = frame.rename({"text": 'te"x\\t é'})
+    path = tmp_path_factory.mktemp("json") / "out.json"
+    writer = TableWriter(path)
+    for piece in (frame[:split], frame.head(0), frame[split:]):
+        writer.write(piece)
+    writer.close({"n": 3})
+    lines = frame.write_ndjson().encode().rstrip(b"\n").replace(b"\n", b",")
+    assert path.read_bytes() == b'{"rows":[' + lines + b'],"n":3}\n'
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.sampled_from(["1", "1.5", " 2.5", "3 ", "", None, "1,5", "-0,25", "1e3",
+                                 "+4", "-7", "007", "nan", "inf", "abc", "  ", "1,5e3", ",5",
+                                 "5,", "1_000", "-0"]), min_size=1, max_size=8),
+       st.sampled_from(["Float64", "Int64"]))  # fmt: skip
+def test_typed_columns_cast_directly_where_that_reads_every_cell(cells, kind):
+    # with_types casts a column straight to its type when every filled cell reads that way,
+    # else strips the cells and reads decimal commas first: the same column either way.
+    import polars as pl
+
+    from sensitivity.adapters.files import with_types
+
+    dtype = getattr(pl, kind)
+    frame = pl.DataFrame({"a": cells, "b": ["x"] * len(cells)},
+                         schema={"a": pl.String, "b": pl.String})  # fmt: skip
+    cell = pl.col("a").str.strip_chars()
+    if dtype == pl.Float64:
+        cell = cell.str.replace(r"^([-+]?[0-9]*),([0-9]+(?:[eE][-+]?[0-9]+)?)$", r"${1}.${2}")
+    long_way = frame.with_columns(
+        pl.when(cell == "").then(None).otherwise(cell).cast(dtype, strict=False).alias("a")
+    )
+    got = with_types(frame, {"a": dtype, "b": pl.String, "absent": pl.Int64})
+    assert got.schema == long_way.schema
+    assert got.equals(long_way)
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".tsv", ".json"])
+def test_a_column_of_raw_bytes_is_refused_in_one_line_for_text_files(suffix, tmp_path):
+    # Neither polars' CSV nor its JSON writer can hold raw bytes (a Parquet input's binary
+    # column): the writer says so by name, before any row, and leaves no file behind.
+    import polars as pl
+
+    from sensitivity.common.errors import InputError
+    from sensitivity.output.streams import TableWriter
+
+    writer = TableWriter(tmp_path / f"out{suffix}")
+    with pytest.raises(InputError, match="`output`: column 'blob' holds raw bytes"):
+        writer.write(pl.DataFrame({"x": [1.0], "blob": [b"\x00a"]}))
+    writer.abort()
+    assert list(tmp_path.iterdir()) == []

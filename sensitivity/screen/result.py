@@ -60,14 +60,20 @@ class Tally:
 
         rows = np.bincount(slot, minlength=width)
         bins = {}
+        screened = slot > 0
         for key in ("evalue", "evalue_ci"):
-            v = values[key]
             with np.errstate(invalid="ignore", divide="ignore"):
-                idx = np.minimum(np.log(v) / _TOP * _EDGES, _EDGES)
-            finite = np.isfinite(idx) & (slot > 0)
+                idx = np.log(values[key])  # log(v) / _TOP * _EDGES, at most _EDGES, in place
+                np.divide(idx, _TOP, out=idx)
+                np.multiply(idx, _EDGES, out=idx)
+                np.minimum(idx, _EDGES, out=idx)
+            finite = np.isfinite(idx)
+            finite &= screened
             # bin-major, so the counts are only as long as the largest E-value needs
-            spot = np.where(finite, np.where(finite, idx, 0).astype(np.int64) * width + slot, 0)
-            counts = np.bincount(spot)
+            spot = idx[finite].astype(np.int64)
+            spot *= width
+            spot += slot[finite]
+            counts = np.bincount(spot, minlength=width)
             bins[key] = np.pad(counts, (0, -counts.size % width)).reshape(-1, width)
             bins[f"{key}_n"] = per_scale(finite)
         if self.threshold is not None:
@@ -80,17 +86,13 @@ class Tally:
             for i in range(1, self.n_confounders + 1)
         ]  # fmt: skip
         regression = per_scale(np.isfinite(values["robustness_value"]))
-        kept = {}
-        for key in ("evalue", "evalue_ci"):  # the finite values, grouped by scale
-            v = values[key]
-            good = np.flatnonzero(np.isfinite(v) & (slot > 0))
-            order = good[np.argsort(slot[good], kind="stable")]
-            cuts = np.cumsum(np.bincount(slot[order], minlength=width))
-            kept[key] = np.split(np.asarray(v, float)[order], cuts[:-1])
         for number, code in enumerate(SCREEN_SCALES, 1):
             if not rows[number]:
                 continue
             entry = self.scales.setdefault(code, _entry(self.n_confounders))
+            # the rows of this scale, for the finite values kept for exact medians (a few
+            # scales in a batch: cheaper than sorting the rows by scale)
+            mine = np.flatnonzero(slot == number)
             entry["rows"] += int(rows[number])
             for key in ("evalue", "evalue_ci"):
                 used = bins[key][:, number]
@@ -100,7 +102,8 @@ class Tally:
                 entry[f"{key}_n"] += int(bins[f"{key}_n"][number])
                 store = entry[f"{key}_values"]
                 if store is not None:
-                    store.append(kept[key][number])
+                    kept = np.asarray(values[key], float)[mine]
+                    store.append(kept[np.isfinite(kept)])
                     if entry[f"{key}_n"] > EXACT_VALUES:  # no longer kept: read from the grid
                         entry[f"{key}_values"] = None
             if self.threshold is not None:

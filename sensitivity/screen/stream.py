@@ -110,7 +110,7 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
     if from_text is None:
         for need in ("estimate", "scale"):
             if need not in mapping:
-                _one_column_of_many(header)
+                _one_column_of_many(list(header))
                 raise InputError(
                     f"the table has no {need!r} column: map one with `columns` "
                     f"({need}=YOUR_COLUMN) or read results from text with `from_text`; "
@@ -241,10 +241,12 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
     n = frame.height
     route, scale, values = found
     out = compute_plain(route, values)
-    out |= {k: np.full(n, np.nan) for k in _CORE_ONLY}
     plain = (route >= 0).any()
-    read = {"as_read_estimate": values[0].copy(), "as_read_lower": values[1].copy(),
-            "as_read_upper": values[2].copy(), "as_read_level": np.full(n, np.nan)}  # fmt: skip
+    rest = np.flatnonzero(route < 0)
+    out |= {k: np.full(n, np.nan) for k in _CORE_ONLY}
+    # the numbers as read are the routes' own (this thread's alone once handed over)
+    read = {"as_read_estimate": values[0], "as_read_lower": values[1],
+            "as_read_upper": values[2], "as_read_level": np.full(n, np.nan)}  # fmt: skip
     text = {  # each its own Series: scatter below writes in place
         # a plain row's scale cell is its code as written; every other row is overwritten below
         "scale_used": frame[mapping["scale"]].clone() if plain else pl.repeat("", n, eager=True),
@@ -257,15 +259,16 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
     }
     reasons: list[str] = []
     positions: list[int] = []
-    rest = np.flatnonzero(route < 0)
     if rest.size:
         core = _core_rows(frame, rest, mapping, options, from_text)
         for key in out:
             out[key][rest] = core[key]
         for key in read:
             read[key][rest] = core[key]
-        for key in text:
-            text[key] = text[key].scatter(rest, core[key].astype(str))
+        for key in text:  # a whole column rewritten only where the core's cells differ
+            cells = core[key].astype(str).tolist()
+            if text[key].gather(rest).to_list() != cells:
+                text[key] = text[key].scatter(rest, cells)
         flagged = core["error"] != ""
         number = {c: i for i, c in enumerate(SCREEN_SCALES)}
         scale[rest] = [-1 if bad else number[c] for c, bad in
