@@ -40,7 +40,7 @@ def _option_name(param: click.Parameter) -> str:
 
 def _typed(command: click.Command, args: list[str]) -> dict[str, str]:
     """Each option the user gave, as they spelt it (`-o` or `--output`): param name -> text."""
-    spelt = {}
+    spelt: dict[str, click.Option] = {}
     for param in command.params:
         if isinstance(param, click.Option):
             for name in param.opts + param.secondary_opts:
@@ -50,9 +50,9 @@ def _typed(command: click.Command, args: list[str]) -> dict[str, str]:
         if token == "--":
             break
         name = token.split("=", 1)[0] if token.startswith("--") else token
-        param = spelt.get(name)
-        if param is not None and param.name:
-            typed.setdefault(param.name, name)
+        option = spelt.get(name)
+        if option is not None and option.name:
+            typed.setdefault(option.name, name)
     return typed
 
 
@@ -86,7 +86,7 @@ def namer(command: click.Command, ctx: click.Context) -> Callable[[str], str]:
 
 def _refuse_repeats(command: click.Command, args: list[str]) -> None:
     """A single-value option given twice is an error, not a silent last-one-wins."""
-    options = {}
+    options: dict[str, click.Option] = {}
     for param in command.params:
         if isinstance(param, click.Option):
             for name in param.opts + param.secondary_opts:
@@ -100,17 +100,17 @@ def _refuse_repeats(command: click.Command, args: list[str]) -> None:
         if token == "--":
             break
         name, inline = token.split("=", 1)[0], "=" in token and token.startswith("--")
-        param = options.get(name if inline else token)
-        if param is None:
+        option = options.get(name if inline else token)
+        if option is None:
             continue
-        skip = 0 if param.is_flag or param.count or inline else param.nargs
-        if param.multiple or param.count:
+        skip = 0 if option.is_flag or option.count or inline else option.nargs
+        if option.multiple or option.count or option.name is None:
             continue
-        if param.name in seen:
+        if option.name in seen:
             raise click.UsageError(
                 f"{name if inline else token} was given more than once; give it once"
             )
-        seen.add(param.name)  # type: ignore[arg-type]
+        seen.add(option.name)
 
 
 def _refuse_non_finite(command: click.Command, ctx: click.Context) -> None:

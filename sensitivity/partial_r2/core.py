@@ -242,8 +242,8 @@ def check_summary(
             ("estimate", "se"),
         )
     reduce_by = float(require_scalar(reduce_by, "reduce_by", POSITIVE))
-    alpha = levels.check_alpha(alpha)
-    return est, se, dof, reduce_by, alpha
+    checked = levels.check_alpha(alpha)  # type: ignore[arg-type]  # it checks any object
+    return est, se, dof, reduce_by, checked
 
 
 def hypothetical_scenarios(

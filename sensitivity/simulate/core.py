@@ -200,12 +200,12 @@ def simulate(
         _support(priors["outcome_effect"], 1e-300, np.inf, "outcome_effect")
     drawn_seed = seed is None
     if seed is not None:
-        seed = require_scalar(seed, "seed")
-        if seed < 0 or seed != int(seed) or seed >= 2**63:
+        chosen = require_scalar(seed, "seed")
+        if chosen < 0 or chosen != int(chosen) or chosen >= 2**63:
             raise InputError(
-                f"`seed` must be a whole number from 0 to 2^63 - 1; got {seed:g}", "seed"
+                f"`seed` must be a whole number from 0 to 2^63 - 1; got {chosen:g}", "seed"
             )
-        seed = int(seed)
+        seed = int(chosen)
     if seed is None:
         seed = int(np.random.SeedSequence().generate_state(1)[0])
     rng = np.random.default_rng(int(seed))
