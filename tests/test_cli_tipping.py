@@ -30,6 +30,34 @@ def test_the_issue_example_gives_a_grid_and_table(run):
     assert "Cautions:" in out
 
 
+@pytest.mark.parametrize(
+    "view",
+    [
+        EXAMPLE,
+        ("tipping", "--kind", "continuous", "--scale", "rr", "--estimate", 0.81)
+        + ("--ci", 0.69, 0.95, "--difference", "0:1.5:0.5", "--outcome-effect", 1.5),
+        ("tipping", "--kind", "bounding", "--scale", "rr", "--estimate", 1.38)
+        + ("--ci", 1.12, 1.7, "--rr-treatment", "1:3:0.5", "--rr-outcome", "1:3:0.5"),
+    ],
+)
+def test_the_ci_level_is_named_in_every_view_and_in_json(run, view):
+    """Issue 19: every interval names its level; --ci-level is the level of --ci."""
+    res = run(*view, "--ci-level", 0.9)
+    assert res.exit_code == 0, res.stderr
+    assert "90% CI" in res.stdout and "95%" not in res.stdout
+    res = run(*view, "--ci-level", 0.9, "--format", "json")
+    assert json.loads(res.stdout)["ci_level"] == 0.9
+    assert json.loads(run(*view, "--format", "json").stdout)["ci_level"] == 0.95
+
+
+def test_partial_r2_alpha_names_its_level(run):
+    args = ("tipping", "--kind", "partial-r2", "--estimate", 0.114, "--se", 0.027, "--dof", 1192)
+    res = run(*args, "--alpha", 0.1)
+    assert res.exit_code == 0, res.stderr
+    assert "90% CI" in res.stdout and "95%" not in res.stdout
+    assert json.loads(run(*args, "--alpha", 0.1, "--format", "json").stdout)["ci_level"] == 0.9
+
+
 def test_json_rows_and_tipping_points_follow_the_contract(run):
     res = run(*EXAMPLE, "--format", "json")
     d = json.loads(res.stdout)
@@ -297,6 +325,20 @@ def test_plot_every_view(run, tmp_path, args):
             ("tipping", "--scale", "rr", "--estimate", 2, "--rr-treatment", 2),
             "Error: --rr-treatment does not apply to the binary view",
         ),
+        (
+            EXAMPLE + ("--alpha", 0.1),  # issue 19: was ignored, the CI still called 95%
+            "Error: --alpha does not apply to the binary view; its --ci's level is --ci-level",
+        ),
+        (
+            ("tipping", "--scale", "rr", "--estimate", 1.8, "--ci-level", 0.9),
+            "Error: --ci-level is the level of --ci: give --ci LOWER UPPER with it",
+        ),
+        (
+            ("tipping", "--kind", "partial-r2", "--estimate", 1, "--se", 1, "--dof", 9)
+            + ("--ci-level", 0.9),
+            "Error: --ci-level does not apply to the partial-r2 view; it takes --alpha",
+        ),
+        (EXAMPLE + ("--ci-level", 1.5), "Error: `--ci-level` must lie strictly between 0 and 1"),
         (
             EXAMPLE + ("--plot", "t.gif"),
             "Error: `--plot` must end in .png, .svg or .pdf; got 't.gif'",

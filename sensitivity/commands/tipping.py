@@ -40,6 +40,13 @@ SHORT_HELP = COMMANDS["tipping"][1]
     "--ci", nargs=2, type=float, default=None, metavar="LOWER UPPER", help="Its confidence limits."
 )
 @click.option(
+    "--ci-level",
+    type=float,
+    default=None,
+    help="The level of --ci, as the output names it (default 0.95; 0.9 for a 90% CI). "
+    "The partial-r2 view takes --alpha instead.",
+)
+@click.option(
     "--target", type=float, default=None, help="Value to test against (default: the null)."
 )
 @click.option(
@@ -61,7 +68,10 @@ SHORT_HELP = COMMANDS["tipping"][1]
 @click.option("--se", type=float, help="partial-r2: the coefficient's standard error.")
 @click.option("--dof", type=float, help="partial-r2: residual degrees of freedom.")
 @click.option(
-    "--alpha", type=float, default=0.05, show_default=True, help="partial-r2: significance level."
+    "--alpha",
+    type=float,
+    default=None,
+    help="partial-r2: significance level (default 0.05); the other views take --ci-level.",
 )
 @click.option(
     "--r2-treatment", help=f"partial-r2: partial R² of U with the treatment: {RANGE_HELP}."
@@ -74,6 +84,7 @@ def tipping_cmd(
     scale: Any,
     estimate: Any,
     ci: Any,
+    ci_level: Any,
     target: Any,
     prevalence_treated: Any,
     prevalence_control: Any,
@@ -119,6 +130,8 @@ def tipping_cmd(
     given = {
         "scale": scale,
         "ci": ci or None,
+        "ci_level": ci_level,
+        "alpha": alpha,
         "difference": difference,
         "prevalence_treated": prevalence_treated,
         "prevalence_control": prevalence_control,
@@ -137,7 +150,12 @@ def tipping_cmd(
             "--" + ("outcome-frequency" if k == "outcome" else k.replace("_", "-")) for k in foreign
         )
         verb = "does" if len(foreign) == 1 else "do"
-        raise click.UsageError(f"{flags} {verb} not apply to the {kind} view")
+        hint = {"alpha": "; its --ci's level is --ci-level", "ci_level": "; it takes --alpha"}
+        why = "".join(hint.get(k, "") for k in foreign)
+        raise click.UsageError(f"{flags} {verb} not apply to the {kind} view{why}")
+    if ci_level is not None and not ci:
+        raise click.UsageError("--ci-level is the level of --ci: give --ci LOWER UPPER with it")
+    level = {} if ci_level is None else {"ci_level": ci_level}
 
     def grid(name):
         return None if given[name] is None else tp.parse_range(given[name], name)
@@ -152,6 +170,7 @@ def tipping_cmd(
             ci or None,
             target=target,
             outcome=outcome,
+            **level,
             **{k: grid(k) for k in ("prevalence_treated", "prevalence_control", "outcome_effect")},
         )
     elif kind == "continuous":
@@ -161,6 +180,7 @@ def tipping_cmd(
             ci or None,
             target=target,
             outcome=outcome,
+            **level,
             **{k: grid(k) for k in ("difference", "outcome_effect")},
         )
     elif kind == "bounding":
@@ -170,6 +190,7 @@ def tipping_cmd(
             ci or None,
             outcome=outcome,
             target=target,
+            **level,
             **{k: grid(k) for k in ("rr_treatment", "rr_outcome")},
         )
     else:
@@ -179,7 +200,7 @@ def tipping_cmd(
             estimate,
             se,
             dof,
-            alpha=alpha,
+            alpha=0.05 if alpha is None else alpha,
             target=target,
             **{k: grid(k) for k in ("r2_treatment", "r2_outcome")},
         )
@@ -198,14 +219,15 @@ VIEW_OPTIONS = {
     "binary": {
         "scale",
         "ci",
+        "ci_level",
         "prevalence_treated",
         "prevalence_control",
         "outcome_effect",
         "outcome",
     },
-    "continuous": {"scale", "ci", "difference", "outcome_effect", "outcome"},
-    "bounding": {"scale", "ci", "rr_treatment", "rr_outcome", "outcome"},
-    "partial-r2": {"se", "dof", "r2_treatment", "r2_outcome"},
+    "continuous": {"scale", "ci", "ci_level", "difference", "outcome_effect", "outcome"},
+    "bounding": {"scale", "ci", "ci_level", "rr_treatment", "rr_outcome", "outcome"},
+    "partial-r2": {"se", "dof", "alpha", "r2_treatment", "r2_outcome"},
 }
 
 

@@ -130,6 +130,10 @@ class TippingGrid(Result):
                 "scale": self.scale,
                 "estimate": self.estimate,
                 "ci": None if self.ci is None else list(self.ci),
+                # the level of `ci` (1 - alpha in the partial-r2 view, whose interval is worked)
+                "ci_level": self.ci_level
+                if self.ci is not None or self.kind == "partial-r2"
+                else None,
                 "target": self.target,
                 "parameters": {n: v for n, v in self.axes},
                 **self.extra,
