@@ -111,6 +111,12 @@ def test_no_seed_reports_the_one_drawn(run, clinics):
             "`--propensity-column` must lie strictly between 0 and 1; got 0",
         ),
         ({"--resamples": 5}, "`--resamples` must be at least 50"),
+        (  # issue 19: a 99.9% percentile interval from 200 resamples has no resample in its tail
+            {"--alpha": 0.001},
+            "`--alpha` 0.001 needs at least 2,000 `--resamples` (each tail of the percentile "
+            "interval needs alpha/2 x resamples >= 1 resample beyond it); got",
+        ),
+        ({"--alpha": 1e-16}, "`--alpha` 1e-16 needs at least 20,000,000,000,000,000 `--resamples`"),
         ({"--outcome": "nothing"}, "`--outcome` 'nothing' is not a column"),
         ({"--propensity": "outreach ~ age + height"}, "uses column 'height'"),
         ({"--plot": "bounds.gif"}, "`--plot` must end in .png, .svg or .pdf"),

@@ -432,6 +432,11 @@ def test_views_and_dict():
         (lambda k: k.update(resamples=10), "`resamples` must be at least 50"),
         (lambda k: k.update(estimand="atc"), "`estimand` must be one of ate, att"),
         (lambda k: k.update(alpha=0.7), "`alpha` must be below 0.5"),
+        (  # each tail of the percentile interval needs a resample beyond it: 0.005 x 50 < 1
+            lambda k: k.update(alpha=0.01),
+            "`alpha` 0.01 needs at least 200 `resamples` .each tail of the percentile interval "
+            "needs alpha/2 x resamples >= 1 resample beyond it",
+        ),
         (lambda k: k.update(extreme="cut"), "`extreme` must be one of none, clip, trim"),
         (lambda k: k.update(outcome=np.ones(k["outcome"].size)), "`outcome` takes one value"),
     ],
@@ -488,3 +493,10 @@ def test_box_bounds_alone_skip_the_quantile_models():
     assert "wider than the sharp bounds" in box.sentence() or "excludes" in box.sentence()
     with pytest.raises(InputError, match="`methods` must be among sharp, percentile"):
         weighting_bounds(y, a, covariates=x, resamples=50, methods=("box-only",))
+
+
+def test_the_least_resamples_for_a_level_are_accepted():
+    """At alpha/2 x resamples = 1 exactly (0.04 / 2 x 50) the interval is computed."""
+    y, a, x = _data(100, seed=1)
+    res = weighting_bounds(y, a, covariates=x, lam=[1, 2], resamples=50, seed=1, alpha=0.04)
+    assert res.alpha == 0.04

@@ -81,7 +81,7 @@ def parse_lambda(text: str) -> list[float]:
     type=float,
     default=0.05,
     show_default=True,
-    help="The intervals' level is 1 - alpha.",
+    help="The intervals' level is 1 - alpha; alpha/2 x --resamples must be at least 1.",
 )
 @click.option(
     "--target",

@@ -55,6 +55,7 @@ Journal of Econometrics 232:367-388.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from typing import Any
 
@@ -218,7 +219,8 @@ def weighting_bounds(
     estimand : {'ate', 'att'}
     lam : float or sequence of float
         Values of Λ >= 1.
-    resamples, seed, alpha : the bootstrap and the interval's level 1 - alpha.
+    resamples, seed, alpha : the bootstrap and the interval's level 1 - alpha (alpha/2 x resamples
+        must be at least 1: each tail of the percentile interval needs a resample beyond it).
     target : float
         The effect (difference scale) whose inclusion changes the conclusion; 0 by default.
     extreme : {'none', 'clip', 'trim'}
@@ -271,6 +273,15 @@ def weighting_bounds(
         ) from None
     if n_boot < MIN_RESAMPLES:
         raise InputError(f"`resamples` must be at least {MIN_RESAMPLES}; got {n_boot}", "resamples")
+    if level_alpha / 2 * n_boot < 1 - 1e-9:
+        # the limits are order statistics: each tail needs a resample beyond it (as in simulate)
+        least = math.ceil(2 / level_alpha - 1e-9)
+        raise InputError(
+            f"`alpha` {level_alpha:g} needs at least {least:,} `resamples` (each tail of the "
+            f"percentile interval needs alpha/2 x resamples >= 1 resample beyond it); got "
+            f"{n_boot:,}",
+            ("alpha", "resamples"),
+        )
     tgt = float(require(target, "target"))
     if (covariates is None) == (propensity is None):
         raise InputError(
