@@ -568,3 +568,19 @@ def test_progress_goes_to_stderr_a_fit_at_a_time(capsys):
     captured = capsys.readouterr()
     assert captured.out == ""
     assert captured.err.splitlines()[-1].startswith("fitting learners: 4 of 4 fits")
+
+
+@pytest.mark.parametrize("alpha", [0.05, 1e-16, 1e-300])
+def test_critical_values_are_finite_to_the_least_alpha(fair_fit, alpha):
+    """Issue 19: alpha 1e-16 gave a CI of -inf to inf (z from 1 - alpha, which rounds to 1).
+    Reference: scipy.stats.norm.isf, the upper-tail quantile computed from the upper tail."""
+    from scipy.stats import norm
+
+    from sensitivity.debiased.core import Moments, bounds
+
+    res = fair_fit.bounds([(0.02, 0.05)], alpha=alpha)
+    lo, hi = res.ci
+    assert (hi - lo) / 2 / res.se == pytest.approx(norm.isf(alpha / 2), rel=1e-12)
+    m = Moments(estimate=1.0, n=100, sigma2=4.0, nu2=0.25, v_theta=1.0, v_cross=0.0, v_s=0.0)
+    out = bounds(m, 0.5, 0.5, alpha=alpha)  # each side's se is sqrt(1 / 100) = 0.1
+    assert (out["ci_upper"] - out["bound_upper"]) / 0.1 == pytest.approx(norm.isf(alpha), rel=1e-12)

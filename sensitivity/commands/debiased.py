@@ -172,6 +172,7 @@ def debiased_cmd(
     import time
 
     from sensitivity.common.errors import InputError
+    from sensitivity.common.levels import check_alpha
 
     show_warnings()
     check_plot(*plots)
@@ -182,8 +183,7 @@ def debiased_cmd(
     for cy2, cd2 in strengths:
         check_strengths(cy2, cd2, rho)
     check_strengths(0.0, 0.0, rho)
-    if not 0 < alpha < 1:
-        raise InputError(f"`alpha` must lie strictly between 0 and 1; got {alpha:g}", "alpha")
+    check_alpha(alpha)
     for k in multiples:
         if not k > 0:
             raise InputError(f"`multiple` must be positive; got {k:g}", "multiple")

@@ -74,6 +74,20 @@ def z_critical(alpha: ArrayLike) -> np.ndarray:
     return -ndtri(np.asarray(alpha, float) / 2)
 
 
+def z_one_sided(alpha: ArrayLike) -> np.ndarray:
+    """The one-sided standard normal critical value z_{1 - alpha}, as minus the lower-tail
+    quantile at `alpha`: finite for alpha >= 1e-300.
+
+    >>> round(float(z_one_sided(0.05)), 4)
+    1.6449
+    >>> bool(np.isfinite(z_one_sided(1e-300)))
+    True
+    """
+    from scipy.special import ndtri
+
+    return -ndtri(np.asarray(alpha, float))
+
+
 def t_critical(alpha: ArrayLike, dof: ArrayLike) -> np.ndarray:
     """The two-sided Student-t critical value at `alpha` on `dof` degrees of freedom.
 

@@ -33,6 +33,7 @@ from numpy.typing import ArrayLike
 
 from ..common.checks import OPEN_UNIT, Rule, require
 from ..common.errors import InputError
+from ..common.levels import z_one_sided
 
 STRENGTH = Rule("must lie in [0, 1)", lambda x: ~((x >= 0) & (x < 1)))
 RHO = Rule("must lie in (0, 1]", lambda x: ~((x > 0) & (x <= 1)))
@@ -193,10 +194,8 @@ def multiplier(cy2: ArrayLike, cd2: ArrayLike, rho: ArrayLike = 1.0) -> np.ndarr
 
 
 def z_value(alpha: float) -> float:
-    """z_{1 - alpha}: the one-sided normal quantile."""
-    from scipy.special import ndtri
-
-    return float(ndtri(1 - alpha))
+    """z_{1 - alpha}: the one-sided normal quantile, from the lower tail (finite to 1e-300)."""
+    return float(z_one_sided(alpha))
 
 
 def bounds(

@@ -16,7 +16,7 @@ import numpy as np
 
 from ..common import notes as standing
 from ..common.errors import InputError
-from ..common.levels import level_text
+from ..common.levels import check_alpha, level_text, z_critical
 from ..common.results import Result, plain
 from . import core
 
@@ -280,11 +280,11 @@ class DebiasedFit:
         -------
         DebiasedResult
         """
-        from ..common.checks import FINITE, OPEN_UNIT, require
+        from ..common.checks import FINITE, require
 
         m = self.moments
         rho = float(require(rho, "rho", core.RHO))
-        alpha = float(require(alpha, "alpha", OPEN_UNIT))
+        alpha = check_alpha(alpha)  # to 1e-300: its critical values are finite
         target = float(require(target, "target", FINITE))
         scenarios: list[Scenario] = []
         pairs = [tuple(p) for p in strengths]
@@ -330,9 +330,7 @@ class DebiasedFit:
                 f"{target:g} for any equal strength below 1 (S is estimated too imprecisely); "
                 "the robustness value with sampling error is reported as 1."
             )
-        from scipy.special import ndtri
-
-        z2 = float(ndtri(1 - alpha / 2))
+        z2 = float(z_critical(alpha))  # from the lower tail: finite to alpha 1e-300
         return DebiasedResult(
             estimate=m.estimate,
             se=m.se,
