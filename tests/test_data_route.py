@@ -269,3 +269,24 @@ def test_a_first_piece_with_only_a_missing_category_is_left_out(monkeypatch):
     ref = smf.ols("y ~ t + x + g", frame).fit()
     assert float(got.estimate) == pytest.approx(ref.params["t"], rel=1e-8)
     assert got.n == 39
+
+
+@pytest.mark.parametrize("alpha", [0.5, 0.1, 1e-6])
+def test_the_ols_evalue_interval_is_the_fit_at_the_level_asked(alpha, tmp_path, run):
+    """Issue 19: --ci-level was ignored on the OLS data route (the interval stayed 95%).
+    Reference: statsmodels OLS conf_int(alpha=...) on its shipped `fair` data set."""
+    frame = sm.datasets.fair.load_pandas().data
+    formula = "affairs ~ rate_marriage + age + yrs_married + children + religious + educ"
+    fitted = smf.ols(formula, frame).fit()
+    ref = list(fitted.conf_int(alpha=alpha).loc["rate_marriage"])
+    ev = evalue_from_data(frame, formula, "rate_marriage", "ols", alpha=alpha)
+    once = ols_report_from_data(frame, formula, "rate_marriage", alpha=alpha).evalue
+    for res in (ev, once):  # the evalue command's route and the report's one-pass route
+        assert res.ci_level == pytest.approx(1 - alpha, rel=1e-15)
+        assert list(res.ci) == pytest.approx(ref, rel=1e-9)
+    path = tmp_path / "fair.csv"
+    frame.to_csv(path, index=False)
+    args = ("evalue", "--data", path, "--formula", formula, "--treatment", "rate_marriage")
+    res = run(*args, "--model", "ols", "--ci-level", 1 - alpha, "--format", "json")
+    assert res.exit_code == 0, res.stderr
+    assert json.loads(res.stdout)["ci"] == pytest.approx(ref, rel=1e-9)

@@ -57,8 +57,10 @@ def test_data_report_with_errors_benchmarks_and_published_benchmarks(run, fair_c
     assert "heteroskedasticity-robust (HC3) standard errors" in text
     # the E-value alongside comes from the HC3 fit
     ev = json.loads(
-        run("evalue", *data, "--model", "ols", "--errors", "hc3", "--format", "json").stdout
-    )
+        run(
+            "evalue", *data, "--model", "ols", "--errors", "hc3", *bench[-2:], "--format", "json"
+        ).stdout
+    )  # at the report's level (issue 19: the E-value's interval was 95% whatever was asked)
     assert evalue_entry["evalue_ci"] == pytest.approx(ev["evalue_ci"], rel=1e-12)
     assert evalue_entry["model"]["errors"] == "hc3"
 

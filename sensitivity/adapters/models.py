@@ -407,10 +407,11 @@ def evalue_from_data(
     """Fit `model` on `data` (a DataFrame or a file) and give the E-value of `treatment`.
 
     ``ols`` gives the E-value of the coefficient through the standardized difference (the
-    outcome's SD from the data); the others as `evalue_from_model`. `errors` chooses the
-    standard errors (classical, hc0, hc1, hc2, hc3 or cluster:COLUMN; hc1-hc3 for ols only;
-    by default hc0 for a Poisson fit of a 0/1 outcome, classical otherwise); the notes and
-    ``model["errors"]`` name them.
+    outcome's SD from the data; at alpha 0.05 the interval from se of VanderWeele & Ding 2017,
+    at any other alpha the fit's own (1 - alpha) interval); the others as `evalue_from_model`.
+    `errors` chooses the standard errors (classical, hc0, hc1, hc2, hc3 or cluster:COLUMN;
+    hc1-hc3 for ols only; by default hc0 for a Poisson fit of a 0/1 outcome, classical
+    otherwise); the notes and ``model["errors"]`` name them.
     """
     from dataclasses import replace
 
@@ -437,7 +438,11 @@ def evalue_from_data(
     y = np.asarray(results.model.endog, float)
     sd = float(np.std(y, ddof=1))
     b, se = float(np.asarray(results.params)[j]), float(np.asarray(results.bse)[j])
-    res = evalue("md", b, se=se, sd=sd, contrast=contrast)  # its interval: the 95% one
+    if abs(alpha - 0.05) < 1e-12:  # 95%: the interval from se of VanderWeele & Ding (2017)
+        res = evalue("md", b, se=se, sd=sd, contrast=contrast)
+    else:  # the fit's own interval at the level asked for
+        ci = tuple(float(v) for v in np.asarray(results.conf_int(alpha=alpha))[j])
+        res = evalue("md", b, ci, sd=sd, contrast=contrast, ci_level=1 - alpha)
     code, words = used_by(results)
     info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment,
             "errors": code}  # fmt: skip

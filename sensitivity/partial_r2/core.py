@@ -426,7 +426,14 @@ def assemble(
         from ..evalues.core import evalue
 
         sd = float(require_scalar(sd_outcome, "sd_outcome", POSITIVE))
-        ev = evalue("md", est, se=se, sd=sd, contrast=contrast)
+        if abs(alpha - 0.05) < 1e-12:  # 95%: the interval from se of VanderWeele & Ding (2017)
+            ev = evalue("md", est, se=se, sd=sd, contrast=contrast)
+        else:  # the fit's own t interval at the level asked for (statsmodels' conf_int)
+            from ..common.levels import t_critical
+
+            half = float(t_critical(alpha, dof)) * se
+            ci = (est - half, est + half)
+            ev = evalue("md", est, ci, sd=sd, contrast=contrast, ci_level=1 - alpha)
     notes = list(context.pop("notes", ()))
     if ev is not None:
         per = "" if contrast == 1 else f" per {contrast:g} units of treatment"
