@@ -357,3 +357,11 @@ def test_bad_input_exits_2(run, args, message):
     assert res.exit_code == 2, res.stdout[:200]
     assert res.stderr.startswith(message), res.stderr
     assert res.stderr.count("\n") == 1
+
+
+def test_a_tiny_alpha_names_its_level(run):
+    """Issue 19: alpha 1e-17 printed "(100 − 0)% CI" (the level 1 - alpha held as 1)."""
+    args = ("tipping", "--kind", "partial-r2", "--estimate", 0.114, "--se", 0.027, "--dof", 1192)
+    res = run(*args, "--alpha", 1e-17)
+    assert res.exit_code == 0, res.stderr
+    assert "(100 − 1e-15)% CI" in res.stdout and "(100 − 0)" not in res.stdout

@@ -290,3 +290,13 @@ def test_the_ols_evalue_interval_is_the_fit_at_the_level_asked(alpha, tmp_path, 
     res = run(*args, "--model", "ols", "--ci-level", 1 - alpha, "--format", "json")
     assert res.exit_code == 0, res.stderr
     assert json.loads(res.stdout)["ci"] == pytest.approx(ref, rel=1e-9)
+
+
+def test_an_alpha_whose_level_rounds_to_1_leaves_the_evalue_interval_out(run, tmp_path):
+    frame = sm.datasets.fair.load_pandas().data
+    formula = "affairs ~ rate_marriage + age + yrs_married + children + religious + educ"
+    res = partial_r2_from_data(frame, formula, "rate_marriage", alpha=1e-17)
+    assert res.evalue.evalue_ci is None
+    assert any("rounds to 1" in n for n in res.all_notes())
+    with pytest.raises(InputError, match="`alpha` must be at least 1.2e-16"):
+        evalue_from_data(frame, formula, "rate_marriage", "ols", alpha=1e-17)

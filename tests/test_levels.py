@@ -84,3 +84,41 @@ def test_a_risk_difference_with_no_control_cases_says_no_finite_strength(run):
     text = " ".join(res.stdout.split())
     assert "no unmeasured confounder of any finite strength could explain it away" in text
     assert "inf each" not in text
+
+
+@given(st.floats(1e-15, 1 - 1e-15))
+def test_a_level_given_prints_back_to_itself(level):
+    """Issue 19: the printed percentage, read back, is 100 level within 1e-12 relative; a level
+    within 1e-4 of 1 prints as (100 − x)% with x = 100 (1 - level) exactly as the level was
+    written (its shortest repr), so 1 - x/100 reads back as the same float."""
+    from decimal import Decimal
+
+    text = level_text(level)
+    assert text.endswith("%") and "− 0)" not in text
+    if text.startswith("(100 − "):
+        x = text.removeprefix("(100 − ").removesuffix(")%")
+        assert 1 - level < 1e-4
+        assert float(1 - Decimal(x) / 100) == level
+    else:
+        assert 1 - level >= 1e-4 * (1 - 1e-12)
+        assert float(text.removesuffix("%")) == pytest.approx(100 * level, rel=1e-12)
+
+
+@given(st.floats(ALPHA_FLOOR, 0.999))
+def test_a_level_from_alpha_prints_back_to_it(alpha):
+    text = level_text(alpha=alpha)
+    if text.startswith("(100 − "):
+        x = float(text.removeprefix("(100 − ").removesuffix(")%"))
+        assert x == pytest.approx(100 * alpha, rel=1e-12)
+    else:
+        assert float(text.removesuffix("%")) == pytest.approx(100 * (1 - alpha), rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    "level, alpha, text",
+    [(1e-15, None, "1e-13%"), (0.99999, None, "(100 − 0.001)%"), (None, 0.07, "93%"),
+     (None, 1e-17, "(100 − 1e-15)%"), (0.93, None, "93%"), (0.123, None, "12.3%")],
+)  # fmt: skip
+def test_levels_the_review_found_garbled(level, alpha, text):
+    """Issue 19: 1e-15 printed as 9.99201e-14%; alpha 1e-17 as (100 − 0)%."""
+    assert level_text(level, alpha=alpha) == text

@@ -441,6 +441,9 @@ def evalue_from_data(
     if abs(alpha - 0.05) < 1e-12:  # 95%: the interval from se of VanderWeele & Ding (2017)
         res = evalue("md", b, se=se, sd=sd, contrast=contrast)
     else:  # the fit's own interval at the level asked for
+        if 1 - alpha == 1:
+            why = "the level 1 - alpha of the E-value's interval rounds to 1 below it"
+            raise InputError(f"`alpha` must be at least 1.2e-16: {why}; got {alpha:g}", "alpha")
         ci = tuple(float(v) for v in np.asarray(results.conf_int(alpha=alpha))[j])
         res = evalue("md", b, ci, sd=sd, contrast=contrast, ci_level=1 - alpha)
     code, words = used_by(results)

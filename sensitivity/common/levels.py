@@ -114,13 +114,24 @@ def t_critical(alpha: ArrayLike, dof: ArrayLike) -> np.ndarray:
 def level_text(level: float | None = None, *, alpha: float | None = None) -> str:
     """A confidence level as a percentage that a sentence can print truly.
 
-    From `alpha` when given (1 - 1e-20 cannot be held as a float); as many digits as the
-    level has (97.5%, not 98%); a level within 1e-4 of 1 as "(100 − x)%".
+    From `alpha` when given (1 - 1e-20 cannot be held as a float); the level as written, to
+    15 significant digits (97.5%, not 98%; 1e-15 as 1e-13%, not 9.99201e-14%); a level within
+    1e-4 of 1 as "(100 − x)%", x = 100 alpha, with 1 - level worked in decimal from the level's
+    shortest repr (0.99999 gives 0.001, not 0.00100000000000655).
 
     >>> level_text(0.95), level_text(0.975), level_text(alpha=1e-20), level_text(0.5)
     ('95%', '97.5%', '(100 − 1e-18)%', '50%')
+    >>> level_text(1e-15), level_text(0.99999), level_text(alpha=0.07)
+    ('1e-13%', '(100 − 0.001)%', '93%')
     """
-    complement = float(alpha) if alpha is not None else 1 - float(level)  # type: ignore[arg-type]
-    if complement < 1e-4:
-        return f"(100 − {100 * complement:.3g})%"
-    return f"{100 * (1 - complement):.6g}%"
+    from decimal import Decimal
+
+    if alpha is not None:
+        complement = Decimal(repr(float(alpha)))
+    else:
+        complement = 1 - Decimal(repr(float(level)))  # type: ignore[arg-type]
+    if complement < Decimal("1e-4"):
+        return f"(100 − {float(100 * complement):.15g})%"
+    if alpha is None:
+        return f"{100 * float(level):.15g}%"  # type: ignore[arg-type]
+    return f"{float(100 * (1 - complement)):.15g}%"

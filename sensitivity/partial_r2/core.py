@@ -428,6 +428,14 @@ def assemble(
         sd = float(require_scalar(sd_outcome, "sd_outcome", POSITIVE))
         if abs(alpha - 0.05) < 1e-12:  # 95%: the interval from se of VanderWeele & Ding (2017)
             ev = evalue("md", est, se=se, sd=sd, contrast=contrast)
+        elif 1 - alpha == 1:  # a level a float cannot hold: the E-value without its interval
+            ev = evalue("md", est, sd=sd, contrast=contrast)
+            context.setdefault("notes", [])
+            context["notes"] = [
+                *context["notes"],
+                f"The E-value is given without an interval: its level 1 - {alpha:g} rounds "
+                "to 1 in double precision.",
+            ]
         else:  # the fit's own t interval at the level asked for (statsmodels' conf_int)
             from ..common.levels import t_critical
 

@@ -106,13 +106,16 @@ def table(r: PartialR2Result) -> Table:
     ]
     if r.evalue is not None:
         e = r.evalue
-        rows.append(
-            (
-                f"E-value alongside ({_per(e.contrast).strip() or 'per unit'}; estimate / "
-                f"{level_text(e.ci_level)} CI)",
-                f"{number(e.evalue)} / {number(e.evalue_ci)}",
+        per = _per(e.contrast).strip() or "per unit"
+        if e.evalue_ci is None:  # no interval (a level that rounds to 1): no level to name
+            rows.append((f"E-value alongside ({per}; estimate)", number(e.evalue)))
+        else:
+            rows.append(
+                (
+                    f"E-value alongside ({per}; estimate / {level_text(e.ci_level)} CI)",
+                    f"{number(e.evalue)} / {number(e.evalue_ci)}",
+                )
             )
-        )
     return Table(
         ("How strong a hidden confounder would have to be", "Share of residual variance"),
         tuple(rows),

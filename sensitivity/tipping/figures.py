@@ -9,7 +9,6 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
-from ..common.levels import level_text
 from ..output.figures import (
     Mark,
     figure_paths,
@@ -53,7 +52,7 @@ def tipping_figure(
             "plot",
         )
     goal = "the null" if result.target_is_null else f"{result.target:g}"
-    level = f"{level_text(result.ci_level)} CI"
+    level = f"{result.level} CI"
     est = np.squeeze(result.cells["bias_adjusted_estimate"])
     near_key = (
         "bias_adjusted_ci_lower" if result.estimate >= result.target else "bias_adjusted_ci_upper"

@@ -7,7 +7,6 @@ from typing import Any
 
 import numpy as np
 
-from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..common.scales import SCALES
 from ..output.document import Document, Figure, prose, standard_tail
@@ -141,7 +140,7 @@ def table(g: TippingGrid) -> Table:
         ci = "" if adj["ci"] is None else f"{adj['ci'][0]:.4g} to {adj['ci'][1]:.4g}"
         single = [(NAMES[n], _fmt(g, n, float(v[0]))) for n, v in g.axes]
         single.append(("Bias-adjusted estimate", f"{adj['estimate']:.4g}"))
-        level = f"{level_text(g.ci_level)} CI"
+        level = f"{g.level} CI"
         if ci:
             single.append((f"Bias-adjusted {level}", ci))
         single.append((f"Estimate reaches {_goal(g)}", "yes" if r["reaches_target"] else "no"))
@@ -155,7 +154,7 @@ def table(g: TippingGrid) -> Table:
     head = tuple(NAMES[o] for o in others)
     cols = head + (f"Estimate reaches {_goal(g)} at", "(exact)")
     if g.reach_ci is not None:
-        cols += (f"{level_text(g.ci_level)} CI reaches it at", "(exact)")
+        cols += (f"{g.level} CI reaches it at", "(exact)")
     # between two values, and either side of a gap, arise in the partial-R² view only
     shapes = ""
     if g.kind == "partial-r2":
@@ -230,7 +229,7 @@ def sentence(g: TippingGrid) -> str:
         "continuous": "a hidden normal confounder",
     }[g.kind]
     goal = _goal(g)
-    level = f"{level_text(g.ci_level)} CI"
+    level = f"{g.level} CI"
     j = g.solved
     if j is None:
         r = _first_row(g)
@@ -260,7 +259,7 @@ def sentence(g: TippingGrid) -> str:
 
 
 def document(g: TippingGrid) -> Document:
-    ci = "" if g.ci is None else f" ({level_text(g.ci_level)} CI {g.ci[0]:g} to {g.ci[1]:g})"
+    ci = "" if g.ci is None else f" ({g.level} CI {g.ci[0]:g} to {g.ci[1]:g})"
     label = "OLS coefficient" if g.kind == "partial-r2" else SCALES[g.scale].name
     cells = int(np.prod(g.shape))
     head = (

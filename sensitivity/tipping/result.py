@@ -57,6 +57,15 @@ class TippingGrid(Result):
         return self.varying[-1] if self.varying else None
 
     @property
+    def level(self) -> str:
+        """The interval's level as text: from alpha in the partial-r2 view (1 - 1e-17 is 1)."""
+        from ..common.levels import level_text
+
+        if "alpha" in self.extra:
+            return level_text(alpha=self.extra["alpha"])
+        return level_text(self.ci_level)
+
+    @property
     def n_rows(self) -> int:
         return int(np.prod(self.shape))
 
