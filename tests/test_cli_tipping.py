@@ -365,3 +365,10 @@ def test_a_tiny_alpha_names_its_level(run):
     res = run(*args, "--alpha", 1e-17)
     assert res.exit_code == 0, res.stderr
     assert "(100 − 1e-15)% CI" in res.stdout and "(100 − 0)" not in res.stdout
+
+
+def test_the_bounding_views_e_value_names_its_level(run):
+    res = run("tipping", "--kind", "bounding", "--scale", "rr", "--estimate", 1.38,
+              "--ci", 1.12, 1.7, "--ci-level", 0.9)  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    assert "for the 90% CI:" in " ".join(res.stdout.split())

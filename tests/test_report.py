@@ -199,3 +199,24 @@ def test_report_from_python_takes_fitted_models_and_results(tmp_path):
         sensitivity.report(logit, tmp_path / "bad")
     with pytest.raises(InputError, match="`labels` has 1 names for 2 results"):
         sensitivity.report([summary, summary], tmp_path / "bad", labels=["one"])
+
+
+def test_the_report_names_the_level_of_the_e_values_interval(run, tmp_path, monkeypatch):
+    """Issue 19: stdout said "E-value 2.10 (CI: 1.49)" and the forest's header "E-value (CI)"."""
+    import sensitivity.evalues.figures as figures
+    from sensitivity.evalues.core import evalue
+
+    res = run("report", "--scale", "rr", "--estimate", 1.38, "--ci", 1.12, 1.7,
+              "--ci-level", 0.9, "--out", tmp_path / "a")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    assert "E-value 2.10 (for the 90% CI: 1.49)" in res.stdout
+    texts = []
+    monkeypatch.setattr(figures, "save_figure", lambda fig, paths: texts.extend(
+        t.get_text() for ax in fig.axes for t in ax.texts))  # fmt: skip
+    one = evalue("rr", 1.38, (1.12, 1.7), ci_level=0.9)
+    figures.forest_figure([("a", one), ("b", one)], [tmp_path / "f.png"])
+    assert "E-value  (90% CI)" in texts
+    other = evalue("rr", 1.38, (1.12, 1.7))
+    texts.clear()
+    figures.forest_figure([("a", one), ("b", other)], [tmp_path / "f.png"])
+    assert "E-value  (its row's CI)" in texts

@@ -167,6 +167,7 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
     if r2_treatment or r2_outcome:
         items = _with_strengths(items, r2_treatment, r2_outcome)
     command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
+    from sensitivity.common.levels import level_text
     from sensitivity.output.tables import safe_text
 
     files = write_report(items, folder, Reproduce(command))
@@ -174,10 +175,14 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
                "report.json, figures)", err=True)  # fmt: skip
     for name, result in items:
         e = result.report_parts()[0]
-        ci_e = "-" if e.evalue_ci is None else f"{float(e.evalue_ci):.2f}"
+        ci_e = (
+            "no interval"
+            if e.evalue_ci is None
+            else f"for the {level_text(e.ci_level)} CI: {float(e.evalue_ci):.2f}"
+        )
         # the label as one safe line: a newline, carriage return or terminal escape in it is
         # the user's text, not an instruction to the terminal (issue 19)
-        click.echo(f"{safe_text(name)}: E-value {float(e.evalue):.2f} (CI: {ci_e})")
+        click.echo(f"{safe_text(name)}: E-value {float(e.evalue):.2f} ({ci_e})")
 
 
 def _with_options(items: list[tuple[str, Any]], confounders: Any,

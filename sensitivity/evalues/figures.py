@@ -162,7 +162,8 @@ def forest_figure(items: Sequence[tuple[str, Any]], paths: Sequence[str | Path])
     log_ticks(ax, low, high)
     level = f" ({shared})" if shared else " (each with its own interval level)"
     ax.set_xlabel(f"Estimate on the risk-ratio scale{level}, log axis")
-    ax.annotate("E-value  (CI)", (1.02, n - 0.4), xycoords=("axes fraction", "data"),
+    head = f"E-value  ({shared})" if shared else "E-value  (its row's CI)"
+    ax.annotate(head, (1.02, n - 0.4), xycoords=("axes fraction", "data"),
                 fontsize=8.5, fontweight="bold")  # fmt: skip
     ax.set_ylim(-0.7, n - 0.2)
     fig.suptitle("Each estimate on the risk-ratio scale, with its E-values")

@@ -275,7 +275,7 @@ def document(g: TippingGrid) -> Document:
             prose(
                 f"E-value (both risk ratios equal): {number(g.extra['evalue'])}"
                 + (
-                    f"; for the CI: {number(g.extra['evalue_ci'])}"
+                    f"; for the {g.level} CI: {number(g.extra['evalue_ci'])}"
                     if g.extra.get("evalue_ci") is not None
                     else ""
                 )
