@@ -423,3 +423,40 @@ def test_a_lambda_beyond_the_limit_is_refused():
     with pytest.raises(InputError) as err:
         _lambda_grid([1, 1e308])
     assert err.value.argument == "lambda"
+
+
+# ------------------------------------------------------- an output never replaces an input
+@pytest.mark.parametrize("spelt", ["-o", "--output"])
+def test_an_output_that_is_the_input_file_is_refused(spelt, tmp_path):
+    """A reviewer's find: `screen f.csv -o f.csv` replaced the input and exited 0."""
+    source = tmp_path / "in.csv"
+    source.write_bytes((ROOT / "demo/published_results.csv").read_bytes())
+    before = source.read_bytes()
+    link = tmp_path / "link.csv"
+    link.symlink_to(source)
+    for target in (source, tmp_path / "." / "in.csv", link):
+        res = _invoke(["screen", source, spelt, target])
+        assert res.exit_code == 2 and f"`{spelt}`" in res.stderr, res.stderr
+        assert res.stderr.count("\n") == 1 and "input file" in res.stderr
+    assert source.read_bytes() == before
+
+
+def test_matched_output_may_not_replace_the_pairs_file(tmp_path):
+    pairs = tmp_path / "pairs.csv"
+    pairs.write_bytes((ROOT / "demo/matched_pairs.csv").read_bytes())
+    before = pairs.read_bytes()
+    base = ["matched", "--data", pairs, "--treated", "night_shift_sbp", "--control",
+            "day_shift_sbp"]  # fmt: skip
+    for extra in (["--format", "csv", "-o", pairs], ["-o", pairs]):
+        res = _invoke(base + extra)
+        assert res.exit_code == 2 and "--data" in res.stderr, res.stderr
+    assert pairs.read_bytes() == before
+    assert _invoke(base + ["--format", "csv", "-o", tmp_path / "gamma.csv"]).exit_code == 0
+
+
+def test_an_output_inside_a_dataset_folder_it_reads_is_refused(tmp_path):
+    folder = tmp_path / "claims"
+    folder.mkdir()
+    res = _invoke(["partial-r2", "--data", folder, "--formula", "y ~ t + x", "--treatment", "t",
+                   "-o", folder / "out.json"])  # fmt: skip
+    assert res.exit_code == 2 and "inside the dataset folder" in res.stderr, res.stderr
