@@ -460,3 +460,15 @@ def test_an_output_inside_a_dataset_folder_it_reads_is_refused(tmp_path):
     res = _invoke(["partial-r2", "--data", folder, "--formula", "y ~ t + x", "--treatment", "t",
                    "-o", folder / "out.json"])  # fmt: skip
     assert res.exit_code == 2 and "inside the dataset folder" in res.stderr, res.stderr
+
+
+@pytest.mark.parametrize("spelling", [["--columns", "estimate=estimate,estimate=lower"],
+                                      ["--columns", "estimate=estimate", "--columns",
+                                       "estimate=lower"]])  # fmt: skip
+def test_a_column_mapped_twice_is_refused(spelling, tmp_path):
+    """A reviewer's find: the last mapping won silently, and every E-value came from the
+    lower limit."""
+    res = _invoke(["screen", ROOT / "demo/published_results.csv", *spelling,
+                   "-o", tmp_path / "out.csv"])  # fmt: skip
+    assert res.exit_code == 2 and "estimate is mapped twice (estimate, lower)" in res.stderr
+    assert not (tmp_path / "out.csv").exists()
