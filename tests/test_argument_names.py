@@ -16,6 +16,7 @@ import shlex
 from importlib import import_module
 
 import click
+import numpy as np
 import pytest
 from click.testing import CliRunner
 from conftest import ROOT
@@ -472,3 +473,17 @@ def test_a_column_mapped_twice_is_refused(spelling, tmp_path):
                    "-o", tmp_path / "out.csv"])  # fmt: skip
     assert res.exit_code == 2 and "estimate is mapped twice (estimate, lower)" in res.stderr
     assert not (tmp_path / "out.csv").exists()
+
+
+@pytest.mark.parametrize(
+    "alpha, dof, argument",
+    [(0.05, 0, "dof"), (0.05, -3, "dof"), (1.5, 10, "alpha"), (np.nan, 10, "alpha")],
+)
+def test_t_critical_refuses_what_has_no_critical_value(alpha, dof, argument):
+    """It returned NaN with no word; a NaN dof still marks a missing entry."""
+    with pytest.raises(InputError) as err:
+        s.t_critical(alpha, dof)
+    assert err.value.argument == argument
+    got = s.t_critical(0.05, [10, np.nan])
+    # scipy.stats.t.ppf(0.975, 10) = 2.228138851986274 (scipy's quantile as the reference)
+    assert got[0] == pytest.approx(2.228138851986274, rel=1e-12) and np.isnan(got[1])
