@@ -487,3 +487,19 @@ def test_t_critical_refuses_what_has_no_critical_value(alpha, dof, argument):
     got = s.t_critical(0.05, [10, np.nan])
     # scipy.stats.t.ppf(0.975, 10) = 2.228138851986274 (scipy's quantile as the reference)
     assert got[0] == pytest.approx(2.228138851986274, rel=1e-12) and np.isnan(got[1])
+
+
+def test_matched_and_report_read_files_as_the_screen_does(tmp_path):
+    """A reviewer's find: only the screen read a European (semicolon, decimal comma) file or
+    named a TSV saved as .csv; matched said "no column 't'" and report "no 'scale' column"."""
+    semi = tmp_path / "pairs.csv"
+    semi.write_text("pair;t;c\n1;116,5;106\n2;112;101\n3;120;104\n4;118;111\n")
+    comma = tmp_path / "pairs_plain.csv"
+    comma.write_text("pair,t,c\n1,116.5,106\n2,112,101\n3,120,104\n4,118,111\n")
+    runs = [_invoke(["matched", "--data", f, "--treated", "t", "--control", "c", "--format",
+                     "json"]) for f in (semi, comma)]  # fmt: skip
+    assert [r.exit_code for r in runs] == [0, 0] and runs[0].stdout == runs[1].stdout
+    tab = tmp_path / "estimates.csv"
+    tab.write_text("scale\testimate\tlower\tupper\nrr\t1.5\t1.1\t2.0\n")
+    res = _invoke(["report", "--estimates", tab, "--out", tmp_path / "r"])
+    assert res.exit_code == 2 and "`--estimates`" in res.stderr and "rename it .tsv" in res.stderr
