@@ -68,7 +68,7 @@ def test_a_level_that_is_not_a_whole_percent_is_printed_as_it_is():
     x = rng.normal(size=(200, 1))
     a = (rng.uniform(size=200) < 0.5).astype(float)
     y = x[:, 0] + 0.5 * a + rng.normal(size=200)
-    w = weighting_bounds(y, a, covariates=np.c_[np.ones(200), x], lam=[1, 1.5], resamples=50,
+    w = weighting_bounds(y, a, covariates=np.c_[np.ones(200), x], lam=[1, 1.5], resamples=80,
                          seed=1, alpha=0.025)  # fmt: skip
     text = " ".join(w.summary().split())
     assert "97.5%" in text and "98%" not in text
