@@ -12,6 +12,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from sensitivity.common.errors import InputError
 from sensitivity.output.atomic import replacing, write_text
 from sensitivity.output.streams import FORMULA_STARTS, TableWriter, safe_name
 
@@ -116,3 +117,19 @@ def test_a_formula_looking_column_name_is_defused_in_csv_tsv_and_excel(name, tmp
 
 def test_a_numeric_looking_header_is_left_alone():
     assert safe_name("-0.5") == "-0.5" and safe_name("=cmd") == "'=cmd"
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".tsv", ".json", ".parquet"])
+def test_a_nul_in_a_column_name_is_written_or_refused_never_a_panic(suffix, tmp_path):
+    """Found by the property above: a column name holding NUL made polars panic (a Rust
+    panic is no Python Exception) in the formula prefilter; Parquet cannot store such a name
+    and says so in one line."""
+    frame = pl.DataFrame({"=a\x00b": ["=1+1"], "b": ["x"]})
+    writer = TableWriter(tmp_path / f"t{suffix}")
+    if suffix == ".parquet":
+        with pytest.raises(InputError, match="NUL character"):
+            writer.write(frame)
+        return
+    writer.write(frame)
+    writer.close()
+    assert (tmp_path / f"t{suffix}").read_bytes().count(b"=1+1") == 1

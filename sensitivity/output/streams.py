@@ -112,7 +112,7 @@ def _may_start_a_formula(column: Any) -> bool:
 
     for chunk in column.get_chunks():
         try:
-            views = chunk.to_arrow(compat_level=pl.CompatLevel.newest())
+            views = chunk.rename("").to_arrow(compat_level=pl.CompatLevel.newest())
             buffer = views.buffers()[1] if str(views.type) == "string_view" else None
         except Exception:  # noqa: BLE001 - any other layout: the exact check decides
             buffer = None
@@ -133,7 +133,7 @@ def _joined(rows: Any, skip: int = 0) -> Any:
     import polars as pl
     import pyarrow as pa
 
-    text = rows.to_arrow(compat_level=pl.CompatLevel.oldest())  # offsets, then the bytes
+    text = rows.rename("").to_arrow(compat_level=pl.CompatLevel.oldest())  # offsets, bytes
     buffers = text.buffers()
     wide = pa.types.is_large_string(text.type)
     if not (wide or pa.types.is_string(text.type)):
@@ -193,6 +193,14 @@ class TableWriter:
 
         frame: Any = table if isinstance(table, pl.DataFrame) else pl.from_arrow(table)
         first = self._rows == 0
+        if first and self.kind == "parquet":
+            nul = [name for name in frame.columns if "\x00" in name]
+            if nul:
+                raise InputError(
+                    f"`{self._argument}`: column {nul[0]!r} has a NUL character in its name, "
+                    f"which a {self.kind.upper()} file cannot hold; rename it, or write .csv",
+                    self._argument,
+                )
         if first and self.kind in ("csv", "tsv", "json"):
             raw = [name for name, dtype in frame.schema.items() if dtype == pl.Binary]
             if raw:
