@@ -1,0 +1,71 @@
+"""Issue 19: bad input names what the user typed (the option, the text or the column), exit 2.
+
+Each case is one line on the command line; the rule it names is ours (no outside source)."""
+
+from __future__ import annotations
+
+import pytest
+from click.testing import CliRunner
+from conftest import ROOT
+
+from cli import cli
+from sensitivity.screen.text import parse
+
+
+def _run(*args):
+    return CliRunner().invoke(cli, [str(a) for a in args], catch_exceptions=False)
+
+
+def _error(*args) -> str:
+    result = _run(*args)
+    assert result.exit_code == 2, result.output
+    lines = [ln for ln in result.output.splitlines() if ln.strip()]
+    assert len(lines) == 1 or "Usage" in result.output, result.output
+    return result.output
+
+
+def test_tipping_bounding_names_no_prevalence_option():
+    out = _error("tipping", "--kind", "bounding", "--scale", "hr", "--estimate", "1.38",
+                 "--ci", "1.12", "1.70")  # fmt: skip
+    assert "--outcome-frequency" in out and "prevalence" not in out
+
+
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("HR 0.72 (95% CI 0.80-0.86)", "the estimate 0.72 must lie within its interval"),
+        ("RR 1e400 (1 to 2)", "the number 1e400 is beyond double precision"),
+        ("RR 1.5 (1 to 2e999)", "the number 2e999"),
+        ("RR 1.5 (2 to 1)", "lower limit 2 exceeds its upper limit 1"),
+        ("HR 0.72 (95 % CI 0,60-0,86)", "decimal commas"),
+        ("HR 0.72 (95% CI 0,60-0,86)", "decimal commas"),
+        ("HR 0.72 (150% CI 0.6-0.86)", "level 150% must lie strictly between 0 and 100%"),
+        ("HR 0.72 (0% CI 0.7-0.74)", "level 0% must lie strictly between 0 and 100%"),
+        ("HR 0.72 (100% CI 0.6-0.86)", "level 100% must lie"),
+    ],
+)
+def test_published_text_errors_name_the_text(text, expected):
+    out = _error("evalue", text, "--outcome-frequency", "rare")
+    assert expected in out and "--estimate" not in out and "--ci" not in out
+    assert "two results" not in out
+
+
+def test_a_one_digit_level_is_read():
+    assert parse("HR 0.72 (5% CI 0.7-0.74)")["level"] == pytest.approx(0.05)
+    assert parse("HR 0.72 (95 % CI 0.60-0.86)")["level"] == pytest.approx(0.95)
+    assert parse("HR 1.2 (1.1,1.3)")["error"] == ""
+
+
+def test_contrast_beyond_range_names_contrast():
+    out = _error("evalue", "--data", ROOT / "demo" / "harbourside_bp.csv", "--formula",
+                 "sbp ~ commute_min + age", "--treatment", "commute_min", "--model", "ols",
+                 "--contrast", "1e300")  # fmt: skip
+    assert "--contrast" in out
+
+
+@pytest.mark.parametrize("model", ["logit", "poisson"])
+def test_contrast_beyond_range_names_contrast_on_log_models(model):
+    out = _error("evalue", "--data", ROOT / "demo" / "harbourside_cohort.csv", "--formula",
+                 "diabetes ~ bmi + age", "--treatment", "bmi", "--model", model,
+                 "--contrast", "-1e300")  # fmt: skip
+    assert "--contrast" in out and "--estimate" not in out
