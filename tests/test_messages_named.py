@@ -69,3 +69,29 @@ def test_contrast_beyond_range_names_contrast_on_log_models(model):
                  "diabetes ~ bmi + age", "--treatment", "bmi", "--model", model,
                  "--contrast", "-1e300")  # fmt: skip
     assert "--contrast" in out and "--estimate" not in out
+
+
+SIMULATE = ("simulate", "--scale", "rr", "--estimate", "0.81", "--prevalence-treated",
+            "uniform:0.2:0.4", "--prevalence-control", "uniform:0.3:0.5", "--outcome-effect",
+            "lognormal:0.5:0.2", "--seed", "7")  # fmt: skip
+
+
+def test_simulate_names_a_tiny_level_as_the_cause():
+    out = _error(*SIMULATE, "--ci", "0.69", "0.95", "--ci-level", "1e-15")
+    assert "at `--ci-level` 1e-15" in out and "outcome-effect" not in out
+
+
+def test_simulate_names_an_interval_too_wide_at_its_level():
+    out = _error(*SIMULATE, "--ci", "1e-300", "1e300")
+    assert "`--ci` at level 0.95" in out and "--ci-level" not in out
+
+
+def test_simulate_level_error_carries_the_argument_from_python():
+    from sensitivity.common.errors import InputError
+    from sensitivity.simulate.core import simulate
+
+    with pytest.raises(InputError) as caught:
+        simulate("rr", 0.81, (0.69, 0.95), prevalence_treated="uniform:0.2:0.4",
+                 prevalence_control="uniform:0.3:0.5", outcome_effect="lognormal:0.5:0.2",
+                 seed=7, ci_level=1e-15)  # fmt: skip
+    assert caught.value.arguments == ("ci_level", "ci")
