@@ -95,3 +95,41 @@ def test_simulate_level_error_carries_the_argument_from_python():
                  prevalence_control="uniform:0.3:0.5", outcome_effect="lognormal:0.5:0.2",
                  seed=7, ci_level=1e-15)  # fmt: skip
     assert caught.value.arguments == ("ci_level", "ci")
+
+
+def test_matched_same_column_twice_is_named():
+    out = _error("matched", "--data", ROOT / "demo" / "matched_pairs.csv", "--treated",
+                 "night_shift_sbp", "--control", "night_shift_sbp")  # fmt: skip
+    assert "`--treated` and `--control` name the same column" in out
+    assert "--differences" not in out
+
+
+@pytest.mark.parametrize(
+    "row, options, expected",
+    [
+        ("3,inf,100", ("--differences", "night_shift_sbp"),
+         "column 'night_shift_sbp' holds inf on file line 4"),
+        ("3,100,-inf", ("--treated", "night_shift_sbp", "--control", "day_shift_sbp"),
+         "column 'day_shift_sbp' holds -inf on file line 4"),
+        ("3,1e308,-1e308", ("--treated", "night_shift_sbp", "--control", "day_shift_sbp"),
+         "'night_shift_sbp' minus 'day_shift_sbp' on file line 4 is beyond double precision"),
+    ],
+)  # fmt: skip
+def test_matched_infinite_cell_names_column_and_file_line(tmp_path, row, options, expected):
+    lines = (ROOT / "demo" / "matched_pairs.csv").read_text().splitlines()
+    lines[3] = row
+    path = tmp_path / "pairs.csv"
+    path.write_text("\n".join(lines) + "\n")
+    out = _error("matched", "--data", path, *options)
+    assert expected in out and "--differences`" not in out
+
+
+def test_matched_from_a_frame_names_the_row():
+    import pandas as pd
+
+    from sensitivity.adapters.matched import matched_differences
+    from sensitivity.common.errors import InputError
+
+    frame = pd.DataFrame({"a": [1.0, float("inf")], "b": [0.0, 1.0]})
+    with pytest.raises(InputError, match="column 'a' holds inf on row 1"):
+        matched_differences(frame, treated="a", control="b")
