@@ -133,3 +133,26 @@ def test_matched_from_a_frame_names_the_row():
     frame = pd.DataFrame({"a": [1.0, float("inf")], "b": [0.0, 1.0]})
     with pytest.raises(InputError, match="column 'a' holds inf on row 1"):
         matched_differences(frame, treated="a", control="b")
+
+
+@pytest.mark.parametrize(
+    "table, options, expected",
+    [
+        ("label,scale,HR,LCL,UCL,outcome\na,hr,1.38,1.70,1.12,rare\n",
+         ("--columns", "estimate=HR,lower=LCL,upper=UCL"),
+         "`LCL` must not exceed `UCL`; got 1.7 > 1.12"),
+        ("label,scale,HR,LCL,UCL\nc,rr,0.5,0.6,0.9\n",
+         ("--columns", "estimate=HR,lower=LCL,upper=UCL"),
+         "`HR` must lie within `LCL` to `UCL`; got 0.5 outside [0.6, 0.9]"),
+        ("label,scale,estimate,lower,upper\na,rr,1.38,1.70,1.12\n", (),
+         "`lower` must not exceed `upper`"),
+        ('label,result\na,"RR 0.5 (0.6-0.9)"\n', ("--from-text", "result"),
+         "the estimate in `result` must lie within the interval in `result`"),
+    ],
+)  # fmt: skip
+def test_screen_row_errors_name_the_files_columns(tmp_path, table, options, expected):
+    path = tmp_path / "rows.csv"
+    path.write_text(table)
+    result = _run("screen", path, "--format", "csv", *options)
+    assert result.exit_code == 0, result.output
+    assert expected in result.output and "`ci`" not in result.output
