@@ -156,3 +156,10 @@ def test_screen_row_errors_name_the_files_columns(tmp_path, table, options, expe
     result = _run("screen", path, "--format", "csv", *options)
     assert result.exit_code == 0, result.output
     assert expected in result.output and "`ci`" not in result.output
+
+
+def test_evalue_offers_no_plot_mark():
+    assert "--plot-mark" not in _run("evalue", "--help").output
+    result = _run("evalue", "--scale", "rr", "--estimate", "2", "--plot-mark", "1", "2")
+    assert result.exit_code == 2 and "No such option '--plot-mark'" in result.output
+    assert "--plot-mark" in _run("tipping", "--help").output  # figures that mark keep it
