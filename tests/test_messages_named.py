@@ -163,3 +163,39 @@ def test_evalue_offers_no_plot_mark():
     result = _run("evalue", "--scale", "rr", "--estimate", "2", "--plot-mark", "1", "2")
     assert result.exit_code == 2 and "No such option '--plot-mark'" in result.output
     assert "--plot-mark" in _run("tipping", "--help").output  # figures that mark keep it
+
+
+PR2 = ("--estimate", "0.114", "--se", "0.027", "--dof", "1192")
+
+
+@pytest.mark.parametrize(
+    "args, expected",
+    [
+        (("evalue", "--scale", "rr", "--estimate", "2", "--plot-limits", "0", "5"),
+         "`--plot-limits` are risk-ratio axes starting at 1"),
+        (("evalue", "--scale", "rr", "--estimate", "2", "--plot-limits", "-1", "5"),
+         "got -1"),
+        (("tipping", "--kind", "partial-r2", *PR2, "--plot-limits", "0", "0"),
+         "`--plot-limits` are partial R² axes"),
+        (("tipping", "--kind", "partial-r2", *PR2, "--plot-mark", "2", "2"),
+         "each value of `--plot-mark` is a partial R²"),
+        (("partial-r2", *PR2, "--plot-mark", "2", "2"),
+         "each value of `--plot-mark` is a partial R²"),
+        (("tipping", "--kind", "bounding", "--scale", "rr", "--estimate", "1.38", "--ci", "1.12",
+          "1.70", "--plot-limits", "0.5", "3"), "got 0.5"),
+        (("tipping", "--scale", "md", "--estimate", "2.4", "--ci", "0.8", "4.0",
+          "--prevalence-treated", "0.5", "--prevalence-control", "0:0.5:0.05",
+          "--outcome-effect", "0:10:0.5", "--plot", "PLOT", "--plot-limits", "0", "5"),
+         "axis starts at 0, so its upper limit must exceed that; got 0"),
+    ],
+)  # fmt: skip
+def test_plot_options_are_checked_before_any_work(tmp_path, args, expected):
+    plot = tmp_path / "f.png"
+    args = tuple(str(plot) if a == "PLOT" else a for a in args)
+    if "--plot" not in args:
+        args = (*args, "--plot", str(plot))
+    result = _run(*args)
+    assert result.exit_code == 2, result.output
+    assert expected in result.output
+    assert not result.output.startswith(("E-values", "Tipping", "Partial")), result.output
+    assert not plot.exists()

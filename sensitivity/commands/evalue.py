@@ -148,6 +148,10 @@ def evalue_cmd(
     from sensitivity.evalues.core import evalue
 
     route, published = summary_route("evalue", text, scale, estimate, ci)
+    if plot_limits is not None:  # refused before any work, with or without --plot
+        from sensitivity.evalues.figures import check_limits
+
+        check_limits(plot_limits)
     exclusive(("--outcome-frequency", outcome), ("--prevalence", prevalence))
     exclusive(("--se", se), ("--ci", ci or None))
     inputs = (("--data", data), ("--formula", formula), ("--treatment", treatment))
