@@ -16,6 +16,7 @@ import shlex
 from importlib import import_module
 
 import click
+import numpy as np
 import pytest
 from click.testing import CliRunner
 from conftest import ROOT
@@ -423,3 +424,82 @@ def test_a_lambda_beyond_the_limit_is_refused():
     with pytest.raises(InputError) as err:
         _lambda_grid([1, 1e308])
     assert err.value.argument == "lambda"
+
+
+# ------------------------------------------------------- an output never replaces an input
+@pytest.mark.parametrize("spelt", ["-o", "--output"])
+def test_an_output_that_is_the_input_file_is_refused(spelt, tmp_path):
+    """A reviewer's find: `screen f.csv -o f.csv` replaced the input and exited 0."""
+    source = tmp_path / "in.csv"
+    source.write_bytes((ROOT / "demo/published_results.csv").read_bytes())
+    before = source.read_bytes()
+    link = tmp_path / "link.csv"
+    link.symlink_to(source)
+    for target in (source, tmp_path / "." / "in.csv", link):
+        res = _invoke(["screen", source, spelt, target])
+        assert res.exit_code == 2 and f"`{spelt}`" in res.stderr, res.stderr
+        assert res.stderr.count("\n") == 1 and "input file" in res.stderr
+    assert source.read_bytes() == before
+
+
+def test_matched_output_may_not_replace_the_pairs_file(tmp_path):
+    pairs = tmp_path / "pairs.csv"
+    pairs.write_bytes((ROOT / "demo/matched_pairs.csv").read_bytes())
+    before = pairs.read_bytes()
+    base = ["matched", "--data", pairs, "--treated", "night_shift_sbp", "--control",
+            "day_shift_sbp"]  # fmt: skip
+    for extra in (["--format", "csv", "-o", pairs], ["-o", pairs]):
+        res = _invoke(base + extra)
+        assert res.exit_code == 2 and "--data" in res.stderr, res.stderr
+    assert pairs.read_bytes() == before
+    assert _invoke(base + ["--format", "csv", "-o", tmp_path / "gamma.csv"]).exit_code == 0
+
+
+def test_an_output_inside_a_dataset_folder_it_reads_is_refused(tmp_path):
+    folder = tmp_path / "claims"
+    folder.mkdir()
+    res = _invoke(["partial-r2", "--data", folder, "--formula", "y ~ t + x", "--treatment", "t",
+                   "-o", folder / "out.json"])  # fmt: skip
+    assert res.exit_code == 2 and "inside the dataset folder" in res.stderr, res.stderr
+
+
+@pytest.mark.parametrize("spelling", [["--columns", "estimate=estimate,estimate=lower"],
+                                      ["--columns", "estimate=estimate", "--columns",
+                                       "estimate=lower"]])  # fmt: skip
+def test_a_column_mapped_twice_is_refused(spelling, tmp_path):
+    """A reviewer's find: the last mapping won silently, and every E-value came from the
+    lower limit."""
+    res = _invoke(["screen", ROOT / "demo/published_results.csv", *spelling,
+                   "-o", tmp_path / "out.csv"])  # fmt: skip
+    assert res.exit_code == 2 and "estimate is mapped twice (estimate, lower)" in res.stderr
+    assert not (tmp_path / "out.csv").exists()
+
+
+@pytest.mark.parametrize(
+    "alpha, dof, argument",
+    [(0.05, 0, "dof"), (0.05, -3, "dof"), (1.5, 10, "alpha"), (np.nan, 10, "alpha")],
+)
+def test_t_critical_refuses_what_has_no_critical_value(alpha, dof, argument):
+    """It returned NaN with no word; a NaN dof still marks a missing entry."""
+    with pytest.raises(InputError) as err:
+        s.t_critical(alpha, dof)
+    assert err.value.argument == argument
+    got = s.t_critical(0.05, [10, np.nan])
+    # scipy.stats.t.ppf(0.975, 10) = 2.228138851986274 (scipy's quantile as the reference)
+    assert got[0] == pytest.approx(2.228138851986274, rel=1e-12) and np.isnan(got[1])
+
+
+def test_matched_and_report_read_files_as_the_screen_does(tmp_path):
+    """A reviewer's find: only the screen read a European (semicolon, decimal comma) file or
+    named a TSV saved as .csv; matched said "no column 't'" and report "no 'scale' column"."""
+    semi = tmp_path / "pairs.csv"
+    semi.write_text("pair;t;c\n1;116,5;106\n2;112;101\n3;120;104\n4;118;111\n")
+    comma = tmp_path / "pairs_plain.csv"
+    comma.write_text("pair,t,c\n1,116.5,106\n2,112,101\n3,120,104\n4,118,111\n")
+    runs = [_invoke(["matched", "--data", f, "--treated", "t", "--control", "c", "--format",
+                     "json"]) for f in (semi, comma)]  # fmt: skip
+    assert [r.exit_code for r in runs] == [0, 0] and runs[0].stdout == runs[1].stdout
+    tab = tmp_path / "estimates.csv"
+    tab.write_text("scale\testimate\tlower\tupper\nrr\t1.5\t1.1\t2.0\n")
+    res = _invoke(["report", "--estimates", tab, "--out", tmp_path / "r"])
+    assert res.exit_code == 2 and "`--estimates`" in res.stderr and "rename it .tsv" in res.stderr

@@ -59,7 +59,7 @@ def test_text(run, data_csv):
     assert res.exit_code == 0, res.stderr
     for text in ("robustness value", "Cautions:", "Assumptions:", "x1 ×1", "chosen 5.00% / 5.00%"):
         assert text in res.stdout
-    assert "cross-fitted the linear learners on 300 rows" in res.stderr
+    assert "fitted the linear learners on 300 rows cross-fitted in 2 folds" in res.stderr
     assert "fitting learners: 1 of 8 fits" in res.stderr  # progress while the learners fit
 
 
@@ -160,3 +160,11 @@ def test_without_scikit_learn_one_line_says_what_to_install(run, data_csv, monke
 
 
 # The help examples run as printed in tests/test_help_examples.py, with every command's.
+
+
+def test_one_fold_says_no_cross_fitting_once(run, data_csv):
+    """A reviewer's find: --folds 1 said both "cross-fitted ... in 1 fold(s)" and "no
+    cross-fitting"."""
+    res = run(*args(data_csv, "--folds", "1", "--strength", "0.05", "0.05"))
+    assert res.exit_code == 0, res.stderr
+    assert "without cross-fitting" in res.stderr and "cross-fitted" not in res.stderr

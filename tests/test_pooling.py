@@ -329,7 +329,7 @@ def test_a_table_in_the_screens_columns():
 @pytest.mark.parametrize(
     "kwargs, message",
     [
-        ({"log_estimates": [0.2], "se": [0.1]}, "at least 2 studies; got 1"),
+        ({"log_estimates": [0.2], "se": [0.1]}, "at least 2 studies to pool; got 1"),
         ({"se": [0.1, 0.0, 0.2]}, r"`se` must be positive; got 0"),
         ({"se": [0.1, -0.2, 0.2]}, r"`se` must be positive; got -0.2"),
         ({"se": [0.1, 0.2]}, "`se` must have one value per study; got 2 for 3"),

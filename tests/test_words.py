@@ -61,7 +61,7 @@ def test_the_binary_tipping_sentence_names_the_interval_and_the_range():
     text = _flat(g.sentence())
     assert "Over the grid searched (prevalence of U among the treated 0.3 to 0.9" in text
     assert "effect of U on the outcome 1 to 6" in text
-    assert "The 95% CI includes the null in 3 of 3 settings" in text
+    assert "The 95% CI includes the null in 3 of 3 settings of the other parameters" in text
     one = binary_confounder_grid(
         "rr", 1.8, (1.2, 2.7), prevalence_treated=0.5, prevalence_control=0.2, outcome_effect=2
     )

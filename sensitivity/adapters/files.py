@@ -25,7 +25,9 @@ def read_table(path: str | Path, argument: str = "data") -> Any:
 
     p, kind = checked_file(path, argument)
     try:
-        if kind == "csv":
+        if kind == "csv" and sniff_delimiter(p) == ";":  # a European file: decimal commas
+            frame = pd.read_csv(p, sep=";", decimal=",")
+        elif kind == "csv":
             frame = pd.read_csv(p)
         elif kind == "tsv":
             frame = pd.read_csv(p, sep="\t")
@@ -44,7 +46,31 @@ def read_table(path: str | Path, argument: str = "data") -> Any:
         ) from None
     if frame.shape[0] == 0 or frame.shape[1] == 0:
         raise InputError(f"`{argument}`: {path} has no data rows", argument)
+    one_column_of_many([str(c) for c in frame.columns], argument)
     return frame
+
+
+def one_column_of_many(header: list[str], argument: str | None = None) -> None:
+    """A table read as one column whose name holds tabs, semicolons or commas: the file's
+    delimiter is not the one its extension promises (a TSV named .csv)."""
+    if len(header) != 1:
+        return
+    name = header[0]
+    for mark, shown in (("\t", "tabs"), (";", "semicolons"), (",", "commas"), ("|", "bars")):
+        if name.count(mark) >= 1:
+            parts = [p.strip() for p in name.split(mark)]
+            raise InputError(
+                (f"`{argument}`: " if argument else "")
+                + f"the table was read as one column, whose name holds {shown}: "
+                f"{' | '.join(repr(p) for p in parts[:8])}; the file's cells are separated by "
+                f"{shown}, not what its extension says"
+                + (
+                    " (a TSV named .csv?): rename it .tsv"
+                    if mark == "\t"
+                    else ": save it with commas as .csv, or with tabs as .tsv"
+                ),
+                argument,
+            )
 
 
 # --------------------------------------------------------------------------- batches

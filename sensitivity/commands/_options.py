@@ -11,7 +11,14 @@ import click
 
 from sensitivity.common.errors import SensitivityWarning, one_line
 
-from ._typed import Named, _refuse_non_finite, _refuse_repeats, _typed, namer
+from ._typed import (
+    Named,
+    _refuse_non_finite,
+    _refuse_overwriting_inputs,
+    _refuse_repeats,
+    _typed,
+    namer,
+)
 
 FORMATS = ("text", "json", "csv", "markdown", "latex")
 #: The arguments of the running command line (set by cli.py), for a report to quote.
@@ -91,6 +98,7 @@ class Command(click.Command):
                 ) from None
             raise
         _refuse_non_finite(self, ctx)
+        _refuse_overwriting_inputs(self, ctx)
         return rest
 
     def invoke(self, ctx: click.Context) -> Any:

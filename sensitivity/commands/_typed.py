@@ -139,3 +139,37 @@ def _refuse_non_finite(command: click.Command, ctx: click.Context) -> None:
                         param,
                         param_hint=repr(typed.get(param.name, _option_name(param))),
                     )
+
+
+#: Parameters that name files the command reads, and those it writes.
+INPUT_PATHS = ("file", "data", "estimates")
+OUTPUT_PATHS = ("outputs", "output", "flagged", "plots")
+
+
+def _refuse_overwriting_inputs(command: click.Command, ctx: click.Context) -> None:
+    """No output may replace a file the command reads (or land inside a dataset folder it
+    reads): `screen results.csv -o results.csv` would lose the input and still succeed."""
+    from pathlib import Path
+
+    def paths(names: tuple[str, ...]) -> list[tuple[str, Path]]:
+        found = []
+        for param in command.params:
+            value = ctx.params.get(param.name) if param.name in names else None
+            for item in value if isinstance(value, (tuple, list)) else (value,):
+                if item not in (None, "", "-"):
+                    found.append((param.name, Path(str(item))))
+        return found
+
+    typed = ctx.meta.get("typed") or {}
+    for out_name, out in paths(OUTPUT_PATHS):
+        for in_name, source in paths(INPUT_PATHS):
+            same = out.exists() and source.exists() and out.samefile(source)
+            inside = source.is_dir() and out.resolve().is_relative_to(source.resolve())
+            if same or inside or out.resolve() == source.resolve():
+                option = next(p for p in command.params if p.name == out_name)
+                spelt = typed.get(out_name) or _option_name(option)
+                where = "inside the dataset folder" if inside and not same else "the input file"
+                shown = "FILE" if in_name == "file" else f"--{in_name}"
+                raise click.UsageError(
+                    f"`{spelt}` {str(out)!r} is {where} given as {shown}; write to another file"
+                )

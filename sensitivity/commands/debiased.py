@@ -207,10 +207,11 @@ def debiased_cmd(
     if in_place:
         click.echo("", err=True)
     took = time.perf_counter() - start
+    how = "without cross-fitting" if folds == 1 else f"cross-fitted in {folds} folds"
+    refits = f"{len(benchmarks)} benchmark {'refit' if len(benchmarks) == 1 else 'refits'}"
     click.echo(
-        f"Read the data and cross-fitted the {learner} learners on {fit.moments.n:,} rows in "
-        f"{folds} fold(s)"
-        f"{f' and {len(benchmarks)} benchmark refit(s)' if benchmarks else ''} in {took:.1f} s.",
+        f"Read the data and fitted the {learner} learners on {fit.moments.n:,} rows {how}"
+        f"{f', with {refits},' if benchmarks else ''} in {took:.1f} s.",
         err=True,
     )
     result = fit.bounds(

@@ -70,8 +70,11 @@ def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discord
         )
         if len(left_out):
             rows = ", ".join(str(i + 2) for i in left_out[:20])
-            click.echo(f"Note: {len(left_out)} pairs with a missing or non-numeric value left "
-                       f"out (file lines {rows})", err=True)  # fmt: skip
+            more = f" and {len(left_out) - 20:,} more" if len(left_out) > 20 else ""
+            one = len(left_out) == 1
+            click.echo(f"Note: {len(left_out):,} {'pair' if one else 'pairs'} with a missing or "
+                       f"non-numeric value left out (file {'line' if one else 'lines'} "
+                       f"{rows}{more})", err=True)  # fmt: skip
         result = rosenbaum_bounds(differences=d, gamma=grid, alpha=alpha, method=method,
                                   zeros=zeros, missing=len(left_out),
                                   alternative=alternative)  # fmt: skip

@@ -26,6 +26,11 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
                     f"{item!r} must be NAME=COLUMN (e.g. estimate=HR)", param_hint="--columns"
                 )
             name, column = (part.strip() for part in item.split("=", 1))
+            if mapping.get(name, column) != column:  # the last would win, silently
+                raise click.BadParameter(
+                    f"{name} is mapped twice ({mapping[name]}, {column}); give it once",
+                    param_hint="--columns",
+                )
             mapping[name] = column
     return mapping
 

@@ -109,7 +109,7 @@ def tipping_cmd(
           --outcome-frequency rare --plot b.png
       sensitivity tipping --kind partial-r2 --estimate 0.114 --se 0.027 --dof 1192
       sensitivity tipping --kind continuous --scale rr --estimate 0.81 --ci 0.69 0.95 \\
-          --difference 0:1.5:0.1 --outcome-effect 1.5
+          --difference 0:1.5:0.1 --outcome-effect 0.67
     """
     from sensitivity.tipping import core as tp
 

@@ -150,7 +150,8 @@ def bounding_factor(rr_treatment: object, rr_outcome: object) -> np.ndarray:
         if np.any(bad):
             raise InputError(
                 f"`{name}` must be at least 1 (the larger of a risk ratio and its inverse); "
-                f"got {show(values[bad].flat[0])}"
+                f"got {show(values[bad].flat[0])}",
+                name,
             )
     if np.isinf(a).any():  # the limit as rr_treatment grows: B -> rr_outcome (no inf/inf)
         with np.errstate(invalid="ignore"):

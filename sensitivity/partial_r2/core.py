@@ -39,9 +39,15 @@ from .strengths import _k_max, benchmark_strengths
 def t_critical(alpha: float, dof: ArrayLike) -> np.ndarray:
     """Two-sided Student-t critical value at level `alpha` on `dof` degrees of freedom.
 
-    From the lower tail (finite for alpha down to 1e-300; see `common.levels`).
+    From the lower tail (finite for alpha down to 1e-300; see `common.levels`). A NaN
+    `dof` marks a missing entry and gives NaN; `alpha` outside (0, 1) or `dof` not positive
+    is an InputError.
     """
-    return levels.t_critical(alpha, dof)
+    alpha = levels.check_alpha(alpha)
+    d = require_numbers(dof, "dof")
+    if np.any(d <= 0):
+        raise InputError(f"`dof` must be positive; got {show(d[d <= 0].flat[0])}", "dof")
+    return levels.t_critical(alpha, d)
 
 
 # --------------------------------------------------------------------------- formulas

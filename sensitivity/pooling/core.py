@@ -250,7 +250,9 @@ def check_studies(log_estimates: object, se: object) -> tuple[np.ndarray, np.nda
             f"`se` must have one value per study; got {s.size} for {y.size} log estimates", "se"
         )
     if y.size < 2:
-        raise InputError(f"pooling needs at least 2 studies; got {y.size}")
+        raise InputError(
+            f"`log_estimates` must hold at least 2 studies to pool; got {y.size}", "log_estimates"
+        )
     return y, s
 
 

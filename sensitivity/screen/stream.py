@@ -15,6 +15,7 @@ from typing import Any
 
 import numpy as np
 
+from ..adapters.files import one_column_of_many
 from ..common.errors import InputError
 from ..common.levels import check_alpha
 from ..common.overlap import read_ahead
@@ -111,7 +112,7 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
     if from_text is None:
         for need in ("estimate", "scale"):
             if need not in mapping:
-                _one_column_of_many(list(header))
+                one_column_of_many(list(header))
                 raise InputError(
                     f"the table has no {need!r} column: map one with `columns` "
                     f"({need}=YOUR_COLUMN) or read results from text with `from_text`; "
@@ -119,27 +120,6 @@ def _mapping(columns: Mapping[str, str] | None, header: Sequence[str], from_text
                     ("columns", "from_text"),
                 )
     return mapping
-
-
-def _one_column_of_many(header: list[str]) -> None:
-    """A table read as one column whose name holds tabs, semicolons or commas: the file's
-    delimiter is not the one its extension promises (a TSV named .csv)."""
-    if len(header) != 1:
-        return
-    name = header[0]
-    for mark, shown in (("\t", "tabs"), (";", "semicolons"), (",", "commas"), ("|", "bars")):
-        if name.count(mark) >= 1:
-            parts = [p.strip() for p in name.split(mark)]
-            raise InputError(
-                f"the table was read as one column, whose name holds {shown}: "
-                f"{' | '.join(repr(p) for p in parts[:8])}; the file's cells are separated by "
-                f"{shown}, not what its extension says"
-                + (
-                    " (a TSV named .csv?): rename it .tsv"
-                    if mark == "\t"
-                    else ": save it with commas as .csv, or with tabs as .tsv"
-                )
-            )
 
 
 def screen_frames(

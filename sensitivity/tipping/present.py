@@ -199,12 +199,14 @@ def tables(g: TippingGrid) -> list[Table]:
 
 
 def _settings(k: int, n: int) -> str:
-    """'in 4 of 7 settings', 'in the one setting', 'in none of the 3 settings'."""
+    """Where a grid tips, counted over the settings of the parameters not solved for: 'in 4
+    of 7 settings of the other parameters', 'within the grid' (one setting), 'in none of
+    the 3 settings of the other parameters'."""
     if n == 1:
-        return "in the one setting" if k else "in no setting"
+        return "within the grid" if k else "nowhere in the grid"
     if k == 0:
-        return f"in none of the {n} settings"
-    return f"in {k} of {n} settings"
+        return f"in none of the {n} settings of the other parameters"
+    return f"in {k} of {n} settings of the other parameters"
 
 
 def searched(g: TippingGrid) -> str:
