@@ -1,11 +1,11 @@
 """What every modelling library's adapter shares, with no library imported.
 
 The formula's columns and the name checks made before any fit, the treatment found among a
-design's columns, a group of columns' partial R² from its Wald F, and the partial-R² result
+design's columns, a group of columns' partial R² from its Wald F, the partial-R² result
 assembled from a fit's parts (its treatment coefficient, standard error, residual degrees of
-freedom and covariate strengths). The statsmodels, linearmodels and pyfixest adapters and the
-one-pass data route (`onepass.py`) all call these, so none of them imports another library's
-adapter for them.
+freedom and covariate strengths), and the E-value of a coefficient times a contrast. The
+statsmodels, linearmodels and pyfixest adapters and the one-pass data route (`onepass.py`)
+all call these, so none of them imports another library's adapter for them.
 """
 
 from __future__ import annotations
@@ -220,3 +220,28 @@ def partial_r2_from_parts(
         scenarios=scenarios, treatment=treatment, outcome=outcome, n=n,
         covariates=covariates, notes=tuple(notes),
     )  # fmt: skip
+
+
+def evalue_of_coefficient(b: float, times: float, scale: str, *args: Any, **kwargs: Any) -> Any:
+    """`evalue(scale, *args, **kwargs)` of a fitted coefficient `b` times `times` (the
+    `contrast`): an effect beyond double precision names `contrast` (or the coefficient when
+    the contrast is 1), which the user gave, not the estimate or interval made of it."""
+    from ..evalues.core import evalue
+
+    try:
+        return evalue(scale, *args, **kwargs)
+    except InputError as err:
+        if not set(err.arguments) & {"estimate", "ci", "se"}:  # (`sd` alone: the data's SD)
+            raise
+        effect = f"the treatment's coefficient {b:.4g}"
+        if times == 1:
+            raise InputError(
+                f"{effect} gives an effect beyond double precision on the risk-ratio scale, "
+                "so its E-value cannot be computed; rescale the treatment"
+            ) from None
+        raise InputError(
+            f"`contrast` {times:g} times {effect} gives an effect beyond double precision "
+            "on the risk-ratio scale, so its E-value cannot be computed; give a `contrast` "
+            "nearer 0",
+            "contrast",
+        ) from None

@@ -23,7 +23,8 @@ def matched_differences(
     missing or not a number."""
     from ..common.errors import InputError
 
-    if hasattr(data, "columns"):
+    from_file = not hasattr(data, "columns")
+    if not from_file:
         frame = data
     else:
         from .files import read_table
@@ -40,6 +41,12 @@ def matched_differences(
             "`data` needs `treated` and `control`, or `differences`",
             ("data", "treated", "control", "differences"),
         )
+    if not differences and treated == control:
+        raise InputError(
+            f"`treated` and `control` name the same column ({treated!r}): every difference "
+            "would be zero; name the treated and the control unit's columns",
+            ("treated", "control"),
+        )
     named = ("differences",) if differences else ("treated", "control")
     for col, argument in zip(cols, named, strict=True):
         if col not in frame.columns:
@@ -51,8 +58,27 @@ def matched_differences(
 
     values = frame[cols].apply(lambda c: pd.to_numeric(c, errors="coerce"))
     bad = values.isna().any(axis=1).to_numpy()
-    v = values.to_numpy(float)[~bad]
-    d = v[:, 0] if differences else v[:, 0] - v[:, 1]
+    every = values.to_numpy(float)
+
+    def where(i: int) -> str:  # a file's line (the header is line 1), else the table's row
+        return f"file line {i + 2}" if from_file else f"row {i}"
+
+    infinite = np.isinf(every) & ~bad[:, None]
+    if infinite.any():
+        i, j = (int(k[0]) for k in np.nonzero(infinite))
+        raise InputError(
+            f"column {cols[j]!r} holds {every[i, j]:g} on {where(i)}: each value must be a "
+            "finite number"
+        )
+    v = every[~bad]
+    with np.errstate(over="ignore", invalid="ignore"):
+        d = v[:, 0] if differences else v[:, 0] - v[:, 1]
+    if not np.isfinite(d).all():
+        i = int(np.flatnonzero(~bad)[np.flatnonzero(~np.isfinite(d))[0]])
+        raise InputError(
+            f"the difference {treated!r} minus {control!r} on {where(i)} is beyond double "
+            "precision (about 1.8e308)"
+        )
     return d, np.flatnonzero(bad)
 
 

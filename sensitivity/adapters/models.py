@@ -17,8 +17,8 @@ import numpy as np
 
 from ..common.errors import InputError, SensitivityWarning
 from ..common.levels import level_text
-from ..evalues.core import evalue
 from ..evalues.result import EValueResult
+from .design import evalue_of_coefficient
 from .errors import (
     check_errors,
     cluster_groups,
@@ -270,8 +270,8 @@ def evalue_of_fit(
             notes,
             depth=4,
         )
-    res = evalue(scale, est, interval, outcome=outcome, prevalence=prevalence,
-                 ci_level=1 - alpha)  # fmt: skip
+    res = evalue_of_coefficient(b, contrast, scale, est, interval, outcome=outcome,
+                                prevalence=prevalence, ci_level=1 - alpha)  # fmt: skip
     what = {"or": "odds ratio", "rr": "risk or rate ratio", "hr": "hazard ratio"}[scale]
     per = f" per {contrast:g} units" if contrast != 1 else ""
     notes.insert(
@@ -313,8 +313,9 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
     share = float(events.mean())
     est = float(np.exp(b * contrast))
     lo, up = sorted(float(np.exp((b + s * z * se) * contrast)) for s in (-1, 1))
-    res = evalue("hr", est, (lo, up), outcome=outcome,
-                 prevalence=None if outcome else share, ci_level=1 - alpha)  # fmt: skip
+    res = evalue_of_coefficient(b, contrast, "hr", est, (lo, up), outcome=outcome,
+                                prevalence=None if outcome else share,
+                                ci_level=1 - alpha)  # fmt: skip
     note = (
         f"From a fitted Cox model (lifelines, n = {len(events):,}): hazard ratio {est:.4g}; "
         f"the event occurs in {share:.1%} of the data."
@@ -435,17 +436,16 @@ def evalue_from_data(
                                  outcome=outcome)  # fmt: skip
     names = list(results.model.exog_names)
     j = _treatment_index(names, treatment)
-    y = np.asarray(results.model.endog, float)
-    sd = float(np.std(y, ddof=1))
+    sd = float(np.std(np.asarray(results.model.endog, float), ddof=1))
     b, se = float(np.asarray(results.params)[j]), float(np.asarray(results.bse)[j])
     if abs(alpha - 0.05) < 1e-12:  # 95%: the interval from se of VanderWeele & Ding (2017)
-        res = evalue("md", b, se=se, sd=sd, contrast=contrast)
+        res = evalue_of_coefficient(b, contrast, "md", b, se=se, sd=sd, contrast=contrast)
     else:  # the fit's own interval at the level asked for
-        if 1 - alpha == 1:
-            why = "the level 1 - alpha of the E-value's interval rounds to 1 below it"
-            raise InputError(f"`alpha` must be at least 1.2e-16: {why}; got {alpha:g}", "alpha")
+        if 1 - alpha == 1:  # the level 1 - alpha rounds to 1
+            raise InputError(f"`alpha` must be at least 1.2e-16; got {alpha:g}", "alpha")
         ci = tuple(float(v) for v in np.asarray(results.conf_int(alpha=alpha))[j])
-        res = evalue("md", b, ci, sd=sd, contrast=contrast, ci_level=1 - alpha)
+        res = evalue_of_coefficient(b, contrast, "md", b, ci, sd=sd, contrast=contrast,
+                                    ci_level=1 - alpha)  # fmt: skip
     code, words = used_by(results)
     info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment,
             "errors": code}  # fmt: skip

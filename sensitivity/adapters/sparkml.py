@@ -121,7 +121,7 @@ def from_spark_model(model: Any, treatment: str, *, contrast: float = 1.0, alpha
     from dataclasses import replace
 
     from ..common.checks import OPEN_UNIT, require
-    from ..evalues.core import evalue
+    from .design import evalue_of_coefficient
     from .models import SHOWN
 
     kind, scale = spark_kind(model)
@@ -150,8 +150,8 @@ def from_spark_model(model: Any, treatment: str, *, contrast: float = 1.0, alpha
     est = float(np.exp(p["b"] * contrast))
     lo, up = sorted(float(np.exp((p["b"] + s * z * p["se"]) * contrast)) for s in (-1, 1))
     prevalence = p["share"] if outcome is None and scale == "or" else None
-    res = evalue(scale, est, (lo, up), outcome=outcome, prevalence=prevalence,
-                 ci_level=1 - alpha)  # fmt: skip
+    res = evalue_of_coefficient(p["b"], contrast, scale, est, (lo, up), outcome=outcome,
+                                prevalence=prevalence, ci_level=1 - alpha)  # fmt: skip
     what = {"or": "odds ratio", "rr": "risk or rate ratio"}[scale]
     per = f" per {contrast:g} units" if contrast != 1 else ""
     note = (f"From a fitted Spark {SHOWN[kind]} model (n = {p['n']:,}): {what} exp(b){per} = "

@@ -159,10 +159,13 @@ def format_options(func: Callable) -> Callable:
     )(func)
 
 
-def plot_options(what: str) -> Callable:
-    """--plot (repeatable), --plot-limits and --plot-mark, shared by every figure."""
+def plot_options(what: str, marks: bool = True) -> Callable:
+    """--plot (repeatable), --plot-limits and --plot-mark, shared by every figure (without
+    --plot-mark where the figure marks no confounder of the user's choice)."""
 
     def decorate(func: Callable) -> Callable:
+        if not marks:
+            return _plot_path_and_limits(func, what)
         func = click.option(
             "--plot-mark",
             "plot_marks",
@@ -173,25 +176,30 @@ def plot_options(what: str) -> Callable:
             help="Mark a confounder of your choice on the figure (repeatable), in the axes' "
             "units (partial R² and prevalences as shares: 0.05 for 5%).",
         )(func)
-        func = click.option(
-            "--plot-limits",
-            nargs=2,
-            type=float,
-            default=None,
-            metavar="X_MAX Y_MAX",
-            help="Upper limits of the figure's axes (default: the region where the "
-            "conclusion changes).",
-        )(func)
-        return click.option(
-            "--plot",
-            "plots",
-            multiple=True,
-            type=click.Path(dir_okay=False),
-            callback=lambda ctx, param, value: _check_plots(value),
-            help=f"Write {what} (.png, .svg or .pdf; repeatable, one figure drawn once).",
-        )(func)
+        return _plot_path_and_limits(func, what)
 
     return decorate
+
+
+def _plot_path_and_limits(func: Callable, what: str) -> Callable:
+    """--plot and --plot-limits."""
+    func = click.option(
+        "--plot-limits",
+        nargs=2,
+        type=float,
+        default=None,
+        metavar="X_MAX Y_MAX",
+        help="Upper limits of the figure's axes (default: the region where the "
+        "conclusion changes).",
+    )(func)
+    return click.option(
+        "--plot",
+        "plots",
+        multiple=True,
+        type=click.Path(dir_okay=False),
+        callback=lambda ctx, param, value: _check_plots(value),
+        help=f"Write {what} (.png, .svg or .pdf; repeatable, one figure drawn once).",
+    )(func)
 
 
 def _check_plots(value: tuple) -> tuple:

@@ -17,6 +17,7 @@ _ORDINALS = ("first", "second", "third", "fourth")
 #: ratios, the two sides of a `--benchmark-r2` NAME RT RY.
 SHARED_NAMES: dict[str, Named] = {
     "limits": "--plot-limits",
+    "marks": "--plot-mark",
     "rr_treatment": ("--confounder", 1),
     "rr_outcome": ("--confounder", 2),
     "benchmark_r2[1]": ("--benchmark-r2", 2),

@@ -93,7 +93,8 @@ SHORT_HELP = COMMANDS["evalue"][1]
     is_flag=True,
     help="Add differential outcome misclassification to a joint E-value.",
 )
-@plot_options("a figure of the confounder strengths that could explain the result away")
+@plot_options("a figure of the confounder strengths that could explain the result away",
+              marks=False)  # fmt: skip
 @format_options
 def evalue_cmd(
     text: Any,
@@ -119,7 +120,6 @@ def evalue_cmd(
     with_misclassification: bool,
     plots: Any,
     plot_limits: Any,
-    plot_marks: Any,
     fmt: Any,
     outputs: Any,
 ) -> None:
@@ -148,10 +148,10 @@ def evalue_cmd(
     from sensitivity.evalues.core import evalue
 
     route, published = summary_route("evalue", text, scale, estimate, ci)
-    if plot_marks:
-        raise click.UsageError(
-            "--plot-mark does not apply to evalue: give the confounders with --confounder"
-        )
+    if plot_limits is not None:  # refused before any work, with or without --plot
+        from sensitivity.evalues.figures import check_limits
+
+        check_limits(plot_limits)
     exclusive(("--outcome-frequency", outcome), ("--prevalence", prevalence))
     exclusive(("--se", se), ("--ci", ci or None))
     inputs = (("--data", data), ("--formula", formula), ("--treatment", treatment))

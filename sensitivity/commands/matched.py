@@ -59,16 +59,14 @@ def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discord
 
     grid = parse_range(gamma, "gamma")
     if data:
-        from sensitivity.adapters.files import read_table
         from sensitivity.adapters.matched import matched_differences
 
-        frame = read_table(data, "data")
         if differences and (treated or control):
             raise click.UsageError("give --differences, or --treated and --control, not both")
         if not all([differences] if differences else [treated, control]):
             raise click.UsageError("--data needs --treated and --control, or --differences")
-        d, left_out = matched_differences(
-            frame, treated=treated, control=control, differences=differences
+        d, left_out = matched_differences(  # reads the file: its errors name file lines
+            data, treated=treated, control=control, differences=differences
         )
         if len(left_out):
             rows = ", ".join(str(i + 2) for i in left_out[:20])

@@ -134,10 +134,11 @@ def partial_r2_cmd(
           --treatment commute_min
     """
     show_warnings()
-    if plot_limits is not None:  # refused before any work, with or without --plot
-        from sensitivity.partial_r2.figures import check_limits
+    if plot_limits is not None or plot_marks:  # refused before any work, with or without --plot
+        from sensitivity.partial_r2.figures import check_limits, check_marks
 
         check_limits(plot_limits)
+        check_marks(plot_marks)
     exclusive(("--se", se), ("--t", t_stat))
     summary_given = [
         n

@@ -157,6 +157,11 @@ def tipping_cmd(
         raise click.UsageError("--ci-level is the level of --ci: give --ci LOWER UPPER with it")
     level = {} if ci_level is None else {"ci_level": ci_level}
 
+    if plot_limits is not None or plot_marks:  # refused before any work, with or without --plot
+        from sensitivity.tipping.figures import check_plot_input
+
+        check_plot_input(kind, plot_limits, plot_marks)
+
     def grid(name):
         return None if given[name] is None else tp.parse_range(given[name], name)
 
@@ -204,6 +209,10 @@ def tipping_cmd(
             target=target,
             **{k: grid(k) for k in ("r2_treatment", "r2_outcome")},
         )
+    if plots and plot_limits is not None:  # the axes are the grid's: checked before output
+        from sensitivity.tipping.figures import check_axes
+
+        check_axes(result, plot_limits)
     if fmt in ("json", "csv") and result.n_rows > 200_000:
         click.echo(f"Writing {result.n_rows:,} rows as {fmt}...", err=True)
     emit(result, fmt, outputs)

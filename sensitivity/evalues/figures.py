@@ -24,6 +24,16 @@ from ..output.figures import (
 )
 
 
+def check_limits(limits: Sequence[float] | None) -> None:
+    """The axes are risk ratios from 1: each upper limit must exceed 1."""
+    for value in limits or ():
+        if not value > 1:
+            raise InputError(
+                f"`limits` are risk-ratio axes starting at 1: each must exceed 1; got {value:g}",
+                "limits",
+            )
+
+
 def evalue_figure(
     result: Any, path: str | Path | Sequence[str | Path], limits: Mark | None = None
 ) -> list[Path]:
@@ -32,6 +42,7 @@ def evalue_figure(
     through the E-value point (E, E). The user's hypothetical confounders are numbered as in
     the confounder table."""
     paths = figure_paths(path)
+    check_limits(limits)
     if not result.is_scalar:
         raise InputError("`plot` draws one E-value result; give one estimate", "plot")
     plt = pyplot()

@@ -40,6 +40,18 @@ def check_limits(limits: Sequence[float] | None) -> None:
             )
 
 
+def check_marks(marks: Sequence[Mark]) -> None:
+    """A marked confounder's two partial R² are shares: each in [0, 1)."""
+    for mark in marks:
+        for value in mark:
+            if not 0 <= value < 1:
+                raise InputError(
+                    f"each value of `marks` is a partial R² (a share: 0.05 for 5%) and must "
+                    f"lie in [0, 1); got {value:g}",
+                    "marks",
+                )
+
+
 def _r2_limits(result: Any, limits: Mark | None) -> Mark:
     """The default zoom: where the conclusion changes (twice the larger robustness value)
     and every scenario within FAR times that, with room around them."""
@@ -87,6 +99,7 @@ def partial_r2_contours(
     from .core import surface, t_critical
 
     paths = figure_paths(path)
+    check_marks(marks)
     xlim, ylim = _r2_limits(result, limits)
     gx = np.linspace(0, min(xlim, 0.999), size)
     gy = np.linspace(0, min(ylim, 0.999), size)

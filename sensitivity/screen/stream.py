@@ -8,6 +8,7 @@ kind.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Iterable, Iterator, Mapping, Sequence
 from itertools import chain
 from typing import Any
@@ -297,7 +298,47 @@ def _core_rows(frame: Any, rows: np.ndarray, mapping: dict[str, str], options: O
         )
     if from_text is not None:
         core["_text"] = np.asarray(_series(part[from_text]).to_list(), dtype=object)
-    return screen_columns(core, part.height, options)
+    done = screen_columns(core, part.height, options)
+    estimate = core.get("estimate")
+    if from_text is None:
+        from_columns = np.ones(part.height, bool)
+    elif estimate is None:
+        from_columns = np.zeros(part.height, bool)
+    else:  # a row with an estimate cell is read from its columns, the rest from the text
+        from_columns = np.asarray([str(v).strip() not in ("", "nan", "None") for v in estimate])
+    for key in ("error", "_error_kind"):
+        done[key] = _in_file_terms(done[key], mapping, from_text, from_columns)
+    return done
+
+
+def _in_file_terms(reasons: np.ndarray, mapping: Mapping[str, str], from_text: str | None,
+                   from_columns: np.ndarray) -> np.ndarray:  # fmt: skip
+    """Row reasons naming the file's own columns: the screen's names (`estimate`, the
+    interval `ci`) become the columns `--columns` mapped them to (`HR`, `LCL` to `UCL`), or
+    the text column a row's numbers were read from."""
+    lower, upper = mapping.get("lower", "lower"), mapping.get("upper", "upper")
+    renamed = {std: user for std, user in mapping.items() if std != user}
+    out = reasons.copy()
+    for i in np.flatnonzero(reasons != ""):
+        text = re.sub(r"`([^`]+)`", lambda m: f"`{renamed.get(m[1], m[1])}`", str(reasons[i]))
+        if from_text is not None and not from_columns[i]:
+            whole = f"the interval in `{from_text}`"
+            text = text.replace(
+                "`ci` lower limit must not exceed the upper",
+                f"{whole}: its lower limit must not exceed its upper",
+            )
+            text = text.replace("`estimate`", f"the estimate in `{from_text}`")
+            text = text.replace("`ci`", whole)
+        else:
+            text = text.replace(
+                "`ci` lower limit must not exceed the upper", f"`{lower}` must not exceed `{upper}`"
+            )
+            text = text.replace(
+                "`ci` needs both limits", f"`{lower}` and `{upper}` are both needed"
+            )
+            text = text.replace("`ci`", f"`{lower}` to `{upper}`")
+        out[i] = text
+    return out
 
 
 def screen_batches(batches: Iterable[Any], **options: Any) -> Iterator[Any]:

@@ -25,7 +25,7 @@ SCALE_WORDS = {
 _WORDS = sorted(SCALE_WORDS, key=len, reverse=True)
 _NUM = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
 _SCALE = r"(?P<scale>" + "|".join(re.escape(w) for w in _WORDS) + r")"
-_LEVEL = r"(?:(?P<level>\d{2}(?:\.\d+)?)\s*%\s*)?(?:ci|confidence interval|cl|cri|ui)?"
+_LEVEL = r"(?:(?P<level>\d{1,3}(?:\.\d+)?)\s*%\s*)?(?:ci|confidence interval|cl|cri|ui)?"
 _SEP = r"\s*(?:to|,|;|-|–|—|\.\.)\s*"
 # a scale word may carry its abbreviation in brackets ("hazard ratio [HR] 0.72") and be set
 # off by a comma ("HR, 0.72; 95% CI, 0.60-0.86"), as journal styles print them
@@ -98,6 +98,9 @@ def parse(text: object) -> dict[str, object]:
         return out
     match = PATTERN.match(cell)
     if match is None:
+        if re.search(r"\d,\d", cell):  # "0.72 (95% CI 0,60-0,86)": commas beside points
+            out["error"] = "decimal commas: the numbers cannot be read for certain (write 1.45)"
+            return out
         opened = cell.count("(") + cell.count("[") > cell.count(")") + cell.count("]")
         if opened or re.search(r"(?:-|to|,)\s*[)\]]?\s*$", cell):
             out["error"] = "the interval is incomplete"
@@ -112,7 +115,16 @@ def parse(text: object) -> dict[str, object]:
     if match["scale"]:
         out["scale"] = SCALE_WORDS[match["scale"].lower()]
     if match["level"]:
+        if not 0 < float(match["level"]) < 100:
+            return _bad_level(match["level"], out)
         out["level"] = float(match["level"]) / 100
+    return out
+
+
+def _bad_level(level: str, out: dict[str, object]) -> dict[str, object]:
+    """A level of 0% or 100% or more names no interval: nothing is read."""
+    out.update(estimate=np.nan, lower=np.nan, upper=np.nan, scale="", level=np.nan)
+    out["error"] = f"the interval's level {level}% must lie strictly between 0 and 100%"
     return out
 
 
@@ -140,6 +152,8 @@ def _relative_change(match: re.Match, out: dict[str, object]) -> dict[str, objec
         out["lower"], out["upper"] = limits
     out["scale"] = _PERCENT_SCALE[match["what"].lower()]
     if match["level"]:
+        if not 0 < float(match["level"]) < 100:
+            return _bad_level(match["level"], out)
         out["level"] = float(match["level"]) / 100
     return out
 
@@ -177,6 +191,28 @@ def read_result(text: object, argument: str = "TEXT") -> dict[str, object]:
         value = float(cast(float, cell[key]))
         return None if np.isnan(value) else value
 
+    shown = repr(str(text).strip()[:60])
+    typed = [n for n in re.findall(_NUM, str(text)) if not np.isfinite(float(n))]
+    if typed:  # "RR 1e400": beyond double precision, as the user typed it
+        raise InputError(
+            f"`{argument}`: the number {typed[0]} is beyond double precision (about 1.8e308); "
+            f"got {shown}",
+            argument,
+        )
+    est, lo, up = number("estimate"), number("lower"), number("upper")
+    if lo is not None and up is not None:
+        if lo > up:
+            raise InputError(
+                f"`{argument}`: the interval's lower limit {lo:g} exceeds its upper limit "
+                f"{up:g}; got {shown}",
+                argument,
+            )
+        if est is not None and not lo <= est <= up:
+            raise InputError(
+                f"`{argument}`: the estimate {est:g} must lie within its interval "
+                f"{lo:g} to {up:g}; got {shown}",
+                argument,
+            )
     return {
         "text": str(text).strip(),
         "scale": cell["scale"] or None,

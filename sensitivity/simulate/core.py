@@ -241,6 +241,21 @@ def simulate(
             se = (pair[1] - pair[0]) / (2 * crit)
             systematic = est - g * (p1 - p0)
             total = systematic - z_random * se
+    if np.all(np.isfinite(systematic)) and not np.all(np.isfinite(total)):
+        # the random error alone leaves double precision: its SD is what `ci` and its level
+        # imply, and a level near 0 (a critical value near 0) makes it huge
+        wide = f"a standard error of {float(se):.3g}" + (" on the log scale" if ratio else "")
+        if level < 0.5:  # the level, not the interval, is the likely slip
+            raise InputError(
+                f"the total-error draws leave double precision: at `ci_level` {level:g}, `ci` "
+                f"implies {wide}, too wide for this scale; give the interval's own level",
+                ("ci_level", "ci"),
+            )
+        raise InputError(
+            f"the total-error draws leave double precision: `ci` at level {level:g} implies "
+            f"{wide}, too wide for this scale",
+            "ci",
+        )
     for name, drawn in (("systematic", systematic), ("total", total)):
         if not np.all(np.isfinite(drawn)):
             raise InputError(

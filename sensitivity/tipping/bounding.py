@@ -14,7 +14,7 @@ from ..common.errors import InputError
 from ..common.levels import check_level
 from ..common.scales import RATIO_SCALES, convert_from_rr
 from .exact import Condition, monotone_set, reaches
-from .grid import grid_axes, shifted_cells, side_of, with_exact
+from .grid import check_frequency, grid_axes, shifted_cells, side_of, with_exact
 from .ranges import default_ranges
 from .result import TippingGrid
 
@@ -51,6 +51,8 @@ def bounding_grid(
         raise InputError(
             f"`scale` must be one of rr, or, hr for the bounding view; got {scale!r}", "scale"
         )
+    if scale in ("or", "hr"):  # tipping takes no prevalence: name only `outcome`
+        check_frequency(scale, outcome)
     ev = evalue(scale, estimate, ci, outcome=outcome, target=target)
     axes = grid_axes(
         {"rr_treatment": rr_treatment, "rr_outcome": rr_outcome},

@@ -35,6 +35,46 @@ AXIS_LABELS = {
 SHARES = ("prevalence_treated", "prevalence_control", "r2_treatment", "r2_outcome")
 
 
+def check_plot_input(kind: str, limits: Mark | None, marks: Sequence[Mark]) -> None:
+    """What a view's axes fix before any grid: partial R² axes are shares (limits in (0, 1],
+    marks in [0, 1)); the bounding view's risk ratios start at 1 (limits above 1)."""
+    if kind == "partial-r2":
+        for value in limits or ():
+            if not 0 < value <= 1:
+                raise InputError(
+                    f"`limits` are partial R² axes: each must lie in (0, 1]; got {value:g}",
+                    "limits",
+                )
+        for value in (v for mark in marks for v in mark):
+            if not 0 <= value < 1:
+                raise InputError(
+                    f"each value of `marks` is a partial R² (a share: 0.05 for 5%) and must "
+                    f"lie in [0, 1); got {value:g}",
+                    "marks",
+                )
+    if kind == "bounding":
+        for value in limits or ():
+            if not value > 1:
+                raise InputError(
+                    f"`limits` are risk-ratio axes starting at 1: each must exceed 1; got "
+                    f"{value:g}",
+                    "limits",
+                )
+
+
+def check_axes(result: Any, limits: Mark | None) -> None:
+    """Each upper limit of `limits` lies above the start of its varying axis (an axis that
+    ends where it starts, or before, draws nothing)."""
+    for (name, axis), value in zip((result.axes[i] for i in result.varying), limits or (),
+                                   strict=False):  # fmt: skip
+        if not value > float(np.min(axis)):
+            raise InputError(
+                f"`limits`: the {AXIS_LABELS[name].lower()} axis starts at "
+                f"{float(np.min(axis)):g}, so its upper limit must exceed that; got {value:g}",
+                "limits",
+            )
+
+
 def tipping_figure(
     result: Any,
     path: str | Path | Sequence[str | Path],
@@ -51,6 +91,8 @@ def tipping_figure(
             "them a single value)",
             "plot",
         )
+    check_plot_input(result.kind, limits, marks)
+    check_axes(result, limits)
     goal = "the null" if result.target_is_null else f"{result.target:g}"
     level = f"{result.level} CI"
     est = np.squeeze(result.cells["bias_adjusted_estimate"])
