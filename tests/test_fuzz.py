@@ -215,3 +215,12 @@ def test_every_command_exits_0_or_2_without_raw_warnings(spot, value, tmp_path, 
     assert "RuntimeWarning" not in res.stderr and "internal error" not in res.stderr
     if res.exit_code == 2:
         assert res.stderr.startswith("Error: ") and res.stderr.count("\n") == 1, res.stderr
+
+
+def test_a_missing_hazard_ratio_entry_stays_missing_on_the_way_back():
+    """The fuzz found from_risk_ratio('hr', nan, outcome='common') gave inf: the bisection
+    ran on NaN. A NaN entry is missing and gives NaN; the rest are unchanged (the common-
+    outcome map of VanderWeele 2020, inverted: 2.0 <- HR 2.7504 as its forward map gives)."""
+    got = s.from_risk_ratio("hr", [2.0, np.nan], outcome="common")
+    assert np.isnan(got[1])
+    assert float(s.to_risk_ratio("hr", got[0], outcome="common")) == pytest.approx(2.0, rel=1e-12)

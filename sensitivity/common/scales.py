@@ -130,7 +130,8 @@ def _hr_common_inverse(rr: np.ndarray) -> np.ndarray:
         hi = np.where(above, mid, hi)
         lo = np.where(above, lo, mid)
     with np.errstate(over="ignore"):
-        return np.exp((lo + hi) / 2)
+        found = np.exp((lo + hi) / 2)
+    return np.where(np.isnan(target), np.nan, found)  # a missing entry stays missing
 
 
 # --------------------------------------------------------------------------- conversions
