@@ -199,3 +199,11 @@ def test_plot_options_are_checked_before_any_work(tmp_path, args, expected):
     assert expected in result.output
     assert not result.output.startswith(("E-values", "Tipping", "Partial")), result.output
     assert not plot.exists()
+
+
+@pytest.mark.parametrize("command", ["matched", "simulate", "stability"])
+def test_figures_that_mark_no_confounder_offer_no_plot_mark(command):
+    """They accepted --plot-mark and drew nothing with it; like evalue now, they don't offer
+    it (pool and the screen refuse it with a reason)."""
+    out = CliRunner().invoke(cli, [command, "--help"], terminal_width=200).stdout
+    assert "--plot-mark" not in out and "--plot-limits" in out

@@ -40,12 +40,12 @@ SHORT_HELP = COMMANDS["matched"][1]
     is_flag=True,
     help="Sign test, normal method: use T - 1/2 (as Rosenbaum's tables print it).",
 )
-@plot_options("the upper bound on the p-value against Gamma")
+@plot_options("the upper bound on the p-value against Gamma", marks=False)
 @format_options
 def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discordant: Any,
                 treated_events: Any, gamma: str, alpha: float, method: str, zeros: str,
                 alternative: str, continuity: bool, plots: Any, plot_limits: Any,
-                plot_marks: Any, fmt: str, outputs: Any) -> None:  # fmt: skip
+                fmt: str, outputs: Any) -> None:  # fmt: skip
     """Rosenbaum bounds: the p-value of a matched-pairs test under hidden bias up to Gamma.
 
     \b

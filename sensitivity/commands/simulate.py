@@ -38,12 +38,12 @@ PRIOR_HELP = (
 @click.option("--seed", type=int, help="Seed (when not given, one is drawn and reported).")
 @click.option("--target", type=float, help="The value to test against (default: the null).")
 @outcome_frequency_option("or, hr: the outcome's frequency (a common outcome is converted).")
-@plot_options("the distribution of bias-adjusted estimates")
+@plot_options("the distribution of bias-adjusted estimates", marks=False)
 @format_options
 def simulate_cmd(scale: str, estimate: float, ci: Any, ci_level: float, prevalence_treated: str,
                  prevalence_control: str, outcome_effect: str, correlation: float, draws: int,
                  seed: Any, target: Any, outcome: Any, plots: Any, plot_limits: Any,
-                 plot_marks: Any, fmt: str, outputs: Any) -> None:  # fmt: skip
+                 fmt: str, outputs: Any) -> None:  # fmt: skip
     """Probabilistic bias analysis: bias-adjusted estimates under priors on a hidden binary
     confounder's prevalences and effect, with systematic and total-error intervals.
 

@@ -38,13 +38,13 @@ SHORT_HELP = COMMANDS["stability"][1]
 @click.option("--formula-short", help='Data input: e.g. "y ~ t".')
 @click.option("--formula-long", help='Data input: e.g. "y ~ t + x1 + x2".')
 @click.option("--treatment", help="Data input: the treatment's name.")
-@plot_options("the bias-adjusted coefficient against delta")
+@plot_options("the bias-adjusted coefficient against delta", marks=False)
 @format_options
 def stability_cmd(estimate_short: Any, r2_short: Any, estimate_long: Any, r2_long: Any,
                   var_outcome: Any, var_treatment: Any, var_treatment_residual: Any,
                   r2_max: Any, delta: float, target: float, data: Any, formula_short: Any,
                   formula_long: Any, treatment: Any, plots: Any, plot_limits: Any,
-                  plot_marks: Any, fmt: str, outputs: Any) -> None:  # fmt: skip
+                  fmt: str, outputs: Any) -> None:  # fmt: skip
     """Coefficient stability under proportional selection (Oster 2019): the bias-adjusted
     coefficient at a delta, and the delta that brings the coefficient to a target.
 
