@@ -9,6 +9,26 @@ ROOT = Path(__file__).resolve().parent.parent
 CASES = ROOT / "reference_cases"
 
 
+def first_example(command: str) -> list[str]:
+    """The first example in the command's --help, as arguments (after `sensitivity`)."""
+    import shlex
+
+    from cli import cli
+
+    text = CliRunner().invoke(cli, [command, "--help"], terminal_width=200).stdout
+    current = ""
+    for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
+        line = raw.strip()
+        if not line:
+            continue
+        current = f"{current} {line}".strip()
+        if current.endswith("\\"):
+            current = current[:-1].strip()
+            continue
+        return shlex.split(current)[1:]
+    raise AssertionError(f"{command} --help has no example")
+
+
 def load_cases(*names):
     """Rows of reference CSVs, blanks as None, numbers as float where they parse."""
     rows = []

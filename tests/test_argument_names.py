@@ -12,14 +12,13 @@ import csv
 import os
 import pickle
 import re
-import shlex
 from importlib import import_module
 
 import click
 import numpy as np
 import pytest
 from click.testing import CliRunner
-from conftest import ROOT
+from conftest import ROOT, first_example
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from test_fuzz import CALLS, NASTY, SLOTS
@@ -100,22 +99,9 @@ def test_every_library_error_carries_the_arguments_its_message_names(slot, value
 
 
 # ------------------------------------------------------------------ on the command line
-def _first_example(command: str) -> list[str]:
-    text = CliRunner().invoke(cli, [command, "--help"], terminal_width=200).stdout
-    current = ""
-    for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
-        line = raw.strip()
-        if not line:
-            continue
-        current = f"{current} {line}".strip()
-        if current.endswith("\\"):
-            current = current[:-1].strip()
-            continue
-        return shlex.split(current)[1:]
-    raise AssertionError(command)
 
 
-FIRST = {name: _first_example(name) for name in COMMANDS}
+FIRST = {name: first_example(name) for name in COMMANDS}
 
 
 def _command(name: str) -> click.Command:

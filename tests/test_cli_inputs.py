@@ -4,37 +4,19 @@ library messages name the option as typed."""
 
 from __future__ import annotations
 
-import shlex
 from importlib import import_module
 
 import click
 import pytest
 from click.testing import CliRunner
-from conftest import ROOT
+from conftest import ROOT, first_example
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from cli import cli
 from sensitivity.commands import COMMANDS
 
-
-def _first_example(command: str) -> list[str]:
-    """The first example in the command's --help, as arguments."""
-    text = CliRunner().invoke(cli, [command, "--help"], terminal_width=200).stdout
-    current = ""
-    for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
-        line = raw.strip()
-        if not line:
-            continue
-        current = f"{current} {line}".strip()
-        if current.endswith("\\"):
-            current = current[:-1].strip()
-            continue
-        return shlex.split(current)[1:]
-    raise AssertionError(f"{command} --help has no example")
-
-
-FIRST = {name: _first_example(name) for name in COMMANDS}
+FIRST = {name: first_example(name) for name in COMMANDS}
 
 
 def _numeric_options():

@@ -7,7 +7,6 @@ from __future__ import annotations
 
 import decimal
 import math
-import shlex
 from importlib import import_module
 from pathlib import Path
 
@@ -15,7 +14,7 @@ import click
 import numpy as np
 import pytest
 from click.testing import CliRunner
-from conftest import ROOT
+from conftest import ROOT, first_example
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -160,22 +159,9 @@ def _is_nan(value):
 
 
 # ------------------------------------------------------------------ every command
-def _first_example(command):
-    text = CliRunner().invoke(cli, [command, "--help"], terminal_width=200).stdout
-    current = ""
-    for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
-        line = raw.strip()
-        if not line:
-            continue
-        current = f"{current} {line}".strip()
-        if current.endswith("\\"):
-            current = current[:-1].strip()
-            continue
-        return shlex.split(current)[1:]
-    raise AssertionError(command)
 
 
-EXAMPLES = {name: _first_example(name) for name in COMMANDS}
+EXAMPLES = {name: first_example(name) for name in COMMANDS}
 TEXT_VALUES = ["nan", "inf", "-inf", "0", "-1", "1e308", "5e-324", "1e400", "x", "",
                "99999999999999999999", "1e-300", "0.5", "2"]  # fmt: skip
 

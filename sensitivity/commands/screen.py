@@ -16,7 +16,7 @@ SHORT_HELP = COMMANDS["screen"][1]
 
 
 def _column_map(values: tuple[str, ...]) -> dict[str, str]:
-    mapping = {}
+    mapping: dict[str, str] = {}
     for value in values:
         for item in value.split(","):
             if not item.strip():

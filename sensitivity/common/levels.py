@@ -17,14 +17,20 @@ from .errors import InputError
 ALPHA_FLOOR = 1e-300
 
 
+def _open_unit(value: object, name: str) -> float:
+    """`value` as a float strictly between 0 and 1, or InputError naming `name`."""
+    try:
+        number = float(value)  # type: ignore[arg-type]  # any object: refused if not a number
+    except (TypeError, ValueError, OverflowError):
+        raise InputError(f"`{name}` must be a number; got {value!r}", name) from None
+    if not (0 < number < 1):
+        raise InputError(f"`{name}` must lie strictly between 0 and 1; got {number:g}", name)
+    return number
+
+
 def check_alpha(alpha: float, name: str = "alpha") -> float:
     """`alpha` as a float in [ALPHA_FLOOR, 1), or InputError naming `name` and the limit."""
-    try:
-        value = float(alpha)
-    except (TypeError, ValueError, OverflowError):
-        raise InputError(f"`{name}` must be a number; got {alpha!r}", name) from None
-    if not (0 < value < 1):
-        raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}", name)
+    value = _open_unit(alpha, name)
     if value < ALPHA_FLOOR:
         raise InputError(
             f"`{name}` must be at least {ALPHA_FLOOR:g} (smaller levels have no finite critical "
@@ -41,12 +47,7 @@ LEVEL_FLOOR = 1e-15
 
 def check_level(level: float, name: str = "ci_level") -> float:
     """A confidence level in [LEVEL_FLOOR, 1 - ALPHA_FLOOR], or InputError naming `name`."""
-    try:
-        value = float(level)
-    except (TypeError, ValueError, OverflowError):
-        raise InputError(f"`{name}` must be a number; got {level!r}", name) from None
-    if not (0 < value < 1):
-        raise InputError(f"`{name}` must lie strictly between 0 and 1; got {value:g}", name)
+    value = _open_unit(level, name)
     if value < LEVEL_FLOOR:
         raise InputError(
             f"`{name}` must be at least {LEVEL_FLOOR:g} (below it the critical value is 0 in "
