@@ -174,6 +174,54 @@ def test_quoted_cells_with_newlines_survive_the_pieces(tmp_path, monkeypatch):
     _same(reference, partial_r2_one_pass(path, "y ~ t + site", "t"))
 
 
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.tuples(st.sampled_from(["1", "2.5", "-3", "", "x", "NA", "nan"]),
+                          st.sampled_from(batches.MISSING + ["a", "b", "NAN", " NA"]),
+                          st.booleans(), st.integers(0, 9)),
+                min_size=1, max_size=60), st.integers(8, 200))  # fmt: skip
+def test_pieces_parsed_without_the_missing_words_read_the_same(cells, chunk):
+    # Pieces after the first are parsed without polars' list of missing-value words, then
+    # their text cells that are one of the words made missing: the batches must be exactly
+    # those parsed with the list (the first piece's types held), whatever the cells, quoted
+    # or not, and wherever the pieces are cut.
+    import tempfile
+    from pathlib import Path
+
+    lines = ["n,w,k"]
+    for number, word, quoted, k in cells:
+        lines.append(",".join([number, f'"{word}"' if quoted else word, str(k)]))
+    text = "\n".join(lines) + "\n"
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "words.csv"
+        path.write_text(text)
+        got, want = [], []
+        for out, held in ((got, batches._read_held), (want, None)):
+            before, size = batches._read_held, files.CHUNK_BYTES
+            if held is None:
+                batches._read_held = lambda read, dtypes: read(dtypes, 0)
+            files.CHUNK_BYTES = chunk
+            try:
+                out.append(_batches_of(path))
+            except Exception as err:  # noqa: BLE001 - both must fail alike
+                out.append(type(err).__name__)
+            finally:
+                batches._read_held, files.CHUNK_BYTES = before, size
+    assert got == want
+
+
+def _batches_of(path):
+    """Every batch of a file as plain Python values (NaN as None) for comparing."""
+    source = batches.file_source(path)
+    out = []
+    for batch in batches.restarting(lambda forced: list(source.batches(["n", "w", "k"], forced))):
+        row = {}
+        for name, (kind, values) in batch.items():
+            seq = values.to_pylist() if kind == "text" else values.tolist()
+            row[name] = (kind, [None if v is None or v != v else v for v in seq])
+        out.append(row)
+    return out
+
+
 def test_byte_chunks_cut_only_between_records(tmp_path):
     path = tmp_path / "q.csv"
     path.write_bytes(b'a,b\n1,"x\ny"\n2,"p""q\nr"\n3,z\n')

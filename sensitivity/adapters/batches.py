@@ -132,14 +132,15 @@ def _csv_batches(path: Path, delimiter: str, header: list[str], wanted: list[str
     for head, body in byte_chunks(path):
         piece = head + body
 
-        def read(types: dict[str, Any], infer: int | None, piece: bytes = piece) -> Any:
+        def read(types: dict[str, Any], infer: int | None, piece: bytes = piece,
+                 nulls: list[str] | None = MISSING) -> Any:  # fmt: skip
             return pl.read_csv(
-                io.BytesIO(piece), separator=delimiter, columns=wanted, null_values=MISSING,
+                io.BytesIO(piece), separator=delimiter, columns=wanted, null_values=nulls,
                 infer_schema_length=infer, schema_overrides=types, raise_if_empty=False,
             )  # fmt: skip
 
         try:
-            frame = read(dtypes, None if first else 0)
+            frame = read(dtypes, None) if first else _read_held(read, dtypes)
         except Exception as err:  # noqa: BLE001 - a parser failure is the file's, not ours
             change = _type_change(read, dtypes, wanted)
             if change is not None:
@@ -152,6 +153,28 @@ def _csv_batches(path: Path, delimiter: str, header: list[str], wanted: list[str
             dtypes = {name: frame.schema[name] for name in wanted} | dtypes
             first = False
         yield {name: _polars_column(frame[name]) for name in wanted}
+
+
+def _read_held(read: Callable[..., Any], dtypes: dict[str, Any]) -> Any:
+    """A piece after the first, its column types held: parsed first without the list of
+    missing-value words (matching 19 words at every cell doubled the parse), which gives the
+    same columns whenever it parses: a number column's cell that is one of the words is
+    either a parse error (then the piece is parsed again with the list) or NaN (`nan`,
+    `NaN`, `-nan`, `-NaN`: NaN in numpy either way); a text column's cells that are one of
+    the words (quoted or not, as the list matches them) are made missing here."""
+    import polars as pl
+
+    try:
+        frame = read(dtypes, 0, nulls=None)
+    except Exception:  # noqa: BLE001 - parsed again with the list, as before
+        return read(dtypes, 0)
+    texts = [name for name, kind in frame.schema.items() if kind == pl.String]
+    if texts:
+        frame = frame.with_columns(
+            pl.when(pl.col(name).is_in(MISSING)).then(None).otherwise(pl.col(name)).alias(name)
+            for name in texts
+        )
+    return frame
 
 
 def _type_change(

@@ -29,7 +29,7 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
-from .irls import Scratch, Step, piece_step, working
+from .irls import PieceColumn, Scratch, Step, Workspace, piece_step, working
 
 #: The models this route fits (their links are canonical: IRLS is Newton's method).
 MODELS = ("logit", "poisson")
@@ -39,14 +39,33 @@ MODELS = ("logit", "poisson")
 ERRORS = ("classical", "hc0", "cluster")
 TOL = 1e-11
 MAX_STEPS = 60
+#: Newton steps from x' W x (Gram) while the fit is far from its end; False: every pass by QR.
+GRAM = True
+#: A pass is by QR when the step it gives is foretold below FORETOLD x TOL (relative).
+FORETOLD = 3.0
+#: Below this reciprocal condition number of x' W x, the fit's passes are by QR.
+MIN_RCOND = 1e-10
 
 
-def _each_piece(scratch: Scratch, width: int, job: Any) -> list[Any]:
-    """`job(k, piece)` over every piece, two at a time (numpy and LAPACK release the GIL)."""
-    from concurrent.futures import ThreadPoolExecutor
+class _Passes:
+    """Jobs over every piece, two at a time (numpy and LAPACK release the GIL), on the same
+    two threads for the whole fit, each reading its pieces into arrays it reuses."""
 
-    with ThreadPoolExecutor(max_workers=2) as pool:
-        return list(pool.map(lambda k: job(k, scratch.read(k, width)), range(len(scratch.pieces))))
+    def __init__(self, scratch: Scratch, width: int) -> None:
+        from concurrent.futures import ThreadPoolExecutor
+
+        self.scratch, self.width = scratch, width
+        self.work = Workspace()
+        self.pool = ThreadPoolExecutor(max_workers=2)
+
+    def each(self, job: Any) -> list[Any]:
+        """`job(k, piece)` for every piece k, in order (the piece is lent to the job)."""
+        read = self.scratch.read
+        return list(self.pool.map(lambda k: job(k, read(k, self.width, self.work)),
+                                  range(len(self.scratch.pieces))))  # fmt: skip
+
+    def close(self) -> None:
+        self.pool.shutdown()
 
 
 def _solve(r: np.ndarray) -> np.ndarray:
@@ -62,24 +81,95 @@ def _solve(r: np.ndarray) -> np.ndarray:
 
 class _Model:
     """One IRLS fit's state: its response's slot, its columns' slots, its coefficients, and
-    what the last pass gave (at the coefficients before the last, tiny, step)."""
+    what the last pass of R factors gave (at the coefficients before the last, tiny, step).
 
-    def __init__(self, kind: str, response: int, slots: list[int]) -> None:
+    Which kind of pass the next one is (`mode`): the R factor of sqrt(w) [x, z] (QR, what
+    every reported number comes from) or a Newton step from x' W x and the score, a third of
+    the work. Newton's steps shrink quadratically, so the size of the next step is foretold
+    by the last two, s² / s' times s; a pass whose step is foretold to be the last is a QR
+    pass, and so decides convergence as a QR-only fit would. A Gram step found to be the
+    last is not taken: the pass is made again, by QR, at the same coefficients. A Gram step
+    solves for the step, not the coefficients, so its rounding is relative to the step
+    (tiny near the end), not to the coefficients; a Gram matrix that will not factor, or is
+    ill-conditioned, or steps that stop shrinking, send the fit to QR passes for good."""
+
+    def __init__(self, kind: str, response: int, slots: list[int], limit: int) -> None:
         self.kind, self.response, self.slots = kind, response, slots
         self.beta: np.ndarray | None = None
         self.steps: list[Step] = []
         self.r = np.zeros((0, 0))
         self.done = self.failed = False
+        self.limit = limit  # the most steps taken before giving up
+        self.taken = 0
+        self.changes: list[float] = []  # each step's largest change
+        self.qr_only = not GRAM
+        self.confirm = False  # a Gram step came out as the last: take it again by QR
+        self.grams = 0
+
+    @property
+    def active(self) -> bool:
+        return not self.done and self.taken < self.limit
+
+    def mode(self) -> str:
+        if self.qr_only or self.confirm or self.beta is None:
+            return "qr"
+        if len(self.changes) >= 2 and self.changes[-2] > 0:
+            last, before = self.changes[-1], self.changes[-2]
+            scale = max(1.0, float(np.max(np.abs(self.beta), initial=0.0)))
+            if last**3 / before**2 <= FORETOLD * TOL * scale:
+                return "qr"
+        return "gram"
 
     def update(self, r: np.ndarray) -> None:
+        """The step from the R factor of sqrt(w) [x, z] at the coefficients."""
         new = _solve(r)
+        self.taken += 1
+        self.confirm = False
         if not np.isfinite(new).all():
             self.failed = self.done = True
             return
         if self.beta is not None:
             change = float(np.max(np.abs(new - self.beta), initial=0.0))
+            self.changes.append(change)
             self.done = change <= TOL * max(1.0, float(np.max(np.abs(new), initial=0.0)))
         self.r, self.beta = r, new
+
+    def update_gram(self, gram: np.ndarray, score: np.ndarray) -> None:
+        """The Newton step from x' W x (its upper triangle) and the score x' (y - mu)."""
+        from scipy.linalg import cho_factor, cho_solve
+
+        assert self.beta is not None
+        try:
+            factor = cho_factor(gram, lower=False, check_finite=True)
+        except (np.linalg.LinAlgError, ValueError):
+            self.qr_only = True  # the pass is made again by QR
+            return
+        new = self.beta + cho_solve(factor, score)
+        if not np.isfinite(new).all():
+            self.qr_only = True
+            return
+        change = float(np.max(np.abs(new - self.beta), initial=0.0))
+        if change <= TOL * max(1.0, float(np.max(np.abs(new), initial=0.0))):
+            self.confirm = True
+            return
+        self.grams += 1
+        if _rcond(gram, factor[0]) < MIN_RCOND or (
+            self.grams >= 4 and change > self.changes[-1] / 2
+        ):
+            self.qr_only = True
+        self.taken += 1
+        self.changes.append(change)
+        self.beta = new
+
+
+def _rcond(gram: np.ndarray, upper: np.ndarray) -> float:
+    """The reciprocal condition number (1-norm) of the symmetric matrix whose upper triangle
+    is `gram`, from its Cholesky factor (LAPACK dpocon's estimate)."""
+    from scipy.linalg import lapack
+
+    full = np.triu(gram) + np.triu(gram, 1).T
+    rcond, info = lapack.dpocon(upper, float(np.abs(full).sum(axis=0).max()))
+    return float(rcond) if info == 0 else 0.0
 
 
 # --------------------------------------------------------------------------- the fit
@@ -166,7 +256,8 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     first = TriangularFactor()
     table: dict[Any, int] = {}
     seen: dict[str, Any] = {"positive": 0, "low": np.zeros(0), "high": np.zeros(0),
-                            "binary": np.zeros(0, bool)}  # fmt: skip
+                            "binary": np.zeros(0, bool), "gram": np.zeros((0, 0)),
+                            "sums": np.zeros(0)}  # fmt: skip
 
     def sink(rows: np.ndarray, extras: dict[str, tuple[str, Any]]) -> None:
         y = rows[:, 0]
@@ -186,6 +277,8 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
             merged = zero_one.copy() if zero_one.size >= old.size else old.copy()
             merged[:both] = old[:both] & zero_one[:both]
             seen["binary"] = merged
+            if overlap:  # the treatment's first step, should its overlap be fitted
+                _add_gram(seen, rows)
         if cluster is not None:
             codes = _cluster_codes(*extras[cluster], table)
             if (codes < 0).any():
@@ -197,6 +290,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         np.multiply(z, root, out=weighted[:, 0])  # z in the outcome's slot 0
         first.add(weighted)
 
+    passes, ranges = None, None
     try:
         with one_blas_thread():
             design = plain_design(source, *plain, progress or (lambda rows: None), sink=sink,
@@ -224,7 +318,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
                              "of freedom; need at least 1", "data")  # fmt: skip
         width = first.r.shape[1]
         slots = [design.slots[i] for i in kept]
-        outcome = _Model(model, 0, slots)
+        outcome = _Model(model, 0, slots, MAX_STEPS + 1)
         outcome.update(first.of(slots + [0]))  # the first step, folded while reading
         models = [outcome]
         t_slot = design.slots[j]
@@ -234,7 +328,9 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         if overlap and others and low[t_slot] == 0 and high[t_slot] == 1 \
                 and any(low[s] != high[s] for s in others) \
                 and seen["binary"][t_slot]:  # fmt: skip
-            treated = _Model("logit", t_slot, others)
+            treated = _Model("logit", t_slot, others, MAX_STEPS)
+            treated.beta = _treatment_start(seen, others, t_slot)
+            treated.taken = int(treated.beta is not None)
             models.append(treated)
         clusters = len(table)
         if cluster is not None and clusters < 2:
@@ -245,35 +341,95 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         if errors is None and model == "poisson" and binary:
             kind = "hc0"  # modified Poisson (Zou 2004): robust errors by default
         sums = kind != "classical"
+        finite = bool(np.isfinite(low).all() and np.isfinite(high).all())
+        passes = _Passes(scratch, width)
+        if treated is not None:
+            ranges = _Ranges(scratch, t_slot)
 
-        def job(k: int, piece: np.ndarray, active: list[_Model]) -> list[Step]:
-            code = None
-            if cluster is not None and sums:
-                code = codes_scratch.read(k, 1)[:, 0].astype(np.int64)
-            return [piece_step(piece[:, m.slots], piece[:, m.response], m.beta, m.kind,
-                               sums and m is outcome, code, clusters) for m in active]  # fmt: skip
+        def job(k: int, piece: np.ndarray, plan: list[tuple[_Model, str]],
+                fitted: bool) -> tuple[list[Step], list[float] | None]:  # fmt: skip
+            steps = []
+            for m, mode in plan:
+                final = mode == "qr" and sums and m is outcome
+                code = None
+                if cluster is not None and final:
+                    code = codes_scratch.read(k, 1)[:, 0].astype(np.int64)
+                # a Gram step's x'b over the piece's every column (no copy of the model's
+                # columns: all finite); a QR pass's as a QR-only fit computes it
+                gram = mode == "gram" and finite
+                x, columns = (piece, m.slots) if gram else (piece[:, m.slots], None)
+                steps.append(piece_step(x, piece[:, m.response], m.beta, m.kind, final, code,
+                                        clusters, gram=mode == "gram", columns=columns,
+                                        work=passes.work))  # fmt: skip
+            return steps, (ranges.piece(k, piece, treated) if fitted else None)  # type: ignore[union-attr]
 
         with one_blas_thread():
-            for _ in range(MAX_STEPS):
-                active = [m for m in models if not m.done]
-                if not active:
+            for _ in range(3 * MAX_STEPS + 3):  # each model's steps are counted by itself
+                plan = [(m, m.mode()) for m in models if m.active]
+                if not plan:
                     break
-                results = _each_piece(scratch, width, lambda k, p, a=active: job(k, p, a))
-                for i, m in enumerate(active):
-                    m.steps = [res[i] for res in results]
-                    m.update(_stacked(m.steps))
-        if outcome.failed or not outcome.done or outcome.beta is None:
-            raise InputError(f"`data`: the {model} fit did not converge: a covariate or the "
-                             "treatment predicts the outcome (nearly) exactly (perfect "
-                             "separation), so the estimate is not defined", "data")  # fmt: skip
-        beta = outcome.beta
-        cov, cov_type = _covariance(outcome, kind, design.used, len(kept), clusters)
-        ov = None if treated is None else _overlap(scratch, width, treated, t_slot)
+                # the overlap's fitted probabilities, in a pass made anyway for the outcome
+                fitted = ranges is not None and not ranges.ready and not treated.active  # type: ignore[union-attr]
+                results = passes.each(lambda k, p, a=plan, f=fitted: job(k, p, a, f))
+                if fitted:
+                    ranges.gather([res[1] for res in results])  # type: ignore[union-attr]
+                for i, (m, mode) in enumerate(plan):
+                    steps = [res[0][i] for res in results]
+                    if mode == "qr":
+                        m.steps = steps
+                        m.update(_stacked(steps))
+                    else:
+                        m.update_gram(_total([s.gram for s in steps]),
+                                      _total([s.score for s in steps]))  # fmt: skip
+            if outcome.failed or not outcome.done or outcome.beta is None:
+                raise InputError(f"`data`: the {model} fit did not converge: a covariate or "
+                                 "the treatment predicts the outcome (nearly) exactly (perfect "
+                                 "separation), so the estimate is not defined", "data")  # fmt: skip
+            beta = outcome.beta
+            cov, cov_type = _covariance(outcome, kind, design.used, len(kept), clusters)
+            ov = None if ranges is None or treated is None else ranges.overlap(passes, treated)
     finally:
+        if passes is not None:
+            passes.close()
+        if ranges is not None:
+            ranges.column.close()
         scratch.close()
         codes_scratch.close()
     return Fit([names[i] for i in kept], beta, cov, design.used,
                seen["positive"] / design.used, cov_type, notes, ov, binary, clusters)  # fmt: skip
+
+
+def _add_gram(seen: dict[str, Any], rows: np.ndarray) -> None:
+    """Add a piece's rows' Gram matrix (upper triangle) and column sums to those so far."""
+    from scipy.linalg import blas
+
+    gram = blas.dsyrk(1.0, rows, trans=1)
+    sums = rows.sum(axis=0)
+    old, have = seen["gram"], seen["gram"].shape[0]
+    if have < gram.shape[0]:
+        gram[:have, :have] += old
+        sums[:have] += seen["sums"]
+    else:
+        gram, sums = old + gram, seen["sums"] + sums  # (no piece is narrower than one before)
+    seen["gram"], seen["sums"] = gram, sums
+
+
+def _treatment_start(seen: dict[str, Any], others: list[int], t_slot: int) -> np.ndarray | None:
+    """The treatment model's first IRLS step from its usual starting means ((t + 1/2) / 2),
+    from the rows' Gram matrix: for a 0/1 treatment every weight is 3/16 and the working
+    response is c (2t - 1), c = log 3 + 4/3, so the step is the least squares fit of that on
+    the covariates. None if that matrix will not factor (the first pass then takes it)."""
+    from scipy.linalg import cho_factor, cho_solve
+
+    gram, sums = seen["gram"], seen["sums"]
+    upper = np.triu(gram) + np.triu(gram, 1).T
+    c = np.log(3.0) + 4.0 / 3.0
+    try:
+        factor = cho_factor(upper[np.ix_(others, others)], lower=False)
+    except (np.linalg.LinAlgError, ValueError):
+        return None
+    start = cho_solve(factor, c * (2.0 * upper[others, t_slot] - sums[others]))
+    return start if np.isfinite(start).all() else None
 
 
 def _stacked(steps: list[Step]) -> np.ndarray:
@@ -312,42 +468,60 @@ def _total(parts: list[np.ndarray | None]) -> np.ndarray:
     return total
 
 
-def _overlap(scratch: Scratch, width: int, m: _Model, t_slot: int) -> dict[str, Any]:
-    """`models.overlap` from the treatment model's passes: fitted probabilities' range in
-    each group (one pass) and the share outside their common support (another)."""
-    from scipy.special import expit
+class _Ranges:
+    """`models.overlap` from the treatment model: its fitted probabilities' range in each
+    group, from one pass over the pieces (made for the outcome's fit when it needs one more;
+    the probabilities wait in a file of their own), and the share outside their common
+    support from the probabilities alone."""
 
-    def fitted(piece: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        t = piece[:, t_slot]
+    def __init__(self, scratch: Scratch, t_slot: int) -> None:
+        self.column = PieceColumn(scratch)
+        self.t_slot = t_slot
+        self.parts = np.zeros((0, 4))
+        self.ready = False
+
+    def piece(self, k: int, piece: np.ndarray, m: _Model) -> list[float]:
+        """Piece k's fitted probabilities (kept) and each group's range of them."""
+        from scipy.special import expit
+
+        t = piece[:, self.t_slot]
         if m.failed or not m.done:  # separation: the treatment is its own prediction
-            return np.where(t == 1, 1.0, 0.0), t
-        return expit(piece[:, m.slots] @ m.beta), t
-
-    def ranges(k: int, piece: np.ndarray) -> list[float]:
-        p, t = fitted(piece)
+            p = np.where(t == 1, 1.0, 0.0)
+        else:
+            p = expit(piece[:, m.slots] @ m.beta)
+        self.column.write(k, p)
         one, zero = p[t == 1], p[t == 0]
         return [one.min(initial=np.inf), one.max(initial=-np.inf),
                 zero.min(initial=np.inf), zero.max(initial=-np.inf)]  # fmt: skip
 
-    parts = np.array(_each_piece(scratch, width, ranges))
-    t_lo, t_hi = float(parts[:, 0].min()), float(parts[:, 1].max())
-    c_lo, c_hi = float(parts[:, 2].min()), float(parts[:, 3].max())
-    low, high = max(t_lo, c_lo), min(t_hi, c_hi)
+    def gather(self, parts: list[list[float] | None]) -> None:
+        self.parts, self.ready = np.array(parts, dtype=float), True
 
-    def outside(k: int, piece: np.ndarray) -> tuple[int, int, float, float]:
-        p, _ = fitted(piece)
-        return (int(np.count_nonzero((p < low) | (p > high))), p.size,
-                float(p.min(initial=np.inf)), float(p.max(initial=-np.inf)))  # fmt: skip
+    def overlap(self, passes: _Passes, m: _Model) -> dict[str, Any]:
+        if not self.ready:
+            self.gather(passes.each(lambda k, piece: self.piece(k, piece, m)))
+        parts = self.parts
+        t_lo, t_hi = float(parts[:, 0].min()), float(parts[:, 1].max())
+        c_lo, c_hi = float(parts[:, 2].min()), float(parts[:, 3].max())
+        low, high = max(t_lo, c_lo), min(t_hi, c_hi)
 
-    counts = np.array(_each_piece(scratch, width, outside))
-    share = float(counts[:, 0].sum() / counts[:, 1].sum())
-    return {
-        "treated": [t_lo, t_hi],
-        "control": [c_lo, c_hi],
-        "common_support": [float(low), float(high)],
-        "share_outside": share,
-        "poor": bool(share > 0.1 or counts[:, 2].min() < 0.01 or counts[:, 3].max() > 0.99),
-    }
+        def outside(k: int) -> int:
+            p = self.column.read(k)
+            return int(np.count_nonzero((p < low) | (p > high)))
+
+        try:
+            count = sum(passes.pool.map(outside, range(len(self.column.at) - 1)))
+        finally:
+            self.column.close()
+        share = float(count / (self.column.at[-1] // 8))
+        # every row is treated (1) or not (0): the groups' ranges span all probabilities
+        return {
+            "treated": [t_lo, t_hi],
+            "control": [c_lo, c_hi],
+            "common_support": [float(low), float(high)],
+            "share_outside": share,
+            "poor": bool(share > 0.1 or min(t_lo, c_lo) < 0.01 or max(t_hi, c_hi) > 0.99),
+        }
 
 
 def _widen_range(seen: dict[str, Any], low: np.ndarray, high: np.ndarray) -> None:

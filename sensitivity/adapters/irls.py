@@ -2,15 +2,18 @@
 pieces are read back from (`glm.py` drives the passes).
 
 `piece_step(x, y, beta, model)` is a pure function of a piece and the coefficients: the R
-factor of sqrt(w) [x, z] at those coefficients and, if asked, the sandwich's sums. A
-distributed engine can map it over partitions, fold the R factors (`rfactor.fold`) and add
-the sums; `glm.py` does the same over two threads.
+factor of sqrt(w) [x, z] at those coefficients and, if asked, the sandwich's sums; with
+`gram`, the cheaper Newton step's parts instead (the information x' W x and the score
+x' (y - mu)). A distributed engine can map it over partitions, fold the R factors
+(`rfactor.fold`) or add the Gram matrices and scores, and add the sums; `glm.py` does the
+same over two threads.
 """
 
 from __future__ import annotations
 
 import os
 import tempfile
+import threading
 from dataclasses import dataclass
 
 import numpy as np
@@ -23,16 +26,18 @@ def _means(eta: np.ndarray, model: str) -> np.ndarray:
     return expit(eta) if model == "logit" else np.exp(eta)
 
 
-def working(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None,
-            model: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:  # fmt: skip
+def working(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str,
+            eta: np.ndarray | None = None
+            ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:  # fmt: skip
     """The working response z, the root of the weights and the means of a piece at `beta`
-    (None: from the starting means); a row whose weight is 0 counts for nothing."""
+    (None: from the starting means; `eta`, if given, is x'beta already); a row whose weight
+    is 0 counts for nothing."""
     with np.errstate(over="ignore", divide="ignore", invalid="ignore"):
         if beta is None:
             mu = (y + 0.5) / 2 if model == "logit" else y + 0.5
             eta = np.log(mu / (1 - mu)) if model == "logit" else np.log(mu)
         else:
-            eta = x @ beta
+            eta = x @ beta if eta is None else eta
             mu = _means(eta, model)
         w = mu * (1.0 - mu) if model == "logit" else mu
         good = (w > 0) & np.isfinite(w)
@@ -53,32 +58,83 @@ def weighted_rows(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None,
 
 @dataclass
 class Step:
-    """What one piece gives at one b: the R factor of sqrt(w) [x, z]; with `sums`, the
-    sandwich's middle sum x x' (y - mu)² and each cluster's score sum (clusters x columns)."""
+    """What one piece gives at one b: the R factor of sqrt(w) [x, z] (or, for a Newton step
+    from the Gram matrix, `gram` the upper triangle of x' W x and `score` x' (y - mu)); with
+    `sums`, the sandwich's middle sum x x' (y - mu)² and each cluster's score sum (clusters x
+    columns)."""
 
-    r: np.ndarray
+    r: np.ndarray | None = None
     meat: np.ndarray | None = None
     scores: np.ndarray | None = None
+    gram: np.ndarray | None = None
+    score: np.ndarray | None = None
+
+
+class Workspace(threading.local):
+    """Arrays a thread reuses from piece to piece (allocating afresh for every piece let the
+    allocator's heaps grow from pass to pass: a peak that moved with thread timing)."""
+
+    def array(self, name: str, rows: int, width: int) -> np.ndarray:
+        """A (rows, width) float array in Fortran order, its contents left as they were."""
+        have = getattr(self, name, None)
+        if have is None or have.size < rows * width:
+            have = np.empty(rows * width)
+            setattr(self, name, have)
+        return have[: rows * width].reshape(width, rows).T
 
 
 def piece_step(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str,
-               sums: bool = False, codes: np.ndarray | None = None,
-               clusters: int = 0) -> Step:  # fmt: skip
-    """One piece's part of one IRLS step at `beta`: a pure function of its inputs."""
+               sums: bool = False, codes: np.ndarray | None = None, clusters: int = 0, *,
+               gram: bool = False, columns: list[int] | None = None,
+               work: Workspace | None = None) -> Step:  # fmt: skip
+    """One piece's part of one IRLS step at `beta`: a pure function of its inputs. `columns`
+    are x's columns in the model (all of them if None; `beta` in their order, x's other
+    columns finite); `work` lends arrays to reuse."""
     from .rfactor import fold
 
-    rows, mu = weighted_rows(x, y, beta, model)
-    step = Step(fold(np.zeros((0, rows.shape[1])), rows, overwrite=True))
+    if columns is not None and beta is not None:  # x'b over x whole: no copy of the columns
+        full = np.zeros(x.shape[1])
+        full[columns] = beta
+        z, root, mu = working(x, y, beta, model, eta=x @ full)
+    else:
+        z, root, mu = working(x if columns is None else x[:, columns], y, beta, model)
+    used = list(range(x.shape[1])) if columns is None else columns
+    k = len(used)
+    rows = np.empty((x.shape[0], k + 1), order="F") if work is None else \
+        work.array("rows", x.shape[0], k + 1)  # fmt: skip
+    for i, col in enumerate(used):
+        np.multiply(x[:, col], root, out=rows[:, i])
+    if gram:
+        from scipy.linalg import blas
+
+        with np.errstate(invalid="ignore"):
+            residual = np.where(root > 0, y - mu, 0.0)
+        score = residual @ x
+        return Step(gram=blas.dsyrk(1.0, rows[:, :k], trans=1),
+                    score=score if columns is None else score[columns])  # fmt: skip
+    np.multiply(z, root, out=rows[:, k])
+    step = Step(fold(np.zeros((0, k + 1)), rows, overwrite=True))
     if sums:
-        scored = x * (y - mu)[:, None]
+        scored = (x if columns is None else x[:, columns]) * (y - mu)[:, None]
         step.meat = scored.T @ scored
         if codes is not None:
             step.scores = np.stack([np.bincount(codes, weights=scored[:, j], minlength=clusters)
-                                    for j in range(x.shape[1])], axis=1)  # fmt: skip
+                                    for j in range(k)], axis=1)  # fmt: skip
     return step
 
 
 # --------------------------------------------------------------------------- the pieces
+def _pread_into(fd: int, out: np.ndarray, offset: int) -> None:
+    """Fill the contiguous array `out` with the file's bytes from `offset`."""
+    view = memoryview(out.reshape(-1)).cast("B")
+    done = 0
+    while done < view.nbytes:
+        got = os.preadv(fd, [view[done:]], offset + done)
+        if got <= 0:
+            raise OSError("the scratch file ended early")
+        done += got
+
+
 class Scratch:
     """Pieces of numbers (the design as read: outcome, then the factor's slots) in a
     temporary file that goes when closed: each pass reads them back, one piece at a time."""
@@ -94,9 +150,16 @@ class Scratch:
         self.pieces.append((self.end, data.shape[1], data.shape[0]))
         self.end += data.nbytes
 
-    def read(self, k: int, width: int) -> np.ndarray:
-        """Piece k, widened with zeros to `width` columns (levels met after it)."""
+    def read(self, k: int, width: int, work: Workspace | None = None,
+             name: str = "piece") -> np.ndarray:  # fmt: skip
+        """Piece k, widened with zeros to `width` columns (levels met after it); into
+        `work`'s array `name` if given (valid until that thread reads another piece)."""
         offset, rows, have = self.pieces[k]
+        if work is not None:
+            piece = work.array(name, rows, max(width, have))
+            _pread_into(self.file.fileno(), piece[:, :have].T, offset)
+            piece[:, have:] = 0.0
+            return piece
         raw = os.pread(self.file.fileno(), rows * have * 8, offset)
         piece = np.frombuffer(raw, float).reshape(have, rows).T
         if have >= width:
@@ -108,6 +171,28 @@ class Scratch:
     def done(self) -> None:
         """The writing is over: what was written is there for `read` (from any thread)."""
         self.file.flush()
+
+    def close(self) -> None:
+        self.file.close()
+
+
+class PieceColumn:
+    """One number a row for the pieces of a `Scratch`, in a temporary file of its own:
+    written and read a piece at a time, from any thread, in any order."""
+
+    def __init__(self, scratch: Scratch) -> None:
+        self.file = tempfile.TemporaryFile()
+        self.at = np.cumsum([0] + [rows * 8 for _, rows, _ in scratch.pieces]).tolist()
+
+    def write(self, k: int, values: np.ndarray) -> None:
+        data = np.ascontiguousarray(values, dtype=float)
+        if os.pwrite(self.file.fileno(), data.data, self.at[k]) != data.nbytes:
+            raise OSError("the scratch file was not written whole")
+
+    def read(self, k: int) -> np.ndarray:
+        out = np.empty((self.at[k + 1] - self.at[k]) // 8)
+        _pread_into(self.file.fileno(), out, self.at[k])
+        return out
 
     def close(self) -> None:
         self.file.close()
