@@ -231,7 +231,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     from .batches import file_source, frame_source
     from .design import check_names, find_treatment, no_interaction
     from .onepass import _Header, _kept
-    from .rfactor import TriangularFactor, one_blas_thread, plain_design, plain_terms
+    from .rfactor import one_blas_thread, plain_design, plain_terms
 
     if model not in MODELS:
         raise InputError(f"`model` must be one of {', '.join(MODELS)} here; got {model!r}", "model")
@@ -252,51 +252,24 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         raise InputError(
             f"`errors` cluster:{cluster}: {cluster!r} is not a column of the data", "errors"
         )
-    scratch, codes_scratch = Scratch(), Scratch()
-    first = TriangularFactor()
-    table: dict[Any, int] = {}
-    seen: dict[str, Any] = {"positive": 0, "low": np.zeros(0), "high": np.zeros(0),
-                            "binary": np.zeros(0, bool), "gram": np.zeros((0, 0)),
-                            "sums": np.zeros(0)}  # fmt: skip
+    reading = _Reading(model, formula, cluster, overlap)
+    restartable = source.batches
 
-    def sink(rows: np.ndarray, extras: dict[str, tuple[str, Any]]) -> None:
-        y = rows[:, 0]
-        if model == "logit" and ((y < 0) | (y > 1)).any():
-            raise InputError(f"`formula` {formula!r} could not be fitted (logit): endog must "
-                             "be in the unit interval.", "formula")  # fmt: skip
-        if model == "poisson" and (y < 0).any():
-            raise InputError(f"`formula` {formula!r} could not be fitted (poisson): the "
-                             "outcome must not be negative", "formula")  # fmt: skip
-        scratch.add(rows)
-        seen["positive"] += int(np.count_nonzero(y > 0))
-        if rows.shape[0]:
-            _widen_range(seen, rows.min(axis=0), rows.max(axis=0))
-            zero_one = ((rows == 0) | (rows == 1)).all(axis=0)
-            old = seen["binary"]
-            both = min(old.size, zero_one.size)
-            merged = zero_one.copy() if zero_one.size >= old.size else old.copy()
-            merged[:both] = old[:both] & zero_one[:both]
-            seen["binary"] = merged
-            if overlap:  # the treatment's first step, should its overlap be fitted
-                _add_gram(seen, rows)
-        if cluster is not None:
-            codes = _cluster_codes(*extras[cluster], table)
-            if (codes < 0).any():
-                raise InputError(f"`errors` cluster:{cluster}: the column has missing values in "
-                                 "rows the fit uses", "errors")  # fmt: skip
-            codes_scratch.add(codes[:, None].astype(float))
-        z, root, _ = working(rows[:, 1:], y, None, model)
-        weighted = np.multiply(rows, root[:, None], order="F")
-        np.multiply(z, root, out=weighted[:, 0])  # z in the outcome's slot 0
-        first.add(weighted)
+    def batches(wanted: list[str], forced: dict[str, str]) -> Any:
+        reading.start()  # (again, when a column's type changed partway: from the top)
+        return restartable(wanted, forced)
 
+    source.batches = batches
     passes, ranges = None, None
     try:
         with one_blas_thread():
-            design = plain_design(source, *plain, progress or (lambda rows: None), sink=sink,
-                                  extra=(cluster,) if cluster else (), factor=False)  # fmt: skip
-        scratch.done()
-        codes_scratch.done()
+            design = plain_design(source, *plain, progress or (lambda rows: None),
+                                  sink=reading.sink, extra=(cluster,) if cluster else (),
+                                  factor=False)  # fmt: skip
+            reading.finish()
+        scratch, codes_scratch, first, seen = (reading.scratch, reading.codes, reading.first,
+                                               reading.seen)  # fmt: skip
+        table = reading.table
         if design.used == 0:
             raise InputError("`data`: no row has a value in every column the formula uses", "data")
         names = design.names
@@ -393,10 +366,89 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
             passes.close()
         if ranges is not None:
             ranges.column.close()
-        scratch.close()
-        codes_scratch.close()
+        reading.close()
     return Fit([names[i] for i in kept], beta, cov, design.used,
                seen["positive"] / design.used, cov_type, notes, ov, binary, clusters)  # fmt: skip
+
+
+class _Reading:
+    """What the reading pass keeps of each piece, taken in a second thread while the next
+    piece is made (so the main thread only builds pieces): the piece itself in the scratch
+    file, each column's range and whether it is 0/1, the rows' Gram matrix (the treatment
+    model's first step) and the R factor of the first step's weighted rows (the rank, and
+    the outcome model's first step). `start` begins again from nothing."""
+
+    def __init__(self, model: str, formula: str, cluster: str | None, overlap: bool) -> None:
+        self.model, self.formula, self.cluster, self.overlap = model, formula, cluster, overlap
+        self.behind: Any = None
+        self.scratch = self.codes = None
+
+    def start(self) -> None:
+        from ..common.overlap import WriteBehind
+        from .rfactor import TriangularFactor
+
+        self.close()
+        self.scratch, self.codes = Scratch(), Scratch()
+        self.first = TriangularFactor()
+        self.table: dict[Any, int] = {}
+        self.seen: dict[str, Any] = {"positive": 0, "low": np.zeros(0), "high": np.zeros(0),
+                                     "binary": np.zeros(0, bool), "gram": np.zeros((0, 0)),
+                                     "sums": np.zeros(0)}  # fmt: skip
+        self.behind = WriteBehind(self._take)
+
+    def sink(self, rows: np.ndarray, extras: dict[str, tuple[str, Any]]) -> None:
+        """A piece's kept rows (outcome first; the pass lets them be kept) and extra cells."""
+        y, formula, model = rows[:, 0], self.formula, self.model
+        if model == "logit" and ((y < 0) | (y > 1)).any():
+            raise InputError(f"`formula` {formula!r} could not be fitted (logit): endog must "
+                             "be in the unit interval.", "formula")  # fmt: skip
+        if model == "poisson" and (y < 0).any():
+            raise InputError(f"`formula` {formula!r} could not be fitted (poisson): the "
+                             "outcome must not be negative", "formula")  # fmt: skip
+        if self.cluster is not None:
+            codes = _cluster_codes(*extras[self.cluster], self.table)
+            if (codes < 0).any():
+                raise InputError(f"`errors` cluster:{self.cluster}: the column has missing "
+                                 "values in rows the fit uses", "errors")  # fmt: skip
+            self.codes.add(codes[:, None].astype(float))  # type: ignore[union-attr]
+        self.behind.put(rows)
+
+    def _take(self, rows: np.ndarray) -> None:
+        """(In the second thread, a piece at a time, in order.)"""
+        seen, y = self.seen, rows[:, 0]
+        self.scratch.add(rows)  # type: ignore[union-attr]
+        seen["positive"] += int(np.count_nonzero(y > 0))
+        if rows.shape[0]:
+            _widen_range(seen, rows.min(axis=0), rows.max(axis=0))
+            zero_one = ((rows == 0) | (rows == 1)).all(axis=0)
+            old = seen["binary"]
+            both = min(old.size, zero_one.size)
+            merged = zero_one.copy() if zero_one.size >= old.size else old.copy()
+            merged[:both] = old[:both] & zero_one[:both]
+            seen["binary"] = merged
+            if self.overlap:  # the treatment's first step, should its overlap be fitted
+                _add_gram(seen, rows)
+        z, root, _ = working(rows[:, 1:], y, None, self.model)
+        np.multiply(rows, root[:, None], out=rows)  # the piece is written: weighted in place
+        np.multiply(z, root, out=rows[:, 0])  # z in the outcome's slot 0
+        self.first.add(rows)
+
+    def finish(self) -> None:
+        """Wait for the last piece; the scratch files are then there to be read back."""
+        self.behind.close()
+        self.scratch.done()  # type: ignore[union-attr]
+        self.codes.done()  # type: ignore[union-attr]
+
+    def close(self) -> None:
+        if self.behind is not None:
+            behind, self.behind = self.behind, None
+            try:
+                behind.close()
+            except Exception:  # noqa: BLE001, S110 - the error that stopped the pass is raised
+                pass
+        for held in (self.scratch, self.codes):
+            if held is not None:
+                held.close()
 
 
 def _add_gram(seen: dict[str, Any], rows: np.ndarray) -> None:

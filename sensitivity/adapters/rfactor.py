@@ -218,7 +218,8 @@ def plain_design(source: Source, outcome: str, terms: list[Term], intercept: boo
     `sink`, if given, is handed each piece's kept rows as read (column 0 the outcome, the
     others in the factor's slots, before any shift; to be used at once) and the `extra`
     columns' cells on those rows (missing cells there do not leave a row out). With `factor`
-    False the rows are not folded (the sink folds its own)."""
+    False the rows are not folded (the sink folds its own), and the sink may keep them: the
+    pass does not touch a piece's rows again."""
     folding = factor
     wanted = list(dict.fromkeys([outcome] + [t.column for t in terms] + list(extra)))
 
@@ -259,21 +260,22 @@ def plain_design(source: Source, outcome: str, terms: list[Term], intercept: boo
                     keep &= codes >= 0
                     for i, level in enumerate(term.levels):
                         slot = slots.setdefault(("level", term.name, level), len(slots))
-                        parts.append((slot, (codes == i).astype(float)))
+                        parts.append((slot, codes == i))  # 0/1 as the block takes it
                 extras = {name: batch[name] for name in extra}
                 kept = int(keep.sum())
                 block = factor.block(kept, len(slots))
                 top = block.shape[0] - kept
+                every = kept == rows  # no row left out: the columns go in as they are
                 for slot, values in parts:
-                    block[top:, slot] = values[keep]
+                    block[top:, slot] = values if every else values[keep]
                 if sink is not None:
                     sink(block[top:], {name: _kept_cells(kind, values, keep)
                                        for name, (kind, values) in extras.items()})  # fmt: skip
-                if intercept:  # numbers less a constant: an offset costs no digits (see _shifted)
-                    _shifted(block[top:], [0] + [slots[("x", t.name)] for t in terms
-                                                 if not t.categorical], shift)  # fmt: skip
-                moments.add(block[top:, 0])
-                if folding:
+                if folding:  # (the sink, if folding is its own, may keep the block)
+                    if intercept:  # numbers less a constant: an offset costs no digits
+                        _shifted(block[top:], [0] + [slots[("x", t.name)] for t in terms
+                                                     if not t.categorical], shift)  # fmt: skip
+                    moments.add(block[top:, 0])
                     factor.add(block)
                 read, used = read + rows, used + kept
                 progress(read)
@@ -336,9 +338,24 @@ def _level_codes(term: Term, values: Any, kind: str) -> np.ndarray:
         codes = pc.index_in(values, value_set=term.table)
     if codes is None:  # nothing met yet, and every cell of this batch missing
         return np.full(len(values), -1, np.int64)
-    import polars as pl
+    return _filled_codes(codes)
 
-    return pl.Series(values=codes).fill_null(-1).to_numpy().astype(np.int64)
+
+def _filled_codes(codes: Any) -> np.ndarray:
+    """An Arrow array of int32 codes as int64, missing ones -1: read from its buffers (a
+    polars fill_null cost 3 ms a call, and Arrow's own imports pandas)."""
+    import pyarrow as pa
+
+    if isinstance(codes, pa.ChunkedArray):
+        codes = codes.combine_chunks()
+    n, at = len(codes), codes.offset
+    validity, data = codes.buffers()[:2]
+    out = np.frombuffer(data, np.int32, count=at + n)[at:].astype(np.int64)
+    if codes.null_count:
+        valid = np.unpackbits(np.frombuffer(validity, np.uint8), count=at + n,
+                              bitorder="little")[at:].astype(bool)  # fmt: skip
+        out[~valid] = -1
+    return out
 
 
 def _plain_layout(terms: list[Term], intercept: bool, slots: dict[tuple, int],
