@@ -88,13 +88,17 @@ class _Model:
     the work. Newton's steps shrink quadratically, so the size of the next step is foretold
     by the last two, s² / s' times s; a pass whose step is foretold to be the last is a QR
     pass, and so decides convergence as a QR-only fit would. A Gram step found to be the
-    last is not taken: the pass is made again, by QR, at the same coefficients. A Gram step
+    last is not taken: the pass is made again, by QR, at the same coefficients (a model whose
+    covariance is not reported, the treatment's for the overlap, ends with its Gram step:
+    only its coefficients are used, as exact that way as by QR). A Gram step
     solves for the step, not the coefficients, so its rounding is relative to the step
     (tiny near the end), not to the coefficients; a Gram matrix that will not factor, or is
     ill-conditioned, or steps that stop shrinking, send the fit to QR passes for good."""
 
-    def __init__(self, kind: str, response: int, slots: list[int], limit: int) -> None:
+    def __init__(self, kind: str, response: int, slots: list[int], limit: int,
+                 reported: bool = True) -> None:  # fmt: skip
         self.kind, self.response, self.slots = kind, response, slots
+        self.reported = reported  # its covariance is reported: it ends with a QR pass
         self.beta: np.ndarray | None = None
         self.steps: list[Step] = []
         self.r = np.zeros((0, 0))
@@ -113,7 +117,7 @@ class _Model:
     def mode(self) -> str:
         if self.qr_only or self.confirm or self.beta is None:
             return "qr"
-        if len(self.changes) >= 2 and self.changes[-2] > 0:
+        if self.reported and len(self.changes) >= 2 and self.changes[-2] > 0:
             last, before = self.changes[-1], self.changes[-2]
             scale = max(1.0, float(np.max(np.abs(self.beta), initial=0.0)))
             if last**3 / before**2 <= FORETOLD * TOL * scale:
@@ -150,8 +154,10 @@ class _Model:
             return
         change = float(np.max(np.abs(new - self.beta), initial=0.0))
         if change <= TOL * max(1.0, float(np.max(np.abs(new), initial=0.0))):
-            self.confirm = True
-            return
+            if self.reported:
+                self.confirm = True
+                return
+            self.done = True  # only its coefficients are used: the Gram step's are those
         self.grams += 1
         if _rcond(gram, factor[0]) < MIN_RCOND or (
             self.grams >= 4 and change > self.changes[-1] / 2
@@ -301,7 +307,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         if overlap and others and low[t_slot] == 0 and high[t_slot] == 1 \
                 and any(low[s] != high[s] for s in others) \
                 and seen["binary"][t_slot]:  # fmt: skip
-            treated = _Model("logit", t_slot, others, MAX_STEPS)
+            treated = _Model("logit", t_slot, others, MAX_STEPS, reported=False)
             treated.beta = _treatment_start(seen, others, t_slot)
             treated.taken = int(treated.beta is not None)
             models.append(treated)

@@ -92,26 +92,20 @@ def piece_step(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str
     columns finite); `work` lends arrays to reuse."""
     from .rfactor import fold
 
+    used = list(range(x.shape[1])) if columns is None else columns
+    k = len(used)
+    rows = np.empty((x.shape[0], k + 1), order="F") if work is None else \
+        work.array("rows", x.shape[0], k + 1)  # fmt: skip
+    if gram:
+        return _gram_step(x, y, beta, model, used, rows[:, :k], columns is not None)
     if columns is not None and beta is not None:  # x'b over x whole: no copy of the columns
         full = np.zeros(x.shape[1])
         full[columns] = beta
         z, root, mu = working(x, y, beta, model, eta=x @ full)
     else:
         z, root, mu = working(x if columns is None else x[:, columns], y, beta, model)
-    used = list(range(x.shape[1])) if columns is None else columns
-    k = len(used)
-    rows = np.empty((x.shape[0], k + 1), order="F") if work is None else \
-        work.array("rows", x.shape[0], k + 1)  # fmt: skip
     for i, col in enumerate(used):
         np.multiply(x[:, col], root, out=rows[:, i])
-    if gram:
-        from scipy.linalg import blas
-
-        with np.errstate(invalid="ignore"):
-            residual = np.where(root > 0, y - mu, 0.0)
-        score = residual @ x
-        return Step(gram=blas.dsyrk(1.0, rows[:, :k], trans=1),
-                    score=score if columns is None else score[columns])  # fmt: skip
     np.multiply(z, root, out=rows[:, k])
     step = Step(fold(np.zeros((0, k + 1)), rows, overwrite=True))
     if sums:
@@ -121,6 +115,30 @@ def piece_step(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str
             step.scores = np.stack([np.bincount(codes, weights=scored[:, j], minlength=clusters)
                                     for j in range(k)], axis=1)  # fmt: skip
     return step
+
+
+def _gram_step(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str,
+               used: list[int], rows: np.ndarray, some: bool) -> Step:  # fmt: skip
+    """x' W x (upper triangle, from sqrt(w) x built in `rows`) and the score x' (y - mu) over
+    the rows whose weight is positive (those a QR step counts), at `beta`; `some`: only the
+    `used` columns of x are the model's."""
+    from scipy.linalg import blas
+
+    if beta is None:
+        raise ValueError("a Gram step starts from coefficients")
+    full = np.zeros(x.shape[1])
+    full[used] = beta
+    eta = x @ full if some else x @ beta
+    with np.errstate(over="ignore", invalid="ignore"):
+        mu = _means(eta, model)
+        w = mu * (1.0 - mu) if model == "logit" else mu
+        good = (w > 0) & np.isfinite(w)
+        root = np.sqrt(np.where(good, w, 0.0))
+        residual = np.where(good, y - mu, 0.0)
+    for i, col in enumerate(used):
+        np.multiply(x[:, col], root, out=rows[:, i])
+    score = residual @ x
+    return Step(gram=blas.dsyrk(1.0, rows, trans=1), score=score[used] if some else score)
 
 
 # --------------------------------------------------------------------------- the pieces
