@@ -280,7 +280,8 @@ def _text_frames(path: Path, delimiter: str, argument: str) -> Any:
     header = text_header(path, delimiter, argument)
     rows = 0
     end = 0
-    for head, body in byte_chunks(path, FRAME_BYTES, first=FIRST_FRAME_BYTES):
+    first = min(FIRST_FRAME_BYTES, FRAME_BYTES)
+    for head, body in byte_chunks(path, FRAME_BYTES, first=first):
         end += len(body) + (end == 0) * len(head)
         try:
             frame = pl.read_csv(head + body, separator=delimiter, infer_schema=False,

@@ -165,3 +165,41 @@ class WriteBehind:
             _put(self._queue, _END, self._stop)
             self._worker.join()
         self._raise()
+
+
+class InOrder:
+    """`work(item)` for each item given to `put`, in up to `workers` threads at once, and
+    `then(result)` for the results in the order the items came, in one more thread (see
+    `WriteBehind`): a slow stage (turning a table into CSV text) that would otherwise hold
+    the whole stream to one piece at a time. At most `workers + 1` items are in hand; an
+    error in either is raised by the next `put` or by `close`.
+
+    Examples
+    --------
+    >>> done = []
+    >>> stage = InOrder(lambda x: x * x, done.append)
+    >>> for x in range(5):
+    ...     stage.put(x)
+    >>> stage.close()
+    >>> done
+    [0, 1, 4, 9, 16]
+    """
+
+    def __init__(self, work: Callable[[Any], Any], then: Callable[[Any], None],
+                 workers: int = 2) -> None:  # fmt: skip
+        from concurrent.futures import ThreadPoolExecutor
+
+        # the pool's threads are joined before the interpreter shuts down (concurrent.futures'
+        # own exit hook), so none is left inside native code at exit
+        self._pool = ThreadPoolExecutor(workers, thread_name_prefix="in-order")
+        self._work = work
+        self._then = WriteBehind(lambda future: then(future.result()))
+
+    def put(self, item: Any) -> None:
+        self._then.put(self._pool.submit(self._work, item))
+
+    def close(self) -> None:
+        try:
+            self._then.close()
+        finally:
+            self._pool.shutdown(wait=True, cancel_futures=True)

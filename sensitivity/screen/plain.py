@@ -119,3 +119,25 @@ def compute_plain(route: np.ndarray, values: np.ndarray) -> dict[str, np.ndarray
             "evalue": evalue_of_rr(rr),
             "evalue_ci": np.where(given(rr_lower), evalue_of_limits(rr_lower, rr_upper), np.nan),
         }
+
+
+def compute_plain_new(route: np.ndarray, values: np.ndarray) -> dict[str, np.ndarray]:
+    from ..common.scales import _hr_common
+
+    rr = values.copy()  # the identity route: the ratio as read
+    for code, convert in ((1, np.sqrt), (2, _hr_common)):
+        at = np.flatnonzero(route == code)
+        if at.size:
+            with np.errstate(invalid="ignore", divide="ignore"):
+                rr[:, at] = convert(values[:, at])
+    off = np.flatnonzero(route < 0)
+    if off.size:
+        rr[:, off] = np.nan
+    lower, upper = rr[1], rr[2]
+    # the limit nearest 1 (1 when the interval covers it), as `evalue_of_limits` takes it
+    nearest = np.where(lower > 1.0, lower, np.where(upper < 1.0, upper, 1.0))
+    with np.errstate(invalid="ignore"):
+        both = evalue_of_rr(np.stack((rr[0], nearest)))
+    both[1][np.isnan(lower)] = np.nan
+    return {"rr": rr[0], "rr_lower": lower, "rr_upper": upper,
+            "evalue": both[0], "evalue_ci": both[1]}  # fmt: skip
