@@ -144,7 +144,7 @@ def _may_start_a_formula(column: Any) -> bool:
     Chunk by chunk, so that no views are copied together. True when that layout is not at
     hand (the full check runs)."""
     for chunk in column.get_chunks():
-        found = _string_views(chunk, _risky_start)
+        found = _string_views(chunk.rename(""), _risky_start)  # a name may hold a NUL
         if found is None or found:
             return True
     return False
