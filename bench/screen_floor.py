@@ -3,9 +3,9 @@ writing a table of the same shape and about the same size (the input's cells, wh
 and the screen's eleven columns, each column of the screen's type, within 5% of its bytes)
 with nothing computed, through its streaming engine. No screen can be faster than reading and
 writing its own output, so this bounds the speed-up any implementation could show here. (The
-streaming engine's read-ahead
-grows with the file; the screen reads in pieces instead.) DST's extension picks the format:
-.csv, .parquet, or .json (rows as NDJSON, polars' fastest JSON writer).
+streaming engine's read-ahead grows with the file; the screen reads in pieces instead.) DST's
+extension picks the format: .csv, .parquet, or .json (rows as NDJSON, polars' fastest JSON
+writer).
 Usage: python bench/screen_floor.py SRC DST"""
 
 import sys
