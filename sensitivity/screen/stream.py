@@ -283,10 +283,13 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
     if tally is not None:
         tally.add(scale, reasons, out, states, positions)
 
+    # a column only the core fills (or the level, read from text alone) is missing on every
+    # row unless one of the core's rows has it
+    empty = [k for k in (*_CORE_ONLY, "as_read_level")
+             if not rest.size or np.isnan((out | read)[k][rest]).all()]  # fmt: skip
     added = text | {k: pl.Series(values=v, nan_to_null=True) for k, v in (out | read).items()
-                    if rest.size or k not in _CORE_ONLY}  # fmt: skip
-    added |= {k: pl.repeat(None, n, dtype=pl.Float64, eager=True) for k in _CORE_ONLY
-              if k not in added}  # fmt: skip
+                    if k not in empty}  # fmt: skip
+    added |= {k: pl.repeat(None, n, dtype=pl.Float64, eager=True) for k in empty}
     added |= {k: _words(FLAG_WORDS, v) for k, v in states.items()}
     return frame.with_columns(added[k].alias(k) for k in names)
 
