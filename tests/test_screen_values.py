@@ -203,3 +203,29 @@ def test_a_tally_pickles_with_its_values():
     entry = back.result((), "t").per_scale["rr"]
     assert entry["median_evalue"] == np.median(values) == 2.5
     assert entry["median_evalue_ci"] == np.median(values / 2 + 0.5)
+
+
+def test_dask_partitions_spilled_give_the_single_table_summary():
+    """The demo's invented table screened by Dask in four partitions, each tally's values on
+    file (two held in memory): the summary is the single-table one, medians bit for bit."""
+    import warnings
+
+    import pandas as pd
+    from conftest import ROOT
+
+    from sensitivity.screen.stream import screen_summary
+
+    dask = pytest.importorskip("dask", reason="the dask extra is not installed")
+    dd = pytest.importorskip("dask.dataframe", reason="the dask extra is not installed")
+    table = pd.read_csv(ROOT / "demo" / "published_results.csv", dtype=str,
+                        keep_default_na=False)  # fmt: skip
+    parts = [table.iloc[a : a + 10] for a in range(0, len(table), 10)]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", UserWarning)  # dask's note on unknown divisions
+        ddf = dd.from_delayed([dask.delayed(p) for p in parts], meta=parts[0].iloc[:0],
+                              verify_meta=False)  # fmt: skip
+    options = {"from_text": "result", "threshold": 1.5}
+    reference = screen_summary(table, **options).to_dict()
+    with held(2):
+        got = screen_summary(ddf, **options).to_dict()
+    assert got["scales"] == reference["scales"]
