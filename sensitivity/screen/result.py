@@ -180,13 +180,14 @@ def _entry(k: int) -> dict:
 
 
 def _temporary():  # an anonymous file: no name in the folder, gone when closed or at exit
+    # (the system's temporary folder, TMPDIR)
     return tempfile.TemporaryFile(buffering=0)
 
 
 class Values:
     """Numbers kept for an exact median with flat memory: up to `HELD_VALUES` in memory, the
     rest appended (raw float64) to an anonymous temporary file, closed when this store is
-    collected or at exit (on POSIX it has no name from the start, so nothing is left behind,
+    collected or at exit (on POSIX its name goes as it is made, so nothing is left behind,
     also after an error, Ctrl-C or a kill). Where no temporary file can be made or written,
     the values stay in memory: the median is exact either way. Pickles as its values."""
 
