@@ -62,7 +62,6 @@ class Tally:
 
         rows = np.bincount(slot, minlength=width)
         bins = {}
-        screened = slot > 0
         for key in ("evalue", "evalue_ci"):
             with np.errstate(invalid="ignore", divide="ignore"):
                 idx = np.log(values[key])  # log(v) / _TOP * _EDGES, at most _EDGES, in place
@@ -70,14 +69,16 @@ class Tally:
                 np.multiply(idx, _EDGES, out=idx)
                 np.minimum(idx, _EDGES, out=idx)
             finite = np.isfinite(idx)
-            finite &= screened
-            # bin-major, so the counts are only as long as the largest E-value needs
-            spot = idx[finite].astype(np.int64)
+            np.copyto(idx, 0.0, where=~finite)
+            # bin-major, so the counts are only as long as the largest E-value needs; a row
+            # with no value counts in bin 0 of slot 0 (the flagged rows' column, never read),
+            # so no row is picked out by a mask
+            spot = idx.astype(np.int64)
             spot *= width
-            spot += slot[finite]
+            spot += np.where(finite, slot, 0)
             counts = np.bincount(spot, minlength=width)
             bins[key] = np.pad(counts, (0, -counts.size % width)).reshape(-1, width)
-            bins[f"{key}_n"] = per_scale(finite)
+            bins[f"{key}_n"] = bins[key].sum(axis=0)  # per scale: the values counted
         if self.threshold is not None:
             ci = values["evalue_ci"]
             with np.errstate(invalid="ignore"):
