@@ -58,9 +58,7 @@ def test_a_command_that_fails_while_writing_leaves_no_output(run, tmp_path, monk
     def broken(self, piece):
         raise OSError(28, "No space left on device")
 
-    # CSV text is made by _csv_text, every other format's piece written by _write_piece
     monkeypatch.setattr(streams.TableWriter, "_write_piece", broken)
-    monkeypatch.setattr(streams.TableWriter, "_csv_text", broken)
     res = run("screen", src, "-o", out)
     assert res.exit_code == 1 and "No space left" in res.stderr
     assert not out.exists() and _leftovers(tmp_path) == []

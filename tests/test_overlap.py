@@ -11,7 +11,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from sensitivity.common.overlap import InOrder, WriteBehind, read_ahead
+from sensitivity.common.overlap import WriteBehind, read_ahead
 
 
 @settings(max_examples=30, deadline=None)
@@ -65,36 +65,3 @@ def test_an_error_while_writing_behind_is_raised_by_put_or_close():
             behind.put(i)
             time.sleep(0.001)
         behind.close()
-
-
-@settings(max_examples=25, deadline=None)
-@given(st.lists(st.floats(0, 0.003), max_size=30), st.integers(1, 3))
-def test_work_in_several_threads_comes_out_in_order(delays, workers):
-    # each item's work takes its own time (later items may finish first); the results are
-    # handed on in the order the items came
-    done: list[int] = []
-
-    def work(item: tuple[int, float]) -> int:
-        time.sleep(item[1])
-        return item[0]
-
-    stage = InOrder(work, done.append, workers)
-    for item in enumerate(delays):
-        stage.put(item)
-    stage.close()
-    assert done == list(range(len(delays)))
-
-
-def test_an_error_in_ordered_work_is_raised_in_the_caller():
-    def work(item: int) -> int:
-        if item == 3:
-            raise ValueError("bad piece")
-        return item
-
-    done: list[int] = []
-    stage = InOrder(work, done.append)
-    with pytest.raises(ValueError, match="bad piece"):
-        for item in range(50):
-            stage.put(item)
-        stage.close()
-    assert done == [0, 1, 2]

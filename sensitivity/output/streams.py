@@ -271,20 +271,14 @@ class TableWriter:
             # polars writes CSV three to five times faster than pyarrow here, and JSON rows
             # ten times faster than Python objects (MEASURED.md); in a second thread, while
             # the caller works on the next piece
-            from ..common.overlap import InOrder, WriteBehind
+            from ..common.overlap import WriteBehind
 
             if self._behind is None:
                 if self.kind != "parquet":
                     self._sink = open(self._temporary(), "wb")  # noqa: SIM115 - closed in close()
                 if self.kind == "json":
                     self._sink.write(b'{"rows":[')
-                # CSV text is made for two pieces at once (polars' writer alone leaves a core
-                # idle part of the time) and put on disk in order
-                self._behind = (
-                    InOrder(self._csv_text, self._sink.write)
-                    if self.kind in ("csv", "tsv")
-                    else WriteBehind(self._write_piece)
-                )
+                self._behind = WriteBehind(self._write_piece)
             self._behind.put((frame, first))
             return
         if self._rows > 1_048_575:
@@ -295,17 +289,6 @@ class TableWriter:
             )
         self._frames.append(frame)
 
-    def _csv_text(self, piece: tuple[Any, bool]) -> Any:
-        """A piece as CSV (or TSV) bytes, its text cells defused (the header with the first)."""
-        import io
-
-        frame, first = piece
-        text = io.BytesIO()
-        defuse_frame(defuse_header(frame), self._trusted).write_csv(
-            text, include_header=first, separator="," if self.kind == "csv" else "\t"
-        )
-        return text.getbuffer()
-
     def _write_piece(self, piece: tuple[Any, bool]) -> None:
         frame, first = piece
         if self.kind == "parquet":
@@ -315,6 +298,13 @@ class TableWriter:
             if self._writer is None:
                 self._writer = pq.ParquetWriter(str(self._temporary()), arrow.schema)
             self._writer.write_table(arrow.cast(self._writer.schema))
+            return
+        if self.kind != "json":
+            separator = "," if self.kind == "csv" else "\t"
+            frame = defuse_header(frame)
+            defuse_frame(frame, self._trusted).write_csv(
+                self._sink, include_header=first, separator=separator
+            )
             return
         if not frame.height:
             return
