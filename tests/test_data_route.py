@@ -217,6 +217,7 @@ def _qr_only_and_mixed(monkeypatch, *args, **kwargs):
     """The fit with every pass by QR (the route before Newton steps from x' W x) and the fit
     as it runs now, with the passes each made of each kind, counted."""
     import sensitivity.adapters.glm as glm
+    import sensitivity.adapters.glm_passes as passes
 
     fits, kinds = [], []
     real = glm.piece_step
@@ -227,7 +228,7 @@ def _qr_only_and_mixed(monkeypatch, *args, **kwargs):
             seen["gram" if k.get("gram") else "qr"] += 1
             return real(*a, **k)
 
-        monkeypatch.setattr(glm, "GRAM", gram)
+        monkeypatch.setattr(passes, "GRAM", gram)
         monkeypatch.setattr(glm, "piece_step", counted)
         fits.append(glm_one_pass(*args, **kwargs))
         kinds.append(seen)
@@ -276,7 +277,7 @@ def test_any_table_gives_the_qr_only_numbers(n, model, effect, offset, seed):
     # of the fit by QR passes alone: coefficients and classical errors to 1e-10. (With a
     # covariate near 10,000 the QR-only fit itself moves by 2e-11 when only the batch size
     # changes, MEASURED: its own rounding; on data like the RAND extract above, 1e-12.)
-    import sensitivity.adapters.glm as glm
+    import sensitivity.adapters.glm_passes as passes
 
     rng = np.random.default_rng(seed)
     x = rng.normal(size=n)
@@ -286,13 +287,13 @@ def test_any_table_gives_the_qr_only_numbers(n, model, effect, offset, seed):
                   else rng.poisson(np.exp(eta))).astype(float)  # fmt: skip
     fits = []
     for gram in (False, True):
-        glm.GRAM, before = gram, glm.GRAM
+        passes.GRAM, before = gram, passes.GRAM
         try:
             fits.append(glm_one_pass(frame, "y ~ t + x", "t", model))
         except InputError as err:  # separation: both routes must say so
             fits.append(str(err))
         finally:
-            glm.GRAM = before
+            passes.GRAM = before
     if isinstance(fits[0], str) or isinstance(fits[1], str):
         assert fits[0] == fits[1]
         return
@@ -318,6 +319,25 @@ def test_a_column_whose_type_changes_partway_is_read_once(model, tmp_path, monke
     monkeypatch.setattr(files, "CHUNK_BYTES", 2048)
     got = glm_one_pass(path, "y ~ t + w", "t", model)
     _agrees(got, _statsmodels(pd.read_csv(path), "y ~ t + w", model))
+
+
+def test_pieces_that_keep_no_row_leave_nothing_on_the_terminal(capfd):
+    # One row a piece, a third of them missing a cell: pieces of no rows reach every kind of
+    # pass; the numbers are statsmodels' (on the rows it keeps) and BLAS prints no complaint
+    # (dsyrk refuses an empty piece, on the process's own stderr).
+    rng = np.random.default_rng(0)
+    n = 200
+    frame = pd.DataFrame({"x": rng.normal(size=n), "t": rng.binomial(1, 0.5, n).astype(float)})
+    frame["y"] = rng.binomial(1, 1 / (1 + np.exp(-frame["x"])), n).astype(float)
+    frame.loc[::3, "x"] = np.nan
+    batches.BATCH_ROWS, before = 1, batches.BATCH_ROWS
+    try:
+        got = glm_one_pass(frame, "y ~ t + x", "t", "logit", errors="hc0")
+    finally:
+        batches.BATCH_ROWS = before
+    _agrees(got, _statsmodels(frame.dropna(), "y ~ t + x", "logit", "hc0"))
+    captured = capfd.readouterr()
+    assert captured.err == "" and captured.out == ""
 
 
 def test_glm_input_errors(spector, randhie):

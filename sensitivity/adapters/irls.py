@@ -132,9 +132,12 @@ def _gram_step(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str
 
     if beta is None:
         raise ValueError("a Gram step starts from coefficients")
-    full = np.zeros(x.shape[1])
-    full[used] = beta
-    eta = x @ full if some else x @ beta
+    if some:  # x'b over x whole: no copy of the model's columns
+        full = np.zeros(x.shape[1])
+        full[used] = beta
+        eta = x @ full
+    else:
+        eta = x @ beta
     with np.errstate(over="ignore", invalid="ignore"):
         mu = _means(eta, model)
         w = mu * (1.0 - mu) if model == "logit" else mu
@@ -144,7 +147,9 @@ def _gram_step(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str
     for i, col in enumerate(used):
         np.multiply(x[:, col], root, out=rows[:, i])
     score = residual @ x
-    return Step(gram=blas.dsyrk(1.0, rows, trans=1), score=score[used] if some else score)
+    k = len(used)  # (BLAS refuses a piece of no rows: its sum is zero)
+    gram = blas.dsyrk(1.0, rows, trans=1) if rows.shape[0] else np.zeros((k, k))
+    return Step(gram=gram, score=score[used] if some else score)
 
 
 # --------------------------------------------------------------------------- the pieces
