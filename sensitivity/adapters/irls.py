@@ -52,16 +52,6 @@ def working(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str,
     return z, root, mu
 
 
-def weighted_rows(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None,
-                  model: str) -> tuple[np.ndarray, np.ndarray]:  # fmt: skip
-    """sqrt(w) [x, z] of a piece at `beta` (None: from the starting means), and the means."""
-    z, root, mu = working(x, y, beta, model)
-    rows = np.empty((x.shape[0], x.shape[1] + 1), order="F")
-    np.multiply(x, root[:, None], out=rows[:, :-1])
-    np.multiply(z, root, out=rows[:, -1])
-    return rows, mu
-
-
 @dataclass
 class Step:
     """What one piece gives at one b: the R factor of sqrt(w) [x, z] (or, for a Newton step
