@@ -206,7 +206,9 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
                 steps.append(piece_step(x, piece[:, m.response], m.beta, m.kind, final, code,
                                         clusters, gram=mode == "gram", columns=columns,
                                         work=passes.work))  # fmt: skip
-            return steps, (ranges.piece(k, piece, treated) if fitted else None)  # type: ignore[union-attr]
+            if fitted and ranges is not None and treated is not None:
+                return steps, ranges.piece(k, piece, treated)
+            return steps, None
 
         with one_blas_thread():
             for _ in range(3 * MAX_STEPS + 3):  # each model's steps are counted by itself
@@ -214,10 +216,11 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
                 if not plan:
                     break
                 # the overlap's fitted probabilities, in a pass made anyway for the outcome
-                fitted = ranges is not None and not ranges.ready and not treated.active  # type: ignore[union-attr]
+                fitted = (ranges is not None and treated is not None and not ranges.ready
+                          and not treated.active)  # fmt: skip
                 results = passes.each(lambda k, p, a=plan, f=fitted: job(k, p, a, f))
-                if fitted:
-                    ranges.gather([res[1] for res in results])  # type: ignore[union-attr]
+                if fitted and ranges is not None:
+                    ranges.gather([res[1] for res in results])
                 for i, (m, mode) in enumerate(plan):
                     steps = [res[0][i] for res in results]
                     if mode == "qr":

@@ -11,6 +11,7 @@ from typing import Any
 import numpy as np
 
 from ..common.errors import InputError
+from ..common.overlap import WriteBehind
 from .irls import PieceColumn, Scratch, Step, Workspace, expit, working
 
 TOL = 1e-11
@@ -162,20 +163,22 @@ class Reading:
 
     def __init__(self, model: str, formula: str, cluster: str | None, overlap: bool) -> None:
         self.model, self.formula, self.cluster, self.overlap = model, formula, cluster, overlap
-        self.behind: Any = None
-        self.scratch = self.codes = None
+        self.behind: WriteBehind | None = None
+        self._fresh()
 
-    def start(self) -> None:
-        from ..common.overlap import WriteBehind
+    def _fresh(self) -> None:
         from .rfactor import TriangularFactor
 
-        self.close()
         self.scratch, self.codes = Scratch(), Scratch()
         self.first = TriangularFactor()
         self.table: dict[Any, int] = {}
         self.seen: dict[str, Any] = {"positive": 0, "low": np.zeros(0), "high": np.zeros(0),
                                      "binary": np.zeros(0, bool), "gram": np.zeros((0, 0)),
                                      "sums": np.zeros(0)}  # fmt: skip
+
+    def start(self) -> None:
+        self.close()
+        self._fresh()
         self.behind = WriteBehind(self._take)
 
     def sink(self, rows: np.ndarray, extras: dict[str, tuple[str, Any]]) -> None:
@@ -192,13 +195,15 @@ class Reading:
             if (codes < 0).any():
                 raise InputError(f"`errors` cluster:{self.cluster}: the column has missing "
                                  "values in rows the fit uses", "errors")  # fmt: skip
-            self.codes.add(codes[:, None].astype(float))  # type: ignore[union-attr]
+            self.codes.add(codes[:, None].astype(float))
+        if self.behind is None:
+            raise RuntimeError("a piece came before the pass started")
         self.behind.put(rows)
 
     def _take(self, rows: np.ndarray) -> None:
         """(In the second thread, a piece at a time, in order.)"""
         seen, y = self.seen, rows[:, 0]
-        self.scratch.add(rows)  # type: ignore[union-attr]
+        self.scratch.add(rows)
         seen["positive"] += int(np.count_nonzero(y > 0))
         if rows.shape[0]:
             _widen_range(seen, rows.min(axis=0), rows.max(axis=0))
@@ -217,9 +222,11 @@ class Reading:
 
     def finish(self) -> None:
         """Wait for the last piece; the scratch files are then there to be read back."""
-        self.behind.close()
-        self.scratch.done()  # type: ignore[union-attr]
-        self.codes.done()  # type: ignore[union-attr]
+        if self.behind is not None:
+            behind, self.behind = self.behind, None
+            behind.close()
+        self.scratch.done()
+        self.codes.done()
 
     def close(self) -> None:
         if self.behind is not None:
@@ -228,9 +235,8 @@ class Reading:
                 behind.close()
             except Exception:  # noqa: BLE001, S110 - the error that stopped the pass is raised
                 pass
-        for held in (self.scratch, self.codes):
-            if held is not None:
-                held.close()
+        self.scratch.close()
+        self.codes.close()
 
 
 def _add_gram(seen: dict[str, Any], rows: np.ndarray) -> None:
@@ -270,8 +276,10 @@ def stacked(steps: list[Step]) -> np.ndarray:
     """The R factor of all pieces from the pieces' own R factors."""
     from .rfactor import fold
 
-    r = np.zeros((0, steps[0].r.shape[1]))
-    return fold(r, np.vstack([s.r for s in steps]))
+    factors = [s.r for s in steps if s.r is not None]
+    if len(factors) < len(steps):
+        raise AssertionError("a piece's step was taken without its R factor")
+    return fold(np.zeros((0, factors[0].shape[1])), np.vstack(factors))
 
 
 def total(parts: list[np.ndarray | None]) -> np.ndarray:

@@ -145,7 +145,7 @@ def _gram_step(x: np.ndarray, y: np.ndarray, beta: np.ndarray | None, model: str
 # --------------------------------------------------------------------------- the pieces
 def _pread_into(fd: int, out: np.ndarray, offset: int) -> None:
     """Fill the contiguous array `out` with the file's bytes from `offset`."""
-    view = memoryview(out.reshape(-1)).cast("B")
+    view = out.reshape(-1).data.cast("B")
     done = 0
     while done < view.nbytes:
         got = os.preadv(fd, [view[done:]], offset + done)
