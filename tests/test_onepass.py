@@ -175,15 +175,16 @@ def test_quoted_cells_with_newlines_survive_the_pieces(tmp_path, monkeypatch):
 
 
 @settings(max_examples=40, deadline=None)
-@given(st.lists(st.tuples(st.sampled_from(["1", "2.5", "-3", "", "x", "NA", "nan"]),
+@given(st.lists(st.tuples(st.sampled_from(["1", "2.5", "-3", "", "x", "NA", "nan", "true", "1e3"]),
                           st.sampled_from(batches.MISSING + ["a", "b", "NAN", " NA"]),
                           st.booleans(), st.integers(0, 9)),
                 min_size=1, max_size=60), st.integers(8, 200))  # fmt: skip
 def test_pieces_parsed_without_the_missing_words_read_the_same(cells, chunk):
-    # Pieces after the first are parsed without polars' list of missing-value words, then
-    # their text cells that are one of the words made missing: the batches must be exactly
-    # those parsed with the list (the first piece's types held), whatever the cells, quoted
-    # or not, and wherever the pieces are cut.
+    # The first piece's types are inferred from its first rows (3 here), then the piece
+    # parsed with them; the others are parsed without polars' list of missing-value words,
+    # their text cells that are one of the words made missing. The batches must be exactly
+    # those of every piece parsed with the list and the first inferred whole, whatever the
+    # cells, quoted or not, and wherever the pieces are cut.
     import tempfile
     from pathlib import Path
 
@@ -195,17 +196,19 @@ def test_pieces_parsed_without_the_missing_words_read_the_same(cells, chunk):
         path = Path(tmp) / "words.csv"
         path.write_text(text)
         got, want = [], []
-        for out, held in ((got, batches._read_held), (want, None)):
-            before, size = batches._read_held, files.CHUNK_BYTES
-            if held is None:
+        for out, quick in ((got, True), (want, False)):
+            before, size = (batches._read_first, batches._read_held), files.CHUNK_BYTES
+            if not quick:  # every piece parsed with the list, as before
+                batches._read_first = lambda read, dtypes: read(dtypes, None)
                 batches._read_held = lambda read, dtypes: read(dtypes, 0)
-            files.CHUNK_BYTES = chunk
+            files.CHUNK_BYTES, batches.INFER_ROWS = chunk, 3
             try:
                 out.append(_batches_of(path))
             except Exception as err:  # noqa: BLE001 - both must fail alike
                 out.append(type(err).__name__)
             finally:
-                batches._read_held, files.CHUNK_BYTES = before, size
+                (batches._read_first, batches._read_held), files.CHUNK_BYTES = before, size
+                batches.INFER_ROWS = 1000
     assert got == want
 
 
