@@ -178,6 +178,64 @@ def test_parquet_output_keeps_the_input_types(run, tmp_path, source):
     assert out["outcome"].to_list() == ["rare", "", "common"]  # text as written
 
 
+@pytest.mark.parametrize("delimiter", [",", ";"])
+def test_parquet_types_are_the_whole_files_even_when_a_late_piece_demotes_one(
+    run, tmp_path, monkeypatch, delimiter
+):
+    # The column types are inferred from the whole file in a thread of their own while the
+    # first pieces are screened (the writer waits for them). A column whose cells all read
+    # as integers until the last piece, where one reads as a decimal (or as text), is Float64
+    # (String) in the file, as polars reads the whole file (the outside reference); columns
+    # never demoted keep theirs. Tiny pieces, so the late cells come many pieces in.
+    import sensitivity.adapters.files as files
+
+    monkeypatch.setattr(files, "FRAME_BYTES", 256)
+    decimal = "2.5" if delimiter == "," else "2,5"
+    lines = [f"id{delimiter}scale{delimiter}estimate{delimiter}lower{delimiter}upper"
+             f"{delimiter}count{delimiter}dose{delimiter}code"]  # fmt: skip
+    for i in range(400):
+        estimate, lower, upper = (("1.5", "1.2", "1.9") if delimiter == "," else
+                                  ("1,5", "1,2", "1,9"))  # fmt: skip
+        dose = decimal if i == 399 else str(i)
+        code = "x7" if i == 399 else str(i % 5)
+        lines.append(delimiter.join([str(i), "rr", estimate, lower, upper, str(i), dose, code]))
+    src = tmp_path / "late.csv"
+    src.write_text("\n".join(lines) + "\n")
+    for target in ("out.parquet", "bad.parquet"):
+        (tmp_path / target).unlink(missing_ok=True)
+    res = run("screen", src, "--output", tmp_path / "out.parquet", "--flagged",
+              tmp_path / "bad.parquet")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    whole = pl.read_csv(src, separator=delimiter, infer_schema_length=None,
+                        decimal_comma=delimiter == ";")  # fmt: skip
+    assert whole.schema["count"] == pl.Int64 and whole.schema["dose"] == pl.Float64
+    assert whole.schema["code"] == pl.String
+    out = pl.read_parquet(tmp_path / "out.parquet")
+    for name in whole.columns:
+        assert out.schema[name] == whole.schema[name], name
+        assert out[name].equals(whole[name]), name
+    bad = pl.read_parquet(tmp_path / "bad.parquet")  # no row flagged: the header alone
+    assert bad.height == 0 and bad.schema == out.schema
+
+
+def test_an_error_while_inferring_parquet_types_leaves_no_file(run, tmp_path, monkeypatch):
+    # The inference runs beside the screen: its error reaches the command, and nothing is
+    # left under the output's name (the previous file stays as it was).
+    import sensitivity.adapters.files as files
+
+    def fail(path, delimiter):
+        raise OSError("the disk went away")
+
+    monkeypatch.setattr(files, "text_types", fail)
+    src = tmp_path / "in.csv"
+    src.write_text(PLAIN)
+    (tmp_path / "out.parquet").write_bytes(b"before")
+    res = run("screen", src, "--output", tmp_path / "out.parquet")
+    assert res.exit_code != 0 and "the disk went away" in res.stderr, res.stderr
+    assert (tmp_path / "out.parquet").read_bytes() == b"before"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["in.csv", "out.parquet"]
+
+
 def test_parquet_input_types_pass_through(run, tmp_path):
     pl.DataFrame({"id": [7, 8], "scale": ["rr", "hr"], "estimate": [1.5, 2.0],
                   "outcome": ["", "rare"]}).write_parquet(tmp_path / "in.parquet")  # fmt: skip

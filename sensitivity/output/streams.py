@@ -3,7 +3,7 @@ extension, with text cells defused against spreadsheet formula injection."""
 
 from __future__ import annotations
 
-from collections.abc import Collection
+from collections.abc import Callable, Collection
 from typing import Any
 
 from ..common.errors import InputError
@@ -152,9 +152,11 @@ class TableWriter:
     spreadsheet formula injection.
     """
 
-    def __init__(self, path: Any, argument: str = "output", trusted: Collection[str] = ()
-                 ) -> None:  # fmt: skip
-        """`trusted`: text columns the caller computed, left as they are (see defuse_frame)."""
+    def __init__(self, path: Any, argument: str = "output", trusted: Collection[str] = (),
+                 convert: Callable[[Any], Any] | None = None) -> None:  # fmt: skip
+        """`trusted`: text columns the caller computed, left as they are (see defuse_frame).
+        `convert`: for Parquet, applied to each polars frame in the writer's thread before it is
+        written (the screen's column types, which may still be being inferred: it may wait)."""
         from pathlib import Path
 
         self.path = Path(path)
@@ -186,6 +188,7 @@ class TableWriter:
         self._disk: Any = None
         self._any_rows = False
         self._trusted = frozenset(trusted)
+        self._convert = convert
 
     def write(self, table: Any) -> None:
         """Append rows: a polars DataFrame, or a pyarrow Table or RecordBatch."""
@@ -222,7 +225,10 @@ class TableWriter:
                     self._sink = open(self._temporary(), "wb")  # noqa: SIM115 - closed in close()
                 if self.kind == "json":
                     self._sink.write(b'{"rows":[')
-                self._behind = WriteBehind(self._write_piece)
+                # Parquet may wait for its column types before the first piece: two pieces
+                # held in hand, so that the caller can go on meanwhile
+                depth = 2 if self.kind == "parquet" and self._convert is not None else 1
+                self._behind = WriteBehind(self._write_piece, depth)
             self._behind.put((frame, first))
             return
         if self._rows > 1_048_575:
@@ -238,6 +244,8 @@ class TableWriter:
         if self.kind == "parquet":
             import pyarrow.parquet as pq
 
+            if self._convert is not None:
+                frame = self._convert(frame)
             arrow = frame.to_arrow()
             if self._writer is None:
                 self._writer = pq.ParquetWriter(str(self._temporary()), arrow.schema)
