@@ -1,10 +1,11 @@
 """A reference for `make bench`, not a baseline: polars alone reading the screen's file and
-writing a table of the same shape and about the same size (the input's cells, the cells as read
-and the screen's eleven columns, within 5% of its bytes) with nothing computed, through its
-streaming engine. No screen can be faster than reading and writing its own output, so this
-bounds the speed-up any implementation could show here. (The streaming engine's read-ahead
-grows with the file; the screen reads in pieces instead.) DST's extension picks the format:
-.csv, .parquet, or .json (rows as NDJSON, polars' fastest JSON writer).
+writing a table of the same shape and about the same size (the input's cells, what was read,
+and the screen's eleven columns, each column of the screen's type, within 5% of its bytes)
+with nothing computed, through its streaming engine. No screen can be faster than reading and
+writing its own output, so this bounds the speed-up any implementation could show here. (The
+streaming engine's read-ahead grows with the file; the screen reads in pieces instead.) DST's
+extension picks the format: .csv, .parquet, or .json (rows as NDJSON, polars' fastest JSON
+writer).
 Usage: python bench/screen_floor.py SRC DST"""
 
 import sys
@@ -22,12 +23,11 @@ def main(src: str, dst: str) -> None:
 
     empty = ["partial_r2", "robustness_value", "robustness_value_alpha"]
     frame = pl.scan_csv(src, infer_schema=False).with_columns(
-        # the cells as read, echoed beside the input as the screen echoes them (as_read_*)
-        *(
-            pl.col(name).alias(f"as_read_{name}")
-            for name in ("scale", "estimate", "lower", "upper")
-        ),
-        pl.lit("").alias("as_read_level"),
+        # what was read, beside the input, with the screen's types: the scale as text, the
+        # numbers as numbers (as the screen writes them), no level
+        pl.col("scale").alias("as_read_scale"),
+        *(number(name).alias(f"as_read_{name}") for name in ("estimate", "lower", "upper")),
+        pl.lit(None, pl.Float64).alias("as_read_level"),
         pl.col("outcome").alias("as_read_outcome"),
         pl.col("scale").alias("scale_used"),
         # the limits as read, and full-length numbers where the screen computes them (a

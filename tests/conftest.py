@@ -4,6 +4,12 @@ from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
+from hypothesis import settings
+
+# No example is held to a time limit: speed is measured by `make bench`, never asserted in a
+# test, and a shared machine can make any one example slow (a 200 ms deadline failed a run).
+settings.register_profile("sensitivity", deadline=None)
+settings.load_profile("sensitivity")
 
 ROOT = Path(__file__).resolve().parent.parent
 CASES = ROOT / "reference_cases"

@@ -180,21 +180,6 @@ def text_types(path: str | Path, delimiter: str) -> dict[str, Any]:
 TYPE_PIECE_BYTES = (1 << 19, 1 << 23)
 
 
-def _growing_pieces(path: Path) -> Any:
-    """`byte_chunks` of the file, the first of TYPE_PIECE_BYTES[0], the others of about [1]."""
-    first, rest = TYPE_PIECE_BYTES
-    held: list[bytes] = []
-    size, limit, head = 0, 0, b""
-    for head, body in byte_chunks(path, first):
-        held.append(body)
-        size += len(body)
-        if size >= limit:
-            yield head, b"".join(held)
-            held, size, limit = [], 0, rest
-    if held:
-        yield head, b"".join(held)
-
-
 def _whole_file_types(path: str | Path, delimiter: str) -> dict[str, Any]:
     """polars' inference over the whole file: the reference `text_types` keeps to."""
     import polars as pl
@@ -213,8 +198,9 @@ def _types_by_piece(path: Path, delimiter: str) -> dict[str, Any] | None:
     comma = delimiter == ";"
     found: dict[str, Any] = {}  # column -> the one type its pieces so far agree on
     names: list[str] | None = None
-    for head, body in _growing_pieces(path):
-        first = names is None
+    first, size = TYPE_PIECE_BYTES
+    for head, body in byte_chunks(path, size, first=first):
+        opening = names is None
         open_ = None if names is None else [n for n in names if found.get(n) != pl.String]
         if open_ == []:
             break
@@ -231,7 +217,7 @@ def _types_by_piece(path: Path, delimiter: str) -> dict[str, Any] | None:
             # mostly distinct texts (full-length numbers, a running count): no shorter by
             # piece than the whole file at once (a text column shows itself in the first)
             crowded = len(texts) > len(filled) // 2
-            if crowded and not first:
+            if crowded and not opening:
                 return None
             # the texts as a one-column file, every cell quoted (polars' inference reads a
             # quoted cell by what is inside the quotes, "" included)
@@ -362,7 +348,8 @@ def _text_frames(path: Path, delimiter: str, argument: str) -> Any:
     header = text_header(path, delimiter, argument)
     rows = 0
     end = 0
-    for head, body in byte_chunks(path, FRAME_BYTES):
+    first = min(FIRST_FRAME_BYTES, FRAME_BYTES)
+    for head, body in byte_chunks(path, FRAME_BYTES, first=first):
         end += len(body) + (end == 0) * len(head)
         try:
             frame = pl.read_csv(head + body, separator=delimiter, infer_schema=False,
@@ -381,6 +368,9 @@ def _text_frames(path: Path, delimiter: str, argument: str) -> Any:
 #: is a table that is computed on and written while the next is read (4 MiB measured as fast
 #: as 8 on a million rows, in three quarters of the memory).
 FRAME_BYTES = 1 << 22
+#: The first piece is smaller, so that its rows reach the writer (the slowest stage) while the
+#: later pieces are still being read: the stages start working together sooner.
+FIRST_FRAME_BYTES = 1 << 18
 #: Above this many quote characters in a piece, cells inside quotes are found with numpy.
 _FEW_QUOTES = 4096
 
@@ -437,22 +427,25 @@ def _pyarrow_piece(data: bytes, delimiter: str, header: list[str]) -> Any:
 CHUNK_BYTES = 1 << 23
 
 
-def byte_chunks(path: str | Path, size: int | None = None) -> Any:
+def byte_chunks(path: str | Path, size: int | None = None, first: int | None = None) -> Any:
     """A text table as (header line, body) pairs of about `size` bytes, each body whole
     records: cut at a newline outside quotes (an even number of quote characters before it,
     which doubled quotes inside a quoted cell keep), so a quoted cell may hold newlines.
 
     Parsing each piece on its own keeps memory bounded by the piece, however large the file,
     where a streaming reader's read-ahead grows with it (docs in MEASURED: flat 1e6 -> 4e6).
+    `first`, if given, is the size of the first piece.
     """
     size = size or CHUNK_BYTES
+    step = first or size
     with open(path, "rb") as fh:
         header = fh.readline()
         if header.startswith(b"\xef\xbb\xbf"):
             header = header[3:]
         carry = b""
         while True:
-            data = fh.read(size)
+            data = fh.read(step)
+            step = size
             if not data:
                 if carry.strip():
                     yield header, carry if carry.endswith(b"\n") else carry + b"\n"

@@ -4,9 +4,12 @@ extension, with text cells defused against spreadsheet formula injection."""
 from __future__ import annotations
 
 from collections.abc import Callable, Collection
-from typing import Any
+from functools import cache
+from typing import Any, TypeVar
 
 from ..common.errors import InputError
+
+T = TypeVar("T")
 
 #: Table files by extension, for writers that take a batch at a time.
 TABLE_FORMATS = {
@@ -136,29 +139,82 @@ _RISKY_BYTE = __import__("numpy").zeros(256, bool)
 _RISKY_BYTE[[ord(c) for c in FORMULA_STARTS]] = True
 
 
+@cache
+def _c_structs() -> tuple[Any, Any]:
+    """The Arrow C data interface's ArrowArray and ArrowSchema, as ctypes structures."""
+    import ctypes
+
+    c_int64, c_void_p = ctypes.c_int64, ctypes.c_void_p
+
+    class ArrowSchema(ctypes.Structure):
+        pass
+
+    class ArrowArray(ctypes.Structure):
+        pass
+
+    ArrowSchema._fields_ = [
+        ("format", ctypes.c_char_p), ("name", ctypes.c_char_p), ("metadata", ctypes.c_char_p),
+        ("flags", c_int64), ("n_children", c_int64), ("children", c_void_p),
+        ("dictionary", c_void_p),
+        ("release", ctypes.CFUNCTYPE(None, ctypes.POINTER(ArrowSchema))),
+        ("private_data", c_void_p),
+    ]  # fmt: skip
+    ArrowArray._fields_ = [
+        ("length", c_int64), ("null_count", c_int64), ("offset", c_int64),
+        ("n_buffers", c_int64), ("n_children", c_int64),
+        ("buffers", ctypes.POINTER(c_void_p)), ("children", c_void_p),
+        ("dictionary", c_void_p),
+        ("release", ctypes.CFUNCTYPE(None, ctypes.POINTER(ArrowArray))),
+        ("private_data", c_void_p),
+    ]  # fmt: skip
+    return ArrowArray, ArrowSchema
+
+
 def _may_start_a_formula(column: Any) -> bool:
     """Whether any cell of a polars String column may start with a formula character: read
     from the column's Arrow string views, each of which holds its string's first bytes (the
     Arrow format: a 4-byte length, then the string itself up to 12 bytes or its first 4), so
-    no cell is visited as text. Chunk by chunk, so that no views are copied together. True
-    when that layout is not at hand (the full check runs)."""
-    import numpy as np
-    import polars as pl
-
+    no cell is visited as text. The views are read through the Arrow C data interface
+    (`_string_views`), without pyarrow, whose import alone would cost more than the check.
+    Chunk by chunk, so that no views are copied together. True when that layout is not at
+    hand (the full check runs)."""
     for chunk in column.get_chunks():
-        try:
-            views = chunk.rename("").to_arrow(compat_level=pl.CompatLevel.newest())
-            buffer = views.buffers()[1] if str(views.type) == "string_view" else None
-        except Exception:  # noqa: BLE001 - any other layout: the exact check decides
-            buffer = None
-        if buffer is None:
-            return True
-        cells = np.frombuffer(buffer, np.uint8).reshape(-1, 16)
-        cells = cells[views.offset : views.offset + len(views)]
-        filled = cells[:, :4].view("<i4")[:, 0] > 0
-        if (_RISKY_BYTE[cells[:, 4]] & filled).any():
+        found = _string_views(chunk.rename(""), _risky_start)  # a name may hold a NUL
+        if found is None or found:
             return True
     return False
+
+
+def _risky_start(cells: Any) -> bool:
+    filled = cells[:, :4].copy().view("<i4")[:, 0] > 0
+    return bool((_RISKY_BYTE[cells[:, 4]] & filled).any())
+
+
+def _string_views(chunk: Any, read: Callable[[Any], T]) -> T | None:
+    """`read` of a one-chunk polars String series' views (a numpy uint8 array, 16 bytes a
+    row), while polars lends them through the Arrow C data interface; None when the series
+    does not export as string views."""
+    import ctypes
+
+    import numpy as np
+
+    arrow_array, arrow_schema = _c_structs()
+    array, schema = arrow_array(), arrow_schema()
+    try:
+        chunk._export_arrow_to_c(ctypes.addressof(array), ctypes.addressof(schema))
+    except Exception:  # noqa: BLE001 - any other layout: the caller's exact check decides
+        return None
+    try:
+        if schema.format != b"vu" or array.n_buffers < 2 or not array.buffers[1]:
+            return None
+        rows = array.offset + array.length
+        raw = (ctypes.c_uint8 * (rows * 16)).from_address(array.buffers[1])
+        return read(np.frombuffer(raw, np.uint8).reshape(-1, 16)[array.offset :])
+    finally:  # the exporter's memory is given back however the read ended
+        if array.release:
+            array.release(ctypes.byref(array))
+        if schema.release:
+            schema.release(ctypes.byref(schema))
 
 
 def _joined(rows: Any, skip: int = 0) -> Any:

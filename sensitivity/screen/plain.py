@@ -4,8 +4,8 @@ Most published results are plain: a risk, odds or hazard ratio with its interval
 odds or hazard ratio, whether the outcome is rare or common. For those rows the only work is
 a conversion and two E-values, so polars decides each row's route from the raw cells (no
 trimming, no Python strings) and numpy computes the numbers with the very functions the
-screen's core calls (`convert_by_route`, `evalue_of_rr`, `evalue_of_limits`), so a plain
-row's numbers are those of `screen_columns` bit for bit.
+screen's core calls (the conversions inside `convert_by_route`, and `evalue_of_rr`), so a
+plain row's numbers are those of `screen_columns` bit for bit.
 
 Every other row (any cell the core would trim, read or question: blanks where a value is
 needed, text that is not a number, other scales, se, dof, counts, free text, values beyond
@@ -18,9 +18,7 @@ from typing import Any
 
 import numpy as np
 
-from ..common.checks import given
-from ..common.scales import convert_by_route
-from ..evalues.formulas import evalue_of_limits, evalue_of_rr
+from ..evalues.formulas import evalue_of_rr
 from .core import COUNTS, NOTE_COMMON_HR, NOTE_COMMON_OR, NUMERIC, SCREEN_SCALES
 
 #: Scales a plain row may have, numbered as in SCREEN_SCALES.
@@ -108,14 +106,28 @@ def no_routes(n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 def compute_plain(route: np.ndarray, values: np.ndarray) -> dict[str, np.ndarray]:
     """The numbers of plain rows (NaN on the others): those of the screen core's `compute`
-    (target 1, no se), with each row's conversion decided by `route`, not by its text."""
-    by_route = {"identity": route == 0, "sqrt": route == 1, "hr": route == 2}
+    (target 1, no se), with each row's conversion decided by `route`, not by its text.
+
+    The conversions are the core's own functions (`np.sqrt`, `_hr_common`), applied to the
+    rows of their route only (identity rows are the values as read), and both E-values come
+    from one call of `evalue_of_rr`, so each number is the core's to the bit."""
+    from ..common.scales import _hr_common
+
+    rr = values.copy()
     with np.errstate(invalid="ignore", divide="ignore"):
-        rr, rr_lower, rr_upper = convert_by_route(by_route, values)
-        return {
-            "rr": rr,
-            "rr_lower": rr_lower,
-            "rr_upper": rr_upper,
-            "evalue": evalue_of_rr(rr),
-            "evalue_ci": np.where(given(rr_lower), evalue_of_limits(rr_lower, rr_upper), np.nan),
-        }
+        for code, convert in ((1, np.sqrt), (2, _hr_common)):
+            at = np.flatnonzero(route == code)
+            if at.size:
+                rr[:, at] = convert(values[:, at])
+    off = np.flatnonzero(route < 0)
+    if off.size:
+        rr[:, off] = np.nan
+    lower, upper = rr[1], rr[2]
+    # the limit nearest the null (1 where the interval covers it), as `evalue_of_limits`
+    # takes it against a target of 1
+    nearest = np.where(lower > 1.0, lower, np.where(upper < 1.0, upper, 1.0))
+    with np.errstate(invalid="ignore"):
+        evalue, evalue_ci = evalue_of_rr(np.stack((rr[0], nearest)))
+    evalue_ci[np.isnan(lower)] = np.nan  # a row without an interval
+    return {"rr": rr[0], "rr_lower": lower, "rr_upper": upper, "evalue": evalue,
+            "evalue_ci": evalue_ci}  # fmt: skip

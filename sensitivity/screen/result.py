@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import tempfile
+import weakref
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -13,14 +16,13 @@ from ..common.results import Result
 FIRST_ROWS = 5
 
 #: log E-values are tallied on a fixed grid from 0 to 20 (E up to 4.8e8) in steps of 1e-4,
-#: for the figure, and for the medians only where the values no longer fit in memory.
+#: for the figure.
 _EDGES = 200_000
 _TOP = 20.0
-#: Values kept per scale (and per estimate or interval) for exact medians: 16 MB each.
-EXACT_VALUES = 2_000_000
-#: A median read from the grid lies within this relative distance of the exact one (half a
-#: bin of 1e-4 in log E, below the grid's top).
-GRID_ERROR = float(np.expm1(0.5 * _TOP / _EDGES))
+#: Values held in memory per scale (and per estimate or interval) for the exact medians, 1 MiB
+#: each; beyond, they go to a temporary file (`Values`), read back a piece of this size at a
+#: time.
+HELD_VALUES = 131_072
 
 
 @dataclass(eq=False)
@@ -60,7 +62,6 @@ class Tally:
 
         rows = np.bincount(slot, minlength=width)
         bins = {}
-        screened = slot > 0
         for key in ("evalue", "evalue_ci"):
             with np.errstate(invalid="ignore", divide="ignore"):
                 idx = np.log(values[key])  # log(v) / _TOP * _EDGES, at most _EDGES, in place
@@ -68,14 +69,16 @@ class Tally:
                 np.multiply(idx, _EDGES, out=idx)
                 np.minimum(idx, _EDGES, out=idx)
             finite = np.isfinite(idx)
-            finite &= screened
-            # bin-major, so the counts are only as long as the largest E-value needs
-            spot = idx[finite].astype(np.int64)
+            np.copyto(idx, 0.0, where=~finite)
+            # bin-major, so the counts are only as long as the largest E-value needs; a row
+            # with no value counts in bin 0 of slot 0 (the flagged rows' column, never read),
+            # so no row is picked out by a mask
+            spot = idx.astype(np.int64)
             spot *= width
-            spot += slot[finite]
+            spot += np.where(finite, slot, 0)
             counts = np.bincount(spot, minlength=width)
             bins[key] = np.pad(counts, (0, -counts.size % width)).reshape(-1, width)
-            bins[f"{key}_n"] = per_scale(finite)
+            bins[f"{key}_n"] = bins[key].sum(axis=0)  # per scale: the values counted
         if self.threshold is not None:
             ci = values["evalue_ci"]
             with np.errstate(invalid="ignore"):
@@ -100,12 +103,8 @@ class Tally:
                     entry[key] = np.pad(entry[key], (0, used.size - entry[key].size))
                 entry[key][: used.size] += used
                 entry[f"{key}_n"] += int(bins[f"{key}_n"][number])
-                store = entry[f"{key}_values"]
-                if store is not None:
-                    kept = np.asarray(values[key], float)[mine]
-                    store.append(kept[np.isfinite(kept)])
-                    if entry[f"{key}_n"] > EXACT_VALUES:  # no longer kept: read from the grid
-                        entry[f"{key}_values"] = None
+                kept = np.asarray(values[key], float)[mine]
+                entry[f"{key}_values"].append(kept[np.isfinite(kept)])
             if self.threshold is not None:
                 entry["below"] += int(bins["below"][number])
             for i, (est, ci) in enumerate(explains):
@@ -131,12 +130,8 @@ class Tally:
                 mine[key][: theirs[key].size] += theirs[key]
             for key in ("rows", "evalue_n", "evalue_ci_n", "below", "regression"):
                 mine[key] += theirs[key]
-            for key in ("evalue_values", "evalue_ci_values"):  # exact medians while they fit
-                n = mine["evalue_n" if key == "evalue_values" else "evalue_ci_n"]
-                if mine[key] is None or theirs[key] is None or n > EXACT_VALUES:
-                    mine[key] = None
-                else:
-                    mine[key] = mine[key] + theirs[key]
+            for key in ("evalue_values", "evalue_ci_values"):  # for the exact medians
+                mine[key].extend(theirs[key])
             for key in ("explains_estimate", "explains_ci"):
                 mine[key] = [a + b for a, b in zip(mine[key], theirs[key], strict=True)]
         return self
@@ -147,10 +142,8 @@ class Tally:
         for code, e in sorted(self.scales.items()):
             per_scale[code] = {
                 "rows": e["rows"],
-                "median_evalue": _median(e["evalue"], e["evalue_n"], e["evalue_values"]),
-                "median_evalue_ci": _median(
-                    e["evalue_ci"], e["evalue_ci_n"], e["evalue_ci_values"]
-                ),  # fmt: skip
+                "median_evalue": e["evalue_values"].median(),
+                "median_evalue_ci": e["evalue_ci_values"].median(),
                 "with_interval": e["evalue_ci_n"],
                 "below_threshold": e["below"] if self.threshold is not None else None,
                 "explains_estimate": list(e["explains_estimate"]),
@@ -159,22 +152,7 @@ class Tally:
             }
             est, ci = (np.pad(e[k], (0, _EDGES + 1 - e[k].size)) for k in ("evalue", "evalue_ci"))
             hist[code] = (est, ci)
-        gridded = [code for code, e in sorted(self.scales.items())
-                   if e["evalue_values"] is None or e["evalue_ci_values"] is None]  # fmt: skip
-        if gridded:
-            how = (
-                f"Medians are exact (the middle value, or the mean of the two middle values) "
-                f"except for {', '.join(gridded)}, with more than {EXACT_VALUES:,} values: "
-                f"read from a grid of log E-values, within {GRID_ERROR:.1e} (relative) of the "
-                "exact median below E = 4.8e8."
-            )
-        else:
-            how = (
-                "Medians are exact (the middle value, or the mean of the two middle values for "
-                "an even count)."
-            )
         return ScreenSummary(
-            notes=(how, ScreenSummary.notes[-1]),
             source=source,
             rows=self.rows,
             flagged=dict(sorted(self.flagged.items(), key=lambda kv: -kv[1])),
@@ -193,8 +171,8 @@ def _entry(k: int) -> dict:
         "evalue_ci": np.zeros(0, np.int64),
         "evalue_n": 0,
         "evalue_ci_n": 0,
-        "evalue_values": [],  # the values themselves while they fit (None after)
-        "evalue_ci_values": [],
+        "evalue_values": Values(),  # the values themselves, for exact medians
+        "evalue_ci_values": Values(),
         "below": 0,
         "explains_estimate": [0] * k,
         "explains_ci": [0] * k,
@@ -202,21 +180,148 @@ def _entry(k: int) -> dict:
     }
 
 
-def _median(counts: np.ndarray, n: int, values: list | None = None) -> float | None:
-    """The median by the midpoint rule: exact from `values` when kept, else from the grid
-    (the mean of the two middle bins' centres for an even count)."""
-    if n == 0:
-        return None
-    if values is not None:
-        return float(np.median(np.concatenate(values)))
-    cum = np.cumsum(counts)
+def _temporary():  # an anonymous file: no name in the folder, gone when closed or at exit
+    # (the system's temporary folder, TMPDIR)
+    return tempfile.TemporaryFile(buffering=0)
 
-    def at(rank: int) -> float:  # the value of rank `rank` (1-based), as its bin's centre
-        i = int(np.searchsorted(cum, rank))
-        return _TOP if i >= _EDGES else (i + 0.5) / _EDGES * _TOP
 
-    low, high = at((n + 1) // 2), at(n // 2 + 1)
-    return float((np.exp(low) + np.exp(high)) / 2)  # each within GRID_ERROR, so their mean
+class Values:
+    """Numbers kept for an exact median with flat memory: up to `HELD_VALUES` in memory, the
+    rest appended (raw float64) to an anonymous temporary file, closed when this store is
+    collected or at exit (on POSIX its name goes as it is made, so nothing is left behind,
+    also after an error, Ctrl-C or a kill). Where no temporary file can be made or written,
+    the values stay in memory: the median is exact either way. Pickles as its values."""
+
+    def __init__(self) -> None:
+        self.count = 0
+        self._held: list[np.ndarray] = []
+        self._n_held = 0
+        self._file = None
+        self._spilled = 0  # values in the file (a failed write's part beyond is never read)
+        self._spill = True
+
+    def append(self, values: np.ndarray) -> None:
+        if not values.size:
+            return
+        self._held.append(np.asarray(values, float))
+        self._n_held += values.size
+        self.count += values.size
+        if self._spill and self._n_held > HELD_VALUES:
+            self._write()
+
+    def extend(self, other: Values) -> None:
+        for piece in other.pieces():
+            self.append(piece)
+
+    def _write(self) -> None:
+        data = np.concatenate(self._held)
+        try:
+            if self._file is None:
+                self._file = _temporary()
+                self._closer = weakref.finalize(self, self._file.close)
+            self._file.seek(self._spilled * 8)
+            view = memoryview(data).cast("B")
+            while view:
+                view = view[self._file.write(view) :]
+        except OSError:  # no room for a temporary file: the values stay in memory
+            self._spill = False
+            self._held = [data]
+            return
+        self._spilled += data.size
+        self._held, self._n_held = [], 0
+
+    def pieces(self) -> Iterator[np.ndarray]:
+        """The values in pieces of at most `HELD_VALUES` (new arrays from the file)."""
+        spilled, held = self._spilled, list(self._held)
+        for start in range(0, spilled, HELD_VALUES):
+            piece = np.empty(min(HELD_VALUES, spilled - start))
+            view = memoryview(piece).cast("B")
+            self._file.seek(start * 8)
+            while view:
+                got = self._file.readinto(view)
+                if not got:
+                    raise OSError("the screen's temporary file of E-values came back short")
+                view = view[got:]
+            yield piece
+        yield from held
+
+    def values(self) -> np.ndarray:
+        return np.concatenate([np.zeros(0), *self.pieces()])
+
+    def __getstate__(self) -> dict:
+        return {"values": self.values()}
+
+    def __setstate__(self, state: dict) -> None:
+        self.__init__()
+        self.append(state["values"])
+
+    def median(self) -> float | None:
+        """The median by the midpoint rule (numpy's: the mean of the two middle values for an
+        even count), exact: in memory as numpy computes it, or from the file by selection."""
+        if not self.count:
+            return None
+        if not self._spilled:
+            return float(np.median(np.concatenate(self._held)))
+        low, high = _ranked(self, ((self.count - 1) // 2, self.count // 2))
+        return float(np.mean(np.array([low, high]))) if self.count % 2 == 0 else low
+
+
+_SIGN = np.uint64(1 << 63)
+
+
+def _keys(x: np.ndarray) -> np.ndarray:
+    """Unsigned integers in the order of the floats `x` (no NaN)."""
+    bits = x.view(np.uint64)
+    return np.where(bits >= _SIGN, ~bits, bits | _SIGN)
+
+
+def _ranked(store: Values, ranks: tuple[int, ...]) -> list[float]:
+    """The values of the given ranks (0 = the smallest), each exact, in streamed passes with
+    bounded memory: a radix selection on the values' bits, 16 at a time (the bucket holding
+    each rank found from counts), until a rank's bucket holds at most `HELD_VALUES` values
+    (then gathered and partitioned) or a single value. Two or three passes; five at most."""
+    # per rank: its candidates are the values whose keys start with `prefix` (`bits` long);
+    # `below` values lie under them, `size` among them
+    state = {r: {"prefix": 0, "bits": 0, "below": 0, "size": store.count} for r in ranks}
+    found: dict[int, float] = {}
+    while len(found) < len(state):
+        groups: dict[tuple[int, int], list[int]] = {}
+        for r, s in state.items():
+            if r not in found:
+                groups.setdefault((s["prefix"], s["bits"]), []).append(r)
+        gather = {g: [] for g, rs in groups.items() if state[rs[0]]["size"] <= HELD_VALUES}
+        counts = {g: np.zeros(1 << 16, np.int64) for g in groups if g not in gather}
+        for piece in store.pieces():
+            keys = _keys(piece)
+            for prefix, bits in groups:
+                if bits:
+                    inside = (keys >> np.uint64(64 - bits)) == np.uint64(prefix)
+                    mine, theirs = keys[inside], piece[inside]
+                else:
+                    mine, theirs = keys, piece
+                if (prefix, bits) in gather:
+                    gather[prefix, bits].append(theirs)
+                else:
+                    nxt = (mine >> np.uint64(48 - bits)) & np.uint64(0xFFFF)
+                    counts[prefix, bits] += np.bincount(nxt.astype(np.intp), minlength=1 << 16)
+        for g, parts in gather.items():
+            within = [r - state[r]["below"] for r in groups[g]]
+            chosen = np.partition(np.concatenate(parts), within)
+            for r, k in zip(groups[g], within, strict=True):
+                found[r] = float(chosen[k])
+        for g, tally in counts.items():
+            cum = np.cumsum(tally)
+            for r in groups[g]:
+                s = state[r]
+                bucket = int(np.searchsorted(cum, r - s["below"], side="right"))
+                s["below"] += int(cum[bucket - 1]) if bucket else 0
+                s["size"] = int(tally[bucket])
+                s["prefix"], s["bits"] = (s["prefix"] << 16) | bucket, s["bits"] + 16
+                if s["bits"] == 64:  # one key: one value
+                    key = np.array([s["prefix"]], np.uint64)
+                    bits = np.where(key >= _SIGN, key ^ _SIGN, ~key)
+                    found[r] = float(bits.view(float)[0])
+    return [found[r] for r in ranks]
 
 
 @dataclass(frozen=True, eq=False, repr=False)

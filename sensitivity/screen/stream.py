@@ -57,22 +57,35 @@ def text_or_numbers(column: Any, decimal_comma: bool = False) -> Any:
     series = pl.Series(values=column) if not isinstance(column, pl.Series) else column
     if series.dtype.is_numeric():
         return series.cast(pl.Float64).to_numpy()
-    trimmed = series.cast(pl.String).fill_null("").str.strip_chars()
-    cells = trimmed
+    cell = pl.col("c").cast(pl.String).fill_null("").str.strip_chars()
+    number = cell
     if decimal_comma:
         # a decimal point in a file that writes decimal commas is not guessed at (1.500?)
-        trimmed = trimmed.str.replace(_DECIMAL_COMMA, r"${1}.${2}")
-        trimmed = pl.Series(np.where(cells.str.contains(".", literal=True).to_numpy(),
-                                     "\0", trimmed.to_numpy()), dtype=pl.String)  # fmt: skip
+        number = (
+            pl.when(cell.str.contains(".", literal=True))
+            .then(pl.lit("\0"))
+            .otherwise(cell.str.replace(_DECIMAL_COMMA, r"${1}.${2}"))
+        )
     # polars reads exactly the numbers _NUMBER describes (ASCII digits, inf, infinity, nan in
-    # any case; checked in tests/test_screen.py), so a failed cast is a cell that is not one
-    values = trimmed.cast(pl.Float64, strict=False)
-    floats = values.to_numpy().astype(float)
-    bad = (values.is_null() & (cells != "")).to_numpy()
+    # any case; checked in tests/test_screen.py), so a failed cast is a cell that is not one;
+    # all in one pass over the column (a few rows cost what a piece's calls cost)
+    value = number.cast(pl.Float64, strict=False)
+    got = (
+        series.rename("c")
+        .to_frame()
+        .select(value.alias("value"), (value.is_null() & (cell != "")).alias("bad"))
+    )
+    floats = got["value"].to_numpy().astype(float)
+    bad = got["bad"].to_numpy()
     if not bad.any():
         return floats
     where = np.flatnonzero(bad)
-    return Numbers(floats, where, tuple(cells.gather(where).to_list()), decimal_comma)
+    cells = series.rename("c").to_frame().select(cell.gather(where))["c"].to_list()
+    return Numbers(floats, where, tuple(cells), decimal_comma)
+
+
+#: Up to this many cells, a code column is converted cell by cell (no distinct codes found).
+_FEW_CODES = 4096
 
 
 def clean_text(column: Any) -> Codes:
@@ -80,6 +93,8 @@ def clean_text(column: Any) -> Codes:
     import polars as pl
 
     text = _series(column).fill_null("").str.strip_chars().str.to_lowercase()
+    if text.len() <= _FEW_CODES:  # a handful of rows: as they are
+        return Codes(np.asarray(text.to_list(), dtype=str))
     # few distinct codes: convert those, then index (a million cells in a few ms)
     distinct = text.unique(maintain_order=True).to_list()
     coded = text.cast(pl.Enum(distinct)).to_physical().to_numpy().astype(np.int64)
@@ -268,10 +283,13 @@ def _screen_frame(frame: Any, mapping: dict[str, str], options: Options, from_te
     if tally is not None:
         tally.add(scale, reasons, out, states, positions)
 
+    # a column only the core fills (or the level, read from text alone) is missing on every
+    # row unless one of the core's rows has it
+    empty = [k for k in (*_CORE_ONLY, "as_read_level")
+             if not rest.size or np.isnan((out | read)[k][rest]).all()]  # fmt: skip
     added = text | {k: pl.Series(values=v, nan_to_null=True) for k, v in (out | read).items()
-                    if rest.size or k not in _CORE_ONLY}  # fmt: skip
-    added |= {k: pl.repeat(None, n, dtype=pl.Float64, eager=True) for k in _CORE_ONLY
-              if k not in added}  # fmt: skip
+                    if k not in empty}  # fmt: skip
+    added |= {k: pl.repeat(None, n, dtype=pl.Float64, eager=True) for k in empty}
     added |= {k: _words(FLAG_WORDS, v) for k, v in states.items()}
     return frame.with_columns(added[k].alias(k) for k in names)
 
