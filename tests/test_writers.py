@@ -350,3 +350,23 @@ def test_text_tables_are_the_same_bytes_however_they_are_cut_and_written_out(
         assert path.read_bytes() == frame.write_csv().encode()
     # asked as the file grew (CSV: after a piece), not once at the end
     assert len(asked) >= (5 if suffix == ".json" else 2)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.text(max_size=40), min_size=1, max_size=300), st.integers(0, 1),
+       st.booleans())  # fmt: skip
+def test_json_text_handed_to_disk_is_the_values_run_together(values, skip, made):
+    # The JSON rows go to disk as slices of the buffers polars made them in, where every value
+    # lies out of its view one after the other; any other layout (a short value, a column
+    # read or sliced) takes one copy: the bytes are the values joined (Python's own join,
+    # the reference) either way.
+    import polars as pl
+
+    from sensitivity.output.streams import _joined_parts
+
+    column = pl.Series(values)
+    if made:  # as the writer's: a column polars has just made, each value past 12 bytes
+        column = pl.select(pl.concat_str(pl.lit(",{" * 7), pl.lit(column))).to_series()
+        column = column.slice(len(values) // 3)
+    expected = "".join(column.to_list()).encode()[skip:]
+    assert b"".join(bytes(part) for part in _joined_parts(column, skip)) == expected

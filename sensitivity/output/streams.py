@@ -235,6 +235,37 @@ def _joined(rows: Any, skip: int = 0) -> Any:
     return buffers[2][start:stop]
 
 
+def _joined_parts(rows: Any, skip: int = 0) -> list:
+    """`_joined`, as slices of the buffers polars already holds the values in (nothing
+    copied): where each value is longer than 12 bytes (kept out of its view) and the values
+    lie one after the other in their buffers, as polars lays out a column it has just made.
+    Otherwise `_joined` (one copy, in Arrow's offsets layout)."""
+    import numpy as np
+    import polars as pl
+
+    text = rows.rename("").to_arrow(compat_level=pl.CompatLevel.newest())
+    if str(text.type) != "string_view" or text.null_count or not len(text):
+        return [_joined(rows, skip)]
+    buffers = text.buffers()
+    views = np.frombuffer(buffers[1], np.int32).reshape(-1, 4)[
+        text.offset : text.offset + len(text)
+    ]
+    length, index, offset = views[:, 0], views[:, 2], views[:, 3]
+    end = offset + length
+    same = index[1:] == index[:-1]
+    follows = np.where(
+        same, offset[1:] == end[:-1], (index[1:] == index[:-1] + 1) & (offset[1:] == 0)
+    )
+    if (length <= 12).any() or not follows.all():
+        return [_joined(rows, skip)]
+    firsts = np.flatnonzero(np.r_[True, ~same])
+    lasts = np.r_[firsts[1:], len(views)] - 1
+    return [
+        buffers[2 + int(index[first])][int(offset[first]) + skip * (n == 0) : int(end[last])]
+        for n, (first, last) in enumerate(zip(firsts, lasts, strict=True))
+    ]
+
+
 class TableWriter:
     """Writes a table batch by batch to CSV, TSV, Parquet, Excel or JSON (by extension).
 
@@ -372,11 +403,12 @@ class TableWriter:
             slices = [frame.slice(start, JSON_ROWS).lazy().select(objects)
                       for start in starts[at : at + JSON_SLICES]]  # fmt: skip
             for rows in pl.collect_all(slices):
-                self._disk.put(_joined(rows.to_series(), skip=0 if self._any_rows else 1))
+                self._disk.put(_joined_parts(rows.to_series(), skip=0 if self._any_rows else 1))
                 self._any_rows = True
 
-    def _put_down(self, text: Any) -> None:
-        self._sink.write(text)
+    def _put_down(self, parts: list) -> None:
+        for part in parts:
+            self._sink.write(part)
         self._write_out()
 
     def _write_out(self) -> None:
