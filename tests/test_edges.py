@@ -439,3 +439,12 @@ def test_the_exact_set_keeps_no_tolerance_at_a_tiny_prevalence_difference():
     _agree(grid, "estimate")
     (tp,) = grid.tipping_points()
     assert tp["estimate_exact"] == {"reached": "up_to", "low": None, "high": 0.0}
+
+
+@pytest.mark.parametrize("value", [True, False, np.bool_(True), np.array([True, False])])
+def test_true_or_false_is_not_a_number(value):
+    # numpy reads True as 1.0, so evalue_of_rr(True) answered 1.0 (a risk ratio of 1)
+    from sensitivity import evalue_of_rr
+
+    with pytest.raises(InputError, match="`rr` must be numeric"):
+        evalue_of_rr(value)

@@ -132,7 +132,12 @@ def inside_interval(
 
 
 def as_array(value: object, name: str) -> np.ndarray:
-    """`value` as a float array (0-d for a scalar); InputTypeError names `name` if not numeric."""
+    """`value` as a float array (0-d for a scalar); InputTypeError names `name` if not numeric
+    (true/false is not a number, though numpy would read it as 1 or 0)."""
+    if isinstance(value, (bool, np.bool_)) or getattr(getattr(value, "dtype", None), "kind",
+                                                      None) == "b":  # fmt: skip
+        shown = repr(value) if len(repr(value)) <= 60 else repr(value)[:57] + "..."
+        raise InputTypeError(f"`{name}` must be numeric; got {shown}", name)
     try:
         return np.asarray(value, dtype=float)
     except OverflowError:  # an int beyond the float range (10**400)
