@@ -11,7 +11,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from sensitivity.common.overlap import WriteBehind, read_ahead
+from sensitivity.common.overlap import WriteBehind, in_background, read_ahead
 
 
 @settings(max_examples=30, deadline=None)
@@ -65,3 +65,24 @@ def test_an_error_while_writing_behind_is_raised_by_put_or_close():
             behind.put(i)
             time.sleep(0.001)
         behind.close()
+
+
+def test_in_background_gives_its_value_and_raises_its_error_in_the_caller():
+    started = threading.Event()
+
+    def slow(x):
+        started.set()
+        time.sleep(0.05)
+        return x * 2
+
+    job = in_background(slow, 21)
+    assert started.wait(5)
+    assert job.result() == 42 and job.result() == 42  # asked again: the same value
+
+    def fail():
+        raise ValueError("no types")
+
+    job = in_background(fail)
+    for _ in range(2):
+        with pytest.raises(ValueError, match="no types"):
+            job.result()

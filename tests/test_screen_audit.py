@@ -11,6 +11,8 @@ import json
 import numpy as np
 import polars as pl
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from sensitivity.screen.result import Tally
 from sensitivity.screen.stream import screen_frames, screen_summary, screen_table
@@ -178,6 +180,64 @@ def test_parquet_output_keeps_the_input_types(run, tmp_path, source):
     assert out["outcome"].to_list() == ["rare", "", "common"]  # text as written
 
 
+@pytest.mark.parametrize("delimiter", [",", ";"])
+def test_parquet_types_are_the_whole_files_even_when_a_late_piece_demotes_one(
+    run, tmp_path, monkeypatch, delimiter
+):
+    # The column types are inferred from the whole file in a thread of their own while the
+    # first pieces are screened (the writer waits for them). A column whose cells all read
+    # as integers until the last piece, where one reads as a decimal (or as text), is Float64
+    # (String) in the file, as polars reads the whole file (the outside reference); columns
+    # never demoted keep theirs. Tiny pieces, so the late cells come many pieces in.
+    import sensitivity.adapters.files as files
+
+    monkeypatch.setattr(files, "FRAME_BYTES", 256)
+    decimal = "2.5" if delimiter == "," else "2,5"
+    lines = [f"id{delimiter}scale{delimiter}estimate{delimiter}lower{delimiter}upper"
+             f"{delimiter}count{delimiter}dose{delimiter}code"]  # fmt: skip
+    for i in range(400):
+        estimate, lower, upper = (("1.5", "1.2", "1.9") if delimiter == "," else
+                                  ("1,5", "1,2", "1,9"))  # fmt: skip
+        dose = decimal if i == 399 else str(i)
+        code = "x7" if i == 399 else str(i % 5)
+        lines.append(delimiter.join([str(i), "rr", estimate, lower, upper, str(i), dose, code]))
+    src = tmp_path / "late.csv"
+    src.write_text("\n".join(lines) + "\n")
+    for target in ("out.parquet", "bad.parquet"):
+        (tmp_path / target).unlink(missing_ok=True)
+    res = run("screen", src, "--output", tmp_path / "out.parquet", "--flagged",
+              tmp_path / "bad.parquet")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    whole = pl.read_csv(src, separator=delimiter, infer_schema_length=None,
+                        decimal_comma=delimiter == ";")  # fmt: skip
+    assert whole.schema["count"] == pl.Int64 and whole.schema["dose"] == pl.Float64
+    assert whole.schema["code"] == pl.String
+    out = pl.read_parquet(tmp_path / "out.parquet")
+    for name in whole.columns:
+        assert out.schema[name] == whole.schema[name], name
+        assert out[name].equals(whole[name]), name
+    bad = pl.read_parquet(tmp_path / "bad.parquet")  # no row flagged: the header alone
+    assert bad.height == 0 and bad.schema == out.schema
+
+
+def test_an_error_while_inferring_parquet_types_leaves_no_file(run, tmp_path, monkeypatch):
+    # The inference runs beside the screen: its error reaches the command, and nothing is
+    # left under the output's name (the previous file stays as it was).
+    import sensitivity.adapters.files as files
+
+    def fail(path, delimiter):
+        raise OSError("the disk went away")
+
+    monkeypatch.setattr(files, "text_types", fail)
+    src = tmp_path / "in.csv"
+    src.write_text(PLAIN)
+    (tmp_path / "out.parquet").write_bytes(b"before")
+    res = run("screen", src, "--output", tmp_path / "out.parquet")
+    assert res.exit_code != 0 and "the disk went away" in res.stderr, res.stderr
+    assert (tmp_path / "out.parquet").read_bytes() == b"before"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["in.csv", "out.parquet"]
+
+
 def test_parquet_input_types_pass_through(run, tmp_path):
     pl.DataFrame({"id": [7, 8], "scale": ["rr", "hr"], "estimate": [1.5, 2.0],
                   "outcome": ["", "rare"]}).write_parquet(tmp_path / "in.parquet")  # fmt: skip
@@ -194,3 +254,75 @@ def test_a_decimal_point_in_a_european_file_is_flagged_not_guessed(run, tmp_path
     out = pl.read_csv(res.stdout.encode(), infer_schema=False)
     assert "a decimal point where the file writes decimal commas" in out["error"][3]
     assert out["error"].to_list()[:3] == ["", "", ""]
+
+
+_RAW_CELLS = ["1", "-2", "+3", "007", "-0", "1.5", ".5", "5.", "1e5", "1E-3", "inf", "-inf",
+              "NaN", "nan", "true", "False", "TRUE", "", '""', '"1"', '"1.5"', '"a""b"', " 1",
+              "1 ", "\u0663", "99999999999999999999", "abc", "1_0", '"x\ny"']  # fmt: skip
+_RAW_CELLS_EUROPEAN = ["1,5", "-0,25", "1,5e3", ",5", "5,", '"2,5"', "1.5"]
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    st.sampled_from([",", ";"]),
+    st.lists(st.lists(st.sampled_from(_RAW_CELLS + _RAW_CELLS_EUROPEAN), min_size=1,
+                      max_size=3), min_size=1, max_size=3),
+    st.integers(1, 80),
+    st.sampled_from(["\n", "\r\n"]),
+    st.integers(0, 10**6),
+)  # fmt: skip
+def test_column_types_by_piece_are_polars_whole_file_inference(
+    delimiter, pools, rows, newline, seed
+):
+    # text_types infers each column from the distinct texts of a piece of the file at a time:
+    # the types are polars' own inference over the whole file (the outside reference), for
+    # numbers of every form polars knows (signs, exponents, inf, NaN, decimal commas in a
+    # ';' file, integers beyond 64 bits, Unicode digits), booleans, quoted cells (a quoted
+    # empty one, a quoted number, a doubled quote, a line end inside), blank cells, spaces,
+    # Windows line ends and a blank line; pieces of a few dozen bytes.
+    import tempfile
+    from pathlib import Path
+
+    import sensitivity.adapters.files as files
+
+    rng = np.random.default_rng(seed)
+    if delimiter == ",":  # a decimal comma is a cell of its own only in a ';' file
+        pools = [[c for c in pool if c not in _RAW_CELLS_EUROPEAN or c.startswith('"')] or ["1"]
+                 for pool in pools]  # fmt: skip
+    lines = [delimiter.join(f"c{i}" for i in range(len(pools)))]
+    for _ in range(rows):
+        lines.append(delimiter.join(pool[rng.integers(len(pool))] for pool in pools))
+    if rows > 3 and seed % 4 == 0:
+        lines.insert(2, "")
+    with tempfile.TemporaryDirectory() as folder:
+        path = Path(folder) / "t.csv"
+        path.write_bytes((newline.join(lines) + newline).encode())
+        saved = files.TYPE_PIECE_BYTES
+        files.TYPE_PIECE_BYTES = (48, 160)
+        try:
+            got = files.text_types(path, delimiter)
+        finally:
+            files.TYPE_PIECE_BYTES = saved
+        assert got == files._whole_file_types(path, delimiter)
+
+
+@pytest.mark.parametrize("late", ["n/a", "2.5"])
+def test_column_types_come_by_piece_for_a_table_of_rounded_numbers(tmp_path, late):
+    # A table like a screen's, with a column of counts that turns to text (or to a decimal)
+    # only in its last row, several pieces in: text is found by piece; Int64 in the first
+    # pieces and Float64 in the last sends the file to the whole-file inference. The types
+    # are polars' whole-file inference either way.
+    import sensitivity.adapters.files as files
+
+    lines = ["study,scale,estimate,count"]
+    for i in range(120_000):
+        count = late if i == 119_999 else str(i % 50)
+        lines.append(f"s{i},rr,{1 + i % 97 / 100:.2f},{count}")
+    path = tmp_path / "t.csv"
+    path.write_text("\n".join(lines) + "\n")
+    assert len(list(files.byte_chunks(path, *files.TYPE_PIECE_BYTES[::-1]))) >= 2
+    by_piece = files._types_by_piece(path, ",")
+    whole = files._whole_file_types(path, ",")
+    assert whole["count"] == (pl.String if late == "n/a" else pl.Float64)
+    assert by_piece == (whole if late == "n/a" else None)
+    assert files.text_types(path, ",") == whole

@@ -311,3 +311,62 @@ def test_a_column_of_raw_bytes_is_refused_in_one_line_for_text_files(suffix, tmp
         writer.write(pl.DataFrame({"x": [1.0], "blob": [b"\x00a"]}))
     writer.abort()
     assert list(tmp_path.iterdir()) == []
+
+
+@pytest.mark.parametrize("suffix", [".json", ".csv"])
+def test_text_tables_are_the_same_bytes_however_they_are_cut_and_written_out(
+    suffix, tmp_path, monkeypatch
+):
+    # JSON rows turned a few slices at once (in polars' thread pool), and the kernel asked to
+    # start writing the file out every few bytes (Linux sync_file_range; elsewhere nothing):
+    # the file holds the bytes of polars' own NDJSON (rows joined by commas) or CSV writer for
+    # the whole frame, the outside reference.
+    import polars as pl
+
+    from sensitivity.output import streams
+    from sensitivity.output.streams import TableWriter
+
+    asked = []
+    start = streams._start_writing_out
+    monkeypatch.setattr(streams, "_start_writing_out", lambda fd: (asked.append(fd), start(fd)))
+    monkeypatch.setattr(streams, "JSON_ROWS", 37)
+    monkeypatch.setattr(streams, "JSON_SLICES", 3)
+    monkeypatch.setattr(streams, "WRITE_OUT_BYTES", 1000)
+    rng = np.random.default_rng(5)
+    frame = pl.DataFrame({
+        "study": [f"s{i} \"q\" é" for i in range(1_000)],
+        "evalue": pl.Series(_bits(rng, 1_000), nan_to_null=True),
+        "n": np.arange(1_000),
+    })  # fmt: skip
+    path = tmp_path / f"out{suffix}"
+    writer = TableWriter(path)
+    for piece in (frame[:1], frame[1:100], frame.head(0), frame[100:1000]):
+        writer.write(piece)
+    writer.close({"n": 1_000} if suffix == ".json" else None)
+    if suffix == ".json":
+        lines = frame.write_ndjson().encode().rstrip(b"\n").replace(b"\n", b",")
+        assert path.read_bytes() == b'{"rows":[' + lines + b'],"n":1000}\n'
+    else:
+        assert path.read_bytes() == frame.write_csv().encode()
+    # asked as the file grew (CSV: after a piece), not once at the end
+    assert len(asked) >= (5 if suffix == ".json" else 2)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.text(max_size=40), min_size=1, max_size=300), st.integers(0, 1),
+       st.booleans())  # fmt: skip
+def test_json_text_handed_to_disk_is_the_values_run_together(values, skip, made):
+    # The JSON rows go to disk as slices of the buffers polars made them in, where every value
+    # lies out of its view one after the other; any other layout (a short value, a column
+    # read or sliced) takes one copy: the bytes are the values joined (Python's own join,
+    # the reference) either way.
+    import polars as pl
+
+    from sensitivity.output.streams import _joined_parts
+
+    column = pl.Series(values)
+    if made:  # as the writer's: a column polars has just made, each value past 12 bytes
+        column = pl.select(pl.concat_str(pl.lit(",{" * 7), pl.lit(column))).to_series()
+        column = column.slice(len(values) // 3)
+    expected = "".join(column.to_list()).encode()[skip:]
+    assert b"".join(bytes(part) for part in _joined_parts(column, skip)) == expected

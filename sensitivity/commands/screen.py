@@ -226,25 +226,30 @@ def screen_cmd(
     # the screen's own text columns (codes, reasons, notes, true/false) never start with a
     # formula character (tests/test_screen.py), so only the input's are defused
     trusted = set(computed_names(Options(confounders=confounders))) - set(AS_READ_TEXT)
-    writer = table_writer(output, fmt, trusted)
-    flagged_writer = None if flagged is None else table_writer(flagged, "text", trusted)
-    # Parquet keeps the input's column types: those polars infers from the whole text file
-    # (a Parquet input's own types pass through as they are)
-    types = {}
+    # Parquet keeps the input's column types: those polars infers from the whole text file (a
+    # Parquet input's own types pass through as they are). The inference reads the whole file
+    # in a thread of its own while the first pieces are screened; each Parquet writer casts
+    # its pieces in its own thread, waiting for the types (holding two pieces) if need be
+    convert = None
     if mark and any(str(t).lower().endswith((".parquet", ".pq")) for t in (output, flagged) if t):
         from sensitivity.adapters.files import text_types
+        from sensitivity.common.overlap import in_background
 
-        types = text_types(file, mark)
+        types = in_background(text_types, file, mark)
+
+        def convert(frame: Any) -> Any:
+            return with_types(frame, types.result())
+
+    writer = table_writer(output, fmt, trusted, convert)
+    flagged_writer = None if flagged is None else table_writer(flagged, "text", trusted, convert)
     try:
         for batch in stream:
-            typed = with_types(batch, types) if types else batch
             if writer is not None:
-                writer.write(typed if writer.kind == "parquet" else batch)
+                writer.write(batch)
             if flagged_writer is not None:
                 import polars as pl
 
-                rows = typed if flagged_writer.kind == "parquet" else batch
-                flagged_writer.write(rows.filter(pl.col("error") != ""))
+                flagged_writer.write(batch.filter(pl.col("error") != ""))
             if progress:
                 click.echo("\r" + _bar(share.next(), tally.rows), err=True, nl=False)
     except BaseException:

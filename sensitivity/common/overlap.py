@@ -165,3 +165,37 @@ class WriteBehind:
             _put(self._queue, _END, self._stop)
             self._worker.join()
         self._raise()
+
+
+class in_background:  # noqa: N801 - used as a function that starts work at once
+    """`func(*args)` computed in a second thread, started at once; `result()` waits for it and
+    returns it (or raises its error) in the caller's thread, as often as asked.
+
+    Examples
+    --------
+    >>> in_background(sum, [1, 2, 3]).result()
+    6
+    """
+
+    def __init__(self, func: Callable[..., T], *args: Any) -> None:
+        self._done = threading.Event()
+        self._value: Any = None
+        self._error: BaseException | None = None
+        worker = threading.Thread(target=self._run, args=(func, args), name="background",
+                                  daemon=True)  # fmt: skip
+        _started(worker, lambda: None)  # nothing to stop: it ends when func returns
+
+    def _run(self, func: Callable[..., Any], args: tuple) -> None:
+        try:
+            self._value = func(*args)
+        except BaseException as err:  # noqa: BLE001 - handed to the caller's thread
+            self._error = err
+        finally:
+            self._done.set()
+            _ended(threading.current_thread())
+
+    def result(self) -> Any:
+        self._done.wait()
+        if self._error is not None:
+            raise self._error
+        return self._value

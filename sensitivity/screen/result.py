@@ -6,6 +6,7 @@ import tempfile
 import weakref
 from collections.abc import Iterator
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -196,7 +197,7 @@ class Values:
         self.count = 0
         self._held: list[np.ndarray] = []
         self._n_held = 0
-        self._file = None
+        self._file: Any = None  # the anonymous temporary file, once values go to it
         self._spilled = 0  # values in the file (a failed write's part beyond is never read)
         self._spill = True
 
@@ -220,7 +221,7 @@ class Values:
                 self._file = _temporary()
                 self._closer = weakref.finalize(self, self._file.close)
             self._file.seek(self._spilled * 8)
-            view = memoryview(data).cast("B")
+            view = memoryview(data.data).cast("B")
             while view:
                 view = view[self._file.write(view) :]
         except OSError:  # no room for a temporary file: the values stay in memory
@@ -235,7 +236,7 @@ class Values:
         spilled, held = self._spilled, list(self._held)
         for start in range(0, spilled, HELD_VALUES):
             piece = np.empty(min(HELD_VALUES, spilled - start))
-            view = memoryview(piece).cast("B")
+            view = memoryview(piece.data).cast("B")
             self._file.seek(start * 8)
             while view:
                 got = self._file.readinto(view)
@@ -252,7 +253,7 @@ class Values:
         return {"values": self.values()}
 
     def __setstate__(self, state: dict) -> None:
-        self.__init__()
+        Values.__init__(self)
         self.append(state["values"])
 
     def median(self) -> float | None:
@@ -289,7 +290,9 @@ def _ranked(store: Values, ranks: tuple[int, ...]) -> list[float]:
         for r, s in state.items():
             if r not in found:
                 groups.setdefault((s["prefix"], s["bits"]), []).append(r)
-        gather = {g: [] for g, rs in groups.items() if state[rs[0]]["size"] <= HELD_VALUES}
+        gather: dict[tuple[int, int], list[np.ndarray]] = {
+            g: [] for g, rs in groups.items() if state[rs[0]]["size"] <= HELD_VALUES
+        }
         counts = {g: np.zeros(1 << 16, np.int64) for g in groups if g not in gather}
         for piece in store.pieces():
             keys = _keys(piece)
@@ -319,8 +322,8 @@ def _ranked(store: Values, ranks: tuple[int, ...]) -> list[float]:
                 s["prefix"], s["bits"] = (s["prefix"] << 16) | bucket, s["bits"] + 16
                 if s["bits"] == 64:  # one key: one value
                     key = np.array([s["prefix"]], np.uint64)
-                    bits = np.where(key >= _SIGN, key ^ _SIGN, ~key)
-                    found[r] = float(bits.view(float)[0])
+                    raw = np.where(key >= _SIGN, key ^ _SIGN, ~key)
+                    found[r] = float(raw.view(float)[0])
     return [found[r] for r in ranks]
 
 

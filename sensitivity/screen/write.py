@@ -4,7 +4,7 @@ batch through `output.streams.TableWriter` (the one writer; memory stays flat)."
 from __future__ import annotations
 
 import sys
-from collections.abc import Collection
+from collections.abc import Callable, Collection
 from pathlib import Path
 from typing import Any
 
@@ -20,10 +20,12 @@ def check_table_path(output: str | Path) -> None:
         raise InputError(f"`output`: folder {str(Path(output).parent)!r} does not exist", "output")
 
 
-def table_writer(output: str | Path | None, fmt: str, trusted: Collection[str] = ()) -> Any:
+def table_writer(output: str | Path | None, fmt: str, trusted: Collection[str] = (),
+                 convert: Callable[[Any], Any] | None = None) -> Any:  # fmt: skip
     """A writer for the screened table: to `output` (format by extension), else to stdout when
     `fmt` is csv or json, else None (only the summary is shown). `trusted`: the text
-    columns the screen computed, left as they are (see `output.streams.defuse_frame`).
+    columns the screen computed, left as they are (see `output.streams.defuse_frame`);
+    `convert`: what a Parquet file's pieces go through first (see `TableWriter`).
 
     Examples
     --------
@@ -35,7 +37,7 @@ def table_writer(output: str | Path | None, fmt: str, trusted: Collection[str] =
     from ..output.streams import TableWriter
 
     if output is not None:
-        return TableWriter(output, trusted=trusted)
+        return TableWriter(output, trusted=trusted, convert=convert)
     if fmt in ("csv", "json"):
         return StdoutTable(fmt, trusted)
     return None
