@@ -123,17 +123,10 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
             raise click.UsageError(f"data input needs {', '.join(missing)} as well")
         import threading
 
-        # what the data route loads before its pass, loaded before matplotlib starts
-        import polars  # noqa: F401
-        import scipy.linalg.lapack  # noqa: F401
-        import threadpoolctl  # noqa: F401
-
-        import sensitivity.adapters.onepass  # noqa: F401
         from sensitivity.adapters.models import evalue_from_data, ols_report_from_data
         from sensitivity.output.report import preload
 
-        # matplotlib loads in a second thread while the data are read (the figures come
-        # after); the data route's own modules first, or its start would wait on the import
+        # matplotlib loads in a second thread while the data are read (the figures come after)
         loading = threading.Thread(target=preload, name="load-matplotlib", daemon=True)
         loading.start()
         try:
