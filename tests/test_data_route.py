@@ -427,3 +427,51 @@ def test_an_alpha_whose_level_rounds_to_1_leaves_the_evalue_interval_out(run, tm
     assert any("rounds to 1" in n for n in res.all_notes())
     with pytest.raises(InputError, match="`alpha` must be at least 1.2e-16"):
         evalue_from_data(frame, formula, "rate_marriage", "ols", alpha=1e-17)
+
+
+def _stray_word_file(path: Path, at: int) -> Path:
+    """An invented walking-programme table (falls, age, region) whose age column holds one
+    word ('unknown') at data row `at`."""
+    rng = np.random.default_rng(11)
+    n = 3000
+    age = rng.integers(40, 90, n).astype(object)
+    age[at] = "unknown"
+    walk = rng.integers(0, 2, n)
+    fall = (rng.random(n) < 0.2 + 0.1 * walk).astype(int)
+    region = rng.choice(["north", "south", "west"], n)
+    pd.DataFrame({"fall": fall, "walk": walk, "age": age, "region": region}).to_csv(
+        path, index=False
+    )
+    return path
+
+
+@pytest.mark.parametrize("at", [5, 2990])
+@pytest.mark.parametrize(
+    "command",
+    [["evalue", "--model", "ols"], ["evalue", "--model", "logit"], ["evalue", "--model", "poisson"],
+     ["partial-r2"]],
+)  # fmt: skip
+def test_a_word_in_a_number_column_is_refused_not_made_categories(run, tmp_path, command, at):
+    # a user's review found evalue --data running for ten minutes: 'unknown' in a number column
+    # made every distinct age a category (a design as wide as the ages are many)
+    src = _stray_word_file(tmp_path / "walk.csv", at)
+    res = run(*command[:1], "--data", src, "--formula", "fall ~ walk + age + region",
+              "--treatment", "walk", *command[1:])  # fmt: skip
+    assert res.exit_code == 2, res.stderr
+    line = res.stderr.strip().splitlines()[-1]
+    assert "column 'age' is used as a number" in line and "'unknown'" in line
+    assert "C(age)" in line
+
+
+def test_a_text_column_of_words_is_still_categories_without_c(run, tmp_path):
+    # region is words, not numbers with a stray word: coded as categories, as patsy does
+    src = _stray_word_file(tmp_path / "walk.csv", 5)
+    table = pd.read_csv(src)
+    table["age"] = pd.to_numeric(table["age"], errors="coerce").fillna(60)
+    table.to_csv(src, index=False)
+    res = run("evalue", "--data", src, "--formula", "fall ~ walk + age + region",
+              "--treatment", "walk", "--model", "logit", "--format", "json")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    fitted = smf.logit("fall ~ walk + age + region", table).fit(disp=0)  # the reference
+    got = json.loads(res.stdout)
+    assert np.isclose(np.log(got["estimate"]), fitted.params["walk"], rtol=1e-7)

@@ -86,6 +86,37 @@ def plain_terms(formula: str) -> tuple[str, list[Term], bool] | None:
     return outcome, terms, intercept
 
 
+#: A column a formula uses as a number (not C(col)) whose cells are at least this share
+#: numbers is taken for a number column with stray text, not for categories.
+MOSTLY_NUMBERS = 0.9
+
+
+def refuse_numbers_held_as_text(column: str, cells: Any) -> None:
+    """InputError when a text column used as a plain term (not ``C(col)``) is mostly numbers:
+    a stray word ("unknown") in a number column would otherwise make every distinct number
+    a category, a design as wide as the values are many. `cells`: the column's cells as
+    text (a polars or Arrow array, or a sequence; missing cells are not counted)."""
+    import polars as pl
+
+    text = pl.Series(values=cells) if not isinstance(cells, pl.Series) else cells
+    text = text.cast(pl.String).str.strip_chars()
+    filled = text.filter(text.is_not_null() & (text != ""))
+    if not filled.len():
+        return
+    numbers = filled.cast(pl.Float64, strict=False)
+    read = int(numbers.is_not_null().sum())
+    if read == filled.len() or read < MOSTLY_NUMBERS * filled.len():
+        return
+    first = filled.filter(numbers.is_null())[0]
+    raise InputError(
+        f"`data`: column {column!r} is used as a number in the formula, but cells such as "
+        f"{first!r} are not numbers ({filled.len() - read:,} of {filled.len():,} filled "
+        f"cells); blank or correct them, or write C({column}) to code the column as "
+        "categories",
+        "data",
+    )
+
+
 # --------------------------------------------------------------------------- R factor
 class TriangularFactor:
     """The R of a QR decomposition of every row added so far; columns may be added (zero on
@@ -247,6 +278,8 @@ def plain_design(source: Source, outcome: str, terms: list[Term], intercept: boo
                     parts.append((1, np.ones(rows)))
                 for term in terms:
                     kind, values = batch[term.column]
+                    if not term.wrapped and kind not in FLOATS:  # text where a number is used
+                        refuse_numbers_held_as_text(term.column, values)
                     if term.kind in NUMERIC and kind in NUMERIC:
                         kind = "number" if "number" in (kind, term.kind) else kind  # NA: floats
                     elif term.kind and term.kind != kind:
