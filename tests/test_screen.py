@@ -957,3 +957,19 @@ def test_partitions_merged_keep_the_exact_median():
     assert merged.per_scale["rr"]["median_evalue"] == pytest.approx(
         float(np.median(evalue_of_rr(everything))), rel=1e-12
     )
+
+
+def test_a_true_false_column_is_kept_as_true_false_in_parquet(run, tmp_path):
+    # a user's review: a column of true/false stopped the Parquet output with an internal
+    # error (polars casts no text to Boolean); the reference is polars reading the whole file
+    import polars as pl
+
+    src = tmp_path / "flags.csv"
+    src.write_text("scale,estimate,lower,upper,flag\nrr,1.5,1.2,1.9,true\n"
+                   "rr,1.6,1.2,1.9,FALSE\nrr,1.7,1.3,2.0,\nrr,1.8,1.3,2.1,True\n")  # fmt: skip
+    res = run("screen", src, "--output", tmp_path / "o.parquet")
+    assert res.exit_code == 0, res.stderr
+    got = pl.read_parquet(tmp_path / "o.parquet")["flag"]
+    expected = pl.read_csv(src, infer_schema_length=None)["flag"]
+    assert got.dtype == expected.dtype == pl.Boolean
+    assert got.to_list() == expected.to_list() == [True, False, None, True]

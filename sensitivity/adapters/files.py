@@ -243,11 +243,20 @@ def with_types(frame: Any, types: dict[str, Any]) -> Any:
              and frame.schema[name] == pl.String and dtype != pl.String]  # fmt: skip
     if not names:
         return frame
+    # true/false as polars reads them in a file (any case; a blank cell missing): polars
+    # casts no text to Boolean, so they are matched here
+    flags = [name for name in names if types[name] == pl.Boolean]
+    names = [name for name in names if name not in flags]
+    casts = []
+    for name in flags:
+        word = pl.col(name).str.to_lowercase()
+        casts.append(pl.when(word == "true").then(True).when(word == "false").then(False)
+                     .otherwise(None).alias(name))  # fmt: skip
     # Nearly every cell reads as it is (no spaces around it, no decimal comma): cast directly,
     # and take the long way below only for a column where some filled cell did not
     direct = frame.select(pl.col(name).cast(types[name], strict=False) for name in names)
     missed = {name: bool((direct[name].is_null() & (frame[name] != "")).any()) for name in names}
-    casts = [direct[name] for name in names if not missed[name]]
+    casts += [direct[name] for name in names if not missed[name]]
     for name in (name for name in names if missed[name]):
         dtype = types[name]
         cell = pl.col(name).str.strip_chars()
