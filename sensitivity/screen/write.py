@@ -65,11 +65,12 @@ class StdoutTable:
         Path(self._tmp.name).unlink(missing_ok=True)
 
     def close(self, extra: dict | None = None) -> None:
-        import os
         import shutil
 
-        self._writer.close(extra)
-        with open(self._tmp.name, "rb") as fh:
-            shutil.copyfileobj(fh, sys.stdout.buffer)
-        sys.stdout.buffer.flush()
-        os.unlink(self._tmp.name)
+        try:
+            self._writer.close(extra)
+            with open(self._tmp.name, "rb") as fh:
+                shutil.copyfileobj(fh, sys.stdout.buffer)
+            sys.stdout.buffer.flush()
+        finally:  # also when the reader of stdout stops early (a closed pipe)
+            Path(self._tmp.name).unlink(missing_ok=True)
