@@ -133,3 +133,17 @@ def test_a_nul_in_a_column_name_is_written_or_refused_never_a_panic(suffix, tmp_
     writer.write(frame)
     writer.close()
     assert (tmp_path / f"t{suffix}").read_bytes().count(b"=1+1") == 1
+
+
+def test_an_interrupt_while_closing_still_removes_the_temporary_file(tmp_path):
+    # a user's review: Ctrl-C during a screen left .out.XXXX.csv beside the output, as the
+    # interrupt reached the writer being closed and the removal was skipped
+    writer = TableWriter(tmp_path / "out.csv")
+    writer.write(pl.DataFrame({"a": ["1", "2"]}))
+
+    def interrupted() -> None:
+        raise KeyboardInterrupt
+
+    writer._behind.close = interrupted
+    writer.abort()
+    assert list(tmp_path.iterdir()) == []

@@ -452,15 +452,17 @@ class TableWriter:
         (the target, if it existed, is left as it was)."""
         from .atomic import discard
 
-        for closer in (self._behind, self._disk, self._writer, self._sink):
-            try:
-                if closer is not None:
-                    closer.close()
-            except Exception:  # noqa: BLE001, S110 - the first error is the one to report
-                pass
-        self._behind = self._disk = self._writer = self._sink = None
-        discard(self._tmp)
-        self._tmp = None
+        try:
+            for closer in (self._behind, self._disk, self._writer, self._sink):
+                try:
+                    if closer is not None:
+                        closer.close()
+                except BaseException:  # noqa: BLE001, S110 - the first error is the one to report
+                    pass  # (a Ctrl-C's interrupt reaches a closing writer too)
+        finally:  # the temporary file goes whatever happened above
+            self._behind = self._disk = self._writer = self._sink = None
+            discard(self._tmp)
+            self._tmp = None
 
     def _finish(self, extra: dict | None) -> None:
         import orjson
