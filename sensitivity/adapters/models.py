@@ -28,6 +28,7 @@ from .errors import (
     robust_refit,
     used_by,
 )
+from .rfactor import refuse_numbers_in_frame
 
 KINDS = ("ols", "logit", "poisson", "negbin", "cox")
 SHOWN = {"logit": "logistic", "log-binomial": "log-binomial", "poisson": "Poisson",
@@ -327,34 +328,13 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
     return replace(res, notes=(note, errors, *res.notes), model=info)
 
 
-def _refuse_numbers_held_as_text(data: Any, formula: str) -> None:
-    """InputError for a text column the formula uses as a plain term while its cells are
-    nearly all numbers (see `rfactor.refuse_numbers_held_as_text`): patsy would code every
-    distinct number as a category."""
-    from .rfactor import plain_terms, refuse_numbers_held_as_text
-
-    parsed = plain_terms(formula)
-    if parsed is None or not hasattr(data, "dtypes"):
-        return
-    for term in parsed[1]:
-        if term.wrapped or term.column not in data.columns:
-            continue
-        if data[term.column].dtype.kind in "biufc":
-            continue
-        cells = [None if v is None or v != v else str(v) for v in data[term.column].tolist()]
-        refuse_numbers_held_as_text(term.column, cells)
-
-
 def fit(
     data: Any, formula: str, model: str, event: str | None = None, errors: str | None = None
 ) -> Any:
-    """Fit `formula` on a DataFrame with the statsmodels model `model` names; InputError for
-    a formula, outcome or event the fit cannot use, a model that does not converge, and
-    perfect separation.
-
+    """Fit `formula` on a DataFrame with the statsmodels model `model` names; InputError for a
+    formula, outcome or event the fit cannot use, no convergence, and perfect separation.
     `errors` (classical, hc0-hc3, cluster:COL; see `adapters.errors`) chooses the standard
-    errors; by default hc0 for a Poisson fit of a 0/1 outcome and classical otherwise.
-    """
+    errors: by default hc0 for a Poisson fit of a 0/1 outcome, and classical otherwise."""
     import statsmodels.formula.api as smf
 
     if errors is not None:
@@ -370,7 +350,7 @@ def fit(
         raise InputError(f"`event` applies to model cox only; got model {model}", "event")
     if event is not None and event not in data.columns:
         raise InputError(f"`event` {event!r} is not a column of the data", "event")
-    _refuse_numbers_held_as_text(data, formula)
+    refuse_numbers_in_frame(data, formula)  # a stray word would make each number a category
     fitters = {
         "ols": lambda: smf.ols(formula, data).fit(),
         "logit": lambda: smf.logit(formula, data).fit(disp=0),

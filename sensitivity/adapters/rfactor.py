@@ -87,15 +87,17 @@ def plain_terms(formula: str) -> tuple[str, list[Term], bool] | None:
 
 
 #: A column a formula uses as a number (not C(col)) whose cells are at least this share
-#: numbers is taken for a number column with stray text, not for categories.
+#: numbers, with more than MANY_NUMBERS distinct ones, is taken for a number column with
+#: stray text, not for categories (a few codes and a word stay categories, as patsy has them).
 MOSTLY_NUMBERS = 0.9
+MANY_NUMBERS = 50
 
 
 def refuse_numbers_held_as_text(column: str, cells: Any) -> None:
-    """InputError when a text column used as a plain term (not ``C(col)``) is mostly numbers:
-    a stray word ("unknown") in a number column would otherwise make every distinct number
-    a category, a design as wide as the values are many. `cells`: the column's cells as
-    text (a polars or Arrow array, or a sequence; missing cells are not counted)."""
+    """InputError when a text column used as a plain term (not ``C(col)``) is mostly numbers
+    of many values: a stray word ("unknown") in a number column would otherwise make every
+    distinct number a category, a design as wide as the values are many. `cells`: the
+    column's cells as text (polars or Arrow, or a sequence; missing cells not counted)."""
     import polars as pl
 
     text = pl.Series(values=cells) if not isinstance(cells, pl.Series) else cells
@@ -107,6 +109,8 @@ def refuse_numbers_held_as_text(column: str, cells: Any) -> None:
     read = int(numbers.is_not_null().sum())
     if read == filled.len() or read < MOSTLY_NUMBERS * filled.len():
         return
+    if numbers.drop_nulls().n_unique() <= MANY_NUMBERS:
+        return
     first = filled.filter(numbers.is_null())[0]
     raise InputError(
         f"`data`: column {column!r} is used as a number in the formula, but cells such as "
@@ -115,6 +119,15 @@ def refuse_numbers_held_as_text(column: str, cells: Any) -> None:
         "categories",
         "data",
     )
+
+
+def refuse_numbers_in_frame(data: Any, formula: str) -> None:
+    """`refuse_numbers_held_as_text` for each plain term's text column of a pandas frame."""
+    parsed = plain_terms(formula)
+    for term in parsed[1] if parsed is not None and hasattr(data, "dtypes") else ():
+        if not term.wrapped and term.column in data.columns and data[term.column].dtype.kind == "O":
+            cells = [None if v is None or v != v else str(v) for v in data[term.column].tolist()]
+            refuse_numbers_held_as_text(term.column, cells)
 
 
 # --------------------------------------------------------------------------- R factor
