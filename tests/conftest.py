@@ -15,14 +15,13 @@ ROOT = Path(__file__).resolve().parent.parent
 CASES = ROOT / "reference_cases"
 
 
-def first_example(command: str) -> list[str]:
-    """The first example in the command's --help, as arguments (after `sensitivity`)."""
-    import shlex
-
+def help_examples(command: str) -> list[str]:
+    """The examples in a command's --help (`command` may be "screen" or a group's words),
+    each as printed, lines continued with a backslash joined."""
     from cli import cli
 
-    text = CliRunner().invoke(cli, [command, "--help"], terminal_width=200).stdout
-    current = ""
+    text = CliRunner().invoke(cli, [*command.split(), "--help"], terminal_width=200).stdout
+    lines, current = [], ""
     for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
         line = raw.strip()
         if not line:
@@ -31,8 +30,19 @@ def first_example(command: str) -> list[str]:
         if current.endswith("\\"):
             current = current[:-1].strip()
             continue
-        return shlex.split(current)[1:]
-    raise AssertionError(f"{command} --help has no example")
+        lines.append(current)
+        current = ""
+    return lines
+
+
+def first_example(command: str) -> list[str]:
+    """The first example in the command's --help, as arguments (after `sensitivity`)."""
+    import shlex
+
+    examples = help_examples(command)
+    if not examples:
+        raise AssertionError(f"{command} --help has no example")
+    return shlex.split(examples[0])[1:]
 
 
 def load_cases(*names):

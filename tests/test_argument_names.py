@@ -21,7 +21,7 @@ from click.testing import CliRunner
 from conftest import ROOT, first_example
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
-from test_fuzz import CALLS, NASTY, SLOTS
+from test_fuzz import NASTY, SLOTS, with_value
 
 import sensitivity as s
 from cli import cli
@@ -78,13 +78,8 @@ def test_every_library_error_carries_the_arguments_its_message_names(slot, value
     """Over the public API and nasty values: each argument an InputError carries is named in
     its message, no message names a command-line option, and an error whose message leads with
     the argument that was given the bad value carries that argument."""
-    name, (kind, where) = slot
-    func, args, kwargs = CALLS[name]
-    args, kwargs = list(args), dict(kwargs)
-    if kind == "arg":
-        args[where] = value
-    else:
-        kwargs[where] = value
+    _, (kind, where) = slot
+    func, args, kwargs = with_value(slot, value)
     try:
         func(*args, **kwargs)
     except InputError as err:

@@ -10,7 +10,7 @@ import shutil
 
 import pytest
 from click.testing import CliRunner
-from conftest import ROOT
+from conftest import ROOT, help_examples
 
 from cli import cli
 
@@ -150,23 +150,7 @@ def test_a_missing_file_exits_2(run, tmp_path):
     assert res.exit_code == 2 and "Error:" in res.stderr
 
 
-def _examples(command):
-    text = CliRunner().invoke(cli, [*command.split(), "--help"], terminal_width=200).stdout
-    lines, current = [], ""
-    for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
-        line = raw.strip()
-        if not line:
-            continue
-        current = f"{current} {line}".strip()
-        if current.endswith("\\"):
-            current = current[:-1].strip()
-            continue
-        lines.append(current)
-        current = ""
-    return lines
-
-
-@pytest.mark.parametrize("example", _examples("pool"))
+@pytest.mark.parametrize("example", help_examples("pool"))
 def test_help_examples_run(example, tmp_path, monkeypatch):
     shutil.copytree(ROOT / "demo", tmp_path / "demo")
     monkeypatch.chdir(tmp_path)

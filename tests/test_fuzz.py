@@ -65,6 +65,19 @@ def _slots(name):
 SLOTS = [(name, slot) for name in CALLS for slot in _slots(name)]
 
 
+def with_value(slot, value):
+    """The call of `slot` (a name of CALLS, and its positional index or keyword) with `value`
+    in that place: the function, its positional arguments and its keywords."""
+    name, (kind, where) = slot
+    func, args, kwargs = CALLS[name]
+    args, kwargs = list(args), dict(kwargs)
+    if kind == "arg":
+        args[where] = value
+    else:
+        kwargs[where] = value
+    return func, args, kwargs
+
+
 def _finite_numbers(result):
     """Every number a result reports is finite or a stated null, never a silent NaN: the
     JSON form (to_dict) holds None where a value is missing, so NaN must not appear."""
@@ -85,13 +98,7 @@ def _finite_numbers(result):
 @settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(st.sampled_from(SLOTS), st.sampled_from(NASTY))
 def test_the_public_api_raises_value_errors_or_returns_a_printable_result(slot, value):
-    name, (kind, where) = slot
-    func, args, kwargs = CALLS[name]
-    args, kwargs = list(args), dict(kwargs)
-    if kind == "arg":
-        args[where] = value
-    else:
-        kwargs[where] = value
+    func, args, kwargs = with_value(slot, value)
     try:
         result = func(*args, **kwargs)
     except ValueError:
@@ -112,18 +119,12 @@ HELPERS = ("to_risk_ratio", "to_risk_ratio_md", "from_risk_ratio", "evalue_of_in
 def test_every_low_level_helper_raises_or_gives_a_number_at_every_nasty_value(slot, value):
     """Each helper's every argument at every nasty value, exhaustively (the sampled property
     above may miss a slot): InputError, or numbers that are NaN only where NaN was given."""
-    name, (kind, where) = slot
-    func, args, kwargs = CALLS[name]
-    args, kwargs = list(args), dict(kwargs)
-    if kind == "arg":
-        args[where] = value
-    else:
-        kwargs[where] = value
+    func, args, kwargs = with_value(slot, value)
     try:
         result = func(*args, **kwargs)
     except ValueError:
         return
-    assert not np.any(np.isnan(result)) or value is None or _is_nan(value), (name, value)
+    assert not np.any(np.isnan(result)) or value is None or _is_nan(value), (slot, value)
 
 
 @settings(max_examples=400, deadline=None)

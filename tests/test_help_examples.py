@@ -5,30 +5,14 @@ import shutil
 
 import pytest
 from click.testing import CliRunner
-from conftest import ROOT
+from conftest import ROOT, help_examples
 
 from cli import cli
 from sensitivity.commands import COMMANDS
 
 
 def _examples():
-    runner = CliRunner()
-    found = []
-    for command in COMMANDS:
-        text = runner.invoke(cli, [command, "--help"], terminal_width=200).stdout
-        lines, current = [], ""
-        for raw in text.split("Examples:")[1].split("Options:")[0].splitlines():
-            line = raw.strip()
-            if not line:
-                continue
-            current = f"{current} {line}".strip()
-            if current.endswith("\\"):
-                current = current[:-1].strip()
-                continue
-            lines.append(current)
-            current = ""
-        found += [(command, cmd) for cmd in lines]
-    return found
+    return [(command, line) for command in COMMANDS for line in help_examples(command)]
 
 
 EXAMPLES = _examples()
