@@ -61,7 +61,8 @@ def probe_points(lo, hi, near=()):
         wide = np.logspace(-12, 12, 4_001)
         parts += [wide, -wide] if not math.isfinite(lo) else [lo + wide]
         for c in near:
-            if np.isfinite(c):
+            if np.isfinite(c) and abs(c) <= 1e307:  # c +- |c| stays a double (a crossing at
+                # 4.5e307, from a prevalence of 2.2e-308, overflowed the grid itself)
                 span = max(1.0, abs(c))
                 parts.append(np.linspace(c - span, c + span, 20_001))
     x = np.concatenate(parts + [np.array([lo, hi])])
