@@ -220,12 +220,70 @@ def test_parquet_types_are_the_whole_files_even_when_a_late_piece_demotes_one(
     assert bad.height == 0 and bad.schema == out.schema
 
 
+@pytest.mark.parametrize("late", ["7", "2.5", "x7"])
+def test_parquet_pieces_written_with_the_first_pieces_types_are_rewritten_when_wrong(
+    run, tmp_path, monkeypatch, late
+):
+    # The writer does not wait for the whole file's types: it writes its first pieces with
+    # the types of the file's first piece (here a few lines: `dose` reads as whole numbers)
+    # and keeps them until the file's types are known (held back here until three pieces are
+    # written). A decimal or a word in the last line makes `dose` Float64 or String: the
+    # three pieces are written again. The file is what polars reads from the whole text (the
+    # reference), and the flagged rows' file has its types too.
+    import threading
+
+    import sensitivity.adapters.files as files
+    from sensitivity.output import parquet
+
+    monkeypatch.setattr(files, "FRAME_BYTES", 256)
+    monkeypatch.setattr(files, "FIRST_FRAME_BYTES", 256)
+    monkeypatch.setattr(files, "TYPE_PIECE_BYTES", (64, 256))
+    written: list[int] = []
+    three = threading.Event()
+    write_piece = parquet.ParquetPieces._write
+
+    def counted(self, frame):
+        write_piece(self, frame)
+        if frame.height:  # the screened rows' file (no row is flagged)
+            written.append(frame.height)
+            if len(written) == parquet.GUESSED_PIECES:
+                three.set()
+
+    text_types = files.text_types
+
+    def held_back(*args, **kwargs):
+        found = text_types(*args, **kwargs)
+        three.wait(30)
+        return found
+
+    monkeypatch.setattr(parquet.ParquetPieces, "_write", counted)
+    monkeypatch.setattr(files, "text_types", held_back)
+    lines = ["id,scale,estimate,lower,upper,dose"]
+    lines += [f"{i},rr,1.5,1.2,1.9,{i % 9}" for i in range(300)] + [f"300,rr,1.5,1.2,1.9,{late}"]
+    src = tmp_path / "late.csv"
+    src.write_text("\n".join(lines) + "\n")
+    res = run("screen", src, "--output", tmp_path / "out.parquet", "--flagged",
+              tmp_path / "bad.parquet")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    whole = pl.read_csv(src, infer_schema_length=None)
+    assert whole.schema["dose"] == {"7": pl.Int64, "2.5": pl.Float64, "x7": pl.String}[late]
+    out = pl.read_parquet(tmp_path / "out.parquet")
+    for name in whole.columns:
+        assert out.schema[name] == whole.schema[name], name
+        assert out[name].equals(whole[name]), name
+    rewritten = 0 if late == "7" else parquet.GUESSED_PIECES
+    assert sum(written) == whole.height + sum(written[:rewritten])
+    bad = pl.read_parquet(tmp_path / "bad.parquet")
+    assert bad.height == 0 and bad.schema == out.schema
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["bad.parquet", "late.csv", "out.parquet"]
+
+
 def test_an_error_while_inferring_parquet_types_leaves_no_file(run, tmp_path, monkeypatch):
     # The inference runs beside the screen: its error reaches the command, and nothing is
     # left under the output's name (the previous file stays as it was).
     import sensitivity.adapters.files as files
 
-    def fail(path, delimiter):
+    def fail(path, delimiter, early=None):
         raise OSError("the disk went away")
 
     monkeypatch.setattr(files, "text_types", fail)

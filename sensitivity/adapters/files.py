@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -156,7 +157,10 @@ def resolve_delimiter(path: str | Path, delimiter: str = "auto", argument: str =
     return text_delimiter(p, kind, delimiter) if kind in ("csv", "tsv") else ""
 
 
-def text_types(path: str | Path, delimiter: str) -> dict[str, Any]:
+Early = Callable[[dict[str, Any]], None] | None
+
+
+def text_types(path: str | Path, delimiter: str, early: Early = None) -> dict[str, Any]:
     """The type of each column of a text table, inferred by polars from the whole file:
     Int64 or Float64 where every cell is a number (a decimal comma read as one in a file with
     ';' between cells), String otherwise. A scan: the file is read, not held.
@@ -167,9 +171,13 @@ def text_types(path: str | Path, delimiter: str) -> dict[str, Any]:
     piece of the file (a few thousand where a column holds rounded numbers), and a column
     found to be text in one piece is not read again. Pieces that disagree otherwise (say
     Int64 in one, Float64 in another), or any piece polars cannot read whole, send the file
-    to polars' own inference over the whole file."""
+    to polars' own inference over the whole file.
+
+    `early`, if given, is told the types of the file's first piece (512 KiB) as soon as they
+    are known: what the file's types would be if it ended there (a guess, see
+    `late_types.LateTypes`)."""
     try:
-        types = _types_by_piece(Path(path), delimiter)
+        types = _types_by_piece(Path(path), delimiter, early)
     except Exception:  # noqa: BLE001 - the whole-file inference decides (and says what is wrong)
         types = None
     return _whole_file_types(path, delimiter) if types is None else types
@@ -189,8 +197,9 @@ def _whole_file_types(path: str | Path, delimiter: str) -> dict[str, Any]:
     return dict(scan.collect_schema())
 
 
-def _types_by_piece(path: Path, delimiter: str) -> dict[str, Any] | None:
-    """`text_types` a piece at a time (None where only the whole file can tell)."""
+def _types_by_piece(path: Path, delimiter: str, early: Early = None) -> dict[str, Any] | None:
+    """`text_types` a piece at a time (None where only the whole file can tell); `early` is
+    told the first piece's types."""
     import io
 
     import polars as pl
@@ -209,6 +218,7 @@ def _types_by_piece(path: Path, delimiter: str) -> dict[str, Any] | None:
         piece = pl.read_csv(head + body, separator=delimiter, infer_schema=False,
                             columns=open_)  # fmt: skip
         names = piece.columns if names is None else names
+        whole = False  # only the whole file can tell (said after the first piece's guess)
         for name in piece.columns:
             filled = piece[name].drop_nulls()
             texts = filled.unique()
@@ -226,10 +236,15 @@ def _types_by_piece(path: Path, delimiter: str) -> dict[str, Any] | None:
                                infer_schema_length=None).collect_schema()["x"]  # fmt: skip
             if kind == pl.String:
                 found[name] = pl.String
-            elif crowded:
-                return None
+            elif crowded:  # the first piece (a later one has returned above)
+                found[name] = kind
+                whole = True
             elif found.setdefault(name, kind) != kind:
                 return None  # e.g. Int64 here, Float64 there: the whole file decides
+        if opening and early is not None and len(set(names)) == len(names):
+            early({name: found.get(name, pl.String) for name in names})
+        if whole:
+            return None
     if names is None or len(set(names)) != len(names):
         return None
     return {name: found.get(name, pl.String) for name in names}  # a column with no cell: text

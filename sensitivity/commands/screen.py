@@ -150,7 +150,7 @@ def screen_cmd(
     # the first pieces of the file are parsed (polars, in a second thread) while the rest of
     # the screen is imported and the options are checked
 
-    from sensitivity.adapters.files import Share, read_frames, resolve_delimiter, with_types
+    from sensitivity.adapters.files import Share, read_frames, resolve_delimiter
     from sensitivity.common.overlap import read_ahead
 
     share = Share()
@@ -229,16 +229,13 @@ def screen_cmd(
     # Parquet keeps the input's column types: those polars infers from the whole text file (a
     # Parquet input's own types pass through as they are). The inference reads the whole file
     # in a thread of its own while the first pieces are screened; each Parquet writer casts
-    # its pieces in its own thread, waiting for the types (holding two pieces) if need be
+    # its pieces in its own thread, to the types the file's first piece says until the whole
+    # file's are known (and writes them again in the rare file where those differ)
     convert = None
     if mark and any(str(t).lower().endswith((".parquet", ".pq")) for t in (output, flagged) if t):
-        from sensitivity.adapters.files import text_types
-        from sensitivity.common.overlap import in_background
+        from sensitivity.adapters.late_types import LateTypes
 
-        types = in_background(text_types, file, mark)
-
-        def convert(frame: Any) -> Any:
-            return with_types(frame, types.result())
+        convert = LateTypes(file, mark)
 
     writer = table_writer(output, fmt, trusted, convert)
     flagged_writer = None if flagged is None else table_writer(flagged, "text", trusted, convert)

@@ -194,6 +194,10 @@ class in_background:  # noqa: N801 - used as a function that starts work at once
             self._done.set()
             _ended(threading.current_thread())
 
+    def done(self) -> bool:
+        """Whether `func` has returned (or raised): `result()` will not wait."""
+        return self._done.is_set()
+
     def result(self) -> Any:
         self._done.wait()
         if self._error is not None:

@@ -266,49 +266,6 @@ def _joined_parts(rows: Any, skip: int = 0) -> list:
     ]
 
 
-#: A text column of which more than this share of the first piece's filled cells are distinct
-#: (an identifier, free text) is written without a dictionary (see `parquet_options`).
-DISTINCT_TEXT = 0.9
-
-
-def parquet_options(first: Any, schema: Any) -> dict[str, Any]:
-    """pyarrow ParquetWriter settings for a table whose first piece is `first` (a polars
-    DataFrame) and whose Arrow schema is `schema`. What a reader gets back is what pyarrow's
-    defaults give: the same column types and values. Two things differ, for speed (1M screened
-    rows, measured for issue 26: 0.38 s of the writer's CPU against 0.54 s, and 25.5 MB against
-    27.2 MB):
-
-    - A text column of mostly distinct cells (an identifier) is stored without a dictionary.
-      pyarrow would hash every cell, fill a dictionary page with the first 1 MiB of them in each
-      row group and store the rest plainly anyway: the hashing (a sixth of the writer's time
-      here) bought nothing, and the file is a little smaller without that dictionary.
-    - A text column that keeps its dictionary (a few codes: a scale, a reason) is stored
-      without minimum, maximum and null count. pyarrow compares every cell to find them (a
-      sixth of the writer's time); over pieces that each hold most of the codes they would
-      let a reader skip no row group. Number columns and identifiers keep theirs.
-
-    Nested columns (a Parquet input's lists or structs) take pyarrow's defaults: these
-    settings name top-level columns only."""
-    import pyarrow as pa
-
-    if any(pa.types.is_nested(field.type) for field in schema):
-        return {}
-    text = [field.name for field in schema
-            if pa.types.is_string(field.type) or pa.types.is_large_string(field.type)]  # fmt: skip
-    if not text or len(set(schema.names)) != len(schema.names):
-        return {}
-    crowded = set()
-    for name in text:
-        filled = first[name].drop_nulls()
-        if len(filled) and filled.n_unique() > DISTINCT_TEXT * len(filled):
-            crowded.add(name)
-    codes = set(text) - crowded
-    return {
-        "use_dictionary": [name for name in schema.names if name not in crowded],
-        "write_statistics": [name for name in schema.names if name not in codes],
-    }
-
-
 class TableWriter:
     """Writes a table batch by batch to CSV, TSV, Parquet, Excel or JSON (by extension).
 
@@ -321,7 +278,8 @@ class TableWriter:
                  convert: Callable[[Any], Any] | None = None) -> None:  # fmt: skip
         """`trusted`: text columns the caller computed, left as they are (see defuse_frame).
         `convert`: for Parquet, applied to each polars frame in the writer's thread before it is
-        written (the screen's column types, which may still be being inferred: it may wait)."""
+        written (the screen's column types, which may still be being inferred: it may wait;
+        one that can guess them is not waited for at first, see `parquet.ParquetPieces`)."""
         from pathlib import Path
 
         self.path = Path(path)
@@ -392,8 +350,9 @@ class TableWriter:
                 if self.kind == "json":
                     self._sink.write(b'{"rows":[')
                 # Parquet may wait for its column types before the first piece: two pieces
-                # held in hand, so that the caller can go on meanwhile
-                depth = 2 if self.kind == "parquet" and self._convert is not None else 1
+                # held in hand, so that the caller can go on meanwhile (one, if it can guess)
+                waits = self.kind == "parquet" and not hasattr(self._convert, "guess")
+                depth = 2 if waits and self._convert is not None else 1
                 self._behind = WriteBehind(self._write_piece, depth)
             self._behind.put((frame, first))
             return
@@ -408,16 +367,11 @@ class TableWriter:
     def _write_piece(self, piece: tuple[Any, bool]) -> None:
         frame, first = piece
         if self.kind == "parquet":
-            import pyarrow.parquet as pq
-
-            if self._convert is not None:
-                frame = self._convert(frame)
-            arrow = frame.to_arrow()
             if self._writer is None:
-                self._writer = pq.ParquetWriter(
-                    str(self._temporary()), arrow.schema, **parquet_options(frame, arrow.schema)
-                )
-            self._writer.write_table(arrow.cast(self._writer.schema))
+                from .parquet import ParquetPieces
+
+                self._writer = ParquetPieces(self._temporary, self._convert)
+            self._writer.write(frame)
             return
         if self.kind != "json":
             separator = "," if self.kind == "csv" else "\t"
@@ -538,6 +492,6 @@ class TableWriter:
                 table = pa.table({n: defuse(table.column(n)) for n in table.column_names})
                 table.to_pandas().to_excel(self._temporary(), index=False)
         elif self._writer is not None:
-            self._writer.close()
+            self._writer.finish()
         elif self._sink is not None:
             self._sink.close()
