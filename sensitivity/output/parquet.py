@@ -62,12 +62,19 @@ class ParquetPieces:
     they are `ready` (`adapters.files.LateTypes`) is not waited for: up to GUESSED_PIECES
     pieces are written with the guess and kept. Once the types are known, or that many pieces
     are kept, the writer waits for them; where they differ from the guess, the file is begun
-    again from the pieces kept (see `_settle`)."""
+    again from the pieces kept (see `_settle`).
+
+    Each piece is turned to Arrow in the caller's thread, and encoded and written by pyarrow
+    in a thread of its own meanwhile (pyarrow's writer uses one core): for the screen, the
+    writer's thread had been the busiest of all (0.47 s of CPU for 1M rows, against the main
+    thread's 0.41 s)."""
 
     def __init__(self, temporary: Callable[[], Any], convert: Any = None) -> None:
         self._temporary = temporary
         self._convert = convert
-        self._writer: Any = None
+        self._schema: Any = None  # the Arrow schema of the file begun (None: none yet)
+        self._disk: Any = None  # the thread that encodes and writes the row groups
+        self._writer: Any = None  # pyarrow's, in that thread
         # pieces written with guessed types, kept until the types are known (None: known)
         self._held: list | None = [] if hasattr(convert, "guess") else None
 
@@ -82,14 +89,26 @@ class ParquetPieces:
             self._write(frame if convert is None else convert(frame))
 
     def _write(self, frame: Any) -> None:
+        arrow = frame.to_arrow()
+        if self._disk is None:
+            from ..common.overlap import WriteBehind
+
+            self._disk = WriteBehind(self._put_down)
+        if self._schema is None:  # the file begun (again): its schema, and how to write it
+            self._schema = arrow.schema
+            self._disk.put((arrow.schema, parquet_options(frame, arrow.schema)))
+        self._disk.put(arrow.cast(self._schema))
+
+    def _put_down(self, item: Any) -> None:
         import pyarrow.parquet as pq
 
-        arrow = frame.to_arrow()
-        if self._writer is None:
-            self._writer = pq.ParquetWriter(
-                str(self._temporary()), arrow.schema, **parquet_options(frame, arrow.schema)
-            )
-        self._writer.write_table(arrow.cast(self._writer.schema))
+        if isinstance(item, tuple):
+            if self._writer is not None:
+                self._writer.close()  # the same file is opened anew, empty
+            schema, options = item
+            self._writer = pq.ParquetWriter(str(self._temporary()), schema, **options)
+        else:
+            self._writer.write_table(item)
 
     def _settle(self) -> None:
         """Wait for the column types, and check the pieces written with the guess against
@@ -101,8 +120,7 @@ class ParquetPieces:
         convert = self._convert
         if convert.result() == convert.guess():
             return
-        self._writer.close()
-        self._writer = None  # the next opens the same file anew, empty
+        self._schema = None  # the next piece begins the file again
         for frame in held:
             self._write(convert(frame))
 
@@ -115,6 +133,11 @@ class ParquetPieces:
     def close(self) -> None:
         """Close the file as it stands (the caller removes an unfinished one)."""
         self._held = None
-        if self._writer is not None:
-            writer, self._writer = self._writer, None
-            writer.close()
+        try:
+            if self._disk is not None:
+                disk, self._disk = self._disk, None
+                disk.close()  # the last row groups written (or the first error raised)
+        finally:
+            if self._writer is not None:
+                writer, self._writer = self._writer, None
+                writer.close()
