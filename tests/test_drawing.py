@@ -185,3 +185,15 @@ def test_the_data_report_leaves_no_process_behind(tmp_path):
         ["evalue_1.png", "evalue_1.svg", "forest.png", "forest.svg", "partial_r2_1.png",
          "partial_r2_1.svg", "report.html", "report.json", "report.md", "tables.tex"]
     )  # fmt: skip
+
+
+def test_a_job_that_cannot_travel_is_drawn_here(jobs_module, tmp_path):
+    """A draw function that pickle cannot carry (a lambda) is drawn by this process."""
+    out = [tmp_path / f"figure_{k}" for k in range(3)]
+    jobs = [(functools.partial(jobs_module.mark, pause=0.3), [p]) for p in out[:2]]
+    jobs.append((lambda paths: jobs_module.mark(paths), [out[2]]))
+    with FigureWorker() as worker:
+        time.sleep(3)
+        worker.draw_all(jobs)
+    assert out[2].read_text() == str(os.getpid())
+    assert all(p.read_text() for p in out)
