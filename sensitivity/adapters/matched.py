@@ -49,7 +49,7 @@ def matched_differences(
                 f"`{argument}`: `data` has no column {col!r}; columns: {', '.join(frame.columns)}",
                 (argument, "data"),
             )
-    every = np.column_stack([_numbers(frame, col, decimal_comma) for col in cols])
+    every = np.column_stack([_numbers(frame, str(col), decimal_comma) for col in cols])
     bad = np.isnan(every).any(axis=1)
 
     def where(i: int) -> str:  # a file's line (the header is line 1), else the table's row
