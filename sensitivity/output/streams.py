@@ -299,6 +299,10 @@ class TableWriter:
                     "it (pip install openpyxl) or write .csv or .parquet",
                     argument,
                 )
+        if kind == "parquet":  # pyarrow imported beside the caller's own start (see parquet.py)
+            from .parquet import warm_up
+
+            warm_up()
         self.kind = kind
         self._argument = argument
         # every byte goes to a temporary file beside the target, renamed into place by close()
