@@ -232,10 +232,14 @@ def screen_cmd(
     # its pieces in its own thread, to the types the file's first piece says until the whole
     # file's are known (and writes them again in the rare file where those differ)
     convert = None
-    if mark and any(str(t).lower().endswith((".parquet", ".pq")) for t in (output, flagged) if t):
-        from sensitivity.adapters.late_types import LateTypes
+    if any(str(t).lower().endswith((".parquet", ".pq")) for t in (output, flagged) if t):
+        from sensitivity.output.parquet import warm_up
 
-        convert = LateTypes(file, mark)
+        warm_up()  # pyarrow's writer imported beside the screen's own start
+        if mark:
+            from sensitivity.adapters.late_types import LateTypes
+
+            convert = LateTypes(file, mark)
 
     writer = table_writer(output, fmt, trusted, convert)
     flagged_writer = None if flagged is None else table_writer(flagged, "text", trusted, convert)

@@ -278,8 +278,7 @@ class TableWriter:
                  convert: Callable[[Any], Any] | None = None) -> None:  # fmt: skip
         """`trusted`: text columns the caller computed, left as they are (see defuse_frame).
         `convert`: for Parquet, applied to each polars frame in the writer's thread before it is
-        written (the screen's column types, which may still be being inferred: it may wait;
-        one that can guess them is not waited for at first, see `parquet.ParquetPieces`)."""
+        written (the screen's column types, perhaps still being inferred: see parquet.py)."""
         from pathlib import Path
 
         self.path = Path(path)
@@ -299,10 +298,6 @@ class TableWriter:
                     "it (pip install openpyxl) or write .csv or .parquet",
                     argument,
                 )
-        if kind == "parquet":  # pyarrow imported beside the caller's own start (see parquet.py)
-            from .parquet import warm_up
-
-            warm_up()
         self.kind = kind
         self._argument = argument
         # every byte goes to a temporary file beside the target, renamed into place by close()
