@@ -451,9 +451,9 @@ class TableWriter:
         from .atomic import discard
 
         try:
-            for closer in (self._behind, self._disk, self._writer, self._sink):
+            for name in ("_behind", "_disk", "_writer", "_sink"):  # each as the last left it
                 try:
-                    if closer is not None:
+                    if (closer := getattr(self, name)) is not None:
                         closer.close()
                 except BaseException:  # noqa: BLE001, S110 - the first error is the one to report
                     pass  # (a Ctrl-C's interrupt reaches a closing writer too)
