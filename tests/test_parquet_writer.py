@@ -150,7 +150,7 @@ def test_pieces_written_with_a_guess_are_written_again_where_it_was_wrong(
     monkeypatch.setattr(ParquetPieces, "_write", counted)
     writer = TableWriter(path, convert=types)
     for n, piece in enumerate(pieces):
-        if n == known_after or n == parquet.GUESSED_PIECES:
+        if n == known_after or n == parquet.GUESSED_PIECES + 1:
             types.release.set()
         writer.write(piece)
     types.release.set()
@@ -159,8 +159,9 @@ def test_pieces_written_with_a_guess_are_written_again_where_it_was_wrong(
     back = pl.read_parquet(path)
     assert back.schema == whole.schema
     assert back.equals(whole)
-    # once the third piece is handed on, the first has been written with the guess: where
-    # the guess was wrong it is written again (when the types came earlier, perhaps not)
+    # once the fourth piece is handed on, the first has been written with the guess (the
+    # second was taken up): where the guess was wrong it is written again (when the types
+    # came earlier, perhaps not)
     if late == "5":
         assert len(written) == len(pieces)
     elif known_after >= 3:

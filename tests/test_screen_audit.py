@@ -226,9 +226,9 @@ def test_parquet_pieces_written_with_the_first_pieces_types_are_rewritten_when_w
 ):
     # The writer does not wait for the whole file's types: it writes its first pieces with
     # the types of the file's first piece (here a few lines: `dose` reads as whole numbers)
-    # and keeps them until the file's types are known (held back here until three pieces are
-    # written). A decimal or a word in the last line makes `dose` Float64 or String: the
-    # three pieces are written again. The file is what polars reads from the whole text (the
+    # and keeps them until the file's types are known (held back here until GUESSED_PIECES
+    # are written). A decimal or a word in the last line makes `dose` Float64 or String: those
+    # pieces are written again. The file is what polars reads from the whole text (the
     # reference), and the flagged rows' file has its types too.
     import threading
 
@@ -239,7 +239,7 @@ def test_parquet_pieces_written_with_the_first_pieces_types_are_rewritten_when_w
     monkeypatch.setattr(files, "FIRST_FRAME_BYTES", 256)
     monkeypatch.setattr(files, "TYPE_PIECE_BYTES", (64, 256))
     written: list[int] = []
-    three = threading.Event()
+    enough = threading.Event()
     write_piece = parquet.ParquetPieces._write
 
     def counted(self, frame):
@@ -247,13 +247,13 @@ def test_parquet_pieces_written_with_the_first_pieces_types_are_rewritten_when_w
         if frame.height:  # the screened rows' file (no row is flagged)
             written.append(frame.height)
             if len(written) == parquet.GUESSED_PIECES:
-                three.set()
+                enough.set()
 
     text_types = files.text_types
 
     def held_back(*args, **kwargs):
         found = text_types(*args, **kwargs)
-        three.wait(30)
+        enough.wait(30)
         return found
 
     monkeypatch.setattr(parquet.ParquetPieces, "_write", counted)

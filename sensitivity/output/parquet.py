@@ -9,7 +9,7 @@ from typing import Any
 
 #: Pieces a Parquet writer writes with guessed column types and keeps, at most, while the
 #: file's own are worked out (see `ParquetPieces`).
-GUESSED_PIECES = 3
+GUESSED_PIECES = 2
 #: A text column of which more than this share of the first piece's filled cells are distinct
 #: (an identifier, free text) is written without a dictionary (see `parquet_options`).
 DISTINCT_TEXT = 0.9
