@@ -71,7 +71,7 @@ class ParquetPieces:
 
     `convert`, if given, turns each piece to the table's column types first. One that can
     also `guess` them (those of the first piece of the file, known at once) and say when
-    they are `ready` (`adapters.files.LateTypes`) is not waited for: up to GUESSED_PIECES
+    they are `ready` (`adapters.late_types.LateTypes`) is not waited for: up to GUESSED_PIECES
     pieces are written with the guess and kept. Once the types are known, or that many pieces
     are kept, the writer waits for them; where they differ from the guess, the file is begun
     again from the pieces kept (see `_settle`).
