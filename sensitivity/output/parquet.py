@@ -19,7 +19,7 @@ def parquet_options(first: Any, schema: Any) -> dict[str, Any]:
     """pyarrow ParquetWriter settings for a table whose first piece is `first` (a polars
     DataFrame) and whose Arrow schema is `schema`. What a reader gets back is what pyarrow's
     defaults give: the same column types and values. Two things differ, for speed (1M screened
-    rows, measured for issue 26: 0.38 s of the writer's CPU against 0.54 s, and 25.5 MB against
+    rows, measured for issue 26: 0.38 s of the writer's CPU against 0.54 s, and 25.6 MB against
     27.2 MB):
 
     - A text column of mostly distinct cells (an identifier) is stored without a dictionary.
