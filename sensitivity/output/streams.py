@@ -185,14 +185,10 @@ def _may_start_a_formula(column: Any) -> bool:
     return False
 
 
-def _risky_start(cells: Any) -> bool:
-    # each view's first byte looked up; the lengths (copied out of the views) are read only
-    # when one may start a formula: a fifth of the time on a column with none (measured)
-    risky = _RISKY_BYTE.take(cells[:, 4])
-    if not risky.any():
+def _risky_start(cells: Any) -> bool:  # lengths read only if a first byte is risky (5x faster)
+    if not (risky := _RISKY_BYTE.take(cells[:, 4])).any():
         return False
-    filled = cells[:, :4].copy().view("<i4")[:, 0] > 0
-    return bool((risky & filled).any())
+    return bool((risky & (cells[:, :4].copy().view("<i4")[:, 0] > 0)).any())
 
 
 def _string_views(chunk: Any, read: Callable[[Any], T]) -> T | None:
