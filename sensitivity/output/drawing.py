@@ -200,6 +200,8 @@ def _serve() -> None:
         from .figures import preload
 
         preload()
+        import scipy.special  # noqa: F401 - the figures' quantiles (t, normal): loaded while idle
+
         _send(channel_out, _READY)
         while True:
             try:
