@@ -129,11 +129,14 @@ EXTENSIONS = {
 
 
 def _check_outputs(ctx: click.Context, param: click.Parameter, value: tuple) -> tuple:
-    """Refuse a missing folder before any work is done."""
+    """Refuse a missing folder (or a symbolic link that cannot be written through) before any
+    work is done."""
+    from sensitivity.output.atomic import target_problem
+
     for path in value:
-        folder = Path(path).parent
-        if not folder.is_dir():
-            raise click.BadParameter(f"folder {str(folder)!r} does not exist", ctx, param)
+        problem = target_problem(path)
+        if problem is not None:
+            raise click.BadParameter(problem, ctx, param)
     return value
 
 
@@ -301,11 +304,13 @@ def check_plot(*paths: str | None) -> None:
     when there is a path to check: a one-number command without --plot starts without it)."""
     if not any(paths):
         return
+    from sensitivity.output.atomic import check_target
     from sensitivity.output.figures import check_plot_path
 
     for path in paths:
         if path:
             check_plot_path(path)
+            check_target(path, "plot")
 
 
 def show_warnings() -> None:
