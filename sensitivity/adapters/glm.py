@@ -291,4 +291,4 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     return evalue_of_fit(model, scale, b, ci, treatment=treatment, n=fit.n, share=fit.share,
                          binary=fit.binary, errors=(code, words), contrast=contrast,
                          alpha=alpha, outcome=outcome, overlap=fit.overlap,
-                         notes=fit.notes)  # fmt: skip
+                         notes=fit.notes, se=se)  # fmt: skip

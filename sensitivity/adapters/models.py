@@ -150,6 +150,18 @@ def overlap(treatment: np.ndarray, covariates: np.ndarray) -> dict[str, Any] | N
     }
 
 
+def coefficient(b: float, se: float | None) -> dict[str, float | None]:
+    """The model record's `coefficient` and `se`: the treatment's fitted coefficient on the
+    fit's own scale (the log of the ratio for logit, Poisson, negative binomial and Cox;
+    the outcome's units for OLS), per one unit of the treatment whatever the contrast, and
+    its standard error (robust or clustered as the fit's errors are); None if not finite."""
+
+    def finite(v: float | None) -> float | None:
+        return float(v) if v is not None and np.isfinite(v) else None
+
+    return {"coefficient": finite(b), "se": finite(se)}
+
+
 def _warn(message: str, notes: list[str], depth: int = 3) -> None:
     """A SensitivityWarning to the caller of `evalue_from_model`, kept as a note as well
     (`depth`: the frames between here and that caller, plus one)."""
@@ -205,6 +217,7 @@ def evalue_from_model(
     names = list(model.exog_names)
     j = _treatment_index(names, treatment)
     b = float(np.asarray(results.params)[j])
+    se = float(np.asarray(results.bse)[j])
     ci = np.asarray(results.conf_int(alpha=alpha))[j]
     y = np.asarray(model.endog, float)
     if kind == "cox":
@@ -221,7 +234,7 @@ def evalue_from_model(
     ov = overlap(exog[:, j], exog[:, others]) if others else None
     return evalue_of_fit(kind, scale, b, ci, treatment=treatment, n=n, share=share,
                          binary=is_binary(y), errors=(code, words), contrast=contrast,
-                         alpha=alpha, outcome=outcome, overlap=ov)  # fmt: skip
+                         alpha=alpha, outcome=outcome, overlap=ov, se=se)  # fmt: skip
 
 
 def evalue_of_fit(
@@ -240,10 +253,12 @@ def evalue_of_fit(
     outcome: str | None,
     overlap: dict | None,
     notes: Sequence[str] = (),
+    se: float | None = None,
 ) -> EValueResult:
     """The E-value of a log-scale coefficient `b` with its interval `ci`, from a fit made in
     memory (statsmodels) or in passes (`glm.evalue_one_pass`): the same notes, warnings and
-    model record either way. `errors` is the code and the words of the fit's errors."""
+    model record either way. `errors` is the code and the words of the fit's errors; `se`
+    is b's standard error (the model record keeps b and se on the log scale)."""
     from dataclasses import replace
 
     code, words = errors
@@ -281,7 +296,7 @@ def evalue_of_fit(
         f"outcome occurs in {share:.1%} of the model's data.",
     )
     info = {"kind": kind, "n": n, "outcome_share": share, "treatment": treatment,
-            "errors": code}  # fmt: skip
+            "errors": code, **coefficient(b, se)}  # fmt: skip
     if overlap is not None and overlap["poor"]:
         _warn(
             f"poor overlap: {overlap['share_outside']:.1%} of units lie outside the common "
@@ -324,7 +339,7 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
     code, words = used_by(fitter)
     errors = f"The {level_text(alpha=alpha)} interval is from the fit's {words}."
     info = {"kind": "cox", "n": len(events), "outcome_share": share, "treatment": treatment,
-            "errors": code}  # fmt: skip
+            "errors": code, **coefficient(b, se)}  # fmt: skip
     return replace(res, notes=(note, errors, *res.notes), model=info)
 
 
@@ -447,7 +462,7 @@ def evalue_from_data(
                                     ci_level=1 - alpha)  # fmt: skip
     code, words = used_by(results)
     info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment,
-            "errors": code}  # fmt: skip
+            "errors": code, **coefficient(b, se)}  # fmt: skip
     note = (
         f"From a fitted OLS model (n = {int(results.nobs):,}): coefficient {b:.4g} (se "
         f"{se:.3g}, from {words}); the outcome's SD in the data is {sd:.4g}."
@@ -474,7 +489,7 @@ def ols_report_from_data(data: Any, formula: str, treatment: str, *, contrast: f
         raise AssertionError("the one-pass OLS fit gave no E-value")
     b, se, sd, n = float(pr2.estimate), float(pr2.se), float(ev.sd), int(pr2.n)
     info = {"kind": "ols", "n": n, "outcome_share": None, "treatment": treatment,
-            "errors": "classical"}  # fmt: skip
+            "errors": "classical", **coefficient(b, se)}  # fmt: skip
     note = (
         f"From a fitted OLS model (n = {n:,}): coefficient {b:.4g} (se "
         f"{se:.3g}, from {WORDS['classical']}); the outcome's SD in the data is {sd:.4g}."

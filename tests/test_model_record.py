@@ -1,0 +1,93 @@
+"""What the data route records of its fit (the `model` block of `evalue --data`), and the
+words it uses for a fit it cannot make.
+
+References: statsmodels fits of the same formula on data shipped with statsmodels (a
+general-purpose library): the Spector & Mazzeo (1980) grade data (32 students, binary GRADE,
+binary PSI) for logit and Poisson, and the RAND Health Insurance Experiment extract for a
+count outcome.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+import statsmodels.api as sm
+import statsmodels.formula.api as smf
+
+from sensitivity.adapters.models import evalue_from_data, evalue_from_model, fit
+from sensitivity.common.errors import SensitivityWarning
+
+FORMULA = "GRADE ~ PSI + GPA + TUCE"
+
+
+@pytest.fixture(scope="module")
+def spector():
+    # Spector & Mazzeo (1980), shipped with statsmodels.
+    return sm.datasets.spector.load_pandas().data
+
+
+@pytest.fixture(scope="module")
+def spector_file(spector, tmp_path_factory):
+    path = tmp_path_factory.mktemp("spector") / "spector.csv"
+    spector.to_csv(path, index=False)
+    return path
+
+
+def _reference(frame, model, cov_type="nonrobust"):
+    options = {} if cov_type == "nonrobust" else {"cov_type": cov_type}
+    return getattr(smf, model)(FORMULA, frame).fit(disp=0, **options)
+
+
+# statsmodels' own covariance for each: logit classical, Poisson of a 0/1 outcome HC0 (our
+# default there, Zou 2004), negative binomial classical.
+CASES = [("logit", "nonrobust"), ("poisson", "HC0")]
+
+
+@pytest.mark.parametrize(("model", "cov_type"), CASES)
+def test_the_cli_json_model_block_has_the_coefficient_and_its_se(run, spector, spector_file,
+                                                                 model, cov_type):  # fmt: skip
+    res = run("evalue", "--data", spector_file, "--formula", FORMULA, "--treatment", "PSI",
+              "--model", model, "--format", "json")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    got = json.loads(res.stdout)["model"]
+    ref = _reference(spector, model, cov_type)
+    assert got["coefficient"] == pytest.approx(ref.params["PSI"], rel=1e-8)
+    assert got["se"] == pytest.approx(ref.bse["PSI"], rel=1e-8)
+
+
+@pytest.mark.parametrize(("model", "cov_type"), CASES)
+def test_the_python_result_records_the_coefficient_and_its_se(spector, model, cov_type):
+    ref = _reference(spector, model, cov_type)
+    for res in (evalue_from_data(spector, FORMULA, "PSI", model), evalue_from_model(ref, "PSI")):
+        assert res.model["coefficient"] == pytest.approx(ref.params["PSI"], rel=1e-8)
+        assert res.model["se"] == pytest.approx(ref.bse["PSI"], rel=1e-8)
+        assert res.to_dict()["model"]["se"] == res.model["se"]
+
+
+def test_the_coefficient_is_per_unit_whatever_the_contrast(spector):
+    ref = _reference(spector, "logit")
+    res = evalue_from_model(ref, "GPA", contrast=0.5)
+    assert res.model["coefficient"] == pytest.approx(ref.params["GPA"], rel=1e-12)
+    assert res.estimate == pytest.approx(np.exp(0.5 * ref.params["GPA"]), rel=1e-12)
+
+
+def test_negative_binomial_and_ols_record_theirs_too(spector):
+    randhie = sm.datasets.randhie.load_pandas().data.iloc[:3000]
+    formula = "mdvis ~ idp + lncoins + physlm"
+    ref = smf.negativebinomial(formula, randhie).fit(disp=0, maxiter=200)
+    with pytest.warns(SensitivityWarning, match="poor overlap"):  # the extract's own
+        res = evalue_from_data(randhie, formula, "idp", "negbin")
+    assert res.model["coefficient"] == pytest.approx(ref.params["idp"], rel=1e-6)
+    assert res.model["se"] == pytest.approx(ref.bse["idp"], rel=1e-6)
+    ols = smf.ols(FORMULA, spector).fit()
+    res = evalue_from_data(spector, FORMULA, "PSI", "ols")
+    assert res.model["coefficient"] == pytest.approx(ols.params["PSI"], rel=1e-10)
+    assert res.model["se"] == pytest.approx(ols.bse["PSI"], rel=1e-10)
+
+
+def test_the_fit_helper_still_gives_statsmodels_results(spector):
+    assert fit(spector, FORMULA, "logit").params["PSI"] == pytest.approx(
+        _reference(spector, "logit").params["PSI"], rel=1e-12
+    )
