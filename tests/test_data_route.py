@@ -24,6 +24,7 @@ import sensitivity.adapters.batches as batches
 import sensitivity.adapters.files as files
 from sensitivity.adapters.glm import evalue_one_pass, glm_one_pass
 from sensitivity.adapters.models import (
+    _evalue_of_results,
     evalue_from_data,
     evalue_from_model,
     fit,
@@ -377,7 +378,10 @@ def test_the_errors_chosen_give_the_in_memory_result(randhie, model, outcome, er
     formula = f"{outcome} ~ idp + lncoins + lpi + physlm + disea + C(hlthg)"
     with warnings.catch_warnings(record=True):
         warnings.simplefilter("always")
-        before = evalue_from_model(fit(frame, formula, model, errors=errors), "idp", alpha=0.1)
+        column = errors.partition(":")[2] or None if errors else None  # named, as a fit here
+        fitted = fit(frame, formula, model, errors=errors)
+        before = _evalue_of_results(fitted, "idp", contrast=1.0, alpha=0.1, outcome=None,
+                                    cluster=column)  # fmt: skip
         now = evalue_one_pass(frame, formula, "idp", model, errors=errors, alpha=0.1)
     _close(before.to_dict(), now.to_dict(), rel=1e-8)
     assert before.notes == now.notes

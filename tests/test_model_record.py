@@ -91,3 +91,42 @@ def test_the_fit_helper_still_gives_statsmodels_results(spector):
     assert fit(spector, FORMULA, "logit").params["PSI"] == pytest.approx(
         _reference(spector, "logit").params["PSI"], rel=1e-12
     )
+
+
+# --- cluster-robust errors name their column ---------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def fair_file(tmp_path_factory):
+    # Fair (1978) extramarital affairs data, shipped with statsmodels; 6 occupations.
+    data = sm.datasets.fair.load_pandas().data
+    data["any"] = (data["affairs"] > 0).astype(int)
+    path = tmp_path_factory.mktemp("fair") / "fair.csv"
+    data.to_csv(path, index=False)
+    return path
+
+
+@pytest.mark.parametrize("model", ["logit", "poisson", "ols"])
+def test_clustered_errors_name_the_column_in_json_and_text(run, fair_file, model):
+    args = ("evalue", "--data", fair_file, "--formula", "any ~ rate_marriage + age",
+            "--treatment", "rate_marriage", "--model", model,
+            "--errors", "cluster:occupation")  # fmt: skip
+    res = run(*args, "--format", "json")
+    assert res.exit_code == 0, res.stderr
+    out = json.loads(res.stdout)
+    assert out["model"]["errors"] == "cluster:occupation"
+    said = " ".join(out["notes"])
+    assert "cluster-robust standard errors by 'occupation' (6 clusters)" in said
+    text = run(*args).stdout
+    assert "by 'occupation'" in " ".join(text.split())
+
+
+def test_a_users_own_clustered_fit_says_cluster_without_a_name():
+    # statsmodels keeps the groups, not their column's name: nothing is made up
+    data = sm.datasets.fair.load_pandas().data
+    ref = smf.ols("affairs ~ rate_marriage + age", data).fit(
+        cov_type="cluster", cov_kwds={"groups": data["occupation"].astype(int)}
+    )
+    from sensitivity.adapters.errors import used_by
+
+    assert used_by(ref) == ("cluster", "cluster-robust standard errors (6 clusters)")

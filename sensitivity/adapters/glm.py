@@ -273,7 +273,7 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     statsmodels' fit (numbers to 1e-8, the same words), in memory flat in the rows."""
     from statistics import NormalDist
 
-    from .errors import WORDS
+    from .errors import WORDS, clustered
     from .models import evalue_of_fit, model_kind_scale
 
     fit = glm_one_pass(data, formula, treatment, model, errors=errors, progress=progress)
@@ -287,7 +287,10 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     z = NormalDist().inv_cdf(level) if level < 1 else float("inf")
     ci = np.array([b - z * se, b + z * se])
     code = {"nonrobust": "classical", "HC0": "hc0"}.get(fit.cov_type, fit.cov_type)
-    words = WORDS.get(code, f"cluster-robust standard errors ({fit.clusters:,} clusters)")
+    if code == "cluster":
+        code, words = clustered(parse_errors(errors)[1], fit.clusters)
+    else:
+        words = WORDS[code]
     return evalue_of_fit(model, scale, b, ci, treatment=treatment, n=fit.n, share=fit.share,
                          binary=fit.binary, errors=(code, words), contrast=contrast,
                          alpha=alpha, outcome=outcome, overlap=fit.overlap,

@@ -205,6 +205,20 @@ def evalue_from_model(
     >>> res.scale, res.outcome, res.model["kind"]
     ('or', 'rare', 'logit')
     """
+    return _evalue_of_results(results, treatment, contrast=contrast, alpha=alpha,
+                              outcome=outcome)  # fmt: skip
+
+
+def _evalue_of_results(
+    results: Any,
+    treatment: str,
+    *,
+    contrast: float,
+    alpha: float,
+    outcome: str | None,
+    cluster: str | None = None,
+) -> EValueResult:
+    """`evalue_from_model`; `cluster` names the column a fit made here was clustered by."""
     kind, scale = model_kind(results)
     if kind == "ols":
         raise InputError(
@@ -228,7 +242,7 @@ def evalue_from_model(
         share, n = float(np.mean(y > 0)), len(y)
     else:
         share, n = float(np.mean(y > 0)), len(y)
-    code, words = used_by(results)
+    code, words = used_by(results, cluster)
     exog = np.asarray(model.exog, float)
     others = [i for i in range(exog.shape[1]) if i != j]
     ov = overlap(exog[:, j], exog[:, others]) if others else None
@@ -445,9 +459,10 @@ def evalue_from_data(
         data = read_table(data, "data")
     check_names(data, formula, treatment)
     results = fit(data, formula, model, event, errors)
+    cluster = None if errors is None else parse_errors(errors)[1]
     if model != "ols":
-        return evalue_from_model(results, treatment, contrast=contrast, alpha=alpha,
-                                 outcome=outcome)  # fmt: skip
+        return _evalue_of_results(results, treatment, contrast=contrast, alpha=alpha,
+                                  outcome=outcome, cluster=cluster)  # fmt: skip
     names = list(results.model.exog_names)
     j = _treatment_index(names, treatment)
     sd = float(np.std(np.asarray(results.model.endog, float), ddof=1))
@@ -460,7 +475,7 @@ def evalue_from_data(
         ci = tuple(float(v) for v in np.asarray(results.conf_int(alpha=alpha))[j])
         res = evalue_of_coefficient(b, contrast, "md", b, ci, sd=sd, contrast=contrast,
                                     ci_level=1 - alpha)  # fmt: skip
-    code, words = used_by(results)
+    code, words = used_by(results, cluster)
     info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment,
             "errors": code, **coefficient(b, se)}  # fmt: skip
     note = (
