@@ -351,7 +351,7 @@ def test_glm_input_errors(spector, randhie):
     with pytest.raises(InputError, match=r"need at least 2 clusters; got 1"):
         glm_one_pass(spector.assign(one=1), "GRADE ~ PSI + GPA", "PSI", "logit",
                      errors="cluster:one")  # fmt: skip
-    with pytest.raises(InputError, match=r"could not be fitted \(logit\): endog must be in the"):
+    with pytest.raises(InputError, match=r"a logit outcome must be 0/1 .*; 'mdvis' has "):
         glm_one_pass(randhie, "mdvis ~ idp", "idp", "logit")
     with pytest.raises(InputError, match=r"this route takes columns and C\(col\)"):
         glm_one_pass(spector, "GRADE ~ PSI * GPA", "PSI", "logit")

@@ -10,6 +10,7 @@ count outcome.
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pytest
@@ -130,3 +131,95 @@ def test_a_users_own_clustered_fit_says_cluster_without_a_name():
     from sensitivity.adapters.errors import used_by
 
     assert used_by(ref) == ("cluster", "cluster-robust standard errors (6 clusters)")
+
+
+# --- an outcome that breaks its model's rule: our words, one line, exit 2 ----------------
+
+
+@pytest.fixture(scope="module")
+def visits(tmp_path_factory):
+    # The RAND Health Insurance Experiment extract shipped with statsmodels: doctor visits
+    # (a count), a binary deductible plan (idp); a few columns made here from it.
+    data = sm.datasets.randhie.load_pandas().data.iloc[:2000].copy()
+    data["shifted"] = data["mdvis"] - 3  # negative "counts"
+    data["none"] = 0
+    data["event2"] = np.minimum(data["mdvis"], 2)  # 0, 1 and 2
+    data["time"] = 1.0 + data["lncoins"]
+    data["back"] = -data["time"]
+    path = tmp_path_factory.mktemp("randhie") / "randhie.csv"
+    data.to_csv(path, index=False)
+    return data, path
+
+
+BAD_OUTCOMES = [
+    # (model, formula, extra options, the one line's start)
+    ("logit", "mdvis ~ idp + lncoins", (),
+     "`--formula`: a logit outcome must be 0/1 (or a share between 0 and 1); 'mdvis' has "),
+    ("logit", "mdvis ~ idp + np.square(lncoins)", (),  # fitted in memory, not in passes
+     "`--formula`: a logit outcome must be 0/1 (or a share between 0 and 1); 'mdvis' has "),
+    ("poisson", "shifted ~ idp + lncoins", (),
+     "`--formula`: a Poisson outcome is a count (or a rate) and must not be negative; "
+     "'shifted' has -3"),
+    ("negbin", "shifted ~ idp + lncoins", (),
+     "`--formula`: a negative binomial outcome is a count (or a rate) and must not be "
+     "negative; 'shifted' has -3"),
+    ("logit", "none ~ idp + lncoins", (),
+     "`--formula`: the outcome 'none' is 0 in every row the fit uses; a logit fit needs rows "
+     "with and without the outcome"),
+    ("poisson", "none ~ idp + np.square(lncoins)", (),
+     "`--formula`: the outcome 'none' is 0 in every row the fit uses; a Poisson fit needs "
+     "some events"),
+    ("cox", "back ~ idp + lncoins", ("--event", "idp"),
+     "`--formula`: a Cox fit's time (the left side) must not be negative; 'back' has "),
+    ("cox", "time ~ idp + lncoins", ("--event", "event2"),
+     "`--event`: the column 'event2' must be 1 for an event and 0 for none; got 2"),
+    ("cox", "time ~ idp + lncoins", ("--event", "none"),
+     "`--event`: the column 'none' has no event (no 1) in the rows the fit uses"),
+    ("logit", "idp ~ idp + log(lncoins)", (),
+     "`--formula` 'idp ~ idp + log(lncoins)': the term 'log(lncoins)' could not be "
+     "evaluated: name 'log' is not defined"),
+    ("ols", "mdvis ~ idp + (", (),
+     "`--formula` 'mdvis ~ idp + (' could not be read: expected a noun, but instead the "
+     "expression ended (at '(')"),
+]  # fmt: skip
+
+
+@pytest.mark.parametrize(("model", "formula", "extra", "message"), BAD_OUTCOMES)
+def test_a_bad_outcome_is_one_line_in_our_words(run, visits, model, formula, extra, message):
+    res = run("evalue", "--data", visits[1], "--formula", formula, "--treatment", "idp",
+              "--model", model, *extra)  # fmt: skip
+    assert res.exit_code == 2, res.output
+    assert res.stderr.startswith(f"Error: {message}"), res.stderr
+    assert res.stderr.count("\n") == 1 and "endog" not in res.stderr
+    assert "^" not in res.stderr  # no caret line of patsy's
+
+
+@pytest.mark.parametrize(("model", "formula", "extra", "message"), BAD_OUTCOMES[:6])
+def test_the_python_route_says_the_same(visits, model, formula, extra, message):
+    from sensitivity.common.errors import InputError
+
+    python = message.replace("`--formula`", "`formula`")
+    with pytest.raises(InputError, match="^" + re.escape(python)):
+        evalue_from_data(visits[0], formula, "idp", model)
+
+
+def test_a_negative_binomial_fit_of_a_0_1_outcome_that_fails_says_why(run, tmp_path):
+    # Fair (1978), shipped with statsmodels: the fit of a 0/1 outcome fails (dispersion at 0)
+    data = sm.datasets.fair.load_pandas().data
+    data["any"] = (data["affairs"] > 0).astype(int)
+    path = tmp_path / "fair.csv"
+    data.to_csv(path, index=False)
+    res = run("evalue", "--data", path, "--formula", "any ~ rate_marriage + age + yrs_married",
+              "--treatment", "rate_marriage", "--model", "negbin")  # fmt: skip
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1
+    assert res.stderr.startswith("Error: `--model` negbin: the outcome 'any' is 0/1")
+
+
+def test_a_propensity_formula_patsy_cannot_evaluate_is_our_one_line(run, visits):
+    res = run("weighting", "--data", visits[1], "--treatment", "idp", "--outcome", "mdvis",
+              "--propensity", "idp ~ log(lncoins)", "--lambda", "1.5", "--seed", "1")  # fmt: skip
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1
+    assert res.stderr.startswith(
+        "Error: `--propensity` 'idp ~ log(lncoins)': the term 'log(lncoins)' could not be "
+        "evaluated: name 'log' is not defined"
+    )

@@ -102,6 +102,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     with the rows (the pieces wait in a temporary file: 8 bytes a design cell)."""
     from .batches import file_source, frame_source
     from .design import check_names, find_treatment, no_interaction
+    from .fitting import constant_problem, outcome_name
     from .onepass import _Header, _kept
     from .rfactor import one_blas_thread, plain_design, plain_terms
 
@@ -144,6 +145,10 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         table = reading.table
         if design.used == 0:
             raise InputError("`data`: no row has a value in every column the formula uses", "data")
+        lowest, highest = float(seen["low"][0]), float(seen["high"][0])
+        problem = constant_problem(model, outcome_name(formula), lowest, highest)
+        if problem is not None:  # (rather than a fit that cannot converge)
+            raise InputError(problem, "formula")
         names = design.names
         j = find_treatment(treatment, names, design.groups)
         no_interaction(names[j], names)

@@ -19,18 +19,9 @@ from ..common.errors import InputError, SensitivityWarning
 from ..common.levels import level_text
 from ..evalues.result import EValueResult
 from .design import evalue_of_coefficient
-from .errors import (
-    check_errors,
-    cluster_groups,
-    default_errors,
-    is_binary,
-    parse_errors,
-    robust_refit,
-    used_by,
-)
-from .rfactor import refuse_numbers_in_frame
+from .errors import is_binary, parse_errors, used_by
+from .fitting import KINDS, _converged, fit
 
-KINDS = ("ols", "logit", "poisson", "negbin", "cox")
 SHOWN = {"logit": "logistic", "log-binomial": "log-binomial", "poisson": "Poisson",
          "negbin": "negative binomial", "cox": "Cox", "ols": "OLS"}  # fmt: skip
 
@@ -98,15 +89,6 @@ def what_it_is(value: Any) -> str:
     if kind.__module__ == "builtins":
         return f"a {kind.__name__} ({repr(value)[:40]})"
     return f"{kind.__module__}.{kind.__name__}"
-
-
-def _converged(results: Any) -> None:
-    retvals = getattr(results, "mle_retvals", None)
-    converged = getattr(results, "converged", None)
-    if retvals is not None and retvals.get("converged") is False or converged is False:
-        raise InputError(
-            "`results`: the model did not converge; its estimate cannot be used", "results"
-        )
 
 
 def _treatment_index(names: list[str], treatment: str) -> int:
@@ -355,70 +337,6 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
     info = {"kind": "cox", "n": len(events), "outcome_share": share, "treatment": treatment,
             "errors": code, **coefficient(b, se)}  # fmt: skip
     return replace(res, notes=(note, errors, *res.notes), model=info)
-
-
-def fit(
-    data: Any, formula: str, model: str, event: str | None = None, errors: str | None = None
-) -> Any:
-    """Fit `formula` on a DataFrame with the statsmodels model `model` names; InputError for a
-    formula, outcome or event the fit cannot use, no convergence, and perfect separation.
-    `errors` (classical, hc0-hc3, cluster:COL; see `adapters.errors`) chooses the standard
-    errors: by default hc0 for a Poisson fit of a 0/1 outcome, and classical otherwise."""
-    import statsmodels.formula.api as smf
-
-    if errors is not None:
-        kind, column = parse_errors(errors)
-        check_errors(model, kind)
-    if model not in KINDS:
-        raise InputError(f"`model` must be one of {', '.join(KINDS)}; got {model!r}", "model")
-    if model == "cox" and event is None:
-        raise InputError(
-            "`event` is needed with model cox: the column that is 1 for an event", "event"
-        )
-    if model != "cox" and event is not None:
-        raise InputError(f"`event` applies to model cox only; got model {model}", "event")
-    if event is not None and event not in data.columns:
-        raise InputError(f"`event` {event!r} is not a column of the data", "event")
-    refuse_numbers_in_frame(data, formula)  # a stray word would make each number a category
-    fitters = {
-        "ols": lambda: smf.ols(formula, data).fit(),
-        "logit": lambda: smf.logit(formula, data).fit(disp=0),
-        "poisson": lambda: smf.poisson(formula, data).fit(disp=0),
-        "negbin": lambda: smf.negativebinomial(formula, data).fit(disp=0, maxiter=200),
-        "cox": lambda: smf.phreg(formula, data, status=data[event].to_numpy()).fit(),
-    }
-    with warnings.catch_warnings():
-        warnings.simplefilter("error")  # separation and non-convergence are the user's data
-        try:
-            results = fitters[model]()
-        except Exception as err:  # noqa: BLE001 - a fit failure is the data's or formula's
-            text = " ".join(str(err).split()) or type(err).__name__
-            if "separation" in text.lower():
-                raise InputError(
-                    f"`data`: perfect separation in the {model} fit: a covariate or the "
-                    "treatment predicts the outcome exactly, so the estimate is not defined",
-                    "data",
-                ) from None
-            if "converge" in text.lower():
-                raise InputError(
-                    f"`data`: the {model} fit did not converge ({text[:120]})", "data"
-                ) from None
-            raise InputError(
-                f"`formula` {formula!r} could not be fitted ({model}): {text[:240]}", "formula"
-            ) from None
-    _converged(results)
-    if errors is None:
-        kind, column = default_errors(model, results.model.endog), None
-    if kind == "classical":
-        return results
-    if model == "cox" and kind not in ("hc0", "cluster"):
-        raise InputError(
-            f"`errors` {kind}: a Cox fit takes classical, hc0 or cluster:COLUMN", "errors"
-        )
-    groups = cluster_groups(data, results, column) if column else None
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # the refit starts at the first fit's estimate
-        return robust_refit(results, model, kind, groups)
 
 
 def evalue_from_data(

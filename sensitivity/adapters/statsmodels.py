@@ -177,10 +177,9 @@ def fit_formula(data: Any, formula: str) -> tuple[Any, list[str]]:
     try:
         results = smf.ols(formula, data=data).fit()
     except Exception as err:  # noqa: BLE001 - patsy/formulaic errors are the user's formula
-        text = " ".join(str(err).split()) or type(err).__name__
-        raise InputError(
-            f"`formula` {formula!r} could not be fitted: {text[:300]}", "formula"
-        ) from None
+        from .fitting import formula_failure
+
+        raise formula_failure(err, formula) from None
     if results.model.endog.ndim > 1 and results.model.endog.shape[1] > 1:
         raise InputError(
             f"`formula`: the outcome {outcome!r} must be a single numeric column", "formula"
