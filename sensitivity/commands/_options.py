@@ -99,6 +99,7 @@ class Command(click.Command):
             raise
         _refuse_non_finite(self, ctx)
         _refuse_overwriting_inputs(self, ctx)
+        _refuse_format_against_extension(ctx)
         return rest
 
     def invoke(self, ctx: click.Context) -> Any:
@@ -128,6 +129,44 @@ EXTENSIONS = {
 }
 
 
+#: Formats as the messages name them.
+_SHOWN_FORMATS = {"text": "text", "json": "JSON", "csv": "CSV", "markdown": "Markdown",
+                  "latex": "LaTeX", "html": "HTML", "tsv": "TSV", "parquet": "Parquet",
+                  "excel": "Excel"}  # fmt: skip
+
+
+def _refuse_format_against_extension(ctx: click.Context) -> None:
+    """A --format given on the command line must be the format an --output file gets from its
+    extension: `--format json -o x.csv` would write CSV and print nothing, with neither the
+    JSON asked for nor a word. (Not given, --format is only the fallback for an extension that
+    names no format; screen's table files by extension are CSV, TSV, JSON, Parquet or Excel.)"""
+    from click.core import ParameterSource
+
+    if "fmt" not in ctx.params or ctx.get_parameter_source("fmt") != ParameterSource.COMMANDLINE:
+        return
+    fmt = ctx.params["fmt"]
+    typed = ctx.meta.get("typed") or {}
+    for name in ("outputs", "output"):
+        value = ctx.params.get(name)
+        for path in value if isinstance(value, (tuple, list)) else (value,):
+            if not path:
+                continue
+            suffix = Path(str(path)).suffix.lower()
+            if name == "output":  # the screen's table writer
+                from sensitivity.output.streams import TABLE_FORMATS
+
+                kind = TABLE_FORMATS.get(suffix)
+            else:
+                kind = EXTENSIONS.get(suffix)
+            if kind is not None and kind != fmt:
+                option = typed.get(name, "--output")
+                raise click.UsageError(
+                    f"`--format` {fmt} contradicts `{option}` {str(path)!r}, which is "
+                    f"{_SHOWN_FORMATS.get(kind, kind)} by its extension; a file's format "
+                    "comes from its extension: drop --format or change the extension"
+                )
+
+
 def _check_outputs(ctx: click.Context, param: click.Parameter, value: tuple) -> tuple:
     """Refuse a missing folder (or a symbolic link that cannot be written through) before any
     work is done."""
@@ -150,7 +189,8 @@ def format_options(func: Callable) -> Callable:
         type=click.Path(dir_okay=False, writable=True),
         callback=_check_outputs,
         help="Write the result to FILE instead of stdout; repeatable. The format comes from "
-        "the extension (.json .csv .md .tex .txt .html), else from --format.",
+        "the extension (.json .csv .md .tex .txt .html), else from --format (a --format that "
+        "names another format than the extension is an error).",
     )(func)
     return click.option(
         "--format",

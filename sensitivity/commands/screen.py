@@ -91,7 +91,8 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
     default="text",
     show_default=True,
     help="Without --output: csv or json puts the screened table on stdout; text, markdown "
-    "or latex the summary.",
+    "or latex the summary. With --output the file's extension decides (a --format that "
+    "names another format is an error).",
 )
 @click.option(
     "--pool",
