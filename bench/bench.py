@@ -319,6 +319,39 @@ def bench_matched() -> None:
         report(f"exact bound, {pairs} pairs (with the Gamma at alpha)", timed(exact, 3),
                timed(normal, 3), "the large-sample bound on the same pairs",
                "exact fast at 10,000 pairs")  # fmt: skip
+    _matched_commands()
+
+
+def _matched_commands() -> None:
+    """Issue 26's rows, whole commands: 10,000 pairs by the normal method against the
+    start-up floor; 440 heavily tied pairs (differences in whole units from -3 to 6) exact
+    against normal."""
+    import tempfile
+
+    import numpy as np
+
+    with tempfile.TemporaryDirectory() as tmp:
+        rng = np.random.default_rng(12)
+        many, tied = f"{tmp}/pairs_10000.csv", f"{tmp}/tied_440.csv"
+        np.savetxt(many, rng.normal(0.3, 1, 10_000).round(2), header="d", comments="")
+        np.savetxt(tied, rng.integers(-3, 7, 440), fmt="%d", header="d", comments="")
+        run = [str(BIN / "sensitivity"), "matched", "--differences", "d", "--gamma",
+               "1:6:0.5", "--format", "json"]  # fmt: skip
+        commands = {
+            "normal_10000": [*run, "--data", many, "--method", "normal"],
+            "floor": [sys.executable, "-c", "import numpy, click"],
+            "exact_440": [*run, "--data", tied, "--method", "exact"],
+            "normal_440": [*run, "--data", tied, "--method", "normal"],
+        }
+        runs: dict[str, list] = {}
+        t, _ = _alternate(commands, 7, runs)
+    print(f"sensitivity matched, 10,000 pairs, normal method (whole command): "
+          f"{t['normal_10000']:.2f} s; start-up floor (import numpy, click) {t['floor']:.2f} s"
+          f"  (goal: at most 0.4 s)")  # fmt: skip
+    print(f"sensitivity matched, 440 tied pairs, exact: {t['exact_440']:.2f} s against the "
+          f"normal method's {t['normal_440']:.2f} s: "
+          f"{_round_ratios(runs, 'exact_440', 'normal_440')}"
+          f"  (goal: at most 1.5)")  # fmt: skip
 
 
 REGRESSION_FORMULA = "y ~ t + " + " + ".join(f"x{i}" for i in range(1, 27)) + \

@@ -77,3 +77,16 @@ def test_a_single_png_is_written_as_before(tmp_path):
     figures.save_figure(fig, [tmp_path / "only.png"])
     assert (tmp_path / "only.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert _leftovers(tmp_path) == []
+
+
+def test_the_same_figure_gives_the_same_bytes_in_every_format(tmp_path):
+    """A report folder kept under version control changes only where the numbers do:
+    no creation date in the SVG or PDF, and the SVG's ids fixed (matplotlib's own
+    `svg.hashsalt` and `metadata` settings)."""
+    for run in ("a", "b"):
+        paths = [tmp_path / f"{run}.png", tmp_path / f"{run}.svg", tmp_path / f"{run}.pdf"]
+        figures.save_figure(_figure(), paths)
+    for kind in ("png", "svg", "pdf"):
+        assert (tmp_path / f"a.{kind}").read_bytes() == (tmp_path / f"b.{kind}").read_bytes()
+    assert b"<dc:date>" not in (tmp_path / "a.svg").read_bytes()
+    assert b"/CreationDate" not in (tmp_path / "a.pdf").read_bytes()

@@ -437,3 +437,58 @@ def test_json_keys_stay_as_the_contract_fixes(run):
     for key in ("test", "pairs", "statistic", "alpha", "rows", "gamma_at_alpha"):
         assert key in data
     assert {"gamma", "p_upper", "p_lower"} <= set(data["rows"][0])
+
+
+MESSY_PAIRS = """pair,t,c
+1,5.5,4
+2,,3
+3,NA,2
+4,n/a,1
+5,abc,2
+6, 1.5 ,1
+7,"2.5",1
+8,1e-1,0
+9,+3,1
+10,NaN,1
+11,null,2
+12,-,1
+13,0x10,1
+14,1_000,2
+15,.5,0
+16,5.,1
+17,TRUE,0
+18,  ,1
+19,None,1
+"""
+
+
+def test_a_pairs_file_is_read_as_pandas_reads_it(tmp_path):
+    """Issue 26: files are read by polars (pandas' import cost the command half a second).
+    Reference: pandas' read_csv and to_numeric(errors="coerce"), the earlier route, on cells
+    that are missing, words, padded, quoted, signed or in other notations."""
+    import pandas as pd
+
+    from sensitivity.adapters.matched import matched_differences
+
+    path = tmp_path / "pairs.csv"
+    path.write_text(MESSY_PAIRS)
+    got = matched_differences(path, treated="t", control="c")
+    want = matched_differences(pd.read_csv(path), treated="t", control="c")
+    for a, b in zip(got, want, strict=True):
+        np.testing.assert_array_equal(a, b)
+    assert got[1].tolist() == [1, 2, 3, 4, 9, 10, 11, 12, 13, 16, 17, 18]
+    semi = tmp_path / "pairs_semicolons.csv"
+    semi.write_text("pair;t;c\n1;116,5;106\n2;NA;101\n3;1,5e1;11\n4; -0,5 ;1\n5;abc;1\n")
+    d, left_out = matched_differences(semi, treated="t", control="c")
+    assert d.tolist() == [10.5, 4.0, -1.5] and left_out.tolist() == [1, 4]
+
+
+def test_a_number_beyond_double_precision_in_a_file_is_refused(run, tmp_path):
+    path = tmp_path / "pairs.csv"
+    path.write_text("d\n1.5\n-0.5\n1.5e400\n2\n")
+    res = run("matched", "--data", path, "--differences", "d")
+    assert res.exit_code == 2
+    assert res.stderr == (
+        "Error: column 'd' holds inf on file line 4 (an infinity, or a number beyond double "
+        "precision, about 1.8e308): each value must be a finite number\n"
+    )

@@ -24,12 +24,7 @@ def matched_differences(
     from ..common.errors import InputError
 
     from_file = not hasattr(data, "columns")
-    if not from_file:
-        frame = data
-    else:
-        from .files import read_table
-
-        frame = read_table(data, "data")
+    frame, decimal_comma = _text_table(data) if from_file else (data, False)
     if differences and (treated or control):
         raise InputError(
             "give `differences`, or `treated` and `control`, not both",
@@ -54,11 +49,8 @@ def matched_differences(
                 f"`{argument}`: `data` has no column {col!r}; columns: {', '.join(frame.columns)}",
                 (argument, "data"),
             )
-    import pandas as pd
-
-    values = frame[cols].apply(lambda c: pd.to_numeric(c, errors="coerce"))
-    bad = values.isna().any(axis=1).to_numpy()
-    every = values.to_numpy(float)
+    every = np.column_stack([_numbers(frame, str(col), decimal_comma) for col in cols])
+    bad = np.isnan(every).any(axis=1)
 
     def where(i: int) -> str:  # a file's line (the header is line 1), else the table's row
         return f"file line {i + 2}" if from_file else f"row {i}"
@@ -67,8 +59,8 @@ def matched_differences(
     if infinite.any():
         i, j = (int(k[0]) for k in np.nonzero(infinite))
         raise InputError(
-            f"column {cols[j]!r} holds {every[i, j]:g} on {where(i)}: each value must be a "
-            "finite number"
+            f"column {cols[j]!r} holds {every[i, j]:g} on {where(i)} (an infinity, or a number "
+            "beyond double precision, about 1.8e308): each value must be a finite number"
         )
     v = every[~bad]
     with np.errstate(over="ignore", invalid="ignore"):
@@ -80,6 +72,47 @@ def matched_differences(
             "precision (about 1.8e308)"
         )
     return d, np.flatnonzero(bad)
+
+
+def _text_table(path: Any) -> tuple[Any, bool]:
+    """A CSV or TSV file's cells as text, read as the screen reads them (polars: a file with
+    ';' between cells found, a column named twice or a TSV named .csv refused), and whether
+    its numbers have decimal commas; another format through pandas."""
+    from .files import Share, checked_file, one_column_of_many, read_frames, read_table
+
+    _, kind = checked_file(path, "data")
+    if kind not in ("csv", "tsv"):
+        return read_table(path, "data"), False
+    import polars as pl
+
+    share = Share()
+    frame = pl.concat(list(read_frames(path, "data", share=share)), how="vertical")
+    one_column_of_many(frame.columns, "data")
+    return frame, share.delimiter == ";"
+
+
+#: A number written with a decimal comma (1,32; -0,5; 1,2e-3).
+_DECIMAL_COMMA = r"^([-+]?[0-9]*),([0-9]+(?:[eE][-+]?[0-9]+)?)$"
+
+
+def _numbers(frame: Any, name: str, decimal_comma: bool) -> np.ndarray:
+    """A column as floats, NaN where a cell is missing or not a number: pandas' to_numeric
+    (errors="coerce") for a pandas table; for a polars table (a file's text cells), a cast
+    of each trimmed cell (with `decimal_comma`, 1,32 read as 1.32)."""
+    if not type(frame).__module__.startswith("polars"):
+        import pandas as pd
+
+        return pd.to_numeric(frame[name], errors="coerce").to_numpy(float)
+    import polars as pl
+
+    if frame.schema[name].is_numeric():  # a user's polars table
+        number = pl.col(name).cast(pl.Float64).fill_null(np.nan)
+    else:
+        cell = pl.col(name).cast(pl.String).str.strip_chars()
+        if decimal_comma:
+            cell = cell.str.replace(_DECIMAL_COMMA, r"${1}.${2}")
+        number = cell.cast(pl.Float64, strict=False).fill_null(np.nan)
+    return frame.select(number)[name].to_numpy().astype(float)
 
 
 def rosenbaum_bounds_from_data(

@@ -112,65 +112,74 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
     if target is not None and route is None:
         raise click.UsageError("--target applies to summary input (TEXT, or --scale --estimate)")
     level = 0.95 if ci_level is None else ci_level
-    if estimates:
-        from sensitivity.reporting import results_from_table
+    worker = None  # with data input, a second process that draws figures (below)
+    try:
+        if estimates:
+            from sensitivity.reporting import results_from_table
 
-        items = results_from_table(estimates, ci_level=level)
-    elif data:
-        missing = [n for n, v in (("--formula", formula), ("--treatment", treatment),
-                                  ("--model", model_kind)) if not v]  # fmt: skip
-        if missing:
-            raise click.UsageError(f"data input needs {', '.join(missing)} as well")
-        import threading
+            items = results_from_table(estimates, ci_level=level)
+        elif data:
+            missing = [n for n, v in (("--formula", formula), ("--treatment", treatment),
+                                      ("--model", model_kind)) if not v]  # fmt: skip
+            if missing:
+                raise click.UsageError(f"data input needs {', '.join(missing)} as well")
+            import threading
 
-        from sensitivity.adapters.models import evalue_from_data, ols_report_from_data
-        from sensitivity.output.report import preload
+            from sensitivity.adapters.models import evalue_from_data, ols_report_from_data
+            from sensitivity.output.drawing import FigureWorker
+            from sensitivity.output.report import preload
 
-        # matplotlib loads in a second thread while the data are read (the figures come after)
-        loading = threading.Thread(target=preload, name="load-matplotlib", daemon=True)
-        loading.start()
-        try:
-            if model_kind == "ols" and errors in (None, "classical"):  # one pass, both parts
-                items = [(label, ols_report_from_data(
-                    data, formula, treatment, contrast=contrast, event=event, alpha=1 - level,
-                    benchmarks=benchmarks))]  # fmt: skip
-            else:
-                res = evalue_from_data(data, formula, treatment, model_kind, event=event,
-                                       contrast=contrast, outcome=outcome, alpha=1 - level,
-                                       errors=errors)  # fmt: skip
-                items = [(label, res)]
-                if model_kind == "ols":
-                    from dataclasses import replace
+            # while the data are read, matplotlib loads here in a second thread and in a second
+            # process, which then draws some of the figures while this one draws the others
+            worker = FigureWorker()
+            loading = threading.Thread(target=preload, name="load-matplotlib", daemon=True)
+            loading.start()
+            try:
+                if model_kind == "ols" and errors in (None, "classical"):  # one pass, both parts
+                    items = [(label, ols_report_from_data(
+                        data, formula, treatment, contrast=contrast, event=event, alpha=1 - level,
+                        benchmarks=benchmarks))]  # fmt: skip
+                else:
+                    res = evalue_from_data(data, formula, treatment, model_kind, event=event,
+                                           contrast=contrast, outcome=outcome, alpha=1 - level,
+                                           errors=errors)  # fmt: skip
+                    items = [(label, res)]
+                    if model_kind == "ols":
+                        from dataclasses import replace
 
-                    from sensitivity.adapters.statsmodels import partial_r2_from_data
+                        from sensitivity.adapters.statsmodels import partial_r2_from_data
 
-                    pr2 = partial_r2_from_data(data, formula, treatment, contrast=contrast,
-                                               alpha=1 - level, benchmarks=benchmarks)  # fmt: skip
-                    items = [(label, replace(pr2, evalue=res))]
-        finally:
-            loading.join()
-    elif route == "text":
-        from sensitivity.adapters.published import evalue_from_text
+                        pr2 = partial_r2_from_data(
+                            data, formula, treatment, contrast=contrast, alpha=1 - level,
+                            benchmarks=benchmarks)  # fmt: skip
+                        items = [(label, replace(pr2, evalue=res))]
+            finally:
+                loading.join()
+        elif route == "text":
+            from sensitivity.adapters.published import evalue_from_text
 
-        res = evalue_from_text(published, scale=scale, ci_level=ci_level, se=se, sd=sd,
-                               outcome=outcome, prevalence=prevalence, contrast=contrast,
-                               target=target, argument="TEXT")  # fmt: skip
-        items = [(label, res)]
-    else:
-        from sensitivity.evalues.core import evalue
+            res = evalue_from_text(published, scale=scale, ci_level=ci_level, se=se, sd=sd,
+                                   outcome=outcome, prevalence=prevalence, contrast=contrast,
+                                   target=target, argument="TEXT")  # fmt: skip
+            items = [(label, res)]
+        else:
+            from sensitivity.evalues.core import evalue
 
-        res = evalue(scale, estimate, ci or None, se=se, sd=sd, outcome=outcome,
-                     prevalence=prevalence, contrast=contrast, ci_level=level,
-                     target=target)  # fmt: skip
-        items = [(label, res)]
-    items = _with_options(items, confounders, benchmark_r2)
-    if r2_treatment or r2_outcome:
-        items = _with_strengths(items, r2_treatment, r2_outcome)
-    command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
-    from sensitivity.common.levels import level_text
-    from sensitivity.output.tables import safe_text
+            res = evalue(scale, estimate, ci or None, se=se, sd=sd, outcome=outcome,
+                         prevalence=prevalence, contrast=contrast, ci_level=level,
+                         target=target)  # fmt: skip
+            items = [(label, res)]
+        items = _with_options(items, confounders, benchmark_r2)
+        if r2_treatment or r2_outcome:
+            items = _with_strengths(items, r2_treatment, r2_outcome)
+        command = "sensitivity " + shlex.join(_options.INVOCATION or ["report", "..."])
+        from sensitivity.common.levels import level_text
+        from sensitivity.output.tables import safe_text
 
-    files = write_report(items, folder, Reproduce(command))
+        files = write_report(items, folder, Reproduce(command), worker)
+    finally:
+        if worker is not None:
+            worker.close()
     click.echo(f"Wrote the report to {files['folder']}/ (report.html, report.md, tables.tex, "
                "report.json, figures)", err=True)  # fmt: skip
     for name, result in items:

@@ -49,19 +49,21 @@ def sign_test_bounds(discordant: int, treated_events: int, gamma: ArrayLike, *,
                      ) -> tuple[np.ndarray, np.ndarray]:  # fmt: skip
     """Upper and lower bounds on the one-sided p-value of the sign test at each Gamma
     (`continuity`: the large-sample bound with T - 1/2, as Rosenbaum's tables print it)."""
-    from scipy.special import betainc, ndtr
+    from ..common.numeric import normal_cdf
 
     d, k = discordant, treated_events
     g = gamma_values(gamma)
     hi, lo = g / (1 + g), 1 / (1 + g)
     if method == "exact":
+        from scipy.special import betainc
+
         upper = betainc(k, d - k + 1, hi) if k > 0 else np.ones_like(g)
         lower = betainc(k, d - k + 1, lo) if k > 0 else np.ones_like(g)
         return np.asarray(upper), np.asarray(lower)
     kc = k - 0.5 if continuity else k
-    # the upper tail as ndtr(-z), not 1 - ndtr(z): a bound of 3.6e-19 does not underflow to 0
-    upper = ndtr(-(kc - d * hi) / np.sqrt(d * hi * lo))
-    lower = ndtr(-(kc - d * lo) / np.sqrt(d * hi * lo))
+    # the upper tail as Phi(-z), not 1 - Phi(z): a bound of 3.6e-19 does not underflow to 0
+    upper = normal_cdf(-(kc - d * hi) / np.sqrt(d * hi * lo))
+    lower = normal_cdf(-(kc - d * lo) / np.sqrt(d * hi * lo))
     return np.asarray(upper), np.asarray(lower)
 
 
@@ -139,8 +141,9 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     relative (tests/test_matched.py), at every size where both can run.
     """
     from scipy import fft
-    from scipy.optimize import brentq
     from scipy.special import expit
+
+    from ..common.numeric import brent
 
     g = int(np.gcd.reduce(qi))
     vals, mult = np.unique(qi // g, return_counts=True)
@@ -166,7 +169,7 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     top = 1.0 / v[-1]
     while tilted_mean(top) < t:
         top *= 2
-    theta = brentq(lambda x: tilted_mean(x) - t, 0.0, top, xtol=1e-300, rtol=1e-15)
+    theta = brent(lambda x: tilted_mean(x) - t, 0.0, top, xtol=1e-300, rtol=1e-15)
     log_mgf = float(mult @ np.logaddexp(np.log1p(-p), np.log(p) + theta * v))
     chernoff = log_mgf - theta * t  # P <= exp(chernoff)
     if chernoff < negligible:  # by default below the smallest double: 0.0 to the last digit
@@ -256,13 +259,13 @@ def _tail_exact(q: np.ndarray, t: float, p: np.ndarray) -> np.ndarray:
 def _signed_rank_tail(q: np.ndarray, t: float, p: np.ndarray, method: str) -> np.ndarray:
     """P(sum q_s W_s >= t), W_s Bernoulli(p) over the nonzero pairs: exact or large-sample
     (the normal with mean p sum(q) and variance p (1 - p) sum(q^2))."""
-    from scipy.special import ndtr
+    from ..common.numeric import normal_cdf
 
     p = np.atleast_1d(np.asarray(p, float))
     if method == "exact":
         return _tail_exact(q, t, p)
     s1, s2 = q.sum(), np.square(q).sum()
-    return np.asarray(ndtr(-(t - p * s1) / np.sqrt(p * (1 - p) * s2)))  # upper tail, no 1 -
+    return normal_cdf(-(t - p * s1) / np.sqrt(p * (1 - p) * s2))  # upper tail, no 1 -
 
 
 def signed_rank_bounds(differences: ArrayLike, gamma: ArrayLike, *, method: str = "exact",
@@ -278,7 +281,7 @@ def signed_rank_bounds(differences: ArrayLike, gamma: ArrayLike, *, method: str 
 def _gamma_at(alpha: float, upper_at: object) -> float | None:
     """The Gamma at which an increasing upper bound reaches alpha (Brent's method in log Gamma,
     to 1e-12 there: a dozen evaluations of the bound where bisection took eighty)."""
-    from scipy.optimize import brentq
+    from ..common.numeric import brent
 
     f = upper_at  # type: ignore[assignment]
     if f(1.0) >= alpha:  # type: ignore[operator]
@@ -286,7 +289,7 @@ def _gamma_at(alpha: float, upper_at: object) -> float | None:
     top = float(np.log(1e6))
     if f(1e6) < alpha:  # type: ignore[operator]
         return float("inf")
-    root = brentq(lambda x: f(float(np.exp(x))) - alpha, 0.0, top, xtol=1e-12, rtol=1e-14)  # type: ignore[operator]
+    root = brent(lambda x: f(float(np.exp(x))) - alpha, 0.0, top, xtol=1e-12, rtol=1e-14)  # type: ignore[operator]
     return float(np.exp(root))
 
 

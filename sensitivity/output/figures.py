@@ -37,8 +37,11 @@ STYLE = {
     "pdf.fonttype": 42,
     "ps.fonttype": 42,
     "svg.fonttype": "path",
+    "svg.hashsalt": "sensitivity",  # the same ids in every run: the same figure, the same SVG
     "savefig.dpi": 200,
 }
+#: No creation date in a saved figure: the same figure gives the same bytes on every run.
+UNDATED = {"svg": {"Date": None}, "pdf": {"Creator": "sensitivity", "CreationDate": None}}
 FILL = "PuOr"  # diverging at the target; readable by colour-blind readers
 LINE = {"estimate": ("black", "-", 2.0), "ci": ("black", "--", 1.5)}
 Mark = tuple[float, float]
@@ -168,8 +171,7 @@ def _save_whole(fig: Any, path: str | Path, kind: str | None) -> None:
 
     temporary = temporary_beside(path)
     try:
-        fig.savefig(temporary, format=kind,
-                    metadata={"Creator": "sensitivity"} if kind == "pdf" else None)  # fmt: skip
+        fig.savefig(temporary, format=kind, metadata=UNDATED.get(kind or ""))
         commit(temporary, path)
     except BaseException:
         discard(temporary)

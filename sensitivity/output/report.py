@@ -32,6 +32,7 @@ from .document import (
     html_page,
     markdown_page,
 )
+from .drawing import FigureWorker, draw_all
 from .tables import Table
 
 TITLE = "Sensitivity to unmeasured confounding"
@@ -159,17 +160,16 @@ def _entries(
     return merged
 
 
-def _draw(part: ReportPart, out: Path, taken: set[str]) -> list[Image]:
-    images = []
+def _planned(part: ReportPart, out: Path, taken: set[str]) -> list[tuple[Figure, list[Path]]]:
+    """Each figure of a part with its files (a key taken already gets a number)."""
+    planned = []
     for figure in part.figures:
         key, n = figure.key, 2
         while key in taken:
             key, n = f"{figure.key}_{n}", n + 1
         taken.add(key)
-        paths = [out / f"{key}.png", out / f"{key}.svg"]
-        figure.draw(paths)
-        images.append(Image(paths[0], figure.caption))
-    return images
+        planned.append((figure, [out / f"{key}.png", out / f"{key}.svg"]))
+    return planned
 
 
 def _unique(values: Sequence[str]) -> tuple[str, ...]:
@@ -213,17 +213,23 @@ def _is_tail(block: Block) -> bool:
 
 
 def write_report(
-    results: Sequence[tuple[str, Any]], folder: str | Path, reproduce: Reproduce
+    results: Sequence[tuple[str, Any]],
+    folder: str | Path,
+    reproduce: Reproduce,
+    worker: FigureWorker | None = None,
 ) -> dict[str, Path]:
     """Write the report folder for labelled results of any family; returns the files
-    written, by role ("folder", "md", "html", "tex", "json")."""
+    written, by role ("folder", "md", "html", "tex", "json"). With a `worker` (a second
+    process, started early), the figures are drawn by both processes at once."""
     out = Path(folder)
     out.mkdir(parents=True, exist_ok=True)
     items = [ReportItem(k, label, result) for k, (label, result) in enumerate(results, 1)]
     grouped = parts_of(items)
     parts = [part for part, _ in grouped]
     taken: set[str] = set()
-    images = [_draw(part, out, taken) for part in parts]
+    plans = [_planned(part, out, taken) for part in parts]
+    draw_all([(figure.draw, paths) for plan in plans for figure, paths in plan], worker)
+    images = [[Image(paths[0], figure.caption) for figure, paths in plan] for plan in plans]
     document = report_document(parts, images, reproduce)
 
     _write_text(out / "report.md", markdown_page(document))
