@@ -170,6 +170,8 @@ def _refuse_format_against_extension(ctx: click.Context) -> None:
 def _check_outputs(ctx: click.Context, param: click.Parameter, value: tuple) -> tuple:
     """Refuse a missing folder (or a symbolic link that cannot be written through) before any
     work is done."""
+    if not value:
+        return value
     from sensitivity.output.atomic import target_problem
 
     for path in value:

@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import contextlib
 import os
-import tempfile
 from collections.abc import Iterator
 from pathlib import Path
 from typing import IO
@@ -78,6 +77,8 @@ def temporary_beside(target: str | Path) -> Path:
     """A new empty temporary file in the target's folder, keeping its extension (writers such
     as matplotlib and pandas choose the format by it). A symbolic link's folder is that of
     the file it points to (see `through_links`)."""
+    import tempfile
+
     suffix = Path(target).suffix  # the name given decides the format, not the link's target
     if os.path.islink(target):  # a link's own folder says nothing of its target's
         target = check_target(target, "output")
