@@ -223,3 +223,43 @@ def test_a_propensity_formula_patsy_cannot_evaluate_is_our_one_line(run, visits)
         "Error: `--propensity` 'idp ~ log(lncoins)': the term 'log(lncoins)' could not be "
         "evaluated: name 'log' is not defined"
     )
+
+
+def test_a_text_event_column_is_one_line_not_an_internal_error(run, visits, tmp_path):
+    data = visits[0].assign(said=np.where(visits[0]["idp"] == 1, "yes", "no"))
+    path = tmp_path / "said.csv"
+    data.to_csv(path, index=False)
+    res = run("evalue", "--data", path, "--formula", "time ~ idp + lncoins", "--treatment",
+              "idp", "--model", "cox", "--event", "said")  # fmt: skip
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1
+    assert res.stderr.startswith(
+        "Error: `--event`: the column 'said' must be 1 for an event and 0 for none; it holds text"
+    )
+
+
+def test_a_constant_outcome_on_the_partial_r2_route_says_so(run, visits):
+    res = run("partial-r2", "--data", visits[1], "--formula", "none ~ idp + lncoins",
+              "--treatment", "idp")  # fmt: skip
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1
+    assert res.stderr.startswith("Error: `--data`: the fit leaves no residual variation in 'none'")
+    assert "`--se`" not in res.stderr
+
+
+@pytest.mark.parametrize("command", ["stability", "impact"])
+def test_linearly_dependent_columns_are_refused_without_statsmodels_warning(run, visits,
+                                                                             command):  # fmt: skip
+    # statsmodels' pinv would split the coefficient between idp and its double, and warn
+    # with its own file and line; the data routes refuse the design in one line instead.
+    data, path = visits
+    doubled = path.with_name("doubled.csv")
+    data.assign(idp2=2 * data["idp"]).to_csv(doubled, index=False)
+    args = {
+        "stability": ("stability", "--data", doubled, "--formula-short", "mdvis ~ idp",
+                      "--formula-long", "mdvis ~ idp + idp2 + lncoins", "--treatment", "idp"),
+        "impact": ("impact", "--data", doubled, "--formula", "mdvis ~ idp + idp2 + lncoins",
+                   "--treatment", "idp"),
+    }[command]  # fmt: skip
+    res = run(*args)
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1, res.stderr
+    assert "its columns are linearly dependent in these data (rank 3 of 4)" in res.stderr
+    assert "Warning" not in res.stderr and ".py:" not in res.stderr

@@ -181,6 +181,12 @@ def fit(
         raise InputError(f"`event` applies to model cox only; got model {model}", "event")
     if event is not None and event not in data.columns:
         raise InputError(f"`event` {event!r} is not a column of the data", "event")
+    if event is not None:
+        from pandas.api.types import is_bool_dtype, is_numeric_dtype
+
+        if not (is_numeric_dtype(data[event]) or is_bool_dtype(data[event])):
+            raise InputError(f"`event`: the column {event!r} must be 1 for an event and 0 for "
+                             "none; it holds text", "event")  # fmt: skip
     refuse_numbers_in_frame(data, formula)  # a stray word would make each number a category
     fitters = {
         "ols": lambda: smf.ols(formula, data).fit(),
