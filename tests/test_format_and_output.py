@@ -62,3 +62,15 @@ def test_every_output_of_a_repeated_option_is_checked(run, tmp_path):
     res = run(*EVALUE, "--format", "json", "-o", tmp_path / "a.json", "-o", tmp_path / "b.md")
     assert res.exit_code == 2 and "'" + str(tmp_path / "b.md") + "'" in res.stderr
     assert not (tmp_path / "a.json").exists()  # refused before any work
+
+
+def test_a_dash_output_is_stdout_and_an_empty_one_is_refused(run, tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    res = run(*EVALUE, "--format", "json", "-o", "-", "-o", "copy.json")
+    assert res.exit_code == 0, res.stderr
+    assert json.loads(res.stdout) == json.loads((tmp_path / "copy.json").read_text())
+    assert not (tmp_path / "-").exists()  # no file named "-"
+    res = run(*EVALUE, "-o", "")
+    assert res.exit_code == 2 and res.stderr == (
+        "Error: Invalid value for '-o': must name a file; got ''\n"
+    )

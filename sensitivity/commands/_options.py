@@ -175,6 +175,8 @@ def _check_outputs(ctx: click.Context, param: click.Parameter, value: tuple) -> 
     from sensitivity.output.atomic import target_problem
 
     for path in value:
+        if path == "-":  # stdout, as the convention has it
+            continue
         problem = target_problem(path)
         if problem is not None:
             raise click.BadParameter(problem, ctx, param)
@@ -190,9 +192,9 @@ def format_options(func: Callable) -> Callable:
         multiple=True,
         type=click.Path(dir_okay=False, writable=True),
         callback=_check_outputs,
-        help="Write the result to FILE instead of stdout; repeatable. The format comes from "
-        "the extension (.json .csv .md .tex .txt .html), else from --format (a --format that "
-        "names another format than the extension is an error).",
+        help="Write the result to FILE instead of stdout ('-' for stdout); repeatable. The "
+        "format comes from the extension (.json .csv .md .tex .txt .html), else from --format "
+        "(a --format that names another format than the extension is an error).",
     )(func)
     return click.option(
         "--format",
@@ -412,6 +414,10 @@ def emit(result: Any, fmt: str, outputs: tuple[str, ...] | str | None) -> None:
         _write(result, fmt, sys.stdout.buffer)
         formats.append(fmt)
     for path in outputs or ():
+        if path == "-":  # `-o -`: stdout, in --format (not a file named "-")
+            _write(result, fmt, sys.stdout.buffer)
+            formats.append(fmt)
+            continue
         chosen = EXTENSIONS.get(Path(path).suffix.lower(), fmt)
         from sensitivity.output.atomic import replacing
 

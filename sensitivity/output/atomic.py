@@ -50,6 +50,8 @@ def through_links(target: str | Path) -> Path:
 def target_problem(target: str | Path) -> str | None:
     """What stops a write to `target` (a missing folder; a symbolic link that loops, names a
     folder, or points into a folder that does not exist), as a rule's words; else None."""
+    if str(target) in ("", "."):
+        return f"must name a file; got {str(target)!r}"
     real = through_links(target)
     link = f"the link {str(target)!r}"
     if os.path.islink(real):
