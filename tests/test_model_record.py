@@ -263,3 +263,45 @@ def test_linearly_dependent_columns_are_refused_without_statsmodels_warning(run,
     assert res.exit_code == 2 and res.stderr.count("\n") == 1, res.stderr
     assert "its columns are linearly dependent in these data (rank 3 of 4)" in res.stderr
     assert "Warning" not in res.stderr and ".py:" not in res.stderr
+
+
+@pytest.mark.parametrize(
+    ("model", "formula", "treatment", "extra", "message"),
+    [
+        ("ols", "none ~ idp + lncoins", "idp", (),
+         "`--formula`: the outcome 'none' is 0 in every row the fit uses; a regression needs "
+         "an outcome that varies"),
+        ("negbin", "mdvis ~ flat + lncoins", "flat", (),
+         "`--formula` 'mdvis ~ flat + lncoins': its columns are linearly dependent in these "
+         "data (rank 2 of 3)"),
+        ("cox", "time ~ flat + lncoins", "flat", ("--event", "idp"),
+         "`--formula` 'time ~ flat + lncoins': "),  # its columns' rank, or the column named
+        ("logit", "idp ~ lncoins + physlm", "lncoins", ("--contrast", "0"),
+         "`--contrast` must not be 0; got 0"),
+    ],
+)  # fmt: skip
+def test_a_design_that_cannot_be_estimated_says_why(run, visits, tmp_path, model, formula,
+                                                    treatment, extra, message):  # fmt: skip
+    # (before: "`--sd` must be positive", an odd negative binomial failure, a Cox estimate
+    # for a treatment that never varies, an odds ratio of exactly 1 for a contrast of 0)
+    path = tmp_path / "flat.csv"
+    visits[0].assign(flat=1.0).to_csv(path, index=False)
+    res = run("evalue", "--data", path, "--formula", formula, "--treatment", treatment,
+              "--model", model, *extra)  # fmt: skip
+    assert res.exit_code == 2 and res.stderr.count("\n") == 1, res.stderr
+    assert res.stderr.startswith(f"Error: {message}"), res.stderr
+
+
+def test_a_cox_fit_that_runs_with_a_flat_treatment_is_still_refused():
+    # data generated here: PHReg fits a column that never varies (no intercept to clash
+    # with) and gives it a coefficient, which means nothing
+    import pandas as pd
+
+    from sensitivity.common.errors import InputError
+
+    rng = np.random.default_rng(3)
+    frame = pd.DataFrame({"x": rng.normal(size=200), "flat": 1.0,
+                          "time": rng.exponential(1.0, 200),
+                          "died": rng.binomial(1, 0.4, 200)})  # fmt: skip
+    with pytest.raises(InputError, match=r"'flat' takes one value in every row the fit uses"):
+        evalue_from_data(frame, "time ~ flat + x", "flat", "cox", event="died")

@@ -55,8 +55,11 @@ def range_problem(model: str, name: str, low: float, high: float) -> str | None:
 
 def constant_problem(model: str, name: str, low: float, high: float) -> str | None:
     """The rule an outcome that takes one value in every row used breaks, or None."""
-    if low != high or model not in ("logit", "poisson", "negbin"):
+    if low != high or model not in ("logit", "poisson", "negbin", "ols"):
         return None
+    if model == "ols":
+        return (f"`formula`: the outcome {name!r} is {low:g} in every row the fit uses; a "
+                "regression needs an outcome that varies")  # fmt: skip
     if model == "logit":
         return (f"`formula`: the outcome {name!r} is {low:g} in every row the fit uses; a "
                 "logit fit needs rows with and without the outcome")  # fmt: skip
@@ -77,6 +80,25 @@ def event_problem(event: str, values: Any) -> str | None:
     if v.size and not (v == 1).any():
         return f"`event`: the column {event!r} has no event (no 1) in the rows the fit uses"
     return None
+
+
+def _check_rank(data: Any, formula: str) -> None:
+    """After a failed fit: refuse a design whose columns are linearly dependent (a constant
+    treatment, a column twice), which the failure's own words would not say."""
+    import patsy
+
+    try:
+        _, x = patsy.dmatrices(formula, data, NA_action="drop", eval_env=1)
+    except Exception:  # noqa: BLE001 - the fit's own failure is reported instead
+        return
+    x = np.asarray(x, float)
+    if x.size and (rank := int(np.linalg.matrix_rank(x))) < x.shape[1]:
+        raise InputError(
+            f"`formula` {formula!r}: its columns are linearly dependent in these data (rank "
+            f"{rank} of {x.shape[1]}), so its coefficients are not identified; drop a column "
+            "that the others reproduce (or a treatment or covariate that does not vary)",
+            "formula",
+        )
 
 
 def check_fitted(model: str, formula: str, endog: Any, status: Any = None,
@@ -204,6 +226,7 @@ def fit(
                 raise formula_failure(err, formula, model) from None
             # then the rule the outcome breaks, in our words (not the library's)
             check_outcome_column(data, formula, model, event)
+            _check_rank(data, formula)
             if model == "negbin" and _binary_column(data, formula):
                 raise InputError(
                     f"`model` negbin: the outcome {outcome_name(formula)!r} is 0/1, and a "
@@ -226,6 +249,16 @@ def fit(
     _converged(results)
     status = getattr(results.model, "status", None) if model == "cox" else None
     check_fitted(model, formula, results.model.endog, status, event)
+    if model == "cox":  # no intercept: a column that does not vary is the baseline's, and
+        exog = np.asarray(results.model.exog, float)  # PHReg still gives it a coefficient
+        flat = [n for n, v in zip(results.model.exog_names, np.ptp(exog, axis=0), strict=True)
+                if v == 0]  # fmt: skip
+        if flat and exog.shape[0]:
+            raise InputError(
+                f"`formula` {formula!r}: {flat[0]!r} takes one value in every row the fit "
+                "uses; a Cox fit cannot estimate its effect (the baseline hazard absorbs it)",
+                "formula",
+            )
     if errors is None:
         kind, column = default_errors(model, results.model.endog), None
     if kind == "classical":

@@ -91,6 +91,14 @@ def what_it_is(value: Any) -> str:
     return f"{kind.__module__}.{kind.__name__}"
 
 
+def _check_contrast(contrast: object) -> None:
+    """A finite, non-zero contrast (exp(b x 0) = 1 whatever the fit: no answer at all)."""
+    from ..common.checks import FINITE, require
+
+    if require(contrast, "contrast", FINITE) == 0:
+        raise InputError("`contrast` must not be 0; got 0", "contrast")
+
+
 def _treatment_index(names: list[str], treatment: str) -> int:
     if treatment in names:
         return names.index(treatment)
@@ -187,6 +195,7 @@ def evalue_from_model(
     >>> res.scale, res.outcome, res.model["kind"]
     ('or', 'rare', 'logit')
     """
+    _check_contrast(contrast)
     return _evalue_of_results(results, treatment, contrast=contrast, alpha=alpha,
                               outcome=outcome)  # fmt: skip
 
@@ -365,6 +374,7 @@ def evalue_from_data(
     from .design import check_names
     from .glm import evalue_one_pass, supports
 
+    _check_contrast(contrast)
     if event is not None and model != "cox" and model in KINDS:
         raise InputError(f"`event` applies to model cox only; got model {model}", "event")
     if supports(formula, model, errors):  # logit and Poisson: fitted in passes over pieces
