@@ -264,3 +264,13 @@ def test_the_python_writer_refuses_a_link_into_a_missing_folder(tmp_path):
     with pytest.raises(InputError, match=r"folder .*gone.* \(where the link .* does not exist"):
         write_text(link, "x")
     assert link.is_symlink() and _leftovers(tmp_path) == []
+
+
+def test_a_link_to_the_input_is_refused_as_the_input_itself(run, tmp_path):
+    src = _screen_input(tmp_path)
+    before = src.read_bytes()
+    link = tmp_path / "to-input.csv"
+    link.symlink_to(src)
+    res = run("screen", src, "-o", link)
+    assert res.exit_code == 2 and "is the input file given as FILE" in res.stderr
+    assert src.read_bytes() == before and link.is_symlink()
