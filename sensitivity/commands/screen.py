@@ -92,7 +92,8 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
     default="text",
     show_default=True,
     help="Without --output: csv or json puts the screened table on stdout; text, markdown "
-    "or latex the summary.",
+    "or latex the summary. With --output the file's extension decides (a --format that "
+    "names another format is an error).",
 )
 @click.option(
     "--pool",
@@ -179,6 +180,7 @@ def screen_cmd(
             del os.environ["OPENBLAS_NUM_THREADS"]
 
     from sensitivity.common.errors import InputError, one_line
+    from sensitivity.output.atomic import check_target
     from sensitivity.screen.core import AS_READ_TEXT, Options, computed_names
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
@@ -190,6 +192,7 @@ def screen_cmd(
         if target is not None:
             try:
                 check_table_path(target)
+                check_target(target, "output")  # a symbolic link is written through
             except InputError as err:  # the writer's check knows one `output`
                 raise err.renamed({"output": argument}) from None
     if plot_limits is not None and not plot_limits[0] > 1:  # the E-value axis starts at 1
