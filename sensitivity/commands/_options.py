@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import re
+import sys
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
@@ -105,11 +106,34 @@ class Command(click.Command):
     def invoke(self, ctx: click.Context) -> Any:
         from sensitivity.common.errors import InputError
 
+        _load_numpy(self, ctx)
         try:
             return super().invoke(ctx)
         except InputError as err:
             # the library names its Python argument (`ci_level`); the user typed --ci-level
             raise type(err)(err.render(namer(self, ctx))) from err.__cause__
+
+
+def _load_numpy(command: click.Command, ctx: click.Context) -> None:
+    """Load numpy, with OpenBLAS held to one thread where the command multiplies no large
+    matrices: summary input (no `--data`), and matched pairs. OpenBLAS starts a thread a core
+    while numpy loads, and they spin: on this two-core machine a one-number command took 1.45x
+    as long with them (paired runs, issue 26). Not where the user chose a number, nor where
+    numpy is loaded already; the setting is not passed on to other processes. (The screen
+    holds it itself, while its first pieces are read.)"""
+    import os
+
+    if "numpy" in sys.modules or "OPENBLAS_NUM_THREADS" in os.environ:
+        return
+    if ctx.params.get("data") is not None and command.name != "matched":
+        return
+    if command.name == "screen":
+        return
+    os.environ["OPENBLAS_NUM_THREADS"] = "1"
+    try:
+        import numpy  # noqa: F401
+    finally:
+        del os.environ["OPENBLAS_NUM_THREADS"]
 
 
 #: Above this many rows JSON is written compact and streamed (people do not read it).
