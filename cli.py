@@ -8,8 +8,10 @@ traceback only under `--debug`.
 
 from __future__ import annotations
 
+import errno
 import sys
 from importlib import import_module
+from typing import Any
 
 import click
 
@@ -50,6 +52,8 @@ class _Cli(click.Group):
 
         args = list(sys.argv[1:] if args is None else args)
         debug = "--debug" in args
+        if sys.stdout is None:  # started with stdout closed (`>&-`): a result cannot be shown
+            sys.stdout = _closed_stdout()
         from sensitivity.commands import _options
 
         _options.INVOCATION[:] = [a for a in args if a != "--debug"]
@@ -72,6 +76,8 @@ class _Cli(click.Group):
             click.echo(f"Error: {one_line(str(err))}", err=True)
             sys.exit(2)
         except OSError as err:
+            if err.errno == errno.EPIPE:  # the reader of stdout left (`| head`)
+                _stop_writing_stdout()
             if debug:
                 raise
             text = f"{err.strerror or err}: {err.filename or ''}".rstrip(": ")
@@ -87,6 +93,41 @@ class _Cli(click.Group):
             )
             sys.exit(1)
         sys.exit(0)
+
+
+def _stop_writing_stdout() -> None:
+    """Exit 1, quietly, when the reader of stdout has gone (a closed pipe: `| head`).
+
+    As a Unix filter does: nothing on stderr (the reader chose to stop), and a failure status,
+    since the whole result was not delivered (a shell with `pipefail` can tell). 1 is
+    CONTRACT's code for a failure that is not the user's input, and what Python's own
+    documentation gives for EPIPE; click exits so on the same error. Anything still buffered
+    for stdout goes to the null device, so the interpreter's last flush raises nothing.
+    Temporary files are removed before this, by the writers' own cleanup as the error passes.
+    """
+    import os
+
+    try:
+        null = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(null, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass
+    sys.exit(1)
+
+
+def _closed_stdout() -> Any:
+    """A stdout for a process started without one: writing to it raises OSError (exit 1 with
+    one line), where print() and click.echo would drop a result silently."""
+    import io
+
+    class Closed(io.RawIOBase):
+        def writable(self) -> bool:
+            return True
+
+        def write(self, data: Any) -> int:
+            raise OSError(errno.EBADF, "standard output is closed; give --output FILE")
+
+    return io.TextIOWrapper(Closed(), encoding="utf-8", write_through=True)
 
 
 @click.group(cls=_Cli, context_settings={"help_option_names": ["-h", "--help"]})

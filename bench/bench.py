@@ -324,34 +324,42 @@ def bench_matched() -> None:
 
 def _matched_commands() -> None:
     """Issue 26's rows, whole commands: 10,000 pairs by the normal method against the
-    start-up floor; 440 heavily tied pairs (differences in whole units from -3 to 6) exact
-    against normal."""
+    start-up floor; 440 tied pairs exact against normal: the in-process section's pairs
+    (rounded to 0.1: 29 distinct sizes), and pairs in whole units from -3 to 6 (7 sizes, the
+    exact bound's hardest ties)."""
     import tempfile
 
     import numpy as np
 
     with tempfile.TemporaryDirectory() as tmp:
         rng = np.random.default_rng(12)
-        many, tied = f"{tmp}/pairs_10000.csv", f"{tmp}/tied_440.csv"
+        many, tied, whole = (f"{tmp}/{name}.csv" for name in ("pairs", "tied", "whole"))
         np.savetxt(many, rng.normal(0.3, 1, 10_000).round(2), header="d", comments="")
-        np.savetxt(tied, rng.integers(-3, 7, 440), fmt="%d", header="d", comments="")
+        np.savetxt(tied, np.random.default_rng(5).normal(0.3, 1, 440).round(1), fmt="%.1f",
+                   header="d", comments="")  # fmt: skip
+        np.savetxt(whole, rng.integers(-3, 7, 440), fmt="%d", header="d", comments="")
         run = [str(BIN / "sensitivity"), "matched", "--differences", "d", "--gamma",
                "1:6:0.5", "--format", "json"]  # fmt: skip
         commands = {
             "normal_10000": [*run, "--data", many, "--method", "normal"],
             "floor": [sys.executable, "-c", "import numpy, click"],
-            "exact_440": [*run, "--data", tied, "--method", "exact"],
-            "normal_440": [*run, "--data", tied, "--method", "normal"],
+            "exact_tied": [*run, "--data", tied, "--method", "exact"],
+            "normal_tied": [*run, "--data", tied, "--method", "normal"],
+            "exact_whole": [*run, "--data", whole, "--method", "exact"],
+            "normal_whole": [*run, "--data", whole, "--method", "normal"],
         }
         runs: dict[str, list] = {}
         t, _ = _alternate(commands, 7, runs)
     print(f"sensitivity matched, 10,000 pairs, normal method (whole command): "
           f"{t['normal_10000']:.2f} s; start-up floor (import numpy, click) {t['floor']:.2f} s"
           f"  (goal: at most 0.4 s)")  # fmt: skip
-    print(f"sensitivity matched, 440 tied pairs, exact: {t['exact_440']:.2f} s against the "
-          f"normal method's {t['normal_440']:.2f} s: "
-          f"{_round_ratios(runs, 'exact_440', 'normal_440')}"
-          f"  (goal: at most 1.5)")  # fmt: skip
+    for key, label in (("tied", "440 pairs rounded to 0.1"), ("whole", "440 pairs in whole "
+                                                              "units (7 sizes)")):  # fmt: skip
+        print(
+            f"sensitivity matched, {label}, exact: {t['exact_' + key]:.2f} s against the "
+            f"normal method's {t['normal_' + key]:.2f} s: "
+            f"{_round_ratios(runs, 'exact_' + key, 'normal_' + key)}  (goal: at most 1.5)"
+        )
 
 
 REGRESSION_FORMULA = "y ~ t + " + " + ".join(f"x{i}" for i in range(1, 27)) + \

@@ -147,3 +147,130 @@ def test_an_interrupt_while_closing_still_removes_the_temporary_file(tmp_path):
     writer._behind.close = interrupted
     writer.abort()
     assert list(tmp_path.iterdir()) == []
+
+
+# --- a symbolic link as the output is written through, and stays a link --------------------
+
+
+def _linked(tmp_path, name, target_name="real", old=b"old"):
+    real = tmp_path / "elsewhere" / target_name
+    real.parent.mkdir(exist_ok=True)
+    real.write_bytes(old)
+    link = tmp_path / name
+    link.symlink_to(real)
+    return link, real
+
+
+def _screen_input(tmp_path):
+    src = tmp_path / "in.csv"
+    src.write_text("scale,estimate,lower,upper\nrr,2,1.5,3\n")
+    return src
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".tsv", ".json", ".parquet", ".xlsx"])
+def test_the_screen_writes_through_a_symbolic_link(run, tmp_path, suffix):
+    link, real = _linked(tmp_path, f"out{suffix}", f"real{suffix}")
+    res = run("screen", _screen_input(tmp_path), "-o", link)
+    assert res.exit_code == 0, res.stderr
+    assert link.is_symlink() and link.resolve() == real.resolve()
+    assert real.read_bytes() != b"old"
+    assert _leftovers(tmp_path) == [] and _leftovers(real.parent) == []
+
+
+@pytest.mark.parametrize("suffix", [".json", ".csv", ".md", ".tex", ".txt", ".html"])
+def test_a_command_output_writes_through_a_symbolic_link(run, tmp_path, suffix):
+    link, real = _linked(tmp_path, f"out{suffix}", "real.dat")  # the name given sets the format
+    res = run("evalue", "--scale", "rr", "--estimate", "2", "-o", link)
+    assert res.exit_code == 0, res.stderr
+    assert link.is_symlink()
+    direct = tmp_path / f"direct{suffix}"
+    assert run("evalue", "--scale", "rr", "--estimate", "2", "-o", direct).exit_code == 0
+    assert real.read_bytes() == direct.read_bytes()
+
+
+@pytest.mark.parametrize("suffix", [".png", ".svg", ".pdf"])
+def test_a_figure_writes_through_a_symbolic_link(run, tmp_path, suffix):
+    link, real = _linked(tmp_path, f"fig{suffix}", f"real{suffix}")
+    res = run("evalue", "--scale", "rr", "--estimate", "2", "--plot", link)
+    assert res.exit_code == 0, res.stderr
+    assert link.is_symlink() and real.stat().st_size > 100
+    assert _leftovers(real.parent) == []
+
+
+def test_the_report_writes_through_links_in_its_folder(run, tmp_path):
+    folder = tmp_path / "report"
+    folder.mkdir()
+    link, real = _linked(folder, "report.json", "kept.json")
+    res = run("report", "--scale", "rr", "--estimate", "2", "--ci", "1.5", "3", "--out", folder)
+    assert res.exit_code == 0, res.stderr
+    assert link.is_symlink() and real.read_bytes().startswith(b"{")
+
+
+def test_the_python_writer_writes_through_a_chain_of_links(tmp_path):
+    link, real = _linked(tmp_path, "middle.txt", "end.txt")
+    first = tmp_path / "first.txt"
+    first.symlink_to(link)
+    write_text(first, "through")
+    assert first.is_symlink() and link.is_symlink()
+    assert real.read_text() == "through"
+
+
+def test_a_dangling_link_creates_the_file_it_names(run, tmp_path):
+    link = tmp_path / "out.json"
+    link.symlink_to(tmp_path / "made.json")
+    res = run("evalue", "--scale", "rr", "--estimate", "2", "-o", link)
+    assert res.exit_code == 0, res.stderr
+    assert link.is_symlink() and (tmp_path / "made.json").read_bytes().startswith(b"{")
+
+
+@pytest.mark.parametrize(
+    ("command", "option"),
+    [
+        (("evalue", "--scale", "rr", "--estimate", "2", "-o"), "-o"),
+        (("evalue", "--scale", "rr", "--estimate", "2", "--plot"), "--plot"),
+        (("screen", None, "-o"), "-o"),
+        (("screen", None, "--flagged"), "--flagged"),
+    ],
+)
+def test_a_link_into_a_missing_folder_is_one_line_exit_2(run, tmp_path, command, option):
+    suffix = ".png" if option == "--plot" else ".csv"
+    link = tmp_path / f"out{suffix}"
+    link.symlink_to(tmp_path / "gone" / f"x{suffix}")
+    args = [_screen_input(tmp_path) if a is None else a for a in command]
+    res = run(*args, link)
+    assert res.exit_code == 2
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and "does not exist" in lines[0] and option in lines[0]
+    assert "where the link" in lines[0] and "Traceback" not in res.output
+
+
+def test_a_link_that_loops_or_names_a_folder_is_refused(run, tmp_path):
+    (tmp_path / "a.json").symlink_to(tmp_path / "b.json")
+    (tmp_path / "b.json").symlink_to(tmp_path / "a.json")
+    res = run("evalue", "--scale", "rr", "--estimate", "2", "-o", tmp_path / "a.json")
+    assert res.exit_code == 2 and "loops" in res.stderr
+    (tmp_path / "folder").mkdir()
+    (tmp_path / "f.csv").symlink_to(tmp_path / "folder")
+    res = run("screen", _screen_input(tmp_path), "-o", tmp_path / "f.csv")
+    assert res.exit_code == 2 and "is a directory" in res.stderr  # click's own check
+    assert len(res.stderr.strip().splitlines()) == 1
+    with pytest.raises(InputError, match="points to a folder"):
+        write_text(tmp_path / "f.csv", "x")
+
+
+def test_the_python_writer_refuses_a_link_into_a_missing_folder(tmp_path):
+    link = tmp_path / "out.txt"
+    link.symlink_to(tmp_path / "gone" / "x.txt")
+    with pytest.raises(InputError, match=r"folder .*gone.* \(where the link .* does not exist"):
+        write_text(link, "x")
+    assert link.is_symlink() and _leftovers(tmp_path) == []
+
+
+def test_a_link_to_the_input_is_refused_as_the_input_itself(run, tmp_path):
+    src = _screen_input(tmp_path)
+    before = src.read_bytes()
+    link = tmp_path / "to-input.csv"
+    link.symlink_to(src)
+    res = run("screen", src, "-o", link)
+    assert res.exit_code == 2 and "is the input file given as FILE" in res.stderr
+    assert src.read_bytes() == before and link.is_symlink()

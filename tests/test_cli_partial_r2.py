@@ -255,7 +255,8 @@ def test_bad_input_exits_2(run, args, message):
         (
             ("--treatment", "rate_marriage"),
             "affairs ~ rate_marriage + (",
-            "Error: `--formula` 'affairs ~ rate_marriage + (' could not be fitted",
+            "Error: `--formula` 'affairs ~ rate_marriage + (' could not be read: expected a "
+            "noun, but instead the expression ended (at '(')",
         ),
         (
             ("--treatment", "rate_marriage", "--benchmark", "religious:-2"),

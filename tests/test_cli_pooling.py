@@ -181,3 +181,41 @@ def test_screen_pool_errors_exit_2(run, tmp_path):
     assert res.exit_code == 2 and "at least 2 usable studies" in res.stderr
     res = run("screen", DEMO, "--from-text", "result", "--pool", "0")
     assert res.exit_code == 2 and "`--pool` must be positive; got 0" in res.stderr
+
+
+def _studies(tmp_path, second_level):
+    # invented studies (a scenario of our own), read from free text with their levels
+    path = tmp_path / "studies.csv"
+    path.write_text(
+        "label,result\n"
+        'A,"RR 1.52 (95% CI 1.10-2.10)"\n'
+        f'B,"RR 1.31 ({second_level}% CI 1.02-1.68)"\n'
+        'C,"RR 1.80 (95% CI 1.20-2.70)"\n'
+    )
+    return path
+
+
+def test_the_studies_table_names_the_level_all_rows_share(run, tmp_path):
+    res = run("pool", _studies(tmp_path, 95), "--from-text", "result", "--threshold", "1.2",
+              "--format", "markdown")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    assert "| Study | Risk ratio | 95% CI | E-value | E-value (95% CI) | Weight |" in res.stdout
+    assert "E-value (CI)" not in res.stdout
+
+
+def test_the_studies_table_gives_each_row_its_level_when_they_differ(run, tmp_path):
+    import pandas as pd
+
+    from sensitivity.pooling.data import pool_table
+    from sensitivity.pooling.present import study_table
+
+    res = run("pool", _studies(tmp_path, 90), "--from-text", "result", "--threshold", "1.2",
+              "--format", "markdown")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    assert "| Interval | Level | E-value | E-value (its row's CI) |" in res.stdout
+    assert "| B | 1.31 | 1.02 to 1.68 | 90% |" in res.stdout
+    assert "E-value (CI)" not in res.stdout
+    frame = pd.read_csv(_studies(tmp_path, 90))
+    table = study_table(pool_table(frame, from_text="result", threshold=1.2))
+    assert [row[3] for row in table.rows] == ["95%", "90%", "95%"]
+    assert table.footnotes[0].startswith("Each interval, and the E-value of its limit nearest")

@@ -197,3 +197,16 @@ def test_a_job_that_cannot_travel_is_drawn_here(jobs_module, tmp_path):
         worker.draw_all(jobs)
     assert out[2].read_text() == str(os.getpid())
     assert all(p.read_text() for p in out)
+
+
+def test_the_same_report_twice_is_the_same_files(run, tmp_path):
+    """The README's promise: the same inputs give the same folder, figures included (no
+    dates, fixed SVG ids), however the figures were shared between the processes."""
+    root = Path(__file__).resolve().parent.parent
+    runs = []
+    for _ in range(2):
+        res = run("report", "--estimates", root / "demo" / "cohort_estimates.csv", "--out",
+                  tmp_path / "r")  # fmt: skip
+        assert res.exit_code == 0, res.stderr
+        runs.append({p.name: p.read_bytes() for p in sorted((tmp_path / "r").iterdir())})
+    assert len(runs[0]) == 16 and runs[0] == runs[1]

@@ -208,3 +208,22 @@ def test_a_huge_t_is_no_overflow(t):
 def test_an_infinite_t_from_estimate_and_se_is_refused():
     with pytest.raises(InputError, match=r"`estimate` / `se` must be a finite t statistic"):
         impact_threshold(estimate=1e300, se=1e-300, dof=100)
+
+
+@pytest.mark.parametrize(("t", "dof"), [(1e155, 995), (200.0, 30), (-1e300, 196)])
+def test_a_threshold_near_1_says_the_variable_would_nearly_duplicate_both(t, dof, run):
+    # Printed to two decimals the components read 1.00 each, true in double precision but
+    # no two partial correlations below 1 multiply to 1: the sentence says what it takes.
+    res = impact_threshold(t=t, dof=dof)
+    assert abs(res.itcv_component) >= 0.995 and abs(res.itcv) > 0.99  # the bound stated
+    said = res.document().sentences[0]
+    assert "nearly duplicated both the treatment and the outcome" in said
+    assert "at least 0.99 in the direction that weakens it (so each at least 0.99" in said
+    assert "1.00" not in said
+    out = run("impact", "--t", t, "--dof", dof, "--format", "json")
+    assert out.exit_code == 0 and json.loads(out.stdout)["sentence"] == said
+
+
+def test_a_threshold_below_it_keeps_the_equal_pair_wording():
+    said = impact_threshold(t=3.0, dof=995).document().sentences[0]
+    assert "(0.19 with each, if the two are equal)" in said and "duplicated" not in said

@@ -493,3 +493,16 @@ def test_a_number_beyond_double_precision_in_a_file_is_refused(run, tmp_path):
         "Error: column 'd' holds inf on file line 4 (an infinity, or a number beyond double "
         "precision, about 1.8e308): each value must be a finite number\n"
     )
+
+
+def test_the_fourier_routes_helpers_are_scipys():
+    """Issue 26: the exact bound no longer imports scipy (0.2-0.4 s of the command): its FFT
+    length and logistic function against scipy's own."""
+    from scipy.fft import next_fast_len
+    from scipy.special import expit
+
+    from sensitivity.matched.core import _expit, _fast_length
+
+    assert [_fast_length(n) for n in range(1, 5000)] == [next_fast_len(n) for n in range(1, 5000)]
+    x = np.concatenate([np.linspace(-800, 800, 20001), [-np.inf, np.inf]])
+    np.testing.assert_allclose(_expit(x), expit(x), rtol=4e-16, atol=0)

@@ -202,7 +202,7 @@ def test_evalue_from_data(run, cohort, cohort_csv, model, formula, extra, scale)
         (["--formula", "y ~ t + x", "--treatment", "z", "--model", "logit"],
          "`--treatment` 'z' is not a column of the data"),
         (["--formula", "count ~ t + x", "--treatment", "t", "--model", "logit"],
-         "`--formula` 'count ~ t + x' could not be fitted (logit)"),
+         "`--formula`: a logit outcome must be 0/1 (or a share between 0 and 1); 'count' has "),
         (["--formula", "y ~ t + x", "--treatment", "t"], "data input needs --model as well"),
         (["--formula", "y ~ t + x", "--treatment", "t", "--model", "probit"],
          "Invalid value for '--model'"),

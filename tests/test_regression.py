@@ -213,7 +213,7 @@ def test_missing_rows_are_noted(fair):
         (
             lambda p: p.write_text("affairs,rate_marriage\n1,2\n3,4\n5,7\n"),
             "affairs ~ rate_marriage +",
-            r"`formula` .* could not be fitted",
+            r"`formula` .* could not be read: expected a noun",
         ),
         (
             lambda p: p.write_text("affairs,rate_marriage\n1,2\n3,4\n5,7\n"),

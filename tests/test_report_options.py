@@ -130,3 +130,10 @@ def test_report_takes_hypothetical_strengths_for_a_coefficient(run, fair_csv, tm
     )
     bad = run("report", "--scale", "rr", "--estimate", 1.5, *strengths, "--out", tmp_path / "s")
     assert bad.exit_code == 2 and "apply to a regression coefficient" in bad.stderr
+
+
+def test_an_empty_out_is_refused_not_the_current_folder(run, tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    res = run("report", "--scale", "rr", "--estimate", 2, "--out", "")
+    assert res.exit_code == 2 and res.stderr == "Error: `--out` must name a folder; got ''\n"
+    assert list(tmp_path.iterdir()) == []

@@ -209,6 +209,13 @@ def partial_r2_from_parts(
     notes: Sequence[str] = (),
 ) -> PartialR2Result:
     """The result from a fit's treatment coefficient and covariate strengths (any library)."""
+    if se == 0:  # a fit, not a summary: say why, not that `se` must be positive
+        raise InputError(
+            f"`data`: the fit leaves no residual variation in {outcome!r} (it is constant, or "
+            "the covariates reproduce it exactly), so the treatment's coefficient has no "
+            "standard error",
+            "data",
+        )
     est, se, dof, reduce_by, alpha = check_summary(estimate, se, dof, None, reduce_by, alpha)
     scenarios = []
     for name, kt, ky in benchmark_specs(benchmarks):

@@ -102,12 +102,24 @@ def cluster_groups(data: Any, results: Any, column: str) -> np.ndarray:
     return codes
 
 
-def used_by(results: Any) -> tuple[str, str]:
-    """(code, words) for the standard errors a fitted model's interval comes from."""
+def clustered(column: str | None, count: int | None) -> tuple[str, str]:
+    """(code, words) for cluster-robust errors: the code is the `errors` value that asks for
+    them (cluster:COLUMN) where the column is known, else "cluster" (a fit made elsewhere,
+    whose group labels carry no name)."""
+    by = f" by {column!r}" if column else ""
+    count_text = f" ({count:,} clusters)" if count is not None else ""
+    code = f"cluster:{column}" if column else "cluster"
+    return code, f"cluster-robust standard errors{by}{count_text}"
+
+
+def used_by(results: Any, cluster: str | None = None) -> tuple[str, str]:
+    """(code, words) for the standard errors a fitted model's interval comes from; `cluster`
+    names the column a clustered fit made here was clustered by."""
     if type(results).__name__ == "CoxPHFitter" or hasattr(results, "baseline_hazard_"):
-        cluster = getattr(results, "cluster_col", None)
-        if cluster:
-            return "cluster", f"cluster-robust standard errors (clusters: {cluster}; lifelines)"
+        column = getattr(results, "cluster_col", None)
+        if column:
+            code, words = clustered(column, None)
+            return code, f"{words} (lifelines)"
         if getattr(results, "robust", False):
             return "hc0", "robust (sandwich) standard errors (lifelines, robust=True)"
         return "classical", WORDS["classical"] + " (lifelines)"
@@ -117,7 +129,7 @@ def used_by(results: Any) -> tuple[str, str]:
             return "classical", WORDS["classical"]
         g = np.unique(np.asarray(groups)).size
         if g < len(np.asarray(results.model.endog)):
-            return "cluster", f"cluster-robust standard errors ({g:,} clusters)"
+            return clustered(cluster, g)
         return "hc0", "robust (sandwich) standard errors"
     cov = str(getattr(results, "cov_type", "nonrobust"))
     if cov == "nonrobust":
@@ -126,6 +138,5 @@ def used_by(results: Any) -> tuple[str, str]:
         return cov.lower(), WORDS[cov.lower()]
     if cov == "cluster":
         groups = getattr(results, "cov_kwds", {}).get("groups")
-        count = f" ({np.unique(np.asarray(groups)).size:,} clusters)" if groups is not None else ""
-        return "cluster", f"cluster-robust standard errors{count}"
+        return clustered(cluster, None if groups is None else np.unique(np.asarray(groups)).size)
     return cov.lower(), f"{cov} standard errors"

@@ -102,6 +102,7 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     with the rows (the pieces wait in a temporary file: 8 bytes a design cell)."""
     from .batches import file_source, frame_source
     from .design import check_names, find_treatment, no_interaction
+    from .fitting import constant_problem, outcome_name
     from .onepass import _Header, _kept
     from .rfactor import one_blas_thread, plain_design, plain_terms
 
@@ -144,6 +145,10 @@ def glm_one_pass(data: Any, formula: str, treatment: str, model: str, *,
         table = reading.table
         if design.used == 0:
             raise InputError("`data`: no row has a value in every column the formula uses", "data")
+        lowest, highest = float(seen["low"][0]), float(seen["high"][0])
+        problem = constant_problem(model, outcome_name(formula), lowest, highest)
+        if problem is not None:  # (rather than a fit that cannot converge)
+            raise InputError(problem, "formula")
         names = design.names
         j = find_treatment(treatment, names, design.groups)
         no_interaction(names[j], names)
@@ -273,7 +278,7 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     statsmodels' fit (numbers to 1e-8, the same words), in memory flat in the rows."""
     from statistics import NormalDist
 
-    from .errors import WORDS
+    from .errors import WORDS, clustered
     from .models import evalue_of_fit, model_kind_scale
 
     fit = glm_one_pass(data, formula, treatment, model, errors=errors, progress=progress)
@@ -287,8 +292,11 @@ def evalue_one_pass(data: Any, formula: str, treatment: str, model: str, *,
     z = NormalDist().inv_cdf(level) if level < 1 else float("inf")
     ci = np.array([b - z * se, b + z * se])
     code = {"nonrobust": "classical", "HC0": "hc0"}.get(fit.cov_type, fit.cov_type)
-    words = WORDS.get(code, f"cluster-robust standard errors ({fit.clusters:,} clusters)")
+    if code == "cluster":
+        code, words = clustered(parse_errors(errors)[1], fit.clusters)
+    else:
+        words = WORDS[code]
     return evalue_of_fit(model, scale, b, ci, treatment=treatment, n=fit.n, share=fit.share,
                          binary=fit.binary, errors=(code, words), contrast=contrast,
                          alpha=alpha, outcome=outcome, overlap=fit.overlap,
-                         notes=fit.notes)  # fmt: skip
+                         notes=fit.notes, se=se)  # fmt: skip

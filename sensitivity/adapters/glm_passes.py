@@ -12,6 +12,7 @@ import numpy as np
 
 from ..common.errors import InputError
 from ..common.overlap import WriteBehind
+from .fitting import outcome_name, range_problem
 from .irls import PieceColumn, Scratch, Step, Workspace, expit, working
 
 TOL = 1e-11
@@ -183,13 +184,11 @@ class Reading:
 
     def sink(self, rows: np.ndarray, extras: dict[str, tuple[str, Any]]) -> None:
         """A piece's kept rows (outcome first; the pass lets them be kept) and extra cells."""
-        y, formula, model = rows[:, 0], self.formula, self.model
-        if model == "logit" and ((y < 0) | (y > 1)).any():
-            raise InputError(f"`formula` {formula!r} could not be fitted (logit): endog must "
-                             "be in the unit interval.", "formula")  # fmt: skip
-        if model == "poisson" and (y < 0).any():
-            raise InputError(f"`formula` {formula!r} could not be fitted (poisson): the "
-                             "outcome must not be negative", "formula")  # fmt: skip
+        y = rows[:, 0]
+        if y.size:  # the outcome's rule for the model, in the in-memory fit's words
+            problem = range_problem(self.model, outcome_name(self.formula), y.min(), y.max())
+            if problem is not None:
+                raise InputError(problem, "formula")
         if self.cluster is not None:
             codes = _cluster_codes(*extras[self.cluster], self.table)
             if (codes < 0).any():

@@ -19,18 +19,9 @@ from ..common.errors import InputError, SensitivityWarning
 from ..common.levels import level_text
 from ..evalues.result import EValueResult
 from .design import evalue_of_coefficient
-from .errors import (
-    check_errors,
-    cluster_groups,
-    default_errors,
-    is_binary,
-    parse_errors,
-    robust_refit,
-    used_by,
-)
-from .rfactor import refuse_numbers_in_frame
+from .errors import is_binary, parse_errors, used_by
+from .fitting import KINDS, _converged, fit
 
-KINDS = ("ols", "logit", "poisson", "negbin", "cox")
 SHOWN = {"logit": "logistic", "log-binomial": "log-binomial", "poisson": "Poisson",
          "negbin": "negative binomial", "cox": "Cox", "ols": "OLS"}  # fmt: skip
 
@@ -100,13 +91,12 @@ def what_it_is(value: Any) -> str:
     return f"{kind.__module__}.{kind.__name__}"
 
 
-def _converged(results: Any) -> None:
-    retvals = getattr(results, "mle_retvals", None)
-    converged = getattr(results, "converged", None)
-    if retvals is not None and retvals.get("converged") is False or converged is False:
-        raise InputError(
-            "`results`: the model did not converge; its estimate cannot be used", "results"
-        )
+def _check_contrast(contrast: object) -> None:
+    """A finite, non-zero contrast (exp(b x 0) = 1 whatever the fit: no answer at all)."""
+    from ..common.checks import FINITE, require
+
+    if require(contrast, "contrast", FINITE) == 0:
+        raise InputError("`contrast` must not be 0; got 0", "contrast")
 
 
 def _treatment_index(names: list[str], treatment: str) -> int:
@@ -148,6 +138,18 @@ def overlap(treatment: np.ndarray, covariates: np.ndarray) -> dict[str, Any] | N
         "share_outside": outside,
         "poor": bool(outside > 0.1 or p.min() < 0.01 or p.max() > 0.99),
     }
+
+
+def coefficient(b: float, se: float | None) -> dict[str, float | None]:
+    """The model record's `coefficient` and `se`: the treatment's fitted coefficient on the
+    fit's own scale (the log of the ratio for logit, Poisson, negative binomial and Cox;
+    the outcome's units for OLS), per one unit of the treatment whatever the contrast, and
+    its standard error (robust or clustered as the fit's errors are); None if not finite."""
+
+    def finite(v: float | None) -> float | None:
+        return float(v) if v is not None and np.isfinite(v) else None
+
+    return {"coefficient": finite(b), "se": finite(se)}
 
 
 def _warn(message: str, notes: list[str], depth: int = 3) -> None:
@@ -193,6 +195,21 @@ def evalue_from_model(
     >>> res.scale, res.outcome, res.model["kind"]
     ('or', 'rare', 'logit')
     """
+    _check_contrast(contrast)
+    return _evalue_of_results(results, treatment, contrast=contrast, alpha=alpha,
+                              outcome=outcome)  # fmt: skip
+
+
+def _evalue_of_results(
+    results: Any,
+    treatment: str,
+    *,
+    contrast: float,
+    alpha: float,
+    outcome: str | None,
+    cluster: str | None = None,
+) -> EValueResult:
+    """`evalue_from_model`; `cluster` names the column a fit made here was clustered by."""
     kind, scale = model_kind(results)
     if kind == "ols":
         raise InputError(
@@ -205,6 +222,7 @@ def evalue_from_model(
     names = list(model.exog_names)
     j = _treatment_index(names, treatment)
     b = float(np.asarray(results.params)[j])
+    se = float(np.asarray(results.bse)[j])
     ci = np.asarray(results.conf_int(alpha=alpha))[j]
     y = np.asarray(model.endog, float)
     if kind == "cox":
@@ -215,13 +233,13 @@ def evalue_from_model(
         share, n = float(np.mean(y > 0)), len(y)
     else:
         share, n = float(np.mean(y > 0)), len(y)
-    code, words = used_by(results)
+    code, words = used_by(results, cluster)
     exog = np.asarray(model.exog, float)
     others = [i for i in range(exog.shape[1]) if i != j]
     ov = overlap(exog[:, j], exog[:, others]) if others else None
     return evalue_of_fit(kind, scale, b, ci, treatment=treatment, n=n, share=share,
                          binary=is_binary(y), errors=(code, words), contrast=contrast,
-                         alpha=alpha, outcome=outcome, overlap=ov)  # fmt: skip
+                         alpha=alpha, outcome=outcome, overlap=ov, se=se)  # fmt: skip
 
 
 def evalue_of_fit(
@@ -240,10 +258,12 @@ def evalue_of_fit(
     outcome: str | None,
     overlap: dict | None,
     notes: Sequence[str] = (),
+    se: float | None = None,
 ) -> EValueResult:
     """The E-value of a log-scale coefficient `b` with its interval `ci`, from a fit made in
     memory (statsmodels) or in passes (`glm.evalue_one_pass`): the same notes, warnings and
-    model record either way. `errors` is the code and the words of the fit's errors."""
+    model record either way. `errors` is the code and the words of the fit's errors; `se`
+    is b's standard error (the model record keeps b and se on the log scale)."""
     from dataclasses import replace
 
     code, words = errors
@@ -281,7 +301,7 @@ def evalue_of_fit(
         f"outcome occurs in {share:.1%} of the model's data.",
     )
     info = {"kind": kind, "n": n, "outcome_share": share, "treatment": treatment,
-            "errors": code}  # fmt: skip
+            "errors": code, **coefficient(b, se)}  # fmt: skip
     if overlap is not None and overlap["poor"]:
         _warn(
             f"poor overlap: {overlap['share_outside']:.1%} of units lie outside the common "
@@ -324,72 +344,8 @@ def _lifelines(fitter: Any, treatment: str, *, contrast: float, alpha: float,
     code, words = used_by(fitter)
     errors = f"The {level_text(alpha=alpha)} interval is from the fit's {words}."
     info = {"kind": "cox", "n": len(events), "outcome_share": share, "treatment": treatment,
-            "errors": code}  # fmt: skip
+            "errors": code, **coefficient(b, se)}  # fmt: skip
     return replace(res, notes=(note, errors, *res.notes), model=info)
-
-
-def fit(
-    data: Any, formula: str, model: str, event: str | None = None, errors: str | None = None
-) -> Any:
-    """Fit `formula` on a DataFrame with the statsmodels model `model` names; InputError for a
-    formula, outcome or event the fit cannot use, no convergence, and perfect separation.
-    `errors` (classical, hc0-hc3, cluster:COL; see `adapters.errors`) chooses the standard
-    errors: by default hc0 for a Poisson fit of a 0/1 outcome, and classical otherwise."""
-    import statsmodels.formula.api as smf
-
-    if errors is not None:
-        kind, column = parse_errors(errors)
-        check_errors(model, kind)
-    if model not in KINDS:
-        raise InputError(f"`model` must be one of {', '.join(KINDS)}; got {model!r}", "model")
-    if model == "cox" and event is None:
-        raise InputError(
-            "`event` is needed with model cox: the column that is 1 for an event", "event"
-        )
-    if model != "cox" and event is not None:
-        raise InputError(f"`event` applies to model cox only; got model {model}", "event")
-    if event is not None and event not in data.columns:
-        raise InputError(f"`event` {event!r} is not a column of the data", "event")
-    refuse_numbers_in_frame(data, formula)  # a stray word would make each number a category
-    fitters = {
-        "ols": lambda: smf.ols(formula, data).fit(),
-        "logit": lambda: smf.logit(formula, data).fit(disp=0),
-        "poisson": lambda: smf.poisson(formula, data).fit(disp=0),
-        "negbin": lambda: smf.negativebinomial(formula, data).fit(disp=0, maxiter=200),
-        "cox": lambda: smf.phreg(formula, data, status=data[event].to_numpy()).fit(),
-    }
-    with warnings.catch_warnings():
-        warnings.simplefilter("error")  # separation and non-convergence are the user's data
-        try:
-            results = fitters[model]()
-        except Exception as err:  # noqa: BLE001 - a fit failure is the data's or formula's
-            text = " ".join(str(err).split()) or type(err).__name__
-            if "separation" in text.lower():
-                raise InputError(
-                    f"`data`: perfect separation in the {model} fit: a covariate or the "
-                    "treatment predicts the outcome exactly, so the estimate is not defined",
-                    "data",
-                ) from None
-            if "converge" in text.lower():
-                raise InputError(
-                    f"`data`: the {model} fit did not converge ({text[:120]})", "data"
-                ) from None
-            raise InputError(
-                f"`formula` {formula!r} could not be fitted ({model}): {text[:240]}", "formula"
-            ) from None
-    _converged(results)
-    if errors is None:
-        kind, column = default_errors(model, results.model.endog), None
-    if kind == "classical":
-        return results
-    if model == "cox" and kind not in ("hc0", "cluster"):
-        raise InputError(
-            f"`errors` {kind}: a Cox fit takes classical, hc0 or cluster:COLUMN", "errors"
-        )
-    groups = cluster_groups(data, results, column) if column else None
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # the refit starts at the first fit's estimate
-        return robust_refit(results, model, kind, groups)
 
 
 def evalue_from_data(
@@ -418,6 +374,7 @@ def evalue_from_data(
     from .design import check_names
     from .glm import evalue_one_pass, supports
 
+    _check_contrast(contrast)
     if event is not None and model != "cox" and model in KINDS:
         raise InputError(f"`event` applies to model cox only; got model {model}", "event")
     if supports(formula, model, errors):  # logit and Poisson: fitted in passes over pieces
@@ -430,9 +387,10 @@ def evalue_from_data(
         data = read_table(data, "data")
     check_names(data, formula, treatment)
     results = fit(data, formula, model, event, errors)
+    cluster = None if errors is None else parse_errors(errors)[1]
     if model != "ols":
-        return evalue_from_model(results, treatment, contrast=contrast, alpha=alpha,
-                                 outcome=outcome)  # fmt: skip
+        return _evalue_of_results(results, treatment, contrast=contrast, alpha=alpha,
+                                  outcome=outcome, cluster=cluster)  # fmt: skip
     names = list(results.model.exog_names)
     j = _treatment_index(names, treatment)
     sd = float(np.std(np.asarray(results.model.endog, float), ddof=1))
@@ -445,9 +403,9 @@ def evalue_from_data(
         ci = tuple(float(v) for v in np.asarray(results.conf_int(alpha=alpha))[j])
         res = evalue_of_coefficient(b, contrast, "md", b, ci, sd=sd, contrast=contrast,
                                     ci_level=1 - alpha)  # fmt: skip
-    code, words = used_by(results)
+    code, words = used_by(results, cluster)
     info = {"kind": "ols", "n": int(results.nobs), "outcome_share": None, "treatment": treatment,
-            "errors": code}  # fmt: skip
+            "errors": code, **coefficient(b, se)}  # fmt: skip
     note = (
         f"From a fitted OLS model (n = {int(results.nobs):,}): coefficient {b:.4g} (se "
         f"{se:.3g}, from {words}); the outcome's SD in the data is {sd:.4g}."
@@ -474,7 +432,7 @@ def ols_report_from_data(data: Any, formula: str, treatment: str, *, contrast: f
         raise AssertionError("the one-pass OLS fit gave no E-value")
     b, se, sd, n = float(pr2.estimate), float(pr2.se), float(ev.sd), int(pr2.n)
     info = {"kind": "ols", "n": n, "outcome_share": None, "treatment": treatment,
-            "errors": "classical"}  # fmt: skip
+            "errors": "classical", **coefficient(b, se)}  # fmt: skip
     note = (
         f"From a fitted OLS model (n = {n:,}): coefficient {b:.4g} (se "
         f"{se:.3g}, from {WORDS['classical']}); the outcome's SD in the data is {sd:.4g}."

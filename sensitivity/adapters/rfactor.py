@@ -468,10 +468,9 @@ def patsy_design(source: Source, formula: str, progress: Callable[[int], None]) 
         except ColumnTypeChange:
             raise
         except Exception as err:  # noqa: BLE001 - patsy's errors are the user's formula
-            text = " ".join(str(err).split()) or type(err).__name__
-            raise InputError(
-                f"`formula` {formula!r} could not be fitted: {text[:300]}", "formula"
-            ) from None
+            from .fitting import formula_failure
+
+            raise formula_failure(err, formula) from None
         if len(y_info.column_names) != 1:
             raise InputError("`formula`: the outcome must be a single numeric column", "formula")
         names = list(x_info.column_names)

@@ -122,7 +122,7 @@ def from_spark_model(model: Any, treatment: str, *, contrast: float = 1.0, alpha
 
     from ..common.checks import OPEN_UNIT, require
     from .design import evalue_of_coefficient
-    from .models import SHOWN
+    from .models import SHOWN, coefficient
 
     kind, scale = spark_kind(model)
     alpha = float(require(alpha, "alpha", OPEN_UNIT))
@@ -158,4 +158,5 @@ def from_spark_model(model: Any, treatment: str, *, contrast: float = 1.0, alpha
             f"{est:.4g}; the outcome occurs in {p['share']:.1%} of the model's data. The "
             "interval is the Wald interval from the summary's standard error.")  # fmt: skip
     info["outcome_share"] = p["share"]
+    info.update(coefficient(p["b"], p["se"]))
     return replace(res, notes=(note, *res.notes), model=info)

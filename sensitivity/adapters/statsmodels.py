@@ -174,13 +174,29 @@ def fit_formula(data: Any, formula: str) -> tuple[Any, list[str]]:
     outcome = formula.split("~", 1)[0].strip()
     if outcome in data.columns and not is_numeric_dtype(data[outcome]):
         raise InputError(f"`formula`: the outcome column {outcome!r} must be numeric", "formula")
+    import warnings
+
     try:
-        results = smf.ols(formula, data=data).fit()
+        with warnings.catch_warnings():  # rank deficiency is refused below, in our words
+            warnings.filterwarnings("ignore", message=".*rank-deficient")
+            results = smf.ols(formula, data=data).fit()
     except Exception as err:  # noqa: BLE001 - patsy/formulaic errors are the user's formula
-        text = " ".join(str(err).split()) or type(err).__name__
+        from .fitting import formula_failure
+
+        raise formula_failure(err, formula) from None
+    rows, width = (int(v) for v in results.model.exog.shape)
+    # the rank as numpy's matrix_rank takes it, from the singular values the fit computed
+    # (statsmodels' own `rank` uses pinv's far smaller cut-off, and misses near-exact copies)
+    values = np.asarray(getattr(results.model, "wexog_singular_values", ()), float)
+    rank = int((values > values.max() * max(rows, width) * np.finfo(float).eps).sum()) \
+        if values.size else width  # fmt: skip
+    if rank < width:  # statsmodels' pinv would split a coefficient between the copies
         raise InputError(
-            f"`formula` {formula!r} could not be fitted: {text[:300]}", "formula"
-        ) from None
+            f"`formula` {formula!r}: its columns are linearly dependent in these data (rank "
+            f"{rank} of {width}), so its coefficients are not identified; drop a column that "
+            "the others reproduce",
+            "formula",
+        )
     if results.model.endog.ndim > 1 and results.model.endog.shape[1] > 1:
         raise InputError(
             f"`formula`: the outcome {outcome!r} must be a single numeric column", "formula"

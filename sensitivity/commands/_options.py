@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import re
+import sys
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any
@@ -99,16 +100,40 @@ class Command(click.Command):
             raise
         _refuse_non_finite(self, ctx)
         _refuse_overwriting_inputs(self, ctx)
+        _refuse_format_against_extension(ctx)
         return rest
 
     def invoke(self, ctx: click.Context) -> Any:
         from sensitivity.common.errors import InputError
 
+        _load_numpy(self, ctx)
         try:
             return super().invoke(ctx)
         except InputError as err:
             # the library names its Python argument (`ci_level`); the user typed --ci-level
             raise type(err)(err.render(namer(self, ctx))) from err.__cause__
+
+
+def _load_numpy(command: click.Command, ctx: click.Context) -> None:
+    """Load numpy, with OpenBLAS held to one thread where the command multiplies no large
+    matrices: summary input (no `--data`), and matched pairs. OpenBLAS starts a thread a core
+    while numpy loads, and they spin: on this two-core machine a one-number command took 1.45x
+    as long with them (paired runs, issue 26). Not where the user chose a number, nor where
+    numpy is loaded already; the setting is not passed on to other processes. (The screen
+    holds it itself, while its first pieces are read.)"""
+    import os
+
+    if "numpy" in sys.modules or "OPENBLAS_NUM_THREADS" in os.environ:
+        return
+    if ctx.params.get("data") is not None and command.name != "matched":
+        return
+    if command.name == "screen":
+        return
+    os.environ["OPENBLAS_NUM_THREADS"] = "1"
+    try:
+        import numpy  # noqa: F401
+    finally:
+        del os.environ["OPENBLAS_NUM_THREADS"]
 
 
 #: Above this many rows JSON is written compact and streamed (people do not read it).
@@ -128,12 +153,57 @@ EXTENSIONS = {
 }
 
 
+#: Formats as the messages name them.
+_SHOWN_FORMATS = {"text": "text", "json": "JSON", "csv": "CSV", "markdown": "Markdown",
+                  "latex": "LaTeX", "html": "HTML", "tsv": "TSV", "parquet": "Parquet",
+                  "excel": "Excel"}  # fmt: skip
+
+
+def _refuse_format_against_extension(ctx: click.Context) -> None:
+    """A --format given on the command line must be the format an --output file gets from its
+    extension: `--format json -o x.csv` would write CSV and print nothing, with neither the
+    JSON asked for nor a word. (Not given, --format is only the fallback for an extension that
+    names no format; screen's table files by extension are CSV, TSV, JSON, Parquet or Excel.)"""
+    from click.core import ParameterSource
+
+    if "fmt" not in ctx.params or ctx.get_parameter_source("fmt") != ParameterSource.COMMANDLINE:
+        return
+    fmt = ctx.params["fmt"]
+    typed = ctx.meta.get("typed") or {}
+    for name in ("outputs", "output"):
+        value = ctx.params.get(name)
+        for path in value if isinstance(value, (tuple, list)) else (value,):
+            if not path:
+                continue
+            suffix = Path(str(path)).suffix.lower()
+            if name == "output":  # the screen's table writer
+                from sensitivity.output.streams import TABLE_FORMATS
+
+                kind = TABLE_FORMATS.get(suffix)
+            else:
+                kind = EXTENSIONS.get(suffix)
+            if kind is not None and kind != fmt:
+                option = typed.get(name, "--output")
+                raise click.UsageError(
+                    f"`--format` {fmt} contradicts `{option}` {str(path)!r}, which is "
+                    f"{_SHOWN_FORMATS.get(kind, kind)} by its extension; a file's format "
+                    "comes from its extension: drop --format or change the extension"
+                )
+
+
 def _check_outputs(ctx: click.Context, param: click.Parameter, value: tuple) -> tuple:
-    """Refuse a missing folder before any work is done."""
+    """Refuse a missing folder (or a symbolic link that cannot be written through) before any
+    work is done."""
+    if not value:
+        return value
+    from sensitivity.output.atomic import target_problem
+
     for path in value:
-        folder = Path(path).parent
-        if not folder.is_dir():
-            raise click.BadParameter(f"folder {str(folder)!r} does not exist", ctx, param)
+        if path == "-":  # stdout, as the convention has it
+            continue
+        problem = target_problem(path)
+        if problem is not None:
+            raise click.BadParameter(problem, ctx, param)
     return value
 
 
@@ -146,8 +216,9 @@ def format_options(func: Callable) -> Callable:
         multiple=True,
         type=click.Path(dir_okay=False, writable=True),
         callback=_check_outputs,
-        help="Write the result to FILE instead of stdout; repeatable. The format comes from "
-        "the extension (.json .csv .md .tex .txt .html), else from --format.",
+        help="Write the result to FILE instead of stdout ('-' for stdout); repeatable. The "
+        "format comes from the extension (.json .csv .md .tex .txt .html), else from --format "
+        "(a --format that names another format than the extension is an error).",
     )(func)
     return click.option(
         "--format",
@@ -301,11 +372,13 @@ def check_plot(*paths: str | None) -> None:
     when there is a path to check: a one-number command without --plot starts without it)."""
     if not any(paths):
         return
+    from sensitivity.output.atomic import check_target
     from sensitivity.output.figures import check_plot_path
 
     for path in paths:
         if path:
             check_plot_path(path)
+            check_target(path, "plot")
 
 
 def show_warnings() -> None:
@@ -365,6 +438,10 @@ def emit(result: Any, fmt: str, outputs: tuple[str, ...] | str | None) -> None:
         _write(result, fmt, sys.stdout.buffer)
         formats.append(fmt)
     for path in outputs or ():
+        if path == "-":  # `-o -`: stdout, in --format (not a file named "-")
+            _write(result, fmt, sys.stdout.buffer)
+            formats.append(fmt)
+            continue
         chosen = EXTENSIONS.get(Path(path).suffix.lower(), fmt)
         from sensitivity.output.atomic import replacing
 

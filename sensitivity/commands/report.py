@@ -93,6 +93,10 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
     from sensitivity.output.report import Reproduce, write_report
 
     show_warnings()
+    if not folder.strip():  # "" would be the current folder, written over unasked
+        from sensitivity.common.errors import InputError
+
+        raise InputError(f"`--out` must name a folder; got {folder!r}", "--out")
     route, published = summary_route("report", text, scale, estimate, ci)
     routes = [bool(route), bool(estimates), bool(data)]
     if sum(routes) != 1:

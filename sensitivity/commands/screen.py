@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import sys
 from pathlib import Path
 from typing import Any
@@ -91,7 +92,8 @@ def _column_map(values: tuple[str, ...]) -> dict[str, str]:
     default="text",
     show_default=True,
     help="Without --output: csv or json puts the screened table on stdout; text, markdown "
-    "or latex the summary.",
+    "or latex the summary. With --output the file's extension decides (a --format that "
+    "names another format is an error).",
 )
 @click.option(
     "--pool",
@@ -153,17 +155,32 @@ def screen_cmd(
     from sensitivity.adapters.files import Share, read_frames, resolve_delimiter
     from sensitivity.common.overlap import read_ahead
 
-    share = Share()
-    folder = Path(file).is_dir()
-    mark = None if folder or engine != "local" else resolve_delimiter(file, delimiter)
-    if engine == "local" and folder:
-        from sensitivity.screen.engines import folder_frames
+    # The screen calls no BLAS routine. Left to itself, OpenBLAS starts a thread per core as
+    # numpy loads, and they spin for a while: 0.05 s of CPU taken from the reader and writer
+    # (measured, issue 26). Held to one thread while numpy loads here, unless the user chose
+    # a number or numpy is already loaded; the setting is not passed on to other processes.
+    # Not with --pool, whose sums may use BLAS: its numbers stay those of any thread count.
+    one_blas = (pool_threshold is None and "numpy" not in sys.modules
+                and "OPENBLAS_NUM_THREADS" not in os.environ)  # fmt: skip
+    if one_blas:
+        os.environ["OPENBLAS_NUM_THREADS"] = "1"
+    try:
+        share = Share()
+        folder = Path(file).is_dir()
+        mark = None if folder or engine != "local" else resolve_delimiter(file, delimiter)
+        if engine == "local" and folder:
+            from sensitivity.screen.engines import folder_frames
 
-        frames = read_ahead(folder_frames(file))
-    elif engine == "local":
-        frames = read_ahead(read_frames(file, "file", share=share, delimiter=mark or "auto"))
+            frames = read_ahead(folder_frames(file))
+        elif engine == "local":
+            frames = read_ahead(read_frames(file, "file", share=share, delimiter=mark or "auto"))
+        import numpy  # noqa: F401 - loaded now (while the first pieces are read), held to one
+    finally:
+        if one_blas:
+            del os.environ["OPENBLAS_NUM_THREADS"]
 
     from sensitivity.common.errors import InputError, one_line
+    from sensitivity.output.atomic import check_target
     from sensitivity.screen.core import AS_READ_TEXT, Options, computed_names
     from sensitivity.screen.result import Tally
     from sensitivity.screen.stream import screen_frames
@@ -175,6 +192,7 @@ def screen_cmd(
         if target is not None:
             try:
                 check_table_path(target)
+                check_target(target, "output")  # a symbolic link is written through
             except InputError as err:  # the writer's check knows one `output`
                 raise err.renamed({"output": argument}) from None
     if plot_limits is not None and not plot_limits[0] > 1:  # the E-value axis starts at 1

@@ -12,6 +12,7 @@ from sensitivity.common.errors import InputError
 from ._options import (
     RANGE_HELP,
     Command,
+    check_plot,
     emit,
     exclusive,
     format_options,
@@ -145,11 +146,7 @@ def weighting_cmd(
         raise click.UsageError("give --propensity (a formula) or --propensity-column")
     if propensity_column is not None:  # the library's `propensity` holds this column's values
         name_arguments(propensity="--propensity-column")
-    if plots:
-        from sensitivity.output.figures import check_plot_path
-
-        for path in plots:
-            check_plot_path(path)
+    check_plot(*plots)  # extension, folder, a symbolic link written through
     grid = parse_lambda(lam)
     import time
 

@@ -61,12 +61,27 @@ def sentence(r: ImpactResult) -> str:
     c = number(abs(r.itcv_component), 2)
     level = f"{r.alpha:g}"
     if r.significant:
+        if abs(r.itcv_component) >= 0.995:  # printed as 1.00: say what that takes
+            # the product is then at least 0.995² > 0.99, and below 1 for any finite t (1.0
+            # in double precision past t ~ 1e8): 0.99 is a bound that holds exactly
+            p = "0.99"
+            needed = (
+                f"only if an omitted variable nearly duplicated both the treatment and the "
+                "outcome: its partial correlations with the two, beyond the covariates, would "
+                f"have to multiply to at least {p} in the direction that weakens it (so each "
+                f"at least {p}, as neither can exceed 1)"
+            )
+        else:
+            needed = (
+                "only if an omitted variable's partial correlations with the treatment and "
+                "with the outcome, beyond the covariates, multiplied to at least "
+                f"{number(abs(r.itcv), 3)} in the direction that weakens it ({c} with each, "
+                "if the two are equal)"
+            )
         text = (
             f"In this regression ({_regression(r)}), the treatment's coefficient could stop "
-            f"being significant at the {level} level only if an omitted variable's partial "
-            f"correlations with the treatment and with the outcome, beyond the covariates, "
-            f"multiplied to at least {number(abs(r.itcv), 3)} in the direction that weakens it "
-            f"({c} with each, if the two are equal); a smaller product leaves it significant"
+            f"being significant at the {level} level {needed}; a smaller product leaves it "
+            "significant"
         )
         if r.bias_share is not None:
             text += (

@@ -140,9 +140,6 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     Bernstein's inequality. The result agrees with the direct convolution to about 1e-13
     relative (tests/test_matched.py), at every size where both can run.
     """
-    from scipy import fft
-    from scipy.special import expit
-
     from ..common.numeric import brent
 
     g = int(np.gcd.reduce(qi))
@@ -164,7 +161,7 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     lp = float(np.log(p) - np.log1p(-p))
 
     def tilted_mean(theta: float) -> float:
-        return float(mult @ (v * expit(lp + theta * v)))
+        return float(mult @ (v * _expit(lp + theta * v)))
 
     top = 1.0 / v[-1]
     while tilted_mean(top) < t:
@@ -174,7 +171,7 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     chernoff = log_mgf - theta * t  # P <= exp(chernoff)
     if chernoff < negligible:  # by default below the smallest double: 0.0 to the last digit
         return 0.0
-    ps = expit(lp + theta * v)
+    ps = _expit(lp + theta * v)
     weight = mult * ps * (1 - ps)
     var = float(weight @ (v * v))
     # Window: Bernstein, P(|S - ES| >= u) <= 2 exp(-u^2 / (2 (var + b u / 3))), b = max rank.
@@ -184,10 +181,10 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     n_fine = (hi - lo + 1) | 1  # odd, so the frequencies pair up as k and -k
     # Certify: A on a coarse grid of m points (m even, so the grid reaches pi) with spacing h,
     # h^2 var / 8 <= 1; between grid points A >= min(ends) - h^2 var / 8.
-    m = fft.next_fast_len(int(np.ceil(2 * np.pi * np.sqrt(var / 8))) + 16)
+    m = _fast_length(int(np.ceil(2 * np.pi * np.sqrt(var / 8))) + 16)
     m += m % 2
     hist = np.bincount(vals % m, weights=weight, minlength=m)
-    a = weight.sum() - fft.rfft(hist).real
+    a = weight.sum() - np.fft.rfft(hist).real
     slack = (2 * np.pi / m) ** 2 * var / 8
     cells = np.flatnonzero(np.minimum(a[:-1], a[1:]) - slack < DROP)
     half = (n_fine - 1) // 2
@@ -240,6 +237,27 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
         terms = np.exp(log_phi - 2j * np.pi * ((chunk * t) % n_fine) / n_fine) * geo
         out += float(np.where(chunk == 0, 1.0, 2.0) @ terms.real)
     return float(np.clip(np.exp(chernoff) * out / n_fine, 0.0, 1.0))
+
+
+def _expit(x: np.ndarray) -> np.ndarray:
+    """The logistic function 1 / (1 + exp(-x)), 0 where exp(-x) overflows (as
+    scipy.special.expit; numpy's exp can differ from the C library's in the last place)."""
+    with np.errstate(over="ignore"):
+        return 1.0 / (1.0 + np.exp(-x))
+
+
+def _fast_length(n: int) -> int:
+    """The smallest length of at least `n` whose prime factors are all 2, 3, 5, 7 or 11, the
+    lengths the FFT is fastest on (scipy.fft.next_fast_len's, checked in tests)."""
+    length = max(int(n), 1)
+    while True:
+        rest = length
+        for prime in (2, 3, 5, 7, 11):
+            while rest % prime == 0:
+                rest //= prime
+        if rest == 1:
+            return length
+        length += 1
 
 
 def _tail_exact(q: np.ndarray, t: float, p: np.ndarray) -> np.ndarray:

@@ -71,8 +71,8 @@ class FigureWorker:
         self._process: subprocess.Popen[bytes] | None = None
         self._drawing = False  # a job is in the second process's hands
         root = str(Path(__file__).resolve().parents[2])
-        if not sys.executable or _processors() < 2:  # no second Python, or no core for it
-            return
+        if not sys.executable or getattr(sys, "frozen", False) or _processors() < 2:
+            return  # no second Python to start (or a bundled one), or no core for it
         with contextlib.suppress(OSError):
             self._process = subprocess.Popen(
                 [sys.executable, "-c", _START.format(__name__), root],
@@ -200,6 +200,8 @@ def _serve() -> None:
         from .figures import preload
 
         preload()
+        import scipy.special  # noqa: F401 - the figures' quantiles (t, normal): loaded while idle
+
         _send(channel_out, _READY)
         while True:
             try:

@@ -86,25 +86,37 @@ def share_table(r: PoolResult) -> Table:
 
 
 def study_table(r: PoolResult) -> Table:
+    """Each study as read; the interval's level in the headers when every row shares one,
+    else in a column of its own (a study's E-value of the CI is at its own level)."""
     s = r.studies
+    n = len(s["label"])
+    has_ci = np.isfinite(np.asarray(s["rr_lower"], float))
+    levels = np.asarray(s.get("level", np.full(n, 0.95)), float)
+    shared = sorted({float(v) for v in levels[has_ci]})
+    one = len(shared) <= 1
     rows = []
-    for i in range(len(s["label"])):
-        interval = (
-            f"{number(s['rr_lower'][i])} to {number(s['rr_upper'][i])}"
-            if np.isfinite(s["rr_lower"][i])
-            else "-"
-        )
+    for i in range(n):
+        interval = f"{number(s['rr_lower'][i])} to {number(s['rr_upper'][i])}" if has_ci[i] else "-"
         weight = percent(s["weight"][i]) if np.isfinite(s["weight"][i]) else "-"
+        level = [] if one else [level_text(levels[i]) if has_ci[i] else "-"]
         rows.append((
-            str(s["label"][i]), number(s["rr"][i]), interval, number(s["evalue"][i]),
+            str(s["label"][i]), number(s["rr"][i]), interval, *level, number(s["evalue"][i]),
             number(s["evalue_ci"][i]), weight, str(s["error"][i]) or "",
         ))  # fmt: skip
+    if one:
+        ci = f"{level_text(shared[0])} CI" if shared else "CI"
+        head: tuple[str, ...] = ("Interval" if not shared else ci, f"E-value ({ci})")
+        said = ""
+    else:
+        head = ("Interval", "Level", "E-value (its row's CI)")
+        said = "Each interval, and the E-value of its limit nearest the null, at its row's level; "
+    rule = "a row with a reason under 'Not pooled' is kept but left out of the pool."
     return Table(
-        ("Study", "Risk ratio", "Interval", "E-value", "E-value (CI)", "Weight", "Not pooled"),
+        ("Study", "Risk ratio", head[0], *head[1:-1], "E-value", head[-1], "Weight",
+         "Not pooled"),
         tuple(rows),
         title="Studies",
-        footnotes=("Each interval at its own level (95% unless the row says otherwise); a row "
-                   "with a reason under 'Not pooled' is kept but left out of the pool.",),
+        footnotes=(said + rule if said else rule[0].upper() + rule[1:],),
     )  # fmt: skip
 
 

@@ -123,11 +123,16 @@ def compute_plain(route: np.ndarray, values: np.ndarray) -> dict[str, np.ndarray
     if off.size:
         rr[:, off] = np.nan
     lower, upper = rr[1], rr[2]
-    # the limit nearest the null (1 where the interval covers it), as `evalue_of_limits`
-    # takes it against a target of 1
-    nearest = np.where(lower > 1.0, lower, np.where(upper < 1.0, upper, 1.0))
+    # the estimate, and the limit nearest the null (1 where the interval covers it), as
+    # `evalue_of_limits` takes it against a target of 1, side by side for one call
+    pair = np.empty((2, rr.shape[1]))
+    pair[0] = rr[0]
+    nearest = pair[1]
+    nearest.fill(1.0)
     with np.errstate(invalid="ignore"):
-        evalue, evalue_ci = evalue_of_rr(np.stack((rr[0], nearest)))
+        np.copyto(nearest, upper, where=upper < 1.0)
+        np.copyto(nearest, lower, where=lower > 1.0)
+        evalue, evalue_ci = evalue_of_rr(pair)
     evalue_ci[np.isnan(lower)] = np.nan  # a row without an interval
     return {"rr": rr[0], "rr_lower": lower, "rr_upper": upper, "evalue": evalue,
             "evalue_ci": evalue_ci}  # fmt: skip

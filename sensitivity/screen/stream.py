@@ -92,7 +92,12 @@ def clean_text(column: Any) -> Codes:
     """A code column (scale, outcome) lower-cased and trimmed, as numpy strings."""
     import polars as pl
 
-    text = _series(column).fill_null("").str.strip_chars().str.to_lowercase()
+    series = _series(column)
+    text = (  # in one query (each Series call is one)
+        series.to_frame()
+        .select(pl.first().fill_null("").str.strip_chars().str.to_lowercase())
+        .to_series()
+    )
     if text.len() <= _FEW_CODES:  # a handful of rows: as they are
         return Codes(np.asarray(text.to_list(), dtype=str))
     # few distinct codes: convert those, then index (a million cells in a few ms)
@@ -337,7 +342,12 @@ def _in_file_terms(reasons: np.ndarray, mapping: Mapping[str, str], from_text: s
     lower, upper = mapping.get("lower", "lower"), mapping.get("upper", "upper")
     renamed = {std: user for std, user in mapping.items() if std != user}
     out = reasons.copy()
+    done: dict[tuple[str, bool], str] = {}  # a reason met again (most are) is not redone
     for i in np.flatnonzero(reasons != ""):
+        key = (str(reasons[i]), from_text is not None and not from_columns[i])
+        if key in done:
+            out[i] = done[key]
+            continue
         text = re.sub(r"`([^`]+)`", lambda m: f"`{renamed.get(m[1], m[1])}`", str(reasons[i]))
         if from_text is not None and not from_columns[i]:
             whole = f"the interval in `{from_text}`"
@@ -355,7 +365,7 @@ def _in_file_terms(reasons: np.ndarray, mapping: Mapping[str, str], from_text: s
                 "`ci` needs both limits", f"`{lower}` and `{upper}` are both needed"
             )
             text = text.replace("`ci`", f"`{lower}` to `{upper}`")
-        out[i] = text
+        out[i] = done[key] = text
     return out
 
 

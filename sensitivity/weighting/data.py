@@ -159,10 +159,9 @@ def _design(frame: Any, formula: str, treatment: str, outcome: str) -> tuple:
     try:
         matrix = patsy.dmatrix(rhs, frame, NA_action="drop", return_type="dataframe")
     except Exception as err:  # noqa: BLE001 - patsy's errors are the user's formula
-        text = " ".join(str(err).split()) or type(err).__name__
-        raise InputError(
-            f"`propensity` {formula!r} could not be built: {text[:300]}", "propensity"
-        ) from None
+        from ..adapters.fitting import formula_failure
+
+        raise formula_failure(err, formula, argument="propensity") from None
     names = [str(c) for c in matrix.columns]
     if "Intercept" not in names:
         raise InputError(
