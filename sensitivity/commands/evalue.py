@@ -18,10 +18,9 @@ from ._options import (
     model_option,
     outcome_frequency_option,
     plot_options,
-    published_options,
     show_warnings,
-    summary_route,
 )
+from ._published import published_options, summary_route
 
 SHORT_HELP = COMMANDS["evalue"][1]
 

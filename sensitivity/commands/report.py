@@ -16,10 +16,9 @@ from ._options import (
     errors_option,
     model_option,
     outcome_frequency_option,
-    published_options,
     show_warnings,
-    summary_route,
 )
+from ._published import published_options, summary_route
 
 SHORT_HELP = COMMANDS["report"][1]
 

@@ -73,9 +73,11 @@ class FigureWorker:
         root = str(Path(__file__).resolve().parents[2])
         if not sys.executable or getattr(sys, "frozen", False) or _processors() < 2:
             return  # no second Python to start (or a bundled one), or no core for it
+        # it multiplies no large matrices: OpenBLAS's start-up threads would only spin
+        env = {"OPENBLAS_NUM_THREADS": "1", **os.environ}
         with contextlib.suppress(OSError):
             self._process = subprocess.Popen(
-                [sys.executable, "-c", _START.format(__name__), root],
+                [sys.executable, "-c", _START.format(__name__), root], env=env,
                 stdin=subprocess.PIPE, stdout=subprocess.PIPE, stderr=subprocess.DEVNULL,
             )  # fmt: skip
 
