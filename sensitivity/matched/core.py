@@ -271,7 +271,14 @@ def _tail_exact(q: np.ndarray, t: float, p: np.ndarray) -> np.ndarray:
     ti = int(np.ceil(2 * t - 1e-9))
     if qi.size * int(qi.sum()) <= DIRECT_WORK:
         return _tail_direct(qi, ti, p)
-    return np.array([_tail_fourier(qi, ti, float(pj)) for pj in np.atleast_1d(p)])
+    ps = [float(pj) for pj in np.atleast_1d(p)]
+    if len(ps) < 4:
+        return np.array([_tail_fourier(qi, ti, pj) for pj in ps])
+    # each Gamma on its own (numpy's work leaves Python's lock free): both cores at once
+    from concurrent.futures import ThreadPoolExecutor
+
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        return np.array(list(pool.map(lambda pj: _tail_fourier(qi, ti, pj), ps)))
 
 
 def _signed_rank_tail(q: np.ndarray, t: float, p: np.ndarray, method: str) -> np.ndarray:
