@@ -392,10 +392,6 @@ def test_the_screen_holds_blas_to_one_thread_and_passes_no_setting_on(tmp_path):
     # environment afterwards, and the table is byte for byte the one screened in a process
     # whose numpy was loaded as usual (this one).
     import ast
-    import os
-    import subprocess
-    import sys
-    from pathlib import Path
 
     from click.testing import CliRunner
 
@@ -406,25 +402,8 @@ def test_the_screen_holds_blas_to_one_thread_and_passes_no_setting_on(tmp_path):
         "study,scale,estimate,lower,upper,outcome\n"
         "a,rr,1.5,1.1,2.0,\nb,or,2.1,1.4,3.15,common\nc,hr,0.7,0.5,0.9,common\nd,or,oops,,,\n"
     )
-    probe = (
-        "import atexit, os, sys\n"
-        "def show():\n"
-        "    import threadpoolctl\n"
-        "    blas = [i['num_threads'] for i in threadpoolctl.threadpool_info()\n"
-        "            if i['internal_api'] == 'openblas']\n"
-        "    print(blas, os.environ.get('OPENBLAS_NUM_THREADS'), file=sys.stderr)\n"
-        "atexit.register(show)\n"
-        "from cli import main\n"
-        "sys.argv = ['sensitivity', 'screen', sys.argv[1], '--output', sys.argv[2]]\n"
-        "main()\n"
-    )
-    env = {k: v for k, v in os.environ.items() if k != "OPENBLAS_NUM_THREADS"}
-    root = str(Path(__file__).resolve().parents[1])
-    env["PYTHONPATH"] = os.pathsep.join([root, env.get("PYTHONPATH", "")])
-    done = subprocess.run(
-        [sys.executable, "-c", probe, str(src), str(tmp_path / "sub.csv")],
-        capture_output=True, text=True, env=env, check=True,
-    )  # fmt: skip
+    done = _blas_probe(["screen", str(src), "--output", str(tmp_path / "sub.csv")])
+    assert done.returncode == 0, done.stderr
     blas, setting = done.stderr.strip().splitlines()[-1].rsplit(" ", 1)
     assert setting == "None"
     assert set(ast.literal_eval(blas)) <= {1}
@@ -438,6 +417,19 @@ def test_a_one_number_command_loads_numpy_with_one_blas_thread(tmp_path):
     threads (which spin while numpy loads) are held to one; the setting does not stay in the
     environment, and a user's own setting is kept."""
     import ast
+
+    for setting in (None, "2"):
+        done = _blas_probe(["evalue", "--scale", "rr", "--estimate", "1.5"], setting)
+        assert "E-value" in done.stdout, done.stderr
+        blas, left = done.stderr.strip().splitlines()[-1].rsplit(" ", 1)
+        assert left == str(setting)
+        if setting is None:
+            assert set(ast.literal_eval(blas)) <= {1}
+
+
+def _blas_probe(args: list[str], setting: str | None = None):
+    """Run the command line in a fresh Python (OPENBLAS_NUM_THREADS unset, or `setting`);
+    its last stderr line is OpenBLAS's thread counts and the setting left at exit."""
     import os
     import subprocess
     import sys
@@ -452,19 +444,13 @@ def test_a_one_number_command_loads_numpy_with_one_blas_thread(tmp_path):
         "    print(blas, os.environ.get('OPENBLAS_NUM_THREADS'), file=sys.stderr)\n"
         "atexit.register(show)\n"
         "from cli import main\n"
-        "sys.argv = ['sensitivity', 'evalue', '--scale', 'rr', '--estimate', '1.5']\n"
+        "sys.argv = ['sensitivity', *sys.argv[1:]]\n"
         "main()\n"
     )
+    env = {k: v for k, v in os.environ.items() if k != "OPENBLAS_NUM_THREADS"}
     root = str(Path(__file__).resolve().parents[1])
-    for setting in (None, "2"):
-        env = {k: v for k, v in os.environ.items() if k != "OPENBLAS_NUM_THREADS"}
-        env["PYTHONPATH"] = os.pathsep.join([root, env.get("PYTHONPATH", "")])
-        if setting is not None:
-            env["OPENBLAS_NUM_THREADS"] = setting
-        done = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True,
-                              env=env, check=False)  # fmt: skip
-        assert "E-value" in done.stdout, done.stderr
-        blas, left = done.stderr.strip().splitlines()[-1].rsplit(" ", 1)
-        assert left == str(setting)
-        if setting is None:
-            assert set(ast.literal_eval(blas)) <= {1}
+    env["PYTHONPATH"] = os.pathsep.join([root, env.get("PYTHONPATH", "")])
+    if setting is not None:
+        env["OPENBLAS_NUM_THREADS"] = setting
+    return subprocess.run([sys.executable, "-c", probe, *args], capture_output=True, text=True,
+                          env=env, check=False)  # fmt: skip
