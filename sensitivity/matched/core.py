@@ -24,6 +24,8 @@ observational studies. Biometrika 74:13-26.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 from numpy.typing import ArrayLike
 
@@ -303,18 +305,21 @@ def signed_rank_bounds(differences: ArrayLike, gamma: ArrayLike, *, method: str 
     return t, upper, _signed_rank_tail(q, t, 1 / (1 + g), method)
 
 
-def _gamma_at(alpha: float, upper_at: object) -> float | None:
+def _gamma_at(alpha: float, upper_at: Callable[[float], float]) -> float | None:
     """The Gamma at which an increasing upper bound reaches alpha (Brent's method in log Gamma,
     to 1e-12 there: a dozen evaluations of the bound where bisection took eighty)."""
+    import functools
+
     from ..common.numeric import brent
 
-    f = upper_at  # type: ignore[assignment]
-    if f(1.0) >= alpha:  # type: ignore[operator]
+    # each value once: Brent's method starts from the bound at Gamma 1, just computed here
+    f = functools.cache(upper_at)
+    if f(1.0) >= alpha:
         return None
     top = float(np.log(1e6))
-    if f(1e6) < alpha:  # type: ignore[operator]
+    if f(1e6) < alpha:
         return float("inf")
-    root = brent(lambda x: f(float(np.exp(x))) - alpha, 0.0, top, xtol=1e-12, rtol=1e-14)  # type: ignore[operator]
+    root = brent(lambda x: f(float(np.exp(x))) - alpha, 0.0, top, xtol=1e-12, rtol=1e-14)
     return float(np.exp(root))
 
 
