@@ -501,7 +501,8 @@ def test_the_fourier_routes_helpers_are_scipys():
     from scipy.fft import next_fast_len
     from scipy.special import expit
 
-    from sensitivity.matched.core import _expit, _fast_length
+    from sensitivity.common.numeric import expit as _expit
+    from sensitivity.matched.core import _fast_length
 
     assert [_fast_length(n) for n in range(1, 5000)] == [next_fast_len(n) for n in range(1, 5000)]
     x = np.concatenate([np.linspace(-800, 800, 20001), [-np.inf, np.inf]])

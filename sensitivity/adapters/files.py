@@ -20,6 +20,10 @@ READERS = {
 }
 
 
+#: A number written with a decimal comma (1,32; -0,5; 1,2e-3) and no other separator.
+DECIMAL_COMMA = r"^([-+]?[0-9]*),([0-9]+(?:[eE][-+]?[0-9]+)?)$"
+
+
 def read_table(path: str | Path, argument: str = "data") -> Any:
     """A pandas DataFrame from `path`; ValueError names `argument` for any unreadable file."""
     import pandas as pd

@@ -91,10 +91,6 @@ def _text_table(path: Any) -> tuple[Any, bool]:
     return frame, share.delimiter == ";"
 
 
-#: A number written with a decimal comma (1,32; -0,5; 1,2e-3).
-_DECIMAL_COMMA = r"^([-+]?[0-9]*),([0-9]+(?:[eE][-+]?[0-9]+)?)$"
-
-
 def _numbers(frame: Any, name: str, decimal_comma: bool) -> np.ndarray:
     """A column as floats, NaN where a cell is missing or not a number: pandas' to_numeric
     (errors="coerce") for a pandas table; for a polars table (a file's text cells), a cast
@@ -105,12 +101,14 @@ def _numbers(frame: Any, name: str, decimal_comma: bool) -> np.ndarray:
         return pd.to_numeric(frame[name], errors="coerce").to_numpy(float)
     import polars as pl
 
+    from .files import DECIMAL_COMMA
+
     if frame.schema[name].is_numeric():  # a user's polars table
         number = pl.col(name).cast(pl.Float64).fill_null(np.nan)
     else:
         cell = pl.col(name).cast(pl.String).str.strip_chars()
         if decimal_comma:
-            cell = cell.str.replace(_DECIMAL_COMMA, r"${1}.${2}")
+            cell = cell.str.replace(DECIMAL_COMMA, r"${1}.${2}")
         number = cell.cast(pl.Float64, strict=False).fill_null(np.nan)
     return frame.select(number)[name].to_numpy().astype(float)
 

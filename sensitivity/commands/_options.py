@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
+import contextlib
 import re
 import sys
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterator, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -116,24 +117,33 @@ class Command(click.Command):
 
 def _load_numpy(command: click.Command, ctx: click.Context) -> None:
     """Load numpy, with OpenBLAS held to one thread where the command multiplies no large
-    matrices: summary input (no `--data`), and matched pairs. OpenBLAS starts a thread a core
-    while numpy loads, and they spin: on this two-core machine a one-number command took 1.45x
-    as long with them (paired runs, issue 26). Not where the user chose a number, nor where
-    numpy is loaded already; the setting is not passed on to other processes. (The screen
-    holds it itself, while its first pieces are read.)"""
-    import os
-
-    if "numpy" in sys.modules or "OPENBLAS_NUM_THREADS" in os.environ:
+    matrices: summary input (no `--data`), and matched pairs. (The screen holds it itself,
+    while its first pieces are read.)"""
+    if command.name == "screen":
         return
     if ctx.params.get("data") is not None and command.name != "matched":
         return
-    if command.name == "screen":
-        return
-    os.environ["OPENBLAS_NUM_THREADS"] = "1"
-    try:
+    with blas_held_to_one():
         import numpy  # noqa: F401
+
+
+@contextlib.contextmanager
+def blas_held_to_one(wanted: bool = True) -> Iterator[None]:
+    """numpy loaded inside this block starts OpenBLAS with one thread. OpenBLAS starts a
+    thread a core while numpy loads, and they spin: on this two-core machine a one-number
+    command took 1.45x as long with them (paired runs, issue 26). Nothing is set where the
+    user chose a number, where numpy is loaded already, or unless `wanted`; the setting is
+    gone from the environment after the block (not passed on to other processes)."""
+    import os
+
+    hold = wanted and "numpy" not in sys.modules and "OPENBLAS_NUM_THREADS" not in os.environ
+    if hold:
+        os.environ["OPENBLAS_NUM_THREADS"] = "1"
+    try:
+        yield
     finally:
-        del os.environ["OPENBLAS_NUM_THREADS"]
+        if hold:
+            del os.environ["OPENBLAS_NUM_THREADS"]
 
 
 #: Above this many rows JSON is written compact and streamed (people do not read it).

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import os
 import sys
 from pathlib import Path
 from typing import Any
@@ -11,7 +10,14 @@ import click
 
 from sensitivity.commands import COMMANDS
 
-from ._options import FORMATS, Command, confounder_option, engine_option, plot_options
+from ._options import (
+    FORMATS,
+    Command,
+    blas_held_to_one,
+    confounder_option,
+    engine_option,
+    plot_options,
+)
 
 SHORT_HELP = COMMANDS["screen"][1]
 
@@ -160,11 +166,7 @@ def screen_cmd(
     # (measured, issue 26). Held to one thread while numpy loads here, unless the user chose
     # a number or numpy is already loaded; the setting is not passed on to other processes.
     # Not with --pool, whose sums may use BLAS: its numbers stay those of any thread count.
-    one_blas = (pool_threshold is None and "numpy" not in sys.modules
-                and "OPENBLAS_NUM_THREADS" not in os.environ)  # fmt: skip
-    if one_blas:
-        os.environ["OPENBLAS_NUM_THREADS"] = "1"
-    try:
+    with blas_held_to_one(pool_threshold is None):
         share = Share()
         folder = Path(file).is_dir()
         mark = None if folder or engine != "local" else resolve_delimiter(file, delimiter)
@@ -175,9 +177,6 @@ def screen_cmd(
         elif engine == "local":
             frames = read_ahead(read_frames(file, "file", share=share, delimiter=mark or "auto"))
         import numpy  # noqa: F401 - loaded now (while the first pieces are read), held to one
-    finally:
-        if one_blas:
-            del os.environ["OPENBLAS_NUM_THREADS"]
 
     from sensitivity.common.errors import InputError, one_line
     from sensitivity.output.atomic import check_target

@@ -142,7 +142,7 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     Bernstein's inequality. The result agrees with the direct convolution to about 1e-13
     relative (tests/test_matched.py), at every size where both can run.
     """
-    from ..common.numeric import brent
+    from ..common.numeric import brent, expit
 
     g = int(np.gcd.reduce(qi))
     vals, mult = np.unique(qi // g, return_counts=True)
@@ -163,7 +163,7 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     lp = float(np.log(p) - np.log1p(-p))
 
     def tilted_mean(theta: float) -> float:
-        return float(mult @ (v * _expit(lp + theta * v)))
+        return float(mult @ (v * expit(lp + theta * v)))
 
     top = 1.0 / v[-1]
     while tilted_mean(top) < t:
@@ -173,7 +173,7 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
     chernoff = log_mgf - theta * t  # P <= exp(chernoff)
     if chernoff < negligible:  # by default below the smallest double: 0.0 to the last digit
         return 0.0
-    ps = _expit(lp + theta * v)
+    ps = expit(lp + theta * v)
     weight = mult * ps * (1 - ps)
     var = float(weight @ (v * v))
     # Window: Bernstein, P(|S - ES| >= u) <= 2 exp(-u^2 / (2 (var + b u / 3))), b = max rank.
@@ -239,13 +239,6 @@ def _tail_fourier(qi: np.ndarray, ti: int, p: float, negligible: float = -746.0)
         terms = np.exp(log_phi - 2j * np.pi * ((chunk * t) % n_fine) / n_fine) * geo
         out += float(np.where(chunk == 0, 1.0, 2.0) @ terms.real)
     return float(np.clip(np.exp(chernoff) * out / n_fine, 0.0, 1.0))
-
-
-def _expit(x: np.ndarray) -> np.ndarray:
-    """The logistic function 1 / (1 + exp(-x)), 0 where exp(-x) overflows (as
-    scipy.special.expit; numpy's exp can differ from the C library's in the last place)."""
-    with np.errstate(over="ignore"):
-        return 1.0 / (1.0 + np.exp(-x))
 
 
 def _fast_length(n: int) -> int:

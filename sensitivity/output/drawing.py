@@ -70,9 +70,9 @@ class FigureWorker:
     def __init__(self) -> None:
         self._process: subprocess.Popen[bytes] | None = None
         self._drawing = False  # a job is in the second process's hands
-        root = str(Path(__file__).resolve().parents[2])
         if not sys.executable or getattr(sys, "frozen", False) or _processors() < 2:
             return  # no second Python to start (or a bundled one), or no core for it
+        root = str(Path(__file__).resolve().parents[2])
         # it multiplies no large matrices: OpenBLAS's start-up threads would only spin
         env = {"OPENBLAS_NUM_THREADS": "1", **os.environ}
         with contextlib.suppress(OSError):
@@ -118,7 +118,7 @@ class FigureWorker:
         here)."""
         left = deque(range(len(jobs)))
         lock = threading.Lock()
-        state: dict[str, Any] = {"finished": False, "in_hand": None, "redo": []}
+        state: dict[str, Any] = {"finished": False, "redo": []}
         feeder = None
         if self._process is not None and len(jobs) > 1:
             feeder = threading.Thread(target=self._feed, args=(jobs, left, lock, state),
@@ -128,7 +128,7 @@ class FigureWorker:
             with lock:
                 if not left:
                     state["finished"] = True
-                    waiting = state["in_hand"] is not None
+                    waiting = self._drawing
                     break
                 k = left.popleft()
             draw, paths = jobs[k]
@@ -157,7 +157,6 @@ class FigureWorker:
                 if state["finished"] or not left:
                     return
                 k = left.pop()
-                state["in_hand"] = k
                 self._drawing = True
             try:
                 _send(process.stdin, jobs[k])
@@ -165,7 +164,6 @@ class FigureWorker:
             except Exception:  # pickling, a closed pipe, a dead process: drawn here instead
                 done = False
             with lock:
-                state["in_hand"] = None
                 self._drawing = False
                 if not done:
                     state["redo"].append(k)

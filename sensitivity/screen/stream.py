@@ -15,7 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from ..adapters.files import one_column_of_many
+from ..adapters.files import DECIMAL_COMMA, one_column_of_many
 from ..common.errors import InputError
 from ..common.levels import check_alpha
 from ..common.overlap import read_ahead
@@ -44,10 +44,6 @@ def _series(column: Any) -> Any:
     return series if series.dtype == pl.String else series.cast(pl.String)
 
 
-#: A number written with a decimal comma (1,32; -0,5; 1,2e-3) and no other separator.
-_DECIMAL_COMMA = r"^([-+]?[0-9]*),([0-9]+(?:[eE][-+]?[0-9]+)?)$"
-
-
 def text_or_numbers(column: Any, decimal_comma: bool = False) -> Any:
     """A numeric column for the screen's core, converted in Rust: floats, with the cells that
     are not numbers (and their text) kept aside for the reasons. With `decimal_comma`, a
@@ -64,7 +60,7 @@ def text_or_numbers(column: Any, decimal_comma: bool = False) -> Any:
         number = (
             pl.when(cell.str.contains(".", literal=True))
             .then(pl.lit("\0"))
-            .otherwise(cell.str.replace(_DECIMAL_COMMA, r"${1}.${2}"))
+            .otherwise(cell.str.replace(DECIMAL_COMMA, r"${1}.${2}"))
         )
     # polars reads exactly the numbers _NUMBER describes (ASCII digits, inf, infinity, nan in
     # any case; checked in tests/test_screen.py), so a failed cast is a cell that is not one;
