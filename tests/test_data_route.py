@@ -290,7 +290,9 @@ def test_any_table_gives_the_qr_only_numbers(n, model, effect, offset, seed):
     for gram in (False, True):
         passes.GRAM, before = gram, passes.GRAM
         try:
-            fits.append(glm_one_pass(frame, "y ~ t + x", "t", model))
+            # classical errors, as said above (a 0/1 Poisson outcome would get HC0 by
+            # default, whose sums round differently on a covariate near 10,000)
+            fits.append(glm_one_pass(frame, "y ~ t + x", "t", model, errors="classical"))
         except InputError as err:  # separation: both routes must say so
             fits.append(str(err))
         finally:
