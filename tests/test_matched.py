@@ -429,6 +429,37 @@ def test_above_the_hodges_lehmann_limit_a_note_says_why_it_is_missing():
     assert any("Hodges-Lehmann range is not given above 20,000 pairs" in n for n in res.notes)
 
 
+@pytest.mark.parametrize(
+    "rows, expected",
+    [
+        (["1,1", "2.5,2.5", "3,3"], "the differences 'after' minus 'before' are all zero: the "
+         "test has nothing to rank"),
+        (["x,1", "2,", ",3"], "the differences 'after' minus 'before' must hold at least two "
+         "pairs; got 0 (3 pairs left out for a missing or non-numeric value)"),
+        (["1,2", "2,"], "the differences 'after' minus 'before' must hold at least two pairs; "
+         "got 1 (1 pair left out for a missing or non-numeric value)"),
+    ],
+)  # fmt: skip
+def test_treated_and_control_columns_are_named_not_differences(run, tmp_path, rows, expected):
+    # Given --treated and --control, the checks on the differences name those two columns, in
+    # one line, exit 2 (the command line and Python); given --differences, that option.
+    from sensitivity import rosenbaum_bounds_from_data
+
+    path = tmp_path / "pairs.csv"
+    path.write_text("\n".join(["after,before", *rows]) + "\n")
+    res = run("matched", "--data", path, "--treated", "after", "--control", "before")
+    assert res.exit_code == 2 and res.stdout == ""
+    assert res.stderr.strip() == f"Error: {expected}"
+    with pytest.raises(InputError) as caught:
+        rosenbaum_bounds_from_data(path, treated="after", control="before")
+    assert str(caught.value) == expected and caught.value.arguments == ()
+    path.write_text("d\n0\n0\n")
+    res = run("matched", "--data", path, "--differences", "d")
+    assert res.exit_code == 2 and res.stderr.strip() == (
+        "Error: `--differences` are all zero: the test has nothing to rank"
+    )
+
+
 def test_pairs_from_data_in_python_equal_the_differences_and_the_command(run, tmp_path):
     import pandas as pd
 

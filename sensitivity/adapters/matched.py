@@ -20,7 +20,8 @@ def matched_differences(
     """Treated-minus-control differences from `data` (a DataFrame or a file path), one a
     pair: the `differences` column, or `treated` minus `control`. Returns the differences
     and the positions (0-based rows of the table) of the pairs left out because a value is
-    missing or not a number."""
+    missing or not a number. Differences of `treated` minus `control` must number two or more
+    and not all be zero (as `rosenbaum_bounds` requires; the message names the columns)."""
     from ..common.errors import InputError
 
     from_file = not hasattr(data, "columns")
@@ -71,7 +72,22 @@ def matched_differences(
             f"the difference {treated!r} minus {control!r} on {where(i)} is beyond double "
             "precision (about 1.8e308)"
         )
+    if not differences:  # the test's own checks name `differences`, which was not given
+        _check_named(d, int(bad.sum()), f"the differences {treated!r} minus {control!r}")
     return d, np.flatnonzero(bad)
+
+
+def _check_named(d: np.ndarray, left_out: int, what: str) -> None:
+    """`rosenbaum_bounds`' two checks on the differences (at least two pairs, not all zero),
+    worded for the columns they came from."""
+    from ..common.errors import InputError
+
+    if d.size < 2:
+        why = (f" ({left_out:,} {'pair' if left_out == 1 else 'pairs'} left out for a missing "
+               "or non-numeric value)") if left_out else ""  # fmt: skip
+        raise InputError(f"{what} must hold at least two pairs; got {d.size}{why}")
+    if not np.any(d != 0):
+        raise InputError(f"{what} are all zero: the test has nothing to rank")
 
 
 def _text_table(path: Any) -> tuple[Any, bool]:
