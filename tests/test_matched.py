@@ -198,6 +198,20 @@ def test_the_signed_rank_gamma_solves_the_exact_bound():
     assert grid[bounds < 0.05].max() < res.gamma_at_alpha <= grid[bounds >= 0.05].min()
 
 
+@pytest.mark.parametrize("method", ["exact", "normal"])
+@pytest.mark.parametrize("seed", range(4))
+def test_the_gamma_at_alpha_does_not_depend_on_the_grid(method, seed):
+    # The grid's bounds narrow Brent's starting bracket: the crossing must be the one found
+    # from Gamma 1 and 10^6 alone, to 1e-13 (it is solved to 1e-14 in log Gamma), with the
+    # crossing inside the grid, beyond it, or on a grid point.
+    rng = np.random.default_rng(seed)
+    d = rng.integers(-3, 7, 300) * 1.0 if seed % 2 else rng.normal(0.3, 1, 500).round(1)
+    alone = rosenbaum_bounds(differences=d, gamma=[1], method=method).gamma_at_alpha
+    for grid in (np.arange(1, 6.01, 0.5), [1.5, 1.2], [alone], [1, alone * (1 + 1e-9), 30]):
+        star = rosenbaum_bounds(differences=d, gamma=grid, method=method).gamma_at_alpha
+        assert star == pytest.approx(alone, rel=1e-13)
+
+
 # The exact bound for many pairs (issue 12): the Fourier route against the direct convolution.
 
 

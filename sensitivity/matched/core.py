@@ -24,7 +24,7 @@ observational studies. Biometrika 74:13-26.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -288,16 +288,18 @@ def _tail_exact(q: np.ndarray, t: float, p: np.ndarray) -> np.ndarray:
                          "large-sample bound")  # fmt: skip
     qi = np.rint(2 * q).astype(np.int64)
     ti = int(np.ceil(2 * t - 1e-9))
+    # each p once (Gamma 1 is p = 1/2 for both bounds)
+    distinct, back = np.unique(np.atleast_1d(p), return_inverse=True)
     if qi.size * int(qi.sum()) <= DIRECT_WORK:
-        return _tail_direct(qi, ti, p)
-    ps = [float(pj) for pj in np.atleast_1d(p)]
+        return _tail_direct(qi, ti, distinct)[back]
+    ps = [float(pj) for pj in distinct]
     if len(ps) < 4:
-        return np.array([_tail_fourier(qi, ti, pj) for pj in ps])
+        return np.array([_tail_fourier(qi, ti, pj) for pj in ps])[back]
     # each Gamma on its own (numpy's work leaves Python's lock free): both cores at once
     from concurrent.futures import ThreadPoolExecutor
 
     with ThreadPoolExecutor(max_workers=2) as pool:
-        return np.array(list(pool.map(lambda pj: _tail_fourier(qi, ti, pj), ps)))
+        return np.array(list(pool.map(lambda pj: _tail_fourier(qi, ti, pj), ps)))[back]
 
 
 def _signed_rank_tail(q: np.ndarray, t: float, p: np.ndarray, method: str) -> np.ndarray:
@@ -318,26 +320,43 @@ def signed_rank_bounds(differences: ArrayLike, gamma: ArrayLike, *, method: str 
     q, sign = ranks(differences, zeros)
     t = float(q[sign > 0].sum())
     g = gamma_values(gamma)
-    upper = _signed_rank_tail(q, t, g / (1 + g), method)
-    return t, upper, _signed_rank_tail(q, t, 1 / (1 + g), method)
+    both = _signed_rank_tail(q, t, np.concatenate([g / (1 + g), 1 / (1 + g)]), method)
+    return t, both[: g.size], both[g.size :]
 
 
-def _gamma_at(alpha: float, upper_at: Callable[[float], float]) -> float | None:
+def _gamma_at(alpha: float, upper_at: Callable[[float], float],
+              known: Iterable[tuple[float, float]] = ()) -> float | None:  # fmt: skip
     """The Gamma at which an increasing upper bound reaches alpha (Brent's method in log Gamma,
-    to 1e-12 there: a dozen evaluations of the bound where bisection took eighty)."""
+    to 1e-14 there: about eight evaluations of the bound where bisection took eighty). `known`:
+    (Gamma, bound) pairs already computed (the grid's), which narrow the starting bracket to
+    the two Gammas on either side of alpha and are not computed again."""
     import functools
+    import math
 
     from ..common.numeric import brent
 
-    # each value once: Brent's method starts from the bound at Gamma 1, just computed here
-    f = functools.cache(upper_at)
+    seen = {float(x): float(v) for x, v in known if math.isfinite(x) and not math.isnan(v)}
+
+    @functools.cache  # each value once: Brent's method starts from the bracket's two ends
+    def f(x: float) -> float:
+        return seen[x] if x in seen else upper_at(x)
+
     if f(1.0) >= alpha:
         return None
-    top = float(np.log(1e6))
-    if f(1e6) < alpha:
-        return float("inf")
-    root = brent(lambda x: f(float(np.exp(x))) - alpha, 0.0, top, xtol=1e-12, rtol=1e-14)
-    return float(np.exp(root))
+    below = [x for x, v in seen.items() if v < alpha] + [1.0]
+    above = [x for x, v in seen.items() if v >= alpha]
+    if not above:
+        if f(1e6) < alpha:
+            return float("inf")
+        above = [1e6]
+    a, b = max(below), min(above)
+    ends = {math.log(a): f(a), math.log(b): f(b)}
+
+    def shifted(y: float) -> float:
+        return (ends[y] if y in ends else f(math.exp(y))) - alpha
+
+    root = brent(shifted, math.log(a), math.log(b), xtol=1e-14, rtol=1e-14)
+    return math.exp(root)
 
 
 def _whole(value: object, name: str) -> int:
@@ -411,8 +430,9 @@ def rosenbaum_bounds(
             alternative = "less" if q[sign > 0].sum() < q.sum() / 2 else "greater"
         # the statistic of the side tested: ranks of the positive (or negative) differences
         t = float(q[sign > 0 if alternative == "greater" else sign < 0].sum())
-        upper = _signed_rank_tail(q, t, g / (1 + g), method)
-        lower = _signed_rank_tail(q, t, 1 / (1 + g), method)
+        # both bounds in one call: the exact bound's Gammas shared between two cores
+        both = _signed_rank_tail(q, t, np.concatenate([g / (1 + g), 1 / (1 + g)]), method)
+        upper, lower = both[: g.size], both[g.size :]
 
         def at(x: float) -> float:
             return float(_signed_rank_tail(q, t, np.array([x / (1 + x)]), method)[0])
@@ -425,7 +445,8 @@ def rosenbaum_bounds(
         return MatchedResult(
             test="signed-rank", pairs=int(d.size), statistic=t, alpha=alpha, method=method,
             zeros=zeros, gamma=g, p_upper=upper, p_lower=lower,
-            gamma_at_alpha=_gamma_at(alpha, at), zero_pairs=int(np.sum(d == 0)),
+            gamma_at_alpha=_gamma_at(alpha, at, zip(g, upper, strict=True)),
+            zero_pairs=int(np.sum(d == 0)),
             missing=missing, estimate_low=hl[0], estimate_high=hl[1], alternative=alternative,
             notes=hl_note,
         )  # fmt: skip
