@@ -298,6 +298,19 @@ def test_the_first_fourier_pass_equals_the_full_one(n, digits, shift, gamma, see
         assert _tail_fourier(qi, t, p) == pytest.approx(full, rel=1e-13, abs=1e-300)
 
 
+@pytest.mark.parametrize("pairs", [40, 440])
+def test_a_gamma_so_large_that_p_rounds_to_one(pairs):
+    # Above Gamma 1e16, Gamma / (1 + Gamma) is 1.0 in double precision: every pair carries
+    # its rank, so the upper bound is 1 (it raised an internal error on pairs in whole units,
+    # with warnings, on the Fourier route); the lower bound is below 1e-200, then 0.
+    d = np.random.default_rng(12).integers(-3, 7, pairs) * 1.0
+    res = rosenbaum_bounds(differences=d, gamma=[1e16, 1e20, 1.7e308])
+    assert list(res.p_upper) == [1.0, 1.0, 1.0] and list(res.p_lower[1:]) == [0.0, 0.0]
+    assert res.p_lower[0] < 1e-200
+    alone = rosenbaum_bounds(differences=d, gamma=[1]).gamma_at_alpha
+    assert res.gamma_at_alpha == pytest.approx(alone, rel=1e-13)
+
+
 def test_the_fourier_tail_edges():
     from sensitivity.matched.core import _tail_fourier
 

@@ -162,6 +162,8 @@ def _tail_fourier(
         return 1.0
     if t > total:
         return 0.0
+    if p >= 1.0:  # Gamma above about 1e16 rounds p to 1: every pair carries its rank
+        return 1.0
     if t == total:  # every pair must carry its rank
         return float(np.exp(mult.sum() * np.log(p)))
     v = vals.astype(float)
