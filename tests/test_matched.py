@@ -309,6 +309,8 @@ def test_a_gamma_so_large_that_p_rounds_to_one(pairs):
     assert res.p_lower[0] < 1e-200
     alone = rosenbaum_bounds(differences=d, gamma=[1]).gamma_at_alpha
     assert res.gamma_at_alpha == pytest.approx(alone, rel=1e-13)
+    normal = rosenbaum_bounds(differences=d, gamma=[1e20], method="normal")  # no warning
+    assert (normal.p_upper[0], normal.p_lower[0]) == (1.0, 0.0)
 
 
 def test_the_fourier_tail_edges():

@@ -313,7 +313,10 @@ def _signed_rank_tail(q: np.ndarray, t: float, p: np.ndarray, method: str) -> np
     if method == "exact":
         return _tail_exact(q, t, p)
     s1, s2 = q.sum(), np.square(q).sum()
-    return normal_cdf(-(t - p * s1) / np.sqrt(p * (1 - p) * s2))  # upper tail, no 1 -
+    var = p * (1 - p) * s2  # 0 where a Gamma above about 1e16 rounds p to 1: S = sum(q)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = -(t - p * s1) / np.sqrt(var)
+    return normal_cdf(np.where(var > 0, z, np.where(t <= p * s1, np.inf, -np.inf)))  # no 1 -
 
 
 def signed_rank_bounds(differences: ArrayLike, gamma: ArrayLike, *, method: str = "exact",
