@@ -22,6 +22,8 @@ import pytest
 from sensitivity.output import drawing
 from sensitivity.output.drawing import FigureWorker, draw_all
 
+BUSY = drawing._busy  # the real one (the tests below count the machine as idle)
+
 JOBS = '''
 import os, time
 from pathlib import Path
@@ -45,6 +47,13 @@ def slow_whole(paths, started):
         time.sleep(30)
         sink.write("rest")
 '''
+
+
+@pytest.fixture(autouse=True)
+def free_cores(monkeypatch):
+    """The machine counts as idle here, whatever else runs beside the tests: the second
+    process is started (a busy machine: `test_without_a_second_process_...`)."""
+    monkeypatch.setattr(drawing, "_busy", lambda: False)
 
 
 @pytest.fixture
@@ -97,13 +106,18 @@ def test_a_second_process_that_dies_leaves_its_jobs_to_this_one(jobs_module, tmp
     assert [p.read_text() for p in out] == [str(os.getpid())] * 4
 
 
-@pytest.mark.parametrize("why", ["no Python to start", "one processor"])
+@pytest.mark.parametrize("why", ["no Python to start", "one processor", "a busy machine"])
 def test_without_a_second_process_everything_is_drawn_here(jobs_module, tmp_path,
                                                            monkeypatch, why):  # fmt: skip
     if why == "no Python to start":
         monkeypatch.setattr(sys, "executable", "")
-    else:
+    elif why == "one processor":
         monkeypatch.setattr(drawing, "_processors", lambda: 1)
+    else:  # every core busy: the real _busy, and a load of three on two processors
+        monkeypatch.setattr(drawing, "_busy", BUSY)
+        monkeypatch.setattr(drawing, "_processors", lambda: 2)
+        monkeypatch.setattr(os, "getloadavg", lambda: (3.0, 3.0, 3.0))
+        assert drawing._busy()
     out = [tmp_path / f"figure_{k}" for k in range(5)]
     with FigureWorker() as worker:
         assert worker._process is None

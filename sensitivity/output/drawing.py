@@ -44,6 +44,17 @@ def _processors() -> int:
         return os.cpu_count() or 1
 
 
+def _busy() -> bool:
+    """Whether every processor has work already, so that a second process would take a core
+    from other work rather than use a free one: the load average over the last minute at
+    least one above the processors (this process counts for about one). Where the system
+    does not say, never."""
+    try:
+        return os.getloadavg()[0] >= _processors() + 1
+    except (AttributeError, OSError):  # not Unix
+        return False
+
+
 def _send(sink: IO[bytes], value: Any) -> None:
     data = pickle.dumps(value, protocol=pickle.HIGHEST_PROTOCOL)
     sink.write(_HEADER.pack(len(data)) + data)
@@ -65,12 +76,14 @@ class FigureWorker:
     """A second Python process, started now, that draws figures handed to it by `draw_all`.
 
     Use it as a context manager (or call `close`): the process ends with it. If it cannot
-    start (no second processor, no Python to start), every figure is drawn in this one."""
+    start (no second processor, no Python to start), or every processor is busy already (a
+    second process would cost CPU and memory and save no time), every figure is drawn in
+    this one."""
 
     def __init__(self) -> None:
         self._process: subprocess.Popen[bytes] | None = None
         self._drawing = False  # a job is in the second process's hands
-        if not sys.executable or getattr(sys, "frozen", False) or _processors() < 2:
+        if not sys.executable or getattr(sys, "frozen", False) or _processors() < 2 or _busy():
             return  # no second Python to start (or a bundled one), or no core for it
         root = str(Path(__file__).resolve().parents[2])
         # it multiplies no large matrices: OpenBLAS's start-up threads would only spin
