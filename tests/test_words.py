@@ -142,6 +142,33 @@ def test_the_bounding_colour_is_the_worst_case_bound(monkeypatch, tmp_path):
     assert not any("Bias-adjusted estimate" == label for label in labels)
 
 
+@pytest.mark.parametrize("view", ["continuous", "bounding"])
+def test_a_long_tipping_title_stays_within_the_figure(monkeypatch, tmp_path, view):
+    """`tipping --kind continuous ... --plot` cut the title's last characters (its closing
+    bracket) off the figure's right edge: a one-line title too long to fit is broken after
+    the view."""
+    from sensitivity.output.figures import lay_out
+    from sensitivity.tipping import continuous_confounder_grid
+    from sensitivity.tipping.figures import tipping_figure
+
+    kept = _saved(monkeypatch)
+    if view == "continuous":
+        grid = continuous_confounder_grid(
+            "rr", 0.81, (0.69, 0.95), difference=np.arange(0, 1.55, 0.1), outcome_effect=0.67
+        )
+    else:
+        grid = bounding_grid("hr", 1.38, (1.12, 1.70), outcome="rare")
+    tipping_figure(grid, tmp_path / "t.png")
+    fig = kept[0]
+    lay_out(fig)
+    fig.dpi = 200  # measured as saved (savefig.dpi): the overflow was a few pixels there
+    renderer = fig.canvas.get_renderer()
+    title = fig.axes[0].title
+    box, page = title.get_window_extent(renderer), fig.bbox
+    assert page.x0 <= box.x0 and box.x1 <= page.x1, title.get_text()
+    assert "95% CI 0.69 to 0.95" in title.get_text() or view == "bounding"
+
+
 def test_the_contours_draw_the_estimate_and_t_side_by_side(monkeypatch, tmp_path):
     from sensitivity.partial_r2.figures import partial_r2_contours
 

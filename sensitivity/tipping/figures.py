@@ -33,6 +33,8 @@ AXIS_LABELS = {
     "difference": "Difference in the confounder's mean, treated minus controls (SDs)",
 }
 SHARES = ("prevalence_treated", "prevalence_control", "r2_treatment", "r2_outcome")
+#: The most characters of a one-line title that stay within the figure at its width.
+TITLE_WIDTH = 78
 
 
 def check_plot_input(kind: str, limits: Mark | None, marks: Sequence[Mark]) -> None:
@@ -170,6 +172,8 @@ def tipping_figure(
     if result.ci is not None:
         observed += f", {level} {result.ci[0]:g} to {result.ci[1]:g}"
     title = f"Where the conclusion tips ({result.kind} view; {observed})"
+    if len(title) > TITLE_WIDTH:  # centred on the axes, a longer line runs off the figure
+        title = f"Where the conclusion tips ({result.kind} view)\nO{observed[1:]}"
     if fixed:
         title += "\nwith " + "; ".join(fixed)
     ax.set_title(title)
