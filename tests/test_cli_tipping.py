@@ -372,3 +372,19 @@ def test_the_bounding_views_e_value_names_its_level(run):
               "--ci", 1.12, 1.7, "--ci-level", 0.9)  # fmt: skip
     assert res.exit_code == 0, res.stderr
     assert "for the 90% CI:" in " ".join(res.stdout.split())
+
+
+def test_a_figure_of_no_varying_strength_is_refused_before_any_output(run, tmp_path):
+    """With every strength a single value, `--plot` printed the whole table, then exited 2
+    telling the user to "give one of them a single value" (the hint for three)."""
+    res = run(
+        *EXAMPLE, "--prevalence-treated", 0.3, "--outcome-effect", 2,
+        "--plot", str(tmp_path / "x.png"),
+    )  # fmt: skip
+    assert res.exit_code == 2
+    assert res.stdout == ""
+    assert res.stderr == (
+        "Error: `--plot` needs one or two varying parameters; got 0 (give one of them a range "
+        "START:STOP:STEP)\n"
+    )
+    assert not (tmp_path / "x.png").exists()

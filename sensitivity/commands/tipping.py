@@ -209,10 +209,12 @@ def tipping_cmd(
             target=target,
             **{k: grid(k) for k in ("r2_treatment", "r2_outcome")},
         )
-    if plots and plot_limits is not None:  # the axes are the grid's: checked before output
-        from sensitivity.tipping.figures import check_axes
+    if plots:  # the axes are the grid's: checked before output
+        from sensitivity.tipping.figures import check_axes, check_varying
 
-        check_axes(result, plot_limits)
+        check_varying(result)
+        if plot_limits is not None:
+            check_axes(result, plot_limits)
     if fmt in ("json", "csv") and result.n_rows > 200_000:
         click.echo(f"Writing {result.n_rows:,} rows as {fmt}...", err=True)
     emit(result, fmt, outputs)

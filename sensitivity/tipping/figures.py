@@ -77,6 +77,20 @@ def check_axes(result: Any, limits: Mark | None) -> None:
             )
 
 
+def check_varying(result: Any) -> None:
+    """A figure draws one or two varying strengths: with none (each a single value) there is
+    nothing to draw a line over, with three the grid needs one of them fixed."""
+    count = len(result.varying)
+    if count in (1, 2):
+        return
+    fix = (
+        "give one of them a range START:STOP:STEP"
+        if count == 0
+        else "give one of them a single value"
+    )
+    raise InputError(f"`plot` needs one or two varying parameters; got {count} ({fix})", "plot")
+
+
 def tipping_figure(
     result: Any,
     path: str | Path | Sequence[str | Path],
@@ -86,13 +100,8 @@ def tipping_figure(
     """The grid as filled levels over its two varying strengths (a line chart when one
     varies), with the lines where the estimate and its interval reach the target."""
     paths = figure_paths(path)
+    check_varying(result)
     varying = result.varying
-    if len(varying) not in (1, 2):
-        raise InputError(
-            f"`plot` needs one or two varying parameters; got {len(varying)} (give one of "
-            "them a single value)",
-            "plot",
-        )
     check_plot_input(result.kind, limits, marks)
     check_axes(result, limits)
     goal = "the null" if result.target_is_null else f"{result.target:g}"
