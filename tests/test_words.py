@@ -8,9 +8,11 @@ import json
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
 
 from sensitivity import evalue, partial_r2_summary
+from sensitivity.common.errors import InputError
 from sensitivity.output.document import Prose
 from sensitivity.output.tables import percent
 from sensitivity.partial_r2 import CovariateStrength, benchmark_scenarios
@@ -336,3 +338,14 @@ def test_benchmark_values_carry_their_multiples():
         benchmark_spec("age:inf")
     with pytest.raises(InputError, match=r"^`benchmark` must be a name, \(name, multiple\)"):
         benchmark_spec(("age", 1, 2, 3))
+
+
+def test_a_row_with_one_limit_says_so_once():
+    """`screen` said "`lower` and `upper` are both needed, lower and upper" of a row with one
+    interval limit."""
+    from sensitivity import screen_table
+
+    table = pd.DataFrame({"scale": ["rr"], "estimate": ["1.5"], "lower": [""], "upper": ["1.9"]})
+    assert screen_table(table)["error"].tolist() == ["`lower` and `upper` are both needed"]
+    with pytest.raises(InputError, match=r"^`ci` needs both limits$"):
+        evalue("rr", 1.5, ci=(1.2, float("nan")))

@@ -133,7 +133,7 @@ CHECKS: tuple[Check, ...] = (
     Check(
         ("lower", "upper"),
         lambda lo, up: given(lo) != given(up),
-        lambda lo, up: "`ci` needs both limits, lower and upper",
+        lambda lo, up: "`ci` needs both limits",
         names=("ci",),
     ),
     field("lower", FINITE, given, ("lower",)),
