@@ -293,6 +293,51 @@ def test_from_data_in_python_equals_the_command_and_a_statsmodels_refit(run):
     assert {k: printed[k] for k in own} == own  # the command adds its sentence
 
 
+@pytest.mark.parametrize(
+    "short, long, message",
+    [
+        ("bmi ~ commute_min", "sbp ~ commute_min + age",
+         "Error: `--formula-short` and `--formula-long` must model the same outcome; got 'bmi' "
+         "and 'sbp'"),
+        ("sbp ~ commute_min + female", "sbp ~ commute_min + age",
+         "Error: `--formula-long` must hold every term of `--formula-short`"),
+        ("sbp ~ commute_min + age", "sbp ~ age + commute_min",
+         "Error: `--formula-long` must add at least one control to `--formula-short`"),
+        ("sbp ~ commute_min", "sbp ~ commute_min * age",
+         "Error: `--formula-long` holds an interaction of the treatment ('commute_min:age')"),
+    ],
+)  # fmt: skip
+def test_two_formulas_that_are_not_short_and_long_are_refused(run, short, long, message):
+    """Each of these printed a result: another outcome's model as the short one, a short model
+    with a control the long one lacks, and the treatment's interaction (whose auxiliary
+    regression held the treatment itself among the controls)."""
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parent.parent / "demo" / "harbourside_bp.csv"
+    res = run("stability", "--data", demo, "--formula-short", short, "--formula-long", long,
+              "--treatment", "commute_min")  # fmt: skip
+    assert res.exit_code == 2 and res.stdout == ""
+    assert res.stderr.startswith(message) and res.stderr.count("\n") == 1, res.stderr
+
+
+def test_the_treatment_residual_variance_is_a_statsmodels_refit_on_the_controls():
+    # Reference: statsmodels' OLS of the treatment on the long model's controls, by formula.
+    from pathlib import Path
+
+    import pandas as pd
+    import statsmodels.formula.api as smf
+
+    from sensitivity.adapters.stability import stability_inputs_from_data
+
+    demo = Path(__file__).resolve().parent.parent / "demo" / "harbourside_bp.csv"
+    got = stability_inputs_from_data(
+        demo, "sbp ~ commute_min + C(shift)", "sbp ~ commute_min + age + bmi + C(shift)",
+        "commute_min",
+    )  # fmt: skip
+    aux = smf.ols("commute_min ~ age + bmi + C(shift)", pd.read_csv(demo)).fit()
+    assert got["var_treatment_residual"] == pytest.approx(np.var(aux.resid), rel=1e-12)
+
+
 def test_the_grid_agrees_with_the_result_at_its_own_cell(population):
     # Each grid cell is a fresh coefficient_stability at that (delta, R-max): the same root
     # rule, the same approximation (Oster 2019's formula, checked above on the population).

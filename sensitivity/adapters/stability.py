@@ -17,7 +17,7 @@ def stability_inputs_from_data(
     treatment's variances, and the variance of the treatment's residual on the long model's
     controls (all on the long model's rows)."""
     import numpy as np
-    import statsmodels.formula.api as smf
+    import statsmodels.api as sm
 
     from ..common.errors import InputError
     from .design import check_names
@@ -44,10 +44,12 @@ def stability_inputs_from_data(
         raise InputError(
             f"`treatment` {treatment!r} is not a coefficient of the long model", "treatment"
         )
-    terms = [t.strip() for t in formula_long.split("~", 1)[1].split("+")]
-    controls = " + ".join(t for t in terms if t != treatment) or "1"
+    _check_nested(fit_short, fit_long, treatment)
     rows = fit_long.model.data.row_labels
-    aux = smf.ols(f"{treatment} ~ {controls}", frame.loc[rows]).fit()
+    # the treatment on the long model's controls: its design without the treatment's column
+    names = list(fit_long.model.exog_names)
+    controls = np.delete(np.asarray(fit_long.model.exog, float), names.index(treatment), axis=1)
+    aux = sm.OLS(np.asarray(frame.loc[rows, treatment], float), controls).fit()
     y = np.asarray(fit_long.model.endog, float)
     x = np.asarray(frame.loc[rows, treatment], float)
     return {
@@ -92,6 +94,43 @@ def coefficient_stability_from_data(
 
     numbers = stability_inputs_from_data(data, formula_short, formula_long, treatment)
     return coefficient_stability(**numbers, r2_max=r2_max, delta=delta, target=target)
+
+
+def _check_nested(fit_short: Any, fit_long: Any, treatment: str) -> None:
+    """The method compares one outcome's model with and without the controls: the long
+    model has the short one's outcome and every one of its terms, adds at least one, and
+    holds the treatment alone (no interaction of it), so that its coefficient is one number.
+    Anything else used to give a result that answered no question."""
+    from ..common.errors import InputError
+
+    short_y, long_y = fit_short.model.endog_names, fit_long.model.endog_names
+    if short_y != long_y:
+        raise InputError(
+            f"`formula_short` and `formula_long` must model the same outcome; got {short_y!r} "
+            f"and {long_y!r}",
+            ("formula_short", "formula_long"),
+        )
+    short_x, long_x = list(fit_short.model.exog_names), list(fit_long.model.exog_names)
+    for argument, names in (("formula_short", short_x), ("formula_long", long_x)):
+        mixed = [n for n in names if n != treatment and treatment in n.split(":")]
+        if mixed:
+            raise InputError(
+                f"`{argument}` holds an interaction of the treatment ({mixed[0]!r}): coefficient "
+                f"stability takes the treatment's one coefficient beside additive controls",
+                argument,
+            )
+    missing = [n for n in short_x if n not in long_x]
+    if missing:
+        raise InputError(
+            f"`formula_long` must hold every term of `formula_short` (the short model's "
+            f"controls, if any, plus more); {missing[0]!r} is not in it",
+            ("formula_long", "formula_short"),
+        )
+    if len(long_x) == len(short_x):
+        raise InputError(
+            "`formula_long` must add at least one control to `formula_short`; it adds none",
+            ("formula_long", "formula_short"),
+        )
 
 
 def _fitted(frame: Any, formula: str, argument: str) -> Any:
