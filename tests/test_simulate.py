@@ -156,13 +156,33 @@ def test_impossible_draws_are_counted():
     [
         (
             {"prevalence_treated": "uniform:1.2:1.5"},
-            r"`prevalence_treated`: the prior .* lies outside \[0, 1\]",
+            r"^`prevalence_treated`: the prior uniform:1.2:1.5 must put some weight on \[0, 1\]; "
+            r"it has none$",
         ),
-        ({"outcome_effect": "uniform:-3:-1"}, r"`outcome_effect`: the prior .* lies outside"),
+        (  # it said "lies outside [1e-300, inf]"
+            {"outcome_effect": "uniform:-3:-1"},
+            r"^`outcome_effect`: the prior uniform:-3:-1 must put some weight on positive "
+            r"values; it has none$",
+        ),
         ({"draws": 0}, r"`draws` must be positive; got 0"),
         ({"prevalence_control": "normal:0:1"}, r"`prevalence_control` must be KIND:PARAMETERS"),
         ({"prevalence_control": "uniform:0.5"}, r"uniform takes 2 numbers; got 1"),
-        ({"prevalence_control": "uniform:0.6:0.2"}, r"is not a valid uniform distribution"),
+        # each refusal of a prior's parameters says the rule (it said only "is not valid")
+        (
+            {"prevalence_control": "uniform:0.6:0.2"},
+            r"^`prevalence_control`: 'uniform:0.6:0.2' is not a valid uniform distribution: "
+            r"uniform:LOW:HIGH needs LOW at most HIGH$",
+        ),
+        (
+            {"prevalence_control": "triangular:0.2:0.1:0.4"},
+            r"triangular:LOW:MODE:HIGH needs LOW <= MODE <= HIGH and LOW below HIGH$",
+        ),
+        (
+            {"prevalence_control": "trapezoidal:0.1:0.3:0.2:0.4"},
+            r"needs MIN <= MODE_LOW <= MODE_HIGH <= MAX and MIN below MAX$",
+        ),
+        ({"prevalence_control": "beta:0:3"}, r"beta:A:B needs A and B positive$"),
+        ({"outcome_effect": "lognormal:0.5:-0.2"}, r"needs SDLOG at least 0$"),
         ({"correlation": 1.0}, r"`correlation` must lie strictly between -1 and 1"),
     ],
 )

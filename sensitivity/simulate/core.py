@@ -121,8 +121,21 @@ def parse_prior(text: str, name: str) -> Prior:
         "lognormal": lambda v: v[1] < 0,
     }.get(kind)
     if bad is not None and bad(values):
-        raise InputError(f"`{name}`: {text!r} is not a valid {kind} distribution", name)
+        raise InputError(
+            f"`{name}`: {text!r} is not a valid {kind} distribution: {RULES[kind]}", name
+        )
     return Prior(kind, values)
+
+
+#: What each kind's parameters must satisfy, as a refusal says it.
+RULES = {
+    "uniform": "uniform:LOW:HIGH needs LOW at most HIGH",
+    "triangular": "triangular:LOW:MODE:HIGH needs LOW <= MODE <= HIGH and LOW below HIGH",
+    "trapezoidal": "trapezoidal:MIN:MODE_LOW:MODE_HIGH:MAX needs MIN <= MODE_LOW <= MODE_HIGH "
+    "<= MAX and MIN below MAX",
+    "beta": "beta:A:B needs A and B positive",
+    "lognormal": "lognormal:MEANLOG:SDLOG needs SDLOG at least 0",
+}
 
 
 def _support(prior: Prior, low: float, high: float, name: str) -> None:
@@ -130,7 +143,11 @@ def _support(prior: Prior, low: float, high: float, name: str) -> None:
     u = np.linspace(0.001, 0.999, 999)
     x = prior.quantile(u)
     if np.all((x < low) | (x > high)):
-        raise InputError(f"`{name}`: the prior {prior.text} lies outside [{low:g}, {high:g}]", name)
+        where = "positive values" if high == np.inf else f"[{low:g}, {high:g}]"
+        raise InputError(
+            f"`{name}`: the prior {prior.text} must put some weight on {where}; it has none",
+            name,
+        )
 
 
 def simulate(
