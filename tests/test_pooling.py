@@ -389,3 +389,21 @@ def test_the_document_draws_both_figures_on_demand(tmp_path):
         fig.draw([tmp_path / f"{key}.png", tmp_path / f"{key}.pdf"])
         assert (tmp_path / f"{key}.pdf").read_bytes().startswith(b"%PDF")
     assert r.document().sentences == [r.sentence()]
+
+
+def test_the_figures_name_the_interval_level_and_call_the_share_a_choice(monkeypatch, tmp_path):
+    """The forest's right axis said "E-value (of the interval)", naming no level, and the
+    share curve's legend said "R = 10%", a symbol the output defines nowhere."""
+    from sensitivity.pooling import figures
+
+    kept = []
+    monkeypatch.setattr(figures, "save_figure", lambda fig, paths: kept.append(fig))
+    r = pool_estimates(Y, SE, threshold=1.1)
+    figures.forest(r, tmp_path / "f.png")
+    figures.share_curve(r, tmp_path / "s.png")
+    forest, share = kept
+    right = forest.axes[0].child_axes[0]
+    assert right.get_ylabel() == "E-value (of the 95% CI)"
+    labels = [t.get_text() for t in share.axes[0].get_legend().get_texts()]
+    assert "Share 10% (your choice, not a pass mark)" in labels
+    assert not any(label.startswith("R =") for label in labels)

@@ -26,10 +26,11 @@ from ..output.figures import (
 CAPTIONS = {
     "forest": "Each pooled study's risk ratio and interval (marker size by its random-effects "
     "weight), the pooled estimate (diamond, its confidence interval), the null and the "
-    "threshold; on the right, each study's E-value and the E-value of its interval.",
+    "threshold; on the right, each study's E-value and, in brackets, the E-value of its "
+    "confidence interval (the pooled one's on the last row).",
     "share": "The estimated share of true effects beyond the threshold after removing a "
-    "common bias factor from every study, with a pointwise delta-method band, the share R "
-    "and the least bias factor that brings the share down to it.",
+    "common bias factor from every study, with a pointwise delta-method band, the chosen "
+    "share and the least bias factor that brings the share down to it.",
 }
 
 
@@ -66,7 +67,10 @@ def forest(result: Any, paths: str | Path | Sequence[str | Path]) -> list[Path]:
         [f"{e:.2f} ({c:.2f})" for e, c in zip(ev, ev_ci, strict=True)]
         + [f"{r.evalue:.2f} ({r.evalue_ci:.2f})"],
     )
-    right.set_ylabel("E-value (of the interval)")
+    levels = np.asarray(s.get("level", np.full(len(s["label"]), 0.95)), float)[used]
+    shared = {float(v) for v in levels[np.isfinite(lo)]} | {float(r.level)}
+    of = f"of the {level_text(shared.pop())} CI" if len(shared) == 1 else "of each row's CI"
+    right.set_ylabel(f"E-value ({of})")
     ax.set_xlabel("Risk ratio (log scale)")
     ax.set_title(
         f"{n} studies pooled: {r.pooled_estimate:.2f} ({level_text(r.level)} CI {lo_p:.2f} to "
@@ -104,7 +108,13 @@ def share_curve(result: Any, paths: str | Path | Sequence[str | Path]) -> list[P
                         color="#b2abd2", alpha=0.6, lw=0,
                         label=f"Pointwise {level_text(r.level)} band (delta method)")  # fmt: skip
     ax.plot(grid, p, color="black", lw=2, label=f"Share {r.direction} {r.threshold:g}")
-    ax.axhline(r.share, color="#e66101", lw=1.2, ls=":", label=f"R = {r.share:.0%}")
+    ax.axhline(
+        r.share,
+        color="#e66101",
+        lw=1.2,
+        ls=":",
+        label=f"Share {r.share:.0%} (your choice, not a pass mark)",
+    )
     if r.bias_to_reduce_raw > 1:
         ax.axvline(r.bias_to_reduce, color="0.3", lw=1, ls="--",
                    label=f"Least bias factor {r.bias_to_reduce:.2f}")  # fmt: skip
