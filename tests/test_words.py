@@ -349,3 +349,16 @@ def test_a_row_with_one_limit_says_so_once():
     assert screen_table(table)["error"].tolist() == ["`lower` and `upper` are both needed"]
     with pytest.raises(InputError, match=r"^`ci` needs both limits$"):
         evalue("rr", 1.5, ci=(1.2, float("nan")))
+
+
+def test_a_mean_difference_per_unit_names_both_units_in_its_sentence():
+    """With --contrast 10 the sentence said "mean difference of 0.035 (standard error 0.012;
+    about a risk ratio of 1.02)": 0.035 is per unit, 1.02 per 10 units."""
+    res = evalue("md", 0.035, se=0.012, sd=14, contrast=10)
+    said = " ".join(res.sentence().split())
+    assert said.startswith(
+        "For the observed mean difference of 0.035 per unit of treatment (standard error "
+        "0.012; about a risk ratio of 1.02 per 10 units of treatment), the E-value is 1.18"
+    )
+    plain = " ".join(evalue("md", 0.035, se=0.012, sd=14).sentence().split())
+    assert "per unit" not in plain and "units of treatment" not in plain

@@ -148,10 +148,16 @@ def sentence(result: EValueResult) -> str | None:
         inner.append(f"{level} {observed_value(r['ci_lower'])} to {observed_value(r['ci_upper'])}")
     elif r["se"] is not None:
         inner.append(f"standard error {observed_value(r['se'])}")
+    # an md per unit of a continuous treatment maps to a risk ratio per `contrast` units: the
+    # sentence names both, or 0.035 would read as "about a risk ratio of 1.02" itself
+    contrast = r.get("contrast")
+    per = result.scale == "md" and contrast is not None and contrast != 1
     if result.scale != "rr" and not (result.scale in ("or", "hr") and result.outcome == "rare"):
         kind = f" for a {result.outcome} outcome" if result.scale in ("or", "hr") else ""
+        if per:
+            kind = f" per {contrast:g} units of treatment"
         inner.append(f"about a risk ratio of {number(r['rr'])}{kind}")
-    said = f" ({'; '.join(inner)})" if inner else ""
+    said = (" per unit of treatment" if per else "") + (f" ({'; '.join(inner)})" if inner else "")
     goal = _goal(result)
     aim = "explain the estimate away" if result.target_is_null else f"move the estimate to {goal}"
     e, e_ci = number(r["evalue"]), r["evalue_ci"]
