@@ -132,6 +132,18 @@ def test_report_takes_hypothetical_strengths_for_a_coefficient(run, fair_csv, tm
     assert bad.exit_code == 2 and "apply to a regression coefficient" in bad.stderr
 
 
+def test_an_out_folder_that_cannot_be_made_exits_2_naming_it(run, tmp_path):
+    """`--out` under a file (or anywhere the folder cannot be made) ended in exit 1, "Error:
+    Not a directory: ...", as if the tool had failed, without naming the option."""
+    (tmp_path / "a-file").write_text("x")
+    target = tmp_path / "a-file" / "report"
+    res = run("report", "--scale", "rr", "--estimate", 2, "--out", target)
+    assert res.exit_code == 2 and res.stdout == ""
+    assert res.stderr == (
+        f"Error: `--out`: the folder cannot be made there (Not a directory); got {str(target)!r}\n"
+    )
+
+
 def test_an_empty_out_is_refused_not_the_current_folder(run, tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     res = run("report", "--scale", "rr", "--estimate", 2, "--out", "")

@@ -222,7 +222,15 @@ def write_report(
     written, by role ("folder", "md", "html", "tex", "json"). With a `worker` (a second
     process, started early), the figures are drawn by both processes at once."""
     out = Path(folder)
-    out.mkdir(parents=True, exist_ok=True)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as err:  # a file on the way, no permission, a read-only disk: the user's
+        from ..common.errors import InputError
+
+        why = err.strerror or type(err).__name__
+        raise InputError(
+            f"`folder`: the folder cannot be made there ({why}); got {str(folder)!r}", "folder"
+        ) from None
     items = [ReportItem(k, label, result) for k, (label, result) in enumerate(results, 1)]
     grouped = parts_of(items)
     parts = [part for part, _ in grouped]
