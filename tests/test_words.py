@@ -362,3 +362,15 @@ def test_a_mean_difference_per_unit_names_both_units_in_its_sentence():
     )
     plain = " ".join(evalue("md", 0.035, se=0.012, sd=14).sentence().split())
     assert "per unit" not in plain and "units of treatment" not in plain
+
+
+def test_a_misspelt_event_column_lists_the_columns(run):
+    """Every other misspelt column listed the data's columns; `--event` did not."""
+    data = Path(__file__).resolve().parent.parent / "demo" / "harbourside_cohort.csv"
+    res = run("evalue", "--data", data, "--formula", "years ~ night_shift + age",
+              "--treatment", "night_shift", "--model", "cox", "--event", "diabetis")  # fmt: skip
+    assert res.exit_code == 2
+    assert res.stderr == (
+        "Error: `--event` 'diabetis' is not a column of the data; columns: night_shift, age, "
+        "female, smoker, bmi, poor_sleep, years, diabetes, sbp\n"
+    )

@@ -202,7 +202,11 @@ def fit(
     if model != "cox" and event is not None:
         raise InputError(f"`event` applies to model cox only; got model {model}", "event")
     if event is not None and event not in data.columns:
-        raise InputError(f"`event` {event!r} is not a column of the data", "event")
+        columns = [str(c) for c in data.columns]
+        shown = ", ".join(columns[:30]) + (", ..." if len(columns) > 30 else "")
+        raise InputError(
+            f"`event` {event!r} is not a column of the data; columns: {shown}", "event"
+        )
     if event is not None:
         from pandas.api.types import is_bool_dtype, is_numeric_dtype
 
