@@ -483,3 +483,61 @@ def test_a_text_column_of_words_is_still_categories_without_c(run, tmp_path):
     fitted = smf.logit("fall ~ walk + age + region", table).fit(disp=0)  # the reference
     got = json.loads(res.stdout)
     assert np.isclose(np.log(got["estimate"]), fitted.params["walk"], rtol=1e-7)
+
+
+def _written_numbers_file(path, cell):
+    """Invented data: a binary treatment, a number covariate `x` written by `cell` (with a
+    percent sign or a decimal comma), a number outcome and a 0/1 outcome."""
+    rng = np.random.default_rng(8)
+    n = 120
+    x = rng.normal(size=n)
+    t = (rng.uniform(size=n) < 0.5).astype(int)
+    w = x + t + rng.normal(size=n)
+    pd.DataFrame({"y": (w > 0.5).astype(int), "t": t, "x": [cell(v) for v in x],
+                  "w": w}).to_csv(path, index=False)  # fmt: skip
+    return path
+
+
+@pytest.mark.parametrize(
+    "cell, said",
+    [(lambda v: f"{v:.3f}%", "a percent sign"),
+     (lambda v: f"{v:.3f}".replace(".", ","), "a decimal comma")],
+)  # fmt: skip
+@pytest.mark.parametrize(
+    "command",
+    [("evalue", "--formula", "y ~ t + x", "--treatment", "t", "--model", "logit"),
+     ("partial-r2", "--formula", "w ~ t + x", "--treatment", "t"),
+     ("stability", "--formula-short", "w ~ t", "--formula-long", "w ~ t + x", "--treatment", "t"),
+     ("impact", "--formula", "w ~ t + x", "--treatment", "t"),
+     ("weighting", "--treatment", "t", "--outcome", "w", "--propensity", "t ~ x",
+      "--method", "percentile", "--resamples", "50"),
+     ("debiased", "--treatment", "t", "--outcome", "w", "--covariates", "x",
+      "--learner", "linear", "--folds", "2")],
+)  # fmt: skip
+def test_numbers_written_with_a_percent_sign_or_decimal_comma_are_refused(
+    run, tmp_path, cell, said, command
+):
+    """Every cell of `x` was text, so none counted as a stray word: partial-r2 refused the
+    treatment as "spanning 58 columns" (listing all), stability and weighting stopped on a
+    consequence (rank, separation), and debiased coded each value as a category and printed
+    a result."""
+    src = _written_numbers_file(tmp_path / "x.csv", cell)
+    res = run(command[0], "--data", src, *command[1:])
+    assert res.exit_code == 2, res.stdout[-300:]
+    line = res.stderr.strip().splitlines()[-1]
+    assert line.startswith("Error: `--data`: column 'x' ") and f"written with {said}" in line
+
+
+def test_a_treatment_of_many_columns_lists_a_few_of_them(run, tmp_path):
+    """The refusal listed every column of the treatment: 58 of them for a column of
+    percentages, in one line of some 1,500 characters."""
+    rng = np.random.default_rng(9)
+    frame = pd.DataFrame({"grp": [f"g{k:02d}" for k in rng.integers(0, 20, 200)],
+                          "x": rng.normal(size=200)})  # fmt: skip
+    frame["w"] = frame["x"] + rng.normal(size=200)
+    frame.to_csv(tmp_path / "g.csv", index=False)
+    res = run("partial-r2", "--data", tmp_path / "g.csv", "--formula", "w ~ C(grp) + x",
+              "--treatment", "C(grp)")  # fmt: skip
+    assert res.exit_code == 2
+    assert res.stderr.startswith("Error: `--treatment` 'C(grp)' spans 19 columns (C(grp)[T.g01], ")
+    assert "C(grp)[T.g08], ...); name one of them" in res.stderr

@@ -113,9 +113,10 @@ def find_treatment(treatment: str, names: Sequence[str], groups: dict[str, list[
     if cols is not None and len(cols) == 1:
         return cols[0]
     if cols is not None:
+        shown = ", ".join(names[i] for i in cols[:8]) + (", ..." if len(cols) > 8 else "")
         raise InputError(
             f"`treatment` {treatment!r} spans {len(cols)} columns "
-            f"({', '.join(names[i] for i in cols)}); name one of them, or code the "
+            f"({shown}); name one of them, or code the "
             "treatment as a single 0/1 or numeric column",
             "treatment",
         )

@@ -46,6 +46,11 @@ def _design(frame: Any, covariates: Sequence[str]) -> tuple[np.ndarray, dict[str
         if is_numeric_dtype(col) and not is_bool_dtype(col):
             block = col.to_numpy(dtype=float)[:, None]
         else:
+            if col.dtype.kind == "O":  # "12.5%", "1,5" or a stray word among numbers
+                from ..adapters.rfactor import refuse_numbers_held_as_text
+
+                cells = [None if v is None or v != v else str(v) for v in col.tolist()]
+                refuse_numbers_held_as_text(name, cells, where="covariates")
             block = pd.get_dummies(col.astype("category"), drop_first=True).to_numpy(float)
             if block.shape[1] == 0:
                 raise InputError(f"`covariates`: column {name!r} has a single value", "covariates")
