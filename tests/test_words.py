@@ -374,3 +374,11 @@ def test_a_misspelt_event_column_lists_the_columns(run):
         "Error: `--event` 'diabetis' is not a column of the data; columns: night_shift, age, "
         "female, smoker, bmi, poor_sleep, years, diabetes, sbp\n"
     )
+
+
+def test_the_joint_evalue_sentence_reads_as_english():
+    """It said "could be enough to bring the 95% CI to take in the null"."""
+    res = evalue("rr", 1.8, ci=(1.3, 2.5)).with_biases(selection="whole")
+    said = " ".join(res.document().render("text").split())
+    assert "A common risk ratio of 1.41 could be enough for the 95% CI to take in the null" in said
+    assert "to bring the 95% CI to take in" not in said

@@ -220,7 +220,7 @@ def several_biases_sentence(result: EValueResult) -> str:
     )
     if mb["evalue_ci"] is not None and mb["evalue_ci"] > 1:
         text += (
-            f". A common risk ratio of {number(mb['evalue_ci'])} could be enough to bring the "
+            f". A common risk ratio of {number(mb['evalue_ci'])} could be enough for the "
             f"{level_name(result)} to take in the null"
         )
     return text + "."
