@@ -168,6 +168,13 @@ def test_hypothetical_confounder_answers_the_reviewer(run):
         (("RR 1.4 (90% CI 1.1-1.8)", "--ci-level", 0.95), "Error: `--ci-level` 0.95 differs"),
         (("RR 1.4 (1.1-1.8)", "--estimate", 1.4), "Error: TEXT and --estimate cannot be used"),
         (("RR 1.4", "--ci", 1.1, 1.8), "Error: TEXT and --ci cannot be used together"),
+        # the numbers read from TEXT are the text's: it named `--estimate`, never given
+        (("RR 0 (0-1)",), "Error: the estimate in `TEXT` must be positive; got 0"),
+        (("RR 1.2 (0 to 1.5)",), "Error: the interval in `TEXT` must be positive; got 0"),
+        (
+            ("SMD 0.3 (0.1-0.5)", "--se", 0.1),
+            "Error: give `--se` or the interval in `TEXT` for scale smd, not both",
+        ),
         (
             ("rr", 2, "--output", "/no/such/folder/e.txt"),
             "Error: Invalid value for '--output': folder '/no/such/folder' does not exist",

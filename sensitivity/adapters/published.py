@@ -83,23 +83,43 @@ def evalue_from_text(
     >>> r.as_read["scale"], round(float(r.evalue), 2), round(float(r.evalue_ci), 2)
     ('hr', 2.12, 1.6)
     """
+    from ..common.errors import InputError
     from ..evalues.core import evalue
 
     read = read_summary(text, scale=scale, ci_level=ci_level, argument=argument)
     ci = None if read["lower"] is None else (read["lower"], read["upper"])
-    result = evalue(
-        str(read["use_scale"]),
-        read["estimate"],
-        ci,
-        se=se,
-        sd=sd,
-        contrast=contrast,
-        outcome=outcome,
-        prevalence=prevalence,
-        target=target,
-        ci_level=float(read["use_level"]),  # type: ignore[arg-type]
-    )
+    try:
+        result = evalue(
+            str(read["use_scale"]),
+            read["estimate"],
+            ci,
+            se=se,
+            sd=sd,
+            contrast=contrast,
+            outcome=outcome,
+            prevalence=prevalence,
+            target=target,
+            ci_level=float(read["use_level"]),  # type: ignore[arg-type]
+        )
+    except InputError as err:
+        raise _of_the_text(err, argument) from None
     return attach_reading(result, read)
+
+
+def _of_the_text(err: Exception, argument: str) -> Exception:
+    """An error about the estimate or interval read from the text names the text, not the
+    `estimate` or `ci` the user never gave ("RR 0 (0-1)" said "`--estimate` must be
+    positive" on the command line)."""
+    from ..common.errors import InputError
+
+    if not isinstance(err, InputError):
+        return err
+    read = {"estimate": f"the estimate in `{argument}`", "ci": f"the interval in `{argument}`"}
+    if not set(err.arguments) & set(read):
+        return err
+    message = err.render(lambda a: read.get(a, f"`{a}`"))
+    names = [argument if a in read else a for a in err.arguments]
+    return type(err)(message, tuple(dict.fromkeys(names)))
 
 
 def attach_reading(result: EValueResult, read: dict[str, object]) -> EValueResult:
