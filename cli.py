@@ -9,6 +9,7 @@ traceback only under `--debug`.
 from __future__ import annotations
 
 import errno
+import re
 import sys
 from importlib import import_module
 from typing import Any
@@ -68,7 +69,7 @@ class _Cli(click.Group):
             click.echo("Error: aborted", err=True)
             sys.exit(1)
         except click.ClickException as err:
-            click.echo(f"Error: {one_line(err.format_message())}", err=True)
+            click.echo(f"Error: {one_line(number_hint(err.format_message()))}", err=True)
             sys.exit(2)
         except InputError as err:
             if debug:
@@ -93,6 +94,35 @@ class _Cli(click.Group):
             )
             sys.exit(1)
         sys.exit(0)
+
+
+_NOT_A_NUMBER = re.compile(r"'(?P<value>[^']*)' is not a (?:valid float|number)\.?$")
+_NUM = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)"
+#: How a number is often mistyped, and the hint that says how to write it.
+NUMBER_HINTS = (
+    (re.compile(r"^[-+]?\d+,\d+$"), "a decimal comma? write 1.5 for 1,5"),
+    (re.compile(rf"^{_NUM}\s*%$"), "a percent sign? write the number alone: 0.25 for 25%"),
+    (re.compile(rf"^{_NUM}\s*(?:-|–|—|to|,|;)\s*{_NUM}$"),
+     "two numbers in one? give them apart, as --ci 1.12 1.70 does"),
+    (re.compile(r"^--?[A-Za-z]"),
+     "{option} takes more values than were given: it read the next option as one"),
+)  # fmt: skip
+_OPTION = re.compile(r"^Invalid value for '(?P<option>[^']+)'")
+
+
+def number_hint(message: str) -> str:
+    """`message` with a hint where click could not read a number that a user often types
+    another way: a decimal comma, a percent sign, a range or an option where a value was due
+    (tests/test_words.py)."""
+    found = _NOT_A_NUMBER.search(message)
+    if found is None:
+        return message
+    named = _OPTION.search(message)
+    option = named["option"] if named else "the option"
+    for pattern, hint in NUMBER_HINTS:
+        if pattern.search(found["value"].strip()):
+            return f"{message.rstrip('.')} ({hint.format(option=option)})."
+    return message
 
 
 def _stop_writing_stdout() -> None:

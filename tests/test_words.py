@@ -382,3 +382,24 @@ def test_the_joint_evalue_sentence_reads_as_english():
     said = " ".join(res.document().render("text").split())
     assert "A common risk ratio of 1.41 could be enough for the 95% CI to take in the null" in said
     assert "to bring the 95% CI to take in" not in said
+
+
+@pytest.mark.parametrize(
+    "args, hint",
+    [
+        (("--estimate", "1,38"), "(a decimal comma? write 1.5 for 1,5)."),
+        (("--estimate", "1.5", "--prevalence", "25%"), "(a percent sign? write the number alone"),
+        (("--estimate", "1.38", "--ci", "1.12-1.70", "--outcome-frequency", "rare"),
+         "(two numbers in one? give them apart"),
+        (("--estimate", "1.38", "--ci", "1.12", "--outcome-frequency", "rare"),
+         "(--ci takes more values than were given: it read the next option as one)."),
+    ],
+)  # fmt: skip
+def test_a_number_typed_another_way_gets_a_hint(run, args, hint):
+    """click's "'1,38' is not a valid float." said what failed, not how to write it."""
+    res = run("evalue", "--scale", "hr", *args)
+    assert res.exit_code == 2 and res.stdout == ""
+    assert res.stderr.startswith("Error: Invalid value for '--")
+    assert hint in res.stderr and res.stderr.count("\n") == 1
+    plain = run("evalue", "--scale", "hr", "--estimate", "abc")
+    assert plain.stderr == "Error: Invalid value for '--estimate': 'abc' is not a valid float.\n"
