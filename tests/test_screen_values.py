@@ -64,6 +64,9 @@ def test_the_median_is_numpys_median_of_all_values(parts, budget, travels):
         everything = [v for p in parts for v in p]
         assert store.count == len(everything)
         assert same(store.median(), everything)
+        # guided by the store's histogram (the bins holding the middle values), as the
+        # summary finds it: the same value to the bit
+        assert same(store.median(store.histogram()), everything)
         assert np.array_equal(store.values(), np.array(everything, float))
 
 
@@ -109,6 +112,18 @@ def test_tallies_in_batches_and_merged_keep_numpys_median(rows, batch, budget, p
             assert same(entry["median_evalue_ci"], ci), code
             assert entry["with_interval"] == len(ci)
     assert whole.to_dict() == merged.to_dict()
+    # the figure's histograms: each row's E-value on the log grid (the last bin open),
+    # counted here row by row
+    for code_index, code in enumerate(SCREEN_SCALES):
+        mine = [r for r in rows if r[0] == code_index]
+        for k, key in enumerate((1, 2)):
+            expected = np.zeros(200_001, np.int64)
+            for r in mine:
+                if not np.isnan(r[key]):
+                    expected[min(int(np.log(r[key]) / 20.0 * 200_000), 200_000)] += 1
+            for summary in (whole, merged):
+                got = summary.histograms.get(code, (np.zeros(200_001),) * 2)[k]
+                assert np.array_equal(got, expected), (code, key)
 
 
 def test_a_spilled_store_leaves_no_file_and_closes_when_collected(tmp_path, monkeypatch):

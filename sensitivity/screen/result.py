@@ -62,28 +62,17 @@ class Tally:
             return np.bincount(np.where(where, slot, 0), minlength=width)
 
         rows = np.bincount(slot, minlength=width)
-        bins = {}
+        # the E-values themselves are kept per scale (`Values`): the histograms of the figure
+        # and the exact medians come from them at the end (`result`); counted here, the
+        # values each row has (+inf included: it goes to the histogram's last bin)
+        given = {}
         for key in ("evalue", "evalue_ci"):
-            with np.errstate(invalid="ignore", divide="ignore"):
-                idx = np.log(values[key])  # log(v) / _TOP * _EDGES, at most _EDGES, in place
-                np.divide(idx, _TOP, out=idx)
-                np.multiply(idx, _EDGES, out=idx)
-                np.minimum(idx, _EDGES, out=idx)
-            finite = np.isfinite(idx)
-            np.copyto(idx, 0.0, where=~finite)
-            # bin-major, so the counts are only as long as the largest E-value needs; a row
-            # with no value counts in bin 0 of slot 0 (the flagged rows' column, never read),
-            # so no row is picked out by a mask
-            spot = idx.astype(np.int64)
-            spot *= width
-            spot += np.where(finite, slot, 0)
-            counts = np.bincount(spot, minlength=width)
-            bins[key] = np.pad(counts, (0, -counts.size % width)).reshape(-1, width)
-            bins[f"{key}_n"] = bins[key].sum(axis=0)  # per scale: the values counted
+            with np.errstate(invalid="ignore"):
+                given[key] = per_scale(values[key] > 0)
         if self.threshold is not None:
             ci = values["evalue_ci"]
             with np.errstate(invalid="ignore"):
-                bins["below"] = per_scale(np.isfinite(ci) & (ci < self.threshold))
+                below = per_scale(np.isfinite(ci) & (ci < self.threshold))
         explains = [
             (per_scale(states[f"confounder_{i}_explains_estimate"] == 2),
              per_scale(states[f"confounder_{i}_explains_ci"] == 2))
@@ -94,20 +83,16 @@ class Tally:
             if not rows[number]:
                 continue
             entry = self.scales.setdefault(code, _entry(self.n_confounders))
-            # the rows of this scale, for the finite values kept for exact medians (a few
-            # scales in a batch: cheaper than sorting the rows by scale)
+            # the rows of this scale, for the finite values kept (a few scales in a batch:
+            # cheaper than sorting the rows by scale)
             mine = np.flatnonzero(slot == number)
             entry["rows"] += int(rows[number])
             for key in ("evalue", "evalue_ci"):
-                used = bins[key][:, number]
-                if used.size > entry[key].size:
-                    entry[key] = np.pad(entry[key], (0, used.size - entry[key].size))
-                entry[key][: used.size] += used
-                entry[f"{key}_n"] += int(bins[f"{key}_n"][number])
+                entry[f"{key}_n"] += int(given[key][number])
                 kept = np.asarray(values[key], float)[mine]
                 entry[f"{key}_values"].append(kept[np.isfinite(kept)])
             if self.threshold is not None:
-                entry["below"] += int(bins["below"][number])
+                entry["below"] += int(below[number])
             for i, (est, ci) in enumerate(explains):
                 entry["explains_estimate"][i] += int(est[number])
                 entry["explains_ci"][i] += int(ci[number])
@@ -125,10 +110,6 @@ class Tally:
             self.flagged[kind] = self.flagged.get(kind, 0) + count
         for code, theirs in other.scales.items():
             mine = self.scales.setdefault(code, _entry(self.n_confounders))
-            for key in ("evalue", "evalue_ci"):
-                if theirs[key].size > mine[key].size:
-                    mine[key] = np.pad(mine[key], (0, theirs[key].size - mine[key].size))
-                mine[key][: theirs[key].size] += theirs[key]
             for key in ("rows", "evalue_n", "evalue_ci_n", "below", "regression"):
                 mine[key] += theirs[key]
             for key in ("evalue_values", "evalue_ci_values"):  # for the exact medians
@@ -141,17 +122,23 @@ class Tally:
         per_scale = {}
         hist: dict[str, tuple[np.ndarray, np.ndarray]] = {}
         for code, e in sorted(self.scales.items()):
+            # each store's histogram (it guides the median), then with the infinite values,
+            # which no store keeps, in its last bin
+            stores = [e[f"{key}_values"] for key in ("evalue", "evalue_ci")]
+            est, ci = (store.histogram() for store in stores)
+            medians = [store.median(h) for store, h in zip(stores, (est, ci), strict=True)]
+            for h, key, store in zip((est, ci), ("evalue", "evalue_ci"), stores, strict=True):
+                h[_EDGES] += e[f"{key}_n"] - store.count
             per_scale[code] = {
                 "rows": e["rows"],
-                "median_evalue": e["evalue_values"].median(),
-                "median_evalue_ci": e["evalue_ci_values"].median(),
+                "median_evalue": medians[0],
+                "median_evalue_ci": medians[1],
                 "with_interval": e["evalue_ci_n"],
                 "below_threshold": e["below"] if self.threshold is not None else None,
                 "explains_estimate": list(e["explains_estimate"]),
                 "explains_ci": list(e["explains_ci"]),
                 "regression_rows": e["regression"],
             }
-            est, ci = (np.pad(e[k], (0, _EDGES + 1 - e[k].size)) for k in ("evalue", "evalue_ci"))
             hist[code] = (est, ci)
         return ScreenSummary(
             source=source,
@@ -168,9 +155,7 @@ class Tally:
 def _entry(k: int) -> dict:
     return {
         "rows": 0,
-        "evalue": np.zeros(0, np.int64),  # grown to the largest bin used
-        "evalue_ci": np.zeros(0, np.int64),
-        "evalue_n": 0,
+        "evalue_n": 0,  # the rows with an E-value (finite or not)
         "evalue_ci_n": 0,
         "evalue_values": Values(),  # the values themselves, for exact medians
         "evalue_ci_values": Values(),
@@ -256,15 +241,64 @@ class Values:
         Values.__init__(self)
         self.append(state["values"])
 
-    def median(self) -> float | None:
+    def histogram(self) -> np.ndarray:
+        """How many values lie in each bin of the log E-value grid (`_bins`), in pieces."""
+        counts = np.zeros(_EDGES + 1, np.int64)
+        for piece in self.pieces():
+            counts += np.bincount(_bins(piece), minlength=_EDGES + 1)
+        return counts
+
+    def median(self, histogram: np.ndarray | None = None) -> float | None:
         """The median by the midpoint rule (numpy's: the mean of the two middle values for an
-        even count), exact: in memory as numpy computes it, or from the file by selection."""
+        even count), exact: in memory as numpy computes it, or from the file by selection
+        (within the bin of `histogram`, this store's own, that holds each middle value,
+        where given and that bin is small enough; else by `_ranked`)."""
         if not self.count:
             return None
         if not self._spilled:
             return float(np.median(np.concatenate(self._held)))
-        low, high = _ranked(self, ((self.count - 1) // 2, self.count // 2))
+        ranks = ((self.count - 1) // 2, self.count // 2)
+        found = None if histogram is None else _in_bins(self, ranks, histogram)
+        low, high = found or _ranked(self, ranks)
         return float(np.mean(np.array([low, high]))) if self.count % 2 == 0 else low
+
+
+def _bins(values: np.ndarray) -> np.ndarray:
+    """Each E-value's bin on the log grid: log(v) / _TOP * _EDGES, at most _EDGES, whole (the
+    last bin is open); the values finite, at least 1."""
+    idx = np.log(values)
+    np.divide(idx, _TOP, out=idx)
+    np.multiply(idx, _EDGES, out=idx)
+    np.minimum(idx, _EDGES, out=idx)
+    return idx.astype(np.int64)
+
+
+def _in_bins(store: Values, ranks: tuple[int, ...], histogram: np.ndarray) -> list[float] | None:
+    """The values of the given ranks (0 = the smallest), each exact: the bin holding each rank
+    found from the store's `histogram`, then that bin's values gathered in one pass and
+    partitioned; None where a bin holds more than `HELD_VALUES` (or the histogram does not
+    count the store's values)."""
+    cum = np.cumsum(histogram)
+    if not cum.size or int(cum[-1]) != store.count:
+        return None
+    wanted: dict[int, list[int]] = {}
+    for r in ranks:
+        wanted.setdefault(int(np.searchsorted(cum, r, side="right")), []).append(r)
+    if any(histogram[b] > HELD_VALUES for b in wanted):
+        return None
+    parts: dict[int, list[np.ndarray]] = {b: [] for b in wanted}
+    for piece in store.pieces():
+        bins = _bins(piece)
+        for b in wanted:
+            parts[b].append(piece[bins == b])
+    found = {}
+    for b, rs in wanted.items():
+        below = int(cum[b - 1]) if b else 0
+        within = [r - below for r in rs]
+        chosen = np.partition(np.concatenate(parts[b]), within)
+        for r, k in zip(rs, within, strict=True):
+            found[r] = float(chosen[k])
+    return [found[r] for r in ranks]
 
 
 _SIGN = np.uint64(1 << 63)
