@@ -403,3 +403,32 @@ def test_a_number_typed_another_way_gets_a_hint(run, args, hint):
     assert hint in res.stderr and res.stderr.count("\n") == 1
     plain = run("evalue", "--scale", "hr", "--estimate", "abc")
     assert plain.stderr == "Error: Invalid value for '--estimate': 'abc' is not a valid float.\n"
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (("evalue", "--scale", "rr", "--estimate", 1.5, "--plot-limits", 3, 3),
+         "Error: --plot-limits is a setting of the figure: give --plot FILE with it\n"),
+        (("partial-r2", "--estimate", 0.1, "--se", 0.02, "--dof", 100, "--plot-mark", 0.1, 0.1),
+         "Error: --plot-mark is a setting of the figure: give --plot FILE with it\n"),
+        (("stability", "--estimate-short", 0.5, "--r2-short", 0.1, "--estimate-long", 0.4,
+          "--r2-long", 0.3, "--plot-limits", 3, 3, "--plot", "s.png"),
+         "Error: --plot-limits does not apply to stability\n"),
+        (("matched", "--discordant", 80, "--treated-events", 58, "--plot-limits", 3, 0.5),
+         "Error: --plot-limits does not apply to matched\n"),
+        (("simulate", "--scale", "rr", "--estimate", 0.81, "--ci", 0.69, 0.95,
+          "--prevalence-treated", "uniform:0.2:0.4", "--prevalence-control", "fixed:0.3",
+          "--outcome-effect", "fixed:2", "--plot-limits", 2, 2, "--plot", "s.png"),
+         "Error: --plot-limits does not apply to simulate\n"),
+    ],
+)  # fmt: skip
+def test_a_figure_setting_that_would_be_ignored_is_refused(run, tmp_path, monkeypatch, args,
+                                                           message):  # fmt: skip
+    """--plot-limits and --plot-mark without --plot, and --plot-limits for the figures that
+    take none (stability, simulate, matched, pool), were accepted and ignored: no figure, or
+    one with other axes than asked, and no word."""
+    monkeypatch.chdir(tmp_path)
+    res = run(*args)
+    assert res.exit_code == 2 and res.stdout == "" and res.stderr == message
+    assert not (tmp_path / "s.png").exists()

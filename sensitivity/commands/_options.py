@@ -102,6 +102,7 @@ class Command(click.Command):
         _refuse_non_finite(self, ctx)
         _refuse_overwriting_inputs(self, ctx)
         _refuse_format_against_extension(ctx)
+        _refuse_plot_settings_without_plot(ctx)
         return rest
 
     def invoke(self, ctx: click.Context) -> Any:
@@ -113,6 +114,33 @@ class Command(click.Command):
         except InputError as err:
             # the library names its Python argument (`ci_level`); the user typed --ci-level
             raise type(err)(err.render(namer(self, ctx))) from err.__cause__
+
+
+#: Figure settings a command's figures do not take (each was accepted and ignored).
+PLOT_SETTINGS_NOT_TAKEN = {
+    "pool": ("plot_limits", "plot_marks"),
+    "screen": ("plot_marks",),
+    "simulate": ("plot_limits",),
+    "stability": ("plot_limits",),
+    "matched": ("plot_limits",),
+}
+
+
+def _refuse_plot_settings_without_plot(ctx: click.Context) -> None:
+    """A figure setting the command's figures do not take, or one given without --plot:
+    either way nothing would be drawn as asked, and nothing said."""
+    params = ctx.params
+    if "plots" not in params:
+        return
+    settings = (("plot_limits", "--plot-limits"), ("plot_marks", "--plot-mark"))
+    for name, option in settings:
+        if params.get(name) and name in PLOT_SETTINGS_NOT_TAKEN.get(str(ctx.command.name), ()):
+            raise click.UsageError(f"{option} does not apply to {ctx.command.name}")
+    if params.get("plots"):
+        return
+    for name, option in settings:
+        if params.get(name):
+            raise click.UsageError(f"{option} is a setting of the figure: give --plot FILE with it")
 
 
 def _load_numpy(command: click.Command, ctx: click.Context) -> None:
