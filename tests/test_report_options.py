@@ -7,6 +7,7 @@ numbers, and its Reproduce section the exact command line and the library versio
 
 import json
 import sys
+from pathlib import Path
 
 import pytest
 import statsmodels.api as sm
@@ -149,3 +150,29 @@ def test_an_empty_out_is_refused_not_the_current_folder(run, tmp_path, monkeypat
     res = run("report", "--scale", "rr", "--estimate", 2, "--out", "")
     assert res.exit_code == 2 and res.stderr == "Error: `--out` must name a folder; got ''\n"
     assert list(tmp_path.iterdir()) == []
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (("--estimates", "TABLE", "--outcome-frequency", "rare"),
+         "Error: --outcome-frequency does not apply to a table of estimates (each row gives its "
+         "own: columns se, sd, outcome, prevalence, contrast, label)\n"),
+        (("--estimates", "TABLE", "--label", "Foo"), "Error: --label does not apply to a table"),
+        (("RR 1.5 (1.2-1.9)", "--formula", "y ~ x", "--treatment", "x"),
+         "Error: --formula, --treatment do not apply to summary input\n"),
+        (("--data", "DATA", "--model", "ols", "--formula", "sbp ~ commute_min + age",
+          "--treatment", "commute_min", "--se", 0.1),
+         "Error: --se does not apply to data input\n"),
+    ],
+)  # fmt: skip
+def test_an_option_of_another_input_is_refused(run, tmp_path, args, message):
+    """Each was accepted and ignored: `--outcome-frequency rare` with a table of estimates
+    ended in "the outcome's frequency is needed" of its hr row, and `--label` was dropped."""
+    table = tmp_path / "t.csv"
+    table.write_text("label,scale,estimate,lower,upper\nA,hr,1.4,1.1,1.8\n")
+    data = Path(__file__).resolve().parent.parent / "demo" / "harbourside_bp.csv"
+    args = [table if a == "TABLE" else data if a == "DATA" else a for a in args]
+    res = run("report", *args, "--out", tmp_path / "r")
+    assert res.exit_code == 2 and res.stderr.startswith(message)
+    assert res.stderr.count("\n") == 1 and not (tmp_path / "r").exists()

@@ -188,7 +188,7 @@ def fit(
     errors: by default hc0 for a Poisson fit of a 0/1 outcome, and classical otherwise."""
     import statsmodels.formula.api as smf
 
-    from .rfactor import refuse_numbers_in_frame
+    from .textcells import refuse_numbers_in_frame
 
     if errors is not None:
         kind, column = parse_errors(errors)

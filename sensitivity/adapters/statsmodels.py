@@ -174,7 +174,7 @@ def fit_formula(data: Any, formula: str) -> tuple[Any, list[str]]:
     outcome = formula.split("~", 1)[0].strip()
     if outcome in data.columns and not is_numeric_dtype(data[outcome]):
         raise InputError(f"`formula`: the outcome column {outcome!r} must be numeric", "formula")
-    from .rfactor import refuse_numbers_in_frame
+    from .textcells import refuse_numbers_in_frame
 
     refuse_numbers_in_frame(data, formula)  # "12.5%" or a stray word: not categories unasked
     import warnings

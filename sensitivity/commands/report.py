@@ -105,6 +105,28 @@ def report_cmd(text: Any, scale: Any, estimate: Any, ci: Any, ci_level: Any, se:
         )
     if scale == "rd":
         raise click.UsageError("--scale rd: a report takes rr, or, hr, smd or md")
+    # an option of another input was accepted and ignored ("--outcome-frequency rare" with a
+    # table of estimates, then "the outcome's frequency is needed" of its hr row)
+    given = {
+        "--se": se is not None, "--sd": sd is not None, "--prevalence": prevalence is not None,
+        "--outcome-frequency": outcome is not None, "--label": label != "Main estimate",
+        "--contrast": contrast != 1.0, "--formula": formula is not None,
+        "--treatment": treatment is not None, "--model": model_kind is not None,
+        "--event": event is not None,
+    }  # fmt: skip
+    taken = {
+        "table": ("a table of estimates (each row gives its own: columns se, sd, outcome, "
+                  "prevalence, contrast, label)", ()),
+        "data": ("data input", ("--outcome-frequency", "--label", "--contrast", "--formula",
+                                "--treatment", "--model", "--event")),
+        "summary": ("summary input", ("--se", "--sd", "--prevalence", "--outcome-frequency",
+                                      "--label", "--contrast")),
+    }  # fmt: skip
+    what, allowed = taken["table" if estimates else "data" if data else "summary"]
+    stray = [flag for flag, on in given.items() if on and flag not in allowed]
+    if stray:
+        verb = "does" if len(stray) == 1 else "do"
+        raise click.UsageError(f"{', '.join(stray)} {verb} not apply to {what}")
     if benchmarks and not (data and model_kind == "ols"):
         raise click.UsageError(
             "--benchmark needs data input with --model ols (a measured covariate of the fit); "

@@ -47,7 +47,7 @@ def _design(frame: Any, covariates: Sequence[str]) -> tuple[np.ndarray, dict[str
             block = col.to_numpy(dtype=float)[:, None]
         else:
             if col.dtype.kind == "O":  # "12.5%", "1,5" or a stray word among numbers
-                from ..adapters.rfactor import refuse_numbers_held_as_text
+                from ..adapters.textcells import refuse_numbers_held_as_text
 
                 cells = [None if v is None or v != v else str(v) for v in col.tolist()]
                 refuse_numbers_held_as_text(name, cells, where="covariates")

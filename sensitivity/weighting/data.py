@@ -155,7 +155,7 @@ def _design(frame: Any, formula: str, treatment: str, outcome: str) -> tuple:
         raise InputError(
             f"`propensity` must not use the outcome {outcome!r} as a covariate", "propensity"
         )
-    from ..adapters.rfactor import refuse_numbers_in_frame
+    from ..adapters.textcells import refuse_numbers_in_frame
 
     refuse_numbers_in_frame(frame, formula)  # "12.5%" or a stray word: not categories unasked
     rhs = formula.split("~", 1)[1]
