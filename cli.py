@@ -68,6 +68,11 @@ class _Cli(click.Group):
         except click.Abort:
             click.echo("Error: aborted", err=True)
             sys.exit(1)
+        except click.exceptions.NoArgsIsHelpError as err:
+            # `sensitivity` alone: the help, as --help shows it (it was squeezed into one
+            # 1,200-character error line)
+            click.echo(err.ctx.get_help() if err.ctx is not None else err.format_message())
+            sys.exit(0)
         except click.ClickException as err:
             click.echo(f"Error: {one_line(number_hint(err.format_message()))}", err=True)
             sys.exit(2)

@@ -432,3 +432,18 @@ def test_a_figure_setting_that_would_be_ignored_is_refused(run, tmp_path, monkey
     res = run(*args)
     assert res.exit_code == 2 and res.stdout == "" and res.stderr == message
     assert not (tmp_path / "s.png").exists()
+
+
+def test_the_command_alone_shows_the_help():
+    """`sensitivity` with no command printed the whole help squeezed into one 1,200-character
+    "Error: Usage: ..." line and exited 2."""
+    import subprocess
+    import sys
+
+    root = Path(__file__).resolve().parent.parent
+    alone = subprocess.run([sys.executable, "-m", "sensitivity"], cwd=root, capture_output=True,
+                           text=True, check=False)  # fmt: skip
+    helped = subprocess.run([sys.executable, "-m", "sensitivity", "--help"], cwd=root,
+                            capture_output=True, text=True, check=False)  # fmt: skip
+    assert alone.returncode == 0 and alone.stderr == ""
+    assert alone.stdout == helped.stdout and "Commands:" in alone.stdout
