@@ -447,3 +447,17 @@ def test_the_command_alone_shows_the_help():
                             capture_output=True, text=True, check=False)  # fmt: skip
     assert alone.returncode == 0 and alone.stderr == ""
     assert alone.stdout == helped.stdout and "Commands:" in alone.stdout
+
+
+def test_a_scale_or_frequency_in_capitals_is_read(run):
+    """`--scale HR` was refused ("'HR' is not one of 'rr', 'or', 'hr', ...") though the
+    screen reads "HR" in a scale column, and a paper prints it so."""
+    res = run("evalue", "--scale", "HR", "--estimate", 1.5, "--ci", 1.2, 1.9,
+              "--outcome-frequency", "Rare", "--format", "json")  # fmt: skip
+    assert res.exit_code == 0, res.stderr
+    data = json.loads(res.stdout)
+    assert data["scale"] == "hr" and data["outcome"] == "rare"
+    lower = json.loads(run("evalue", "--scale", "hr", "--estimate", 1.5, "--ci", 1.2, 1.9,
+                           "--outcome-frequency", "rare", "--format", "json").stdout)  # fmt: skip
+    assert data == lower
+    assert run("tipping", "--scale", "RR", "--estimate", 1.8, "--ci", 1.2, 2.7).exit_code == 0

@@ -348,7 +348,7 @@ def outcome_frequency_option(help_text: str) -> Callable:
     return click.option(
         "--outcome-frequency",
         "outcome",
-        type=click.Choice(["rare", "common"]),
+        type=click.Choice(["rare", "common"], case_sensitive=False),
         default=None,
         help=help_text,
     )

@@ -29,7 +29,7 @@ def published_options(func: Callable) -> Callable:
     )(func)
     func = click.option(
         "--scale",
-        type=click.Choice(SUMMARY_SCALES),
+        type=click.Choice(SUMMARY_SCALES, case_sensitive=False),
         default=None,
         help="rr, or, hr, smd, md (or rd with --counts in evalue); with TEXT, only where the "
         "text names no scale.",

@@ -18,8 +18,8 @@ PRIOR_HELP = (
 
 
 @click.command("simulate", cls=Command, short_help=SHORT_HELP)
-@click.option("--scale", type=click.Choice(["md", "smd", "rd", "rr", "or", "hr"]), required=True,
-              help="Effect scale.")  # fmt: skip
+@click.option("--scale", type=click.Choice(["md", "smd", "rd", "rr", "or", "hr"],
+              case_sensitive=False), required=True, help="Effect scale.")  # fmt: skip
 @click.option("--estimate", type=float, required=True, help="The observed adjusted estimate.")
 @click.option("--ci", nargs=2, type=float, required=True, metavar="LOWER UPPER",
               help="Its confidence limits (the random error is drawn from them).")  # fmt: skip

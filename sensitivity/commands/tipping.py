@@ -32,7 +32,7 @@ SHORT_HELP = COMMANDS["tipping"][1]
 )
 @click.option(
     "--scale",
-    type=click.Choice(["md", "smd", "rd", "rr", "or", "hr"]),
+    type=click.Choice(["md", "smd", "rd", "rr", "or", "hr"], case_sensitive=False),
     help="Effect scale (binary and bounding views).",
 )
 @click.option("--estimate", type=float, help="The observed adjusted estimate.")
