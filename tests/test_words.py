@@ -461,3 +461,20 @@ def test_a_scale_or_frequency_in_capitals_is_read(run):
                            "--outcome-frequency", "rare", "--format", "json").stdout)  # fmt: skip
     assert data == lower
     assert run("tipping", "--scale", "RR", "--estimate", 1.8, "--ci", 1.2, 2.7).exit_code == 0
+
+
+def test_the_evalue_fill_starts_where_its_curve_enters_the_figure(monkeypatch, tmp_path):
+    """The fill ran from the curve down to the top edge where the curve is above it, and its
+    clipped edge drew a hairline along the top, left of the curve."""
+    from sensitivity.evalues.figures import evalue_figure
+
+    kept = _saved(monkeypatch)
+    res = evalue("rr", 0.81, ci=(0.69, 1.05))
+    evalue_figure(res, tmp_path / "e.png")
+    ax = kept[0].axes[0]
+    top = ax.get_ylim()[1]
+    r = 1 / 0.81
+    enters = r * (top - 1) / (top - r)  # b = r (a - 1) / (a - r) reaches the top here
+    fills = [c for c in ax.collections if type(c).__name__.endswith("PolyCollection")]
+    points = np.vstack([p.vertices for c in fills for p in c.get_paths()])
+    assert points[:, 0].min() >= enters * (1 - 1e-6)

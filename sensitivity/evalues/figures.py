@@ -82,7 +82,10 @@ def evalue_figure(
         name = "estimate" if key == "estimate" else f"{level}"
         ax.plot(a, b, color=color, ls=style, lw=width)
         if key == "estimate":
-            ax.fill_between(a, b, ylim, color="#e7d7a8", alpha=0.8, lw=0)
+            # only where the curve is below the top: above it, the fill ran from the curve down
+            # to the top edge, and its clipped edge drew a hairline along the top
+            ax.fill_between(a, b, ylim, where=b < ylim, interpolate=True,
+                            color="#e7d7a8", alpha=0.8, lw=0)  # fmt: skip
             handles.append(
                 plt.Rectangle(
                     (0, 0),
