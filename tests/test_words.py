@@ -478,3 +478,20 @@ def test_the_evalue_fill_starts_where_its_curve_enters_the_figure(monkeypatch, t
     fills = [c for c in ax.collections if type(c).__name__.endswith("PolyCollection")]
     points = np.vstack([p.vertices for c in fills for p in c.get_paths()])
     assert points[:, 0].min() >= enters * (1 - 1e-6)
+
+
+@pytest.mark.parametrize(
+    "extra, message",
+    [(("--model", "logit"), "Error: --model applies to data input (--data); summary numbers "
+      "are an OLS coefficient's (for a logit model's estimate use `sensitivity evalue`)\n"),
+     (("--contrast", 10), "Error: --contrast scales the E-value alongside, which summary input "
+      "gives only with --sd\n")],
+)  # fmt: skip
+def test_partial_r2_summary_refuses_what_it_would_ignore(run, extra, message):
+    """Both were accepted and ignored with summary numbers: a logistic coefficient went on as
+    an OLS one, and --contrast changed nothing without --sd."""
+    res = run("partial-r2", "--estimate", 0.1, "--se", 0.02, "--dof", 100, *extra)
+    assert res.exit_code == 2 and res.stdout == "" and res.stderr == message
+    with_sd = run("partial-r2", "--estimate", 0.1, "--se", 0.02, "--dof", 100, "--sd", 3,
+                  "--contrast", 10)  # fmt: skip
+    assert with_sd.exit_code == 0 and "per 10 units of treatment" in with_sd.stdout

@@ -166,6 +166,15 @@ def partial_r2_cmd(
         )
     if engine != "local" and not data_given:
         raise click.UsageError("--engine applies to data input (--data)")
+    if not data_given and model_kind != "ols":  # it was ignored: the summary is an OLS one
+        raise click.UsageError(
+            f"--model applies to data input (--data); summary numbers are an OLS coefficient's "
+            f"(for a {model_kind} model's estimate use `sensitivity evalue`)"
+        )
+    if not data_given and sd is None and contrast != 1.0:  # nothing to scale without --sd
+        raise click.UsageError(
+            "--contrast scales the E-value alongside, which summary input gives only with --sd"
+        )
     r2t = list(r2_treatment) or None
     r2y = list(r2_outcome) or None
     if data_given:
