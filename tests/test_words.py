@@ -495,3 +495,26 @@ def test_partial_r2_summary_refuses_what_it_would_ignore(run, extra, message):
     with_sd = run("partial-r2", "--estimate", 0.1, "--se", 0.02, "--dof", 100, "--sd", 3,
                   "--contrast", 10)  # fmt: skip
     assert with_sd.exit_code == 0 and "per 10 units of treatment" in with_sd.stdout
+
+
+def test_the_weighting_sentence_rounds_the_factor_that_could_up():
+    """The sentence said "by up to 1.09 ... could move the interval to include 0" where the
+    solved factor was 1.0947: a factor of 1.09 falls short. The factor that could is rounded
+    up, to the table's three decimals."""
+    import math
+
+    from sensitivity import weighting_bounds
+
+    rng = np.random.default_rng(2026)  # the README's invented home-visit example
+    n = 600
+    age, first = rng.normal(29, 5, n), rng.integers(0, 2, n)
+    odds = np.exp(-0.3 + 0.06 * (age - 29) + 0.8 * first)
+    visited = (rng.uniform(size=n) < odds / (1 + odds)).astype(float)
+    sleep = 5.5 + 0.04 * (age - 29) - 0.3 * first + 0.4 * visited + rng.normal(0, 1, n)
+    res = weighting_bounds(sleep, visited, covariates=np.column_stack([np.ones(n), age, first]),
+                           lam=[1, 1.25, 1.5, 2], resamples=100, seed=7)  # fmt: skip
+    sharp = res.lambda_at_null["sharp"]
+    said = " ".join(res.document().render("text").split())
+    up = math.ceil(round(sharp * 1000, 6)) / 1000
+    assert up >= sharp and f"by up to {up:.3f}, beyond what" in said
+    assert f"first includes 0 at Λ = {up:.3f} by the sharp bounds" in said

@@ -144,17 +144,27 @@ def sentence(r: WeightingResult) -> str:
         return head + (
             f". Under the marginal sensitivity model its {level} interval excludes {tgt} for "
             f"every Λ up to {r.lam.max():g} by the sharp bounds; by the box bounds, which are "
-            f"wider, it first includes {tgt} at Λ = {box:.2f}."
+            f"wider, it first includes {tgt} at Λ = {box:.3f}."
         )
     if box is None:  # pragma: no cover - the sharp bounds lie inside the box bounds
         box_text = f"beyond {r.lam.max():g}"
     else:
-        box_text = f"{box:.2f}"
+        box_text = f"{box:.3f}"
+    # "could ... by up to Λ" holds only at or above the crossing: the printed Λ is rounded
+    # up (1.0947 printed 1.09 said a factor of 1.09 could, which falls short)
+    up = _rounded_up(sharp)
     return head + (
         f". Under the marginal sensitivity model its {level} interval first includes {tgt} at "
-        f"Λ = {sharp:.2f} by the sharp bounds (at Λ = {box_text} by the box bounds, which are "
-        f"wider): by the sharp bounds, " + could.format(lam=f"{sharp:.2f}") + "."
+        f"Λ = {up} by the sharp bounds (at Λ = {box_text} by the box bounds, which are "
+        f"wider): by the sharp bounds, " + could.format(lam=up) + "."
     )
+
+
+def _rounded_up(value: float) -> str:
+    """`value` to three decimals, rounded up: a factor that could is at least the crossing."""
+    import math
+
+    return f"{math.ceil(round(value * 1000, 6)) / 1000:.3f}"
 
 
 def _box_only(r: WeightingResult, box: float | None, level: str) -> str:
@@ -171,7 +181,7 @@ def _box_only(r: WeightingResult, box: float | None, level: str) -> str:
         )
     return (
         f". Under the marginal sensitivity model its {level} interval first includes {tgt} at "
-        f"Λ = {box:.2f} by the box bounds; these are wider than the sharp bounds (not computed "
+        f"Λ = {box:.3f} by the box bounds; these are wider than the sharp bounds (not computed "
         f"here), so a hidden confounder would need at least that factor on each unit's odds "
         f"of treatment to move the interval to include {tgt}."
     )
