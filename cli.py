@@ -105,8 +105,8 @@ _NOT_A_NUMBER = re.compile(r"'(?P<value>[^']*)' is not a (?:valid float|number)\
 _NUM = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)"
 #: How a number is often mistyped, and the hint that says how to write it.
 NUMBER_HINTS = (
-    (re.compile(r"^[-+]?\d+,\d+$"), "a decimal comma? write 1.5 for 1,5"),
-    (re.compile(rf"^{_NUM}\s*%$"), "a percent sign? write the number alone: 0.25 for 25%"),
+    (re.compile(r"^[-+]?\d+,\d+$"), "a decimal comma? write {point}"),
+    (re.compile(rf"^{_NUM}\s*%$"), "a percent sign? as a share, write {share}"),
     (re.compile(rf"^{_NUM}\s*(?:-|–|—|to|,|;)\s*{_NUM}$"),
      "two numbers in one? give them apart, as --ci 1.12 1.70 does"),
     (re.compile(r"^--?[A-Za-z]"),
@@ -123,10 +123,15 @@ def number_hint(message: str) -> str:
     if found is None:
         return message
     named = _OPTION.search(message)
-    option = named["option"] if named else "the option"
+    value = found["value"].strip()
+    words = {
+        "option": named["option"] if named else "the option",
+        "point": value.replace(",", "."),
+        "share": f"{float(value.rstrip('% ')) / 100:g}" if value.endswith("%") else "",
+    }
     for pattern, hint in NUMBER_HINTS:
-        if pattern.search(found["value"].strip()):
-            return f"{message.rstrip('.')} ({hint.format(option=option)})."
+        if pattern.search(value):
+            return f"{message.rstrip('.')} ({hint.format(**words)})."
     return message
 
 

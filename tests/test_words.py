@@ -387,8 +387,8 @@ def test_the_joint_evalue_sentence_reads_as_english():
 @pytest.mark.parametrize(
     "args, hint",
     [
-        (("--estimate", "1,38"), "(a decimal comma? write 1.5 for 1,5)."),
-        (("--estimate", "1.5", "--prevalence", "25%"), "(a percent sign? write the number alone"),
+        (("--estimate", "1,38"), "(a decimal comma? write 1.38)."),
+        (("--estimate", "1.5", "--prevalence", "25%"), "(a percent sign? as a share, write 0.25)."),
         (("--estimate", "1.38", "--ci", "1.12-1.70", "--outcome-frequency", "rare"),
          "(two numbers in one? give them apart"),
         (("--estimate", "1.38", "--ci", "1.12", "--outcome-frequency", "rare"),
