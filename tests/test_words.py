@@ -10,6 +10,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from sensitivity import evalue, partial_r2_summary
 from sensitivity.common.errors import InputError
@@ -32,8 +34,9 @@ def test_the_evalue_sentence_says_could_and_names_the_level():
     text = _flat(evalue("rr", 1.64, (1.21, 2.23)).summary())
     assert "(95% CI 1.21 to 2.23)" in text
     assert (
+        # the interval's E-value is 1.7141: needed at 1.71 (rounded down), enough at 1.72 (up)
         "For the 95% CI to take in the null, equal risk ratios of 1.71 or more would be "
-        "needed, and 1.71 could be enough." in text
+        "needed, and 1.72 could be enough." in text
     )
     assert (
         "could explain the estimate away only if both were 2.66 or more, and none with "
@@ -310,9 +313,11 @@ def test_the_robustness_value_sentence_is_ours_and_exact():
     res = partial_r2_summary(0.5, 0.5 / 4.18, 783)
     text = _flat(res.sentence())
     assert text.startswith(
+        # the robustness value is 13.86% (13.9% as published, to the nearest): the share
+        # needed is printed rounded down, the one that would do it rounded up
         "Bringing the estimate to zero would take a hidden confounder that explains at least "
-        "13.9% of the treatment's variation left after the measured covariates, or at least "
-        "13.9% of the outcome's left after the treatment and covariates: one below 13.9% on "
+        "13.8% of the treatment's variation left after the measured covariates, or at least "
+        "13.8% of the outcome's left after the treatment and covariates: one below 13.8% on "
         "both could not, and one at 13.9% on both would (the robustness value)."
     )
     assert (
@@ -518,3 +523,52 @@ def test_the_weighting_sentence_rounds_the_factor_that_could_up():
     up = math.ceil(round(sharp * 1000, 6)) / 1000
     assert up >= sharp and f"by up to {up:.3f}, beyond what" in said
     assert f"first includes 0 at Λ = {up:.3f} by the sharp bounds" in said
+
+
+# --------------------------------------------------------------------------- directed rounding
+# A sentence's strength that could be enough is printed rounded up and one that is needed
+# rounded down, so that each claim holds at the printed number itself (issue 26, found by a
+# new user's trial: "1.29 could be enough" for an interval E-value of 1.2946).
+@settings(max_examples=300, deadline=None)
+@given(st.floats(1.0001, 50.0), st.floats(0.05, 0.95))
+def test_the_evalue_sentence_holds_at_its_printed_numbers(estimate, share):
+    import re
+
+    lower = 1 + (estimate - 1) * share  # an interval above the null
+    res = evalue("rr", estimate, (lower, estimate * 1.5))
+    text = _flat(res.summary())
+    need = float(re.search(r"only if both were ([\d.]+) or more", text)[1])
+    below = float(re.search(r"none with both below ([\d.]+) could", text)[1])
+    assert need <= float(res.evalue) and below <= float(res.evalue)
+    found = re.search(r"equal risk ratios of ([\d.]+) or more would be needed, and ([\d.]+) "
+                      r"could be enough", text)  # fmt: skip
+    needed, enough = float(found[1]), float(found[2])
+    assert needed <= float(res.evalue_ci) <= enough
+    assert enough - needed <= 0.01 + 1e-12  # one unit of the last digit at most
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.floats(0.5, 40.0), st.integers(20, 5000))
+def test_the_robustness_value_sentence_holds_at_its_printed_shares(t, dof):
+    import re
+
+    res = partial_r2_summary(1.0, 1.0 / t, dof)
+    text = _flat(res.sentence())
+    least = float(re.search(r"explains at least ([\d.]+)%", text)[1]) / 100
+    would = float(re.search(r"one at ([\d.]+)% on both would", text)[1]) / 100
+    assert least <= res.robustness_value <= would
+
+
+@settings(max_examples=500, deadline=None)
+@given(st.floats(1e-3, 1e12))
+def test_toward_moves_a_printed_number_to_the_right_side_by_one_digit_at_most(value):
+    from decimal import Decimal
+
+    from sensitivity.output.tables import number, percent, toward
+
+    for shown, scale in ((number(value), 1), (percent(value / 1000), 100)):
+        exact = Decimal(value) if scale == 1 else Decimal(value / 1000) * 100
+        up = toward(shown, value if scale == 1 else value / 1000, up=True, scale=scale)
+        down = toward(shown, value if scale == 1 else value / 1000, up=False, scale=scale)
+        assert Decimal(up.rstrip("%")) >= exact >= Decimal(down.rstrip("%")), (shown, up, down)
+        assert shown in (up, down)  # the nearest is one of the two

@@ -10,7 +10,7 @@ from ..common.levels import level_text
 from ..common.results import plain
 from ..common.scales import SCALES
 from ..output.document import Block, Document, Figure, prose, standard_tail
-from ..output.tables import Table, number
+from ..output.tables import Table, number, toward
 from .result import ConfounderBound, EValueResult
 
 #: How an odds or hazard ratio's outcome frequency is judged (common practice).
@@ -165,18 +165,19 @@ def sentence(result: EValueResult) -> str | None:
     if pairs_table(result) is None:  # the estimate is at the goal: nothing to explain away
         text += f"1: the estimate already equals {goal}, so no confounding is needed to reach it."
     else:
-        text += f"{e}: {strength_clause(e, aim)}"
+        text += f"{e}: {strength_clause(toward(e, r['evalue'], up=False), aim)}"
     if e_ci is None:
         return text
     if e_ci <= 1:
         return text + f" The {level} already includes {goal}."
-    return text + " " + interval_clause(number(e_ci), level, goal)
+    return text + " " + interval_clause(e_ci, level, goal)
 
 
 def strength_clause(e: str, aim: str, pairs: bool = True) -> str:
     """What an E-value says, in the project's words: the least equal strength of the two
     risk ratios, a necessary condition ("could"), and where the unequal pairs are (`pairs`:
-    only where the view has a table of them; a risk difference's has none)."""
+    only where the view has a table of them; a risk difference's has none). `e` is printed
+    rounded down (`toward`): the condition holds at it."""
     where = " (unequal pairs that could are in the accompanying table and figure)" if pairs else ""
     return (
         f"a hidden confounder with equal risk ratios with the treatment and with the outcome "
@@ -185,11 +186,13 @@ def strength_clause(e: str, aim: str, pairs: bool = True) -> str:
     )
 
 
-def interval_clause(e_ci: str, level: str, goal: str) -> str:
-    """The interval's E-value in the same words: enough, not certain, to reach the goal."""
+def interval_clause(e_ci: float, level: str, goal: str) -> str:
+    """The interval's E-value in the same words: needed (printed rounded down), and enough,
+    not certain, to reach the goal (rounded up)."""
+    needed, enough = (toward(number(e_ci), e_ci, up=up) for up in (False, True))
     return (
-        f"For the {level} to take in {goal}, equal risk ratios of {e_ci} or more would be "
-        f"needed, and {e_ci} could be enough."
+        f"For the {level} to take in {goal}, equal risk ratios of {needed} or more would be "
+        f"needed, and {enough} could be enough."
     )
 
 
@@ -216,11 +219,11 @@ def several_biases_sentence(result: EValueResult) -> str:
     text = (
         f"With {names} {how} at work, and every one of their bias parameters set to the same "
         f"risk ratio, together they could explain the estimate away only if that common risk "
-        f"ratio were {number(mb['evalue'])} or more (the joint E-value); below it, they could not"
+        f"ratio were {_down(mb['evalue'])} or more (the joint E-value); below it, they could not"
     )
     if mb["evalue_ci"] is not None and mb["evalue_ci"] > 1:
         text += (
-            f". A common risk ratio of {number(mb['evalue_ci'])} could be enough for the "
+            f". A common risk ratio of {_up(mb['evalue_ci'])} could be enough for the "
             f"{level_name(result)} to take in the null"
         )
     return text + "."
@@ -335,7 +338,7 @@ def rd_document(r: Any) -> Document:
         lead = (
             observed
             + f"the E-value for the whole population is {e}: "
-            + strength_clause(e, "explain it away", pairs=False)
+            + strength_clause(_down(r.evalue), "explain it away", pairs=False)
         )
     else:
         # no cases in the group with the lower risk: the bound stays above 0 for every finite
@@ -349,8 +352,8 @@ def rd_document(r: Any) -> Document:
         lead += " The bound's interval already includes 0."
     elif np.isfinite(r.evalue_ci):
         lead += (f" For the {level} limit of the bound nearest 0 to reach 0, equal risk ratios "
-                 f"of {number(r.evalue_ci)} or more would be needed, and "
-                 f"{number(r.evalue_ci)} could be enough.")  # fmt: skip
+                 f"of {_down(r.evalue_ci)} or more would be needed, and "
+                 f"{_up(r.evalue_ci)} could be enough.")  # fmt: skip
     else:
         lead += " No finite strength brings the bound's confidence limit to 0."
     blocks: tuple[Block, ...] = (
@@ -443,3 +446,13 @@ def report_part(items: Any) -> Any:
     from .report import report_part as build
 
     return build(items)
+
+
+def _down(value: float) -> str:
+    """A needed strength as a sentence prints it: rounded down (`toward`)."""
+    return toward(number(value), value, up=False)
+
+
+def _up(value: float) -> str:
+    """A strength that could be enough as a sentence prints it: rounded up (`toward`)."""
+    return toward(number(value), value, up=True)

@@ -6,7 +6,7 @@ from typing import Any
 
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
-from ..output.tables import Table
+from ..output.tables import Table, toward
 from .result import MatchedResult
 
 
@@ -35,7 +35,7 @@ def _stops(r: MatchedResult) -> str:
     if g == float("inf"):
         return f"Below {r.alpha:g} at every Gamma up to 1,000,000."
     return (
-        f"It stops being below {r.alpha:g} at Gamma = {g:.2f} (solved exactly, not read off "
+        f"It stops being below {r.alpha:g} at Gamma = {g:.3f} (solved exactly, not read off "
         "the grid)."
     )
 
@@ -93,12 +93,15 @@ def sentence(r: MatchedResult) -> str:
             f"The worst-case one-sided p-value stays below {r.alpha:g} for every Gamma up to "
             "1,000,000."
         )
-    g = f"{r.gamma_at_alpha:.2f}"
+    # both claims hold below the Gamma found, so it is printed rounded down (1.92916 as 1.92:
+    # "under 1.93" would take in Gammas where the p-value has reached alpha)
+    g = toward(f"{r.gamma_at_alpha:.2f}", r.gamma_at_alpha, up=False)
     return (
         f"The worst-case one-sided p-value stays below {r.alpha:g} for every Gamma under {g} "
-        f"and reaches {r.alpha:g} at Gamma = {g}: the result could lose significance at that "
-        f"level only if a hidden confounder made one unit of a pair at least {g} times as "
-        "likely as the other to be the treated one; a weaker hidden bias could not do it."
+        f"and reaches {r.alpha:g} at a Gamma of {r.gamma_at_alpha:.3f}: the result could lose "
+        f"significance at that level only if a hidden confounder made one unit of a pair at "
+        f"least {g} times as likely as the other to be the treated one; a weaker hidden bias "
+        "could not do it."
     )
 
 

@@ -51,6 +51,42 @@ def number(value: float | np.ndarray | None, digits: int = 2) -> str:
     return text
 
 
+def toward(text: str, value: float, up: bool, scale: float = 1.0) -> str:
+    """`text`, `value` as `number` or `percent` printed it (rounded to the nearest, `scale`
+    100 for a percentage), moved by one unit of its last digit where it lies on the wrong side
+    of the value: at least the value with `up`, at most it without. A sentence's strength
+    that could be enough is printed rounded up and one that is needed rounded down, so that
+    each claim holds exactly (an E-value of 1.2946 is needed at 1.29, enough at 1.30).
+
+    >>> toward("1.29", 1.2946, up=True), toward("1.29", 1.2946, up=False)
+    ('1.30', '1.29')
+    >>> toward("11.7%", 0.11731, up=True, scale=100)
+    '11.8%'
+    """
+    from decimal import Decimal, InvalidOperation
+
+    body = text[:-1] if text.endswith("%") else text
+    try:
+        shown = Decimal(body)
+    except InvalidOperation:  # '-', words
+        return text
+    if not shown.is_finite() or not math.isfinite(value):
+        return text
+    exact = Decimal(value) * Decimal(scale)
+    if (shown >= exact) if up else (shown <= exact):
+        return text
+    exponent = shown.as_tuple().exponent  # of the last digit shown (finite: a whole number)
+    step = Decimal(1).scaleb(int(exponent))
+    moved = shown + step if up else shown - step
+    if "e" in body.lower():
+        mantissa = body.lower().split("e")[0]
+        places = len(mantissa.split(".")[1]) if "." in mantissa else 0
+        out = f"{moved:.{places}e}"
+    else:
+        out = f"{moved:f}"
+    return out + text[len(body) :]
+
+
 def percent(value: float | np.ndarray | None, digits: int = 1) -> str:
     """A share as a percentage; below 1% three significant digits keep its meaning (0.133%,
     not 0.1%); from a million percent up, three significant digits in scientific form (a

@@ -16,7 +16,7 @@ from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
 from ..output.report import ReportPart
-from ..output.tables import Table, count, number, percent
+from ..output.tables import Table, count, number, percent, toward
 from .core import t_critical
 from .figures import partial_r2_contours
 from .result import CovariateStrength, PartialR2Result, Scenario, covariate_name
@@ -210,11 +210,14 @@ def tables(r: PartialR2Result) -> list[Table]:
 def sentence(r: PartialR2Result) -> str:
     goal = _goal(r)
     rv, rva = percent(r.robustness_value), percent(r.robustness_value_alpha)
+    # the needed share printed rounded down, the share that would do it rounded up: each
+    # claim holds exactly (a robustness value of 11.731% is needed at 11.7%, enough at 11.8%)
+    need, enough = (toward(rv, r.robustness_value, up=up, scale=100) for up in (False, True))
     text = (
         f"Bringing the estimate to {goal} would take a hidden confounder that explains at "
-        f"least {rv} of the treatment's variation left after the measured covariates, or at "
-        f"least {rv} of the outcome's left after the treatment and covariates: one below {rv} "
-        f"on both could not, and one at {rv} on both would (the robustness value)"
+        f"least {need} of the treatment's variation left after the measured covariates, or at "
+        f"least {need} of the outcome's left after the treatment and covariates: one below "
+        f"{need} on both could not, and one at {enough} on both would (the robustness value)"
     )
     if r.robustness_value_alpha == 0:
         text += (
@@ -224,7 +227,7 @@ def sentence(r: PartialR2Result) -> str:
     else:
         text += (
             f". For the {_level(r)} confidence interval to include {goal}, a confounder below "
-            f"{rva} on both could not"
+            f"{toward(rva, r.robustness_value_alpha, up=False, scale=100)} on both could not"
         )
     bench = [s for s in r.scenarios if s.kind == "benchmark" and not s.impossible]
     if bench:
