@@ -614,3 +614,19 @@ def test_the_fourier_routes_helpers_are_scipys():
     assert [_fast_length(n) for n in range(1, 5000)] == [next_fast_len(n) for n in range(1, 5000)]
     x = np.concatenate([np.linspace(-800, 800, 20001), [-np.inf, np.inf]])
     np.testing.assert_allclose(_expit(x), expit(x), rtol=4e-16, atol=0)
+
+
+@pytest.mark.parametrize(
+    "extra, says",
+    [
+        (["--data", "demo/matched_pairs.csv", "--treated", "night_shift_sbp", "--control",
+          "day_shift_sbp", "--discordant", "80", "--treated-events", "58"], "not both"),
+        (["--discordant", "80", "--treated-events", "58", "--treated", "night_shift_sbp"],
+         "give --data too"),
+    ],
+)  # fmt: skip
+def test_options_of_the_other_input_are_refused_not_ignored(run, extra, says):
+    # found by a new user's trial: the counts given beside --data were silently ignored
+    res = run("matched", *extra)
+    assert res.exit_code == 2 and says in res.stderr, res.stderr
+    assert len(res.stderr.strip().splitlines()) <= 3 and "Traceback" not in res.stderr

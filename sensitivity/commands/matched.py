@@ -58,6 +58,15 @@ def matched_cmd(data: Any, treated: Any, control: Any, differences: Any, discord
     from sensitivity.tipping.ranges import parse_range
 
     grid = parse_range(gamma, "gamma")
+    counts = discordant is not None or treated_events is not None
+    if data and counts:  # one or the other: neither is left unused without a word
+        raise click.UsageError(
+            "give --data with the pairs, or --discordant and --treated-events (a binary "
+            "outcome's counts), not both"
+        )
+    if not data and (treated or control or differences):
+        raise click.UsageError("--treated, --control and --differences name columns of --data; "
+                               "give --data too")  # fmt: skip
     if data:
         from sensitivity.adapters.matched import matched_differences
 
