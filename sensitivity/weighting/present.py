@@ -8,7 +8,7 @@ from typing import Any
 from ..common.levels import level_text
 from ..common.notes import REFERENCES
 from ..output.document import Block, Document, Figure, prose, standard_tail
-from ..output.tables import Table, number
+from ..output.tables import Table, number, toward
 from .result import WeightingResult
 
 METHOD_NAMES = {
@@ -152,19 +152,12 @@ def sentence(r: WeightingResult) -> str:
         box_text = f"{box:.3f}"
     # "could ... by up to Λ" holds only at or above the crossing: the printed Λ is rounded
     # up (1.0947 printed 1.09 said a factor of 1.09 could, which falls short)
-    up = _rounded_up(sharp)
+    up = toward(f"{sharp:.3f}", sharp, up=True)
     return head + (
         f". Under the marginal sensitivity model its {level} interval first includes {tgt} at "
         f"Λ = {up} by the sharp bounds (at Λ = {box_text} by the box bounds, which are "
         f"wider): by the sharp bounds, " + could.format(lam=up) + "."
     )
-
-
-def _rounded_up(value: float) -> str:
-    """`value` to three decimals, rounded up: a factor that could is at least the crossing."""
-    import math
-
-    return f"{math.ceil(round(value * 1000, 6)) / 1000:.3f}"
 
 
 def _box_only(r: WeightingResult, box: float | None, level: str) -> str:
